@@ -1,0 +1,379 @@
+package diag
+
+import (
+	"errors"
+	"fmt"
+)
+
+// EngineVersion is the version of the analysis engine, recorded with
+// every result.
+const EngineVersion = "0.1.0"
+
+// LineError reports a data problem with one line of a measurement set.
+type LineError struct {
+	// Index is the position of the line in Measurement.Lines.
+	Index int
+	// Upper is its upper level.
+	Upper int
+	// Err is the underlying problem.
+	Err error
+}
+
+func (e *LineError) Error() string {
+	return fmt.Sprintf("diag: lines[%d] (n=%d): %v", e.Index, e.Upper, trimDiag(e.Err.Error()))
+}
+
+func (e *LineError) Unwrap() error { return e.Err }
+
+func trimDiag(s string) string {
+	if len(s) > 6 && s[:6] == "diag: " {
+		return s[6:]
+	}
+	return s
+}
+
+// Result is the full analysis of one measurement set. Pointer fields are
+// nil (JSON null) when the quantity is undefined.
+type Result struct {
+	EngineVersion string `json:"engine_version"`
+	Constants     string `json:"constants"`
+	Isotope       string `json:"isotope"`
+	IntensityUnit string `json:"intensity_unit"`
+
+	// ExcitationTemperatureK is the Boltzmann-plot excitation temperature
+	// of the Balmer upper levels (never an electron temperature).
+	ExcitationTemperatureK    *float64        `json:"excitation_temperature_K"`
+	ExcitationTemperatureUncK *float64        `json:"excitation_temperature_unc_K"`
+	Boltzmann                 BoltzmannResult `json:"boltzmann"`
+
+	// ElectronDensityM3 is the best estimate (Hβ preferred, physics.md §4).
+	ElectronDensityM3     *float64 `json:"electron_density_m3"`
+	ElectronDensityUncM3  *float64 `json:"electron_density_unc_m3"`
+	ElectronDensityCM3    *float64 `json:"electron_density_cm3"`
+	ElectronDensityUncCM3 *float64 `json:"electron_density_unc_cm3"`
+	// ElectronDensitySource names the line and relation of the best estimate.
+	ElectronDensitySource string `json:"electron_density_source"`
+
+	// GasTemperatureK is the gas temperature used for Doppler and van der
+	// Waals widths; GasTemperatureSource is "given", "two-line" or "none".
+	GasTemperatureK      *float64 `json:"gas_temperature_K"`
+	GasTemperatureUncK   *float64 `json:"gas_temperature_unc_K"`
+	GasTemperatureSource string   `json:"gas_temperature_source"`
+
+	TwoLine      *TwoLineSummary      `json:"two_line,omitempty"`
+	InglisTeller *InglisTellerSummary `json:"inglis_teller,omitempty"`
+	Validity     ValiditySummary      `json:"validity"`
+
+	Lines []LineResult `json:"lines"`
+	// Relations lists every Stark relation used, with its citation and
+	// validity range.
+	Relations []RelationSummary `json:"stark_relations_used"`
+	// Perturber is the van der Waals perturber used.
+	Perturber PerturberSummary `json:"perturber"`
+
+	// Flags are structured warnings; Warnings repeats their messages.
+	Flags    []Flag   `json:"flags"`
+	Warnings []string `json:"warnings"`
+}
+
+// LineResult is the analysis of one line.
+type LineResult struct {
+	UpperLevel      int     `json:"upper_level"`
+	Name            string  `json:"name"`
+	WavelengthAirNM float64 `json:"wavelength_air_nm"`
+	WavelengthVacNM float64 `json:"wavelength_vac_nm"`
+	UpperEnergyEV   float64 `json:"upper_energy_eV"`
+	GUpper          int     `json:"g_upper"`
+	EinsteinA       float64 `json:"einstein_A_per_s"`
+	OscillatorF     float64 `json:"oscillator_f"`
+
+	Intensity    *float64 `json:"intensity"`
+	IntensityUnc *float64 `json:"intensity_unc"`
+	InBoltzmann  bool     `json:"in_boltzmann_fit"`
+
+	MeasuredFWHMNM   *float64    `json:"fwhm_nm"`
+	LorentzFWHMNM    *float64    `json:"lorentz_fwhm_nm"`
+	LorentzFWHMUncNM *float64    `json:"lorentz_fwhm_unc_nm"`
+	LorentzSource    string      `json:"lorentz_source,omitempty"`
+	Budget           *BudgetView `json:"broadening_budget"`
+
+	StarkFWHMNM          *float64 `json:"stark_fwhm_nm"`
+	StarkFWHMUncNM       *float64 `json:"stark_fwhm_unc_nm"`
+	StarkRelation        string   `json:"stark_relation,omitempty"`
+	ElectronDensityM3    *float64 `json:"electron_density_m3"`
+	ElectronDensityUncM3 *float64 `json:"electron_density_unc_m3"`
+	Notes                []string `json:"notes,omitempty"`
+
+	flags []Flag
+}
+
+// BudgetView is the JSON form of a line's broadening budget (all FWHM, nm).
+type BudgetView struct {
+	InstrumentGaussNM   float64 `json:"instrument_gauss_nm"`
+	InstrumentLorentzNM float64 `json:"instrument_lorentz_nm"`
+	DopplerNM           float64 `json:"doppler_nm"`
+	NaturalNM           float64 `json:"natural_nm"`
+	ResonanceNM         float64 `json:"resonance_nm"`
+	VanDerWaalsNM       float64 `json:"van_der_waals_nm"`
+	GaussTotalNM        float64 `json:"gauss_total_nm"`
+	LorentzNonStarkNM   float64 `json:"lorentz_non_stark_nm"`
+}
+
+// RelationSummary describes a Stark relation used.
+type RelationSummary struct {
+	ID         string  `json:"id"`
+	UpperLevel int     `json:"upper_level"`
+	Width      string  `json:"width_kind"`
+	Citation   string  `json:"citation"`
+	MinNeM3    float64 `json:"min_ne_m3"`
+	MaxNeM3    float64 `json:"max_ne_m3"`
+	Verified   bool    `json:"verified"`
+	Provenance string  `json:"provenance"`
+}
+
+// PerturberSummary describes the van der Waals perturber used.
+type PerturberSummary struct {
+	Name              string  `json:"name"`
+	PolarizabilityCM3 float64 `json:"polarizability_cm3"`
+	Source            string  `json:"source"`
+}
+
+// TwoLineSummary is the simultaneous (n_e, T_g) solution from Hα and Hβ.
+type TwoLineSummary struct {
+	ElectronDensityM3    float64 `json:"electron_density_m3"`
+	ElectronDensityUncM3 float64 `json:"electron_density_unc_m3"`
+	GasTemperatureK      float64 `json:"gas_temperature_K"`
+	GasTemperatureUncK   float64 `json:"gas_temperature_unc_K"`
+	Iterations           int     `json:"iterations"`
+}
+
+// InglisTellerSummary is the Inglis–Teller estimate.
+type InglisTellerSummary struct {
+	LastResolvedUpper int     `json:"last_resolved_upper_level"`
+	IonDensityM3      float64 `json:"ion_density_m3"`
+	Note              string  `json:"note"`
+}
+
+// Flag codes of the analysis (besides the Boltzmann ones).
+const (
+	FlagUncalibrated     = "intensity_uncalibrated"
+	FlagNoGasTemperature = "gas_temperature_unknown"
+	FlagNoStarkWidth     = "stark_width_not_resolved"
+	FlagNoRelation       = "stark_no_relation"
+	FlagRelationRange    = "stark_relation_range"
+	FlagDensityDisagree  = "density_lines_disagree"
+	FlagUnverified       = "coefficients_unverified"
+	FlagLTE              = "lte_validity"
+)
+
+// densityPreference is the order in which lines supply the best n_e
+// estimate: Hβ first (weak dependence on T and ion dynamics), then Hα
+// (physics.md §4.1).
+var densityPreference = []int{4, 3}
+
+// Analyze runs the whole analysis of a measurement set: Boltzmann plot,
+// broadening budget and Stark density per line, the best density, the
+// two-line solution when asked, the Inglis–Teller estimate and the
+// (partial) LTE checks. Data problems with a line return a *LineError;
+// everything that can still be computed is computed, and what cannot is
+// null in the result with a flag saying why.
+func Analyze(m Measurement) (Result, error) {
+	res := Result{EngineVersion: EngineVersion, Constants: ConstantsSet,
+		Isotope: m.Isotope.String(), IntensityUnit: m.Unit.String(), GasTemperatureSource: "none"}
+	pert, err := LookupPerturber(m.Perturber)
+	if err != nil {
+		return res, err
+	}
+	res.Perturber = PerturberSummary{pert.Name, pert.PolarizabilityCM3, pert.Source}
+	if m.PressurePa == 0 {
+		pert = NoPerturber
+	}
+
+	trs := make([]Transition, len(m.Lines))
+	seen := map[int]bool{}
+	for i, l := range m.Lines {
+		t, err := Balmer(l.Upper, m.Isotope)
+		if err != nil {
+			return res, &LineError{i, l.Upper, err}
+		}
+		if seen[l.Upper] {
+			return res, &LineError{i, l.Upper, errors.New("duplicate line")}
+		}
+		seen[l.Upper] = true
+		trs[i] = t
+	}
+
+	// Boltzmann plot.
+	var pts []BoltzmannPoint
+	for i, l := range m.Lines {
+		if l.Intensity <= 0 {
+			continue
+		}
+		t := trs[i]
+		pts = append(pts, BoltzmannPoint{Upper: l.Upper, EnergyEV: t.UpperEnergyEV, G: float64(t.GUpper),
+			A: t.EinsteinA, WavelengthNM: t.WavelengthVacNM, Intensity: l.Intensity,
+			IntensityUnc: l.IntensityUnc, Excluded: l.ExcludeFromBoltzmann})
+	}
+	bz, err := FitBoltzmann(pts, BoltzmannOptions{Unit: m.Unit})
+	if err != nil {
+		return res, err
+	}
+	res.Boltzmann = bz
+	res.Flags = append(res.Flags, bz.Flags...)
+	if bz.Defined {
+		res.ExcitationTemperatureK = ptr(bz.TemperatureK)
+		if bz.UncBasis != "none" {
+			res.ExcitationTemperatureUncK = ptr(bz.TemperatureUncK)
+		}
+	}
+	if len(pts) > 0 && !m.ResponseCorrected {
+		res.Flags = append(res.Flags, Flag{FlagUncalibrated,
+			"the intensities are not corrected for the spectrometer's relative spectral response: a Boltzmann plot on raw counts is meaningless (the response varies by factors of 2–10 between 380 and 660 nm)"})
+	}
+
+	// Gas temperature.
+	gasT, gasTUnc := m.GasTemperatureK, m.GasTemperatureUncK
+	if gasT > 0 {
+		res.GasTemperatureSource = "given"
+	}
+	inputs := make([]lineWidthInput, len(m.Lines))
+	for i, l := range m.Lines {
+		inputs[i] = lineWidthInput{line: l, t: trs[i]}
+		inputs[i].instG, inputs[i].instL = m.InstrumentGaussFWHMNM, m.InstrumentLorentzFWHMNM
+		if l.InstrumentGaussFWHMNM > 0 {
+			inputs[i].instG = l.InstrumentGaussFWHMNM
+		}
+		if l.InstrumentLorentzFWHMNM > 0 {
+			inputs[i].instL = l.InstrumentLorentzFWHMNM
+		}
+	}
+	if m.SolveGasTemperature {
+		tl, err := solveTwoLineAnalysis(inputs, m, pert)
+		if err != nil {
+			return res, err
+		}
+		res.TwoLine = &tl
+		gasT, gasTUnc = tl.GasTemperatureK, tl.GasTemperatureUncK
+		res.GasTemperatureSource = "two-line"
+	}
+	if gasT > 0 {
+		res.GasTemperatureK = ptr(gasT)
+		if gasTUnc > 0 {
+			res.GasTemperatureUncK = ptr(gasTUnc)
+		}
+	}
+
+	// Widths, budgets and Stark densities per line.
+	for i, in := range inputs {
+		lr := lineResultBase(in.line, in.t)
+		lr.InBoltzmann = in.line.Intensity > 0 && !in.line.ExcludeFromBoltzmann && bz.N > 0
+		if in.line.FWHMNM > 0 || in.line.LorentzFWHMNM > 0 {
+			if gasT <= 0 && !anyFlag(res.Flags, FlagNoGasTemperature) {
+				res.Flags = append(res.Flags, Flag{FlagNoGasTemperature,
+					"no gas temperature was given: Doppler and van der Waals widths are left out of the budget, so the Stark widths and densities are upper limits"})
+			}
+			if err := analyzeWidth(&lr, in, m, pert, gasT, gasTUnc); err != nil {
+				return res, &LineError{i, in.line.Upper, err}
+			}
+		}
+		res.Lines = append(res.Lines, lr)
+	}
+
+	// Relations used, their warnings, and the best estimate.
+	used := map[string]bool{}
+	for _, lr := range res.Lines {
+		if lr.StarkRelation == "" || used[lr.StarkRelation] {
+			continue
+		}
+		used[lr.StarkRelation] = true
+		r, _ := LookupStarkRelation(lr.StarkRelation)
+		res.Relations = append(res.Relations, RelationSummary{r.ID, r.Upper, r.Kind.String(), r.Citation,
+			r.MinNeM3, r.MaxNeM3, r.Verified, r.Provenance})
+		if !r.Verified {
+			res.Flags = append(res.Flags, Flag{FlagUnverified, fmt.Sprintf(
+				"the coefficients of Stark relation %s are from memory and not yet checked against the publication: treat the densities as provisional", r.ID)})
+		}
+	}
+	for _, lr := range res.Lines {
+		res.Flags = append(res.Flags, lr.flags...)
+	}
+	for _, n := range densityPreference {
+		for _, lr := range res.Lines {
+			if lr.UpperLevel == n && lr.ElectronDensityM3 != nil {
+				res.ElectronDensityM3 = ptr(*lr.ElectronDensityM3)
+				res.ElectronDensityCM3 = ptr(*lr.ElectronDensityM3 * 1e-6)
+				if lr.ElectronDensityUncM3 != nil {
+					res.ElectronDensityUncM3 = ptr(*lr.ElectronDensityUncM3)
+					res.ElectronDensityUncCM3 = ptr(*lr.ElectronDensityUncM3 * 1e-6)
+				}
+				res.ElectronDensitySource = fmt.Sprintf("%s (%s)", lr.Name, lr.StarkRelation)
+				break
+			}
+		}
+		if res.ElectronDensityM3 != nil {
+			break
+		}
+	}
+	res.Flags = append(res.Flags, densityConsistency(res.Lines)...)
+
+	// Inglis–Teller.
+	if m.LastResolvedUpper > 0 {
+		res.InglisTeller = &InglisTellerSummary{m.LastResolvedUpper, InglisTellerDensityM3(m.LastResolvedUpper),
+			"order-of-magnitude ion density from the last resolved Balmer member (Inglis & Teller 1939); spectrometer resolution and Doppler width also limit the last resolved member"}
+	}
+
+	// Validity.
+	res.Validity = validitySummary(res, m)
+	res.Flags = append(res.Flags, res.Validity.Flags...)
+
+	for _, f := range res.Flags {
+		res.Warnings = append(res.Warnings, f.Message)
+	}
+	if res.Warnings == nil {
+		res.Warnings = []string{}
+	}
+	if res.Flags == nil {
+		res.Flags = []Flag{}
+	}
+	return res, nil
+}
+
+type lineWidthInput struct {
+	line         MeasuredLine
+	t            Transition
+	instG, instL float64
+}
+
+// note records a per-line remark, both on the line and as a flag.
+func (lr *LineResult) note(code, format string, args ...any) {
+	msg := fmt.Sprintf(format, args...)
+	lr.Notes = append(lr.Notes, msg)
+	lr.flags = append(lr.flags, Flag{code, lr.Name + ": " + msg})
+}
+
+func ptr(v float64) *float64 { return &v }
+
+func anyFlag(fs []Flag, code string) bool {
+	for _, f := range fs {
+		if f.Code == code {
+			return true
+		}
+	}
+	return false
+}
+
+func lineResultBase(l MeasuredLine, t Transition) LineResult {
+	lr := LineResult{UpperLevel: l.Upper, Name: t.Name(), WavelengthAirNM: t.WavelengthAirNM,
+		WavelengthVacNM: t.WavelengthVacNM, UpperEnergyEV: t.UpperEnergyEV, GUpper: t.GUpper,
+		EinsteinA: t.EinsteinA, OscillatorF: t.OscillatorF}
+	if l.Intensity > 0 {
+		lr.Intensity = ptr(l.Intensity)
+		if l.IntensityUnc > 0 {
+			lr.IntensityUnc = ptr(l.IntensityUnc)
+		}
+	}
+	if l.FWHMNM > 0 {
+		lr.MeasuredFWHMNM = ptr(l.FWHMNM)
+	}
+	return lr
+}

@@ -1,0 +1,188 @@
+package diag
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"strings"
+)
+
+// lineBudget builds the broadening budget of one line at gas temperature
+// gasT; gasT ≤ 0 (unknown) leaves out the Doppler and van der Waals parts.
+func lineBudget(in lineWidthInput, m Measurement, pert Perturber, gasT float64) (Budget, error) {
+	bi := BudgetInput{Transition: in.t, InstrumentGaussNM: in.instG, InstrumentLorentzNM: in.instL,
+		GasTempK: gasT, Perturber: pert, PressurePa: m.PressurePa, GroundDensityM3: m.GroundStateDensityM3}
+	unknown := gasT <= 0
+	if unknown {
+		// Any positive temperature serves: its Doppler and van der Waals
+		// parts are removed below.
+		bi.GasTempK, bi.Perturber, bi.PressurePa = 300, NoPerturber, 0
+	}
+	b, err := NewBudget(bi)
+	if err != nil {
+		return b, err
+	}
+	if unknown {
+		b.DopplerNM, b.VanDerWaalsNM = 0, 0
+		b.GaussTotalNM = in.instG
+		b.LorentzNonStarkNM = b.LorentzOtherNM
+	}
+	return b, nil
+}
+
+// lorentzOf returns the Lorentzian FWHM of a line at gas temperature gasT:
+// the given Lorentzian width, or the Olivero–Longbothum inversion of the
+// measured Voigt FWHM with the Gaussian budget.
+func lorentzOf(in lineWidthInput, b Budget, voigt float64) (float64, error) {
+	if in.line.LorentzFWHMNM > 0 {
+		return in.line.LorentzFWHMNM, nil
+	}
+	l, err := LorentzFromVoigt(voigt, b.GaussTotalNM)
+	if err != nil {
+		return 0, err
+	}
+	return l, nil
+}
+
+// analyzeWidth fills the width, budget and Stark fields of lr.
+func analyzeWidth(lr *LineResult, in lineWidthInput, m Measurement, pert Perturber, gasT, gasTUnc float64) error {
+	b, err := lineBudget(in, m, pert, gasT)
+	if err != nil {
+		return err
+	}
+	lr.Budget = &BudgetView{b.InstrumentGaussNM, b.InstrumentLorentzNM, b.DopplerNM, b.NaturalNM,
+		b.ResonanceNM, b.VanDerWaalsNM, b.GaussTotalNM, b.LorentzNonStarkNM}
+	l := in.line
+	var lor, lorUnc float64
+	if l.LorentzFWHMNM > 0 {
+		lor, lorUnc = l.LorentzFWHMNM, l.LorentzFWHMUncNM
+		lr.LorentzSource = "given"
+	} else {
+		lor, err = lorentzOf(in, b, l.FWHMNM)
+		if errors.Is(err, ErrBelowResolution) {
+			return fmt.Errorf("measured FWHM %.4g nm is narrower than its Gaussian budget %.4g nm (instrument %.4g nm, Doppler %.4g nm)",
+				l.FWHMNM, b.GaussTotalNM, b.InstrumentGaussNM, b.DopplerNM)
+		}
+		if err != nil {
+			return err
+		}
+		lr.LorentzSource = "voigt-inversion"
+		if l.FWHMUncNM > 0 {
+			lorUnc = l.FWHMUncNM * numDeriv(func(v float64) float64 {
+				x, err := LorentzFromVoigt(v, b.GaussTotalNM)
+				if err != nil {
+					return 0
+				}
+				return x
+			}, l.FWHMNM)
+		}
+	}
+	lr.LorentzFWHMNM = ptr(lor)
+	if lorUnc > 0 {
+		lr.LorentzFWHMUncNM = ptr(lorUnc)
+	}
+	stark := lor - b.LorentzNonStarkNM
+	if !(stark > 0) {
+		lr.note(FlagNoStarkWidth, "the Lorentzian width %.4g nm is not larger than the non-Stark Lorentzian budget %.4g nm (van der Waals %.4g nm): the Stark width is not resolved and no density is given",
+			lor, b.LorentzNonStarkNM, b.VanDerWaalsNM)
+		return nil
+	}
+	// The Stark width's 1σ: the width's own σ, and the gas temperature's
+	// σ through the Doppler and van der Waals parts (first order).
+	starkAt := func(tg float64) float64 {
+		bb, err := lineBudget(in, m, pert, tg)
+		if err != nil {
+			return math.NaN()
+		}
+		ll, err := lorentzOf(in, bb, l.FWHMNM)
+		if err != nil {
+			return math.NaN()
+		}
+		return ll - bb.LorentzNonStarkNM
+	}
+	sigT := 0.0
+	if gasT > 0 && gasTUnc > 0 {
+		sigT = gasTUnc * numDeriv(starkAt, gasT)
+		if math.IsNaN(sigT) {
+			sigT = 0
+		}
+	}
+	starkUnc := math.Hypot(lorUnc, sigT)
+	lr.StarkFWHMNM = ptr(stark)
+	if starkUnc > 0 {
+		lr.StarkFWHMUncNM = ptr(starkUnc)
+	}
+
+	var rel StarkRelation
+	if id, ok := m.StarkRelations[l.Upper]; ok {
+		rel, err = LookupStarkRelation(id)
+	} else {
+		rel, err = DefaultStarkRelation(l.Upper)
+	}
+	if err != nil {
+		lr.note(FlagNoRelation, "no Stark-width relation is available for this line (only Hα and Hβ have published fits implemented), so its width gives no density")
+		return nil
+	}
+	lr.StarkRelation = rel.ID
+	ne := rel.DensityFromLorentzianNM(stark)
+	lr.ElectronDensityM3 = ptr(ne)
+	if starkUnc > 0 {
+		lr.ElectronDensityUncM3 = ptr(ne * DensityRelSigma(rel.Exponent, starkUnc/stark))
+	}
+	for _, w := range rel.Warnings(ne, 0) {
+		if rel.Verified || !isUnverifiedNote(w) {
+			lr.note(FlagRelationRange, "%s", w)
+		}
+	}
+	return nil
+}
+
+// isUnverifiedNote reports whether a relation warning is the generic
+// "coefficients unverified" one, which the analysis reports once per
+// relation instead of once per line.
+func isUnverifiedNote(w string) bool {
+	lw := strings.ToLower(w)
+	return strings.Contains(lw, "unverified") || strings.Contains(lw, "from memory")
+}
+
+// numDeriv is a central-difference derivative with a relative step.
+func numDeriv(f func(float64) float64, x float64) float64 {
+	h := 1e-6 * math.Max(math.Abs(x), 1e-12)
+	return math.Abs(f(x+h)-f(x-h)) / (2 * h)
+}
+
+// unknownSpreadLimit is the relative difference between line densities
+// beyond which they are flagged when no width uncertainties were given.
+// Common practice, no source.
+const unknownSpreadLimit = 0.3
+
+// densityConsistency flags lines whose densities disagree by more than
+// twice their combined 1σ (or, without uncertainties, by more than
+// unknownSpreadLimit relative to their mean).
+func densityConsistency(lines []LineResult) []Flag {
+	var out []Flag
+	for i := range lines {
+		for j := i + 1; j < len(lines); j++ {
+			a, b := lines[i], lines[j]
+			if a.ElectronDensityM3 == nil || b.ElectronDensityM3 == nil {
+				continue
+			}
+			d := math.Abs(*a.ElectronDensityM3 - *b.ElectronDensityM3)
+			if a.ElectronDensityUncM3 == nil || b.ElectronDensityUncM3 == nil {
+				if mean := (*a.ElectronDensityM3 + *b.ElectronDensityM3) / 2; d > unknownSpreadLimit*mean {
+					out = append(out, Flag{FlagDensityDisagree, fmt.Sprintf(
+						"%s and %s give electron densities %.3g and %.3g m⁻³, %.0f %% apart (no width uncertainties were given to judge the difference): check the instrument width, the gas temperature and self-absorption; the Hβ value is preferred",
+						a.Name, b.Name, *a.ElectronDensityM3, *b.ElectronDensityM3, 100*d/mean)})
+				}
+				continue
+			}
+			s := math.Hypot(*a.ElectronDensityUncM3, *b.ElectronDensityUncM3)
+			if d > 2*s {
+				out = append(out, Flag{FlagDensityDisagree, fmt.Sprintf(
+					"%s and %s give electron densities %.3g and %.3g m⁻³, which differ by more than twice their combined uncertainty: check the instrument width, the gas temperature and self-absorption; the Hβ value is preferred",
+					a.Name, b.Name, *a.ElectronDensityM3, *b.ElectronDensityM3)})
+			}
+		}
+	}
+	return out
+}
