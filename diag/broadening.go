@@ -281,6 +281,9 @@ func LorentzFromVoigt(wV, wG float64) (float64, error) {
 	if wG > wV {
 		return 0, fmt.Errorf("%w: Voigt FWHM %g is narrower than Gaussian FWHM %g", ErrBelowResolution, wV, wG)
 	}
+	if wV == 0 {
+		return 0, nil
+	}
 	d := olA*olA - olB
 	return (wV - wG) * (wV + wG) / (olA*wV + math.Sqrt(olB*wV*wV+d*wG*wG)), nil
 }
