@@ -1,0 +1,463 @@
+package specfile
+
+import (
+	"fmt"
+	"io"
+	"strings"
+	"unicode"
+)
+
+// ReadText reads a delimited-text spectrum (CSV and relatives) from r with
+// the default [Limits]; use [Read] to change them. name is used only in
+// error messages.
+//
+// The accepted layout, line by line:
+//
+//   - Blank lines, and lines holding only delimiters, are skipped.
+//   - Lines starting with "#", "%" or "//" are comments, and so are lines
+//     starting with ";" unless ';' is the delimiter. A comment of the form
+//     "key: value" or "key = value" (key starting with a letter) is stored
+//     in Spectrum.Meta; the key "title" (any case) also sets Title.
+//   - The first non-comment line is a header row if none of its fields is
+//     a number. Header names give the X unit ("wavelength_nm",
+//     "Wavelength (nm)", "lambda [A]", "wavenumber/cm-1", "λ (Å)",
+//     "wavelength_um") and the Y unit ("intensity (counts)", "counts").
+//     A wavelength column without a unit gives UnknownUnit, never a guess.
+//   - Every other line is a data row with the same number of columns as the
+//     first data row. One trailing delimiter per row is ignored, and fields
+//     may be wrapped in double quotes (delimiters inside quotes are not).
+//   - Free-text preamble lines must be comments; there is no way to skip
+//     arbitrary leading lines.
+//
+// A UTF-8 BOM and CRLF line ends are accepted. See [TextOptions] for how the
+// delimiter, decimal separator, columns and unit are chosen; an explicit
+// option always overrides detection, and a conflict between TextOptions.XUnit
+// and the header's unit is an error (ErrUnitConflict) unless
+// TextOptions.ForceXUnit is set.
+//
+// Values are decimal numbers ("656.28", "-1.5e3"; "656,28" with a decimal
+// comma). NaN and infinities are rejected, as are hex floats and thousands
+// separators. X must be strictly monotonic; descending data are returned
+// reversed to ascending order.
+//
+// ReadText panics if opt is invalid: an unsupported Delimiter or Decimal, a
+// negative column, or XColumn == YColumn != 0. Errors about the data are
+// *ParseError values naming the line.
+func ReadText(name string, r io.Reader, opt TextOptions) (*Spectrum, error) {
+	lim := Limits{}.withDefaults()
+	data, err := readAll(name, r, lim)
+	if err != nil {
+		return nil, err
+	}
+	return parseText(name, data, opt, lim)
+}
+
+// textLine is a non-blank, non-comment line of a text file.
+type textLine struct {
+	num  int
+	s    string
+	semi bool // starts with ';': a comment unless ';' is the delimiter
+}
+
+func checkTextOptions(opt TextOptions) {
+	switch opt.Delimiter {
+	case 0, ',', ';', '\t', ' ':
+	default:
+		panic(fmt.Sprintf("specfile: unsupported TextOptions.Delimiter %q", opt.Delimiter))
+	}
+	switch opt.Decimal {
+	case 0, '.', ',':
+	default:
+		panic(fmt.Sprintf("specfile: unsupported TextOptions.Decimal %q", opt.Decimal))
+	}
+	if opt.Delimiter == ',' && opt.Decimal == ',' {
+		panic("specfile: TextOptions: ',' cannot be both delimiter and decimal separator")
+	}
+	if opt.XColumn < 0 || opt.YColumn < 0 {
+		panic("specfile: TextOptions: negative column")
+	}
+	if opt.XColumn != 0 && opt.XColumn == opt.YColumn {
+		panic("specfile: TextOptions: XColumn == YColumn")
+	}
+}
+
+func parseText(name string, data []byte, opt TextOptions, lim Limits) (*Spectrum, error) {
+	checkTextOptions(opt)
+	sp := &Spectrum{Meta: map[string]string{}, Format: FormatText}
+	sc := newLineScanner(name, data, lim)
+
+	// Pass 1: separate comments from content. ';'-prefixed lines are kept
+	// aside until the delimiter is known.
+	var content []textLine
+	for {
+		line, ok, err := sc.next()
+		if err != nil {
+			return nil, err
+		}
+		if !ok {
+			break
+		}
+		t := strings.TrimSpace(line)
+		switch {
+		case strings.Trim(t, ",;\t ") == "":
+			// blank, or delimiters only
+		case t[0] == '#' || t[0] == '%' || strings.HasPrefix(t, "//"):
+			addCommentMeta(sp, strings.TrimLeft(t, "#%/"))
+		default:
+			content = append(content, textLine{num: sc.num, s: t, semi: t[0] == ';'})
+		}
+	}
+
+	// Find the header candidate and the first data line among the
+	// unambiguous lines, and detect the delimiter from the latter.
+	delim := opt.Delimiter
+	if delim == 0 {
+		delim = ' '
+		seenFirst := false
+		for _, l := range content {
+			if l.semi {
+				continue
+			}
+			if !seenFirst {
+				seenFirst = true
+				if isHeaderLine(l.s) {
+					continue
+				}
+			}
+			delim = detectDelimiter(l.s)
+			break
+		}
+	}
+	if delim != ';' {
+		kept := content[:0]
+		for _, l := range content {
+			if l.semi {
+				addCommentMeta(sp, strings.TrimLeft(l.s, ";"))
+			} else {
+				kept = append(kept, l)
+			}
+		}
+		content = kept
+	}
+
+	var header *textLine
+	if len(content) > 0 && isHeaderLine(content[0].s) {
+		header = &content[0]
+		content = content[1:]
+	}
+	sink := &pointSink{name: name, lim: lim}
+	if len(content) == 0 {
+		return nil, sink.finish(sc.lastLine())
+	}
+
+	dec := opt.Decimal
+	if dec == 0 {
+		var err error
+		if dec, err = detectDecimal(name, content, delim); err != nil {
+			return nil, err
+		}
+	}
+
+	// Choose columns from the first data row.
+	first := content[0]
+	fields := splitFields(first.s, delim)
+	ncols := len(fields)
+	xc, yc := opt.XColumn-1, opt.YColumn-1
+	for _, c := range []int{xc, yc} {
+		if c >= ncols {
+			return nil, errf(name, first.num, ErrSyntax, "column %d requested but the line has %d columns", c+1, ncols)
+		}
+	}
+	if xc < 0 || yc < 0 {
+		var numeric []int
+		for i, f := range fields {
+			if _, ok := parseField(f, dec); ok {
+				numeric = append(numeric, i)
+			}
+		}
+		if xc < 0 {
+			for _, i := range numeric {
+				if i != yc {
+					xc = i
+					break
+				}
+			}
+		}
+		if yc < 0 {
+			for _, i := range numeric {
+				if i > xc {
+					yc = i
+					break
+				}
+			}
+		}
+		if xc < 0 || yc < 0 {
+			return nil, errf(name, first.num, ErrSyntax, "need two numeric columns, found %d", len(numeric))
+		}
+	}
+
+	// Units from the header, if its columns line up with the data.
+	var headerUnit AxisUnit
+	if header != nil {
+		sp.Meta["header"] = header.s
+		names := splitHeader(header.s, delim, ncols)
+		switch {
+		case len(names) == ncols:
+			sp.Meta["x_column"] = names[xc]
+			sp.Meta["y_column"] = names[yc]
+			headerUnit = unitFromName(names[xc])
+			sp.YUnit = yUnitFromName(names[yc])
+		case delim != ' ':
+			return nil, errf(name, header.num, ErrSyntax, "header has %d columns but data line %d has %d", len(names), first.num, ncols)
+		}
+	}
+	sp.XUnit = headerUnit
+	if opt.XUnit != UnknownUnit {
+		if headerUnit != UnknownUnit && headerUnit != opt.XUnit && !opt.ForceXUnit {
+			return nil, errf(name, header.num, ErrUnitConflict, "header declares x unit %s but %s was requested", headerUnit, opt.XUnit)
+		}
+		sp.XUnit = opt.XUnit
+	}
+
+	sink.x = make([]float64, 0, min(len(content), lim.MaxPoints))
+	sink.y = make([]float64, 0, min(len(content), lim.MaxPoints))
+	for _, l := range content {
+		fields = splitFields(l.s, delim)
+		if len(fields) != ncols {
+			return nil, errf(name, l.num, ErrSyntax, "line has %d columns, expected %d as on line %d", len(fields), ncols, first.num)
+		}
+		x, err := fieldValue(name, l.num, fields[xc], dec, "x value")
+		if err != nil {
+			return nil, err
+		}
+		y, err := fieldValue(name, l.num, fields[yc], dec, "intensity")
+		if err != nil {
+			return nil, err
+		}
+		if err := sink.add(x, y, l.num); err != nil {
+			return nil, err
+		}
+	}
+	if err := sink.finish(sc.lastLine()); err != nil {
+		return nil, err
+	}
+	sp.X, sp.Y = sink.x, sink.y
+	return sp, nil
+}
+
+// addCommentMeta stores "key: value" or "key = value" comment text.
+func addCommentMeta(sp *Spectrum, text string) {
+	text = strings.TrimSpace(text)
+	i := strings.IndexAny(text, ":=")
+	if i <= 0 {
+		return
+	}
+	key := strings.TrimSpace(text[:i])
+	val := strings.TrimSpace(text[i+1:])
+	if key == "" || len(key) > 64 || !unicode.IsLetter([]rune(key)[0]) {
+		return
+	}
+	sp.Meta[key] = val
+	if strings.EqualFold(key, "title") {
+		sp.Title = val
+	}
+}
+
+// isHeaderLine reports whether no field of s, split at any delimiter, is a
+// number (with either decimal separator).
+func isHeaderLine(s string) bool {
+	for f := range strings.FieldsFuncSeq(s, func(r rune) bool {
+		return r == ',' || r == ';' || r == '\t' || r == ' '
+	}) {
+		f = unquote(f)
+		if _, _, ok := parseDecimal(f); ok {
+			return false
+		}
+	}
+	return true
+}
+
+// detectDelimiter picks the delimiter of a data line; see TextOptions.
+func detectDelimiter(s string) rune {
+	switch {
+	case strings.ContainsRune(s, '\t'):
+		return '\t'
+	case strings.ContainsRune(s, ';'):
+		return ';'
+	case strings.ContainsRune(s, ','):
+		for f := range strings.SplitSeq(s, ",") {
+			if strings.ContainsAny(strings.TrimSpace(f), " \t") {
+				return ' ' // "656,28 1234,5": decimal commas
+			}
+		}
+		return ','
+	}
+	return ' '
+}
+
+// detectDecimal decides the decimal separator from the first data line
+// that contains a '.' or a ','.
+func detectDecimal(name string, content []textLine, delim rune) (rune, error) {
+	if delim == ',' {
+		return '.', nil
+	}
+	for _, l := range content {
+		dot := strings.ContainsRune(l.s, '.')
+		comma := strings.ContainsRune(l.s, ',')
+		switch {
+		case dot && comma:
+			return 0, errf(name, l.num, ErrSyntax, "ambiguous decimal separator: line has both '.' and ','")
+		case comma:
+			return ',', nil
+		case dot:
+			return '.', nil
+		}
+	}
+	return '.', nil
+}
+
+// splitFields splits a data line and trims and unquotes each field. One
+// trailing empty field (a trailing delimiter) is dropped.
+func splitFields(s string, delim rune) []string {
+	if delim == ' ' {
+		fs := strings.Fields(s)
+		for i := range fs {
+			fs[i] = unquote(fs[i])
+		}
+		return fs
+	}
+	fs := strings.Split(s, string(delim))
+	for i := range fs {
+		fs[i] = unquote(strings.TrimSpace(fs[i]))
+	}
+	if len(fs) > 1 && fs[len(fs)-1] == "" {
+		fs = fs[:len(fs)-1]
+	}
+	return fs
+}
+
+// splitHeader splits a header row. For whitespace-delimited files, where
+// names like "Wavelength (nm)" contain spaces, it tries runs of two or
+// more blanks, then gluing "(unit)" and "[unit]" tokens to the name before.
+func splitHeader(s string, delim rune, ncols int) []string {
+	fs := splitFields(s, delim)
+	if delim != ' ' || len(fs) == ncols {
+		return fs
+	}
+	var wide []string
+	for _, f := range strings.Split(strings.ReplaceAll(s, "\t", "  "), "  ") {
+		if f = strings.TrimSpace(f); f != "" {
+			wide = append(wide, unquote(f))
+		}
+	}
+	if len(wide) == ncols {
+		return wide
+	}
+	var glued []string
+	for _, f := range fs {
+		if len(glued) > 0 && (f[0] == '(' || f[0] == '[') {
+			glued[len(glued)-1] += " " + f
+		} else {
+			glued = append(glued, f)
+		}
+	}
+	return glued
+}
+
+func unquote(f string) string {
+	if len(f) >= 2 && f[0] == '"' && f[len(f)-1] == '"' {
+		return strings.TrimSpace(f[1 : len(f)-1])
+	}
+	return f
+}
+
+// parseField parses a numeric field with the given decimal separator.
+func parseField(f string, dec rune) (float64, bool) {
+	if dec == ',' {
+		if strings.ContainsRune(f, '.') {
+			return 0, false
+		}
+		f = strings.Replace(f, ",", ".", 1)
+	}
+	v, _, ok := parseDecimal(f)
+	return v, ok
+}
+
+// fieldValue parses the field f of line num, describing failures as the
+// quantity what.
+func fieldValue(name string, num int, f string, dec rune, what string) (float64, error) {
+	if f == "" {
+		return 0, errf(name, num, ErrSyntax, "empty %s", what)
+	}
+	v, ok := parseField(f, dec)
+	if !ok {
+		bare := strings.ToLower(strings.TrimLeft(f, "+-"))
+		if bare == "nan" || bare == "inf" || bare == "infinity" {
+			return 0, errf(name, num, ErrNotFinite, "non-finite %s %q", what, f)
+		}
+		hint := ""
+		if dec == ',' && strings.ContainsRune(f, '.') {
+			hint = " (decimal separator is ',')"
+		} else if dec == '.' && strings.ContainsRune(f, ',') {
+			hint = " (decimal separator is '.')"
+		}
+		return 0, errf(name, num, ErrSyntax, "non-numeric %s %q%s", what, f, hint)
+	}
+	if !isFinite(v) {
+		return 0, errf(name, num, ErrNotFinite, "%s %q overflows float64", what, f)
+	}
+	return v, nil
+}
+
+// unitFromName infers an axis unit from a column name. It returns
+// UnknownUnit unless exactly one unit is indicated.
+func unitFromName(name string) AxisUnit {
+	l := strings.ToLower(name)
+	found := map[AxisUnit]bool{}
+	for _, p := range []string{"cm-1", "cm^-1", "cm**-1", "cm⁻¹", "1/cm", "wavenumber", "wave number"} {
+		if strings.Contains(l, p) {
+			found[WavenumberPerCM] = true
+		}
+	}
+	tokens := strings.FieldsFunc(l, func(r rune) bool { return !unicode.IsLetter(r) })
+	for i, t := range tokens {
+		switch t {
+		case "nm", "nanometer", "nanometers", "nanometre", "nanometres":
+			found[NM] = true
+		case "å", "angstrom", "angstroms", "ångström", "ångströms", "ang":
+			found[Angstrom] = true
+		case "a":
+			// "lambda [A]", but not "x (a.u.)".
+			if i > 0 && i == len(tokens)-1 {
+				found[Angstrom] = true
+			}
+		case "um", "µm", "μm", "micrometer", "micrometers", "micrometre", "micrometres", "micron", "microns":
+			found[Micrometer] = true
+		}
+	}
+	if len(found) != 1 {
+		return UnknownUnit
+	}
+	for u := range found {
+		return u
+	}
+	return UnknownUnit
+}
+
+// yUnitFromName returns the bracketed part of an intensity column name
+// ("intensity (counts)" → "counts"), or the name itself if it is a unit
+// word such as "counts", else "".
+func yUnitFromName(name string) string {
+	for _, br := range []string{"()", "[]"} {
+		i := strings.IndexByte(name, br[0])
+		j := strings.LastIndexByte(name, br[1])
+		if i >= 0 && j > i {
+			return strings.TrimSpace(name[i+1 : j])
+		}
+	}
+	switch strings.ToLower(name) {
+	case "counts", "count", "cps", "adu", "a.u.", "au", "arb", "arb. units", "arbitrary units":
+		return name
+	}
+	return ""
+}
