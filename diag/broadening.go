@@ -30,7 +30,8 @@ func dopplerFactor() float64 {
 //
 // References:
 //
-//	Griem, H. R. 1997, Principles of Plasma Spectroscopy (Cambridge), §4.1.
+//	Griem, H. R. 1997, Principles of Plasma Spectroscopy (Cambridge
+//	University Press).
 func DopplerFWHMNM(lambdaNM, gasTempK, massAMU float64) float64 {
 	if !(lambdaNM > 0) || !(massAMU > 0) || !(gasTempK >= 0) {
 		panic(fmt.Sprintf("diag: DopplerFWHMNM(λ=%g nm, T=%g K, M=%g u): need λ > 0, T ≥ 0, M > 0", lambdaNM, gasTempK, massAMU))
@@ -77,7 +78,8 @@ func broadCheckIsotope(t Transition, iso Isotope, fn string) {
 //
 // References:
 //
-//	Griem, H. R. 1997, Principles of Plasma Spectroscopy, §4.2.
+//	Griem, H. R. 1997, Principles of Plasma Spectroscopy (Cambridge
+//	University Press).
 func NaturalFWHMNM(t Transition, iso Isotope) float64 {
 	broadCheckIsotope(t, iso, "NaturalFWHMNM")
 	gamma := TotalDecayRate(t.Upper, iso)
@@ -200,7 +202,7 @@ func MeanSquareRadiusA0(n int) float64 {
 //
 // References:
 //
-//	Griem, H. R. 1964, Plasma Spectroscopy (McGraw-Hill), §4-4.
+//	Griem, H. R. 1964, Plasma Spectroscopy (McGraw-Hill).
 //	Allard, N. & Kielkopf, J. 1982, Rev. Mod. Phys. 54, 1103.
 func VanDerWaalsFWHMNM(t Transition, perturber Perturber, pressurePa, gasTempK float64) float64 {
 	return vanDerWaalsFWHMNM(t, perturber, EmitterMassAMU(t.Isotope), pressurePa, gasTempK)
@@ -226,7 +228,7 @@ func vanDerWaalsFWHMNM(t Transition, perturber Perturber, emitterAMU, pressurePa
 	return w * 1e7
 }
 
-// Olivero–Longbothum coefficients (Olivero & Longbothum 1977, eq. 4).
+// Olivero–Longbothum coefficients (Olivero & Longbothum 1977).
 const (
 	olA = 0.5346
 	olB = 0.2166

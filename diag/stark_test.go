@@ -202,12 +202,12 @@ func TestFWHAFromVoigt(t *testing.T) {
 	h := FWHAFromVoigt(wG, wL) / 2
 	sigma, gamma := wG/(2*math.Sqrt(2*math.Ln2)), wL/2
 	inner := 0.0
-	const n = 4000
+	const n = 2000
 	for i := 0; i < n; i++ {
 		x := -h + (float64(i)+0.5)*2*h/n
 		// Voigt(x) = ∫ G(g) L(x−g) dg by the midpoint rule over ±10σ.
 		var v float64
-		const m = 4000
+		const m = 2000
 		for k := 0; k < m; k++ {
 			g := -10*sigma + (float64(k)+0.5)*20*sigma/m
 			v += math.Exp(-0.5*g*g/(sigma*sigma)) / (sigma * math.Sqrt(2*math.Pi)) *
