@@ -24,7 +24,7 @@ type Perturber struct {
 	// Source says where PolarizabilityCM3 comes from.
 	Source string
 	// Verified is true when the polarizability was seen in a published
-	// table (possibly a transcription of it); false for values from
+	// table (possibly a reproduction of it); false for values from
 	// memory or derived here.
 	Verified bool
 }
@@ -32,9 +32,9 @@ type Perturber struct {
 // NoPerturber is the zero perturber: no van der Waals width.
 var NoPerturber = Perturber{Name: "none", Source: "no neutral perturber: van der Waals width is zero", Verified: true}
 
-// crcTranscription names the secondary source of most polarizabilities.
-const crcTranscription = "CRC Handbook of Chemistry and Physics, 100th ed., table " +
-	"\"Atomic and molecular polarizabilities\", as transcribed on a public web page " +
+// crcReproduction names the secondary source of most polarizabilities.
+const crcReproduction = "CRC Handbook of Chemistry and Physics, 100th ed., table " +
+	"\"Atomic and molecular polarizabilities\", as reproduced on a public web page " +
 	"(not checked against the printed Handbook)"
 
 // perturberTable holds the perturbers known to LookupPerturber. The
@@ -50,47 +50,47 @@ const crcTranscription = "CRC Handbook of Chemistry and Physics, 100th ed., tabl
 var perturberTable = []Perturber{
 	{
 		Name: "Ar", PolarizabilityCM3: 1.6411e-24, MassAMU: 39.948,
-		Source:   "CRC Handbook (\"Atomic and molecular polarizabilities\"); physics.md §5.4 [S]; " + crcTranscription + " gives the same 1.6411",
+		Source:   "CRC Handbook (\"Atomic and molecular polarizabilities\"); physics.md §5.4 [S]; " + crcReproduction + " gives the same 1.6411",
 		Verified: true,
 	},
 	{
 		Name: "He", PolarizabilityCM3: 0.2050522e-24, MassAMU: 4.002602,
-		Source:   crcTranscription + "; agrees with Dalgarno & Kingston 1960 (1.384 a₀³ = 0.2051e-24 cm³)",
+		Source:   crcReproduction + "; agrees with Dalgarno & Kingston 1960 (1.384 a₀³ = 0.2051e-24 cm³)",
 		Verified: true,
 	},
 	{
 		Name: "Ne", PolarizabilityCM3: 0.39432e-24, MassAMU: 20.1797,
-		Source:   crcTranscription + "; agrees with Dalgarno & Kingston 1960 (2.663 a₀³ = 0.3946e-24 cm³)",
+		Source:   crcReproduction + "; agrees with Dalgarno & Kingston 1960 (2.663 a₀³ = 0.3946e-24 cm³)",
 		Verified: true,
 	},
 	{
 		Name: "Kr", PolarizabilityCM3: 2.4844e-24, MassAMU: 83.798,
-		Source:   crcTranscription + "; Dalgarno & Kingston 1960 give 16.734 a₀³ = 2.4798e-24 cm³ (0.2 % lower)",
+		Source:   crcReproduction + "; Dalgarno & Kingston 1960 give 16.734 a₀³ = 2.4798e-24 cm³ (0.2 % lower)",
 		Verified: true,
 	},
 	{
 		Name: "Xe", PolarizabilityCM3: 4.044e-24, MassAMU: 131.293,
-		Source:   crcTranscription + "; agrees with Dalgarno & Kingston 1960 (27.292 a₀³ = 4.0443e-24 cm³)",
+		Source:   crcReproduction + "; agrees with Dalgarno & Kingston 1960 (27.292 a₀³ = 4.0443e-24 cm³)",
 		Verified: true,
 	},
 	{
 		Name: "N2", PolarizabilityCM3: 1.7403e-24, MassAMU: 28.0134,
-		Source:   crcTranscription + " (mean of the polarizability tensor)",
+		Source:   crcReproduction,
 		Verified: true,
 	},
 	{
-		// From memory, unverified. The transcription that gave the other
+		// From memory, unverified. The reproduction that gave the other
 		// entries lists 0.842 for H₂, which disagrees with both the value
 		// recalled here (0.8045) and the recalled theoretical static mean
 		// polarizability of the v = 0 ground state, about 5.41 a₀³ =
 		// 0.802e-24 cm³. The conflict is unresolved.
 		Name: "H2", PolarizabilityCM3: 0.8045e-24, MassAMU: 2.01588,
-		Source:   "CRC Handbook value from memory, unverified (a web transcription shows 0.842; theory ≈ 0.802); must be checked",
+		Source:   "CRC Handbook value from memory, unverified (a web reproduction of the table shows 0.842; theory ≈ 0.802); must be checked",
 		Verified: false,
 	},
 	{
 		// Derived here. (1) Mole-fraction average of N₂ 1.7403, O₂ 1.5689
-		// (same transcription), Ar 1.6411 and CO₂ ≈ 2.91 (from memory) with
+		// (same reproduction), Ar 1.6411 and CO₂ ≈ 2.91 (from memory) with
 		// the dry-air composition 0.78084/0.20946/0.00934/0.0004 (from
 		// memory): 1.7040e-24 cm³. (2) Static limit (s → 0) of the IAU
 		// standard-air refractivity (Morton 2000; Birch & Downs 1994),

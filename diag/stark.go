@@ -101,7 +101,7 @@ func griemCoefficientNM(alphaHalf float64) float64 {
 //     HWHM/FWHM confusion, so it is not implemented (physics.md §4.1);
 //   - Hγ: the Gigosos–González–Cardeñoso (2003) paper treats Hγ, but its
 //     coefficients have not been recovered. Hγ stays disabled until they
-//     are transcribed from the paper.
+//     are copied from the paper.
 var StarkRelations = []StarkRelation{
 	{
 		ID: "ggc2003-hbeta-fwhm", Upper: 4, Kind: FWHM,

@@ -87,7 +87,7 @@ func TestStarkTable(t *testing.T) {
 			t.Errorf("%s is unverified but its provenance does not say \"from memory, unverified\"", r.ID)
 		}
 		if r.Upper == 5 {
-			t.Errorf("%s: Hγ must stay disabled until the coefficients are transcribed", r.ID)
+			t.Errorf("%s: Hγ must stay disabled until the coefficients are copied from the paper", r.ID)
 		}
 		if r.Upper == 3 && r.Kind == FWHM {
 			t.Errorf("%s: the Hα FWHM variant (0.549 nm) must not be implemented", r.ID)
