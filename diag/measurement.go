@@ -29,7 +29,7 @@ type Measurement struct {
 	// broadening, m⁻³ (0 = neglected).
 	GroundStateDensityM3 float64
 	// StarkRelations overrides the Stark relation used for a line: upper
-	// level → relation ID (see StarkRelations()).
+	// level → relation ID (see the StarkRelations table).
 	StarkRelations map[int]string
 	// LastResolvedUpper is the highest resolved Balmer member, for the
 	// Inglis–Teller estimate (0 = not given).
