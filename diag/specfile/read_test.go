@@ -12,17 +12,17 @@ import (
 // when the files were made (see the comments in each file's header) and
 // checked by hand against the file text.
 var sampleTests = []struct {
-	file       string
-	format     Format
-	unit       AxisUnit
-	yunit      string
-	title      string
-	n          int
-	x0, xn     float64 // first and last X after reading (ascending)
-	y0, yn     float64
-	tol        float64 // on x0, xn: XFACTOR = 0.01 products are inexact
-	meta       map[string]string
-	ys         []float64 // full ordinates, when known
+	file   string
+	format Format
+	unit   AxisUnit
+	yunit  string
+	title  string
+	n      int
+	x0, xn float64 // first and last X after reading (ascending)
+	y0, yn float64
+	tol    float64 // on x0, xn: XFACTOR = 0.01 products are inexact
+	meta   map[string]string
+	ys     []float64 // full ordinates, when known
 }{
 	{file: "halpha_nm.csv", format: FormatText, unit: NM, yunit: "counts",
 		title: "Fenwick Hollow Plasma Lab, H-alpha, discharge 7", n: 20,
