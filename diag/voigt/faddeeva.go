@@ -9,6 +9,9 @@ import "math"
 // is 1.1e-13.
 const weidemanN = 40
 
+// weideman's two-step loop needs N to be a multiple of 8.
+var _ = [1]struct{}{}[weidemanN%8]
+
 // weidemanL is Weideman's optimal scale parameter L = √(N/√2),
 // Weideman (1994) eq. (38).
 var weidemanL = math.Sqrt(weidemanN / math.Sqrt2)
@@ -185,16 +188,24 @@ func weideman(x, y float64) complex128 {
 	s := z4r*z4r + z4i*z4i
 	a := &weidemanA
 	const n = weidemanN
-	// b_j holds b_{k+1}, c_j holds b_{k+2} of the recurrence
-	// b_k = a_k + r b_{k+1} − s b_{k+2} for chain j.
-	var b0, c0, b1, c1, b2, c2, b3, c3 float64
-	for k := n - 4; k >= 4; k -= 4 {
-		b0, c0 = a[k]+r*b0-s*c0, b0
-		b1, c1 = a[k+1]+r*b1-s*c1, b1
-		b2, c2 = a[k+2]+r*b2-s*c2, b2
-		b3, c3 = a[k+3]+r*b3-s*c3, b3
+	// Chain j is p_j(ζ) = Σ_m a[4m+j] ζ^m, m = 0 … M = N/4 − 1, evaluated by
+	// b_m = a[4m+j] + r b_{m+1} − s b_{m+2} from b_M = a[4M+j], b_{M+1} = 0
+	// down to b_1, then p_j(ζ) = a[j] − s b_2 + ζ b_1. Two steps per pass
+	// let the b and c variables alternate without copies; this needs N/4
+	// even (N a multiple of 8). On exit b_j = b_1 and c_j = b_2.
+	b0, b1, b2, b3 := a[n-4], a[n-3], a[n-2], a[n-1]
+	var c0, c1, c2, c3 float64
+	for k := n - 8; k >= 4; k -= 8 {
+		c0 = a[k] + r*b0 - s*c0
+		c1 = a[k+1] + r*b1 - s*c1
+		c2 = a[k+2] + r*b2 - s*c2
+		c3 = a[k+3] + r*b3 - s*c3
+		b0 = a[k-4] + r*c0 - s*b0
+		b1 = a[k-3] + r*c1 - s*b1
+		b2 = a[k-2] + r*c2 - s*b2
+		b3 = a[k-1] + r*c3 - s*b3
 	}
-	// p_j(ζ) = a_j − s c_j + ζ b_j.
+	// p_j(ζ) = a[j] − s b_2 + ζ b_1.
 	p0r, p0i := a[0]-s*c0+z4r*b0, z4i*b0
 	p1r, p1i := a[1]-s*c1+z4r*b1, z4i*b1
 	p2r, p2i := a[2]-s*c2+z4r*b2, z4i*b2
