@@ -36,9 +36,10 @@ import (
 //
 //   - the number of points must equal NPOINTS;
 //   - each XYDATA line's abscissa times XFACTOR must lie within half a
-//     point spacing (plus half a unit of its last written digit) of the x
-//     computed for its first ordinate, which checks FIRSTX on the first
-//     line, LASTX on the last and catches dropped or doubled values;
+//     point spacing, or half a unit of its last written digit if that is
+//     coarser, of the x computed for its first ordinate; this checks FIRSTX
+//     on the first line and LASTX on the last, and catches dropped or
+//     doubled values;
 //   - DELTAX, if given, must agree with (LASTX − FIRSTX)/(NPOINTS − 1) to
 //     1 part in 1000;
 //   - in DIF form the last ordinate of a line is repeated as the first of
@@ -424,7 +425,7 @@ func (d *blockDecoder) xyData(sink *pointSink, xf, yf float64) error {
 			first = count - 1
 		}
 		ax, want := dl.x*xf, xAt(first)
-		tol := 0.5*math.Abs(step) + 0.5*dl.xres*math.Abs(xf) + 1e-9*math.Abs(want)
+		tol := 0.5*math.Max(math.Abs(step), dl.xres*math.Abs(xf)) + 1e-9*math.Abs(want)
 		if !(math.Abs(ax-want) <= tol) {
 			return errf(d.name, l.num, ErrInconsistent, "abscissa %s (x = %g) does not match x = %g of point %d given by ##FIRSTX=, ##LASTX= and ##NPOINTS=", dl.xtok, ax, want, first+1)
 		}
