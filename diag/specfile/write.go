@@ -258,7 +258,9 @@ func writeDIFDUP(w *bufio.Writer, x []float64, k []int64, g func(float64) string
 	n := len(k)
 	var line, run []byte
 	for i := 0; i < n-1; {
-		line = append(line[:0], g(x[i])...)
+		// The blank keeps "656.5" + "E00" (SQZ 500) from reading as an
+		// exponent.
+		line = append(append(line[:0], g(x[i])...), ' ')
 		line = appendPseudo(line, k[i], sqzPos, sqzNeg)
 		j := i
 		var runD int64
@@ -291,7 +293,7 @@ func writeDIFDUP(w *bufio.Writer, x []float64, k []int64, g func(float64) string
 		i = j
 	}
 	// The check line for the last point.
-	line = append(line[:0], g(x[n-1])...)
+	line = append(append(line[:0], g(x[n-1])...), ' ')
 	line = appendPseudo(line, k[n-1], sqzPos, sqzNeg)
 	line = append(line, '\n')
 	w.Write(line)
