@@ -111,8 +111,8 @@ type LineResult struct {
 	LorentzFWHM, LorentzFWHMErr float64
 	// LorentzAtBound reports that f_L ended on its lower bound (0, or the
 	// tiny positive floor used when f_G is fixed at 0); its error is then
-	// the one-sided curvature estimate and should be read as an upper
-	// limit scale.
+	// computed from the curvature as if unconstrained and is only
+	// indicative.
 	LorentzAtBound bool
 	// VoigtFWHM is the total FWHM by Olivero & Longbothum (1977),
 	// f_V = 0.5346 f_L + √(0.2166 f_L² + f_G²), with its error propagated
@@ -176,7 +176,8 @@ type Fitter struct {
 	active              []bool
 	jac, jacT           []float64
 	model, modelT       []float64
-	wt                  []float64 // 1/σ²
+	wt                  []float64 // 1/σ_i, or 1 for unit weights
+	rw                  []float64 // weighted residuals
 	ata, fac            []float64
 	col                 []float64
 }
@@ -209,6 +210,7 @@ func NewFitter(maxPoints, maxLines int) *Fitter {
 	f.model = make([]float64, maxPoints)
 	f.modelT = make([]float64, maxPoints)
 	f.wt = make([]float64, maxPoints)
+	f.rw = make([]float64, maxPoints)
 	return f
 }
 
@@ -403,6 +405,12 @@ func (f *Fitter) setup(p *Problem) {
 	f.gMin = 1e-9 * span
 	f.sharedG = p.SharedGauss
 	f.k = len(p.Lines)
+	for i := range p.X {
+		f.wt[i] = 1
+		if p.Sigma != nil {
+			f.wt[i] = 1 / p.Sigma[i]
+		}
+	}
 	np := 0
 	f.psg = -1
 	for k, l := range p.Lines {
@@ -477,32 +485,40 @@ func (f *Fitter) widths(t []float64, k int) (fg, fl float64) {
 	return fg, t[f.pl[k]]
 }
 
-// eval computes the model and the Jacobian (n × np, row-major) at t and
-// returns χ².
+// eval computes the model and the weighted Jacobian at t and returns χ².
+// jac is column-major: jac[j*n+i] = ∂f(x_i)/∂θ_j / σ_i (σ_i = 1 for unit
+// weights), so that JᵀWJ is a matrix of dot products of columns.
 func (f *Fitter) eval(p *Problem, t, model, jac []float64) float64 {
 	n, np := len(p.X), f.np
 	model = model[:n]
 	jac = jac[:n*np]
+	sw := f.wt[:n]
 	nb := f.nb
 	invH := 1 / f.h
+	b0 := jac[f.pb*n : f.pb*n+n]
+	var b1, b2 []float64
+	if nb > 1 {
+		b1 = jac[(f.pb+1)*n : (f.pb+2)*n]
+	}
+	if nb > 2 {
+		b2 = jac[(f.pb+2)*n : (f.pb+3)*n]
+	}
 	for i, x := range p.X {
-		row := jac[i*np : (i+1)*np]
 		u := (x - f.xmid) * invH
-		// Baseline.
 		m := t[f.pb]
-		row[f.pb] = 1
+		b0[i] = sw[i]
 		if nb > 1 {
 			m += t[f.pb+1] * u
-			row[f.pb+1] = u
+			b1[i] = sw[i] * u
 		}
 		if nb > 2 {
 			m += t[f.pb+2] * u * u
-			row[f.pb+2] = u * u
-		}
-		if f.psg >= 0 {
-			row[f.psg] = 0
+			b2[i] = sw[i] * u * u
 		}
 		model[i] = m
+	}
+	if f.psg >= 0 {
+		clear(jac[f.psg*n : f.psg*n+n])
 	}
 	for k := range len(p.Lines) {
 		c := t[f.pc[k]] + f.xmid
@@ -510,67 +526,78 @@ func (f *Fitter) eval(p *Problem, t, model, jac []float64) float64 {
 		fg, fl := f.widths(t, k)
 		sigma := fg / voigt.FWHMPerSigma
 		gamma := fl / 2
-		jc, ja, jg, jl := f.pc[k], f.pa[k], f.pg[k], f.pl[k]
+		jg := f.pg[k]
 		if jg < 0 {
 			jg = f.psg
 		}
+		colC := jac[f.pc[k]*n : f.pc[k]*n+n]
+		colA := jac[f.pa[k]*n : f.pa[k]*n+n]
+		colL := jac[f.pl[k]*n : f.pl[k]*n+n]
+		var colG []float64
+		if jg >= 0 {
+			colG = jac[jg*n : jg*n+n]
+		}
+		shared := f.psg >= 0
+		aG := a / voigt.FWHMPerSigma
 		for i, x := range p.X {
 			v, dx, ds, dgm := voigt.ProfileDeriv(x-c, sigma, gamma)
-			row := jac[i*np : (i+1)*np]
+			w := sw[i]
 			model[i] += a * v
-			row[jc] = -a * dx
-			row[ja] = v
-			row[jl] = a * dgm / 2
-			if jg >= 0 {
-				d := a * ds / voigt.FWHMPerSigma
-				if f.psg >= 0 {
-					row[jg] += d
+			colC[i] = -a * dx * w
+			colA[i] = v * w
+			colL[i] = 0.5 * a * dgm * w
+			if colG != nil {
+				if shared {
+					colG[i] += aG * ds * w
 				} else {
-					row[jg] = d
+					colG[i] = aG * ds * w
 				}
 			}
 		}
 	}
 	var chi2 float64
 	for i, y := range p.Y {
-		r := y - model[i]
-		if p.Sigma != nil {
-			r /= p.Sigma[i]
-		}
+		r := (y - model[i]) * sw[i]
 		chi2 += r * r
 	}
 	return chi2
 }
 
-// normal forms A = JᵀWJ (full symmetric, in f.ata) and g = JᵀW r (f.grad).
+// normal forms A = JᵀWJ (full symmetric, in f.ata) and g = JᵀW r (f.grad)
+// from the weighted Jacobian columns.
 func (f *Fitter) normal(p *Problem, model, jac []float64) {
-	np := f.np
+	n, np := len(p.X), f.np
 	ata := f.ata[:np*np]
-	g := f.grad[:np]
-	clear(ata)
-	clear(g)
+	rw := f.rw[:n]
 	for i, y := range p.Y {
-		w := 1.0
-		if p.Sigma != nil {
-			s := p.Sigma[i]
-			w = 1 / (s * s)
-		}
-		row := jac[i*np : (i+1)*np]
-		r := (y - model[i]) * w
-		for a, ja := range row {
-			g[a] += ja * r
-			wa := w * ja
-			arow := ata[a*np : (a+1)*np]
-			for b := a; b < np; b++ {
-				arow[b] += wa * row[b]
-			}
-		}
+		rw[i] = (y - model[i]) * f.wt[i]
 	}
 	for a := range np {
-		for b := a + 1; b < np; b++ {
-			ata[b*np+a] = ata[a*np+b]
+		ca := jac[a*n : a*n+n]
+		f.grad[a] = dot(ca, rw)
+		for b := a; b < np; b++ {
+			v := dot(ca, jac[b*n:b*n+n])
+			ata[a*np+b] = v
+			ata[b*np+a] = v
 		}
 	}
+}
+
+// dot returns Σ a_i b_i with four partial sums; len(b) ≥ len(a).
+func dot(a, b []float64) float64 {
+	b = b[:len(a)]
+	var s0, s1, s2, s3 float64
+	i := 0
+	for ; i+4 <= len(a); i += 4 {
+		s0 += a[i] * b[i]
+		s1 += a[i+1] * b[i+1]
+		s2 += a[i+2] * b[i+2]
+		s3 += a[i+3] * b[i+3]
+	}
+	for ; i < len(a); i++ {
+		s0 += a[i] * b[i]
+	}
+	return (s0 + s1) + (s2 + s3)
 }
 
 // gradientSmall reports whether every scaled gradient component is at most

@@ -340,8 +340,8 @@ func TestJacobian(t *testing.T) {
 			f.eval(p, tp, m2, jscr)
 			for i := range n {
 				fd := (m1[i] - m2[i]) / (2 * h)
-				if d := math.Abs(fd - f.jac[i*np+j]); d > 1e-6*(math.Abs(fd)+1) {
-					t.Errorf("shared %v: ∂f/∂θ_%d at x=%g: analytic %g, finite difference %g", shared, j, x[i], f.jac[i*np+j], fd)
+				if d := math.Abs(fd - f.jac[j*n+i]); d > 1e-6*(math.Abs(fd)+1) {
+					t.Errorf("shared %v: ∂f/∂θ_%d at x=%g: analytic %g, finite difference %g", shared, j, x[i], f.jac[j*n+i], fd)
 					break
 				}
 			}

@@ -235,33 +235,96 @@ func weideman(x, y float64) complex128 {
 // falls below 1e-18 of the leading term (at most 64 terms for |z| = 8,
 // about 12 for |z| = 12).
 func faddeevaAsymptotic(x, y float64) complex128 {
-	q := 1 / complex(x, y) // robust (Smith's) complex division
-	qr, qi := real(q), imag(q)
-	q2r, q2i := qr*qr-qi*qi, 2*qr*qi
-	invR2 := qr*qr + qi*qi // 1/|z|²
-	tr, ti := qr/2, qi/2
-	sr, si := tr, ti
-	mag := 1.0 // |term_k| / |term_0|
-	for k := 0; k < 80; k++ {
-		f := float64(2*k+1) / 2
-		tr, ti = f*(tr*q2r-ti*q2i), f*(tr*q2i+ti*q2r)
-		sr += tr
-		si += ti
-		mag *= f * invR2
-		if mag < 1e-18 {
-			break
-		}
+	r2 := x*x + y*y
+	var qr, qi float64 // q = 1/z
+	if r2 < 1e300 {
+		d := 1 / r2
+		qr, qi = x*d, -y*d
+	} else {
+		q := 1 / complex(x, y) // Smith's division, safe from overflow
+		qr, qi = real(q), imag(q)
 	}
+	// S = Σ_{k=0}^{K} c_k ζ^k with ζ = q², split as E(ζ²) + ζ O(ζ²) and
+	// both halves evaluated by the real recurrence for real coefficients
+	// (as in weideman) with ρ = 2 Re ζ², s = |ζ|⁴.
+	zr, zi := qr*qr-qi*qi, 2*qr*qi
+	z2r, z2i := zr*zr-zi*zi, 2*zr*zi
+	rho := 2 * z2r
+	s4 := z2r*z2r + z2i*z2i
+	kmax := asymTerms(r2)
+	c := &asymC
+	// Highest even and odd indices ≤ kmax.
+	ke, ko := kmax&^1, (kmax-1)|1
+	if ko > kmax {
+		ko -= 2
+	}
+	var be, ce, bo, co float64
+	for k := ke; k >= 2; k -= 2 {
+		be, ce = c[k]+rho*be-s4*ce, be
+	}
+	for k := ko; k >= 3; k -= 2 {
+		bo, co = c[k]+rho*bo-s4*co, bo
+	}
+	// E = c_0 − s ce + ζ² be, O = c_1 − s co + ζ² bo (O = 0 if kmax = 0).
+	er, ei := c[0]-s4*ce+z2r*be, z2i*be
+	or, oi := c[1]-s4*co+z2r*bo, z2i*bo
+	if kmax == 0 {
+		or, oi = 0, 0
+	}
+	sumR := er + zr*or - zi*oi
+	sumI := ei + zr*oi + zi*or
+	// sum = q S.
+	sr, si := qr*sumR-qi*sumI, qr*sumI+qi*sumR
 	wr, wi := -twoSqrtPi*si, twoSqrtPi*sr
-	if math.Abs(y) < 1 {
-		// exp(−z²) matters only where it is not negligible against Re w.
-		if e := math.Exp((y - x) * (y + x)); e > 1e-18*math.Abs(wr) {
+	// exp(−z²) matters only where it is not negligible against Re w, whose
+	// size is at least about |y|/(√π|z|²). For |y| ≥ 1e-10 and |z| < 1e3
+	// it is negligible (below 1e-18 relative) once x² − y² > 80.
+	if t := (x - y) * (x + y); math.Abs(y) < 1 && t < 745 && !(t > 80 && math.Abs(y) >= 1e-10 && r2 < 1e6) {
+		if e := math.Exp(-t); e > 1e-18*math.Abs(wr) {
 			s, c := math.Sincos(2 * x * y)
 			wr += e * c
 			wi -= e * s
 		}
 	}
 	return complex(wr, wi)
+}
+
+// asymC holds c_k = (2k−1)!!/2^(k+1) of the asymptotic series.
+var asymC = func() (c [82]float64) {
+	c[0] = 0.5
+	for k := 1; k < len(c); k++ {
+		c[k] = c[k-1] * float64(2*k-1) / 2
+	}
+	return c
+}()
+
+// asymTable[i] is the number K of terms beyond the first that the
+// asymptotic series needs for |z|² ≥ i (64 ≤ i < 4096): the smallest K with
+// Π_{k<K} (2k+1)/(2|z|²) < 1e-18.
+var asymTable = func() (t [4096]uint8) {
+	for i := int(asymR2); i < len(t); i++ {
+		t[i] = uint8(asymTermsSlow(float64(i)))
+	}
+	return t
+}()
+
+func asymTermsSlow(r2 float64) int {
+	mag := 1.0
+	for k := 0; k < 80; k++ {
+		mag *= float64(2*k+1) / (2 * r2)
+		if mag < 1e-18 {
+			return k + 1
+		}
+	}
+	return 80
+}
+
+// asymTerms returns K for |z|² = r2 ≥ 64.
+func asymTerms(r2 float64) int {
+	if r2 < float64(len(asymTable)) {
+		return int(asymTable[int(r2)])
+	}
+	return asymTermsSlow(r2)
 }
 
 // faddeevaStrip evaluates w for x ≥ 2.5, |y| < 0.1, |z| < 8 by the Taylor

@@ -227,7 +227,9 @@ func BenchmarkFaddeeva(b *testing.B) {
 	}{
 		{"Weideman", 1.3 + 0.7i},
 		{"Strip", 4.1 + 0.01i},
-		{"Asymptotic", 12 + 0.5i},
+		{"Asymptotic8", 8.1 + 0.5i},
+		{"Asymptotic12", 12 + 0.5i},
+		{"Asymptotic30", 30 + 0.5i},
 	} {
 		b.Run(bc.name, func(b *testing.B) {
 			var s complex128

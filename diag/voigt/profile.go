@@ -83,24 +83,25 @@ func ProfileDeriv(x, sigma, gamma float64) (v, dx, dsigma, dgamma float64) {
 		dgamma = (x*x - gamma*gamma) / (math.Pi * d * d)
 		return v, dx, 0, dgamma
 	}
-	s := sigma * sqrt2
-	zr, zi := x/s, gamma/s
+	invSigma := 1 / sigma
+	is := invSigma / sqrt2 // 1/(σ√2)
+	zr, zi := x*is, gamma*is
 	w := Faddeeva(complex(zr, zi))
 	wr, wi := real(w), imag(w)
 	// w′ = −2 z w + 2i/√π.
 	dr := -2 * (zr*wr - zi*wi)
 	di := -2*(zr*wi+zi*wr) + twoSqrtPi
-	c := invSqrt2Pi / sigma
+	c := invSqrt2Pi * invSigma
 	if gamma == 0 {
-		u := x / sigma
+		u := x * invSigma
 		v = math.Exp(-0.5*u*u) * c
 	} else {
 		v = wr * c
 	}
-	dx = c * dr / s
-	dgamma = -c * di / s
+	dx = c * dr * is
+	dgamma = -c * di * is
 	// Re(z w′) = zr dr − zi di.
-	dsigma = -c / sigma * (wr + zr*dr - zi*di)
+	dsigma = -c * invSigma * (wr + zr*dr - zi*di)
 	return v, dx, dsigma, dgamma
 }
 

@@ -20,7 +20,10 @@ the Lorentzian width itself, not a density). No perturber gas, so the Stark
 width is the whole Lorentzian width except the natural width (ignored,
 1e-4 nm). Gaussian width: instrument FWHM combined in quadrature with the
 Doppler FWHM 7.16233e-7 * lambda * sqrt(T/M), M = 1.00794.
-Noise: Gaussian with sigma = peak / SNR of the strongest line, seeded.
+Noise: Gaussian with sigma = peak / SNR of the strongest line (per nm), seeded.
+The file holds counts per pixel: the spectral density at the pixel centre
+times the pixel width, so that a reader dividing by the pixel width gets the
+density back; areas in the truth file are in counts (density x nm).
 """
 import json
 import os
@@ -60,6 +63,8 @@ CASES = [
     ("hbeta_window_snr1000", 3648, 471.0, 501.0, 7000.0, 2e21, 1200.0, 0.03, 1000.0, 4),
     ("hbeta_window_snr100", 3648, 471.0, 501.0, 7000.0, 1e22, 1200.0, 0.05, 100.0, 5),
     ("halpha_window_snr100", 3648, 641.0, 671.0, 7000.0, 1e21, 600.0, 0.03, 100.0, 6),
+    # the speed benchmark (.ci/bench): Halpha-Hdelta all well above the noise
+    ("bench_2048", 2048, 380.0, 700.0, 12000.0, 5e21, 1000.0, 0.35, 5000.0, 7),
 ]
 
 
@@ -93,10 +98,13 @@ def main():
         noise = rng.normal(0.0, peak / snr, size=x.size)
         truth["noise_sigma"] = peak / snr
         truth["baseline"] = "50 + 0.02*(lambda - lo)"
-        data = y + base + noise
+        # Detector counts per pixel: the density (per nm) times the local
+        # pixel width; the noise is added per pixel.
+        dx = np.gradient(x)
+        data = (y + base) * dx + noise * dx
         with open(os.path.join(OUT, "scipy_%s.csv" % name), "w") as f:
             f.write("# synthetic Balmer spectrum by testdata/scipy/synth_spectra.py (scipy %s)\n" % scipy.__version__)
-            f.write("# y is counts per nm at pixel centres, wavelengths in air\n")
+            f.write("# counts per pixel (density per nm at the pixel centre times the pixel width), wavelengths in air\n")
             f.write("wavelength_nm,counts\n")
             for xi, yi in zip(x, data):
                 f.write("%.6f,%.6g\n" % (xi, yi))
