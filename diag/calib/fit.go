@@ -112,7 +112,14 @@ type LineReport struct {
 // counts (dark-subtracted) are the lamp spectrum; lines are catalogue
 // lines, for example Lamps()["hg"].
 //
-// For each line inside the spectrum's range, FitInstrument
+// The fitted model in each window is one Voigt with free centre c, area A,
+// Gaussian and Lorentzian FWHMs w_G, w_L on a linear baseline,
+//
+//	f(λ) = A V(λ − c; σ, γ) + b₀ + b₁ (λ − λ_mid),
+//	σ = w_G/(2√(2 ln 2)),  γ = w_L/2,
+//
+// fitted with package linefit (Levenberg–Marquardt). For each line inside
+// the spectrum's range, FitInstrument
 //
 //  1. finds the highest pixel within opt.SearchNM of the catalogue
 //     wavelength and requires it to stand opt.DetectSNR times above a
@@ -122,13 +129,7 @@ type LineReport struct {
 //     of ±opt.WindowFWHM FWHMs around the peak, rejecting the line if
 //     another catalogue line falls inside the window (blend) or the window
 //     has fewer than opt.MinPoints pixels;
-//  3. fits, with package linefit (Levenberg–Marquardt), one Voigt with
-//     free centre, area, Gaussian and Lorentzian FWHMs on a linear
-//     baseline,
-//
-//	f(λ) = A V(λ − c; σ, γ) + b₀ + b₁ (λ − λ_mid),
-//	σ = w_G/(2√(2 ln 2)),  γ = w_L/2;
-//
+//  3. fits f;
 //  4. accepts the fit if it converged, the Gaussian width is positive and
 //     away from its lower bound, the Lorentzian width is ≥ 0 (0 is
 //     allowed: a purely Gaussian slit function), the centre lies within
