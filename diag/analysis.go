@@ -103,6 +103,9 @@ type LineResult struct {
 	ElectronDensityM3    *float64 `json:"electron_density_m3"`
 	ElectronDensityUncM3 *float64 `json:"electron_density_unc_m3"`
 	Notes                []string `json:"notes,omitempty"`
+	// ProfileFit is set when the line was fitted in a spectrum; its fields
+	// appear inline (center_nm, gauss_fwhm_nm, …).
+	*ProfileFit
 
 	flags []Flag
 }
@@ -375,5 +378,6 @@ func lineResultBase(l MeasuredLine, t Transition) LineResult {
 	if l.FWHMNM > 0 {
 		lr.MeasuredFWHMNM = ptr(l.FWHMNM)
 	}
+	lr.ProfileFit = l.Profile
 	return lr
 }

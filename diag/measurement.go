@@ -61,4 +61,36 @@ type MeasuredLine struct {
 	InstrumentGaussFWHMNM, InstrumentLorentzFWHMNM float64
 	// ExcludeFromBoltzmann keeps the line off the Boltzmann fit.
 	ExcludeFromBoltzmann bool
+	// Profile holds the details of a profile fit the line came from (nil
+	// for lines typed in); it is passed through to the result.
+	Profile *ProfileFit
+}
+
+// ProfileFit summarises the Voigt-profile fit of one line in a spectrum.
+// Widths are FWHM in nm; intensities are in the spectrum's (calibrated)
+// units times nm.
+type ProfileFit struct {
+	CenterNM       float64 `json:"center_nm"`
+	CenterUncNM    float64 `json:"center_unc_nm"`
+	GaussFWHMNM    float64 `json:"gauss_fwhm_nm"`
+	GaussFWHMUncNM float64 `json:"gauss_fwhm_unc_nm"`
+	// GaussFixed is true when the Gaussian width was held at the
+	// instrument and Doppler budget.
+	GaussFixed bool `json:"gauss_fixed"`
+	// LorentzAtBound is true when the Lorentzian width ended at zero.
+	LorentzAtBound bool    `json:"lorentz_at_bound"`
+	TotalFWHMNM    float64 `json:"total_fwhm_nm"`
+	TotalFWHMUncNM float64 `json:"total_fwhm_unc_nm"`
+	// FWHANM is the full width at half area of the fitted profile.
+	FWHANM float64 `json:"fwha_nm"`
+	// PeakSNR is the fitted peak height over the noise σ.
+	PeakSNR float64 `json:"peak_snr"`
+	// ReducedChi2 is the window fit's χ²/dof.
+	ReducedChi2 float64 `json:"fit_reduced_chi2"`
+	// ErrorsScaled reports that the σ were scaled by √χ²ᵣ.
+	ErrorsScaled bool `json:"fit_errors_scaled"`
+	// WindowNM is the fitted wavelength window.
+	WindowNM [2]float64 `json:"window_nm"`
+	// JointWith lists the other upper levels fitted in the same window.
+	JointWith []int `json:"fitted_jointly_with,omitempty"`
 }

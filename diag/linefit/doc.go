@@ -21,8 +21,8 @@
 //	D. W. Marquardt, An algorithm for least-squares estimation of nonlinear
 //	parameters, J. Soc. Indust. Appl. Math. 11 (1963) 431–441.
 //	J. J. Moré, The Levenberg–Marquardt algorithm: implementation and
-//	theory, in G. A. Watson (ed.), Numerical Analysis, Lecture Notes in
-//	Mathematics 630, Springer (1978) 105–116.
+//	theory, in G. A. Watson (ed.), Numerical Analysis (Dundee 1977),
+//	Springer LNM 630 (1978) 105–116.
 //	K. Madsen, H. B. Nielsen and O. Tingleff, Methods for Non-Linear Least
 //	Squares Problems, 2nd ed., IMM, Technical University of Denmark (2004),
 //	§3.2 (damping-parameter update; section number from memory).

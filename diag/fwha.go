@@ -1,0 +1,96 @@
+package diag
+
+import (
+	"fmt"
+	"math"
+	"sync"
+
+	"gonum.org/v1/gonum/integrate/quad"
+
+	"glowlog/diag/voigt"
+)
+
+// FWHAFromVoigt returns the full width at half area of a Voigt profile
+// with Gaussian FWHM wG and Lorentzian FWHM wL (same unit): 2h, where the
+// central interval [−h, h] holds half of the area,
+//
+//	M(h) = P(|G + L| < h) = ½,  G ~ Gauss(σ = w_G/(2√(2 ln 2))),  L ~ Cauchy(γ = w_L/2)
+//
+// M(h) is evaluated by fixed Gaussian quadrature over the smoother of the
+// two variables — for γ > σ over the Gaussian (Gauss–Hermite, 40 nodes),
+//
+//	M(h) = ∫ φ_σ(g) [atan((h − g)/γ) + atan((h + g)/γ)]/π dg,
+//
+// and for γ ≤ σ over the Cauchy variable mapped to u = atan(l/γ)
+// (Gauss–Legendre, 64 nodes),
+//
+//	M(h) = (1/π) ∫_{−π/2}^{π/2} [Φ_σ(h − γ tan u) − Φ_σ(−h − γ tan u)] du,
+//
+// and the equation is solved by Newton's method with dM/dh = 2V(h), V the
+// normalised Voigt profile (package voigt). The relative accuracy is
+// better than 1e-6 (checked in the tests against adaptive quadrature with
+// bisection). Limits: a pure Lorentzian gives FWHA = FWHM; a pure Gaussian
+// gives 2·0.67449σ = 0.572858·FWHM. It panics on a negative or NaN width
+// and returns 0 when both are 0.
+func FWHAFromVoigt(wG, wL float64) float64 {
+	if !(wG >= 0) || !(wL >= 0) {
+		panic(fmt.Sprintf("diag: FWHAFromVoigt(%g, %g): widths must be ≥ 0", wG, wL))
+	}
+	sigma := wG / (2 * math.Sqrt(2*math.Ln2))
+	gamma := wL / 2
+	switch {
+	case wG == 0 && wL == 0:
+		return 0
+	case wG == 0:
+		return wL
+	case wL == 0:
+		// erf(h/(σ√2)) = ½.
+		return 2 * sigma * math.Sqrt2 * math.Erfinv(0.5)
+	}
+	fwhaNodesOnce.Do(initFWHANodes)
+	mass := func(h float64) float64 {
+		var m float64
+		if gamma > sigma {
+			for i, t := range fwhaHermiteX {
+				g := math.Sqrt2 * sigma * t
+				m += fwhaHermiteW[i] * (math.Atan((h-g)/gamma) + math.Atan((h+g)/gamma))
+			}
+			return m / (math.Pi * math.SqrtPi)
+		}
+		s2 := sigma * math.Sqrt2
+		for i, t := range fwhaLegendreX {
+			u := t * math.Pi / 2
+			l := gamma * math.Tan(u)
+			m += fwhaLegendreW[i] * (math.Erf((h-l)/s2) + math.Erf((h+l)/s2)) / 2
+		}
+		return m / 2 // (1/π)·(π/2)·Σ w f
+	}
+	// Start between the Gaussian and Lorentzian limits, weighted by the
+	// Olivero–Longbothum width.
+	h := 0.5 * VoigtFWHM(0.572858*wG, wL)
+	for range 30 {
+		dm := 2 * voigt.Profile(h, sigma, gamma)
+		step := (mass(h) - 0.5) / dm
+		if step > 0.5*h {
+			step = 0.5 * h
+		}
+		h -= step
+		if math.Abs(step) <= 1e-12*h {
+			break
+		}
+	}
+	return 2 * h
+}
+
+var (
+	fwhaNodesOnce                sync.Once
+	fwhaHermiteX, fwhaHermiteW   []float64
+	fwhaLegendreX, fwhaLegendreW []float64
+)
+
+func initFWHANodes() {
+	fwhaHermiteX, fwhaHermiteW = make([]float64, 40), make([]float64, 40)
+	quad.Hermite{}.FixedLocations(fwhaHermiteX, fwhaHermiteW, math.Inf(-1), math.Inf(1))
+	fwhaLegendreX, fwhaLegendreW = make([]float64, 64), make([]float64, 64)
+	quad.Legendre{}.FixedLocations(fwhaLegendreX, fwhaLegendreW, -1, 1)
+}

@@ -1,0 +1,326 @@
+package spectrum
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"sort"
+
+	"glowlog/diag"
+	"glowlog/diag/linefit"
+)
+
+// pixelWidth returns the local pixel spacing at index i.
+func pixelWidth(x []float64, i int) float64 {
+	n := len(x)
+	switch {
+	case i <= 0:
+		return x[1] - x[0]
+	case i >= n-1:
+		return x[n-1] - x[n-2]
+	}
+	return (x[i+1] - x[i-1]) / 2
+}
+
+// index returns the first index with x[i] ≥ v.
+func index(x []float64, v float64) int { return sort.SearchFloat64s(x, v) }
+
+// candidates finds the Balmer members inside the range, estimates their
+// peak, width and fit window, and marks those below the noise or touching
+// the detector ceiling.
+func (p *Pipeline) candidates(x, y []float64, sat []bool, noise float64, sp *Spectrum, opt Options) ([]balmerCandidate, error) {
+	n := len(x)
+	cond := opt.Conditions
+	var out []balmerCandidate
+	for up := 3; up <= opt.MaxUpper; up++ {
+		t, err := diag.Balmer(up, cond.Isotope)
+		if err != nil {
+			return nil, err
+		}
+		center := t.WavelengthAirNM
+		ic := index(x, center)
+		if ic < 3 || ic > n-4 {
+			continue
+		}
+		c := balmerCandidate{t: t, center: center}
+		c.search = LineSearch{UpperLevel: up, Name: t.Name(), ExpectedNM: center}
+		c.instG, c.instL = cond.InstrumentGaussFWHMNM, cond.InstrumentLorentzFWHMNM
+		if opt.Instrument != nil {
+			c.instG, c.instL, _ = opt.Instrument.At(center)
+		}
+		px := pixelWidth(x, ic)
+		switch {
+		case c.instG > 0 && cond.GasTemperatureK > 0 && !cond.SolveGasTemperature:
+			mass := diag.EmitterMassAMU(cond.Isotope)
+			c.gauss = math.Hypot(c.instG, diag.DopplerFWHMNM(center, cond.GasTemperatureK, mass))
+			c.gaussFix = true
+		case c.instG > 0:
+			c.gauss = c.instG
+		default:
+			c.gauss = 2 * px
+		}
+		// Peak near the expected centre, over a local low-percentile baseline.
+		core := math.Max(3*c.gauss, 4*px)
+		lo, hi := index(x, center-core), index(x, center+core)
+		ip := lo
+		for i := lo; i < hi && i < n; i++ {
+			if y[i] > y[ip] {
+				ip = i
+			}
+		}
+		reach := math.Max(math.Max(15*c.gauss, 40*px), 3)
+		base := percentile(y[index(x, center-reach):min(index(x, center+reach), n)], 0.2, p.work)
+		c.peak = y[ip] - base
+		s := noise
+		if opt.GainElectronsPerCount > 0 {
+			s = p.s[ip]
+		}
+		c.search.PeakSNR = c.peak / s
+		if !(c.search.PeakSNR >= opt.MinSNR) {
+			c.search.Status = "not-detected"
+			c.search.Reason = fmt.Sprintf("peak %.3g is %.1f× the noise, below the detection threshold %.0f×", c.peak, c.search.PeakSNR, opt.MinSNR)
+			out = append(out, c)
+			continue
+		}
+		// Rough FWHM: walk out to half maximum.
+		half := base + c.peak/2
+		l, r := ip, ip
+		for l > 0 && y[l] > half {
+			l--
+		}
+		for r < n-1 && y[r] > half {
+			r++
+		}
+		c.width = math.Max(x[r]-x[l], c.gauss)
+		// Parabolic refinement of the peak position.
+		c.peakX = x[ip]
+		if ip > 0 && ip < n-1 {
+			a, b, d := y[ip-1], y[ip], y[ip+1]
+			if den := a - 2*b + d; den < 0 {
+				c.peakX += 0.5 * (a - d) / den * (x[ip+1] - x[ip-1]) / 2
+			}
+		}
+		c.base = base
+		for i := l; i <= r; i++ {
+			if sat[i] {
+				c.sat = true
+			}
+		}
+		if c.sat {
+			c.search.Status = "saturated"
+			c.search.Reason = "the line core reaches the detector ceiling"
+		}
+		hw := math.Max(5*c.width, 12*px)
+		c.lo, c.hi = index(x, center-hw), min(index(x, center+hw), n)
+		if c.hi-c.lo > p.maxPix {
+			mid := (c.lo + c.hi) / 2
+			c.lo, c.hi = mid-p.maxPix/2, mid+p.maxPix/2
+		}
+		out = append(out, c)
+	}
+	// Group lines whose windows overlap (fitted jointly).
+	g := 0
+	prev := -1
+	for i := range out {
+		c := &out[i]
+		if c.search.Status == "not-detected" {
+			c.group = -1
+			continue
+		}
+		if prev >= 0 && overlaps(out[prev], *c) {
+			c.group = out[prev].group
+		} else {
+			g++
+			c.group = g
+		}
+		prev = i
+	}
+	return out, nil
+}
+
+func overlaps(a, b balmerCandidate) bool { return a.lo < b.hi && b.lo < a.hi }
+
+// percentile returns the q-quantile of v (copied into work).
+func percentile(v []float64, q float64, work []float64) float64 {
+	w := append(work[:0], v...)
+	k := 0
+	for _, x := range w {
+		if !math.IsNaN(x) {
+			w[k] = x
+			k++
+		}
+	}
+	w = w[:k]
+	if len(w) == 0 {
+		return 0
+	}
+	return selectK(w, int(q*float64(len(w)-1)))
+}
+
+// fitAll fits every group of detected lines and returns the weighted mean
+// wavelength offset (fitted − expected) and its 1σ.
+func (p *Pipeline) fitAll(cands []balmerCandidate, x, y, sig []float64, opt Options, noise float64) (float64, float64, error) {
+	groups := map[int][]int{}
+	var order []int
+	for i, c := range cands {
+		if c.group <= 0 {
+			continue
+		}
+		if _, ok := groups[c.group]; !ok {
+			order = append(order, c.group)
+		}
+		groups[c.group] = append(groups[c.group], i)
+	}
+	var sw, swx float64
+	for _, g := range order {
+		idx := groups[g]
+		lo, hi := cands[idx[0]].lo, cands[idx[0]].hi
+		for _, i := range idx {
+			lo, hi = min(lo, cands[i].lo), max(hi, cands[i].hi)
+		}
+		if hi-lo > p.maxPix {
+			hi = lo + p.maxPix
+		}
+		// Window data without saturated or uncalibrated pixels.
+		wx, wy, ws := p.problem.X[:0], p.problem.Y[:0], p.problem.Sigma[:0]
+		for i := lo; i < hi; i++ {
+			if p.sat[i] || math.IsNaN(y[i]) {
+				continue
+			}
+			wx, wy, ws = append(wx, x[i]), append(wy, y[i]), append(ws, sig[i])
+		}
+		lines := p.lineBuf[:0]
+		var fitted []int
+		for _, i := range idx {
+			c := &cands[i]
+			if c.search.Status == "saturated" {
+				continue
+			}
+			lor := 0.3 * c.width
+			if c.width > c.gauss {
+				if l, err := diag.LorentzFromVoigt(c.width, c.gauss); err == nil && l > 0 {
+					lor = l
+				}
+			}
+			// Start values: the refined peak position (when near the
+			// expected centre) and the Voigt area peak·FWHM·k, with k from
+			// 1.064 (Gaussian) to 1.571 (Lorentzian) by the width ratio.
+			start := c.center
+			if math.Abs(c.peakX-c.center) < c.width {
+				start = c.peakX
+			}
+			fl := math.Min(1, lor/c.width)
+			lines = append(lines, linefit.Line{Center: start, Area: c.peak * c.width * (1.064 + 0.507*fl),
+				GaussFWHM: c.gauss, LorentzFWHM: lor, FixGauss: c.gaussFix})
+			fitted = append(fitted, i)
+			if len(lines) == maxWindowLines {
+				break
+			}
+		}
+		p.problem.X, p.problem.Y, p.problem.Sigma = wx, wy, ws
+		if len(lines) == 0 {
+			continue
+		}
+		// Without a noise model the σ are the robust noise estimate and the
+		// parameter errors are scaled by the residuals.
+		prob := linefit.Problem{X: wx, Y: wy, Sigma: ws, Lines: lines, BaselineOrder: 1,
+			SigmaAbsolute: opt.GainElectronsPerCount > 0}
+		err := p.fitter.Fit(&p.fres, &prob)
+		if err != nil && !errors.Is(err, linefit.ErrMaxIterations) {
+			for _, i := range fitted {
+				cands[i].search.Status = "fit-failed"
+				cands[i].search.Reason = err.Error()
+			}
+			continue
+		}
+		// With a noise model, honour a poor fit by scaling the errors.
+		scale := 1.0
+		if prob.SigmaAbsolute && p.fres.DOF > 0 && p.fres.RedChi2 > 1+3*math.Sqrt(2/float64(p.fres.DOF)) {
+			scale = math.Sqrt(p.fres.RedChi2)
+		}
+		for k, i := range fitted {
+			lr := p.fres.Lines[k]
+			lr.CenterErr *= scale
+			lr.AreaErr *= scale
+			lr.GaussFWHMErr *= scale
+			lr.LorentzFWHMErr *= scale
+			lr.VoigtFWHMErr *= scale
+			lr.PeakErr *= scale
+			c := &cands[i]
+			if !(lr.Area > 0) || lr.Area < 3*lr.AreaErr || math.IsNaN(lr.AreaErr) {
+				c.search.Status = "not-detected"
+				c.search.Reason = fmt.Sprintf("the fitted area %.3g ± %.2g is not significant (< 3σ)", lr.Area, lr.AreaErr)
+				continue
+			}
+			c.search.Status = "fitted"
+			c.fit = &lr
+			if lr.CenterErr > 0 {
+				w := 1 / (lr.CenterErr * lr.CenterErr)
+				sw += w
+				swx += w * (lr.Center - c.center)
+			}
+		}
+		p.chi2 = append(p.chi2, groupChi2{g, p.fres.RedChi2})
+		p.iters = append(p.iters, p.fres.Iterations)
+		if opt.KeepWindows {
+			win := Window{WavelengthNM: append([]float64(nil), wx...), Data: append([]float64(nil), wy...),
+				Residual: append([]float64(nil), p.fres.Residuals...)}
+			win.Model = make([]float64, len(wy))
+			for i := range wy {
+				win.Model[i] = wy[i] - win.Residual[i]
+			}
+			for _, i := range fitted {
+				win.Uppers = append(win.Uppers, cands[i].t.Upper)
+			}
+			p.keep = append(p.keep, win)
+		}
+	}
+	if sw == 0 {
+		return 0, 0, nil
+	}
+	return swx / sw, 1 / math.Sqrt(sw), nil
+}
+
+type groupChi2 struct {
+	group int
+	red   float64
+}
+
+func (p *Pipeline) groupChi2(_ []balmerCandidate, g int) float64 {
+	for i := len(p.chi2) - 1; i >= 0; i-- {
+		if p.chi2[i].group == g {
+			return p.chi2[i].red
+		}
+	}
+	return math.NaN()
+}
+
+func (p *Pipeline) windows(_ []balmerCandidate, _, _ []float64) []Window {
+	return p.keep
+}
+
+// lastResolved returns the last member of the unbroken run of fitted lines
+// from Hα upward when the spectrum reaches the next member and the lines
+// are broad enough (FWHM above a third of the spacing to the next member)
+// for Stark merging, rather than weakness, to end the series; 0 otherwise.
+func lastResolved(cands []balmerCandidate, x []float64) int {
+	last := -1
+	for i, c := range cands {
+		if c.t.Upper != 3+i || c.fit == nil {
+			break
+		}
+		last = i
+	}
+	if last < 0 {
+		return 0
+	}
+	c := cands[last]
+	next, err := diag.Balmer(c.t.Upper+1, c.t.Isotope)
+	if err != nil || next.WavelengthAirNM < x[0] {
+		return 0
+	}
+	if c.fit.VoigtFWHM < (c.center-next.WavelengthAirNM)/3 {
+		return 0
+	}
+	return c.t.Upper
+}

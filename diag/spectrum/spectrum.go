@@ -1,0 +1,593 @@
+package spectrum
+
+import (
+	"errors"
+	"fmt"
+	"math"
+
+	"glowlog/diag"
+	"glowlog/diag/linefit"
+)
+
+// Spectrum is a measured spectrum: strictly ascending wavelengths and the
+// detector signal per pixel (counts).
+type Spectrum struct {
+	// Name identifies the spectrum in messages (a file name).
+	Name string
+	// WavelengthNM are the pixel-centre wavelengths, nm, strictly ascending.
+	WavelengthNM []float64
+	// Counts are the detector counts per pixel.
+	Counts []float64
+	// Vacuum is true when the axis is in vacuum wavelengths (the default,
+	// false, is standard air as most grating spectrometers report).
+	Vacuum bool
+}
+
+// Response is a relative spectral response: corrected = (counts per nm) /
+// At(λ). Declared here, implemented by package calib.
+type Response interface {
+	At(lambdaNM float64) (float64, error)
+}
+
+// Instrument gives the instrument function's Gaussian and Lorentzian FWHM
+// at a wavelength. Declared here, implemented by package calib.
+type Instrument interface {
+	At(lambdaNM float64) (gaussNM, lorentzNM float64, extrapolated bool)
+}
+
+// Options controls the pipeline.
+type Options struct {
+	// Conditions carries the measurement-wide settings for the analysis
+	// (isotope, instrument widths, gas temperature, pressure, perturber,
+	// Stark relation overrides, two-line solution). Its Lines, Unit and
+	// ResponseCorrected are set by the pipeline.
+	Conditions diag.Measurement
+	// Dark is a dark/background spectrum on the same wavelength grid,
+	// subtracted pixel by pixel (nil: none).
+	Dark *Spectrum
+	// Response is the relative spectral response (nil: none; the Boltzmann
+	// result is then flagged as uncalibrated) and ResponseUnit the unit of
+	// the corrected intensities.
+	Response     Response
+	ResponseUnit diag.IntensityUnit
+	// Instrument is a measured instrument function (nil: the constant
+	// widths in Conditions).
+	Instrument Instrument
+	// SaturationCounts is the detector ceiling in raw counts (0: unknown;
+	// two or more pixels at the spectrum's maximum value are then taken as
+	// saturation).
+	SaturationCounts float64
+	// GainElectronsPerCount and ReadNoiseElectrons give the noise model
+	// σ² = N_e + σ_read² in electrons (0: unknown; the fit then scales its
+	// errors by the residuals).
+	GainElectronsPerCount, ReadNoiseElectrons float64
+	// CorrectOffset refits after shifting the axis by the mean offset of
+	// the fitted line centres from their catalogue wavelengths.
+	CorrectOffset bool
+	// MinSNR is the detection threshold on the peak height over the noise
+	// (0: DefaultMinSNR).
+	MinSNR float64
+	// MaxUpper is the highest Balmer member looked for (0: DefaultMaxUpper).
+	MaxUpper int
+	// KeepWindows keeps each fitted window's data, model and residuals in
+	// the result (for plots).
+	KeepWindows bool
+}
+
+// Defaults of Options.
+const (
+	// DefaultMinSNR is the peak signal-to-noise below which a line counts
+	// as not detected. Common practice, no source.
+	DefaultMinSNR = 5
+	// DefaultMaxUpper is the highest member searched by default.
+	DefaultMaxUpper = 12
+	// MinPixels is the fewest pixels a spectrum may have.
+	MinPixels = 16
+)
+
+// LineSearch reports what the pipeline did with one Balmer member inside
+// the spectral range.
+type LineSearch struct {
+	UpperLevel int     `json:"upper_level"`
+	Name       string  `json:"name"`
+	ExpectedNM float64 `json:"expected_center_nm"`
+	// Status is "fitted", "not-detected", "saturated" or "fit-failed".
+	Status  string  `json:"status"`
+	PeakSNR float64 `json:"peak_snr"`
+	Reason  string  `json:"reason,omitempty"`
+}
+
+// Window is one fitted window kept for plotting (Options.KeepWindows).
+type Window struct {
+	Uppers       []int     `json:"upper_levels"`
+	WavelengthNM []float64 `json:"wavelength_nm"`
+	Data         []float64 `json:"data"`
+	Model        []float64 `json:"model"`
+	Residual     []float64 `json:"residual"`
+}
+
+// Result is the outcome of Analyze: the diag analysis plus the search and
+// preprocessing record.
+type Result struct {
+	diag.Result
+	Source  string     `json:"source"`
+	Pixels  int        `json:"pixels"`
+	RangeNM [2]float64 `json:"range_nm"`
+	// NoiseSigma is the robust noise estimate in (calibrated) counts per nm.
+	NoiseSigma float64 `json:"noise_sigma"`
+	// WavelengthOffsetNM is the mean fitted-minus-catalogue centre offset
+	// and its 1σ; Corrected says whether the axis was shifted by it.
+	WavelengthOffsetNM    float64      `json:"wavelength_offset_nm"`
+	WavelengthOffsetUncNM float64      `json:"wavelength_offset_unc_nm"`
+	OffsetCorrected       bool         `json:"wavelength_offset_corrected"`
+	LineSearch            []LineSearch `json:"line_search"`
+	// Partial is true when some lines could not be used (saturated or
+	// failed fits); PartialReasons say which.
+	Partial        bool     `json:"partial"`
+	PartialReasons []string `json:"partial_reasons,omitempty"`
+	Windows        []Window `json:"windows,omitempty"`
+}
+
+// Error is a problem with a spectrum (or its dark, response or instrument
+// data) that stops the analysis.
+type Error struct {
+	Source string
+	Msg    string
+}
+
+func (e *Error) Error() string { return e.Source + ": " + e.Msg }
+
+// ErrNoBalmerLine reports a spectrum in which no Balmer line could be used.
+var ErrNoBalmerLine = errors.New("no Balmer line detected")
+
+// Pipeline holds the reusable workspace of the analysis. It is not safe for
+// concurrent use.
+type Pipeline struct {
+	fitter  *linefit.Fitter
+	fres    linefit.Result
+	x, y, s []float64
+	work    []float64
+	sat     []bool
+	maxPix  int
+	problem linefit.Problem
+	lineBuf []linefit.Line
+	chi2    []groupChi2
+	keep    []Window
+	iters   []int
+}
+
+// maxWindowLines bounds the lines fitted jointly in one window.
+const maxWindowLines = 8
+
+// NewPipeline returns a pipeline whose fit windows hold up to maxWindowPixels
+// pixels (windows are cut to that size).
+func NewPipeline(maxWindowPixels int) *Pipeline {
+	if maxWindowPixels < MinPixels {
+		panic("spectrum: NewPipeline with fewer than MinPixels")
+	}
+	p := &Pipeline{fitter: linefit.NewFitter(maxWindowPixels, maxWindowLines), maxPix: maxWindowPixels,
+		lineBuf: make([]linefit.Line, 0, maxWindowLines)}
+	p.problem.X = make([]float64, 0, maxWindowPixels)
+	p.problem.Y = make([]float64, 0, maxWindowPixels)
+	p.problem.Sigma = make([]float64, 0, maxWindowPixels)
+	return p
+}
+
+func fail(src, format string, args ...any) error {
+	return &Error{Source: src, Msg: fmt.Sprintf(format, args...)}
+}
+
+// check validates a spectrum's arrays.
+func check(sp *Spectrum, what string) error {
+	n := len(sp.WavelengthNM)
+	if n != len(sp.Counts) {
+		return fail(sp.Name, "%s has %d wavelengths but %d values", what, n, len(sp.Counts))
+	}
+	if n < MinPixels {
+		return fail(sp.Name, "%s has only %d pixels (need at least %d)", what, n, MinPixels)
+	}
+	for i := range n {
+		x, y := sp.WavelengthNM[i], sp.Counts[i]
+		if math.IsNaN(x) || math.IsInf(x, 0) || x <= 0 {
+			return fail(sp.Name, "%s: pixel %d has an impossible wavelength %v", what, i+1, x)
+		}
+		if math.IsNaN(y) || math.IsInf(y, 0) {
+			return fail(sp.Name, "%s: pixel %d (%.4f nm) has a non-finite value %v", what, i+1, x, y)
+		}
+		if i > 0 && x <= sp.WavelengthNM[i-1] {
+			return fail(sp.Name, "%s: wavelengths must increase strictly; pixel %d (%.6g nm) follows %.6g nm", what, i+1, x, sp.WavelengthNM[i-1])
+		}
+	}
+	return nil
+}
+
+// balmerCandidate is a Balmer member inside the range.
+type balmerCandidate struct {
+	t        diag.Transition
+	center   float64 // expected centre on the working (air or vacuum) axis
+	gauss    float64 // expected Gaussian FWHM (0 unknown)
+	gaussFix bool
+	instL    float64
+	instG    float64
+	search   LineSearch
+	peak     float64
+	width    float64 // rough FWHM estimate from the data
+	peakX    float64 // interpolated peak position
+	base     float64 // local baseline estimate
+	lo, hi   int     // window pixel range [lo, hi)
+	fit      *linefit.LineResult
+	sat      bool
+	group    int
+}
+
+// Analyze runs the whole pipeline on sp.
+func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
+	var res Result
+	src := sp.Name
+	if err := check(sp, "spectrum"); err != nil {
+		return res, err
+	}
+	n := len(sp.WavelengthNM)
+	res.Source, res.Pixels = src, n
+	res.RangeNM = [2]float64{sp.WavelengthNM[0], sp.WavelengthNM[n-1]}
+	if opt.MinSNR <= 0 {
+		opt.MinSNR = DefaultMinSNR
+	}
+	if opt.MaxUpper <= 0 {
+		opt.MaxUpper = DefaultMaxUpper
+	}
+	if opt.MaxUpper > diag.MaxLevel {
+		opt.MaxUpper = diag.MaxLevel
+	}
+
+	// Preprocess into per-nm, dark-subtracted, calibrated arrays.
+	x := grow(&p.x, n)
+	y := grow(&p.y, n)
+	sig := grow(&p.s, n)
+	sat := growBool(&p.sat, n)
+	copy(x, sp.WavelengthNM)
+	if opt.Dark != nil {
+		d := opt.Dark
+		if d.Name == "" {
+			d.Name = src + " (dark)"
+		}
+		if err := check(d, "dark spectrum"); err != nil {
+			return res, err
+		}
+		if len(d.WavelengthNM) != n {
+			return res, fail(d.Name, "dark spectrum has %d pixels, the spectrum %d: it is on another wavelength grid", len(d.WavelengthNM), n)
+		}
+		tol := 1e-3 * (x[n-1] - x[0]) / float64(n)
+		for i := range n {
+			if math.Abs(d.WavelengthNM[i]-x[i]) > tol {
+				return res, fail(d.Name, "dark spectrum is on another wavelength grid: pixel %d is at %.5f nm, the spectrum's at %.5f nm", i+1, d.WavelengthNM[i], x[i])
+			}
+		}
+	}
+	satLevel := opt.SaturationCounts
+	autoSat := false
+	if satLevel <= 0 {
+		satLevel, autoSat = autoSaturation(sp.Counts)
+	}
+	for i := range n {
+		c := sp.Counts[i]
+		sat[i] = satLevel > 0 && c >= satLevel*(1-1e-9)
+		if opt.Dark != nil {
+			c -= opt.Dark.Counts[i]
+		}
+		// Pixel width: half the distance between the neighbours.
+		var dx float64
+		switch i {
+		case 0:
+			dx = x[1] - x[0]
+		case n - 1:
+			dx = x[n-1] - x[n-2]
+		default:
+			dx = (x[i+1] - x[i-1]) / 2
+		}
+		y[i] = c / dx
+		if opt.GainElectronsPerCount > 0 {
+			raw := math.Max(sp.Counts[i], 0) * opt.GainElectronsPerCount
+			v := raw + opt.ReadNoiseElectrons*opt.ReadNoiseElectrons
+			if opt.Dark != nil {
+				v += math.Max(opt.Dark.Counts[i], 0)*opt.GainElectronsPerCount + opt.ReadNoiseElectrons*opt.ReadNoiseElectrons
+			}
+			sig[i] = math.Sqrt(math.Max(v, 1)) / opt.GainElectronsPerCount / dx
+		}
+	}
+	if sp.Vacuum {
+		for i := range n {
+			x[i] = diag.VacToAirNM(x[i])
+		}
+	}
+	noise := robustNoise(y, grow(&p.work, n))
+	if opt.GainElectronsPerCount <= 0 {
+		for i := range sig {
+			sig[i] = noise
+		}
+	}
+	if !(noise > 0) {
+		noise = math.SmallestNonzeroFloat64
+	}
+
+	p.chi2, p.keep = p.chi2[:0], nil
+	p.work = grow(&p.work, n)
+
+	// Candidates.
+	cands, err := p.candidates(x, y, sat, noise, sp, opt)
+	if err != nil {
+		return res, err
+	}
+	if len(cands) == 0 {
+		return res, fail(src, "no Balmer line (Hα … H%d) lies inside %.2f–%.2f nm", opt.MaxUpper, x[0], x[n-1])
+	}
+	// Response correction of the data that will be fitted.
+	if opt.Response != nil {
+		for ci := range cands {
+			c := &cands[ci]
+			if c.search.Status != "" {
+				continue
+			}
+			for i := c.lo; i < c.hi; i++ {
+				r, err := opt.Response.At(x[i])
+				if err != nil {
+					return res, fail(src, "response calibration does not cover %s: %v", c.t.Name(), err)
+				}
+				if !(r > 0) {
+					return res, fail(src, "response calibration is %v at %.3f nm (%s): it must be positive", r, x[i], c.t.Name())
+				}
+			}
+		}
+		for i := range n {
+			if r, err := opt.Response.At(x[i]); err == nil && r > 0 {
+				y[i] /= r
+				sig[i] /= r
+			} else {
+				y[i], sig[i] = math.NaN(), math.NaN()
+			}
+		}
+	}
+
+	offset, offUnc, err := p.fitAll(cands, x, y, sig, opt, noise)
+	if err != nil {
+		return res, fail(src, "%v", err)
+	}
+	res.WavelengthOffsetNM, res.WavelengthOffsetUncNM = offset, offUnc
+	if opt.CorrectOffset && offUnc > 0 {
+		for i := range cands {
+			cands[i].center += offset
+			cands[i].fit = nil
+		}
+		offset2, offUnc2, err := p.fitAll(cands, x, y, sig, opt, noise)
+		if err != nil {
+			return res, fail(src, "%v", err)
+		}
+		res.OffsetCorrected = true
+		res.WavelengthOffsetNM += offset2
+		res.WavelengthOffsetUncNM = offUnc2
+	}
+	if opt.KeepWindows {
+		res.Windows = p.windows(cands, x, y)
+	}
+
+	// Measurement for the analysis.
+	m := opt.Conditions
+	m.Lines = nil
+	m.ResponseCorrected = opt.Response != nil
+	m.Unit = diag.PhotonUnits
+	if opt.Response != nil {
+		m.Unit = opt.ResponseUnit
+	}
+	res.NoiseSigma = noise
+	if opt.Response != nil && len(cands) > 0 {
+		// Report the noise in calibrated units near the first fitted line.
+		if r, err := opt.Response.At(cands[0].center); err == nil && r > 0 {
+			res.NoiseSigma = noise / r
+		}
+	}
+	for i := range cands {
+		c := &cands[i]
+		res.LineSearch = append(res.LineSearch, c.search)
+		if c.search.Status == "saturated" || c.search.Status == "fit-failed" {
+			res.Partial = true
+			res.PartialReasons = append(res.PartialReasons, fmt.Sprintf("%s %s: %s", c.t.Name(), c.search.Status, c.search.Reason))
+		}
+		if c.fit == nil {
+			continue
+		}
+		f := c.fit
+		ml := diag.MeasuredLine{Upper: c.t.Upper, Intensity: f.Area, IntensityUnc: f.AreaErr}
+		if !f.LorentzAtBound && f.LorentzFWHM > 0 {
+			ml.LorentzFWHMNM, ml.LorentzFWHMUncNM = f.LorentzFWHM, f.LorentzFWHMErr
+		}
+		ml.InstrumentGaussFWHMNM, ml.InstrumentLorentzFWHMNM = c.instG, c.instL
+		ml.Profile = &diag.ProfileFit{CenterNM: f.Center, CenterUncNM: f.CenterErr,
+			GaussFWHMNM: f.GaussFWHM, GaussFWHMUncNM: f.GaussFWHMErr, GaussFixed: c.gaussFix,
+			LorentzAtBound: f.LorentzAtBound, TotalFWHMNM: f.VoigtFWHM, TotalFWHMUncNM: f.VoigtFWHMErr,
+			FWHANM: diag.FWHAFromVoigt(f.GaussFWHM, f.LorentzFWHM), PeakSNR: f.Peak / noiseAt(sig, c),
+			ReducedChi2: p.groupChi2(cands, c.group), ErrorsScaled: true,
+			WindowNM: [2]float64{x[c.lo], x[c.hi-1]}}
+		for j := range cands {
+			if j != i && cands[j].group == c.group && cands[j].fit != nil {
+				ml.Profile.JointWith = append(ml.Profile.JointWith, cands[j].t.Upper)
+			}
+		}
+		m.Lines = append(m.Lines, ml)
+	}
+	if len(m.Lines) == 0 {
+		return res, fail(src, "%v in %.2f–%.2f nm above %.0f× the noise (%s)", ErrNoBalmerLine, x[0], x[n-1], opt.MinSNR, searchSummary(res.LineSearch))
+	}
+	if m.LastResolvedUpper == 0 {
+		m.LastResolvedUpper = lastResolved(cands, x)
+	}
+	ar, err := diag.Analyze(m)
+	if err != nil {
+		return res, fail(src, "%s", trimDiag(err.Error()))
+	}
+	res.Result = ar
+	if autoSat && anySaturated(cands) {
+		res.Flags = append(res.Flags, diag.Flag{Code: "saturation_auto", Message: fmt.Sprintf(
+			"no detector ceiling was given; a flat top at %.6g counts was taken as saturation", satLevel)})
+	}
+	for _, c := range cands {
+		if c.search.Status == "saturated" {
+			res.Flags = append(res.Flags, diag.Flag{Code: "line_saturated", Message: fmt.Sprintf(
+				"%s touches the detector ceiling (%.6g counts) and is kept out of the analysis: reduce the integration time", c.t.Name(), satLevel)})
+		}
+	}
+	if res.Partial {
+		res.Flags = append(res.Flags, diag.Flag{Code: "partial_result", Message: "partial result: " + joinReasons(res.PartialReasons)})
+	}
+	res.Warnings = res.Warnings[:0]
+	for _, f := range res.Flags {
+		res.Warnings = append(res.Warnings, f.Message)
+	}
+	return res, nil
+}
+
+func joinReasons(rs []string) string {
+	s := ""
+	for i, r := range rs {
+		if i > 0 {
+			s += "; "
+		}
+		s += r
+	}
+	return s
+}
+
+func searchSummary(ls []LineSearch) string {
+	s := ""
+	for i, l := range ls {
+		if i > 0 {
+			s += ", "
+		}
+		s += fmt.Sprintf("%s %s", l.Name, l.Status)
+		if l.PeakSNR > 0 {
+			s += fmt.Sprintf(" at SNR %.1f", l.PeakSNR)
+		}
+	}
+	return s
+}
+
+func trimDiag(s string) string {
+	if len(s) > 6 && s[:6] == "diag: " {
+		return s[6:]
+	}
+	return s
+}
+
+func anySaturated(cs []balmerCandidate) bool {
+	for _, c := range cs {
+		if c.sat {
+			return true
+		}
+	}
+	return false
+}
+
+func noiseAt(sig []float64, c *balmerCandidate) float64 {
+	i := (c.lo + c.hi) / 2
+	if i < len(sig) && sig[i] > 0 && !math.IsNaN(sig[i]) {
+		return sig[i]
+	}
+	return math.SmallestNonzeroFloat64
+}
+
+func grow(b *[]float64, n int) []float64 {
+	if cap(*b) < n {
+		*b = make([]float64, n)
+	}
+	*b = (*b)[:n]
+	return *b
+}
+
+func growBool(b *[]bool, n int) []bool {
+	if cap(*b) < n {
+		*b = make([]bool, n)
+	}
+	*b = (*b)[:n]
+	return *b
+}
+
+// autoSaturation returns the spectrum's maximum when at least two pixels
+// sit exactly at it (a clipped, flat top: noisy unsaturated data almost
+// never repeat their maximum), else 0.
+func autoSaturation(counts []float64) (float64, bool) {
+	mx := math.Inf(-1)
+	for _, c := range counts {
+		mx = math.Max(mx, c)
+	}
+	k := 0
+	for _, c := range counts {
+		if c == mx {
+			k++
+		}
+	}
+	if k >= 2 && mx > 0 {
+		return mx, true
+	}
+	return 0, false
+}
+
+// robustNoise estimates the white-noise σ of y from the median absolute
+// deviation of second differences: for white noise Var(y[i−1] − 2y[i] +
+// y[i+1]) = 6σ², and σ ≈ 1.4826·MAD (normal consistency factor).
+func robustNoise(y, work []float64) float64 {
+	n := len(y)
+	d := work[:0]
+	for i := 1; i < n-1; i++ {
+		v := y[i-1] - 2*y[i] + y[i+1]
+		if !math.IsNaN(v) {
+			d = append(d, math.Abs(v))
+		}
+	}
+	if len(d) == 0 {
+		return 0
+	}
+	med := selectK(d, len(d)/2)
+	return 1.4826 * med / math.Sqrt(6)
+}
+
+// selectK returns the k-th smallest element of v (0-based), reordering v:
+// Hoare's quickselect with median-of-three pivots, O(n) on average.
+func selectK(v []float64, k int) float64 {
+	lo, hi := 0, len(v)-1
+	for lo < hi {
+		mid := lo + (hi-lo)/2
+		// Median of three as pivot.
+		if v[mid] < v[lo] {
+			v[mid], v[lo] = v[lo], v[mid]
+		}
+		if v[hi] < v[lo] {
+			v[hi], v[lo] = v[lo], v[hi]
+		}
+		if v[hi] < v[mid] {
+			v[hi], v[mid] = v[mid], v[hi]
+		}
+		pivot := v[mid]
+		i, j := lo, hi
+		for i <= j {
+			for v[i] < pivot {
+				i++
+			}
+			for v[j] > pivot {
+				j--
+			}
+			if i <= j {
+				v[i], v[j] = v[j], v[i]
+				i++
+				j--
+			}
+		}
+		switch {
+		case k <= j:
+			hi = j
+		case k >= i:
+			lo = i
+		default:
+			return v[k]
+		}
+	}
+	return v[k]
+}
