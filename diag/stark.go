@@ -303,7 +303,6 @@ func (r StarkRelation) Warnings(neM3, tempK float64) []string {
 	return w
 }
 
-
 // inglisTellerConst is the constant 0.027 of the Inglis–Teller relation
 // N n_m^(15/2) = 0.027 a₀⁻³ (physics.md §4.4, sourced).
 const inglisTellerConst = 0.027
