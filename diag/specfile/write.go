@@ -119,6 +119,8 @@ func WriteCSV(w io.Writer, s *Spectrum) error {
 // reads back exactly; otherwise YFACTOR = 10^(⌊log₁₀ max|y|⌋ − 9), so each
 // y reads back within YFACTOR/2, about 10⁻⁹ of the largest |y|. Read-back
 // X values are recomputed from FIRSTX and LASTX, which are written exactly.
+// Intensities so small that this scaling loses precision (subnormal
+// float64) are written as XYPOINTS instead.
 //
 // Otherwise it writes ##XYPOINTS=(XY..XY), one "x, y" pair per line in
 // shortest round-trip form, which reads back exactly.
@@ -177,6 +179,11 @@ func WriteJCAMP(w io.Writer, s *Spectrum) error {
 	}
 	fmt.Fprintf(bw, "##XUNITS=%s\n##YUNITS=%s\n", xunits, yunits)
 
+	var yf float64
+	var k []int64
+	if even {
+		yf, k, even = scaleOrdinates(s.Y)
+	}
 	if !even {
 		fmt.Fprintf(bw, "##XFACTOR=1\n##YFACTOR=1\n##FIRSTX=%s\n##LASTX=%s\n##NPOINTS=%d\n##FIRSTY=%s\n##XYPOINTS=(XY..XY)\n",
 			g(s.X[0]), g(s.X[n-1]), n, g(s.Y[0]))
@@ -187,25 +194,36 @@ func WriteJCAMP(w io.Writer, s *Spectrum) error {
 		return bw.Flush()
 	}
 
-	yf := 1.0
+	fmt.Fprintf(bw, "##XFACTOR=1\n##YFACTOR=%s\n##FIRSTX=%s\n##LASTX=%s\n##DELTAX=%s\n##NPOINTS=%d\n##FIRSTY=%s\n##XYDATA=(X++(Y..Y))\n",
+		g(yf), g(s.X[0]), g(s.X[n-1]), strconv.FormatFloat(step, 'G', 12, 64), n, g(float64(k[0])*yf))
+	writeDIFDUP(bw, s.X, k, g)
+	fmt.Fprintf(bw, "##END=\n")
+	return bw.Flush()
+}
+
+// scaleOrdinates returns YFACTOR and the integer ordinates for ASDF, as
+// WriteJCAMP documents, and ok=false if some y would not be reproduced
+// within 10⁻⁹ max|y| (subnormal magnitudes), in which case XYPOINTS is used.
+func scaleOrdinates(y []float64) (yf float64, k []int64, ok bool) {
+	yf = 1.0
 	maxAbs := 0.0
 	whole := true
-	for _, y := range s.Y {
-		maxAbs = math.Max(maxAbs, math.Abs(y))
-		whole = whole && y == math.Trunc(y)
+	for _, v := range y {
+		maxAbs = math.Max(maxAbs, math.Abs(v))
+		whole = whole && v == math.Trunc(v)
 	}
 	if !whole || maxAbs > 1<<53 {
 		yf = math.Pow10(int(math.Floor(math.Log10(maxAbs))) - 9)
 	}
-	k := make([]int64, n)
-	for i, y := range s.Y {
-		k[i] = int64(math.Round(y / yf))
+	k = make([]int64, len(y))
+	for i, v := range y {
+		q := math.Round(v / yf)
+		if !(math.Abs(q) < 1<<62) || !(math.Abs(q*yf-v) <= 1e-9*maxAbs) {
+			return 0, nil, false
+		}
+		k[i] = int64(q)
 	}
-	fmt.Fprintf(bw, "##XFACTOR=1\n##YFACTOR=%s\n##FIRSTX=%s\n##LASTX=%s\n##DELTAX=%s\n##NPOINTS=%d\n##FIRSTY=%s\n##XYDATA=(X++(Y..Y))\n",
-		g(yf), g(s.X[0]), g(s.X[n-1]), g(step), n, g(float64(k[0])*yf))
-	writeDIFDUP(bw, s.X, k, g)
-	fmt.Fprintf(bw, "##END=\n")
-	return bw.Flush()
+	return yf, k, true
 }
 
 func cmpRank(a, b int) int {

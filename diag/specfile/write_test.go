@@ -228,3 +228,52 @@ func TestJCAMPKey(t *testing.T) {
 		}
 	}
 }
+
+// TestRoundTripJCAMPExtremes covers magnitudes where YFACTOR scaling or the
+// FIRSTX/LASTX interpolation could lose precision; the writer must then
+// fall back to exact XYPOINTS, and every case must read back within the
+// documented 1e-9 max|y|.
+func TestRoundTripJCAMPExtremes(t *testing.T) {
+	mk := func(f func(i float64) (x, y float64)) *Spectrum {
+		sp := &Spectrum{Meta: map[string]string{}}
+		for i := range 10 {
+			x, y := f(float64(i))
+			sp.X, sp.Y = append(sp.X, x), append(sp.Y, y)
+		}
+		return sp
+	}
+	cases := map[string]*Spectrum{
+		"subnormal y":      mk(func(i float64) (float64, float64) { return i, 1e-320*(i+1) + 5e-324 }),
+		"subnormal steps":  mk(func(i float64) (float64, float64) { return i, 1.5e-310 * i }),
+		"huge y":           mk(func(i float64) (float64, float64) { return i, 1.7e308 * math.Mod(i, 2) }),
+		"huge negative y":  mk(func(i float64) (float64, float64) { return i, -1.7e308 + i*1e300 }),
+		"huge whole y":     mk(func(i float64) (float64, float64) { return i, 9e18 * math.Mod(i, 3) }),
+		"2^53 whole y":     mk(func(i float64) (float64, float64) { return i, 1<<53 - i }),
+		"x span overflows": mk(func(i float64) (float64, float64) { return 1.7e308 * (i/4.5 - 1), 1 }),
+		"x step near ulp":  mk(func(i float64) (float64, float64) { return 1e15 + i*0.125, 1 }),
+		"y over 600 decades": mk(func(i float64) (float64, float64) {
+			return i, []float64{1e-300, 1e300, 0.5, -3, 7, 8, 9, 10, 11, 12}[int(i)]
+		}),
+	}
+	for name, sp := range cases {
+		var b bytes.Buffer
+		if err := WriteJCAMP(&b, sp); err != nil {
+			t.Fatalf("%s: %v", name, err)
+		}
+		text := b.String()
+		back, err := ReadJCAMP(name, &b)
+		if err != nil {
+			t.Fatalf("%s: %v\n%s", name, err, text)
+		}
+		maxAbs := 0.0
+		for _, y := range sp.Y {
+			maxAbs = math.Max(maxAbs, math.Abs(y))
+		}
+		for i := range sp.Y {
+			if !closeTo(back.Y[i], sp.Y[i], 1e-9*maxAbs) || !closeTo(back.X[i], sp.X[i], 1e-6*math.Abs(sp.X[1]-sp.X[0])) {
+				t.Errorf("%s: point %d = (%v, %v), want (%v, %v)\n%s", name, i, back.X[i], back.Y[i], sp.X[i], sp.Y[i], text)
+				break
+			}
+		}
+	}
+}

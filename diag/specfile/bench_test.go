@@ -1,0 +1,43 @@
+package specfile
+
+import (
+	"bytes"
+	"testing"
+)
+
+// The benchmark inputs are the 2048-point golden files checked by
+// TestBenchFiles; they are read once, outside the timed loop.
+
+func BenchmarkReadText(b *testing.B) {
+	data := readTestdata(b, "bench_2048.csv")
+	b.SetBytes(int64(len(data)))
+	b.ReportAllocs()
+	for b.Loop() {
+		if _, err := ReadText("bench_2048.csv", bytes.NewReader(data), TextOptions{}); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+func BenchmarkReadJCAMP(b *testing.B) {
+	data := readTestdata(b, "bench_2048.jdx")
+	b.SetBytes(int64(len(data)))
+	b.ReportAllocs()
+	for b.Loop() {
+		if _, err := ReadJCAMP("bench_2048.jdx", bytes.NewReader(data)); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+func BenchmarkWriteJCAMP(b *testing.B) {
+	sp := syntheticHAlpha()
+	var buf bytes.Buffer
+	b.ReportAllocs()
+	for b.Loop() {
+		buf.Reset()
+		if err := WriteJCAMP(&buf, sp); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
