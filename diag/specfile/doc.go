@@ -20,7 +20,8 @@
 //	if err != nil {
 //		var pe *specfile.ParseError
 //		if errors.As(err, &pe) {
-//			// pe.Line, pe.Msg: "spectrum.csv:17: non-numeric intensity "12,3,4""
+//			// pe.Line is 17; err.Error() reads
+//			// spectrum.csv:17: non-numeric intensity "12,3,4"
 //		}
 //		return err
 //	}

@@ -58,8 +58,8 @@ func sortedMeta(s *Spectrum) []string {
 
 // WriteCSV writes s as comma-separated text that [ReadText] reads back
 // with identical X and Y (numbers are written in the shortest form that
-// round-trips, strconv 'g' with precision −1) and the same XUnit, YUnit
-// and Title. Title and Meta are written as "# key: value" comments; Meta
+// round-trips, strconv 'g' with precision −1) and the same XUnit, Title
+// and YUnit (brackets, quotes and delimiters in YUnit become blanks). Title and Meta are written as "# key: value" comments; Meta
 // keys that describe a JCAMP-DX encoding (XFACTOR, NPOINTS, ...) are left
 // out, and keys containing ':' or '=' do not read back unchanged.
 //
