@@ -3,15 +3,14 @@
 //
 // Usage:
 //
-//	glowlog [serve]            start the web application (default)
-//	glowlog analyze FILE|-     analyse a measurement set, print JSON
+//	glowlog [serve]                  start the web application (default)
+//	glowlog analyze [flags] FILE...  analyse measurement sets or spectra, print JSON
+//	glowlog instrument [flags] FILE  measure the instrument function from a lamp spectrum
 //
 // See README.md for the input and output fields.
 package main
 
 import (
-	"bytes"
-	"encoding/json"
 	"flag"
 	"fmt"
 	"io"
@@ -19,15 +18,18 @@ import (
 	"strings"
 
 	"glowlog/diag"
-	"glowlog/diag/mset"
+	"glowlog/server"
 )
 
 // Exit codes.
 const (
-	exitOK    = 0
-	exitError = 1 // internal failure
-	exitInput = 2 // bad input or usage
+	exitOK    = server.ExitOK
+	exitError = server.ExitError
+	exitInput = server.ExitInput
 )
+
+// maxInputBytes bounds what analyze reads from one measurement set.
+const maxInputBytes = server.MaxMeasurementBytes
 
 func main() {
 	os.Exit(run(os.Args[1:], os.Stdin, os.Stdout, os.Stderr))
@@ -42,6 +44,8 @@ func run(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 	switch cmd {
 	case "analyze":
 		return runAnalyze(args, stdin, stdout, stderr)
+	case "instrument":
+		return runInstrument(args, stdout, stderr)
 	case "serve":
 		return runServe(args, stderr)
 	case "version":
@@ -56,9 +60,12 @@ func run(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 }
 
 const usage = `usage:
-  glowlog [serve]              start the web application (default)
-  glowlog analyze FILE|-       analyse a measurement set (JSON) and print the result as JSON
-  glowlog version              print the version
+  glowlog [serve]                   start the web application (default)
+  glowlog analyze [flags] FILE...   analyse measurement sets (JSON) or spectra (text, JCAMP-DX);
+                                    one file: indented JSON; several: JSON Lines, in order
+  glowlog instrument [flags] FILE   measure the instrument function from a calibration-lamp spectrum
+  glowlog version                   print the version
+run "glowlog analyze -h" or "glowlog instrument -h" for the flags
 `
 
 func runServe(args []string, stderr io.Writer) int {
@@ -71,62 +78,10 @@ func runServe(args []string, stderr io.Writer) int {
 	return exitError
 }
 
-// maxInputBytes bounds what analyze reads from a file or stdin.
-const maxInputBytes = mset.MaxBytes
-
 func runAnalyze(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
-	fs := flag.NewFlagSet("analyze", flag.ContinueOnError)
-	fs.SetOutput(stderr)
-	fs.Usage = func() {
-		fmt.Fprintln(stderr, "usage: glowlog analyze FILE|-")
-		fs.PrintDefaults()
-	}
-	if err := fs.Parse(args); err != nil {
-		return exitInput
-	}
-	if fs.NArg() != 1 {
-		fmt.Fprintln(stderr, "glowlog analyze: give exactly one measurement-set file, or - for standard input")
-		return exitInput
-	}
-	name := fs.Arg(0)
-	var r io.Reader = stdin
-	source := "stdin"
-	if name != "-" {
-		f, err := os.Open(name)
-		if err != nil {
-			fmt.Fprintf(stderr, "glowlog analyze: %v\n", err)
-			return exitInput
-		}
-		defer f.Close()
-		r, source = f, name
-	}
-	data, err := io.ReadAll(io.LimitReader(r, maxInputBytes+1))
-	if err != nil {
-		fmt.Fprintf(stderr, "glowlog analyze: %s: %v\n", source, err)
-		return exitInput
-	}
-	m, err := mset.Decode(source, data)
-	if err != nil {
-		fmt.Fprintf(stderr, "glowlog analyze: %v\n", err)
-		return exitInput
-	}
-	res, err := diag.Analyze(m)
-	if err != nil {
-		// Analyze fails only on data it cannot use (a width narrower than
-		// its Gaussian budget, an impossible two-line request, …).
-		fmt.Fprintf(stderr, "glowlog analyze: %s: %v\n", source, strings.TrimPrefix(err.Error(), "diag: "))
-		return exitInput
-	}
-	var buf bytes.Buffer
-	enc := json.NewEncoder(&buf)
-	enc.SetIndent("", "  ")
-	enc.SetEscapeHTML(false)
-	if err := enc.Encode(res); err != nil {
-		fmt.Fprintf(stderr, "glowlog analyze: encoding result: %v\n", err)
-		return exitError
-	}
-	if _, err := stdout.Write(buf.Bytes()); err != nil {
-		return exitError
-	}
-	return exitOK
+	return server.AnalyzeCommand(args, stdin, stdout, stderr)
+}
+
+func runInstrument(args []string, stdout, stderr io.Writer) int {
+	return server.InstrumentCommand(args, stdout, stderr)
 }

@@ -174,7 +174,7 @@ func TestAnalyzeBadInput(t *testing.T) {
 		want        []string // substrings of the stderr line
 	}{
 		{"malformed JSON", `{"intensity_unit": "photon",` + "\n" + ` "lines": [}`, []string{"stdin:2", "malformed JSON"}},
-		{"empty", "  \n", []string{"empty input"}},
+		{"empty", "  \n", []string{"stdin:1", "0 data points"}},
 		{"unknown unit", `{"intensity_unit": "watts", "lines": [` + ok1 + `]}`, []string{"intensity_unit", "watts"}},
 		{"missing unit", `{"lines": [` + ok1 + `]}`, []string{"intensity_unit", "required"}},
 		{"missing lines", `{"intensity_unit": "photon"}`, []string{"lines", "required"}},
@@ -248,7 +248,7 @@ func TestReadmeExample(t *testing.T) {
 
 func TestUsage(t *testing.T) {
 	var out, errb bytes.Buffer
-	if code := run([]string{"analyze"}, nil, &out, &errb); code != exitInput || !strings.Contains(errb.String(), "exactly one") {
+	if code := run([]string{"analyze"}, nil, &out, &errb); code != exitInput || !strings.Contains(errb.String(), "one or more files") {
 		t.Errorf("no file: exit %d %q", code, errb.String())
 	}
 	if code := run([]string{"analyze", "testdata/does-not-exist.json"}, nil, &out, &errb); code != exitInput {

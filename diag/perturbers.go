@@ -50,7 +50,7 @@ const crcReproduction = "CRC Handbook of Chemistry and Physics, 100th ed., table
 var perturberTable = []Perturber{
 	{
 		Name: "Ar", PolarizabilityCM3: 1.6411e-24, MassAMU: 39.948,
-		Source:   "CRC Handbook (\"Atomic and molecular polarizabilities\"); physics.md §5.4 [S]; " + crcReproduction + " gives the same 1.6411",
+		Source:   "CRC Handbook (\"Atomic and molecular polarizabilities\"); " + crcReproduction + " gives the same 1.6411",
 		Verified: true,
 	},
 	{

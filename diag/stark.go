@@ -111,7 +111,7 @@ var StarkRelations = []StarkRelation{
 		MinTK:    1000,
 		Verified: false,
 		Provenance: "coefficient 4.800 nm and exponent 0.68116 from memory, unverified " +
-			"(physics.md §4.1, §10 item 1); they agree with Griem's α½ form to ~8 %. " +
+			"(glowlog physics notes §4.1, §10); they agree with Griem's α½ form to ~8 %. " +
 			"Density range 1e21–1e24 m⁻³ is a provisional bound (recalled grid ~1e21–1e25 m⁻³); " +
 			"T ≥ 1000 K recalled, upper T bound (a few 1e4 K) not specified",
 		Notes: "Hβ is the most robust density line: its width depends only weakly on T and the " +
@@ -125,7 +125,7 @@ var StarkRelations = []StarkRelation{
 		MinTK:    1000,
 		Verified: false,
 		Provenance: "coefficient 1.098 nm and exponent 0.67965 from memory, unverified " +
-			"(physics.md §4.1, §10 item 1). Density range 1e21–1e24 m⁻³ is a provisional bound; " +
+			"(glowlog physics notes §4.1, §10). Density range 1e21–1e24 m⁻³ is a provisional bound; " +
 			"T ≥ 1000 K recalled, upper T bound not specified",
 		Notes: "The full width at half area is recommended for Hα because it is much less sensitive than " +
 			"the FWHM to ion dynamics and T. In glowlog's budget the Stark profile is Lorentzian, whose FWHA " +

@@ -202,7 +202,7 @@ func FromGreyBody(wavelengthNM []float64, lampCounts []float64, tempK float64, u
 		Source: fmt.Sprintf("grey body at colour temperature %g K (Planck's law, no certificate): %d pixels %.3f–%.3f nm, %s units",
 			tempK, len(wavelengthNM), wavelengthNM[0], wavelengthNM[len(wavelengthNM)-1], unit),
 		Warnings: []string{
-			"GREY-BODY APPROXIMATION: tungsten is not grey; its emissivity falls with wavelength, so expect errors of several percent in the response shape across 300 nm (physics.md §7; magnitude from memory, unverified). Temperatures computed with this response are indicative only; calibrate against a certified spectral-irradiance standard (Yoon & Gibson 2011, NIST SP 250-89) before reporting.",
+			"GREY-BODY APPROXIMATION: tungsten is not grey; its emissivity falls with wavelength, so expect errors of several percent in the response shape across 300 nm (glowlog physics notes §7; magnitude from memory, unverified). Temperatures computed with this response are indicative only; calibrate against a certified spectral-irradiance standard (Yoon & Gibson 2011, NIST SP 250-89) before reporting.",
 			fmt.Sprintf("grey-body colour temperature %g K is an assumption: at 3000 K a 50 K error changes the B(486 nm)/B(656 nm) ratio by about 4.3 %%", tempK),
 		},
 	}

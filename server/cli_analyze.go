@@ -1,0 +1,459 @@
+package server
+
+import (
+	"bytes"
+	"encoding/json"
+	"flag"
+	"fmt"
+	"io"
+	"os"
+	"runtime"
+	"strings"
+	"sync"
+
+	"glowlog/diag"
+	"glowlog/diag/calib"
+	"glowlog/diag/mset"
+	"glowlog/diag/specfile"
+	"glowlog/diag/spectrum"
+)
+
+// Exit codes of the commands.
+const (
+	ExitOK    = 0
+	ExitError = 1 // internal failure
+	ExitInput = 2 // bad input or usage
+)
+
+// MaxMeasurementBytes bounds one measurement-set file.
+const MaxMeasurementBytes = mset.MaxBytes
+
+// analyzeConfig holds the parsed flags of analyze.
+type analyzeConfig struct {
+	format         string
+	xUnit          string
+	vacuum         bool
+	isotope        string
+	instG, instL   float64
+	instrumentFile string
+	gasT, gasTUnc  float64
+	solveGas       bool
+	pressure       float64
+	perturber      string
+	groundDensity  float64
+	unit           string
+	darkFile       string
+	responseFile   string
+	lampFile       string
+	irradianceFile string
+	greyBodyK      float64
+	saturation     float64
+	gain, readNE   float64
+	correctOffset  bool
+	minSNR         float64
+	maxUpper       int
+	windows        bool
+	set            map[string]bool // flags given on the command line
+
+	// Loaded once for all files.
+	opt spectrum.Options
+}
+
+// conditionFlags are the flags that describe measurement conditions; a
+// measurement-set file carries its own and may not be combined with them.
+var conditionFlags = []string{"isotope", "instrument-fwhm-nm", "instrument-lorentz-fwhm-nm", "instrument",
+	"gas-temperature-K", "gas-temperature-unc-K", "solve-gas-temperature", "pressure-Pa", "perturber",
+	"ground-state-density-m3", "intensity-unit", "dark", "response", "lamp", "lamp-irradiance", "grey-body-K",
+	"saturation-counts", "gain-e-per-count", "read-noise-e", "correct-offset", "min-snr", "max-upper", "windows",
+	"x-unit", "vacuum-axis"}
+
+func analyzeFlags(stderr io.Writer) (*flag.FlagSet, *analyzeConfig) {
+	c := &analyzeConfig{}
+	fs := flag.NewFlagSet("analyze", flag.ContinueOnError)
+	fs.SetOutput(stderr)
+	fs.Usage = func() {
+		fmt.Fprint(stderr, `usage: glowlog analyze [flags] FILE...
+FILE is a measurement set (JSON) or a spectrum (delimited text or JCAMP-DX); - reads standard input.
+Several files are analysed in parallel and printed as JSON Lines in the order given.
+flags (spectra only):
+`)
+		fs.PrintDefaults()
+	}
+	fs.StringVar(&c.format, "format", "auto", "input format: auto, measurement, text or jcamp")
+	fs.StringVar(&c.xUnit, "x-unit", "", "axis unit of text spectra without a unit in the header: nm, angstrom, um or cm-1")
+	fs.BoolVar(&c.vacuum, "vacuum-axis", false, "the wavelength axis is in vacuum (default: standard air; cm⁻¹ axes are always vacuum)")
+	fs.StringVar(&c.isotope, "isotope", "H", "emitter: H or D")
+	fs.Float64Var(&c.instG, "instrument-fwhm-nm", 0, "Gaussian FWHM of the instrument function, nm")
+	fs.Float64Var(&c.instL, "instrument-lorentz-fwhm-nm", 0, "Lorentzian FWHM of the instrument function, nm")
+	fs.StringVar(&c.instrumentFile, "instrument", "", "instrument-function file written by glowlog instrument (overrides the constant widths)")
+	fs.Float64Var(&c.gasT, "gas-temperature-K", 0, "gas temperature for Doppler and van der Waals widths, K")
+	fs.Float64Var(&c.gasTUnc, "gas-temperature-unc-K", 0, "1σ of the gas temperature, K")
+	fs.BoolVar(&c.solveGas, "solve-gas-temperature", false, "solve n_e and gas temperature together from Hα and Hβ")
+	fs.Float64Var(&c.pressure, "pressure-Pa", 0, "pressure of the perturber gas, Pa")
+	fs.StringVar(&c.perturber, "perturber", "none", "van der Waals perturber: Ar, He, Ne, Kr, Xe, N2, H2, air or none")
+	fs.Float64Var(&c.groundDensity, "ground-state-density-m3", 0, "H(1s) density for resonance broadening, m⁻³")
+	fs.StringVar(&c.unit, "intensity-unit", "", "unit of the response-corrected intensities: photon or energy (default: the calibration's)")
+	fs.StringVar(&c.darkFile, "dark", "", "dark/background spectrum on the same wavelength grid")
+	fs.StringVar(&c.responseFile, "response", "", "relative response curve: wavelength (nm) and counts per unit intensity")
+	fs.StringVar(&c.lampFile, "lamp", "", "standard-lamp spectrum for a response calibration (with --lamp-irradiance or --grey-body-K)")
+	fs.StringVar(&c.irradianceFile, "lamp-irradiance", "", "the lamp's certified spectral irradiance table (nm, W m⁻² nm⁻¹)")
+	fs.Float64Var(&c.greyBodyK, "grey-body-K", 0, "treat the lamp as a grey body at this temperature (approximate; flagged)")
+	fs.Float64Var(&c.saturation, "saturation-counts", 0, "detector ceiling in raw counts (default: detect a clipped top)")
+	fs.Float64Var(&c.gain, "gain-e-per-count", 0, "detector gain for the Poisson noise model, electrons per count")
+	fs.Float64Var(&c.readNE, "read-noise-e", 0, "detector read noise, electrons rms")
+	fs.BoolVar(&c.correctOffset, "correct-offset", false, "shift the axis by the mean offset of the fitted line centres and refit")
+	fs.Float64Var(&c.minSNR, "min-snr", 0, fmt.Sprintf("detection threshold on peak SNR (default %v)", spectrum.DefaultMinSNR))
+	fs.IntVar(&c.maxUpper, "max-upper", 0, fmt.Sprintf("highest Balmer member searched (default %d)", spectrum.DefaultMaxUpper))
+	fs.BoolVar(&c.windows, "windows", false, "include each fitted window's data, model and residuals")
+	return fs, c
+}
+
+// AnalyzeCommand runs "glowlog analyze" and returns the exit status.
+func AnalyzeCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
+	fs, c := analyzeFlags(stderr)
+	if err := fs.Parse(args); err != nil {
+		return ExitInput
+	}
+	c.set = map[string]bool{}
+	fs.Visit(func(f *flag.Flag) { c.set[f.Name] = true })
+	files := fs.Args()
+	if len(files) == 0 {
+		fmt.Fprintln(stderr, "glowlog analyze: give one or more files (measurement sets or spectra), or - for standard input")
+		return ExitInput
+	}
+	if err := c.load(); err != nil {
+		fmt.Fprintf(stderr, "glowlog analyze: %v\n", err)
+		return ExitInput
+	}
+	var stdinData []byte
+	for _, f := range files {
+		if f == "-" {
+			if stdinData != nil {
+				fmt.Fprintln(stderr, "glowlog analyze: standard input (-) may be given only once")
+				return ExitInput
+			}
+			b, err := io.ReadAll(io.LimitReader(stdin, specfile.DefaultMaxBytes+1))
+			if err != nil {
+				fmt.Fprintf(stderr, "glowlog analyze: stdin: %v\n", err)
+				return ExitInput
+			}
+			stdinData = b
+		}
+	}
+
+	results := make([]any, len(files))
+	errs := make([]error, len(files))
+	jobs := make(chan int)
+	var wg sync.WaitGroup
+	workers := min(runtime.GOMAXPROCS(0), len(files))
+	for range workers {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			p := spectrum.NewPipeline(8192)
+			for i := range jobs {
+				results[i], errs[i] = c.analyzeOne(p, files[i], stdinData)
+			}
+		}()
+	}
+	for i := range files {
+		jobs <- i
+	}
+	close(jobs)
+	wg.Wait()
+
+	status := ExitOK
+	single := len(files) == 1
+	for i, r := range results {
+		if errs[i] != nil {
+			fmt.Fprintf(stderr, "glowlog analyze: %v\n", errs[i])
+			status = ExitInput
+			if single {
+				return status
+			}
+			r = errorRecord{Source: sourceName(files[i]), Error: errs[i].Error()}
+		}
+		var buf bytes.Buffer
+		enc := json.NewEncoder(&buf)
+		enc.SetEscapeHTML(false)
+		if single {
+			enc.SetIndent("", "  ")
+		}
+		if err := enc.Encode(r); err != nil {
+			fmt.Fprintf(stderr, "glowlog analyze: encoding result: %v\n", err)
+			return ExitError
+		}
+		if _, err := stdout.Write(buf.Bytes()); err != nil {
+			return ExitError
+		}
+	}
+	return status
+}
+
+// errorRecord stands in a JSON Lines batch for a file that failed.
+type errorRecord struct {
+	Source string `json:"source"`
+	Error  string `json:"error"`
+}
+
+func sourceName(f string) string {
+	if f == "-" {
+		return "stdin"
+	}
+	return f
+}
+
+// analyzeOne reads and analyses one file.
+func (c *analyzeConfig) analyzeOne(p *spectrum.Pipeline, name string, stdinData []byte) (any, error) {
+	src := sourceName(name)
+	var data []byte
+	if name == "-" {
+		data = stdinData
+	} else {
+		b, err := readLimited(name, specfile.DefaultMaxBytes)
+		if err != nil {
+			return nil, err
+		}
+		data = b
+	}
+	if c.isMeasurementSet(data) {
+		for _, f := range conditionFlags {
+			if c.set[f] {
+				return nil, fmt.Errorf("%s: --%s applies to spectrum files; a measurement set carries its own conditions", src, f)
+			}
+		}
+		if len(data) > mset.MaxBytes {
+			return nil, &mset.Error{Source: src, Msg: fmt.Sprintf("file is %d bytes, more than the %d-byte limit for a measurement set", len(data), mset.MaxBytes)}
+		}
+		m, err := mset.Decode(src, data)
+		if err != nil {
+			return nil, err
+		}
+		res, err := diag.Analyze(m)
+		if err != nil {
+			return nil, fmt.Errorf("%s: %s", src, strings.TrimPrefix(err.Error(), "diag: "))
+		}
+		return res, nil
+	}
+	sp, err := c.readSpectrum(src, data)
+	if err != nil {
+		return nil, err
+	}
+	res, err := p.Analyze(sp, c.opt)
+	if err != nil {
+		return nil, err
+	}
+	return res, nil
+}
+
+func (c *analyzeConfig) isMeasurementSet(data []byte) bool {
+	switch c.format {
+	case "measurement":
+		return true
+	case "text", "jcamp":
+		return false
+	}
+	t := bytes.TrimLeft(data, " \t\r\n\ufeff")
+	return len(t) > 0 && t[0] == '{'
+}
+
+func readLimited(name string, limit int64) ([]byte, error) {
+	f, err := os.Open(name)
+	if err != nil {
+		return nil, err
+	}
+	defer f.Close()
+	b, err := io.ReadAll(io.LimitReader(f, limit+1))
+	if err != nil {
+		return nil, fmt.Errorf("%s: %v", name, err)
+	}
+	if int64(len(b)) > limit {
+		return nil, fmt.Errorf("%s: file exceeds the %d-byte limit", name, limit)
+	}
+	return b, nil
+}
+
+// readSpectrum parses a spectrum file into the pipeline's form.
+func (c *analyzeConfig) readSpectrum(src string, data []byte) (*spectrum.Spectrum, error) {
+	opt := specfile.Options{}
+	switch c.format {
+	case "text":
+		opt.Format = specfile.FormatText
+	case "jcamp":
+		opt.Format = specfile.FormatJCAMP
+	case "auto", "measurement":
+	default:
+		return nil, fmt.Errorf("unknown --format %q (want auto, measurement, text or jcamp)", c.format)
+	}
+	if c.xUnit != "" {
+		u, err := parseAxisUnit(c.xUnit)
+		if err != nil {
+			return nil, err
+		}
+		opt.Text.XUnit = u
+	}
+	s, err := specfile.Read(src, bytes.NewReader(data), opt)
+	if err != nil {
+		return nil, err
+	}
+	x, y, err := s.WavelengthNM()
+	if err != nil {
+		return nil, fmt.Errorf("%s: %v (give --x-unit nm, angstrom, um or cm-1)", src, strings.TrimPrefix(err.Error(), "specfile: "))
+	}
+	return &spectrum.Spectrum{Name: src, WavelengthNM: x, Counts: y,
+		Vacuum: c.vacuum || s.XUnit == specfile.WavenumberPerCM}, nil
+}
+
+func parseAxisUnit(s string) (specfile.AxisUnit, error) {
+	switch strings.ToLower(s) {
+	case "nm":
+		return specfile.NM, nil
+	case "angstrom", "a", "å":
+		return specfile.Angstrom, nil
+	case "um", "µm", "micrometer":
+		return specfile.Micrometer, nil
+	case "cm-1", "1/cm", "cm^-1":
+		return specfile.WavenumberPerCM, nil
+	}
+	return 0, fmt.Errorf("unknown --x-unit %q (want nm, angstrom, um or cm-1)", s)
+}
+
+// load checks the flags and reads the files shared by every spectrum.
+func (c *analyzeConfig) load() error {
+	iso, err := diag.ParseIsotope(c.isotope)
+	if err != nil {
+		return fmt.Errorf("--isotope: %v", strings.TrimPrefix(err.Error(), "diag: "))
+	}
+	if _, err := diag.LookupPerturber(c.perturber); err != nil {
+		return fmt.Errorf("--perturber: %v", strings.TrimPrefix(err.Error(), "diag: "))
+	}
+	for _, v := range []struct {
+		name string
+		v    float64
+	}{{"instrument-fwhm-nm", c.instG}, {"instrument-lorentz-fwhm-nm", c.instL}, {"gas-temperature-K", c.gasT},
+		{"gas-temperature-unc-K", c.gasTUnc}, {"pressure-Pa", c.pressure}, {"ground-state-density-m3", c.groundDensity},
+		{"grey-body-K", c.greyBodyK}, {"saturation-counts", c.saturation}, {"gain-e-per-count", c.gain},
+		{"read-noise-e", c.readNE}, {"min-snr", c.minSNR}} {
+		if !(v.v >= 0) || v.v > 1e300 {
+			return fmt.Errorf("--%s must be a finite number ≥ 0, got %v", v.name, v.v)
+		}
+	}
+	if c.instG > 50 || c.instL > 50 {
+		return fmt.Errorf("--instrument-fwhm-nm above 50 nm: check the unit (nm expected)")
+	}
+	if c.maxUpper != 0 && (c.maxUpper < 3 || c.maxUpper > diag.MaxLevel) {
+		return fmt.Errorf("--max-upper must be 3…%d, got %d", diag.MaxLevel, c.maxUpper)
+	}
+	o := &c.opt
+	o.Conditions = diag.Measurement{Isotope: iso, InstrumentGaussFWHMNM: c.instG, InstrumentLorentzFWHMNM: c.instL,
+		GasTemperatureK: c.gasT, GasTemperatureUncK: c.gasTUnc, PressurePa: c.pressure, Perturber: c.perturber,
+		GroundStateDensityM3: c.groundDensity, SolveGasTemperature: c.solveGas}
+	o.SaturationCounts, o.GainElectronsPerCount, o.ReadNoiseElectrons = c.saturation, c.gain, c.readNE
+	o.CorrectOffset, o.MinSNR, o.MaxUpper, o.KeepWindows = c.correctOffset, c.minSNR, c.maxUpper, c.windows
+	if c.instrumentFile != "" {
+		b, err := readLimited(c.instrumentFile, 1<<20)
+		if err != nil {
+			return err
+		}
+		in, err := calib.ReadInstrument(bytes.NewReader(b))
+		if err != nil {
+			return fmt.Errorf("%s: %v", c.instrumentFile, err)
+		}
+		o.Instrument = in
+	}
+	if c.darkFile != "" {
+		b, err := readLimited(c.darkFile, specfile.DefaultMaxBytes)
+		if err != nil {
+			return err
+		}
+		d, err := c.readSpectrum(c.darkFile, b)
+		if err != nil {
+			return err
+		}
+		o.Dark = d
+	}
+	unit := diag.PhotonUnits
+	if c.unit != "" {
+		u, err := diag.ParseIntensityUnit(c.unit)
+		if err != nil {
+			return fmt.Errorf("--intensity-unit: %v", err)
+		}
+		unit = u
+	}
+	if c.set["intensity-unit"] && c.responseFile == "" && c.lampFile == "" {
+		return fmt.Errorf("--intensity-unit describes a response calibration: give --response or --lamp too")
+	}
+	switch {
+	case c.responseFile != "" && c.lampFile != "":
+		return fmt.Errorf("give either --response or --lamp, not both")
+	case c.responseFile != "":
+		b, err := readLimited(c.responseFile, specfile.DefaultMaxBytes)
+		if err != nil {
+			return err
+		}
+		s, err := c.readSpectrum(c.responseFile, b)
+		if err != nil {
+			return err
+		}
+		r, err := calib.FromCurve(c.responseFile, s.WavelengthNM, s.Counts, unit)
+		if err != nil {
+			return err
+		}
+		o.Response, o.ResponseUnit = r, unit
+	case c.lampFile != "":
+		b, err := readLimited(c.lampFile, specfile.DefaultMaxBytes)
+		if err != nil {
+			return err
+		}
+		s, err := c.readSpectrum(c.lampFile, b)
+		if err != nil {
+			return err
+		}
+		perNM := make([]float64, len(s.Counts))
+		for i := range perNM {
+			perNM[i] = s.Counts[i] / pixelWidth(s.WavelengthNM, i)
+		}
+		var r *calib.Response
+		switch {
+		case c.irradianceFile != "" && c.greyBodyK > 0:
+			return fmt.Errorf("give either --lamp-irradiance or --grey-body-K, not both")
+		case c.irradianceFile != "":
+			ib, err := readLimited(c.irradianceFile, 1<<24)
+			if err != nil {
+				return err
+			}
+			irr, err := calib.ReadIrradiance(c.irradianceFile, bytes.NewReader(ib))
+			if err != nil {
+				return err
+			}
+			r, err = calib.FromStandardLamp(s.WavelengthNM, perNM, irr.WavelengthNM, irr.WPerM2NM, unit)
+			if err != nil {
+				return err
+			}
+		case c.greyBodyK > 0:
+			r, err = calib.FromGreyBody(s.WavelengthNM, perNM, c.greyBodyK, unit)
+			if err != nil {
+				return err
+			}
+		default:
+			return fmt.Errorf("--lamp needs --lamp-irradiance (certified table) or --grey-body-K")
+		}
+		o.Response, o.ResponseUnit = r, unit
+	case c.irradianceFile != "" || c.greyBodyK > 0:
+		return fmt.Errorf("--lamp-irradiance and --grey-body-K need --lamp")
+	}
+	return nil
+}
+
+func pixelWidth(x []float64, i int) float64 {
+	n := len(x)
+	switch {
+	case n < 2:
+		return 1
+	case i == 0:
+		return x[1] - x[0]
+	case i == n-1:
+		return x[n-1] - x[n-2]
+	}
+	return (x[i+1] - x[i-1]) / 2
+}
