@@ -3,6 +3,7 @@ package diag
 import (
 	"errors"
 	"fmt"
+	"strings"
 )
 
 // EngineVersion is the version of the analysis engine, recorded with
@@ -107,7 +108,8 @@ type LineResult struct {
 	// appear inline (center_nm, gauss_fwhm_nm, …).
 	*ProfileFit
 
-	flags []Flag
+	flags      []Flag
+	noRelation bool
 }
 
 // BudgetView is the JSON form of a line's broadening budget (all FWHM, nm).
@@ -297,8 +299,16 @@ func Analyze(m Measurement) (Result, error) {
 				"the coefficients of Stark relation %s are from memory and not yet checked against the publication: treat the densities as provisional", r.ID)})
 		}
 	}
+	var noRel []string
 	for _, lr := range res.Lines {
 		res.Flags = append(res.Flags, lr.flags...)
+		if lr.noRelation {
+			noRel = append(noRel, lr.Name)
+		}
+	}
+	if len(noRel) > 0 {
+		res.Flags = append(res.Flags, Flag{FlagNoRelation, fmt.Sprintf(
+			"%s: no Stark-width relation is implemented for these lines (only Hα and Hβ), so their widths give no density", strings.Join(noRel, ", "))})
 	}
 	for _, n := range densityPreference {
 		for _, lr := range res.Lines {

@@ -120,7 +120,9 @@ func analyzeWidth(lr *LineResult, in lineWidthInput, m Measurement, pert Perturb
 		rel, err = DefaultStarkRelation(l.Upper)
 	}
 	if err != nil {
-		lr.note(FlagNoRelation, "no Stark-width relation is available for this line (only Hα and Hβ have published fits implemented), so its width gives no density")
+		// Reported on the line; Analyze gathers these into one flag.
+		lr.Notes = append(lr.Notes, "no Stark-width relation is available for this line (only Hα and Hβ have published fits implemented), so its width gives no density")
+		lr.noRelation = true
 		return nil
 	}
 	lr.StarkRelation = rel.ID
@@ -156,6 +158,13 @@ func numDeriv(f func(float64) float64, x float64) float64 {
 // Common practice, no source.
 const unknownSpreadLimit = 0.3
 
+// relationSystematic is the relative uncertainty assumed for each Stark
+// relation when densities from different lines are compared (the fits'
+// own accuracy, a few per cent, plus the approximation of the Hβ profile
+// by a Lorentzian). Common practice, no source; it is not included in the
+// reported statistical σ of n_e.
+const relationSystematic = 0.05
+
 // densityConsistency flags lines whose densities disagree by more than
 // twice their combined 1σ (or, without uncertainties, by more than
 // unknownSpreadLimit relative to their mean).
@@ -176,10 +185,11 @@ func densityConsistency(lines []LineResult) []Flag {
 				}
 				continue
 			}
-			s := math.Hypot(*a.ElectronDensityUncM3, *b.ElectronDensityUncM3)
+			s := math.Hypot(math.Hypot(*a.ElectronDensityUncM3, relationSystematic**a.ElectronDensityM3),
+				math.Hypot(*b.ElectronDensityUncM3, relationSystematic**b.ElectronDensityM3))
 			if d > 2*s {
 				out = append(out, Flag{FlagDensityDisagree, fmt.Sprintf(
-					"%s and %s give electron densities %.3g and %.3g m⁻³, which differ by more than twice their combined uncertainty: check the instrument width, the gas temperature and self-absorption; the Hβ value is preferred",
+					"%s and %s give electron densities %.3g and %.3g m⁻³, which differ by more than twice their combined uncertainty (statistical, plus 5 %% per relation): check the instrument width, the gas temperature and self-absorption; the Hβ value is preferred",
 					a.Name, b.Name, *a.ElectronDensityM3, *b.ElectronDensityM3)})
 			}
 		}

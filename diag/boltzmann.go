@@ -374,6 +374,14 @@ func offLineFlags(pts []BoltzmannPoint, full BoltzmannResult, opt BoltzmannOptio
 			varPred *= s2
 			sy = math.Sqrt(s2)
 		}
+		if haveUnc && len(x) > 2 {
+			// Scatter of the other points beyond their stated σ widens
+			// the test the same way it widens the fit's uncertainty.
+			if s2 := l.chi2 / float64(len(x)-2); s2 > 1 {
+				varPred *= s2
+				sy *= math.Sqrt(s2)
+			}
+		}
 		sigma := math.Sqrt(varPred + sy*sy)
 		dev := full.Points[idx].Y - pred
 		if sigma == 0 || math.Abs(dev) <= offLineSigmas*sigma {

@@ -11,6 +11,54 @@ import (
 )
 
 // FWHAFromVoigt returns the full width at half area of a Voigt profile
+// with Gaussian FWHM wG and Lorentzian FWHM wL, by interpolation in a table
+// of FWHA/w_V against the Lorentzian fraction ρ = w_L/(w_L + w_G), with w_V
+// the Olivero–Longbothum FWHM. The table (513 nodes, built once from
+// FWHAFromVoigtExact) and cubic Hermite interpolation reproduce the exact
+// value to better than 1e-6 relative (tested). Limits as for
+// FWHAFromVoigtExact.
+func FWHAFromVoigt(wG, wL float64) float64 {
+	if !(wG >= 0) || !(wL >= 0) {
+		panic(fmt.Sprintf("diag: FWHAFromVoigt(%g, %g): widths must be ≥ 0", wG, wL))
+	}
+	if wG == 0 || wL == 0 {
+		return FWHAFromVoigtExact(wG, wL)
+	}
+	fwhaTableOnce.Do(initFWHATable)
+	rho := wL / (wL + wG)
+	u := rho * float64(len(fwhaTable)-1)
+	i := min(int(u), len(fwhaTable)-2)
+	t := u - float64(i)
+	// Cubic Hermite with derivatives by central differences.
+	d := func(k int) float64 {
+		switch {
+		case k == 0:
+			return fwhaTable[1] - fwhaTable[0]
+		case k == len(fwhaTable)-1:
+			return fwhaTable[k] - fwhaTable[k-1]
+		}
+		return (fwhaTable[k+1] - fwhaTable[k-1]) / 2
+	}
+	p0, p1, m0, m1 := fwhaTable[i], fwhaTable[i+1], d(i), d(i+1)
+	t2, t3 := t*t, t*t*t
+	r := (2*t3-3*t2+1)*p0 + (t3-2*t2+t)*m0 + (-2*t3+3*t2)*p1 + (t3-t2)*m1
+	return r * VoigtFWHM(wG, wL)
+}
+
+var (
+	fwhaTableOnce sync.Once
+	fwhaTable     [513]float64 // FWHA/w_V at ρ = k/512
+)
+
+func initFWHATable() {
+	for k := range fwhaTable {
+		rho := float64(k) / float64(len(fwhaTable)-1)
+		wG, wL := 1-rho, rho
+		fwhaTable[k] = FWHAFromVoigtExact(wG, wL) / VoigtFWHM(wG, wL)
+	}
+}
+
+// FWHAFromVoigtExact returns the full width at half area of a Voigt profile
 // with Gaussian FWHM wG and Lorentzian FWHM wL (same unit): 2h, where the
 // central interval [−h, h] holds half of the area,
 //
@@ -33,9 +81,9 @@ import (
 // bisection). Limits: a pure Lorentzian gives FWHA = FWHM; a pure Gaussian
 // gives 2·0.67449σ = 0.572858·FWHM. It panics on a negative or NaN width
 // and returns 0 when both are 0.
-func FWHAFromVoigt(wG, wL float64) float64 {
+func FWHAFromVoigtExact(wG, wL float64) float64 {
 	if !(wG >= 0) || !(wL >= 0) {
-		panic(fmt.Sprintf("diag: FWHAFromVoigt(%g, %g): widths must be ≥ 0", wG, wL))
+		panic(fmt.Sprintf("diag: FWHAFromVoigtExact(%g, %g): widths must be ≥ 0", wG, wL))
 	}
 	sigma := wG / (2 * math.Sqrt(2*math.Ln2))
 	gamma := wL / 2

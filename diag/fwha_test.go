@@ -69,10 +69,38 @@ func TestFWHAAgainstReference(t *testing.T) {
 	for _, ratio := range []float64{1e-3, 0.01, 0.1, 0.3, 0.5, 0.84, 0.85, 0.86, 1, 2, 5, 20, 100, 1000} {
 		wG := 1.0
 		wL := ratio * wG
-		got, want := FWHAFromVoigt(wG, wL), fwhaReference(wG, wL)
+		got, want := FWHAFromVoigtExact(wG, wL), fwhaReference(wG, wL)
 		if r := math.Abs(got-want) / want; r > 1e-6 {
 			t.Errorf("wL/wG = %g: FWHA %.12f, reference %.12f (rel %.2g)", ratio, got, want, r)
 		}
+	}
+}
+
+// TestFWHATable: the interpolated FWHA agrees with the exact one between
+// the table nodes (at 1000 Lorentzian fractions), and the limits hold.
+func TestFWHATable(t *testing.T) {
+	worst := 0.0
+	for k := range 1000 {
+		rho := (float64(k) + 0.5) / 1000
+		wG, wL := 0.3*(1-rho), 0.3*rho
+		got, want := FWHAFromVoigt(wG, wL), FWHAFromVoigtExact(wG, wL)
+		worst = math.Max(worst, math.Abs(got-want)/want)
+	}
+	if worst > 1e-6 {
+		t.Errorf("worst relative error of the table %.2g > 1e-6", worst)
+	}
+	// Pure Gaussian: 2·0.67449σ = 0.572858·FWHM; pure Lorentzian: FWHM.
+	if g := FWHAFromVoigt(1, 0); math.Abs(g-0.5728582) > 1e-6 {
+		t.Errorf("Gaussian FWHA %.7f, want 0.5728582", g)
+	}
+	if l := FWHAFromVoigt(0, 0.7); l != 0.7 {
+		t.Errorf("Lorentzian FWHA %g, want 0.7", l)
+	}
+}
+
+func BenchmarkFWHAExact(b *testing.B) {
+	for b.Loop() {
+		FWHAFromVoigtExact(0.35, 0.6)
 	}
 }
 

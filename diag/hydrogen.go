@@ -3,6 +3,7 @@ package diag
 import (
 	"fmt"
 	"math"
+	"sync"
 )
 
 // Isotope selects the hydrogen isotope whose nuclear mass enters the
@@ -207,6 +208,25 @@ func NewTransition(upper, lower int, iso Isotope) (Transition, error) {
 	if iso != Hydrogen && iso != Deuterium {
 		return Transition{}, fmt.Errorf("diag: unknown isotope %d", int(iso))
 	}
+	key := transitionKey{upper, lower, iso}
+	if v, ok := transitionCache.Load(key); ok {
+		return v.(Transition), nil
+	}
+	t := computeTransition(upper, lower, iso)
+	transitionCache.Store(key, t)
+	return t, nil
+}
+
+type transitionKey struct {
+	upper, lower int
+	iso          Isotope
+}
+
+// transitionCache holds computed transitions: they depend only on their
+// key, and the exact line strengths are costly.
+var transitionCache sync.Map
+
+func computeTransition(upper, lower int, iso Isotope) Transition {
 	t := Transition{Isotope: iso, Upper: upper, Lower: lower,
 		GUpper: 2 * upper * upper, GLower: 2 * lower * lower}
 	eu, el := LevelCentroidPerM(upper, iso), LevelCentroidPerM(lower, iso)
@@ -229,7 +249,7 @@ func NewTransition(upper, lower int, iso Isotope) (Transition, error) {
 	t.OscillatorF = EpsilonZero * ElectronMassKG * SpeedOfLight * bohr * bohr *
 		float64(t.GUpper) / float64(t.GLower) * t.EinsteinA /
 		(2 * math.Pi * ElementaryCharge * ElementaryCharge)
-	return t, nil
+	return t
 }
 
 // Balmer returns NewTransition(upper, 2, iso).
@@ -240,6 +260,10 @@ func Balmer(upper int, iso Isotope) (Transition, error) {
 // TotalDecayRate returns Γ_n = Σ_{m<n} A(n→m), the total radiative decay
 // rate of level n (statistically populated l-substates) in s⁻¹.
 func TotalDecayRate(n int, iso Isotope) float64 {
+	key := transitionKey{n, 0, iso}
+	if v, ok := transitionCache.Load(key); ok {
+		return v.(float64)
+	}
 	var g float64
 	for m := 1; m < n; m++ {
 		t, err := NewTransition(n, m, iso)
@@ -248,6 +272,7 @@ func TotalDecayRate(n int, iso Isotope) float64 {
 		}
 		g += t.EinsteinA
 	}
+	transitionCache.Store(key, g)
 	return g
 }
 

@@ -188,10 +188,10 @@ func check(sp *Spectrum, what string) error {
 	}
 	for i := range n {
 		x, y := sp.WavelengthNM[i], sp.Counts[i]
-		if math.IsNaN(x) || math.IsInf(x, 0) || x <= 0 {
+		if !(x > 0 && x <= math.MaxFloat64) {
 			return fail(sp.Name, "%s: pixel %d has an impossible wavelength %v", what, i+1, x)
 		}
-		if math.IsNaN(y) || math.IsInf(y, 0) {
+		if !(y >= -math.MaxFloat64 && y <= math.MaxFloat64) {
 			return fail(sp.Name, "%s: pixel %d (%.4f nm) has a non-finite value %v", what, i+1, x, y)
 		}
 		if i > 0 && x <= sp.WavelengthNM[i-1] {
@@ -514,13 +514,12 @@ func growBool(b *[]bool, n int) []bool {
 // sit exactly at it (a clipped, flat top: noisy unsaturated data almost
 // never repeat their maximum), else 0.
 func autoSaturation(counts []float64) (float64, bool) {
-	mx := math.Inf(-1)
+	mx, k := counts[0], 0
 	for _, c := range counts {
-		mx = math.Max(mx, c)
-	}
-	k := 0
-	for _, c := range counts {
-		if c == mx {
+		switch {
+		case c > mx:
+			mx, k = c, 1
+		case c == mx:
 			k++
 		}
 	}
