@@ -110,7 +110,7 @@ func (p *Pipeline) candidates(x, y []float64, sat []bool, noise float64, sp *Spe
 			c.search.Status = "saturated"
 			c.search.Reason = "the line core reaches the detector ceiling"
 		}
-		hw := math.Max(6*c.width, 12*px)
+		hw := math.Max(5*c.width, 12*px)
 		c.lo, c.hi = index(x, center-hw), min(index(x, center+hw), n)
 		if c.hi-c.lo > p.maxPix {
 			mid := (c.lo + c.hi) / 2

@@ -279,7 +279,11 @@ func faddeevaAsymptotic(x, y float64) complex128 {
 	// exp(−z²) matters only where it is not negligible against Re w, whose
 	// size is at least about |y|/(√π|z|²). For |y| ≥ 1e-10 and |z| < 1e3
 	// it is negligible (below 1e-18 relative) once x² − y² > 80.
-	if t := (x - y) * (x + y); math.Abs(y) < 1 && t < 745 && !(t > 80 && math.Abs(y) >= 1e-10 && r2 < 1e6) {
+	// Cheaper special case first: for 1e-3 ≤ |y| < 1 and |z|² ≤ 1e4,
+	// Re w ≥ 1e-3/(√π·1e4), so exp(−t) is below 1e-16 of it once
+	// t > 36.8 + ln(√π·1e4/1e-3) ≈ 53.5 (always true here, as |z| ≥ 8).
+	ay := math.Abs(y)
+	if t := (x - y) * (x + y); ay < 1 && t < 745 && !(t > 54 && ay >= 1e-3 && r2 <= 1e4) && !(t > 80 && ay >= 1e-10 && r2 < 1e6) {
 		if e := math.Exp(-t); e > 1e-18*math.Abs(wr) {
 			s, c := math.Sincos(2 * x * y)
 			wr += e * c
