@@ -275,7 +275,13 @@ func readLimited(name string, limit int64) ([]byte, error) {
 
 // readSpectrum parses a spectrum file into the pipeline's form.
 func (c *analyzeConfig) readSpectrum(src string, data []byte) (*spectrum.Spectrum, error) {
-	opt := specfile.Options{}
+	return c.readCurve(src, data, 0)
+}
+
+// readCurve parses a spectrum or a tabulated curve (a response curve may
+// have only a few points: minPoints, 0 for the reader's default).
+func (c *analyzeConfig) readCurve(src string, data []byte, minPoints int) (*spectrum.Spectrum, error) {
+	opt := specfile.Options{Limits: specfile.Limits{MinPoints: minPoints}}
 	switch c.format {
 	case "text":
 		opt.Format = specfile.FormatText
@@ -391,7 +397,7 @@ func (c *analyzeConfig) load() error {
 		if err != nil {
 			return err
 		}
-		s, err := c.readSpectrum(c.responseFile, b)
+		s, err := c.readCurve(c.responseFile, b, 2)
 		if err != nil {
 			return err
 		}
