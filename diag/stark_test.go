@@ -279,3 +279,40 @@ func TestStarkPanics(t *testing.T) {
 		}()
 	}
 }
+
+// BenchmarkStarkInversion is the measured-width-to-density chain of one
+// line: broadening budget, Olivero–Longbothum inversion of the Voigt FWHM,
+// subtraction of the non-Stark Lorentzian parts, GGC 2003 Hβ relation.
+func BenchmarkStarkInversion(b *testing.B) {
+	hb, err := Balmer(4, Hydrogen)
+	if err != nil {
+		b.Fatal(err)
+	}
+	ar, _ := LookupPerturber("Ar")
+	rel, _ := DefaultStarkRelation(4)
+	for b.Loop() {
+		bud, err := NewBudget(BudgetInput{Transition: hb, InstrumentGaussNM: 0.05, GasTempK: 1200, Perturber: ar, PressurePa: 101325})
+		if err != nil {
+			b.Fatal(err)
+		}
+		ws, err := bud.StarkFromVoigtNM(0.55)
+		if err != nil {
+			b.Fatal(err)
+		}
+		_ = rel.DensityFromLorentzianNM(ws)
+	}
+}
+
+// BenchmarkAnalyze is the whole analysis of a four-line measurement set.
+func BenchmarkAnalyze(b *testing.B) {
+	m := Measurement{Unit: PhotonUnits, ResponseCorrected: true, InstrumentGaussFWHMNM: 0.05,
+		GasTemperatureK: 1200, PressurePa: 101325, Perturber: "Ar",
+		Lines: []MeasuredLine{{Upper: 3, Intensity: 1e5, IntensityUnc: 2e3, FWHMNM: 0.21},
+			{Upper: 4, Intensity: 1.5e4, IntensityUnc: 4e2, FWHMNM: 0.55, FWHMUncNM: 0.01},
+			{Upper: 5, Intensity: 3.9e3, IntensityUnc: 1.5e2}, {Upper: 6, Intensity: 1.6e3, IntensityUnc: 8e1}}}
+	for b.Loop() {
+		if _, err := Analyze(m); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
