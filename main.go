@@ -11,7 +11,6 @@
 package main
 
 import (
-	"flag"
 	"fmt"
 	"io"
 	"os"
@@ -47,7 +46,7 @@ func run(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 	case "instrument":
 		return runInstrument(args, stdout, stderr)
 	case "serve":
-		return runServe(args, stderr)
+		return runServe(args, stdout, stderr)
 	case "version":
 		fmt.Fprintf(stdout, "glowlog %s (%s)\n", diag.EngineVersion, diag.ConstantsSet)
 		return exitOK
@@ -68,14 +67,8 @@ const usage = `usage:
 run "glowlog analyze -h" or "glowlog instrument -h" for the flags
 `
 
-func runServe(args []string, stderr io.Writer) int {
-	fs := flag.NewFlagSet("serve", flag.ContinueOnError)
-	fs.SetOutput(stderr)
-	if err := fs.Parse(args); err != nil {
-		return exitInput
-	}
-	fmt.Fprintln(stderr, "glowlog serve: the web application is not built yet; use `glowlog analyze FILE` (see README.md)")
-	return exitError
+func runServe(args []string, stdout, stderr io.Writer) int {
+	return server.ServeCommand(args, stdout, stderr)
 }
 
 func runAnalyze(args []string, stdin io.Reader, stdout, stderr io.Writer) int {

@@ -1,0 +1,308 @@
+package server
+
+import (
+	"bytes"
+	"context"
+	"database/sql"
+	"encoding/json"
+	"fmt"
+	"strings"
+
+	"glowlog/diag"
+	"glowlog/diag/calib"
+	"glowlog/diag/mset"
+	"glowlog/diag/specfile"
+	"glowlog/diag/spectrum"
+	"glowlog/store"
+)
+
+// AnalysisSettings are the settings of one analysis version, stored with
+// it as JSON. Zero values take the run's conditions.
+type AnalysisSettings struct {
+	Isotope                 string         `json:"isotope,omitempty"`
+	InstrumentFWHMNM        float64        `json:"instrument_fwhm_nm,omitempty"`
+	InstrumentLorentzFWHMNM float64        `json:"instrument_lorentz_fwhm_nm,omitempty"`
+	InstrumentID            int64          `json:"instrument_id,omitempty"`
+	GasTemperatureK         float64        `json:"gas_temperature_K,omitempty"`
+	GasTemperatureUncK      float64        `json:"gas_temperature_unc_K,omitempty"`
+	SolveGasTemperature     bool           `json:"solve_gas_temperature,omitempty"`
+	PressurePa              float64        `json:"pressure_Pa,omitempty"`
+	Perturber               string         `json:"perturber,omitempty"`
+	ResponseUnit            string         `json:"response_unit,omitempty"`
+	SaturationCounts        float64        `json:"saturation_counts,omitempty"`
+	GainElectronsPerCount   float64        `json:"gain_e_per_count,omitempty"`
+	ReadNoiseElectrons      float64        `json:"read_noise_e,omitempty"`
+	CorrectOffset           bool           `json:"correct_offset,omitempty"`
+	MinSNR                  float64        `json:"min_snr,omitempty"`
+	MaxUpper                int            `json:"max_upper,omitempty"`
+	StarkRelations          map[int]string `json:"stark_relations,omitempty"`
+	ExcludeFromBoltzmann    []int          `json:"exclude_from_boltzmann,omitempty"`
+}
+
+// DefaultSettings takes the analysis settings from a run's conditions.
+func DefaultSettings(r store.Run) AnalysisSettings {
+	var st AnalysisSettings
+	if r.InstrumentFWHMNM != nil {
+		st.InstrumentFWHMNM = *r.InstrumentFWHMNM
+	}
+	if r.InstrumentID != nil {
+		st.InstrumentID = *r.InstrumentID
+	}
+	if r.GasTemperatureK != nil {
+		st.GasTemperatureK = *r.GasTemperatureK
+	}
+	if r.PressurePa != nil {
+		st.PressurePa = *r.PressurePa
+	}
+	st.Perturber = r.Perturber
+	return st
+}
+
+// Validate checks settings for impossible values.
+func (st *AnalysisSettings) Validate() error {
+	if _, err := diag.ParseIsotope(st.Isotope); err != nil {
+		return badRequest("isotope: %s", strings.TrimPrefix(err.Error(), "diag: "))
+	}
+	if st.Perturber == "" {
+		st.Perturber = "none"
+	}
+	if _, err := diag.LookupPerturber(st.Perturber); err != nil {
+		return badRequest("perturber: %s", strings.TrimPrefix(err.Error(), "diag: "))
+	}
+	for _, f := range []struct {
+		name string
+		v    float64
+		max  float64
+	}{{"instrument FWHM (nm)", st.InstrumentFWHMNM, 50}, {"instrument Lorentzian FWHM (nm)", st.InstrumentLorentzFWHMNM, 50},
+		{"gas temperature (K)", st.GasTemperatureK, 1e6}, {"gas temperature σ (K)", st.GasTemperatureUncK, 1e6},
+		{"pressure (Pa)", st.PressurePa, 1e8}, {"saturation (counts)", st.SaturationCounts, 1e15},
+		{"gain (e⁻/count)", st.GainElectronsPerCount, 1e6}, {"read noise (e⁻)", st.ReadNoiseElectrons, 1e6}, {"minimum SNR", st.MinSNR, 1e6}} {
+		if !(f.v >= 0 && f.v <= f.max) {
+			return badRequest("%s must be between 0 and %g, got %g", f.name, f.max, f.v)
+		}
+	}
+	if st.MaxUpper != 0 && (st.MaxUpper < 3 || st.MaxUpper > diag.MaxLevel) {
+		return badRequest("highest Balmer member must be 3…%d, got %d", diag.MaxLevel, st.MaxUpper)
+	}
+	if st.ResponseUnit != "" {
+		if _, err := diag.ParseIntensityUnit(st.ResponseUnit); err != nil {
+			return badRequest("response unit: %v", err)
+		}
+	}
+	for n, id := range st.StarkRelations {
+		r, err := diag.LookupStarkRelation(id)
+		if err != nil || r.Upper != n {
+			return badRequest("Stark relation %q does not apply to n = %d", id, n)
+		}
+	}
+	return nil
+}
+
+// RunAnalysis is the result of analysing one attachment: a spectrum
+// (spectrum.Result) or a typed line table (diag.Result).
+type RunAnalysis struct {
+	Attachment store.Attachment
+	Spectrum   *spectrum.Result
+	Lines      *diag.Result
+	Err        error
+}
+
+// Diag returns the diag part of either kind of result.
+func (ra RunAnalysis) Diag() *diag.Result {
+	if ra.Spectrum != nil {
+		return &ra.Spectrum.Result
+	}
+	return ra.Lines
+}
+
+// analyzeAttachments analyses every spectrum and line table of a run with
+// settings st. A bad file gives an error result for that file only.
+func (s *Server) analyzeAttachments(ctx context.Context, atts []store.Attachment, st AnalysisSettings) ([]RunAnalysis, error) {
+	iso, _ := diag.ParseIsotope(st.Isotope)
+	opt := spectrum.Options{
+		Conditions: diag.Measurement{Isotope: iso, InstrumentGaussFWHMNM: st.InstrumentFWHMNM,
+			InstrumentLorentzFWHMNM: st.InstrumentLorentzFWHMNM, GasTemperatureK: st.GasTemperatureK,
+			GasTemperatureUncK: st.GasTemperatureUncK, PressurePa: st.PressurePa, Perturber: st.Perturber,
+			SolveGasTemperature: st.SolveGasTemperature, StarkRelations: st.StarkRelations},
+		SaturationCounts: st.SaturationCounts, GainElectronsPerCount: st.GainElectronsPerCount,
+		ReadNoiseElectrons: st.ReadNoiseElectrons, CorrectOffset: st.CorrectOffset, MinSNR: st.MinSNR,
+		MaxUpper: st.MaxUpper, KeepWindows: true,
+	}
+	if st.InstrumentID != 0 {
+		in, err := s.DB.Instrument(ctx, st.InstrumentID)
+		if err != nil {
+			return nil, err
+		}
+		opt.Instrument = in
+	}
+	cfg := &analyzeConfig{format: "auto"}
+	// The newest dark and response files apply to every spectrum.
+	for i := len(atts) - 1; i >= 0; i-- {
+		a := atts[i]
+		switch {
+		case a.Kind == store.KindDark && opt.Dark == nil:
+			data, err := s.content(ctx, a)
+			if err != nil {
+				return nil, err
+			}
+			d, err := cfg.readSpectrum(a.Name, data)
+			if err != nil {
+				return nil, badRequest("dark file %s: %v", a.Name, err)
+			}
+			opt.Dark = d
+		case a.Kind == store.KindResponse && opt.Response == nil:
+			data, err := s.content(ctx, a)
+			if err != nil {
+				return nil, err
+			}
+			c, err := cfg.readCurve(a.Name, data, 2)
+			if err != nil {
+				return nil, badRequest("response file %s: %v", a.Name, err)
+			}
+			unit := diag.PhotonUnits
+			if st.ResponseUnit != "" {
+				unit, _ = diag.ParseIntensityUnit(st.ResponseUnit)
+			}
+			r, err := calib.FromCurve(a.Name, c.WavelengthNM, c.Counts, unit)
+			if err != nil {
+				return nil, badRequest("response file %s: %v", a.Name, err)
+			}
+			opt.Response, opt.ResponseUnit = r, unit
+		}
+	}
+	p := spectrum.NewPipeline(8192)
+	var out []RunAnalysis
+	for _, a := range atts {
+		if a.Kind != store.KindSpectrum && a.Kind != store.KindLineTable {
+			continue
+		}
+		data, err := s.content(ctx, a)
+		if err != nil {
+			return nil, err
+		}
+		ra := RunAnalysis{Attachment: a}
+		ra.Attachment.Content = nil
+		if a.Kind == store.KindLineTable {
+			m, err := mset.Decode(a.Name, data)
+			if err == nil {
+				var r diag.Result
+				r, err = diag.Analyze(m)
+				ra.Lines = &r
+			}
+			ra.Err = err
+		} else {
+			sp, err := cfg.readSpectrum(a.Name, data)
+			if err == nil {
+				var r spectrum.Result
+				r, err = p.Analyze(sp, opt)
+				if err == nil {
+					ra.Spectrum = &r
+				}
+			}
+			ra.Err = err
+		}
+		out = append(out, ra)
+	}
+	return out, nil
+}
+
+// toNewAnalysis turns analysis results into the stored form.
+func toNewAnalysis(st AnalysisSettings, results []RunAnalysis, userID *int64, reason string) (store.NewAnalysis, error) {
+	sj, err := json.Marshal(st)
+	if err != nil {
+		return store.NewAnalysis{}, err
+	}
+	na := store.NewAnalysis{Settings: string(sj), EngineVersion: diag.EngineVersion, CreatedBy: userID, Reason: reason}
+	for _, ra := range results {
+		r := store.AnalysisResult{AttachmentID: ra.Attachment.ID}
+		if ra.Err != nil {
+			r.Error = ra.Err.Error()
+			na.Results = append(na.Results, r)
+			continue
+		}
+		var buf bytes.Buffer
+		enc := json.NewEncoder(&buf)
+		enc.SetEscapeHTML(false)
+		var v any = ra.Lines
+		if ra.Spectrum != nil {
+			v = ra.Spectrum
+		}
+		if err := enc.Encode(v); err != nil {
+			return na, err
+		}
+		r.Result = buf.String()
+		d := ra.Diag()
+		r.TexcK, r.TexcUncK, r.NeM3, r.NeUncM3, r.TgasK = d.ExcitationTemperatureK, d.ExcitationTemperatureUncK,
+			d.ElectronDensityM3, d.ElectronDensityUncM3, d.GasTemperatureK
+		if d.GasTemperatureSource != "two-line" {
+			r.TgasK = nil // only a solved gas temperature is a result
+		}
+		r.NWarnings = len(d.Warnings)
+		na.Results = append(na.Results, r)
+	}
+	return na, nil
+}
+
+// ReanalyzeRun analyses all of a run's attachments with st and stores the
+// outcome as a new analysis version (earlier versions are kept).
+func (s *Server) ReanalyzeRun(ctx context.Context, runID int64, st AnalysisSettings, userID *int64, reason string) (int, error) {
+	if err := st.Validate(); err != nil {
+		return 0, err
+	}
+	atts, err := s.DB.Attachments(ctx, runID)
+	if err != nil {
+		return 0, err
+	}
+	results, err := s.analyzeAttachments(ctx, atts, st)
+	if err != nil {
+		return 0, err
+	}
+	na, err := toNewAnalysis(st, results, userID, reason)
+	if err != nil {
+		return 0, err
+	}
+	return s.DB.AddAnalysis(ctx, runID, na)
+}
+
+// ReanalyzeRunTx is ReanalyzeRun inside the caller's transaction, for
+// requests that store a run, its files and the first analysis at once.
+func (s *Server) ReanalyzeRunTx(ctx context.Context, tx *sql.Tx, runID int64, atts []store.Attachment, st AnalysisSettings, userID *int64, reason string) (int, []RunAnalysis, error) {
+	if err := st.Validate(); err != nil {
+		return 0, nil, err
+	}
+	results, err := s.analyzeAttachmentsWith(ctx, tx, atts, st)
+	if err != nil {
+		return 0, nil, err
+	}
+	na, err := toNewAnalysis(st, results, userID, reason)
+	if err != nil {
+		return 0, nil, err
+	}
+	v, err := s.DB.AddAnalysisTx(ctx, tx, runID, na)
+	return v, results, err
+}
+
+// analyzeAttachmentsWith analyses attachments whose content is given
+// (not yet committed).
+func (s *Server) analyzeAttachmentsWith(ctx context.Context, _ *sql.Tx, atts []store.Attachment, st AnalysisSettings) ([]RunAnalysis, error) {
+	for _, a := range atts {
+		if a.Content == nil {
+			return nil, fmt.Errorf("server: attachment %d without content", a.ID)
+		}
+	}
+	return s.analyzeAttachments(ctx, atts, st)
+}
+
+// content returns an attachment's bytes, loading them when not given.
+func (s *Server) content(ctx context.Context, a store.Attachment) ([]byte, error) {
+	if a.Content != nil {
+		return a.Content, nil
+	}
+	full, err := s.DB.AttachmentContent(ctx, a.ID)
+	return full.Content, err
+}
+
+// specRead is used by the forms to check an upload before storing it.
+func specRead(name string, data []byte) (*specfile.Spectrum, error) {
+	return specfile.Read(name, bytes.NewReader(data), specfile.Options{})
+}

@@ -1,0 +1,125 @@
+package server
+
+import (
+	"context"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"log/slog"
+	"net"
+	"net/http"
+	"os"
+	"os/signal"
+	"path/filepath"
+	"syscall"
+	"time"
+
+	"glowlog/store"
+)
+
+// Defaults of glowlog serve.
+const (
+	DefaultAddr = "127.0.0.1:8080"
+	DefaultDB   = "glowlog.db"
+)
+
+// ServeCommand runs "glowlog serve": it opens (or creates) the database,
+// creates the first admin account with a one-time password, seeds the demo
+// scenario into an empty database unless --no-demo, and serves until
+// SIGINT or SIGTERM.
+func ServeCommand(args []string, stdout, stderr io.Writer) int {
+	fs := flag.NewFlagSet("serve", flag.ContinueOnError)
+	fs.SetOutput(stderr)
+	addr := fs.String("addr", envOr("GLOWLOG_ADDR", DefaultAddr), "listen address HOST:PORT (env GLOWLOG_ADDR)")
+	dbPath := fs.String("db", envOr("GLOWLOG_DB", DefaultDB), "SQLite database file (env GLOWLOG_DB)")
+	noDemo := fs.Bool("no-demo", os.Getenv("GLOWLOG_NO_DEMO") != "", "do not seed the demo scenario into an empty database (env GLOWLOG_NO_DEMO)")
+	secure := fs.Bool("secure-cookies", os.Getenv("GLOWLOG_SECURE_COOKIES") != "", "mark cookies Secure (behind TLS) (env GLOWLOG_SECURE_COOKIES)")
+	if err := fs.Parse(args); err != nil {
+		return ExitInput
+	}
+	log := slog.New(slog.NewTextHandler(stderr, nil))
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+	defer stop()
+	if err := serve(ctx, *addr, *dbPath, !*noDemo, *secure, log, stdout); err != nil {
+		fmt.Fprintf(stderr, "glowlog serve: %v\n", err)
+		return ExitError
+	}
+	return ExitOK
+}
+
+func envOr(k, def string) string {
+	if v := os.Getenv(k); v != "" {
+		return v
+	}
+	return def
+}
+
+func serve(ctx context.Context, addr, dbPath string, demo, secure bool, log *slog.Logger, stdout io.Writer) error {
+	if dir := filepath.Dir(dbPath); dir != "." {
+		if err := os.MkdirAll(dir, 0o755); err != nil {
+			return err
+		}
+	}
+	db, err := store.Open(ctx, dbPath)
+	if err != nil {
+		return err
+	}
+	defer db.Close()
+	s := New(db, Options{Log: log, SecureCookies: secure})
+	if err := s.bootstrap(ctx, demo, stdout); err != nil {
+		return err
+	}
+	ln, err := net.Listen("tcp", addr)
+	if err != nil {
+		return err
+	}
+	srv := &http.Server{Handler: s, ReadHeaderTimeout: 10 * time.Second, IdleTimeout: 2 * time.Minute}
+	fmt.Fprintf(stdout, "glowlog: serving http://%s (database %s); Ctrl-C stops\n", ln.Addr(), dbPath)
+	errc := make(chan error, 1)
+	go func() { errc <- srv.Serve(ln) }()
+	s.Jobs.Start(ctx)
+	select {
+	case err := <-errc:
+		if !errors.Is(err, http.ErrServerClosed) {
+			return err
+		}
+	case <-ctx.Done():
+		log.Info("shutting down")
+	}
+	sctx, cancel := context.WithTimeout(context.Background(), 10*time.Second)
+	defer cancel()
+	err = srv.Shutdown(sctx)
+	s.Jobs.Wait()
+	return err
+}
+
+// bootstrap creates the first admin (printing a one-time password) and
+// seeds the demo scenario into an empty database.
+func (s *Server) bootstrap(ctx context.Context, demo bool, stdout io.Writer) error {
+	n, err := s.DB.CountUsers(ctx)
+	if err != nil {
+		return err
+	}
+	if n > 0 {
+		return nil
+	}
+	pw, _ := NewToken()
+	pw = pw[:20]
+	hash, err := HashPassword(pw)
+	if err != nil {
+		return err
+	}
+	admin, err := s.DB.CreateUser(ctx, "admin", store.RoleAdmin, hash)
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(stdout, "glowlog: created account %q with the one-time password %s (change it on the account page)\n", admin.Name, pw)
+	if demo {
+		fmt.Fprintln(stdout, "glowlog: seeding the demo scenario (invented lab; --no-demo skips this)…")
+		if err := SeedDemo(ctx, s, admin.ID, DemoOptions{}); err != nil {
+			return fmt.Errorf("demo data: %w", err)
+		}
+	}
+	return nil
+}

@@ -1,0 +1,1 @@
+// glowlog's own script: nothing inline (CSP script-src 'self').

@@ -1,0 +1,226 @@
+package store
+
+import (
+	"context"
+	"database/sql"
+	"errors"
+	"fmt"
+	"math"
+	"time"
+)
+
+// Analysis is one analysis version of a run.
+type Analysis struct {
+	ID            int64
+	RunID         int64
+	Version       int
+	Settings      string // JSON
+	EngineVersion string
+	CreatedBy     *int64
+	CreatedByName string
+	CreatedAt     time.Time
+	Reason        string
+	Results       []AnalysisResult
+}
+
+// AnalysisResult is the analysis of one attachment in a version.
+type AnalysisResult struct {
+	ID                                    int64
+	AttachmentID                          int64
+	AttachmentName                        string
+	AttachmentSeq                         int
+	Result                                string // JSON, "" when Error is set
+	Error                                 string
+	TexcK, TexcUncK, NeM3, NeUncM3, TgasK *float64
+	NWarnings                             int
+}
+
+// NewAnalysis is what AddAnalysis stores.
+type NewAnalysis struct {
+	Settings      string
+	EngineVersion string
+	CreatedBy     *int64
+	Reason        string
+	Results       []AnalysisResult
+}
+
+// AddAnalysis stores a new analysis version of a run (never replacing an
+// earlier one) and updates the run's summary, in one transaction.
+func (d *DB) AddAnalysis(ctx context.Context, runID int64, a NewAnalysis) (int, error) {
+	var version int
+	err := d.inTx(ctx, func(tx *sql.Tx) error {
+		var err error
+		version, err = d.AddAnalysisTx(ctx, tx, runID, a)
+		return err
+	})
+	return version, err
+}
+
+// AddAnalysisTx is AddAnalysis inside the caller's transaction.
+func (d *DB) AddAnalysisTx(ctx context.Context, tx *sql.Tx, runID int64, a NewAnalysis) (int, error) {
+	var version int
+	if err := tx.QueryRowContext(ctx, `SELECT coalesce(max(version), 0) + 1 FROM analyses WHERE run_id = ?`, runID).Scan(&version); err != nil {
+		return 0, err
+	}
+	res, err := tx.ExecContext(ctx, `INSERT INTO analyses (run_id, version, settings, engine_version, created_by, created_at, reason)
+		VALUES (?, ?, ?, ?, ?, ?, ?)`, runID, version, a.Settings, a.EngineVersion, a.CreatedBy, d.now(), a.Reason)
+	if err != nil {
+		return 0, fmt.Errorf("store: add analysis: %w", err)
+	}
+	aid, _ := res.LastInsertId()
+	for _, r := range a.Results {
+		var result any
+		if r.Result != "" {
+			result = r.Result
+		}
+		var errMsg any
+		if r.Error != "" {
+			errMsg = r.Error
+		}
+		if _, err := tx.ExecContext(ctx, `INSERT INTO analysis_results (analysis_id, attachment_id, result, error, texc_k, texc_unc_k,
+			ne_m3, ne_unc_m3, tgas_k, n_warnings) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
+			aid, r.AttachmentID, result, errMsg, nullF(r.TexcK), nullF(r.TexcUncK), nullF(r.NeM3), nullF(r.NeUncM3),
+			nullF(r.TgasK), r.NWarnings); err != nil {
+			return 0, fmt.Errorf("store: add analysis result: %w", err)
+		}
+	}
+	s := summarize(a.Results)
+	if _, err := tx.ExecContext(ctx, `UPDATE runs SET texc_k = ?, texc_unc_k = ?, ne_m3 = ?, ne_unc_m3 = ?, tgas_k = ?,
+		n_warnings = ?, analysis_version = ?, updated_at = ? WHERE id = ?`,
+		nullF(s.TexcK), nullF(s.TexcUncK), nullF(s.NeM3), nullF(s.NeUncM3), nullF(s.TgasK), s.NWarnings, version, d.now(), runID); err != nil {
+		return 0, err
+	}
+	return version, nil
+}
+
+// summarize combines the results of a run's attachments (a time series):
+// inverse-variance weighted means where every value has a σ, plain means
+// (with the standard error of the mean as σ) otherwise.
+func summarize(rs []AnalysisResult) AnalysisResult {
+	var out AnalysisResult
+	mean := func(get func(AnalysisResult) (*float64, *float64)) (*float64, *float64) {
+		var vals, uncs []float64
+		allUnc := true
+		for _, r := range rs {
+			v, u := get(r)
+			if v == nil {
+				continue
+			}
+			vals = append(vals, *v)
+			if u == nil || *u <= 0 {
+				allUnc = false
+				uncs = append(uncs, 0)
+			} else {
+				uncs = append(uncs, *u)
+			}
+		}
+		if len(vals) == 0 {
+			return nil, nil
+		}
+		if allUnc {
+			var sw, swx float64
+			for i, v := range vals {
+				w := 1 / (uncs[i] * uncs[i])
+				sw += w
+				swx += w * v
+			}
+			m, s := swx/sw, 1/math.Sqrt(sw)
+			return &m, &s
+		}
+		var sum float64
+		for _, v := range vals {
+			sum += v
+		}
+		m := sum / float64(len(vals))
+		if len(vals) < 2 {
+			return &m, nil
+		}
+		var ss float64
+		for _, v := range vals {
+			ss += (v - m) * (v - m)
+		}
+		se := math.Sqrt(ss / float64(len(vals)-1) / float64(len(vals)))
+		return &m, &se
+	}
+	out.TexcK, out.TexcUncK = mean(func(r AnalysisResult) (*float64, *float64) { return r.TexcK, r.TexcUncK })
+	out.NeM3, out.NeUncM3 = mean(func(r AnalysisResult) (*float64, *float64) { return r.NeM3, r.NeUncM3 })
+	out.TgasK, _ = mean(func(r AnalysisResult) (*float64, *float64) { return r.TgasK, nil })
+	for _, r := range rs {
+		out.NWarnings += r.NWarnings
+	}
+	return out
+}
+
+// Analyses lists a run's analysis versions, newest first, without results.
+func (d *DB) Analyses(ctx context.Context, runID int64) ([]Analysis, error) {
+	rows, err := d.db.QueryContext(ctx, `SELECT a.id, a.run_id, a.version, a.settings, a.engine_version, a.created_by,
+		coalesce(u.name, ''), a.created_at, a.reason FROM analyses a LEFT JOIN users u ON u.id = a.created_by
+		WHERE a.run_id = ? ORDER BY a.version DESC`, runID)
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	var out []Analysis
+	for rows.Next() {
+		var a Analysis
+		var by sql.NullInt64
+		var created int64
+		if err := rows.Scan(&a.ID, &a.RunID, &a.Version, &a.Settings, &a.EngineVersion, &by, &a.CreatedByName, &created, &a.Reason); err != nil {
+			return nil, err
+		}
+		if by.Valid {
+			v := by.Int64
+			a.CreatedBy = &v
+		}
+		a.CreatedAt = time.Unix(created, 0).UTC()
+		out = append(out, a)
+	}
+	return out, rows.Err()
+}
+
+// AnalysisVersion returns one version (0: the newest) with its results.
+func (d *DB) AnalysisVersion(ctx context.Context, runID int64, version int) (Analysis, error) {
+	all, err := d.Analyses(ctx, runID)
+	if err != nil {
+		return Analysis{}, err
+	}
+	var a *Analysis
+	for i := range all {
+		if version == 0 || all[i].Version == version {
+			a = &all[i]
+			break
+		}
+	}
+	if a == nil {
+		return Analysis{}, fmt.Errorf("run %d analysis version %d: %w", runID, version, ErrNotFound)
+	}
+	rows, err := d.db.QueryContext(ctx, `SELECT r.id, r.attachment_id, t.name, t.seq, coalesce(r.result, ''), coalesce(r.error, ''),
+		r.texc_k, r.texc_unc_k, r.ne_m3, r.ne_unc_m3, r.tgas_k, r.n_warnings
+		FROM analysis_results r JOIN attachments t ON t.id = r.attachment_id WHERE r.analysis_id = ? ORDER BY t.kind, t.seq`, a.ID)
+	if err != nil {
+		return *a, err
+	}
+	defer rows.Close()
+	for rows.Next() {
+		var r AnalysisResult
+		var texc, texcU, ne, neU, tg sql.NullFloat64
+		if err := rows.Scan(&r.ID, &r.AttachmentID, &r.AttachmentName, &r.AttachmentSeq, &r.Result, &r.Error,
+			&texc, &texcU, &ne, &neU, &tg, &r.NWarnings); err != nil {
+			return *a, err
+		}
+		r.TexcK, r.TexcUncK, r.NeM3, r.NeUncM3, r.TgasK = scanF(texc), scanF(texcU), scanF(ne), scanF(neU), scanF(tg)
+		a.Results = append(a.Results, r)
+	}
+	if err := rows.Err(); err != nil {
+		return *a, err
+	}
+	return *a, nil
+}
+
+// errNoRows reports sql.ErrNoRows as ErrNotFound.
+func errNoRows(err error, what string) error {
+	if errors.Is(err, sql.ErrNoRows) {
+		return fmt.Errorf("%s: %w", what, ErrNotFound)
+	}
+	return err
+}

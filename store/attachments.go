@@ -1,0 +1,96 @@
+package store
+
+import (
+	"context"
+	"database/sql"
+	"errors"
+	"fmt"
+	"time"
+)
+
+// Attachment kinds.
+const (
+	KindSpectrum  = "spectrum"
+	KindDark      = "dark"
+	KindResponse  = "response"
+	KindLineTable = "line_table"
+)
+
+// MaxAttachmentBytes bounds one stored file.
+const MaxAttachmentBytes = 32 << 20
+
+// Attachment is a file or line table attached to a run.
+type Attachment struct {
+	ID        int64
+	RunID     int64
+	Kind      string
+	Name      string
+	Seq       int
+	Content   []byte // nil in listings
+	Size      int
+	CreatedAt time.Time
+}
+
+// AddAttachmentTx stores an attachment inside the caller's transaction;
+// Seq is the next in the run for its kind.
+func (d *DB) AddAttachmentTx(ctx context.Context, tx *sql.Tx, runID int64, kind, name string, content []byte) (int64, error) {
+	switch kind {
+	case KindSpectrum, KindDark, KindResponse, KindLineTable:
+	default:
+		return 0, fmt.Errorf("%w: unknown attachment kind %q", ErrInvalid, kind)
+	}
+	if len(content) == 0 {
+		return 0, fmt.Errorf("%w: %s is empty", ErrInvalid, name)
+	}
+	if len(content) > MaxAttachmentBytes {
+		return 0, fmt.Errorf("%w: %s is %d bytes, above the %d-byte limit", ErrInvalid, name, len(content), MaxAttachmentBytes)
+	}
+	var seq int
+	if err := tx.QueryRowContext(ctx, `SELECT coalesce(max(seq), 0) + 1 FROM attachments WHERE run_id = ? AND kind = ?`, runID, kind).Scan(&seq); err != nil {
+		return 0, err
+	}
+	res, err := tx.ExecContext(ctx, `INSERT INTO attachments (run_id, kind, name, seq, content, created_at) VALUES (?, ?, ?, ?, ?, ?)`,
+		runID, kind, name, seq, content, d.now())
+	if err != nil {
+		return 0, fmt.Errorf("store: add attachment: %w", err)
+	}
+	return res.LastInsertId()
+}
+
+// Attachments lists a run's attachments (without content) by kind and seq.
+func (d *DB) Attachments(ctx context.Context, runID int64) ([]Attachment, error) {
+	rows, err := d.db.QueryContext(ctx, `SELECT id, run_id, kind, name, seq, length(content), created_at FROM attachments
+		WHERE run_id = ? ORDER BY kind, seq`, runID)
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	var out []Attachment
+	for rows.Next() {
+		var a Attachment
+		var created int64
+		if err := rows.Scan(&a.ID, &a.RunID, &a.Kind, &a.Name, &a.Seq, &a.Size, &created); err != nil {
+			return nil, err
+		}
+		a.CreatedAt = time.Unix(created, 0).UTC()
+		out = append(out, a)
+	}
+	return out, rows.Err()
+}
+
+// AttachmentContent returns one attachment with its content.
+func (d *DB) AttachmentContent(ctx context.Context, id int64) (Attachment, error) {
+	var a Attachment
+	var created int64
+	err := d.db.QueryRowContext(ctx, `SELECT id, run_id, kind, name, seq, content, created_at FROM attachments WHERE id = ?`, id).
+		Scan(&a.ID, &a.RunID, &a.Kind, &a.Name, &a.Seq, &a.Content, &created)
+	if errors.Is(err, sql.ErrNoRows) {
+		return a, fmt.Errorf("attachment %d: %w", id, ErrNotFound)
+	}
+	a.Size, a.CreatedAt = len(a.Content), time.Unix(created, 0).UTC()
+	return a, err
+}
+
+// Begin starts a transaction for requests that store several things
+// atomically (a run with its attachments and first analysis).
+func (d *DB) Begin(ctx context.Context) (*sql.Tx, error) { return d.db.BeginTx(ctx, nil) }
