@@ -45,6 +45,10 @@ func run(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 		return runAnalyze(args, stdin, stdout, stderr)
 	case "instrument":
 		return runInstrument(args, stdout, stderr)
+	case "user":
+		return server.UserCommand(args, stdin, stdout, stderr)
+	case "token":
+		return server.TokenCommand(args, stdout, stderr)
 	case "serve":
 		return runServe(args, stdout, stderr)
 	case "version":
@@ -63,6 +67,8 @@ const usage = `usage:
   glowlog analyze [flags] FILE...   analyse measurement sets (JSON) or spectra (text, JCAMP-DX);
                                     one file: indented JSON; several: JSON Lines, in order
   glowlog instrument [flags] FILE   measure the instrument function from a calibration-lamp spectrum
+  glowlog user add NAME --role R    create an account (password on stdin); --db FILE
+  glowlog token create NAME         print a new API token for user NAME, once; --db FILE
   glowlog version                   print the version
 run "glowlog analyze -h" or "glowlog instrument -h" for the flags
 `
