@@ -3,6 +3,7 @@ package diag
 import (
 	"errors"
 	"fmt"
+	"glowlog/diag/voigt"
 	"math"
 )
 
@@ -250,7 +251,7 @@ func VoigtFWHM(wG, wL float64) float64 {
 	if !(wG >= 0) || !(wL >= 0) {
 		panic(fmt.Sprintf("diag: VoigtFWHM(%g, %g): widths must be ≥ 0", wG, wL))
 	}
-	return olA*wL + math.Sqrt(olB*wL*wL+wG*wG)
+	return voigt.OliveroFWHM(wG, wL)
 }
 
 // ErrBelowResolution reports a measured width narrower than the Gaussian

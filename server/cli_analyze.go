@@ -417,7 +417,7 @@ func (c *analyzeConfig) load() error {
 		}
 		perNM := make([]float64, len(s.Counts))
 		for i := range perNM {
-			perNM[i] = s.Counts[i] / pixelWidth(s.WavelengthNM, i)
+			perNM[i] = s.Counts[i] / spectrum.PixelWidth(s.WavelengthNM, i)
 		}
 		var r *calib.Response
 		switch {
@@ -449,17 +449,4 @@ func (c *analyzeConfig) load() error {
 		return fmt.Errorf("--lamp-irradiance and --grey-body-K need --lamp")
 	}
 	return nil
-}
-
-func pixelWidth(x []float64, i int) float64 {
-	n := len(x)
-	switch {
-	case n < 2:
-		return 1
-	case i == 0:
-		return x[1] - x[0]
-	case i == n-1:
-		return x[n-1] - x[n-2]
-	}
-	return (x[i+1] - x[i-1]) / 2
 }

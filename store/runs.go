@@ -21,8 +21,11 @@ var SourceTypes = []struct{ Key, Label string }{
 }
 
 // SourceLabel returns the display name of a source type key.
-func SourceLabel(key string) string {
-	for _, s := range SourceTypes {
+func SourceLabel(key string) string { return label(SourceTypes, key) }
+
+// label looks a key up in a key/label list (the key itself if absent).
+func label(list []struct{ Key, Label string }, key string) string {
+	for _, s := range list {
 		if s.Key == key {
 			return s.Label
 		}
@@ -39,14 +42,7 @@ var Statuses = []struct{ Key, Label string }{
 }
 
 // StatusLabel returns the display name of a status key.
-func StatusLabel(key string) string {
-	for _, s := range Statuses {
-		if s.Key == key {
-			return s.Label
-		}
-	}
-	return key
-}
+func StatusLabel(key string) string { return label(Statuses, key) }
 
 // Run is a discharge run with its conditions and current summary.
 type Run struct {

@@ -10,7 +10,11 @@ import (
 	"glowlog/diag/linefit"
 )
 
-// pixelWidth returns the local pixel spacing at index i.
+// PixelWidth returns the local pixel spacing of an ascending axis at
+// index i: half the distance between the neighbours (one-sided at the
+// ends). Counts per pixel divided by it are counts per unit of the axis.
+func PixelWidth(x []float64, i int) float64 { return pixelWidth(x, i) }
+
 func pixelWidth(x []float64, i int) float64 {
 	n := len(x)
 	switch {
