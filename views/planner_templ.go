@@ -459,15 +459,15 @@ func plannerResult(r *PlannerResult) templ.Component {
 			return templ_7745c5c3_Err
 		}
 		var templ_7745c5c3_Var22 string
-		templ_7745c5c3_Var22, templ_7745c5c3_Err = templ.JoinStringErrs(SigFig(r.Centre.AngularDispersionRadPerNM, 4))
+		templ_7745c5c3_Var22, templ_7745c5c3_Err = templ.JoinStringErrs(SigFig(r.Centre.AngularDispersionRadPerNM*1e3, 4))
 		if templ_7745c5c3_Err != nil {
-			return templ.Error{Err: templ_7745c5c3_Err, FileName: `views/planner.templ`, Line: 173, Col: 134}
+			return templ.Error{Err: templ_7745c5c3_Err, FileName: `views/planner.templ`, Line: 173, Col: 138}
 		}
 		_, templ_7745c5c3_Err = templ_7745c5c3_Buffer.WriteString(templ.EscapeString(templ_7745c5c3_Var22))
 		if templ_7745c5c3_Err != nil {
 			return templ_7745c5c3_Err
 		}
-		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 25, " rad/nm</div></div><div><div class=\"label\">Instrument FWHM (estimate)</div><div class=\"value\" data-testid=\"centre-practical\">")
+		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 25, " mrad/nm</div></div><div><div class=\"label\">Instrument FWHM (estimate)</div><div class=\"value\" data-testid=\"centre-practical\">")
 		if templ_7745c5c3_Err != nil {
 			return templ_7745c5c3_Err
 		}
