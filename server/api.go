@@ -1,0 +1,624 @@
+package server
+
+import (
+	"bytes"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io"
+	"mime"
+	"net/http"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/labstack/echo/v4"
+
+	"glowlog/diag"
+	"glowlog/diag/mset"
+	"glowlog/store"
+)
+
+// The JSON API (/api/v1): bearer-token authentication (loadUser), JSON in
+// and out, errors as {"error": "…"} through handleError. README.md
+// section "JSON API" documents it.
+
+// apiRunBody is the JSON body of POST /api/v1/runs.
+type apiRunBody struct {
+	Title            string   `json:"title"`
+	StartedAt        string   `json:"started_at"`
+	SourceType       string   `json:"source_type"`
+	Chamber          string   `json:"chamber"`
+	Recipe           string   `json:"recipe"`
+	GasMixture       string   `json:"gas_mixture"`
+	PressurePa       *float64 `json:"pressure_Pa"`
+	PowerW           *float64 `json:"power_W"`
+	Flows            string   `json:"flows"`
+	GapMM            *float64 `json:"electrode_gap_mm"`
+	GratingLMM       *float64 `json:"grating_l_mm"`
+	SlitUM           *float64 `json:"slit_um"`
+	IntegrationMS    *float64 `json:"integration_ms"`
+	InstrumentFWHMNM *float64 `json:"instrument_fwhm_nm"`
+	GasTemperatureK  *float64 `json:"gas_temperature_K"`
+	Perturber        string   `json:"perturber"`
+	Notes            string   `json:"notes"`
+	Tags             []string `json:"tags"`
+}
+
+// maxRunBody bounds the JSON body of a new run.
+const maxRunBody = 64 << 10
+
+// decodeStrict decodes one JSON object from r into v, rejecting unknown
+// fields and trailing data, with a message naming the field at fault.
+func decodeStrict(r io.Reader, limit int64, v any) error {
+	data, err := io.ReadAll(io.LimitReader(r, limit+1))
+	if err != nil {
+		return err
+	}
+	if int64(len(data)) > limit {
+		return badRequest("request body is larger than %d bytes", limit)
+	}
+	if len(bytes.TrimSpace(data)) == 0 {
+		return badRequest("empty request body: expected a JSON object")
+	}
+	dec := json.NewDecoder(bytes.NewReader(data))
+	dec.DisallowUnknownFields()
+	if err := dec.Decode(v); err != nil {
+		var se *json.SyntaxError
+		var te *json.UnmarshalTypeError
+		switch {
+		case errors.As(err, &se):
+			return badRequest("malformed JSON at byte %d: %s", se.Offset, se.Error())
+		case errors.As(err, &te):
+			return badRequest("field %q: expected %s, got a JSON %s", te.Field, te.Type.String(), te.Value)
+		case strings.HasPrefix(err.Error(), "json: unknown field "):
+			return badRequest("unknown field %s", strings.TrimPrefix(err.Error(), "json: unknown field "))
+		case errors.Is(err, io.ErrUnexpectedEOF):
+			return badRequest("malformed JSON: the body ends early")
+		}
+		return badRequest("malformed JSON: %s", strings.TrimPrefix(err.Error(), "json: "))
+	}
+	if dec.More() {
+		return badRequest("malformed JSON: extra data after the object")
+	}
+	return nil
+}
+
+func (s *Server) apiCreateRun(c echo.Context) error {
+	var b apiRunBody
+	if err := decodeStrict(c.Request().Body, maxRunBody, &b); err != nil {
+		return err
+	}
+	if b.StartedAt == "" {
+		return badRequest("started_at is required (RFC 3339, e.g. 2026-03-04T09:30:00Z)")
+	}
+	started, err := time.Parse(time.RFC3339, b.StartedAt)
+	if err != nil {
+		return badRequest("started_at: %q is not an RFC 3339 time (e.g. 2026-03-04T09:30:00Z)", b.StartedAt)
+	}
+	in := store.RunInput{Title: b.Title, StartedAt: started, SourceType: b.SourceType, GasMixture: b.GasMixture,
+		PressurePa: b.PressurePa, PowerW: b.PowerW, Flows: b.Flows, GapMM: b.GapMM, GratingLMM: b.GratingLMM,
+		SlitUM: b.SlitUM, IntegrationMS: b.IntegrationMS, InstrumentFWHMNM: b.InstrumentFWHMNM,
+		GasTemperatureK: b.GasTemperatureK, Perturber: b.Perturber, Notes: b.Notes, Tags: b.Tags}
+	if in.SourceType == "" {
+		return badRequest("source_type is required (%s)", sourceKeys())
+	}
+	if err := in.Validate(); err != nil {
+		return err
+	}
+	if _, err := diag.LookupPerturber(in.Perturber); err != nil {
+		return badRequest("perturber: %s", strings.TrimPrefix(err.Error(), "diag: "))
+	}
+	// One transaction: a new chamber or recipe is stored with the run or
+	// not at all.
+	ctx := c.Request().Context()
+	tx, err := s.DB.Begin(ctx)
+	if err != nil {
+		return err
+	}
+	defer tx.Rollback()
+	if name := strings.TrimSpace(b.Chamber); name != "" {
+		id, err := s.DB.EnsureChamberTx(ctx, tx, name)
+		if err != nil {
+			return err
+		}
+		in.ChamberID = &id
+	}
+	if name := strings.TrimSpace(b.Recipe); name != "" {
+		id, err := s.DB.EnsureRecipeTx(ctx, tx, name)
+		if err != nil {
+			return err
+		}
+		in.RecipeID = &id
+	}
+	id, err := s.DB.CreateRunTx(ctx, tx, currentUser(c).ID, in)
+	if err != nil {
+		return err
+	}
+	if err := tx.Commit(); err != nil {
+		return err
+	}
+	return c.JSON(http.StatusCreated, map[string]int64{"id": id})
+}
+
+func sourceKeys() string {
+	var k []string
+	for _, s := range store.SourceTypes {
+		k = append(k, s.Key)
+	}
+	return strings.Join(k, ", ")
+}
+
+// pathID parses a positive integer path parameter.
+func pathID(c echo.Context, name string) (int64, error) {
+	id, err := strconv.ParseInt(c.Param(name), 10, 64)
+	if err != nil || id <= 0 {
+		return 0, echo.NewHTTPError(http.StatusNotFound, "not found")
+	}
+	return id, nil
+}
+
+// latestSettings returns the settings of a run's newest analysis version,
+// or the run's defaults when it has none.
+func (s *Server) latestSettings(c echo.Context, r store.Run) (AnalysisSettings, error) {
+	list, err := s.DB.Analyses(c.Request().Context(), r.ID)
+	if err != nil {
+		return AnalysisSettings{}, err
+	}
+	if len(list) == 0 {
+		return DefaultSettings(r), nil
+	}
+	var st AnalysisSettings
+	if err := json.Unmarshal([]byte(list[0].Settings), &st); err != nil {
+		return AnalysisSettings{}, fmt.Errorf("server: settings of run %d v%d: %w", r.ID, list[0].Version, err)
+	}
+	return st, nil
+}
+
+// applySettingFields overrides analysis settings with the form fields of
+// a multipart upload that are present.
+func applySettingFields(c echo.Context, st *AnalysisSettings) error {
+	floats := []struct {
+		name string
+		p    *float64
+	}{{"instrument_fwhm_nm", &st.InstrumentFWHMNM}, {"instrument_lorentz_fwhm_nm", &st.InstrumentLorentzFWHMNM},
+		{"gas_temperature_K", &st.GasTemperatureK}, {"gas_temperature_unc_K", &st.GasTemperatureUncK},
+		{"pressure_Pa", &st.PressurePa}, {"saturation_counts", &st.SaturationCounts},
+		{"gain_e_per_count", &st.GainElectronsPerCount}, {"read_noise_e", &st.ReadNoiseElectrons}, {"min_snr", &st.MinSNR}}
+	for _, f := range floats {
+		v := strings.TrimSpace(c.FormValue(f.name))
+		if v == "" {
+			continue
+		}
+		x, err := strconv.ParseFloat(v, 64)
+		if err != nil {
+			return badRequest("%s: %q is not a number", f.name, v)
+		}
+		*f.p = x
+	}
+	bools := []struct {
+		name string
+		p    *bool
+	}{{"solve_gas_temperature", &st.SolveGasTemperature}, {"correct_offset", &st.CorrectOffset}}
+	for _, f := range bools {
+		v := strings.TrimSpace(c.FormValue(f.name))
+		if v == "" {
+			continue
+		}
+		x, err := strconv.ParseBool(v)
+		if err != nil {
+			return badRequest("%s: %q is not true or false", f.name, v)
+		}
+		*f.p = x
+	}
+	if v := strings.TrimSpace(c.FormValue("max_upper")); v != "" {
+		n, err := strconv.Atoi(v)
+		if err != nil {
+			return badRequest("max_upper: %q is not an integer", v)
+		}
+		st.MaxUpper = n
+	}
+	for _, f := range []struct {
+		name string
+		p    *string
+	}{{"perturber", &st.Perturber}, {"isotope", &st.Isotope}, {"response_unit", &st.ResponseUnit}} {
+		if v := strings.TrimSpace(c.FormValue(f.name)); v != "" {
+			*f.p = v
+		}
+	}
+	return nil
+}
+
+// incoming is an upload to be stored: kind, name and bytes.
+type incoming struct {
+	kind, name string
+	data       []byte
+}
+
+// readMeasurement reads the attachment of POST /runs/:id/measurements: a
+// measurement set (JSON body) or a file (multipart field "file").
+func readMeasurement(c echo.Context, st *AnalysisSettings) (incoming, error) {
+	ct, _, _ := mime.ParseMediaType(c.Request().Header.Get(echo.HeaderContentType))
+	switch ct {
+	case echo.MIMEApplicationJSON:
+		data, err := io.ReadAll(io.LimitReader(c.Request().Body, mset.MaxBytes+1))
+		if err != nil {
+			return incoming{}, err
+		}
+		if len(data) > mset.MaxBytes {
+			return incoming{}, badRequest("measurement set is larger than %d bytes", mset.MaxBytes)
+		}
+		name := strings.TrimSpace(c.QueryParam("name"))
+		if name == "" {
+			name = "measurement-set.json"
+		}
+		return incoming{store.KindLineTable, name, data}, nil
+	case echo.MIMEMultipartForm:
+		fh, err := c.FormFile("file")
+		if err != nil {
+			return incoming{}, badRequest("multipart field \"file\" is missing")
+		}
+		if fh.Size > store.MaxAttachmentBytes {
+			return incoming{}, badRequest("file %s is %d bytes, above the %d-byte limit", fh.Filename, fh.Size, store.MaxAttachmentBytes)
+		}
+		f, err := fh.Open()
+		if err != nil {
+			return incoming{}, err
+		}
+		defer f.Close()
+		data, err := io.ReadAll(io.LimitReader(f, store.MaxAttachmentBytes+1))
+		if err != nil {
+			return incoming{}, err
+		}
+		kind := strings.TrimSpace(c.FormValue("kind"))
+		switch kind {
+		case "":
+			kind = store.KindSpectrum
+		case store.KindSpectrum, store.KindDark, store.KindResponse:
+		default:
+			return incoming{}, badRequest("kind: %q is not spectrum, dark or response", kind)
+		}
+		if err := applySettingFields(c, st); err != nil {
+			return incoming{}, err
+		}
+		name := strings.TrimSpace(fh.Filename)
+		if name == "" {
+			name = kind + ".csv"
+		}
+		if len(name) > 200 {
+			name = name[:200]
+		}
+		return incoming{kind, name, data}, nil
+	}
+	return incoming{}, &userError{http.StatusUnsupportedMediaType,
+		"Content-Type must be application/json (a measurement set) or multipart/form-data (field \"file\")"}
+}
+
+func (s *Server) apiAddMeasurement(c echo.Context) error {
+	id, err := pathID(c, "id")
+	if err != nil {
+		return err
+	}
+	ctx := c.Request().Context()
+	run, err := s.DB.GetRun(ctx, id)
+	if err != nil {
+		return err
+	}
+	u := currentUser(c)
+	if run.OperatorID != u.ID && !u.Role.Can(store.RoleAdmin) {
+		return echo.NewHTTPError(http.StatusForbidden, "only the run's operator or an admin may add measurements")
+	}
+	if run.Status == "signed_off" {
+		return &userError{http.StatusConflict, "the run is signed off; its measurements can no longer change"}
+	}
+	st, err := s.latestSettings(c, run)
+	if err != nil {
+		return err
+	}
+	in, err := readMeasurement(c, &st)
+	if err != nil {
+		return err
+	}
+	if err := st.Validate(); err != nil {
+		return err
+	}
+	list, err := s.DB.Attachments(ctx, id)
+	if err != nil {
+		return err
+	}
+	atts := make([]store.Attachment, 0, len(list)+1)
+	for _, a := range list {
+		full, err := s.DB.AttachmentContent(ctx, a.ID)
+		if err != nil {
+			return err
+		}
+		atts = append(atts, full)
+	}
+	tx, err := s.DB.Begin(ctx)
+	if err != nil {
+		return err
+	}
+	defer tx.Rollback()
+	aid, err := s.DB.AddAttachmentTx(ctx, tx, id, in.kind, in.name, in.data)
+	if err != nil {
+		return err
+	}
+	atts = append(atts, store.Attachment{ID: aid, RunID: id, Kind: in.kind, Name: in.name, Content: in.data, Size: len(in.data)})
+	uid := u.ID
+	version, results, err := s.ReanalyzeRunTx(ctx, tx, id, atts, st, &uid, "added "+in.name+" through the API")
+	if err != nil {
+		var ue *userError
+		if errors.As(err, &ue) {
+			return &userError{http.StatusUnprocessableEntity, ue.msg}
+		}
+		return err
+	}
+	var mine *RunAnalysis
+	for i := range results {
+		if results[i].Attachment.ID == aid {
+			mine = &results[i]
+		}
+	}
+	if mine != nil && mine.Err != nil {
+		return &userError{http.StatusUnprocessableEntity, strings.TrimPrefix(mine.Err.Error(), "diag: ")}
+	}
+	if err := tx.Commit(); err != nil {
+		return err
+	}
+	out := map[string]any{}
+	if mine != nil {
+		var v any = mine.Lines
+		if mine.Spectrum != nil {
+			v = mine.Spectrum
+		}
+		raw, err := json.Marshal(v)
+		if err != nil {
+			return err
+		}
+		if err := json.Unmarshal(raw, &out); err != nil {
+			return err
+		}
+	}
+	out["run_id"], out["attachment_id"], out["analysis_version"], out["kind"] = id, aid, version, in.kind
+	return c.JSON(http.StatusCreated, out)
+}
+
+// apiSummary is a run's current analysis summary.
+type apiSummary struct {
+	ExcitationTemperatureK    *float64 `json:"excitation_temperature_K"`
+	ExcitationTemperatureUncK *float64 `json:"excitation_temperature_unc_K"`
+	ElectronDensityM3         *float64 `json:"electron_density_m3"`
+	ElectronDensityUncM3      *float64 `json:"electron_density_unc_m3"`
+	GasTemperatureK           *float64 `json:"gas_temperature_K"`
+	NWarnings                 int      `json:"n_warnings"`
+	AnalysisVersion           int      `json:"analysis_version"`
+}
+
+// apiRun is a run as the API shows it.
+type apiRun struct {
+	ID               int64      `json:"id"`
+	Title            string     `json:"title"`
+	StartedAt        time.Time  `json:"started_at"`
+	Operator         string     `json:"operator"`
+	Chamber          string     `json:"chamber,omitempty"`
+	Recipe           string     `json:"recipe,omitempty"`
+	SourceType       string     `json:"source_type"`
+	GasMixture       string     `json:"gas_mixture,omitempty"`
+	PressurePa       *float64   `json:"pressure_Pa,omitempty"`
+	PowerW           *float64   `json:"power_W,omitempty"`
+	Flows            string     `json:"flows,omitempty"`
+	GapMM            *float64   `json:"electrode_gap_mm,omitempty"`
+	GratingLMM       *float64   `json:"grating_l_mm,omitempty"`
+	SlitUM           *float64   `json:"slit_um,omitempty"`
+	IntegrationMS    *float64   `json:"integration_ms,omitempty"`
+	InstrumentFWHMNM *float64   `json:"instrument_fwhm_nm,omitempty"`
+	GasTemperatureK  *float64   `json:"gas_temperature_K,omitempty"`
+	Perturber        string     `json:"perturber"`
+	Notes            string     `json:"notes,omitempty"`
+	Status           string     `json:"status"`
+	SignedOffAt      *time.Time `json:"signed_off_at,omitempty"`
+	Tags             []string   `json:"tags,omitempty"`
+	CreatedAt        time.Time  `json:"created_at"`
+	UpdatedAt        time.Time  `json:"updated_at"`
+	Summary          apiSummary `json:"summary"`
+
+	Attachments []apiAttachment `json:"attachments,omitempty"`
+	Analysis    *apiAnalysis    `json:"analysis,omitempty"`
+}
+
+type apiAttachment struct {
+	ID        int64     `json:"id"`
+	Kind      string    `json:"kind"`
+	Name      string    `json:"name"`
+	Seq       int       `json:"seq"`
+	Bytes     int       `json:"bytes"`
+	CreatedAt time.Time `json:"created_at"`
+}
+
+type apiAnalysis struct {
+	Version       int              `json:"version"`
+	EngineVersion string           `json:"engine_version"`
+	CreatedAt     time.Time        `json:"created_at"`
+	CreatedBy     string           `json:"created_by,omitempty"`
+	Reason        string           `json:"reason,omitempty"`
+	Settings      json.RawMessage  `json:"settings"`
+	Results       []apiResultEntry `json:"results"`
+}
+
+type apiResultEntry struct {
+	AttachmentID              int64           `json:"attachment_id"`
+	Attachment                string          `json:"attachment"`
+	Error                     string          `json:"error,omitempty"`
+	ExcitationTemperatureK    *float64        `json:"excitation_temperature_K"`
+	ExcitationTemperatureUncK *float64        `json:"excitation_temperature_unc_K"`
+	ElectronDensityM3         *float64        `json:"electron_density_m3"`
+	ElectronDensityUncM3      *float64        `json:"electron_density_unc_m3"`
+	NWarnings                 int             `json:"n_warnings"`
+	Result                    json.RawMessage `json:"result,omitempty"`
+}
+
+func toAPIRun(r store.Run) apiRun {
+	return apiRun{ID: r.ID, Title: r.Title, StartedAt: r.StartedAt, Operator: r.OperatorName, Chamber: r.ChamberName,
+		Recipe: r.RecipeName, SourceType: r.SourceType, GasMixture: r.GasMixture, PressurePa: r.PressurePa, PowerW: r.PowerW,
+		Flows: r.Flows, GapMM: r.GapMM, GratingLMM: r.GratingLMM, SlitUM: r.SlitUM, IntegrationMS: r.IntegrationMS,
+		InstrumentFWHMNM: r.InstrumentFWHMNM, GasTemperatureK: r.GasTemperatureK, Perturber: r.Perturber, Notes: r.Notes,
+		Status: r.Status, SignedOffAt: r.SignedOffAt, Tags: r.Tags, CreatedAt: r.CreatedAt, UpdatedAt: r.UpdatedAt,
+		Summary: apiSummary{ExcitationTemperatureK: r.TexcK, ExcitationTemperatureUncK: r.TexcUncK, ElectronDensityM3: r.NeM3,
+			ElectronDensityUncM3: r.NeUncM3, GasTemperatureK: r.TgasK, NWarnings: r.NWarnings, AnalysisVersion: r.AnalysisVersion}}
+}
+
+// apiGetRun returns a run with its attachments and latest analysis; the
+// full result JSON of every attachment comes with ?full=1.
+func (s *Server) apiGetRun(c echo.Context) error {
+	id, err := pathID(c, "id")
+	if err != nil {
+		return err
+	}
+	ctx := c.Request().Context()
+	r, err := s.DB.GetRun(ctx, id)
+	if err != nil {
+		return err
+	}
+	out := toAPIRun(r)
+	atts, err := s.DB.Attachments(ctx, id)
+	if err != nil {
+		return err
+	}
+	for _, a := range atts {
+		out.Attachments = append(out.Attachments, apiAttachment{a.ID, a.Kind, a.Name, a.Seq, a.Size, a.CreatedAt})
+	}
+	full := c.QueryParam("full") == "1" || c.QueryParam("full") == "true"
+	if r.AnalysisVersion > 0 {
+		a, err := s.DB.AnalysisVersion(ctx, id, 0)
+		if err != nil {
+			return err
+		}
+		aa := &apiAnalysis{Version: a.Version, EngineVersion: a.EngineVersion, CreatedAt: a.CreatedAt, CreatedBy: a.CreatedByName,
+			Reason: a.Reason, Settings: json.RawMessage(a.Settings), Results: []apiResultEntry{}}
+		for _, res := range a.Results {
+			e := apiResultEntry{AttachmentID: res.AttachmentID, Attachment: res.AttachmentName, Error: res.Error,
+				ExcitationTemperatureK: res.TexcK, ExcitationTemperatureUncK: res.TexcUncK, ElectronDensityM3: res.NeM3,
+				ElectronDensityUncM3: res.NeUncM3, NWarnings: res.NWarnings}
+			if full && res.Result != "" {
+				e.Result = json.RawMessage(res.Result)
+			}
+			aa.Results = append(aa.Results, e)
+		}
+		out.Analysis = aa
+	}
+	return c.JSON(http.StatusOK, out)
+}
+
+// apiFilter reads the run-list filters from the query string. Chamber,
+// recipe and operator are names (or numeric ids); from and to are dates
+// (YYYY-MM-DD) or RFC 3339 times.
+func (s *Server) apiFilter(c echo.Context) (store.RunFilter, error) {
+	ctx := c.Request().Context()
+	q := c.QueryParams()
+	f := store.RunFilter{Query: q.Get("q"), SourceType: q.Get("source"), Gas: q.Get("gas"), Status: q.Get("status"),
+		Tag: q.Get("tag"), Sort: q.Get("sort")}
+	named := func(field, v string, list func() ([]store.Named, error)) (int64, error) {
+		if v = strings.TrimSpace(v); v == "" {
+			return 0, nil
+		}
+		if n, err := strconv.ParseInt(v, 10, 64); err == nil && n > 0 {
+			return n, nil
+		}
+		all, err := list()
+		if err != nil {
+			return 0, err
+		}
+		for _, n := range all {
+			if strings.EqualFold(n.Name, v) {
+				return n.ID, nil
+			}
+		}
+		return 0, badRequest("%s: no %s named %q", field, field, v)
+	}
+	var err error
+	if f.ChamberID, err = named("chamber", q.Get("chamber"), func() ([]store.Named, error) { return s.DB.Chambers(ctx) }); err != nil {
+		return f, err
+	}
+	if f.RecipeID, err = named("recipe", q.Get("recipe"), func() ([]store.Named, error) { return s.DB.Recipes(ctx) }); err != nil {
+		return f, err
+	}
+	if v := strings.TrimSpace(q.Get("operator")); v != "" {
+		u, err := s.DB.UserByName(ctx, v)
+		if errors.Is(err, store.ErrNotFound) {
+			return f, badRequest("operator: no user named %q", v)
+		} else if err != nil {
+			return f, err
+		}
+		f.OperatorID = u.ID
+	}
+	if f.SourceType != "" && store.SourceLabel(f.SourceType) == f.SourceType {
+		return f, badRequest("source: %q is not one of %s", f.SourceType, sourceKeys())
+	}
+	if f.Status != "" && store.StatusLabel(f.Status) == f.Status {
+		return f, badRequest("status: %q is not draft, submitted, returned or signed_off", f.Status)
+	}
+	for _, d := range []struct {
+		name string
+		p    *time.Time
+		end  bool
+	}{{"from", &f.From, false}, {"to", &f.To, true}} {
+		v := strings.TrimSpace(q.Get(d.name))
+		if v == "" {
+			continue
+		}
+		if t, err := time.Parse(time.RFC3339, v); err == nil {
+			*d.p = t
+		} else if t, err := time.Parse("2006-01-02", v); err == nil {
+			if d.end {
+				t = t.AddDate(0, 0, 1) // "to" a date includes that day
+			}
+			*d.p = t
+		} else {
+			return f, badRequest("%s: %q is not a date (YYYY-MM-DD) or an RFC 3339 time", d.name, v)
+		}
+	}
+	if f.Sort != "" {
+		k := strings.TrimPrefix(f.Sort, "-")
+		switch k {
+		case "started", "texc", "ne", "title", "status", "id":
+		default:
+			return f, badRequest("sort: %q is not started, texc, ne, title, status or id (prefix - for descending)", f.Sort)
+		}
+	}
+	for _, p := range []struct {
+		name string
+		dst  *int
+		max  int
+	}{{"limit", &f.Limit, 1000}, {"offset", &f.Offset, 1 << 30}} {
+		v := strings.TrimSpace(q.Get(p.name))
+		if v == "" {
+			continue
+		}
+		n, err := strconv.Atoi(v)
+		if err != nil || n < 0 || n > p.max {
+			return f, badRequest("%s: %q must be an integer from 0 to %d", p.name, v, p.max)
+		}
+		*p.dst = n
+	}
+	return f, nil
+}
+
+func (s *Server) apiListRuns(c echo.Context) error {
+	f, err := s.apiFilter(c)
+	if err != nil {
+		return err
+	}
+	runs, total, err := s.DB.ListRuns(c.Request().Context(), f)
+	if err != nil {
+		return err
+	}
+	items := make([]apiRun, 0, len(runs))
+	for _, r := range runs {
+		items = append(items, toAPIRun(r))
+	}
+	limit := f.Limit
+	if limit == 0 {
+		limit = 50
+	}
+	return c.JSON(http.StatusOK, map[string]any{"total": total, "limit": limit, "offset": f.Offset, "items": items})
+}

@@ -1,0 +1,154 @@
+package server
+
+import (
+	"bufio"
+	"context"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"strings"
+
+	"glowlog/store"
+)
+
+// splitCommandArgs separates positional arguments from flags so that
+// "add NAME --role R" and "add --role R NAME" both work.
+func splitCommandArgs(fs *flag.FlagSet, args []string) ([]string, error) {
+	var pos []string
+	for len(args) > 0 {
+		if err := fs.Parse(args); err != nil {
+			return nil, err
+		}
+		args = fs.Args()
+		if len(args) > 0 {
+			pos = append(pos, args[0])
+			args = args[1:]
+		}
+	}
+	return pos, nil
+}
+
+// UserCommand runs "glowlog user add NAME --role ROLE [--db FILE]": it
+// creates an account whose password is the first line of stdin (at least
+// 10 characters). Exit 2 with one line on stderr for bad input.
+func UserCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
+	if len(args) == 0 || args[0] != "add" {
+		fmt.Fprintln(stderr, "usage: glowlog user add NAME --role viewer|operator|reviewer|admin [--db FILE] (password on standard input)")
+		return ExitInput
+	}
+	fs := flag.NewFlagSet("user add", flag.ContinueOnError)
+	fs.SetOutput(stderr)
+	dbPath := fs.String("db", envOr("GLOWLOG_DB", DefaultDB), "SQLite database file (env GLOWLOG_DB)")
+	roleName := fs.String("role", "", "role: viewer, operator, reviewer or admin (required)")
+	pos, err := splitCommandArgs(fs, args[1:])
+	if err != nil {
+		return ExitInput
+	}
+	if len(pos) != 1 {
+		fmt.Fprintln(stderr, "glowlog user add: give exactly one user NAME")
+		return ExitInput
+	}
+	if *roleName == "" {
+		fmt.Fprintln(stderr, "glowlog user add: --role is required (viewer, operator, reviewer or admin)")
+		return ExitInput
+	}
+	role, err := store.ParseRole(*roleName)
+	if err != nil {
+		fmt.Fprintf(stderr, "glowlog user add: %s\n", strings.TrimPrefix(err.Error(), "store: invalid: "))
+		return ExitInput
+	}
+	line, err := bufio.NewReader(io.LimitReader(stdin, 4096)).ReadString('\n')
+	if err != nil && !errors.Is(err, io.EOF) {
+		fmt.Fprintf(stderr, "glowlog user add: reading the password from standard input: %v\n", err)
+		return ExitInput
+	}
+	pw := strings.TrimRight(line, "\r\n")
+	if len([]rune(pw)) < 10 {
+		fmt.Fprintln(stderr, "glowlog user add: the password (first line of standard input) must have at least 10 characters")
+		return ExitInput
+	}
+	hash, err := HashPassword(pw)
+	if err != nil {
+		fmt.Fprintf(stderr, "glowlog user add: %v\n", err)
+		return ExitInput
+	}
+	ctx := context.Background()
+	db, err := store.Open(ctx, *dbPath)
+	if err != nil {
+		fmt.Fprintf(stderr, "glowlog user add: %v\n", err)
+		return ExitError
+	}
+	defer db.Close()
+	u, err := db.CreateUser(ctx, pos[0], role, hash)
+	if err != nil {
+		fmt.Fprintf(stderr, "glowlog user add: %s\n", cliMessage(err))
+		if errors.Is(err, store.ErrInvalid) || errors.Is(err, store.ErrConflict) {
+			return ExitInput
+		}
+		return ExitError
+	}
+	fmt.Fprintf(stdout, "glowlog: created %s %q (id %d) in %s\n", u.Role, u.Name, u.ID, *dbPath)
+	return ExitOK
+}
+
+// TokenCommand runs "glowlog token create NAME [--db FILE] [--label L]":
+// it prints a new API token for user NAME, once (only its hash is kept).
+func TokenCommand(args []string, stdout, stderr io.Writer) int {
+	if len(args) == 0 || args[0] != "create" {
+		fmt.Fprintln(stderr, "usage: glowlog token create NAME [--label L] [--db FILE]")
+		return ExitInput
+	}
+	fs := flag.NewFlagSet("token create", flag.ContinueOnError)
+	fs.SetOutput(stderr)
+	dbPath := fs.String("db", envOr("GLOWLOG_DB", DefaultDB), "SQLite database file (env GLOWLOG_DB)")
+	label := fs.String("label", "command line", "name of the token, shown on the account page")
+	pos, err := splitCommandArgs(fs, args[1:])
+	if err != nil {
+		return ExitInput
+	}
+	if len(pos) != 1 {
+		fmt.Fprintln(stderr, "glowlog token create: give exactly one user NAME")
+		return ExitInput
+	}
+	if l := strings.TrimSpace(*label); l == "" || len(l) > 100 {
+		fmt.Fprintln(stderr, "glowlog token create: --label must have 1–100 characters")
+		return ExitInput
+	}
+	ctx := context.Background()
+	db, err := store.Open(ctx, *dbPath)
+	if err != nil {
+		fmt.Fprintf(stderr, "glowlog token create: %v\n", err)
+		return ExitError
+	}
+	defer db.Close()
+	u, err := db.UserByName(ctx, pos[0])
+	if errors.Is(err, store.ErrNotFound) {
+		fmt.Fprintf(stderr, "glowlog token create: no user %q in %s\n", pos[0], *dbPath)
+		return ExitInput
+	} else if err != nil {
+		fmt.Fprintf(stderr, "glowlog token create: %v\n", err)
+		return ExitError
+	}
+	if u.Disabled {
+		fmt.Fprintf(stderr, "glowlog token create: user %q is disabled\n", u.Name)
+		return ExitInput
+	}
+	tok, h := NewToken()
+	if _, err := db.CreateToken(ctx, u.ID, strings.TrimSpace(*label), h); err != nil {
+		fmt.Fprintf(stderr, "glowlog token create: %v\n", err)
+		return ExitError
+	}
+	fmt.Fprintln(stdout, tok)
+	fmt.Fprintf(stderr, "glowlog: new API token for %q printed above; it is shown only this once\n", u.Name)
+	return ExitOK
+}
+
+// cliMessage strips the store's prefixes from a user-facing error.
+func cliMessage(err error) string {
+	m := err.Error()
+	for _, p := range []string{"store: invalid: ", "store: conflict: "} {
+		m = strings.TrimPrefix(m, p)
+	}
+	return m
+}
