@@ -622,3 +622,46 @@ func (s *Server) apiListRuns(c echo.Context) error {
 	}
 	return c.JSON(http.StatusOK, map[string]any{"total": total, "limit": limit, "offset": f.Offset, "items": items})
 }
+
+// apiTrendPoint is one run of a trend series.
+type apiTrendPoint struct {
+	RunID     int64     `json:"run_id"`
+	StartedAt time.Time `json:"started_at"`
+	X         float64   `json:"x"`
+	Y         float64   `json:"y"`
+	YUnc      *float64  `json:"y_unc"`
+}
+
+// apiTrends returns the series of y against x (keys of store.TrendFields;
+// defaults started_at and ne_m3) over the runs matching the run-list
+// filters; sort, limit and offset do not apply.
+func (s *Server) apiTrends(c echo.Context) error {
+	f, err := s.apiFilter(c)
+	if err != nil {
+		return err
+	}
+	x, y := c.QueryParam("x"), c.QueryParam("y")
+	if x == "" {
+		x = "started_at"
+	}
+	if y == "" {
+		y = "ne_m3"
+	}
+	ts, err := s.DB.TrendSeries(c.Request().Context(), f, x, y)
+	if err != nil {
+		return err
+	}
+	pts := make([]apiTrendPoint, 0, len(ts.Points))
+	for _, p := range ts.Points {
+		q := apiTrendPoint{RunID: p.RunID, StartedAt: p.StartedAt, X: p.X, Y: p.Y}
+		if p.YUnc > 0 {
+			u := p.YUnc
+			q.YUnc = &u
+		}
+		pts = append(pts, q)
+	}
+	axis := func(tf store.TrendField) map[string]string {
+		return map[string]string{"field": tf.Key, "label": tf.Label, "unit": tf.Unit}
+	}
+	return c.JSON(http.StatusOK, map[string]any{"x": axis(ts.X), "y": axis(ts.Y), "missing": ts.Missing, "points": pts})
+}

@@ -300,3 +300,24 @@ func TestAPIListFilters(t *testing.T) {
 		}
 	}
 }
+
+func TestAPITrends(t *testing.T) {
+	f := newAPIFixture(t)
+	id := f.createRun(runJSON)
+	body, _ := os.ReadFile("../testdata/example_hbeta.json")
+	if code, out := f.do(http.MethodPost, "/api/v1/runs/"+strconv.FormatInt(id, 10)+"/measurements", f.token, "application/json", bytes.NewReader(body)); code != 201 {
+		t.Fatalf("%d %v", code, out)
+	}
+	f.createRun(`{"title": "no analysis", "started_at": "2026-02-10T10:00:00Z", "source_type": "dc_glow"}`)
+	code, out := f.do(http.MethodGet, "/api/v1/trends?y=texc_k", f.token, "", nil)
+	if code != 200 {
+		t.Fatalf("%d %v", code, out)
+	}
+	pts := out["points"].([]any)
+	if len(pts) != 1 || out["missing"] != 1.0 || out["y"].(map[string]any)["unit"] != "K" {
+		t.Errorf("trend %v", out)
+	}
+	if code, out := f.do(http.MethodGet, "/api/v1/trends?y=colour", f.token, "", nil); code != 400 || !strings.Contains(out["error"].(string), "colour") {
+		t.Errorf("bad field: %d %v", code, out)
+	}
+}

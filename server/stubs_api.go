@@ -4,7 +4,6 @@ import (
 	"github.com/labstack/echo/v4"
 )
 
-func (s *Server) apiTrends(c echo.Context) error      { return notBuilt(c) }
 func (s *Server) showAccount(c echo.Context) error    { return notBuilt(c) }
 func (s *Server) createToken(c echo.Context) error    { return notBuilt(c) }
 func (s *Server) revokeToken(c echo.Context) error    { return notBuilt(c) }
