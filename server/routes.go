@@ -46,6 +46,7 @@ func (s *Server) routes() {
 	v.GET("/account", s.showAccount)
 	v.POST("/account/tokens", s.createToken)
 	v.POST("/account/tokens/:tid/revoke", s.revokeToken)
+	v.POST("/account/password", s.changePassword)
 	v.GET("/jobs/:jid", s.showJob)
 
 	o := h.Group("", requireRole(store.RoleOperator))

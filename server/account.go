@@ -1,0 +1,109 @@
+package server
+
+import (
+	"net/http"
+	"strings"
+	"time"
+
+	"github.com/labstack/echo/v4"
+
+	"glowlog/views"
+)
+
+// accountProps builds the account page for the current user.
+func (s *Server) accountProps(c echo.Context) (views.AccountProps, error) {
+	u := currentUser(c)
+	p := views.AccountProps{Layout: s.layout(c, "Your account", ""), Name: u.Name, Role: string(u.Role)}
+	toks, err := s.DB.Tokens(c.Request().Context(), u.ID)
+	if err != nil {
+		return p, err
+	}
+	for _, t := range toks {
+		row := views.TokenRow{ID: t.ID, Name: t.Name, Created: fmtTime(t.CreatedAt)}
+		if t.LastUsedAt != nil {
+			row.LastUsed = fmtTime(*t.LastUsedAt)
+		}
+		if t.RevokedAt != nil {
+			row.Revoked = fmtTime(*t.RevokedAt)
+		}
+		p.Tokens = append(p.Tokens, row)
+	}
+	return p, nil
+}
+
+func fmtTime(t time.Time) string { return t.UTC().Format("2006-01-02 15:04") }
+
+func (s *Server) showAccount(c echo.Context) error {
+	p, err := s.accountProps(c)
+	if err != nil {
+		return err
+	}
+	return render(c, http.StatusOK, views.Account(p))
+}
+
+// createToken makes a new API token and shows it once, on the page that
+// answers the POST (never in a redirect or a cookie).
+func (s *Server) createToken(c echo.Context) error {
+	name := strings.TrimSpace(c.FormValue("name"))
+	if name == "" || len([]rune(name)) > 100 {
+		p, err := s.accountProps(c)
+		if err != nil {
+			return err
+		}
+		p.TokenError = "token name: give 1–100 characters, e.g. “acquisition PC, bay 2”"
+		return render(c, http.StatusBadRequest, views.Account(p))
+	}
+	tok, h := NewToken()
+	if _, err := s.DB.CreateToken(c.Request().Context(), currentUser(c).ID, name, h); err != nil {
+		return err
+	}
+	p, err := s.accountProps(c)
+	if err != nil {
+		return err
+	}
+	p.NewToken, p.NewName = tok, name
+	c.Response().Header().Set("Cache-Control", "no-store")
+	return render(c, http.StatusOK, views.Account(p))
+}
+
+func (s *Server) revokeToken(c echo.Context) error {
+	id, err := pathID(c, "tid")
+	if err != nil {
+		return err
+	}
+	if err := s.DB.RevokeToken(c.Request().Context(), currentUser(c).ID, id); err != nil {
+		return err
+	}
+	flash(c, "Token revoked.")
+	return c.Redirect(http.StatusSeeOther, "/account")
+}
+
+// changePassword replaces the current user's password after checking the
+// current one; all sessions end, so the user signs in again.
+func (s *Server) changePassword(c echo.Context) error {
+	u := currentUser(c)
+	cur, next := c.FormValue("current"), c.FormValue("new")
+	fail := func(msg string) error {
+		p, err := s.accountProps(c)
+		if err != nil {
+			return err
+		}
+		p.PasswordError = msg
+		return render(c, http.StatusBadRequest, views.Account(p))
+	}
+	if !CheckPassword(u.PasswordHash, cur) {
+		return fail("the current password is wrong")
+	}
+	if len(next) < 10 {
+		return fail("the new password must have at least 10 characters")
+	}
+	hash, err := HashPassword(next)
+	if err != nil {
+		return err
+	}
+	if err := s.DB.SetUserPassword(c.Request().Context(), u.ID, hash); err != nil {
+		return err
+	}
+	c.SetCookie(&http.Cookie{Name: sessionCookie, Value: "", Path: "/", MaxAge: -1, HttpOnly: true})
+	return c.Redirect(http.StatusSeeOther, "/login")
+}

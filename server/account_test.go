@@ -1,0 +1,160 @@
+package server
+
+import (
+	"context"
+	"io"
+	"log/slog"
+	"net/http"
+	"net/http/httptest"
+	"net/url"
+	"path/filepath"
+	"regexp"
+	"strconv"
+	"strings"
+	"testing"
+	"time"
+
+	"glowlog/store"
+)
+
+// htmlClient signs a user in through a session cookie and handles CSRF.
+type htmlClient struct {
+	t       *testing.T
+	s       *Server
+	session string
+	csrf    string
+}
+
+func newHTMLClient(t *testing.T, s *Server, u store.User) *htmlClient {
+	t.Helper()
+	tok, h := NewToken()
+	if err := s.DB.CreateSession(context.Background(), h, u.ID, time.Hour); err != nil {
+		t.Fatal(err)
+	}
+	return &htmlClient{t: t, s: s, session: tok}
+}
+
+func (h *htmlClient) req(method, path string, form url.Values) (int, string) {
+	h.t.Helper()
+	var body io.Reader
+	if form != nil {
+		form.Set("_csrf", h.csrf)
+		body = strings.NewReader(form.Encode())
+	}
+	r := httptest.NewRequest(method, path, body)
+	if form != nil {
+		r.Header.Set("Content-Type", "application/x-www-form-urlencoded")
+	}
+	r.AddCookie(&http.Cookie{Name: sessionCookie, Value: h.session})
+	if h.csrf != "" {
+		r.AddCookie(&http.Cookie{Name: "_csrf", Value: h.csrf})
+	}
+	w := httptest.NewRecorder()
+	h.s.ServeHTTP(w, r)
+	for _, c := range w.Result().Cookies() {
+		if c.Name == "_csrf" && c.Value != "" {
+			h.csrf = c.Value
+		}
+	}
+	return w.Code, w.Body.String()
+}
+
+func newAccountServer(t *testing.T) (*Server, store.User) {
+	t.Helper()
+	ctx := context.Background()
+	db, err := store.Open(ctx, filepath.Join(t.TempDir(), "t.db"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { db.Close() })
+	hash, _ := HashPassword("old-password-1")
+	u, err := db.CreateUser(ctx, "root", store.RoleAdmin, hash)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return New(db, Options{Log: slog.New(slog.NewTextHandler(io.Discard, nil))}), u
+}
+
+func TestAccountTokens(t *testing.T) {
+	s, u := newAccountServer(t)
+	h := newHTMLClient(t, s, u)
+	if code, body := h.req(http.MethodGet, "/account", nil); code != 200 || !strings.Contains(body, `data-testid="no-tokens"`) {
+		t.Fatalf("account page: %d", code)
+	}
+	code, body := h.req(http.MethodPost, "/account/tokens", url.Values{"name": {"bench PC"}})
+	m := regexp.MustCompile(`data-testid="new-token">([A-Za-z0-9_-]+)<`).FindStringSubmatch(body)
+	if code != 200 || m == nil {
+		t.Fatalf("create token: %d, token shown: %v", code, m != nil)
+	}
+	tok := m[1]
+	if _, err := s.DB.TokenUser(context.Background(), hashToken(tok)); err != nil {
+		t.Errorf("shown token does not authenticate: %v", err)
+	}
+	if _, body := h.req(http.MethodGet, "/account", nil); strings.Contains(body, tok) {
+		t.Error("token shown a second time")
+	}
+	if code, body := h.req(http.MethodPost, "/account/tokens", url.Values{"name": {"  "}}); code != 400 || !strings.Contains(body, "token-error") {
+		t.Errorf("empty name: %d", code)
+	}
+	toks, _ := s.DB.Tokens(context.Background(), u.ID)
+	if len(toks) != 1 {
+		t.Fatalf("%d tokens, want 1", len(toks))
+	}
+	if code, _ := h.req(http.MethodPost, "/account/tokens/"+itoa64(toks[0].ID)+"/revoke", url.Values{}); code != http.StatusSeeOther {
+		t.Errorf("revoke: %d", code)
+	}
+	if _, err := s.DB.TokenUser(context.Background(), hashToken(tok)); err == nil {
+		t.Error("revoked token still works")
+	}
+	if code, _ := h.req(http.MethodPost, "/account/tokens/"+itoa64(toks[0].ID)+"/revoke", url.Values{}); code != 404 {
+		t.Errorf("revoke twice: %d", code)
+	}
+	// Password change: wrong current password, then a good one.
+	if code, body := h.req(http.MethodPost, "/account/password", url.Values{"current": {"nope"}, "new": {"new-password-22"}}); code != 400 || !strings.Contains(body, "wrong") {
+		t.Errorf("wrong current password: %d", code)
+	}
+	if code, _ := h.req(http.MethodPost, "/account/password", url.Values{"current": {"old-password-1"}, "new": {"new-password-22"}}); code != http.StatusSeeOther {
+		t.Errorf("change password: %d", code)
+	}
+	nu, _ := s.DB.UserByID(context.Background(), u.ID)
+	if !CheckPassword(nu.PasswordHash, "new-password-22") {
+		t.Error("password not changed")
+	}
+}
+
+func TestAdminUsers(t *testing.T) {
+	s, u := newAccountServer(t)
+	h := newHTMLClient(t, s, u)
+	if code, _ := h.req(http.MethodGet, "/admin/users", nil); code != 200 {
+		t.Fatalf("admin page: %d", code)
+	}
+	if code, _ := h.req(http.MethodPost, "/admin/users", url.Values{"name": {"kit"}, "role": {"operator"}, "password": {"kit-password-1"}}); code != http.StatusSeeOther {
+		t.Fatalf("create user: %d", code)
+	}
+	for _, f := range []url.Values{
+		{"name": {"kit"}, "role": {"operator"}, "password": {"kit-password-1"}},
+		{"name": {"lee"}, "role": {"boss"}, "password": {"lee-password-1"}},
+		{"name": {"lee"}, "role": {"viewer"}, "password": {"short"}},
+	} {
+		if code, body := h.req(http.MethodPost, "/admin/users", f); code != 400 || !strings.Contains(body, "user-form-error") {
+			t.Errorf("%v: %d", f, code)
+		}
+	}
+	if n, _ := s.DB.CountUsers(context.Background()); n != 2 {
+		t.Errorf("%d users, want 2", n)
+	}
+	kit, _ := s.DB.UserByName(context.Background(), "kit")
+	if code, _ := h.req(http.MethodPost, "/admin/users/"+itoa64(kit.ID)+"/role", url.Values{"role": {"reviewer"}}); code != http.StatusSeeOther {
+		t.Errorf("set role: %d", code)
+	}
+	if code, body := h.req(http.MethodPost, "/admin/users/"+itoa64(u.ID)+"/role", url.Values{"role": {"viewer"}}); code != 409 || !strings.Contains(body, "last admin") {
+		t.Errorf("demote last admin: %d", code)
+	}
+	// A non-admin is refused.
+	hk := newHTMLClient(t, s, kit)
+	if code, _ := hk.req(http.MethodGet, "/admin/users", nil); code != 403 {
+		t.Errorf("reviewer on admin page: %d", code)
+	}
+}
+
+func itoa64(n int64) string { return strconv.FormatInt(n, 10) }
