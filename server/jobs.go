@@ -1,0 +1,310 @@
+package server
+
+import (
+	"context"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"net/http"
+	"strconv"
+	"strings"
+	"sync"
+	"time"
+
+	"github.com/labstack/echo/v4"
+
+	"glowlog/store"
+	"glowlog/views"
+)
+
+// JobRunner runs background jobs (bulk reanalysis) with one worker
+// goroutine, one job and one run at a time, so that a bulk job never
+// starves the web requests of the two cores.
+type JobRunner struct {
+	s    *Server
+	wake chan struct{}
+	wg   sync.WaitGroup
+}
+
+// NewJobRunner returns a runner for s.
+func NewJobRunner(s *Server) *JobRunner { return &JobRunner{s: s, wake: make(chan struct{}, 1)} }
+
+// jobPoll is how often the worker looks for queued jobs without a wake-up.
+const jobPoll = 5 * time.Second
+
+// Start marks jobs left running by an earlier process as failed and
+// starts the worker; it stops when ctx is cancelled.
+func (j *JobRunner) Start(ctx context.Context) {
+	if n, err := j.s.DB.FailStaleJobs(ctx, "stopped: the server restarted while this job was running; start it again"); err != nil {
+		j.s.Log.Error("jobs: fail stale jobs", "err", err)
+	} else if n > 0 {
+		j.s.Log.Warn("jobs: marked jobs of an earlier process as failed", "n", n)
+	}
+	j.wg.Add(1)
+	go func() {
+		defer j.wg.Done()
+		for {
+			job, err := j.s.DB.ClaimNextJob(ctx)
+			switch {
+			case err == nil:
+				j.run(ctx, job)
+				continue
+			case errors.Is(err, store.ErrNotFound):
+			case ctx.Err() != nil:
+				return
+			default:
+				j.s.Log.Error("jobs: claim", "err", err)
+			}
+			select {
+			case <-ctx.Done():
+				return
+			case <-j.wake:
+			case <-time.After(jobPoll):
+			}
+		}
+	}()
+}
+
+// Wait waits for the worker to stop.
+func (j *JobRunner) Wait() { j.wg.Wait() }
+
+// notify wakes the worker for a new job.
+func (j *JobRunner) notify() {
+	select {
+	case j.wake <- struct{}{}:
+	default:
+	}
+}
+
+// reanalyzeParams are a bulk reanalysis job's parameters (jobs.params).
+type reanalyzeParams struct {
+	RunIDs    []int64           `json:"run_ids"`
+	Overrides settingsOverrides `json:"overrides"`
+	Reason    string            `json:"reason"`
+	UserID    int64             `json:"user_id"`
+	Filter    map[string]string `json:"filter,omitempty"`
+}
+
+// settingsOverrides replace settings of each run's latest analysis; nil
+// keeps the run's value.
+type settingsOverrides struct {
+	InstrumentFWHMNM *float64 `json:"instrument_fwhm_nm,omitempty"`
+	GasTemperatureK  *float64 `json:"gas_temperature_K,omitempty"`
+	PressurePa       *float64 `json:"pressure_Pa,omitempty"`
+	Perturber        *string  `json:"perturber,omitempty"`
+}
+
+func (o settingsOverrides) apply(st *AnalysisSettings) {
+	if o.InstrumentFWHMNM != nil {
+		st.InstrumentFWHMNM = *o.InstrumentFWHMNM
+	}
+	if o.GasTemperatureK != nil {
+		st.GasTemperatureK = *o.GasTemperatureK
+	}
+	if o.PressurePa != nil {
+		st.PressurePa = *o.PressurePa
+	}
+	if o.Perturber != nil {
+		st.Perturber = *o.Perturber
+	}
+}
+
+// jobKindReanalyze is the kind of bulk reanalysis jobs.
+const jobKindReanalyze = "reanalyze"
+
+func (j *JobRunner) run(ctx context.Context, job store.Job) {
+	db := j.s.DB
+	var p reanalyzeParams
+	if job.Kind != jobKindReanalyze || json.Unmarshal([]byte(job.Params), &p) != nil {
+		_ = db.FinishJob(ctx, job.ID, store.JobFailed, 0, 0, "unknown job kind or unreadable parameters")
+		return
+	}
+	done, failed := 0, 0
+	var msgs []string
+	note := func(id int64, msg string) {
+		if len(msgs) < 20 {
+			msgs = append(msgs, fmt.Sprintf("run %d: %s", id, msg))
+		}
+	}
+	for _, id := range p.RunIDs {
+		if ctx.Err() != nil {
+			// The server is stopping: record how far the job came.
+			_ = db.FinishJob(context.WithoutCancel(ctx), job.ID, store.JobFailed, done, failed,
+				fmt.Sprintf("stopped by a server shutdown after %d of %d runs", done+failed, len(p.RunIDs)))
+			return
+		}
+		if err := j.reanalyzeOne(ctx, id, p); err != nil {
+			failed++
+			var ue *userError
+			switch {
+			case errors.As(err, &ue):
+				note(id, ue.msg)
+			case errors.Is(err, store.ErrNotFound):
+				note(id, "no longer exists")
+			case errors.Is(err, store.ErrInvalid):
+				note(id, strings.TrimPrefix(err.Error(), "store: invalid: "))
+			case ctx.Err() != nil:
+				failed--
+				continue
+			default:
+				j.s.Log.Error("jobs: reanalyse run", "job", job.ID, "run", id, "err", err)
+				note(id, "internal error (see the server log)")
+			}
+		} else {
+			done++
+		}
+		if err := db.JobProgress(ctx, job.ID, done, failed, strings.Join(msgs, "\n")); err != nil && ctx.Err() == nil {
+			j.s.Log.Error("jobs: progress", "job", job.ID, "err", err)
+		}
+	}
+	state := store.JobDone
+	if failed > 0 && done == 0 {
+		state = store.JobFailed
+	}
+	if err := db.FinishJob(context.WithoutCancel(ctx), job.ID, state, done, failed, strings.Join(msgs, "\n")); err != nil {
+		j.s.Log.Error("jobs: finish", "job", job.ID, "err", err)
+	}
+}
+
+// reanalyzeOne reanalyses one run with its latest settings and the job's
+// overrides.
+func (j *JobRunner) reanalyzeOne(ctx context.Context, id int64, p reanalyzeParams) error {
+	s := j.s
+	r, err := s.DB.GetRun(ctx, id)
+	if err != nil {
+		return err
+	}
+	atts, err := s.DB.Attachments(ctx, id)
+	if err != nil {
+		return err
+	}
+	analysable := false
+	for _, a := range atts {
+		analysable = analysable || a.Kind == store.KindSpectrum || a.Kind == store.KindLineTable
+	}
+	if !analysable {
+		return badRequest("no spectrum or line table to analyse")
+	}
+	st := DefaultSettings(r)
+	if a, err := s.DB.AnalysisVersion(ctx, id, 0); err == nil {
+		var prev AnalysisSettings
+		if json.Unmarshal([]byte(a.Settings), &prev) == nil {
+			st = prev
+		}
+	} else if !errors.Is(err, store.ErrNotFound) {
+		return err
+	}
+	p.Overrides.apply(&st)
+	uid := p.UserID
+	_, err = s.ReanalyzeRun(ctx, id, st, &uid, p.Reason)
+	return err
+}
+
+// startBulkReanalysis handles POST /jobs/reanalyze: the run-list filters
+// plus settings overrides and a reason; it queues a job and shows it.
+func (s *Server) startBulkReanalysis(c echo.Context) error {
+	ctx := c.Request().Context()
+	f := runListForm{Query: c.FormValue("q"), Chamber: c.FormValue("chamber"), Recipe: c.FormValue("recipe"),
+		Source: c.FormValue("source"), Gas: c.FormValue("gas"), From: c.FormValue("from"), To: c.FormValue("to"),
+		Status: c.FormValue("status"), Tag: c.FormValue("tag"), Operator: c.FormValue("operator")}
+	rf, err := f.filter()
+	if err != nil {
+		return err
+	}
+	var o settingsOverrides
+	num := func(name, label string, max float64) (*float64, error) {
+		v := strings.TrimSpace(c.FormValue(name))
+		if v == "" {
+			return nil, nil
+		}
+		x, err := strconv.ParseFloat(v, 64)
+		if err != nil || !(x >= 0 && x <= max) {
+			return nil, badRequest("%s: %q must be a number from 0 to %g", label, v, max)
+		}
+		return &x, nil
+	}
+	if o.InstrumentFWHMNM, err = num("instrument_fwhm_nm", "instrument FWHM (nm)", 50); err != nil {
+		return err
+	}
+	if o.GasTemperatureK, err = num("gas_temperature_k", "gas temperature (K)", 1e6); err != nil {
+		return err
+	}
+	if o.PressurePa, err = num("pressure_pa", "pressure (Pa)", 1e8); err != nil {
+		return err
+	}
+	if v := strings.TrimSpace(c.FormValue("perturber")); v != "" {
+		check := AnalysisSettings{Perturber: v}
+		if err := check.Validate(); err != nil {
+			return err
+		}
+		o.Perturber = &v
+	}
+	reason := strings.TrimSpace(c.FormValue("reason"))
+	if reason == "" || len(reason) > 500 {
+		return badRequest("reason: say in up to 500 characters why these runs are reanalysed (it is stored with each new version)")
+	}
+	ids, err := s.DB.RunIDs(ctx, rf)
+	if err != nil {
+		return err
+	}
+	if len(ids) == 0 {
+		return badRequest("no run matches these filters: nothing to reanalyse")
+	}
+	u := currentUser(c)
+	fv := map[string]string{}
+	for k, v := range f.values() {
+		fv[k] = v[0]
+	}
+	params, err := json.Marshal(reanalyzeParams{RunIDs: ids, Overrides: o, Reason: reason, UserID: u.ID, Filter: fv})
+	if err != nil {
+		return err
+	}
+	jid, err := s.DB.CreateJob(ctx, jobKindReanalyze, string(params), len(ids), u.ID)
+	if err != nil {
+		return err
+	}
+	s.Jobs.notify()
+	flash(c, fmt.Sprintf("Reanalysis of %d runs queued.", len(ids)))
+	return c.Redirect(http.StatusSeeOther, fmt.Sprintf("/jobs/%d", jid))
+}
+
+// showJob handles GET /jobs/:jid: a progress page; with ?fragment=1 only
+// the progress block (what htmx polls every second while the job runs).
+func (s *Server) showJob(c echo.Context) error {
+	id, err := strconv.ParseInt(c.Param("jid"), 10, 64)
+	if err != nil || id <= 0 {
+		return echo.NewHTTPError(http.StatusNotFound, "no such job")
+	}
+	job, err := s.DB.Job(c.Request().Context(), id)
+	if err != nil {
+		return err
+	}
+	var p reanalyzeParams
+	_ = json.Unmarshal([]byte(job.Params), &p)
+	jp := views.JobProgressProps{ID: job.ID, State: job.State, Total: job.Total, Done: job.Done, Failed: job.Failed,
+		Finished: job.Finished(), Message: job.Message, Reason: p.Reason, By: job.CreatedByName,
+		Created: job.CreatedAt.Format(reviewTime)}
+	if job.Total > 0 {
+		jp.Percent = 100 * (job.Done + job.Failed) / job.Total
+	}
+	if job.FinishedAt != nil {
+		jp.FinishedAt = job.FinishedAt.Format(reviewTime)
+	}
+	o := p.Overrides
+	if o.InstrumentFWHMNM != nil {
+		jp.Changes = append(jp.Changes, "instrument FWHM "+views.SigFig(*o.InstrumentFWHMNM, 4)+" nm")
+	}
+	if o.GasTemperatureK != nil {
+		jp.Changes = append(jp.Changes, "gas temperature "+views.SigFig(*o.GasTemperatureK, 4)+" K")
+	}
+	if o.PressurePa != nil {
+		jp.Changes = append(jp.Changes, "pressure "+views.SigFig(*o.PressurePa, 4)+" Pa")
+	}
+	if o.Perturber != nil {
+		jp.Changes = append(jp.Changes, "perturber "+*o.Perturber)
+	}
+	if c.QueryParam("fragment") == "1" {
+		return render(c, http.StatusOK, views.JobProgress(jp))
+	}
+	return render(c, http.StatusOK, views.JobPage(views.JobPageProps{Layout: s.layout(c, fmt.Sprintf("Job %d", job.ID), ""), Job: jp}))
+}
