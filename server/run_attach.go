@@ -249,9 +249,9 @@ func (s *Server) uploadAttachment(c echo.Context) error {
 		return err
 	}
 	if version == 0 {
-		flash(c, fmt.Sprintf("Added %s. Nothing to analyse yet: add a spectrum or a line table.", strings.Join(names, ", ")))
+		flash(c, fmt.Sprintf("Added %d file(s). Nothing to analyse yet: add a spectrum or a line table.", len(names)))
 		return c.Redirect(http.StatusSeeOther, fmt.Sprintf("/runs/%d", id))
 	}
-	flash(c, fmt.Sprintf("Added %s; analysis version %d stored (earlier versions kept).", strings.Join(names, ", "), version))
+	flash(c, fmt.Sprintf("Added %d file(s). Analysis version %d stored, earlier versions are kept.", len(names), version))
 	return c.Redirect(http.StatusSeeOther, fmt.Sprintf("/runs/%d?v=%d", id, version))
 }

@@ -390,7 +390,7 @@ func (s *Server) createRun(c echo.Context) error {
 	}
 	switch {
 	case version > 0:
-		flash(c, fmt.Sprintf("Run logged with %d file(s); analysis version %d stored.", len(atts), version))
+		flash(c, fmt.Sprintf("Run logged with %d file(s). Analysis version %d stored.", len(atts), version))
 	default:
 		flash(c, "Run logged. Add spectra or a line table on this page to analyse it.")
 	}
@@ -473,7 +473,7 @@ func (s *Server) updateRun(c echo.Context) error {
 	}
 	msg := "Conditions saved."
 	if r.AnalysisVersion > 0 {
-		msg += " The stored analyses are unchanged; reanalyse to apply the new conditions (a new version)."
+		msg += " The stored analyses are unchanged. Reanalyse to apply the new conditions (a new version)."
 	}
 	flash(c, msg)
 	return c.Redirect(http.StatusSeeOther, fmt.Sprintf("/runs/%d", id))

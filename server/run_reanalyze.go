@@ -254,7 +254,7 @@ func (s *Server) reanalyzeRun(c echo.Context) error {
 	if err != nil {
 		return err
 	}
-	msg := fmt.Sprintf("Analysis version %d stored; earlier versions are kept.", v)
+	msg := fmt.Sprintf("Analysis version %d stored. Earlier versions are kept.", v)
 	if a, err := s.DB.AnalysisVersion(ctx, id, v); err == nil {
 		failed := 0
 		for _, res := range a.Results {

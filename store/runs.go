@@ -376,7 +376,8 @@ func (f RunFilter) order() string {
 	if desc {
 		dir = " DESC"
 	}
-	return " ORDER BY " + col + dir + ", r.id" + dir
+	// Runs without a value (not analysed yet) sort last either way.
+	return " ORDER BY " + col + dir + " NULLS LAST, r.id" + dir
 }
 
 // ListRuns returns one page of runs matching f and the total count.
