@@ -246,6 +246,15 @@ func SeedDemo(ctx context.Context, s *Server, adminID int64, opt DemoOptions) er
 				}
 				atts = append(atts, store.Attachment{ID: aid, RunID: id, Kind: store.KindSpectrum, Name: name, Seq: k + 1, Content: content})
 			}
+			// The synthetic spectra carry no instrument response, so the
+			// true relative response of this invented spectrometer is flat;
+			// attaching it records that the intensities are calibrated.
+			rid, err := s.DB.AddAttachmentTx(ctx, tx, id, store.KindResponse, demoResponseName, demoResponse)
+			if err != nil {
+				tx.Rollback()
+				return err
+			}
+			atts = append(atts, store.Attachment{ID: rid, RunID: id, Kind: store.KindResponse, Name: demoResponseName, Seq: 1, Content: demoResponse})
 			st := DefaultSettings(store.Run{InstrumentFWHMNM: in.InstrumentFWHMNM, GasTemperatureK: in.GasTemperatureK,
 				PressurePa: in.PressurePa, Perturber: in.Perturber})
 			uid := op.ID
@@ -330,3 +339,10 @@ func demoCSV(x, y []float64) []byte {
 	}
 	return b
 }
+
+// demoResponse is the relative spectral response of the demo spectrometer
+// (flat: the synthetic spectra are generated without one).
+const demoResponseName = "fh-s2-relative-response.csv"
+
+var demoResponse = []byte("# relative spectral response, Fenwick Hollow Plasma Lab spectrometer FH-S2 (demo: flat)\n" +
+	"wavelength_nm,response\n370,1\n450,1\n550,1\n650,1\n710,1\n")
