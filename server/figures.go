@@ -145,7 +145,7 @@ func BoltzmannSVG(r *diag.Result) ([]byte, error) {
 	p.Legend.Top = true
 	p.Legend.TextStyle.Font.Size = vg.Points(10)
 
-	svg, err := drawSVG(func(dc draw.Canvas) { p.Draw(dc) }, 7*vg.Inch, 4.5*vg.Inch)
+	svg, err := drawSVG(func(dc draw.Canvas) { p.Draw(dc) }, 6*vg.Inch, 4.2*vg.Inch)
 	if err != nil {
 		return nil, err
 	}
@@ -198,7 +198,7 @@ func newFigure() *plot.Plot {
 		f.Typeface, f.Variant = figureFont.Typeface, figureFont.Variant
 	}
 	p.Title.TextStyle.Font.Size = vg.Points(13)
-	p.X.Tick.Label.Font.Size, p.Y.Tick.Label.Font.Size = vg.Points(10), vg.Points(10)
+	p.X.Tick.Label.Font.Size, p.Y.Tick.Label.Font.Size = vg.Points(11), vg.Points(11)
 	p.X.Tick.Marker, p.Y.Tick.Marker = niceTicks{}, niceTicks{}
 	return p
 }
@@ -307,7 +307,7 @@ func WindowSVG(w spectrum.Window, names, yLabel string) ([]byte, error) {
 		bot.Y.Min, bot.Y.Max = -1.1*rmax, 1.1*rmax
 	}
 
-	width, height := 7*vg.Inch, 5*vg.Inch
+	width, height := 6*vg.Inch, 4.6*vg.Inch
 	svg, err := drawSVG(func(dc draw.Canvas) {
 		cs := plot.Align([][]*plot.Plot{{top}, {bot}}, draw.Tiles{Rows: 2, Cols: 1, PadY: vg.Points(4)}, dc)
 		split := dc.Min.Y + (dc.Max.Y-dc.Min.Y)*0.32

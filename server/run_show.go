@@ -10,7 +10,6 @@ import (
 	"strconv"
 	"strings"
 
-	"github.com/a-h/templ"
 	"github.com/labstack/echo/v4"
 
 	"glowlog/diag"
@@ -173,18 +172,17 @@ func (s *Server) showRun(c echo.Context) error {
 			props.Result = resultView(base, p, r, true)
 		}
 	}
-	props.Reanalyze = s.reanalyzeComponent(c, p)
-	props.Review = s.reviewComponent(c, p)
+	if props.Reanalyze, err = s.reanalyzeFormFor(c, p.Run); err != nil {
+		return err
+	}
+	props.Upload = s.uploadFormFor(c, p.Run)
+	rp, err := s.runReviewPanel(c.Request().Context(), c, p.Run)
+	if err != nil {
+		return err
+	}
+	props.Review = views.RunReviewPanel(rp)
 	return render(c, http.StatusOK, views.RunShow(props))
 }
-
-// reanalyzeComponent is the reanalysis form (owned by the run forms).
-// The form is not built yet; nil renders a marked placeholder.
-func (s *Server) reanalyzeComponent(_ echo.Context, _ *runPage) templ.Component { return nil }
-
-// reviewComponent is the review panel (comments, submit, sign-off), owned
-// by the review pages. Not built yet; nil renders a marked placeholder.
-func (s *Server) reviewComponent(_ echo.Context, _ *runPage) templ.Component { return nil }
 
 func runHeader(r store.Run) views.RunHeader {
 	h := views.RunHeader{ID: r.ID, Title: r.Title, Status: r.Status, StatusLabel: store.StatusLabel(r.Status),
@@ -199,7 +197,13 @@ func runHeader(r store.Run) views.RunHeader {
 // conditionRows lists the discharge conditions and the spectrometer
 // settings, with the unit in every label.
 func conditionRows(r store.Run) (cond, spec []views.KV) {
-	num := func(v *float64) string { return views.Num(v, 4) }
+	// Conditions are shown as entered (no padding zeros).
+	num := func(v *float64) string {
+		if v == nil {
+			return "—"
+		}
+		return strconv.FormatFloat(*v, 'g', 6, 64)
+	}
 	gas := r.GasMixture
 	if gas == "" {
 		gas = "—"
@@ -385,11 +389,11 @@ func windowNames(d *diag.Result, w spectrum.Window) string {
 func windowYLabel(d *diag.Result) string {
 	for _, f := range d.Flags {
 		if f.Code == diag.FlagUncalibrated {
-			return "intensity (counts/nm, not response-corrected)"
+			return "intensity (counts/nm, raw)"
 		}
 	}
 	if d.IntensityUnit == diag.EnergyUnits.String() {
-		return "spectral radiance (relative energy units/nm)"
+		return "radiance (rel. energy units/nm)"
 	}
-	return "spectral intensity (relative photon units/nm)"
+	return "intensity (rel. photon units/nm)"
 }

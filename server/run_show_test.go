@@ -148,8 +148,8 @@ func TestShowRunPage(t *testing.T) {
 	if !regexp.MustCompile(`(?s)class="current" data-version="1".*current-version`).MatchString(vs) {
 		t.Errorf("version 1 is not marked as shown:\n%s", vs)
 	}
-	// Placeholders for the areas owned elsewhere.
-	for _, id := range []string{`id="reanalyze"`, `id="review"`} {
+	// The forms and panel of the other areas are included.
+	for _, id := range []string{`data-testid="reanalyze-form"`, `data-testid="review-panel"`} {
 		if !strings.Contains(body, id) {
 			t.Errorf("run page lacks %s", id)
 		}
