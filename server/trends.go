@@ -222,6 +222,9 @@ func (s *Server) trendGroups(c echo.Context, p *trendPlan) ([]trendGroup, error)
 			return nil, err
 		}
 		g := trendGroup{Label: sl.label, Series: ts}
+		if p.control && len(ts.Points) == 0 {
+			p.notes = append(p.notes, fmt.Sprintf("%s: no run has a value, so there are no control limits for it.", sl.label))
+		}
 		if p.control && len(ts.Points) > 0 {
 			ys := make([]float64, len(ts.Points))
 			var base []float64
@@ -510,6 +513,9 @@ func (s *Server) showTrends(c echo.Context) error {
 			chartSets = [][]trendGroup{groups[:1], groups[1:]}
 		}
 		for ci, set := range chartSets {
+			if len(set) == 1 && len(set[0].Series.Points) == 0 {
+				continue // said in a note
+			}
 			title := p.y.Label + " against " + strings.ToLower(p.x.Label)
 			if p.control {
 				title = "Control chart (individuals): " + strings.ToLower(p.y.Label)
@@ -623,4 +629,3 @@ func (s *Server) exportTrends(c echo.Context) error {
 	w.Flush()
 	return w.Error()
 }
-
