@@ -6,6 +6,7 @@ import (
 	"database/sql"
 	"encoding/json"
 	"fmt"
+	"slices"
 	"strings"
 
 	"glowlog/diag"
@@ -126,7 +127,7 @@ func (s *Server) analyzeAttachments(ctx context.Context, atts []store.Attachment
 			SolveGasTemperature: st.SolveGasTemperature, StarkRelations: st.StarkRelations},
 		SaturationCounts: st.SaturationCounts, GainElectronsPerCount: st.GainElectronsPerCount,
 		ReadNoiseElectrons: st.ReadNoiseElectrons, CorrectOffset: st.CorrectOffset, MinSNR: st.MinSNR,
-		MaxUpper: st.MaxUpper, KeepWindows: true,
+		MaxUpper: st.MaxUpper, KeepWindows: true, ExcludeFromBoltzmann: st.ExcludeFromBoltzmann,
 	}
 	if st.InstrumentID != 0 {
 		in, err := s.DB.Instrument(ctx, st.InstrumentID)
@@ -185,6 +186,11 @@ func (s *Server) analyzeAttachments(ctx context.Context, atts []store.Attachment
 		if a.Kind == store.KindLineTable {
 			m, err := mset.Decode(a.Name, data)
 			if err == nil {
+				for i := range m.Lines {
+					if slices.Contains(st.ExcludeFromBoltzmann, m.Lines[i].Upper) {
+						m.Lines[i].ExcludeFromBoltzmann = true
+					}
+				}
 				var r diag.Result
 				r, err = diag.Analyze(m)
 				ra.Lines = &r

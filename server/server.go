@@ -6,6 +6,7 @@ import (
 	"errors"
 	"log/slog"
 	"net/http"
+	"net/url"
 	"strings"
 	"time"
 
@@ -109,7 +110,9 @@ func (s *Server) layout(c echo.Context, title, current string) views.LayoutProps
 			CanReview: u.Role.Can(store.RoleReviewer), IsAdmin: u.Role.Can(store.RoleAdmin)}
 	}
 	if f, err := c.Cookie("flash"); err == nil && f.Value != "" {
-		p.Flash = strings.ReplaceAll(f.Value, "+", " ")
+		if msg, err := url.QueryUnescape(f.Value); err == nil {
+			p.Flash = msg
+		}
 		c.SetCookie(&http.Cookie{Name: "flash", Value: "", Path: "/", MaxAge: -1})
 	}
 	return p
@@ -117,7 +120,7 @@ func (s *Server) layout(c echo.Context, title, current string) views.LayoutProps
 
 // flash sets a one-time message shown on the next page.
 func flash(c echo.Context, msg string) {
-	c.SetCookie(&http.Cookie{Name: "flash", Value: strings.ReplaceAll(msg, " ", "+"), Path: "/", MaxAge: 60, HttpOnly: true, SameSite: http.SameSiteLaxMode})
+	c.SetCookie(&http.Cookie{Name: "flash", Value: url.QueryEscape(msg), Path: "/", MaxAge: 60, HttpOnly: true, SameSite: http.SameSiteLaxMode})
 }
 
 // userError is an error whose message is safe to show.

@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 
 	"glowlog/diag"
 	"glowlog/diag/linefit"
@@ -72,6 +73,9 @@ type Options struct {
 	// KeepWindows keeps each fitted window's data, model and residuals in
 	// the result (for plots).
 	KeepWindows bool
+	// ExcludeFromBoltzmann lists upper levels kept on the Boltzmann plot
+	// but out of its fit.
+	ExcludeFromBoltzmann []int
 }
 
 // Defaults of Options.
@@ -396,7 +400,8 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 			continue
 		}
 		f := c.fit
-		ml := diag.MeasuredLine{Upper: c.t.Upper, Intensity: f.Area, IntensityUnc: f.AreaErr}
+		ml := diag.MeasuredLine{Upper: c.t.Upper, Intensity: f.Area, IntensityUnc: f.AreaErr,
+			ExcludeFromBoltzmann: slices.Contains(opt.ExcludeFromBoltzmann, c.t.Upper)}
 		if !f.LorentzAtBound && f.LorentzFWHM > 0 {
 			ml.LorentzFWHMNM, ml.LorentzFWHMUncNM = f.LorentzFWHM, f.LorentzFWHMErr
 		}

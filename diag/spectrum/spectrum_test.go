@@ -462,3 +462,23 @@ func BenchmarkPipeline2048(b *testing.B) {
 		}
 	}
 }
+
+// TestExcludeFromBoltzmann: an excluded line stays on the plot, out of
+// the fit.
+func TestExcludeFromBoltzmann(t *testing.T) {
+	sp, tr := loadScipy(t, "bench_2048")
+	opt := Options{Conditions: diag.Measurement{InstrumentGaussFWHMNM: tr.Inst, GasTemperatureK: tr.Tg}, ExcludeFromBoltzmann: []int{3}}
+	res, err := NewPipeline(4096).Analyze(sp, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var found bool
+	for _, p := range res.Boltzmann.Points {
+		if p.Upper == 3 {
+			found = p.Excluded
+		}
+	}
+	if !found || res.Boltzmann.N != len(res.Boltzmann.Points)-1 {
+		t.Errorf("Hα excluded %v, %d of %d points fitted", found, res.Boltzmann.N, len(res.Boltzmann.Points))
+	}
+}
