@@ -43,37 +43,35 @@ func SigFig(v float64, sig int) string {
 	return mant + " × 10" + superscript(e)
 }
 
-// ValueUnc formats a value ± 1σ with the uncertainty to two significant
-// figures and the value to the same decimal place; with σ/v > 20 % both get
-// at most two significant figures.
+// ValueUnc formats a value ± 1σ: the uncertainty rounded to two
+// significant figures and the value to the same decimal place (so a value
+// with σ/v > 20 % keeps at most two significant figures), in plain
+// notation between 1e-3 and 1e6 and as (m ± u) × 10ⁿ otherwise.
 func ValueUnc(v, unc *float64) string {
-	if v == nil {
+	if v == nil || math.IsNaN(*v) || math.IsInf(*v, 0) {
 		return "—"
 	}
-	if unc == nil || *unc <= 0 {
+	if unc == nil || !(*unc > 0) || math.IsInf(*unc, 0) {
 		return SigFig(*v, 4)
 	}
-	a, u := math.Abs(*v), *unc
-	if a >= 1e6 || a < 1e-3 {
-		e := math.Floor(math.Log10(a))
-		scale := math.Pow(10, e)
-		m, mu := *v/scale, u/scale
-		d := decimalsFor(mu)
-		return fmt.Sprintf("(%.*f ± %.*f) × 10%s", d, m, d, mu, superscript(int(e)))
+	u := *unc
+	big := math.Max(math.Abs(*v), u)
+	e := int(math.Floor(math.Log10(big)))
+	if big >= 1e-3 && big < 1e6 {
+		return plainPM(*v, u)
 	}
-	d := decimalsFor(u)
-	return fmt.Sprintf("%.*f ± %.*f", d, *v, d, u)
+	scale := math.Pow(10, float64(e))
+	return "(" + plainPM(*v/scale, u/scale) + ") × 10" + superscript(e)
 }
 
-func decimalsFor(u float64) int {
-	if u <= 0 {
-		return 3
-	}
+// plainPM prints v ± u with u at two significant figures.
+func plainPM(v, u float64) string {
 	d := 1 - int(math.Floor(math.Log10(u)))
-	if d < 0 {
-		return 0
+	if d >= 0 {
+		return fmt.Sprintf("%.*f ± %.*f", d, v, d, u)
 	}
-	return d
+	q := math.Pow(10, float64(-d))
+	return fmt.Sprintf("%.0f ± %.0f", math.Round(v/q)*q, math.Round(u/q)*q)
 }
 
 func superscript(e int) string {

@@ -982,7 +982,7 @@ func ReanalyzeForm(p ReanalyzeFormProps) templ.Component {
 		if templ_7745c5c3_Err != nil {
 			return templ_7745c5c3_Err
 		}
-		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 85, "\" placeholder=\"e.g. 3, 7\" data-testid=\"r-exclude\"> <span class=\"muted\">recorded with the version; the analysis service does not apply it to the fit yet</span></label> <label class=\"wide\">Reason <input name=\"reason\" value=\"")
+		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 85, "\" placeholder=\"e.g. 3, 7\" data-testid=\"r-exclude\"> <span class=\"muted\">kept on the Boltzmann plot, left out of its fit</span></label> <label class=\"wide\">Reason <input name=\"reason\" value=\"")
 		if templ_7745c5c3_Err != nil {
 			return templ_7745c5c3_Err
 		}
