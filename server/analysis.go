@@ -5,6 +5,7 @@ import (
 	"context"
 	"database/sql"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"slices"
 	"strings"
@@ -38,6 +39,9 @@ type AnalysisSettings struct {
 	MaxUpper                int            `json:"max_upper,omitempty"`
 	StarkRelations          map[int]string `json:"stark_relations,omitempty"`
 	ExcludeFromBoltzmann    []int          `json:"exclude_from_boltzmann,omitempty"`
+	// CalibrationFiles records the dark and response attachments a version
+	// was computed with (set by the analysis service, not by users).
+	CalibrationFiles []int64 `json:"calibration_files,omitempty"`
 }
 
 // DefaultSettings takes the analysis settings from a run's conditions.
@@ -259,6 +263,7 @@ func (s *Server) ReanalyzeRun(ctx context.Context, runID int64, st AnalysisSetti
 	if err != nil {
 		return 0, err
 	}
+	st.CalibrationFiles = calibrationFiles(atts)
 	results, err := s.analyzeAttachments(ctx, atts, st)
 	if err != nil {
 		return 0, err
@@ -276,7 +281,15 @@ func (s *Server) ReanalyzeRunTx(ctx context.Context, tx *sql.Tx, runID int64, at
 	if err := st.Validate(); err != nil {
 		return 0, nil, err
 	}
-	results, err := s.analyzeAttachmentsWith(ctx, tx, atts, st)
+	st.CalibrationFiles = calibrationFiles(atts)
+	// Adding data to a run with unchanged settings and calibration files
+	// reuses the stored results of its other files: only new spectra are
+	// analysed, so a long time series grows in linear time.
+	reused, toAnalyze, err := s.reusableResults(ctx, tx, runID, atts, st)
+	if err != nil {
+		return 0, nil, err
+	}
+	results, err := s.analyzeAttachmentsWith(ctx, tx, toAnalyze, st)
 	if err != nil {
 		return 0, nil, err
 	}
@@ -284,8 +297,58 @@ func (s *Server) ReanalyzeRunTx(ctx context.Context, tx *sql.Tx, runID int64, at
 	if err != nil {
 		return 0, nil, err
 	}
+	na.Results = append(reused, na.Results...)
 	v, err := s.DB.AddAnalysisTx(ctx, tx, runID, na)
 	return v, results, err
+}
+
+// reusableResults splits atts into files whose newest stored result can be
+// kept (same settings — including the same dark and response files,
+// st.CalibrationFiles — and the same engine) and the rest, which are
+// analysed; dark and response files always go along as their context.
+func (s *Server) reusableResults(ctx context.Context, tx *sql.Tx, runID int64, atts []store.Attachment, st AnalysisSettings) ([]store.AnalysisResult, []store.Attachment, error) {
+	settings, engine, prev, err := s.DB.LatestResultsTx(ctx, tx, runID)
+	if errors.Is(err, store.ErrNotFound) {
+		return nil, atts, nil
+	}
+	if err != nil {
+		return nil, nil, err
+	}
+	sj, err := json.Marshal(st)
+	if err != nil {
+		return nil, nil, err
+	}
+	if settings != string(sj) || engine != diag.EngineVersion {
+		return nil, atts, nil
+	}
+	old := map[int64]store.AnalysisResult{}
+	for _, r := range prev {
+		if r.Error == "" {
+			old[r.AttachmentID] = r
+		}
+	}
+	var reused []store.AnalysisResult
+	var rest []store.Attachment
+	for _, a := range atts {
+		if r, ok := old[a.ID]; ok && a.Kind != store.KindDark && a.Kind != store.KindResponse {
+			reused = append(reused, r)
+			continue
+		}
+		rest = append(rest, a)
+	}
+	return reused, rest, nil
+}
+
+// calibrationFiles lists the dark and response attachments among atts.
+func calibrationFiles(atts []store.Attachment) []int64 {
+	var ids []int64
+	for _, a := range atts {
+		if a.Kind == store.KindDark || a.Kind == store.KindResponse {
+			ids = append(ids, a.ID)
+		}
+	}
+	slices.Sort(ids)
+	return ids
 }
 
 // analyzeAttachmentsWith analyses attachments whose content is given

@@ -224,3 +224,31 @@ func errNoRows(err error, what string) error {
 	}
 	return err
 }
+
+// LatestResultsTx returns, inside the caller's transaction, the settings,
+// engine version and per-attachment results of a run's newest analysis
+// version (ErrNotFound when it has none).
+func (d *DB) LatestResultsTx(ctx context.Context, tx *sql.Tx, runID int64) (settings, engine string, results []AnalysisResult, err error) {
+	var aid int64
+	err = tx.QueryRowContext(ctx, `SELECT id, settings, engine_version FROM analyses WHERE run_id = ? ORDER BY version DESC LIMIT 1`, runID).
+		Scan(&aid, &settings, &engine)
+	if err != nil {
+		return "", "", nil, errNoRows(err, fmt.Sprintf("run %d analysis", runID))
+	}
+	rows, err := tx.QueryContext(ctx, `SELECT attachment_id, coalesce(result, ''), coalesce(error, ''), texc_k, texc_unc_k,
+		ne_m3, ne_unc_m3, tgas_k, n_warnings FROM analysis_results WHERE analysis_id = ?`, aid)
+	if err != nil {
+		return "", "", nil, err
+	}
+	defer rows.Close()
+	for rows.Next() {
+		var r AnalysisResult
+		var texc, texcU, ne, neU, tg sql.NullFloat64
+		if err := rows.Scan(&r.AttachmentID, &r.Result, &r.Error, &texc, &texcU, &ne, &neU, &tg, &r.NWarnings); err != nil {
+			return "", "", nil, err
+		}
+		r.TexcK, r.TexcUncK, r.NeM3, r.NeUncM3, r.TgasK = scanF(texc), scanF(texcU), scanF(ne), scanF(neU), scanF(tg)
+		results = append(results, r)
+	}
+	return settings, engine, results, rows.Err()
+}

@@ -35,6 +35,8 @@ type DB struct {
 	db *sql.DB
 	// Now is the clock; tests replace it.
 	Now func() time.Time
+
+	trends trendCache
 }
 
 // Open opens (creating if needed) the database file at path and applies
@@ -165,4 +167,12 @@ func scanF(n sql.NullFloat64) *float64 {
 	}
 	v := n.Float64
 	return &v
+}
+
+// Generation returns the data generation number: it changes whenever a
+// run, its summary or its tags change (triggers of migration 0002).
+func (d *DB) Generation(ctx context.Context) (int64, error) {
+	var g int64
+	err := d.db.QueryRowContext(ctx, `SELECT gen FROM data_generation WHERE id = 1`).Scan(&g)
+	return g, err
 }

@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"slices"
 	"strings"
+	"sync"
 	"time"
 )
 
@@ -97,7 +98,26 @@ func (f RunFilter) Where() (string, []any) { return f.where() }
 // ignored. Only the needed columns of runs are read, so that a series of
 // 100 000 runs takes a few tens of milliseconds. Unknown field keys are
 // ErrInvalid.
+//
+// Results are cached per filter and fields, and reused while the data
+// generation (Generation) is unchanged; callers must not modify them.
 func (d *DB) TrendSeries(ctx context.Context, f RunFilter, xField, yField string) (TrendSeries, error) {
+	gen, err := d.Generation(ctx)
+	if err != nil {
+		return TrendSeries{}, err
+	}
+	key := fmt.Sprintf("%#v|%s|%s", f, xField, yField)
+	if ts, ok := d.trends.get(key, gen); ok {
+		return ts, nil
+	}
+	ts, err := d.trendSeries(ctx, f, xField, yField)
+	if err == nil {
+		d.trends.put(key, gen, ts)
+	}
+	return ts, err
+}
+
+func (d *DB) trendSeries(ctx context.Context, f RunFilter, xField, yField string) (TrendSeries, error) {
 	xf, ok := LookupTrendField(xField)
 	if !ok {
 		return TrendSeries{}, fmt.Errorf("%w: unknown x field %q (known: %s)", ErrInvalid, xField, trendKeys())
@@ -206,4 +226,46 @@ func (d *DB) RunIDs(ctx context.Context, f RunFilter) ([]int64, error) {
 		out = append(out, id)
 	}
 	return out, rows.Err()
+}
+
+// trendCache keeps the last few trend series (each at most a few MB for
+// 100 000 runs) with the data generation they were read at.
+type trendCache struct {
+	mu      sync.Mutex
+	entries []trendEntry // most recent last
+}
+
+type trendEntry struct {
+	key string
+	gen int64
+	ts  TrendSeries
+}
+
+const trendCacheSize = 8
+
+func (c *trendCache) get(key string, gen int64) (TrendSeries, bool) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	for i, e := range c.entries {
+		if e.key == key && e.gen == gen {
+			c.entries = append(append(c.entries[:i:i], c.entries[i+1:]...), e)
+			return e.ts, true
+		}
+	}
+	return TrendSeries{}, false
+}
+
+func (c *trendCache) put(key string, gen int64, ts TrendSeries) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	kept := c.entries[:0]
+	for _, e := range c.entries {
+		if e.key != key && e.gen == gen {
+			kept = append(kept, e)
+		}
+	}
+	c.entries = append(kept, trendEntry{key, gen, ts})
+	if len(c.entries) > trendCacheSize {
+		c.entries = c.entries[len(c.entries)-trendCacheSize:]
+	}
 }
