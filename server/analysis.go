@@ -6,9 +6,9 @@ import (
 	"database/sql"
 	"encoding/json"
 	"errors"
-	"fmt"
 	"slices"
 	"strings"
+	"sync"
 
 	"glowlog/diag"
 	"glowlog/diag/calib"
@@ -103,6 +103,10 @@ func (st *AnalysisSettings) Validate() error {
 	return nil
 }
 
+// pipelines reuses spectrum pipelines (their fit workspaces) across
+// requests.
+var pipelines = sync.Pool{New: func() any { return spectrum.NewPipeline(8192) }}
+
 // RunAnalysis is the result of analysing one attachment: a spectrum
 // (spectrum.Result) or a typed line table (diag.Result).
 type RunAnalysis struct {
@@ -175,7 +179,8 @@ func (s *Server) analyzeAttachments(ctx context.Context, atts []store.Attachment
 			opt.Response, opt.ResponseUnit = r, unit
 		}
 	}
-	p := spectrum.NewPipeline(8192)
+	p := pipelines.Get().(*spectrum.Pipeline)
+	defer pipelines.Put(p)
 	var out []RunAnalysis
 	for _, a := range atts {
 		if a.Kind != store.KindSpectrum && a.Kind != store.KindLineTable {
@@ -351,14 +356,10 @@ func calibrationFiles(atts []store.Attachment) []int64 {
 	return ids
 }
 
-// analyzeAttachmentsWith analyses attachments whose content is given
-// (not yet committed).
+// analyzeAttachmentsWith analyses attachments inside a transaction: new
+// ones come with their content, stored ones are loaded (committed data,
+// readable beside the open write transaction in WAL mode).
 func (s *Server) analyzeAttachmentsWith(ctx context.Context, _ *sql.Tx, atts []store.Attachment, st AnalysisSettings) ([]RunAnalysis, error) {
-	for _, a := range atts {
-		if a.Content == nil {
-			return nil, fmt.Errorf("server: attachment %d without content", a.ID)
-		}
-	}
 	return s.analyzeAttachments(ctx, atts, st)
 }
 

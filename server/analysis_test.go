@@ -68,7 +68,7 @@ func TestAppendReusesResults(t *testing.T) {
 		t.Fatalf("second version analysed %d files, want only b.csv", len(res))
 	}
 	v2, _ := db.AnalysisVersion(ctx, runID, 2)
-	if len(v2.Results) != 2 || v2.Results[0].Result != v1.Results[0].Result {
+	if len(v2.Results) != 2 || v2.Results[0].Result != v1.Results[0].Result || v1.Results[0].Result == "" {
 		t.Fatalf("version 2 has %d results; first kept byte for byte: %v", len(v2.Results), len(v2.Results) > 0 && v2.Results[0].Result == v1.Results[0].Result)
 	}
 	resp := []byte("wavelength_nm,response\n400,1\n600,1\n")

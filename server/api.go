@@ -16,6 +16,7 @@ import (
 
 	"glowlog/diag"
 	"glowlog/diag/mset"
+	"glowlog/diag/spectrum"
 	"glowlog/store"
 )
 
@@ -326,14 +327,10 @@ func (s *Server) apiAddMeasurement(c echo.Context) error {
 	if err != nil {
 		return err
 	}
+	// Stored files go in without content: their results are reused when
+	// the settings are unchanged, and loaded only if they must be analysed.
 	atts := make([]store.Attachment, 0, len(list)+1)
-	for _, a := range list {
-		full, err := s.DB.AttachmentContent(ctx, a.ID)
-		if err != nil {
-			return err
-		}
-		atts = append(atts, full)
-	}
+	atts = append(atts, list...)
 	tx, err := s.DB.Begin(ctx)
 	if err != nil {
 		return err
@@ -365,22 +362,29 @@ func (s *Server) apiAddMeasurement(c echo.Context) error {
 	if err := tx.Commit(); err != nil {
 		return err
 	}
-	out := map[string]any{}
-	if mine != nil {
-		var v any = mine.Lines
-		if mine.Spectrum != nil {
-			v = mine.Spectrum
-		}
-		raw, err := json.Marshal(v)
-		if err != nil {
-			return err
-		}
-		if err := json.Unmarshal(raw, &out); err != nil {
-			return err
-		}
+	ids := apiMeasurementIDs{RunID: id, AttachmentID: aid, AnalysisVersion: version, Kind: in.kind}
+	switch {
+	case mine != nil && mine.Spectrum != nil:
+		return c.JSON(http.StatusCreated, struct {
+			apiMeasurementIDs
+			*spectrum.Result
+		}{ids, mine.Spectrum})
+	case mine != nil && mine.Lines != nil:
+		return c.JSON(http.StatusCreated, struct {
+			apiMeasurementIDs
+			*diag.Result
+		}{ids, mine.Lines})
 	}
-	out["run_id"], out["attachment_id"], out["analysis_version"], out["kind"] = id, aid, version, in.kind
-	return c.JSON(http.StatusCreated, out)
+	return c.JSON(http.StatusCreated, ids)
+}
+
+// apiMeasurementIDs identify what POST /api/v1/runs/:id/measurements
+// stored; the analysis JSON of the new file follows them inline.
+type apiMeasurementIDs struct {
+	RunID           int64  `json:"run_id"`
+	AttachmentID    int64  `json:"attachment_id"`
+	AnalysisVersion int    `json:"analysis_version"`
+	Kind            string `json:"kind"`
 }
 
 // apiSummary is a run's current analysis summary.

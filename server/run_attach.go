@@ -204,19 +204,14 @@ func (s *Server) uploadAttachment(c echo.Context) error {
 	if err := st.Validate(); err != nil {
 		return err
 	}
-	// Load the stored files before the write transaction starts.
+	// The stored files go in without content: the analysis service reuses
+	// their results when it can, and loads only what it must analyse.
 	listed, err := s.DB.Attachments(ctx, id)
 	if err != nil {
 		return err
 	}
 	all := make([]store.Attachment, 0, len(listed)+len(ups))
-	for _, a := range listed {
-		full, err := s.DB.AttachmentContent(ctx, a.ID)
-		if err != nil {
-			return err
-		}
-		all = append(all, full)
-	}
+	all = append(all, listed...)
 
 	tx, err := s.DB.Begin(ctx)
 	if err != nil {

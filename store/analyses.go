@@ -33,6 +33,10 @@ type AnalysisResult struct {
 	Error                                 string
 	TexcK, TexcUncK, NeM3, NeUncM3, TgasK *float64
 	NWarnings                             int
+	// SameAs is the id of the result row whose JSON this result shares
+	// (a result kept unchanged from an earlier version); 0 when it holds
+	// its own.
+	SameAs int64
 }
 
 // NewAnalysis is what AddAnalysis stores.
@@ -68,19 +72,25 @@ func (d *DB) AddAnalysisTx(ctx context.Context, tx *sql.Tx, runID int64, a NewAn
 		return 0, fmt.Errorf("store: add analysis: %w", err)
 	}
 	aid, _ := res.LastInsertId()
+	ins, err := tx.PrepareContext(ctx, `INSERT INTO analysis_results (analysis_id, attachment_id, result, error, texc_k, texc_unc_k,
+		ne_m3, ne_unc_m3, tgas_k, n_warnings, same_as) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`)
+	if err != nil {
+		return 0, err
+	}
+	defer ins.Close()
 	for _, r := range a.Results {
-		var result any
-		if r.Result != "" {
+		var result, sameAs any
+		if r.SameAs != 0 {
+			sameAs = r.SameAs
+		} else if r.Result != "" {
 			result = r.Result
 		}
 		var errMsg any
 		if r.Error != "" {
 			errMsg = r.Error
 		}
-		if _, err := tx.ExecContext(ctx, `INSERT INTO analysis_results (analysis_id, attachment_id, result, error, texc_k, texc_unc_k,
-			ne_m3, ne_unc_m3, tgas_k, n_warnings) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
-			aid, r.AttachmentID, result, errMsg, nullF(r.TexcK), nullF(r.TexcUncK), nullF(r.NeM3), nullF(r.NeUncM3),
-			nullF(r.TgasK), r.NWarnings); err != nil {
+		if _, err := ins.ExecContext(ctx, aid, r.AttachmentID, result, errMsg, nullF(r.TexcK), nullF(r.TexcUncK), nullF(r.NeM3), nullF(r.NeUncM3),
+			nullF(r.TgasK), r.NWarnings, sameAs); err != nil {
 			return 0, fmt.Errorf("store: add analysis result: %w", err)
 		}
 	}
@@ -194,9 +204,11 @@ func (d *DB) AnalysisVersion(ctx context.Context, runID int64, version int) (Ana
 	if a == nil {
 		return Analysis{}, fmt.Errorf("run %d analysis version %d: %w", runID, version, ErrNotFound)
 	}
-	rows, err := d.db.QueryContext(ctx, `SELECT r.id, r.attachment_id, t.name, t.seq, coalesce(r.result, ''), coalesce(r.error, ''),
+	rows, err := d.db.QueryContext(ctx, `SELECT r.id, r.attachment_id, t.name, t.seq, coalesce(r.result, o.result, ''), coalesce(r.error, ''),
 		r.texc_k, r.texc_unc_k, r.ne_m3, r.ne_unc_m3, r.tgas_k, r.n_warnings
-		FROM analysis_results r JOIN attachments t ON t.id = r.attachment_id WHERE r.analysis_id = ? ORDER BY t.kind, t.seq`, a.ID)
+		FROM analysis_results r JOIN attachments t ON t.id = r.attachment_id
+		LEFT JOIN analysis_results o ON o.id = r.same_as
+		WHERE r.analysis_id = ? ORDER BY t.kind, t.seq`, a.ID)
 	if err != nil {
 		return *a, err
 	}
@@ -227,7 +239,9 @@ func errNoRows(err error, what string) error {
 
 // LatestResultsTx returns, inside the caller's transaction, the settings,
 // engine version and per-attachment results of a run's newest analysis
-// version (ErrNotFound when it has none).
+// version (ErrNotFound when it has none). The results carry no JSON: each
+// has SameAs set to the row that holds it, ready to be kept by a new
+// version.
 func (d *DB) LatestResultsTx(ctx context.Context, tx *sql.Tx, runID int64) (settings, engine string, results []AnalysisResult, err error) {
 	var aid int64
 	err = tx.QueryRowContext(ctx, `SELECT id, settings, engine_version FROM analyses WHERE run_id = ? ORDER BY version DESC LIMIT 1`, runID).
@@ -235,7 +249,7 @@ func (d *DB) LatestResultsTx(ctx context.Context, tx *sql.Tx, runID int64) (sett
 	if err != nil {
 		return "", "", nil, errNoRows(err, fmt.Sprintf("run %d analysis", runID))
 	}
-	rows, err := tx.QueryContext(ctx, `SELECT attachment_id, coalesce(result, ''), coalesce(error, ''), texc_k, texc_unc_k,
+	rows, err := tx.QueryContext(ctx, `SELECT attachment_id, coalesce(same_as, id), coalesce(error, ''), texc_k, texc_unc_k,
 		ne_m3, ne_unc_m3, tgas_k, n_warnings FROM analysis_results WHERE analysis_id = ?`, aid)
 	if err != nil {
 		return "", "", nil, err
@@ -244,7 +258,7 @@ func (d *DB) LatestResultsTx(ctx context.Context, tx *sql.Tx, runID int64) (sett
 	for rows.Next() {
 		var r AnalysisResult
 		var texc, texcU, ne, neU, tg sql.NullFloat64
-		if err := rows.Scan(&r.AttachmentID, &r.Result, &r.Error, &texc, &texcU, &ne, &neU, &tg, &r.NWarnings); err != nil {
+		if err := rows.Scan(&r.AttachmentID, &r.SameAs, &r.Error, &texc, &texcU, &ne, &neU, &tg, &r.NWarnings); err != nil {
 			return "", "", nil, err
 		}
 		r.TexcK, r.TexcUncK, r.NeM3, r.NeUncM3, r.TgasK = scanF(texc), scanF(texcU), scanF(ne), scanF(neU), scanF(tg)

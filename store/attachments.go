@@ -49,17 +49,24 @@ func (d *DB) AddAttachmentTx(ctx context.Context, tx *sql.Tx, runID int64, kind,
 	if err := tx.QueryRowContext(ctx, `SELECT coalesce(max(seq), 0) + 1 FROM attachments WHERE run_id = ? AND kind = ?`, runID, kind).Scan(&seq); err != nil {
 		return 0, err
 	}
-	res, err := tx.ExecContext(ctx, `INSERT INTO attachments (run_id, kind, name, seq, content, created_at) VALUES (?, ?, ?, ?, ?, ?)`,
-		runID, kind, name, seq, content, d.now())
+	res, err := tx.ExecContext(ctx, `INSERT INTO attachments (run_id, kind, name, seq, size, created_at) VALUES (?, ?, ?, ?, ?, ?)`,
+		runID, kind, name, seq, len(content), d.now())
 	if err != nil {
 		return 0, fmt.Errorf("store: add attachment: %w", err)
 	}
-	return res.LastInsertId()
+	id, err := res.LastInsertId()
+	if err != nil {
+		return 0, err
+	}
+	if _, err := tx.ExecContext(ctx, `INSERT INTO attachment_contents (attachment_id, content) VALUES (?, ?)`, id, content); err != nil {
+		return 0, fmt.Errorf("store: add attachment content: %w", err)
+	}
+	return id, nil
 }
 
 // Attachments lists a run's attachments (without content) by kind and seq.
 func (d *DB) Attachments(ctx context.Context, runID int64) ([]Attachment, error) {
-	rows, err := d.db.QueryContext(ctx, `SELECT id, run_id, kind, name, seq, length(content), created_at FROM attachments
+	rows, err := d.db.QueryContext(ctx, `SELECT id, run_id, kind, name, seq, size, created_at FROM attachments
 		WHERE run_id = ? ORDER BY kind, seq`, runID)
 	if err != nil {
 		return nil, err
@@ -82,7 +89,8 @@ func (d *DB) Attachments(ctx context.Context, runID int64) ([]Attachment, error)
 func (d *DB) AttachmentContent(ctx context.Context, id int64) (Attachment, error) {
 	var a Attachment
 	var created int64
-	err := d.db.QueryRowContext(ctx, `SELECT id, run_id, kind, name, seq, content, created_at FROM attachments WHERE id = ?`, id).
+	err := d.db.QueryRowContext(ctx, `SELECT a.id, a.run_id, a.kind, a.name, a.seq, c.content, a.created_at
+		FROM attachments a JOIN attachment_contents c ON c.attachment_id = a.id WHERE a.id = ?`, id).
 		Scan(&a.ID, &a.RunID, &a.Kind, &a.Name, &a.Seq, &a.Content, &created)
 	if errors.Is(err, sql.ErrNoRows) {
 		return a, fmt.Errorf("attachment %d: %w", id, ErrNotFound)

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"slices"
+	"strconv"
 
 	"glowlog/diag"
 	"glowlog/diag/linefit"
@@ -103,11 +104,33 @@ type LineSearch struct {
 
 // Window is one fitted window kept for plotting (Options.KeepWindows).
 type Window struct {
-	Uppers       []int     `json:"upper_levels"`
-	WavelengthNM []float64 `json:"wavelength_nm"`
-	Data         []float64 `json:"data"`
-	Model        []float64 `json:"model"`
-	Residual     []float64 `json:"residual"`
+	Uppers       []int      `json:"upper_levels"`
+	WavelengthNM PlotFloats `json:"wavelength_nm"`
+	Data         PlotFloats `json:"data"`
+	Model        PlotFloats `json:"model"`
+	Residual     PlotFloats `json:"residual"`
+}
+
+// PlotFloats is a series kept for plots: it is written to JSON with 8
+// significant digits (far below any pixel or noise level, and about half
+// the size of full precision).
+type PlotFloats []float64
+
+// MarshalJSON writes the series with 8 significant digits.
+func (p PlotFloats) MarshalJSON() ([]byte, error) {
+	b := make([]byte, 0, 12*len(p)+2)
+	b = append(b, '[')
+	for i, v := range p {
+		if i > 0 {
+			b = append(b, ',')
+		}
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			b = append(b, "null"...)
+			continue
+		}
+		b = strconv.AppendFloat(b, v, 'g', 8, 64)
+	}
+	return append(b, ']'), nil
 }
 
 // Result is the outcome of Analyze: the diag analysis plus the search and
