@@ -180,8 +180,8 @@ func densityConsistency(lines []LineResult) []Flag {
 			if a.ElectronDensityUncM3 == nil || b.ElectronDensityUncM3 == nil {
 				if mean := (*a.ElectronDensityM3 + *b.ElectronDensityM3) / 2; d > unknownSpreadLimit*mean {
 					out = append(out, Flag{FlagDensityDisagree, fmt.Sprintf(
-						"%s and %s give electron densities %.3g and %.3g m⁻³, %.0f %% apart (no width uncertainties were given to judge the difference): check the instrument width, the gas temperature and self-absorption; the Hβ value is preferred",
-						a.Name, b.Name, *a.ElectronDensityM3, *b.ElectronDensityM3, 100*d/mean)})
+						"%s and %s give electron densities %s and %s m⁻³, %.0f %% apart (no width uncertainties were given to judge the difference): check the instrument width, the gas temperature and self-absorption; the Hβ value is preferred",
+						a.Name, b.Name, sci(*a.ElectronDensityM3, 3), sci(*b.ElectronDensityM3, 3), 100*d/mean)})
 				}
 				continue
 			}
@@ -189,8 +189,8 @@ func densityConsistency(lines []LineResult) []Flag {
 				math.Hypot(*b.ElectronDensityUncM3, relationSystematic**b.ElectronDensityM3))
 			if d > 2*s {
 				out = append(out, Flag{FlagDensityDisagree, fmt.Sprintf(
-					"%s and %s give electron densities %.3g and %.3g m⁻³, which differ by more than twice their combined uncertainty (statistical, plus 5 %% per relation): check the instrument width, the gas temperature and self-absorption; the Hβ value is preferred",
-					a.Name, b.Name, *a.ElectronDensityM3, *b.ElectronDensityM3)})
+					"%s and %s give electron densities %s and %s m⁻³, which differ by more than twice their combined uncertainty (statistical, plus 5 %% per relation): check the instrument width, the gas temperature and self-absorption; the Hβ value is preferred",
+					a.Name, b.Name, sci(*a.ElectronDensityM3, 3), sci(*b.ElectronDensityM3, 3))})
 			}
 		}
 	}

@@ -315,11 +315,11 @@ func sensitivityFlags(res BoltzmannResult) []Flag {
 	if ratio := res.EnergySpreadEV / kT; ratio < 3 {
 		dT := res.TemperatureK * kT / res.EnergySpreadEV * 0.10
 		out = append(out, Flag{FlagLowSensitivity, fmt.Sprintf(
-			"the upper levels span only ΔE = %.3g eV = %.2g k_BT: a 10 %% relative intensity error between the extreme lines (e.g. a calibration tilt) moves the excitation temperature by about %.2g K", res.EnergySpreadEV, ratio, dT)})
+			"the upper levels span only ΔE = %.3g eV = %.2g k_BT: a 10 %% relative intensity error between the extreme lines (e.g. a calibration tilt) moves the excitation temperature by about %s K", res.EnergySpreadEV, ratio, sci(dT, 2))})
 	}
 	if res.TemperatureUncK > 0.2*res.TemperatureK {
 		out = append(out, Flag{FlagWideUncertainty, fmt.Sprintf(
-			"the excitation temperature is uncertain by more than 20 %% (%.2g ± %.2g K): quote at most two significant figures", res.TemperatureK, res.TemperatureUncK)})
+			"the excitation temperature is uncertain by more than 20 %% (%s ± %s K): quote at most two significant figures", sci(res.TemperatureK, 2), sci(res.TemperatureUncK, 2))})
 	}
 	return out
 }
@@ -391,11 +391,11 @@ func offLineFlags(pts []BoltzmannPoint, full BoltzmannResult, opt BoltzmannOptio
 		pct := (math.Exp(dev) - 1) * 100
 		if target == 3 && dev < 0 {
 			out = append(out, Flag{FlagSelfAbsorption, fmt.Sprintf(
-				"%s lies %.0f %% below the line through the other points (%.1fσ): suspect self-absorption of %s (n = 2 is strongly populated in many discharges), or n = 3 out of partial LTE; consider excluding it", name, -pct, -dev/sigma, name)})
+				"%s lies %s %% below the line through the other points (%.1fσ): suspect self-absorption of %s (n = 2 is strongly populated in many discharges), or n = 3 out of partial LTE; consider excluding it", name, sci(-pct, 2), -dev/sigma, name)})
 			continue
 		}
 		out = append(out, Flag{FlagPartialLTE, fmt.Sprintf(
-			"the n = %d point (%s) lies %+.0f %% off the line through the other points (%.1fσ): level n = %d may be over- or under-populated relative to the higher levels (not in partial LTE); consider excluding it", target, name, pct, math.Abs(dev)/sigma, target)})
+			"the n = %d point (%s) lies %s %% %s the line through the other points (%.1fσ): level n = %d may be over- or under-populated relative to the higher levels (not in partial LTE); consider excluding it", target, name, sci(math.Abs(pct), 2), aboveBelow(dev), math.Abs(dev)/sigma, target)})
 	}
 	return out
 }
@@ -451,4 +451,11 @@ func fitLine(x, y, w []float64) lineFit {
 		f.r2 = 1
 	}
 	return f
+}
+
+func aboveBelow(dev float64) string {
+	if dev > 0 {
+		return "above"
+	}
+	return "below"
 }

@@ -283,11 +283,11 @@ func (r StarkRelation) Warnings(neM3, tempK float64) []string {
 	var w []string
 	switch {
 	case neM3 < r.MinNeM3:
-		w = append(w, fmt.Sprintf("n_e = %.2e m⁻³ is below the validity range of %s (%.0e–%.0e m⁻³); the density is an extrapolation.",
-			neM3, r.ID, r.MinNeM3, r.MaxNeM3))
+		w = append(w, fmt.Sprintf("n_e = %s m⁻³ is below the validity range of %s (%s–%s m⁻³); the density is an extrapolation.",
+			sci(neM3, 3), r.ID, sci(r.MinNeM3, 1), sci(r.MaxNeM3, 1)))
 	case neM3 > r.MaxNeM3:
-		w = append(w, fmt.Sprintf("n_e = %.2e m⁻³ is above the validity range of %s (%.0e–%.0e m⁻³); the density is an extrapolation.",
-			neM3, r.ID, r.MinNeM3, r.MaxNeM3))
+		w = append(w, fmt.Sprintf("n_e = %s m⁻³ is above the validity range of %s (%s–%s m⁻³); the density is an extrapolation.",
+			sci(neM3, 3), r.ID, sci(r.MinNeM3, 1), sci(r.MaxNeM3, 1)))
 	}
 	if tempK > 0 {
 		if r.MinTK > 0 && tempK < r.MinTK {

@@ -128,7 +128,7 @@ func TestStarkWarnings(t *testing.T) {
 		t.Errorf("in-range warnings = %q, want only the unverified note", in)
 	}
 	low := hb.Warnings(5e20, 0)
-	if len(low) != 2 || !strings.Contains(low[0], "below the validity range") || !strings.Contains(low[0], "1e+21–1e+24") {
+	if len(low) != 2 || !strings.Contains(low[0], "below the validity range") || !strings.Contains(low[0], "1 × 10²¹–1 × 10²⁴") {
 		t.Errorf("low-density warnings = %q", low)
 	}
 	high := hb.Warnings(3e24, 500)

@@ -142,10 +142,10 @@ func AssessLTE(c LTECheck) LTEAssessment {
 	a.CompleteLTE = ne >= a.McWhirterMinM3
 	if !a.CompleteLTE {
 		a.Warnings = append(a.Warnings, fmt.Sprintf(
-			"Complete LTE is not satisfied (n_e = %.2e m⁻³ < required %.2e m⁻³ by the McWhirter criterion at T_exc = %.0f K, ΔE = %.3f eV). "+
+			"Complete LTE is not satisfied (n_e = %s m⁻³ < required %s m⁻³ by the McWhirter criterion at T_exc = %.0f K, ΔE = %.3f eV). "+
 				"The Boltzmann slope is an excitation temperature of the Balmer upper levels, not T_e. "+
 				"It is valid only if those levels are in partial LTE.",
-			ne, a.McWhirterMinM3, T, gap))
+			sci(ne, 3), sci(a.McWhirterMinM3, 3), T, gap))
 	}
 	a.GriemMinM3 = make(map[int]float64, len(levels))
 	var worst float64
@@ -171,10 +171,10 @@ func AssessLTE(c LTECheck) LTEAssessment {
 		}
 		list := strings.Join(names, ", ")
 		a.Warnings = append(a.Warnings, fmt.Sprintf(
-			"Griem's partial-LTE criterion fails for n = %s (needs n_e ≥ %.2e m⁻³). "+
+			"Griem's partial-LTE criterion fails for n = %s (needs n_e ≥ %s m⁻³). "+
 				"%s n = %s may be depopulated or overpopulated relative to Saha–Boltzmann (ionising or recombining plasma). "+
 				"Consider excluding %s from the fit, or use a collisional–radiative model.",
-			list, worst, lv, list, it))
+			list, sci(worst, 3), lv, list, it))
 	}
 	if c.DensityFromSameSpectrum {
 		a.Warnings = append(a.Warnings,

@@ -242,6 +242,13 @@ func (s *Server) trendGroups(c echo.Context, p *trendPlan) ([]trendGroup, error)
 			if l, err := spc.IndividualsLimits(base); err == nil {
 				g.Limits = &l
 				g.Viol = spc.Check(ys, l, p.rules)
+				// Every plotted quantity is physically ≥ 0: a lower limit
+				// below zero is shown as 0 (the run rules used the
+				// computed limits).
+				if l.LCL < 0 {
+					l.LCL = 0
+					p.notes = append(p.notes, fmt.Sprintf("%s: the lower control limit falls below zero and is shown as 0; the baseline is too scattered (or too short) for a useful lower limit.", sl.label))
+				}
 			} else {
 				p.notes = append(p.notes, fmt.Sprintf("%s: the baseline holds %d run(s) with a value; control limits need at least 2.", sl.label, len(base)))
 			}
@@ -316,7 +323,7 @@ func (e xyErr) YError(i int) (float64, float64) { return e.unc[i], e.unc[i] }
 // trendSVG draws groups on one chart (with limits when there is exactly
 // one group with limits).
 func trendSVG(groups []trendGroup, styleFrom int, x, y store.TrendField, title, desc string) (string, error) {
-	p := plot.New()
+	p := newFigure()
 	p.X.Label.Text, p.Y.Label.Text = x.AxisLabel(), y.AxisLabel()
 	p.Add(plotter.NewGrid())
 	xmin, xmax := math.Inf(1), math.Inf(-1)
@@ -414,7 +421,13 @@ func trendSVG(groups []trendGroup, styleFrom int, x, y store.TrendField, title, 
 		}
 		p.X.Tick.Marker = plot.TimeTicks{Format: format, Time: func(t float64) time.Time { return time.Unix(int64(t), 0).UTC() }}
 	}
+	// The legend goes above the plotting area so it never hides points or
+	// limits, and the axes get a little room beyond the data.
 	p.Legend.Top, p.Legend.Left = true, true
+	p.Legend.YOffs = vg.Points(26)
+	p.Title.Padding = vg.Points(28)
+	padRange(&p.X.Min, &p.X.Max, 0.02)
+	padRange(&p.Y.Min, &p.Y.Max, 0.05)
 	svg, err := drawSVG(p.Draw, 8*vg.Inch, 4.2*vg.Inch)
 	if err != nil {
 		return "", err
@@ -628,4 +641,12 @@ func (s *Server) exportTrends(c echo.Context) error {
 	}
 	w.Flush()
 	return w.Error()
+}
+
+// padRange widens [lo, hi] by frac of its span on both sides.
+func padRange(lo, hi *float64, frac float64) {
+	if d := *hi - *lo; d > 0 {
+		*lo -= frac * d
+		*hi += frac * d
+	}
 }
