@@ -289,10 +289,15 @@ func (s *Server) runFormProps(c echo.Context, f runForm, edit bool, run *store.R
 
 // canChangeRun: only the run's operator or an admin changes a run.
 func canChangeRun(u *store.User, r store.Run) error {
-	if u != nil && (u.Role == store.RoleAdmin || u.ID == r.OperatorID) {
-		return nil
+	if u == nil || (u.Role != store.RoleAdmin && u.ID != r.OperatorID) {
+		return echo.NewHTTPError(http.StatusForbidden, "only the run's operator ("+r.OperatorName+") or an admin can change this run")
 	}
-	return echo.NewHTTPError(http.StatusForbidden, "only the run's operator ("+r.OperatorName+") or an admin can change this run")
+	// A signed-off run's conditions and files are what the reviewer
+	// approved; a reviewer returns it for rework before they change.
+	if r.Status == "signed_off" {
+		return &userError{http.StatusConflict, "this run is signed off: its conditions and files are locked; a reviewer can return it for rework first"}
+	}
+	return nil
 }
 
 // newRun is GET /runs/new.

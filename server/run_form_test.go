@@ -449,3 +449,29 @@ func TestUploadAttachment(t *testing.T) {
 }
 
 func idStr(id int64) string { return strconv.FormatInt(id, 10) }
+
+// TestSignedOffRunIsLocked: once signed off, a run's conditions and files
+// cannot change (409), even for its operator or an admin.
+func TestSignedOffRunIsLocked(t *testing.T) {
+	f := newRunsFixture(t)
+	_, owner := f.signIn("opal", store.RoleOperator)
+	_, admin := f.signIn("ada", store.RoleAdmin)
+	r := f.createTestRun(owner)
+	if _, err := f.db.SQL().Exec(`UPDATE runs SET status = 'signed_off' WHERE id = ?`, r.ID); err != nil {
+		t.Fatal(err)
+	}
+	path := "/runs/" + idStr(r.ID)
+	v := newRunValues()
+	v.Set("title", "changed after sign-off")
+	for _, sess := range []*http.Cookie{owner, admin} {
+		if rec := f.postForm(path, sess, v); rec.Code != http.StatusConflict || !strings.Contains(rec.Body.String(), "signed off") {
+			t.Errorf("update of a signed-off run: %d", rec.Code)
+		}
+		if rec := f.postMultipart(path+"/attachments", sess, url.Values{}, formFile{"spectra", "late.csv", hbetaSpectrum(t)}); rec.Code != http.StatusConflict {
+			t.Errorf("upload to a signed-off run: %d", rec.Code)
+		}
+	}
+	if got, _ := f.db.GetRun(context.Background(), r.ID); got.Title == "changed after sign-off" {
+		t.Error("the signed-off run was changed")
+	}
+}
