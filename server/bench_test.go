@@ -133,10 +133,18 @@ func fillBenchDB(ctx context.Context, db *store.DB, n int) error {
 // pageTimes requests each URL repeatedly through the handler and reports
 // p50 and p90 of the server time.
 func pageTimes(b *testing.B, s *Server, ck *http.Cookie, urls []string) {
+	pageTimesWith(b, s, ck, urls, nil)
+}
+
+// pageTimesWith is pageTimes calling before (untimed) ahead of each request.
+func pageTimesWith(b *testing.B, s *Server, ck *http.Cookie, urls []string, before func()) {
 	b.Helper()
 	var times []time.Duration
 	b.ResetTimer()
 	for i := 0; b.Loop(); i++ {
+		if before != nil {
+			before()
+		}
 		u := urls[i%len(urls)]
 		req := httptest.NewRequest(http.MethodGet, u, nil)
 		req.AddCookie(ck)
