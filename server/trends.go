@@ -278,7 +278,10 @@ var (
 
 // trendBuckets is the number of x buckets of the min/max decimation (about
 // one per horizontal pixel of the drawn chart).
-const trendBuckets = 700
+const trendBuckets = 500
+
+// maxErrorBarPoints is the most points a trend series draws error bars for.
+const maxErrorBarPoints = 300
 
 // decimateIdx returns the indices of ys to draw: all when there are at
 // most 2·buckets, otherwise the minimum and maximum of each of buckets
@@ -347,7 +350,10 @@ func trendSVG(groups []trendGroup, styleFrom int, x, y store.TrendField, title, 
 		if len(pts) > 0 {
 			xmin, xmax = math.Min(xmin, pts[0].X), math.Max(xmax, pts[len(pts)-1].X)
 		}
-		if len(eb.XYs) > 0 {
+		// Error bars on hundreds of points are an unreadable smear and most
+		// of the page's weight: they are drawn for sparse series only (the
+		// CSV keeps every σ).
+		if len(eb.XYs) > 0 && len(idx) <= maxErrorBarPoints {
 			bars, err := plotter.NewYErrorBars(eb)
 			if err != nil {
 				return "", err
