@@ -230,11 +230,22 @@ func (niceTicks) Ticks(lo, hi float64) []plot.Tick {
 			if math.Abs(v) < step*1e-9 {
 				v = 0
 			}
-			t.Label = strconv.FormatFloat(v, 'f', prec, 64)
+			t.Label = tickLabel(v, step, prec)
 		}
 		ticks = append(ticks, t)
 	}
 	return ticks
+}
+
+// tickLabel writes a tick value: plain for ordinary magnitudes, and as
+// "9.5 × 10²¹" (with as many figures as the tick step needs) for very
+// large or small ones.
+func tickLabel(v, step float64, prec int) string {
+	if v == 0 || (math.Abs(step) >= 1e-4 && math.Abs(v) < 1e6) {
+		return strconv.FormatFloat(v, 'f', prec, 64)
+	}
+	sig := int(math.Floor(math.Log10(math.Abs(v)))-math.Floor(math.Log10(step))) + 1
+	return views.SigFig(v, max(sig, 1))
 }
 
 func setLabelStyle(lb *plotter.Labels, c color.Color) {

@@ -427,13 +427,14 @@ func trendSVG(groups []trendGroup, styleFrom int, x, y store.TrendField, title, 
 		}
 		p.X.Tick.Marker = plot.TimeTicks{Format: format, Time: func(t float64) time.Time { return time.Unix(int64(t), 0).UTC() }}
 	}
-	// The legend goes above the plotting area so it never hides points or
-	// limits, and the axes get a little room beyond the data.
+	// The axes get room beyond the data, with a band at the top kept free
+	// for the legend so it never hides points or limits.
 	p.Legend.Top, p.Legend.Left = true, true
-	p.Legend.YOffs = vg.Points(26)
-	p.Title.Padding = vg.Points(28)
 	padRange(&p.X.Min, &p.X.Max, 0.02)
-	padRange(&p.Y.Min, &p.Y.Max, 0.05)
+	if d := p.Y.Max - p.Y.Min; d > 0 {
+		p.Y.Min -= 0.05 * d
+		p.Y.Max += 0.22 * d
+	}
 	svg, err := drawSVG(p.Draw, 8*vg.Inch, 4.2*vg.Inch)
 	if err != nil {
 		return "", err
@@ -550,8 +551,8 @@ func (s *Server) showTrends(c echo.Context) error {
 		}
 	}
 
-	// Violations table (at most 500 rows).
-	const maxRows = 500
+	// Violations table (at most 100 rows; the CSV lists them all).
+	const maxRows = 100
 	if len(ids) > maxRows {
 		ids = ids[:maxRows]
 	}

@@ -155,8 +155,9 @@ func summarize(rs []AnalysisResult) AnalysisResult {
 	out.TexcK, out.TexcUncK = mean(func(r AnalysisResult) (*float64, *float64) { return r.TexcK, r.TexcUncK })
 	out.NeM3, out.NeUncM3 = mean(func(r AnalysisResult) (*float64, *float64) { return r.NeM3, r.NeUncM3 })
 	out.TgasK, _ = mean(func(r AnalysisResult) (*float64, *float64) { return r.TgasK, nil })
+	// The run's warning count is that of its most-warned spectrum.
 	for _, r := range rs {
-		out.NWarnings += r.NWarnings
+		out.NWarnings = max(out.NWarnings, r.NWarnings)
 	}
 	return out
 }
