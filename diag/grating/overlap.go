@@ -30,13 +30,13 @@ func (e Emitter) IsBand() bool { return e.HighNM > e.LowNM }
 // the atomic wavelengths are from memory, and the band ranges are listed
 // there without a citation.
 var CommonUVEmitters = []Emitter{
-	{Name: "OH A–X (0,0) band", LowNM: 306, HighNM: 312, Provenance: "physics.md §8, band range without a primary source; unverified"},
-	{Name: "N₂ second positive (0,0) band head", LowNM: 337.13, HighNM: 337.13, Provenance: "physics.md §8, without a primary source; unverified"},
-	{Name: "Hg I", LowNM: 253.652, HighNM: 253.652, Provenance: "physics.md §8, from memory, unverified"},
-	{Name: "Hg I", LowNM: 313.155, HighNM: 313.155, Provenance: "physics.md §8, from memory, unverified"},
-	{Name: "Cu I", LowNM: 324.754, HighNM: 324.754, Provenance: "physics.md §8, from memory, unverified"},
-	{Name: "Cu I", LowNM: 327.396, HighNM: 327.396, Provenance: "physics.md §8, from memory, unverified"},
-	{Name: "Ag I", LowNM: 328.068, HighNM: 328.068, Provenance: "physics.md §8, from memory, unverified"},
+	{Name: "OH A–X (0,0) band", LowNM: 306, HighNM: 312, Provenance: "glowlog physics notes §8, band range without a primary source; unverified"},
+	{Name: "N₂ second positive (0,0) band head", LowNM: 337.13, HighNM: 337.13, Provenance: "glowlog physics notes §8, without a primary source; unverified"},
+	{Name: "Hg I", LowNM: 253.652, HighNM: 253.652, Provenance: "glowlog physics notes §8, from memory, unverified"},
+	{Name: "Hg I", LowNM: 313.155, HighNM: 313.155, Provenance: "glowlog physics notes §8, from memory, unverified"},
+	{Name: "Cu I", LowNM: 324.754, HighNM: 324.754, Provenance: "glowlog physics notes §8, from memory, unverified"},
+	{Name: "Cu I", LowNM: 327.396, HighNM: 327.396, Provenance: "glowlog physics notes §8, from memory, unverified"},
+	{Name: "Ag I", LowNM: 328.068, HighNM: 328.068, Provenance: "glowlog physics notes §8, from memory, unverified"},
 }
 
 // Target is a line that ghost images may disturb.
