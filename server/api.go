@@ -159,6 +159,15 @@ func pathID(c echo.Context, name string) (int64, error) {
 	return id, nil
 }
 
+// runFromPath loads the run named by the :id path parameter.
+func (s *Server) runFromPath(c echo.Context) (store.Run, error) {
+	id, err := pathID(c, "id")
+	if err != nil {
+		return store.Run{}, err
+	}
+	return s.DB.GetRun(c.Request().Context(), id)
+}
+
 // latestSettings returns the settings of a run's newest analysis version,
 // or the run's defaults when it has none.
 func (s *Server) latestSettings(c echo.Context, r store.Run) (AnalysisSettings, error) {

@@ -171,14 +171,11 @@ func uploadResultError(results []RunAnalysis, only map[int64]bool) error {
 // one transaction.
 func (s *Server) uploadAttachment(c echo.Context) error {
 	ctx := c.Request().Context()
-	id, err := pathID(c, "id")
+	r, err := s.runFromPath(c)
 	if err != nil {
 		return err
 	}
-	r, err := s.DB.GetRun(ctx, id)
-	if err != nil {
-		return err
-	}
+	id := r.ID
 	u := currentUser(c)
 	if err := canChangeRun(u, r); err != nil {
 		return err

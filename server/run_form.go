@@ -426,14 +426,11 @@ func (s *Server) editRun(c echo.Context) error {
 // they are (a reanalysis makes a new version).
 func (s *Server) updateRun(c echo.Context) error {
 	ctx := c.Request().Context()
-	id, err := pathID(c, "id")
+	r, err := s.runFromPath(c)
 	if err != nil {
 		return err
 	}
-	r, err := s.DB.GetRun(ctx, id)
-	if err != nil {
-		return err
-	}
+	id := r.ID
 	if err := canChangeRun(currentUser(c), r); err != nil {
 		return err
 	}

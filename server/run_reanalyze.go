@@ -222,14 +222,11 @@ func bindReanalyze(c echo.Context, base AnalysisSettings) (AnalysisSettings, str
 // the form's settings; earlier versions are kept.
 func (s *Server) reanalyzeRun(c echo.Context) error {
 	ctx := c.Request().Context()
-	id, err := pathID(c, "id")
+	r, err := s.runFromPath(c)
 	if err != nil {
 		return err
 	}
-	r, err := s.DB.GetRun(ctx, id)
-	if err != nil {
-		return err
-	}
+	id := r.ID
 	u := currentUser(c)
 	if err := canReanalyze(u, r); err != nil {
 		return err
