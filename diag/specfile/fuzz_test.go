@@ -19,6 +19,9 @@ func addFileSeeds(f *testing.F, patterns ...string) {
 			f.Fatal(err)
 		}
 		for _, file := range files {
+			if st, err := os.Stat(file); err == nil && st.IsDir() {
+				continue // testdata/fuzz holds the fuzzer's own corpus
+			}
 			b, err := os.ReadFile(file)
 			if err != nil {
 				f.Fatal(err)

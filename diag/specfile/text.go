@@ -263,14 +263,18 @@ func addCommentMeta(sp *Spectrum, text string) {
 	}
 }
 
-// isHeaderLine reports whether no field of s, split at any delimiter, is a
-// number (with either decimal separator).
+// isHeaderLine reports whether no field of s is a number: fields split at
+// , ; or tab when the line has any of them, else at spaces.
 func isHeaderLine(s string) bool {
-	for f := range strings.FieldsFuncSeq(s, func(r rune) bool {
-		return r == ',' || r == ';' || r == '\t' || r == ' '
-	}) {
-		f = unquote(f)
-		if _, _, ok := parseDecimal(f); ok {
+	// Split at the strong delimiters when the line has any, so that a
+	// header field with spaces and digits ("intensity (W m-2 nm-1)") stays
+	// one name; otherwise at white space.
+	sep := func(r rune) bool { return r == ',' || r == ';' || r == '\t' }
+	if !strings.ContainsAny(s, ",;\t") {
+		sep = func(r rune) bool { return r == ' ' }
+	}
+	for f := range strings.FieldsFuncSeq(s, sep) {
+		if _, _, ok := parseDecimal(unquote(strings.TrimSpace(f))); ok {
 			return false
 		}
 	}
