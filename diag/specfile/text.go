@@ -359,7 +359,7 @@ func splitHeader(s string, delim rune, ncols int) []string {
 	}
 	var glued []string
 	for _, f := range fs {
-		if len(glued) > 0 && (f[0] == '(' || f[0] == '[') {
+		if len(glued) > 0 && f != "" && (f[0] == '(' || f[0] == '[') {
 			glued[len(glued)-1] += " " + f
 		} else {
 			glued = append(glued, f)
