@@ -94,6 +94,9 @@ func (d *DB) AddAnalysisTx(ctx context.Context, tx *sql.Tx, runID int64, a NewAn
 			return 0, fmt.Errorf("store: add analysis result: %w", err)
 		}
 	}
+	if err := pruneRunChangesTx(ctx, tx); err != nil {
+		return 0, err
+	}
 	s := summarize(a.Results)
 	if _, err := tx.ExecContext(ctx, `UPDATE runs SET texc_k = ?, texc_unc_k = ?, ne_m3 = ?, ne_unc_m3 = ?, tgas_k = ?,
 		n_warnings = ?, analysis_version = ?, updated_at = ? WHERE id = ?`,

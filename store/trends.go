@@ -99,32 +99,122 @@ func (f RunFilter) Where() (string, []any) { return f.where() }
 // 100 000 runs takes a few tens of milliseconds. Unknown field keys are
 // ErrInvalid.
 //
-// Results are cached per filter and fields, and reused while the data
-// generation (Generation) is unchanged; callers must not modify them.
+// Results are cached per filter and fields. When runs change, a cached
+// series is brought up to date by re-reading only the runs changed since
+// (the run_changes log of migration 0004). Callers must not modify the
+// returned series.
 func (d *DB) TrendSeries(ctx context.Context, f RunFilter, xField, yField string) (TrendSeries, error) {
-	gen, err := d.Generation(ctx)
-	if err != nil {
+	// Two queries: SQLite answers a lone max() or min() of the primary key
+	// from the b-tree's end, but scans the table for both at once.
+	var cur, oldest int64
+	if err := d.db.QueryRowContext(ctx, `SELECT coalesce(max(seq), 0) FROM run_changes`).Scan(&cur); err != nil {
+		return TrendSeries{}, err
+	}
+	if err := d.db.QueryRowContext(ctx, `SELECT coalesce(min(seq), 0) FROM run_changes`).Scan(&oldest); err != nil {
 		return TrendSeries{}, err
 	}
 	key := fmt.Sprintf("%#v|%s|%s", f, xField, yField)
-	if ts, ok := d.trends.get(key, gen); ok {
+	e, ok := d.trends.get(key)
+	switch {
+	case ok && e.seq == cur:
+		return e.ts, nil
+	case ok && e.seq >= oldest-1 && cur-e.seq <= maxIncremental:
+		ts, missing, err := d.trendUpdate(ctx, f, xField, yField, e)
+		if err != nil {
+			return TrendSeries{}, err
+		}
+		d.trends.put(trendEntry{key, cur, ts, missing})
 		return ts, nil
 	}
-	ts, err := d.trendSeries(ctx, f, xField, yField)
-	if err == nil {
-		d.trends.put(key, gen, ts)
+	ts, missing, err := d.trendRead(ctx, f, xField, yField, "", nil)
+	if err != nil {
+		return ts, err
 	}
-	return ts, err
+	sortTrend(ts.Points)
+	d.trends.put(trendEntry{key, cur, ts, missing})
+	return ts, nil
 }
 
-func (d *DB) trendSeries(ctx context.Context, f RunFilter, xField, yField string) (TrendSeries, error) {
+// maxIncremental is the most logged changes a cached series is updated
+// over; beyond it the series is read afresh.
+const maxIncremental = 20000
+
+// trendUpdate brings a cached series up to date: the points and missing
+// runs of every run changed since e.seq are dropped, and those runs are
+// read again under the filter.
+func (d *DB) trendUpdate(ctx context.Context, f RunFilter, xField, yField string, e trendEntry) (TrendSeries, map[int64]bool, error) {
+	rows, err := d.db.QueryContext(ctx, `SELECT DISTINCT run_id FROM run_changes WHERE seq > ?`, e.seq)
+	if err != nil {
+		return TrendSeries{}, nil, err
+	}
+	changed := map[int64]bool{}
+	for rows.Next() {
+		var id int64
+		if err := rows.Scan(&id); err != nil {
+			rows.Close()
+			return TrendSeries{}, nil, err
+		}
+		changed[id] = true
+	}
+	rows.Close()
+	if err := rows.Err(); err != nil {
+		return TrendSeries{}, nil, err
+	}
+	fresh, freshMissing, err := d.trendRead(ctx, f, xField, yField,
+		"r.id IN (SELECT run_id FROM run_changes WHERE seq > ?)", []any{e.seq})
+	if err != nil {
+		return TrendSeries{}, nil, err
+	}
+	ts := TrendSeries{X: e.ts.X, Y: e.ts.Y}
+	ts.Points = make([]TrendPoint, 0, len(e.ts.Points)+len(fresh.Points))
+	for _, p := range e.ts.Points {
+		if !changed[p.RunID] {
+			ts.Points = append(ts.Points, p)
+		}
+	}
+	ts.Points = append(ts.Points, fresh.Points...)
+	sortTrend(ts.Points)
+	missing := make(map[int64]bool, len(e.missing)+len(freshMissing))
+	for id := range e.missing {
+		if !changed[id] {
+			missing[id] = true
+		}
+	}
+	for id := range freshMissing {
+		missing[id] = true
+	}
+	ts.Missing = len(missing)
+	return ts, missing, nil
+}
+
+func sortTrend(pts []TrendPoint) {
+	slices.SortFunc(pts, func(a, b TrendPoint) int {
+		if c := cmp.Compare(a.X, b.X); c != 0 {
+			return c
+		}
+		return cmp.Compare(a.RunID, b.RunID)
+	})
+}
+
+// pruneRunChanges keeps the change log short: entries older than any
+// cached series could still need are dropped (a series older than the log
+// is simply read afresh).
+func pruneRunChangesTx(ctx context.Context, tx *sql.Tx) error {
+	_, err := tx.ExecContext(ctx, `DELETE FROM run_changes WHERE seq < (SELECT max(seq) FROM run_changes) - ?`, 2*maxIncremental)
+	return err
+}
+
+// trendRead reads the series (unsorted) of the runs matching f and the
+// extra condition cond (with its arguments), and the ids of matching runs
+// without an x or y value.
+func (d *DB) trendRead(ctx context.Context, f RunFilter, xField, yField, cond string, condArgs []any) (TrendSeries, map[int64]bool, error) {
 	xf, ok := LookupTrendField(xField)
 	if !ok {
-		return TrendSeries{}, fmt.Errorf("%w: unknown x field %q (known: %s)", ErrInvalid, xField, trendKeys())
+		return TrendSeries{}, nil, fmt.Errorf("%w: unknown x field %q (known: %s)", ErrInvalid, xField, trendKeys())
 	}
 	yf, ok := LookupTrendField(yField)
 	if !ok {
-		return TrendSeries{}, fmt.Errorf("%w: unknown y field %q (known: %s)", ErrInvalid, yField, trendKeys())
+		return TrendSeries{}, nil, fmt.Errorf("%w: unknown y field %q (known: %s)", ErrInvalid, yField, trendKeys())
 	}
 	ts := TrendSeries{X: xf, Y: yf}
 	unc := "NULL"
@@ -132,21 +222,30 @@ func (d *DB) trendSeries(ctx context.Context, f RunFilter, xField, yField string
 		unc = yf.uncCol
 	}
 	where, args := f.where()
+	if cond != "" {
+		if where == "" {
+			where = " WHERE " + cond
+		} else {
+			where += " AND " + cond
+		}
+		args = append(args, condArgs...)
+	}
 	rows, err := d.db.QueryContext(ctx, `SELECT r.id, r.started_at, `+xf.col+`, `+yf.col+`, `+unc+
 		` FROM runs r`+where, args...)
 	if err != nil {
-		return ts, fmt.Errorf("store: trend series: %w", err)
+		return ts, nil, fmt.Errorf("store: trend series: %w", err)
 	}
 	defer rows.Close()
+	missing := map[int64]bool{}
 	for rows.Next() {
 		var p TrendPoint
 		var started int64
 		var x, y, u sql.NullFloat64
 		if err := rows.Scan(&p.RunID, &started, &x, &y, &u); err != nil {
-			return ts, err
+			return ts, nil, err
 		}
 		if !x.Valid || !y.Valid {
-			ts.Missing++
+			missing[p.RunID] = true
 			continue
 		}
 		p.StartedAt, p.X, p.Y = time.Unix(started, 0).UTC(), x.Float64, y.Float64
@@ -156,17 +255,10 @@ func (d *DB) trendSeries(ctx context.Context, f RunFilter, xField, yField string
 		ts.Points = append(ts.Points, p)
 	}
 	if err := rows.Err(); err != nil {
-		return ts, err
+		return ts, nil, err
 	}
-	// Sorted here rather than by SQL: a sequential scan of the table and
-	// a sort in memory beat an index walk with one table lookup per row.
-	slices.SortFunc(ts.Points, func(a, b TrendPoint) int {
-		if c := cmp.Compare(a.X, b.X); c != 0 {
-			return c
-		}
-		return cmp.Compare(a.RunID, b.RunID)
-	})
-	return ts, nil
+	ts.Missing = len(missing)
+	return ts, missing, nil
 }
 
 func trendKeys() string {
@@ -229,43 +321,52 @@ func (d *DB) RunIDs(ctx context.Context, f RunFilter) ([]int64, error) {
 }
 
 // trendCache keeps the last few trend series (each at most a few MB for
-// 100 000 runs) with the data generation they were read at.
+// 100 000 runs) with the change-log position they are current at.
 type trendCache struct {
 	mu      sync.Mutex
 	entries []trendEntry // most recent last
 }
 
 type trendEntry struct {
-	key string
-	gen int64
-	ts  TrendSeries
+	key     string
+	seq     int64
+	ts      TrendSeries
+	missing map[int64]bool
 }
 
 const trendCacheSize = 8
 
-func (c *trendCache) get(key string, gen int64) (TrendSeries, bool) {
+func (c *trendCache) get(key string) (trendEntry, bool) {
 	c.mu.Lock()
 	defer c.mu.Unlock()
 	for i, e := range c.entries {
-		if e.key == key && e.gen == gen {
+		if e.key == key {
 			c.entries = append(append(c.entries[:i:i], c.entries[i+1:]...), e)
-			return e.ts, true
+			return e, true
 		}
 	}
-	return TrendSeries{}, false
+	return trendEntry{}, false
 }
 
-func (c *trendCache) put(key string, gen int64, ts TrendSeries) {
+func (c *trendCache) put(e trendEntry) {
 	c.mu.Lock()
 	defer c.mu.Unlock()
 	kept := c.entries[:0]
-	for _, e := range c.entries {
-		if e.key != key && e.gen == gen {
-			kept = append(kept, e)
+	for _, o := range c.entries {
+		if o.key != e.key {
+			kept = append(kept, o)
 		}
 	}
-	c.entries = append(kept, trendEntry{key, gen, ts})
+	c.entries = append(kept, e)
 	if len(c.entries) > trendCacheSize {
 		c.entries = c.entries[len(c.entries)-trendCacheSize:]
 	}
+}
+
+// DropTrendCache forgets every cached trend series (for benchmarks of the
+// first view).
+func (d *DB) DropTrendCache() {
+	d.trends.mu.Lock()
+	d.trends.entries = nil
+	d.trends.mu.Unlock()
 }
