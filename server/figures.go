@@ -47,7 +47,9 @@ const maxPlotPoints = 2000
 // against its upper-level energy with ±1σ error bars, excluded lines
 // hollow and labelled, the weighted fit and the excitation temperature.
 func BoltzmannSVG(r *diag.Result) ([]byte, error) {
-	if r == nil || len(r.Boltzmann.Points) == 0 {
+	// One level is no plot: the warnings already say that at least two
+	// are needed.
+	if r == nil || len(r.Boltzmann.Points) < 2 {
 		return nil, errNoFigure
 	}
 	bz := r.Boltzmann

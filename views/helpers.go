@@ -64,14 +64,17 @@ func ValueUnc(v, unc *float64) string {
 	return "(" + plainPM(*v/scale, u/scale) + ") × 10" + superscript(e)
 }
 
+// minus writes a typographic minus sign for display.
+func minus(s string) string { return strings.ReplaceAll(s, "-", "−") }
+
 // plainPM prints v ± u with u at two significant figures.
 func plainPM(v, u float64) string {
 	d := 1 - int(math.Floor(math.Log10(u)))
 	if d >= 0 {
-		return fmt.Sprintf("%.*f ± %.*f", d, v, d, u)
+		return minus(fmt.Sprintf("%.*f", d, v)) + fmt.Sprintf(" ± %.*f", d, u)
 	}
 	q := math.Pow(10, float64(-d))
-	return fmt.Sprintf("%.0f ± %.0f", math.Round(v/q)*q, math.Round(u/q)*q)
+	return minus(fmt.Sprintf("%.0f", math.Round(v/q)*q)) + fmt.Sprintf(" ± %.0f", math.Round(u/q)*q)
 }
 
 func superscript(e int) string {
