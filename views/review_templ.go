@@ -518,7 +518,7 @@ func reviewQueueBody(p ReviewQueueProps) templ.Component {
 				return templ_7745c5c3_Err
 			}
 		} else {
-			templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 44, "<table class=\"data\" data-testid=\"queue\"><thead><tr><th scope=\"col\">Run</th><th scope=\"col\">Operator</th><th scope=\"col\">Chamber / recipe</th><th scope=\"col\">Start (UTC)</th><th scope=\"col\">Submitted</th><th scope=\"col\" class=\"num\">T_exc ± σ</th><th scope=\"col\" class=\"num\">n_e ± σ</th><th scope=\"col\" class=\"num\">Warnings</th></tr></thead> <tbody>")
+			templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 44, "<table class=\"data\" data-testid=\"queue\"><thead><tr><th scope=\"col\">Run</th><th scope=\"col\">Operator</th><th scope=\"col\">Chamber / recipe</th><th scope=\"col\">Start (UTC)</th><th scope=\"col\">Submitted</th><th scope=\"col\" class=\"num\">T<sub>exc</sub> ± σ</th><th scope=\"col\" class=\"num\">n<sub>e</sub> ± σ</th><th scope=\"col\" class=\"num\">Warnings</th></tr></thead> <tbody>")
 			if templ_7745c5c3_Err != nil {
 				return templ_7745c5c3_Err
 			}
@@ -686,7 +686,7 @@ func reviewQueueBody(p ReviewQueueProps) templ.Component {
 				return templ_7745c5c3_Err
 			}
 		} else {
-			templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 60, "<table class=\"data\" data-testid=\"recent\"><thead><tr><th scope=\"col\">Run</th><th scope=\"col\">Operator</th><th scope=\"col\">Signed off</th><th scope=\"col\">By</th><th scope=\"col\" class=\"num\">T_exc ± σ</th><th scope=\"col\" class=\"num\">Warnings</th></tr></thead> <tbody>")
+			templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 60, "<table class=\"data\" data-testid=\"recent\"><thead><tr><th scope=\"col\">Run</th><th scope=\"col\">Operator</th><th scope=\"col\">Signed off</th><th scope=\"col\">By</th><th scope=\"col\" class=\"num\">T<sub>exc</sub> ± σ</th><th scope=\"col\" class=\"num\">Warnings</th></tr></thead> <tbody>")
 			if templ_7745c5c3_Err != nil {
 				return templ_7745c5c3_Err
 			}

@@ -855,7 +855,7 @@ func runListBody(p RunListProps) templ.Component {
 					return templ_7745c5c3_Err
 				}
 			}
-			templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 73, "</tbody></table><p class=\"muted\">Times are UTC. T_exc is the excitation temperature from the Boltzmann plot (K); n_e is the electron density from Stark broadening (m⁻³); both ± 1σ, combined over the run's spectra.</p>")
+			templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 73, "</tbody></table><p class=\"muted\">Times are UTC. T<sub>exc</sub> is the excitation temperature from the Boltzmann plot (K); n<sub>e</sub> is the electron density from Stark broadening (m⁻³); both ± 1σ, combined over the run's spectra.</p>")
 			if templ_7745c5c3_Err != nil {
 				return templ_7745c5c3_Err
 			}

@@ -735,7 +735,7 @@ func seriesBlock(rows []SeriesRow) templ.Component {
 		}
 		ctx = templ.InitializeContext(ctx)
 		ctx = templ.ClearChildren(ctx)
-		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 46, "<table class=\"data\" data-testid=\"series\"><caption class=\"muted\">Spectra of this run (choose one for its details)</caption> <thead><tr><th>#</th><th>Spectrum</th><th class=\"num\">T_exc ± σ (K)</th><th class=\"num\">n_e ± σ (m⁻³)</th><th class=\"num\">Warnings</th></tr></thead> <tbody>")
+		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 46, "<table class=\"data\" data-testid=\"series\"><caption class=\"muted\">Spectra of this run (choose one for its details)</caption> <thead><tr><th>#</th><th>Spectrum</th><th class=\"num\">T<sub>exc</sub> ± σ (K)</th><th class=\"num\">n<sub>e</sub> ± σ (m⁻³)</th><th class=\"num\">Warnings</th></tr></thead> <tbody>")
 		if templ_7745c5c3_Err != nil {
 			return templ_7745c5c3_Err
 		}
@@ -1136,7 +1136,7 @@ func bigValues(d *diag.Result) templ.Component {
 		}
 		ctx = templ.InitializeContext(ctx)
 		ctx = templ.ClearChildren(ctx)
-		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 85, "<div class=\"result-grid\" data-testid=\"big-values\"><div><div class=\"label\">Excitation temperature <span class=\"sym\">T_exc</span></div><div class=\"value\" data-testid=\"texc\">")
+		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 85, "<div class=\"result-grid\" data-testid=\"big-values\"><div><div class=\"label\">Excitation temperature <span class=\"sym\">T<sub>exc</sub></span></div><div class=\"value\" data-testid=\"texc\">")
 		if templ_7745c5c3_Err != nil {
 			return templ_7745c5c3_Err
 		}
@@ -1186,7 +1186,7 @@ func bigValues(d *diag.Result) templ.Component {
 		if templ_7745c5c3_Err != nil {
 			return templ_7745c5c3_Err
 		}
-		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 90, "</div></div><div><div class=\"label\">Electron density <span class=\"sym\">n_e</span> (SI)</div><div class=\"value\" data-testid=\"ne-m3\">")
+		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 90, "</div></div><div><div class=\"label\">Electron density <span class=\"sym\">n<sub>e</sub></span> (SI)</div><div class=\"value\" data-testid=\"ne-m3\">")
 		if templ_7745c5c3_Err != nil {
 			return templ_7745c5c3_Err
 		}
@@ -1233,7 +1233,7 @@ func bigValues(d *diag.Result) templ.Component {
 				return templ_7745c5c3_Err
 			}
 		}
-		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 96, "</div><div><div class=\"label\">Electron density <span class=\"sym\">n_e</span> (cgs)</div><div class=\"value\" data-testid=\"ne-cm3\">")
+		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 96, "</div><div><div class=\"label\">Electron density <span class=\"sym\">n<sub>e</sub></span> (cgs)</div><div class=\"value\" data-testid=\"ne-cm3\">")
 		if templ_7745c5c3_Err != nil {
 			return templ_7745c5c3_Err
 		}
@@ -1496,7 +1496,7 @@ func linesTable(r ResultView) templ.Component {
 				return templ_7745c5c3_Err
 			}
 		}
-		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 122, "<th class=\"num\">Gaussian FWHM (nm)</th><th class=\"num\">Lorentzian FWHM (nm)</th><th class=\"num\">Total FWHM (nm)</th><th class=\"num\">FWHA (nm)</th><th class=\"num\">Stark FWHM ± σ (nm)</th><th>Stark relation</th><th class=\"num\">n_e ± σ (m⁻³)</th><th class=\"num\">Peak SNR</th><th>In Boltzmann fit</th></tr></thead> <tbody>")
+		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 122, "<th class=\"num\">Gaussian FWHM (nm)</th><th class=\"num\">Lorentzian FWHM (nm)</th><th class=\"num\">Total FWHM (nm)</th><th class=\"num\">FWHA (nm)</th><th class=\"num\">Stark FWHM ± σ (nm)</th><th>Stark relation</th><th class=\"num\">n<sub>e</sub> ± σ (m⁻³)</th><th class=\"num\">Peak SNR</th><th>In Boltzmann fit</th></tr></thead> <tbody>")
 		if templ_7745c5c3_Err != nil {
 			return templ_7745c5c3_Err
 		}
@@ -2457,14 +2457,14 @@ func provenanceBlock(v VersionInfo, r *ResultView) templ.Component {
 				if templ_7745c5c3_Err != nil {
 					return templ_7745c5c3_Err
 				}
-				templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 211, "; valid for n_e ")
+				templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 211, "; valid for n<sub>e</sub> ")
 				if templ_7745c5c3_Err != nil {
 					return templ_7745c5c3_Err
 				}
 				var templ_7745c5c3_Var119 string
 				templ_7745c5c3_Var119, templ_7745c5c3_Err = templ.JoinStringErrs(densityRange(rel))
 				if templ_7745c5c3_Err != nil {
-					return templ.Error{Err: templ_7745c5c3_Err, FileName: `views/run_show.templ`, Line: 595, Col: 119}
+					return templ.Error{Err: templ_7745c5c3_Err, FileName: `views/run_show.templ`, Line: 595, Col: 129}
 				}
 				_, templ_7745c5c3_Err = templ_7745c5c3_Buffer.WriteString(templ.EscapeString(templ_7745c5c3_Var119))
 				if templ_7745c5c3_Err != nil {
@@ -2564,7 +2564,7 @@ func versionsBlock(rows []VersionRow) templ.Component {
 		}
 		ctx = templ.InitializeContext(ctx)
 		ctx = templ.ClearChildren(ctx)
-		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 222, "<section class=\"card\" data-testid=\"versions\"><h2>Analysis versions</h2><table class=\"data\"><thead><tr><th>Version</th><th>Date (UTC)</th><th>By</th><th>Reason</th><th class=\"num\">T_exc ± σ (K)</th><th class=\"num\">n_e ± σ (m⁻³)</th></tr></thead> <tbody>")
+		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 222, "<section class=\"card\" data-testid=\"versions\"><h2>Analysis versions</h2><table class=\"data\"><thead><tr><th>Version</th><th>Date (UTC)</th><th>By</th><th>Reason</th><th class=\"num\">T<sub>exc</sub> ± σ (K)</th><th class=\"num\">n<sub>e</sub> ± σ (m⁻³)</th></tr></thead> <tbody>")
 		if templ_7745c5c3_Err != nil {
 			return templ_7745c5c3_Err
 		}
