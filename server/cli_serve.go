@@ -70,6 +70,14 @@ func serve(ctx context.Context, addr, dbPath string, demo, secure bool, log *slo
 	if err := s.bootstrap(ctx, demo, stdout); err != nil {
 		return err
 	}
+	// Read the default trend (all runs, T_exc against time) once in the
+	// background, so that the first visitor of the Trends page gets it
+	// from the cache.
+	go func() {
+		if _, err := db.TrendSeries(ctx, store.RunFilter{}, "started_at", "texc_k"); err != nil && ctx.Err() == nil {
+			log.Warn("warming the trend cache", "err", err)
+		}
+	}()
 	ln, err := net.Listen("tcp", addr)
 	if err != nil {
 		return err
