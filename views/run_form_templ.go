@@ -553,7 +553,7 @@ func dataInputs(responseUnit, lineTable string, maxMB int) templ.Component {
 				return templ_7745c5c3_Err
 			}
 		}
-		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 48, ">energy (∝ W)</option></select></label> <label class=\"wide\">Typed line table (measurement-set JSON, as for <code>glowlog analyze</code>) <textarea name=\"line_table\" rows=\"6\" spellcheck=\"false\" placeholder='{\"intensity_unit\": \"photon\", \"lines\": [{\"upper_level\": 3, \"intensity\": 1000, \"fwhm_nm\": 0.12}]}' data-testid=\"f-line-table\">")
+		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 48, ">energy (∝ W)</option></select></label> <label class=\"wide\"><span>Typed line table (measurement-set JSON, as for <code>glowlog analyze</code>)</span> <textarea name=\"line_table\" rows=\"6\" spellcheck=\"false\" placeholder='{\"intensity_unit\": \"photon\", \"lines\": [{\"upper_level\": 3, \"intensity\": 1000, \"fwhm_nm\": 0.12}]}' data-testid=\"f-line-table\">")
 		if templ_7745c5c3_Err != nil {
 			return templ_7745c5c3_Err
 		}
