@@ -7,7 +7,6 @@ import (
 	"net/http"
 	"net/http/httptest"
 	"net/url"
-	"path/filepath"
 	"regexp"
 	"strconv"
 	"strings"
@@ -62,11 +61,7 @@ func (h *htmlClient) req(method, path string, form url.Values) (int, string) {
 func newAccountServer(t *testing.T) (*Server, store.User) {
 	t.Helper()
 	ctx := context.Background()
-	db, err := store.Open(ctx, filepath.Join(t.TempDir(), "t.db"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { db.Close() })
+	db := testDB(t)
 	hash, _ := HashPassword("old-password-1")
 	u, err := db.CreateUser(ctx, "root", store.RoleAdmin, hash)
 	if err != nil {

@@ -3,7 +3,6 @@ package server
 import (
 	"context"
 	"os"
-	"path/filepath"
 	"testing"
 	"time"
 
@@ -16,11 +15,7 @@ import (
 // next version analyse everything again.
 func TestAppendReusesResults(t *testing.T) {
 	ctx := context.Background()
-	db, err := store.Open(ctx, filepath.Join(t.TempDir(), "t.db"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer db.Close()
+	db := testDB(t)
 	s := New(db, Options{})
 	u, err := db.CreateUser(ctx, "ines", store.RoleOperator, "x")
 	if err != nil {

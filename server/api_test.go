@@ -11,7 +11,6 @@ import (
 	"net/http"
 	"net/http/httptest"
 	"os"
-	"path/filepath"
 	"strconv"
 	"strings"
 	"testing"
@@ -32,11 +31,7 @@ type apiFixture struct {
 func newAPIFixture(t *testing.T) *apiFixture {
 	t.Helper()
 	ctx := context.Background()
-	db, err := store.Open(ctx, filepath.Join(t.TempDir(), "t.db"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { db.Close() })
+	db := testDB(t)
 	s := New(db, Options{Log: slog.New(slog.NewTextHandler(io.Discard, nil))})
 	u, err := db.CreateUser(ctx, "ada", store.RoleOperator, "x")
 	if err != nil {

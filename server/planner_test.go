@@ -4,7 +4,6 @@ import (
 	"context"
 	"net/http"
 	"net/http/httptest"
-	"path/filepath"
 	"strings"
 	"testing"
 	"time"
@@ -18,11 +17,7 @@ import (
 func plannerServer(t *testing.T) (*Server, *http.Cookie) {
 	t.Helper()
 	ctx := context.Background()
-	db, err := store.Open(ctx, filepath.Join(t.TempDir(), "t.db"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { db.Close() })
+	db := testDB(t)
 	u, err := db.CreateUser(ctx, "ada-viewer", store.RoleViewer, "$argon2id$v=19$m=19456,t=2,p=1$x$y")
 	if err != nil {
 		t.Fatal(err)

@@ -7,7 +7,6 @@ import (
 	"net/http"
 	"net/url"
 	"os"
-	"path/filepath"
 	"strings"
 	"testing"
 	"time"
@@ -24,11 +23,7 @@ type reviewFixture struct {
 func newReviewFixture(t *testing.T) *reviewFixture {
 	t.Helper()
 	ctx := context.Background()
-	db, err := store.Open(ctx, filepath.Join(t.TempDir(), "t.db"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { db.Close() })
+	db := testDB(t)
 	f := &reviewFixture{s: New(db, Options{Log: slog.New(slog.NewTextHandler(io.Discard, nil))})}
 	for _, u := range []struct {
 		p    *store.User
@@ -36,6 +31,7 @@ func newReviewFixture(t *testing.T) *reviewFixture {
 		role store.Role
 	}{{&f.op, "ada.quill", store.RoleOperator}, {&f.rev, "bea.marsh", store.RoleReviewer},
 		{&f.rev2, "cy.holt", store.RoleReviewer}, {&f.vie, "dee.fenn", store.RoleViewer}} {
+		var err error
 		if *u.p, err = db.CreateUser(ctx, u.name, u.role, "x"); err != nil {
 			t.Fatal(err)
 		}

@@ -12,7 +12,6 @@ import (
 	"net/http/httptest"
 	"net/url"
 	"os"
-	"path/filepath"
 	"regexp"
 	"strconv"
 	"strings"
@@ -33,11 +32,7 @@ type runsFixture struct {
 
 func newRunsFixture(t *testing.T) *runsFixture {
 	t.Helper()
-	db, err := store.Open(context.Background(), filepath.Join(t.TempDir(), "t.db"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { db.Close() })
+	db := testDB(t)
 	f := &runsFixture{t: t, db: db, s: New(db, Options{Log: slog.New(slog.NewTextHandler(io.Discard, nil))})}
 	rec := f.do(httptest.NewRequest(http.MethodGet, "/login", nil), nil)
 	for _, ck := range rec.Result().Cookies() {

@@ -8,7 +8,6 @@ import (
 	"net/http"
 	"net/http/httptest"
 	"os"
-	"path/filepath"
 	"regexp"
 	"strconv"
 	"strings"
@@ -30,11 +29,7 @@ type showFixture struct {
 func newShowFixture(t *testing.T) *showFixture {
 	t.Helper()
 	ctx := context.Background()
-	db, err := store.Open(ctx, filepath.Join(t.TempDir(), "t.db"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { db.Close() })
+	db := testDB(t)
 	s := New(db, Options{})
 	u, err := db.CreateUser(ctx, "ada.quill", store.RoleOperator, "not-a-hash")
 	if err != nil {
