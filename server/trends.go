@@ -358,7 +358,10 @@ func trendSVG(groups []trendGroup, styleFrom int, x, y store.TrendField, title, 
 			if err != nil {
 				return "", err
 			}
-			bars.LineStyle.Color = color.RGBA{R: st.Colour.R, G: st.Colour.G, B: st.Colour.B, A: 0x80}
+			// Half-transparent: NRGBA, because color.RGBA is alpha-premultiplied
+			// and a straight colour under A = 0x80 overflows to 7 hex digits,
+			// which browsers reject (every bar vanished).
+			bars.LineStyle.Color = color.NRGBA{R: st.Colour.R, G: st.Colour.G, B: st.Colour.B, A: 0x80}
 			bars.LineStyle.Width = vg.Points(0.6)
 			p.Add(bars)
 		}

@@ -3,6 +3,7 @@ package server
 import (
 	"context"
 	"net/http"
+	"regexp"
 	"strings"
 	"testing"
 	"time"
@@ -111,5 +112,38 @@ func TestDecimateIdx(t *testing.T) {
 	}
 	if !found {
 		t.Error("the outlier did not survive decimation")
+	}
+}
+
+// TestTrendSVGColours: every colour the trend chart writes is a valid
+// 3- or 6-digit hex colour, and error bars are present for a sparse series
+// with σ (a colour with 7 hex digits made browsers drop every bar).
+func TestTrendSVGColours(t *testing.T) {
+	x, _ := store.LookupTrendField("started_at")
+	y, _ := store.LookupTrendField("texc_k")
+	var pts []store.TrendPoint
+	for i := range 12 {
+		pts = append(pts, store.TrendPoint{RunID: int64(i + 1), X: float64(1.78e9 + 3600*i), Y: 3000 + 10*float64(i%3), YUnc: 40})
+	}
+	groups := []trendGroup{{Label: "A", Series: store.TrendSeries{X: x, Y: y, Points: pts}},
+		{Label: "B", Series: store.TrendSeries{X: x, Y: y, Points: pts}}}
+	svg, err := trendSVG(groups, 0, x, y, "t", "d")
+	if err != nil {
+		t.Fatal(err)
+	}
+	hexes := regexp.MustCompile(`#[0-9A-Fa-f]+\b`).FindAllString(svg, -1)
+	if len(hexes) == 0 {
+		t.Fatal("no colours in the SVG")
+	}
+	for _, h := range hexes {
+		if n := len(h) - 1; n != 3 && n != 6 {
+			t.Errorf("invalid colour %q in the trend SVG", h)
+		}
+	}
+	// Both series' bar colours (half-transparent) are in the SVG.
+	for _, c := range []string{"#1F5F99", "#C8620B"} {
+		if !strings.Contains(strings.ToUpper(svg), c) {
+			t.Errorf("colour %s missing from the SVG", c)
+		}
 	}
 }
