@@ -636,7 +636,11 @@ func (s *Server) exportTrends(c echo.Context) error {
 			if pt.YUnc > 0 {
 				unc = num(pt.YUnc)
 			}
-			rec := []string{strconv.FormatInt(pt.RunID, 10), pt.StartedAt.Format(time.RFC3339), csvText(g.Label), num(pt.X), num(pt.Y), unc}
+			x := num(pt.X)
+			if p.x.Time { // Unix seconds on the axis, RFC 3339 in files
+				x = time.Unix(int64(pt.X), 0).UTC().Format(time.RFC3339)
+			}
+			rec := []string{strconv.FormatInt(pt.RunID, 10), pt.StartedAt.UTC().Format(time.RFC3339), csvText(g.Label), x, num(pt.Y), unc}
 			if p.control {
 				if g.Limits != nil {
 					rec = append(rec, num(g.Limits.Center), num(g.Limits.LCL), num(g.Limits.UCL), strings.Join(byIdx[i], "; "))

@@ -78,6 +78,9 @@ func TestTrendsPage(t *testing.T) {
 		!strings.HasSuffix(lines[21], "1 point beyond 3σ") {
 		t.Errorf("CSV: %d, %d lines: %s … %s", code, len(lines), lines[0], lines[len(lines)-1])
 	}
+	if f := strings.Split(lines[1], ","); len(f) < 4 || f[3] != "2026-06-01T08:00:00Z" || f[1] != f[3] {
+		t.Errorf("CSV times are not RFC 3339: %s", lines[1])
+	}
 	code, body = v.req(http.MethodGet, "/trends.csv?y=pressure_pa&x=texc_k&chamber="+itoa64(chA), nil)
 	if code != http.StatusOK || !strings.Contains(body, "texc_k,pressure_pa") {
 		t.Errorf("CSV condition vs result: %d %.200s", code, body)
