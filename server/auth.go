@@ -161,14 +161,21 @@ func (s *Server) showLogin(c echo.Context) error {
 func (s *Server) login(c echo.Context) error {
 	name, pw, next := c.FormValue("name"), c.FormValue("password"), safeNext(c.FormValue("next"))
 	ctx := c.Request().Context()
-	if wait := s.backoff.locked(name); wait > 0 {
+	if wait := s.backoff.begin(name); wait > 0 {
 		p := s.layout(c, "Sign in", "")
 		p.Error = fmt.Sprintf("too many failed sign-ins for this user name: try again in %d s", int(wait.Seconds())+1)
 		c.Response().Header().Set("Retry-After", fmt.Sprint(int(wait.Seconds())+1))
 		return render(c, http.StatusTooManyRequests, views.Login(views.LoginProps{Layout: p, Name: name, Next: next}))
 	}
+	ok, checked := false, false
+	defer func() {
+		if checked {
+			s.backoff.end(name, ok)
+		} else {
+			s.backoff.release(name) // a database error is not a failed guess
+		}
+	}()
 	u, err := s.DB.UserByName(ctx, name)
-	ok := false
 	switch {
 	case err == nil && !u.Disabled:
 		ok = CheckPassword(u.PasswordHash, pw)
@@ -177,13 +184,12 @@ func (s *Server) login(c echo.Context) error {
 	default:
 		return err
 	}
+	checked = true
 	if !ok {
-		s.backoff.fail(name)
 		p := s.layout(c, "Sign in", "")
 		p.Error = "user name or password is wrong"
 		return render(c, http.StatusUnauthorized, views.Login(views.LoginProps{Layout: p, Name: name, Next: next}))
 	}
-	s.backoff.succeed(name)
 	tok, h := NewToken()
 	if err := s.DB.CreateSession(ctx, h, u.ID, s.SessionTTL); err != nil {
 		return err

@@ -80,9 +80,11 @@ func (s *Server) secureRequest(c echo.Context) bool {
 // ---- Per-account sign-in backoff ----
 
 // accountBackoff slows down password guessing against one account name
-// from any number of addresses: after backoffFree failures for a name,
-// each further failure locks the name for a window that doubles (30 s,
-// 1 min, 2 min … at most 15 min). It keys on the name as typed
+// from any number of addresses: the backoffFree-th failure in a row for a
+// name locks it for backoffBase, and each further failure doubles the
+// window (30 s, 1 min, 2 min … at most 15 min). Attempts are reserved
+// before the password is checked, so parallel attempts cannot get more
+// guesses than sequential ones. It keys on the name as typed
 // (lower-cased), whether or not the account exists, so its answers do not
 // tell which names exist. A successful sign-in clears the name.
 type accountBackoff struct {
@@ -93,6 +95,7 @@ type accountBackoff struct {
 
 type backoffEntry struct {
 	failures int
+	inflight int       // attempts reserved and not yet ended
 	until    time.Time // locked until
 	last     time.Time // last failure
 }
@@ -111,27 +114,17 @@ func newAccountBackoff() *accountBackoff {
 
 func backoffKey(name string) string { return strings.ToLower(strings.TrimSpace(name)) }
 
-// locked returns how long name stays locked (0: not locked).
-func (b *accountBackoff) locked(name string) time.Duration {
-	b.mu.Lock()
-	defer b.mu.Unlock()
-	e := b.m[backoffKey(name)]
-	if e == nil {
-		return 0
-	}
-	if d := e.until.Sub(b.now()); d > 0 {
-		return d
-	}
-	return 0
-}
-
-// fail records a failed sign-in for name.
-func (b *accountBackoff) fail(name string) {
+// begin reserves a sign-in attempt for name. It returns 0 when the
+// attempt may go ahead (end or release must follow), else how long to
+// wait: the rest of the lock window, or a second while the attempts the
+// name has left are all under way.
+func (b *accountBackoff) begin(name string) time.Duration {
 	b.mu.Lock()
 	defer b.mu.Unlock()
 	now, k := b.now(), backoffKey(name)
 	e := b.m[k]
-	if e != nil && now.Sub(e.last) > backoffForget && !now.Before(e.until) {
+	if e != nil && e.inflight == 0 && now.Sub(e.last) > backoffForget && !now.Before(e.until) {
+		delete(b.m, k)
 		e = nil
 	}
 	if e == nil {
@@ -141,22 +134,70 @@ func (b *accountBackoff) fail(name string) {
 		e = &backoffEntry{}
 		b.m[k] = e
 	}
+	if d := e.until.Sub(now); d > 0 {
+		return d
+	}
+	if e.inflight >= max(1, backoffFree-e.failures) {
+		return time.Second
+	}
+	e.inflight++
+	return 0
+}
+
+// end closes an attempt reserved by begin: a success clears the name, a
+// failure counts and may lock it.
+func (b *accountBackoff) end(name string, ok bool) {
+	b.mu.Lock()
+	defer b.mu.Unlock()
+	now, k := b.now(), backoffKey(name)
+	e := b.m[k]
+	if e == nil {
+		return
+	}
+	e.inflight--
+	if ok {
+		e.failures, e.until = 0, time.Time{}
+		if e.inflight <= 0 {
+			delete(b.m, k)
+		}
+		return
+	}
 	e.failures++
 	e.last = now
-	if over := e.failures - backoffFree + 1; over > 0 {
+	if over := e.failures - backoffFree; over >= 0 {
 		d := backoffBase
-		for i := 1; i < over && d < backoffMax; i++ {
+		for i := 0; i < over && d < backoffMax; i++ {
 			d *= 2
 		}
 		e.until = now.Add(min(d, backoffMax))
 	}
 }
 
+// release gives back an attempt reserved by begin that checked nothing.
+func (b *accountBackoff) release(name string) {
+	b.mu.Lock()
+	defer b.mu.Unlock()
+	if e := b.m[backoffKey(name)]; e != nil {
+		e.inflight--
+	}
+}
+
+// locked returns how long name stays locked (0: not locked).
+func (b *accountBackoff) locked(name string) time.Duration {
+	b.mu.Lock()
+	defer b.mu.Unlock()
+	if e := b.m[backoffKey(name)]; e != nil {
+		return max(0, e.until.Sub(b.now()))
+	}
+	return 0
+}
+
 // prune drops forgotten names, then (still full) unlocked ones, so that
-// the map stays bounded; locked names are kept.
+// the map stays bounded; locked names and names with attempts under way
+// are kept.
 func (b *accountBackoff) prune(now time.Time) {
 	for k, e := range b.m {
-		if now.Sub(e.last) > backoffForget && !now.Before(e.until) {
+		if e.inflight == 0 && now.Sub(e.last) > backoffForget && !now.Before(e.until) {
 			delete(b.m, k)
 		}
 	}
@@ -164,17 +205,10 @@ func (b *accountBackoff) prune(now time.Time) {
 		if len(b.m) < backoffMaxKeys {
 			return
 		}
-		if !now.Before(e.until) {
+		if e.inflight == 0 && !now.Before(e.until) {
 			delete(b.m, k)
 		}
 	}
-}
-
-// succeed clears name after a successful sign-in.
-func (b *accountBackoff) succeed(name string) {
-	b.mu.Lock()
-	defer b.mu.Unlock()
-	delete(b.m, backoffKey(name))
 }
 
 // ---- Token use, recorded without a write per request ----

@@ -172,7 +172,10 @@ func TestAccountBackoff(t *testing.T) {
 	var prev time.Duration
 	for i := 0; i < backoffFree+3; i++ {
 		now = now.Add(backoffMax) // past any lock
-		s.backoff.fail("Ghost2")
+		if w := s.backoff.begin("Ghost2"); w != 0 {
+			t.Fatalf("attempt %d refused after the window: %v", i+1, w)
+		}
+		s.backoff.end("Ghost2", false)
 		d := s.backoff.locked("ghost2")
 		if i < backoffFree-1 && d != 0 {
 			t.Fatalf("locked after %d failures", i+1)
@@ -181,6 +184,33 @@ func TestAccountBackoff(t *testing.T) {
 			t.Errorf("failure %d: window %v, want %v", i+1, d, 2*prev)
 		}
 		prev = d
+	}
+}
+
+// Item 7: parallel guesses get no more tries than sequential ones.
+func TestAccountBackoffParallel(t *testing.T) {
+	s, _ := newAccountServer(t)
+	b := newBrowser(t, s, "192.0.2.1:1")
+	b.do(http.MethodGet, "/login", nil)
+	csrf := b.cookies["_csrf"]
+	var wg sync.WaitGroup
+	var mu sync.Mutex
+	codes := map[int]int{}
+	for i := 0; i < 16; i++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			c := newBrowser(t, s, "198.51.100."+itoa64(int64(i+1))+":1")
+			c.cookies["_csrf"] = csrf
+			w := c.do(http.MethodPost, "/login", url.Values{"name": {"root"}, "password": {"guess-" + itoa64(int64(i))}})
+			mu.Lock()
+			codes[w.Code]++
+			mu.Unlock()
+		}()
+	}
+	wg.Wait()
+	if codes[http.StatusUnauthorized] > backoffFree || codes[http.StatusUnauthorized]+codes[http.StatusTooManyRequests] != 16 {
+		t.Errorf("16 parallel guesses: %v; at most %d may be checked", codes, backoffFree)
 	}
 }
 
