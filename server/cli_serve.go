@@ -108,6 +108,7 @@ func serve(ctx context.Context, addr, dbPath string, demo bool, opt Options, log
 	defer cancel()
 	err = srv.Shutdown(sctx)
 	s.Jobs.Wait()
+	s.tokenUse.wait()
 	return err
 }
 

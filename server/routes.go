@@ -76,7 +76,7 @@ func (s *Server) routes() {
 	// run its middleware, so an unknown path would answer with the last
 	// group's role check ("needs the reviewer role"); unknown paths are
 	// 404 for everyone.
-	for _, p := range []string{"/*", "/api/v1/*", "/admin/*"} {
+	for _, p := range []string{"/*", "/api/v1", "/api/v1/*", "/admin", "/admin/*"} {
 		e.RouteNotFound(p, echo.NotFoundHandler)
 	}
 }
