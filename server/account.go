@@ -13,7 +13,8 @@ import (
 // accountProps builds the account page for the current user.
 func (s *Server) accountProps(c echo.Context) (views.AccountProps, error) {
 	u := currentUser(c)
-	p := views.AccountProps{Layout: s.layout(c, "Your account", ""), Name: u.Name, Role: string(u.Role)}
+	p := views.AccountProps{Layout: s.layout(c, "Your account", ""), Name: u.Name, Role: string(u.Role),
+		MustChangePassword: u.MustChangePassword}
 	toks, err := s.DB.Tokens(c.Request().Context(), u.ID)
 	if err != nil {
 		return p, err
@@ -79,7 +80,9 @@ func (s *Server) revokeToken(c echo.Context) error {
 }
 
 // changePassword replaces the current user's password after checking the
-// current one; all sessions end, so the user signs in again.
+// current one (and PasswordProblem); all sessions end, so the user signs
+// in again; with the "revoke_tokens" box ticked all their API tokens are
+// revoked too. It clears the must-change-password flag.
 func (s *Server) changePassword(c echo.Context) error {
 	u := currentUser(c)
 	cur, next := c.FormValue("current"), c.FormValue("new")
@@ -94,16 +97,25 @@ func (s *Server) changePassword(c echo.Context) error {
 	if !CheckPassword(u.PasswordHash, cur) {
 		return fail("the current password is wrong")
 	}
-	if len(next) < 10 {
-		return fail("the new password must have at least 10 characters")
+	if msg := PasswordProblem(u.Name, next); msg != "" {
+		return fail(msg)
+	}
+	if next == cur {
+		return fail("the new password must differ from the current one")
 	}
 	hash, err := HashPassword(next)
 	if err != nil {
 		return err
 	}
-	if err := s.DB.SetUserPassword(c.Request().Context(), u.ID, hash); err != nil {
+	revoke := c.FormValue("revoke_tokens") != ""
+	if err := s.DB.ChangePassword(c.Request().Context(), u.ID, hash, revoke); err != nil {
 		return err
 	}
-	c.SetCookie(&http.Cookie{Name: sessionCookie, Value: "", Path: "/", MaxAge: -1, HttpOnly: true})
+	c.SetCookie(&http.Cookie{Name: sessionCookie, Value: "", Path: "/", MaxAge: -1, HttpOnly: true, Secure: s.secureRequest(c)})
+	if revoke {
+		flash(c, "Password changed and all your API tokens revoked: sign in with the new password.")
+	} else {
+		flash(c, "Password changed: sign in with the new password.")
+	}
 	return c.Redirect(http.StatusSeeOther, "/login")
 }

@@ -123,11 +123,11 @@ func TestAdminUsers(t *testing.T) {
 	if code, _ := h.req(http.MethodGet, "/admin/users", nil); code != 200 {
 		t.Fatalf("admin page: %d", code)
 	}
-	if code, _ := h.req(http.MethodPost, "/admin/users", url.Values{"name": {"kit"}, "role": {"operator"}, "password": {"kit-password-1"}}); code != http.StatusSeeOther {
+	if code, _ := h.req(http.MethodPost, "/admin/users", url.Values{"name": {"kit"}, "role": {"operator"}, "password": {"amber-lathe-42"}}); code != http.StatusSeeOther {
 		t.Fatalf("create user: %d", code)
 	}
 	for _, f := range []url.Values{
-		{"name": {"kit"}, "role": {"operator"}, "password": {"kit-password-1"}},
+		{"name": {"kit"}, "role": {"operator"}, "password": {"amber-lathe-42"}},
 		{"name": {"lee"}, "role": {"boss"}, "password": {"lee-password-1"}},
 		{"name": {"lee"}, "role": {"viewer"}, "password": {"short"}},
 	} {

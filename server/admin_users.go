@@ -2,6 +2,7 @@ package server
 
 import (
 	"errors"
+	"fmt"
 	"net/http"
 	"strings"
 
@@ -59,8 +60,8 @@ func (s *Server) createUserForm(c echo.Context) error {
 	if err != nil {
 		return fail("role: choose viewer, operator, reviewer or admin")
 	}
-	if len(f.Password) < 10 {
-		return fail("initial password: at least 10 characters")
+	if msg := PasswordProblem(f.Name, f.Password); msg != "" {
+		return fail("initial password: " + msg)
 	}
 	hash, err := HashPassword(f.Password)
 	if err != nil {
@@ -94,16 +95,10 @@ func (s *Server) setUserRole(c echo.Context) error {
 	if err != nil {
 		return err
 	}
-	if target.Role == store.RoleAdmin && role != store.RoleAdmin {
-		users, err := s.DB.Users(ctx)
+	if target.Role == store.RoleAdmin && role != store.RoleAdmin && !target.Disabled {
+		admins, err := s.enabledAdmins(c)
 		if err != nil {
 			return err
-		}
-		admins := 0
-		for _, u := range users {
-			if u.Role == store.RoleAdmin && !u.Disabled {
-				admins++
-			}
 		}
 		if admins <= 1 {
 			return &userError{http.StatusConflict, "“" + target.Name + "” is the last admin: make another account admin first"}
@@ -114,4 +109,83 @@ func (s *Server) setUserRole(c echo.Context) error {
 	}
 	flash(c, target.Name+" is now "+string(role)+".")
 	return c.Redirect(http.StatusSeeOther, "/admin/users")
+}
+
+// setUserDisabled disables (disabled=1) or re-enables (disabled=0) an
+// account. Disabling ends its sessions and stops its API tokens at once;
+// an admin cannot disable their own account, nor the last enabled admin.
+func (s *Server) setUserDisabled(c echo.Context) error {
+	id, err := pathID(c, "uid")
+	if err != nil {
+		return err
+	}
+	var disable bool
+	switch c.FormValue("disabled") {
+	case "1":
+		disable = true
+	case "0":
+	default:
+		return badRequest("disabled: give 1 (disable) or 0 (enable)")
+	}
+	ctx := c.Request().Context()
+	target, err := s.DB.UserByID(ctx, id)
+	if err != nil {
+		return err
+	}
+	if disable {
+		if target.ID == currentUser(c).ID {
+			return &userError{http.StatusConflict, "you cannot disable your own account"}
+		}
+		if target.Role == store.RoleAdmin && !target.Disabled {
+			n, err := s.enabledAdmins(c)
+			if err != nil {
+				return err
+			}
+			if n <= 1 {
+				return &userError{http.StatusConflict, "“" + target.Name + "” is the last enabled admin: make another account admin first"}
+			}
+		}
+	}
+	if err := s.DB.SetUserDisabled(ctx, id, disable); err != nil {
+		return err
+	}
+	if disable {
+		flash(c, target.Name+" is disabled: their sessions ended and their API tokens stopped working.")
+	} else {
+		flash(c, target.Name+" is enabled again: they can sign in, and their unrevoked API tokens work again.")
+	}
+	return c.Redirect(http.StatusSeeOther, "/admin/users")
+}
+
+// endUserSessions signs a user out everywhere (their API tokens are kept).
+func (s *Server) endUserSessions(c echo.Context) error {
+	id, err := pathID(c, "uid")
+	if err != nil {
+		return err
+	}
+	ctx := c.Request().Context()
+	target, err := s.DB.UserByID(ctx, id)
+	if err != nil {
+		return err
+	}
+	n, err := s.DB.EndSessions(ctx, id)
+	if err != nil {
+		return err
+	}
+	flash(c, fmt.Sprintf("Ended %d session(s) of %s.", n, target.Name))
+	return c.Redirect(http.StatusSeeOther, "/admin/users")
+}
+
+func (s *Server) enabledAdmins(c echo.Context) (int, error) {
+	users, err := s.DB.Users(c.Request().Context())
+	if err != nil {
+		return 0, err
+	}
+	n := 0
+	for _, u := range users {
+		if u.Role == store.RoleAdmin && !u.Disabled {
+			n++
+		}
+	}
+	return n, nil
 }

@@ -1,6 +1,7 @@
 package server
 
 import (
+	"context"
 	"crypto/rand"
 	"crypto/sha256"
 	"crypto/subtle"
@@ -84,21 +85,37 @@ func hashToken(tok string) []byte {
 const sessionCookie = "glowlog_session"
 
 // loadUser finds the session user (cookie) or API user (bearer token) and
-// puts it in the context.
+// puts it in the context. An unknown credential leaves the request
+// anonymous; a database error answers 503 (never "invalid token"). A
+// token's use is recorded in memory and written rarely, outside the
+// request (tokenUse).
 func (s *Server) loadUser(next echo.HandlerFunc) echo.HandlerFunc {
 	return func(c echo.Context) error {
 		ctx := c.Request().Context()
 		if strings.HasPrefix(c.Request().URL.Path, "/api/") {
 			if h := c.Request().Header.Get("Authorization"); strings.HasPrefix(h, "Bearer ") {
-				if u, err := s.DB.TokenUser(ctx, hashToken(strings.TrimSpace(strings.TrimPrefix(h, "Bearer ")))); err == nil {
-					c.Set("user", &u)
+				a, err := s.DB.LookupToken(ctx, hashToken(strings.TrimSpace(strings.TrimPrefix(h, "Bearer "))))
+				switch {
+				case err == nil:
+					c.Set("user", &a.User)
+					s.tokenUse.record(a.TokenID, a.LastUsedAt, s.DB.Now())
+				case errors.Is(err, context.Canceled):
+					return err
+				case !errors.Is(err, store.ErrNotFound):
+					return s.errAuthUnavailable(c, err)
 				}
 			}
 			return next(c)
 		}
 		if ck, err := c.Cookie(sessionCookie); err == nil && ck.Value != "" {
-			if u, err := s.DB.SessionUser(ctx, hashToken(ck.Value)); err == nil {
+			u, err := s.DB.SessionUser(ctx, hashToken(ck.Value))
+			switch {
+			case err == nil:
 				c.Set("user", &u)
+			case errors.Is(err, context.Canceled):
+				return err
+			case !errors.Is(err, store.ErrNotFound):
+				return s.errAuthUnavailable(c, err)
 			}
 		}
 		return next(c)
@@ -141,19 +158,24 @@ func (s *Server) showLogin(c echo.Context) error {
 	return render(c, http.StatusOK, views.Login(views.LoginProps{Layout: s.layout(c, "Sign in", ""), Next: safeNext(c.QueryParam("next"))}))
 }
 
-// safeNext keeps redirects on this site.
-func safeNext(n string) string {
-	if !strings.HasPrefix(n, "/") || strings.HasPrefix(n, "//") || strings.Contains(n, "\\") {
-		return "/runs"
-	}
-	return n
-}
-
 func (s *Server) login(c echo.Context) error {
 	name, pw, next := c.FormValue("name"), c.FormValue("password"), safeNext(c.FormValue("next"))
 	ctx := c.Request().Context()
+	if wait := s.backoff.begin(name); wait > 0 {
+		p := s.layout(c, "Sign in", "")
+		p.Error = fmt.Sprintf("too many failed sign-ins for this user name: try again in %d s", int(wait.Seconds())+1)
+		c.Response().Header().Set("Retry-After", fmt.Sprint(int(wait.Seconds())+1))
+		return render(c, http.StatusTooManyRequests, views.Login(views.LoginProps{Layout: p, Name: name, Next: next}))
+	}
+	ok, checked := false, false
+	defer func() {
+		if checked {
+			s.backoff.end(name, ok)
+		} else {
+			s.backoff.release(name) // a database error is not a failed guess
+		}
+	}()
 	u, err := s.DB.UserByName(ctx, name)
-	ok := false
 	switch {
 	case err == nil && !u.Disabled:
 		ok = CheckPassword(u.PasswordHash, pw)
@@ -162,6 +184,7 @@ func (s *Server) login(c echo.Context) error {
 	default:
 		return err
 	}
+	checked = true
 	if !ok {
 		p := s.layout(c, "Sign in", "")
 		p.Error = "user name or password is wrong"
@@ -171,8 +194,17 @@ func (s *Server) login(c echo.Context) error {
 	if err := s.DB.CreateSession(ctx, h, u.ID, s.SessionTTL); err != nil {
 		return err
 	}
-	c.SetCookie(&http.Cookie{Name: sessionCookie, Value: tok, Path: "/", HttpOnly: true, Secure: s.SecureCookies,
+	sec := s.secureRequest(c)
+	c.SetCookie(&http.Cookie{Name: sessionCookie, Value: tok, Path: "/", HttpOnly: true, Secure: sec,
 		SameSite: http.SameSiteLaxMode, MaxAge: int(s.SessionTTL.Seconds())})
+	// A new CSRF token for the signed-in session: one learnt before
+	// sign-in (e.g. planted in the browser) no longer works.
+	csrfTok, _ := NewToken()
+	c.SetCookie(&http.Cookie{Name: "_csrf", Value: csrfTok, Path: "/", HttpOnly: true, Secure: sec,
+		SameSite: http.SameSiteLaxMode, MaxAge: 86400})
+	if u.MustChangePassword {
+		next = "/account#password"
+	}
 	return c.Redirect(http.StatusSeeOther, next)
 }
 
@@ -182,6 +214,6 @@ func (s *Server) logout(c echo.Context) error {
 			return err
 		}
 	}
-	c.SetCookie(&http.Cookie{Name: sessionCookie, Value: "", Path: "/", MaxAge: -1, HttpOnly: true})
+	c.SetCookie(&http.Cookie{Name: sessionCookie, Value: "", Path: "/", MaxAge: -1, HttpOnly: true, Secure: s.secureRequest(c)})
 	return c.Redirect(http.StatusSeeOther, "/login")
 }

@@ -35,13 +35,21 @@ func ServeCommand(args []string, stdout, stderr io.Writer) int {
 	dbPath := fs.String("db", envOr("GLOWLOG_DB", DefaultDB), "SQLite database file (env GLOWLOG_DB)")
 	noDemo := fs.Bool("no-demo", os.Getenv("GLOWLOG_NO_DEMO") != "", "do not seed the demo scenario into an empty database (env GLOWLOG_NO_DEMO)")
 	secure := fs.Bool("secure-cookies", os.Getenv("GLOWLOG_SECURE_COOKIES") != "", "mark cookies Secure (behind TLS) (env GLOWLOG_SECURE_COOKIES)")
+	proxies := envList("GLOWLOG_TRUSTED_PROXY")
+	fs.Func("trusted-proxy", "believe X-Forwarded-For and X-Forwarded-Proto only from this proxy address or CIDR range; repeatable (env GLOWLOG_TRUSTED_PROXY, comma-separated)",
+		func(v string) error { proxies = append(proxies, v); return nil })
 	if err := fs.Parse(args); err != nil {
+		return ExitInput
+	}
+	trusted, err := ParseTrustedProxies(proxies)
+	if err != nil {
+		fmt.Fprintf(stderr, "glowlog serve: %v\n", err)
 		return ExitInput
 	}
 	log := slog.New(slog.NewTextHandler(stderr, nil))
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer stop()
-	if err := serve(ctx, *addr, *dbPath, !*noDemo, *secure, log, stdout); err != nil {
+	if err := serve(ctx, *addr, *dbPath, !*noDemo, Options{SecureCookies: *secure, TrustedProxies: trusted}, log, stdout); err != nil {
 		fmt.Fprintf(stderr, "glowlog serve: %v\n", err)
 		return ExitError
 	}
@@ -55,7 +63,7 @@ func envOr(k, def string) string {
 	return def
 }
 
-func serve(ctx context.Context, addr, dbPath string, demo, secure bool, log *slog.Logger, stdout io.Writer) error {
+func serve(ctx context.Context, addr, dbPath string, demo bool, opt Options, log *slog.Logger, stdout io.Writer) error {
 	if dir := filepath.Dir(dbPath); dir != "." {
 		if err := os.MkdirAll(dir, 0o755); err != nil {
 			return err
@@ -66,7 +74,8 @@ func serve(ctx context.Context, addr, dbPath string, demo, secure bool, log *slo
 		return err
 	}
 	defer db.Close()
-	s := New(db, Options{Log: log, SecureCookies: secure})
+	opt.Log = log
+	s := New(db, opt)
 	if err := s.bootstrap(ctx, demo, stdout); err != nil {
 		return err
 	}
@@ -99,6 +108,7 @@ func serve(ctx context.Context, addr, dbPath string, demo, secure bool, log *slo
 	defer cancel()
 	err = srv.Shutdown(sctx)
 	s.Jobs.Wait()
+	s.tokenUse.wait()
 	return err
 }
 
@@ -118,11 +128,11 @@ func (s *Server) bootstrap(ctx context.Context, demo bool, stdout io.Writer) err
 	if err != nil {
 		return err
 	}
-	admin, err := s.DB.CreateUser(ctx, "admin", store.RoleAdmin, hash)
+	admin, err := s.DB.CreateUserMustChange(ctx, "admin", store.RoleAdmin, hash, true)
 	if err != nil {
 		return err
 	}
-	fmt.Fprintf(stdout, "glowlog: created account %q with the one-time password %s (change it on the account page)\n", admin.Name, pw)
+	fmt.Fprintf(stdout, "glowlog: created account %q with the one-time password %s (it must be changed at first sign-in)\n", admin.Name, pw)
 	if demo {
 		fmt.Fprintln(stdout, "glowlog: seeding the demo scenario (invented lab; --no-demo skips this)…")
 		if err := SeedDemo(ctx, s, admin.ID, DemoOptions{}); err != nil {

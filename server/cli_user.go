@@ -64,8 +64,8 @@ func UserCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 		return ExitInput
 	}
 	pw := strings.TrimRight(line, "\r\n")
-	if len([]rune(pw)) < 10 {
-		fmt.Fprintln(stderr, "glowlog user add: the password (first line of standard input) must have at least 10 characters")
+	if msg := PasswordProblem(pos[0], pw); msg != "" {
+		fmt.Fprintf(stderr, "glowlog user add: the password (first line of standard input): %s\n", msg)
 		return ExitInput
 	}
 	hash, err := HashPassword(pw)

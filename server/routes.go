@@ -16,7 +16,7 @@ func (s *Server) routes() {
 	e.GET("/static/*", echo.WrapHandler(http.StripPrefix("/static/", staticHandler(static.FS))))
 
 	// JSON API: bearer tokens, no CSRF (no cookies are used).
-	api := e.Group("/api/v1", requireRole(store.RoleViewer))
+	api := e.Group("/api/v1", requireRole(store.RoleViewer), apiContentType)
 	api.GET("/runs", s.apiListRuns)
 	api.GET("/runs/:id", s.apiGetRun)
 	api.GET("/trends", s.apiTrends)
@@ -69,6 +69,16 @@ func (s *Server) routes() {
 	a.GET("/users", s.showUsers)
 	a.POST("/users", s.createUserForm)
 	a.POST("/users/:uid/role", s.setUserRole)
+	a.POST("/users/:uid/disabled", s.setUserDisabled)
+	a.POST("/users/:uid/sessions/end", s.endUserSessions)
+
+	// Keep last. A group with middleware registers catch-all routes that
+	// run its middleware, so an unknown path would answer with the last
+	// group's role check ("needs the reviewer role"); unknown paths are
+	// 404 for everyone.
+	for _, p := range []string{"/*", "/api/v1", "/api/v1/*", "/admin", "/admin/*"} {
+		e.RouteNotFound(p, echo.NotFoundHandler)
+	}
 }
 
 func (s *Server) healthz(c echo.Context) error {

@@ -5,6 +5,7 @@ import (
 	"context"
 	"errors"
 	"log/slog"
+	"net"
 	"net/http"
 	"net/url"
 	"strings"
@@ -32,12 +33,21 @@ type Server struct {
 	SessionTTL time.Duration
 	// SecureCookies marks cookies Secure (behind TLS).
 	SecureCookies bool
+	// TrustedProxies are the addresses whose X-Forwarded-For and
+	// X-Forwarded-Proto are believed.
+	TrustedProxies []*net.IPNet
+
+	backoff  *accountBackoff
+	tokenUse *tokenUse
 }
 
 // Options configures New.
 type Options struct {
 	Log           *slog.Logger
 	SecureCookies bool
+	// TrustedProxies: see Server.TrustedProxies (none: forwarded headers
+	// are ignored).
+	TrustedProxies []*net.IPNet
 }
 
 // New builds the web application on db.
@@ -47,7 +57,10 @@ func New(db *store.DB, opt Options) *Server {
 	}
 	e := echo.New()
 	e.HideBanner, e.HidePort = true, true
-	s := &Server{DB: db, Log: opt.Log, Echo: e, SessionTTL: 12 * time.Hour, SecureCookies: opt.SecureCookies}
+	s := &Server{DB: db, Log: opt.Log, Echo: e, SessionTTL: 12 * time.Hour, SecureCookies: opt.SecureCookies,
+		TrustedProxies: opt.TrustedProxies, backoff: newAccountBackoff()}
+	s.tokenUse = &tokenUse{written: map[int64]time.Time{}, write: db.TouchToken, log: s.Log.Warn}
+	setProxyTrust(e, opt.TrustedProxies)
 	s.Jobs = NewJobRunner(s)
 	e.HTTPErrorHandler = s.handleError
 	e.Use(middleware.Recover())
@@ -58,6 +71,7 @@ func New(db *store.DB, opt Options) *Server {
 	}))
 	e.Use(middleware.BodyLimit(bodyLimit))
 	e.Use(s.loadUser)
+	e.Use(s.pageGuard)
 	s.routes()
 	return s
 }
@@ -69,15 +83,29 @@ const bodyLimit = "40M"
 func (s *Server) ServeHTTP(w http.ResponseWriter, r *http.Request) { s.Echo.ServeHTTP(w, r) }
 
 // csrf is the CSRF middleware for the HTML routes (the API uses bearer
-// tokens instead).
+// tokens instead). Its cookie is Secure when secureRequest says so.
 func (s *Server) csrf() echo.MiddlewareFunc {
-	return middleware.CSRFWithConfig(middleware.CSRFConfig{
+	cfg := middleware.CSRFConfig{
 		TokenLookup: "form:_csrf,header:X-CSRF-Token", CookiePath: "/", CookieHTTPOnly: true,
-		CookieSameSite: http.SameSiteLaxMode, CookieSecure: s.SecureCookies,
-	})
+		CookieSameSite: http.SameSiteLaxMode,
+	}
+	plain := middleware.CSRFWithConfig(cfg)
+	cfg.CookieSecure = true
+	secure := middleware.CSRFWithConfig(cfg)
+	return func(next echo.HandlerFunc) echo.HandlerFunc {
+		p, sec := plain(next), secure(next)
+		return func(c echo.Context) error {
+			if s.secureRequest(c) {
+				return sec(c)
+			}
+			return p(c)
+		}
+	}
 }
 
-// loginLimiter limits sign-in attempts per client address.
+// loginLimiter limits sign-in attempts per client address (c.RealIP:
+// the connection's address, or the X-Forwarded-For client of a trusted
+// proxy; setProxyTrust).
 func loginLimiter() echo.MiddlewareFunc {
 	return middleware.RateLimiterWithConfig(middleware.RateLimiterConfig{
 		Skipper: func(c echo.Context) bool { return c.Request().Method == http.MethodGet },
@@ -120,8 +148,14 @@ func (s *Server) layout(c echo.Context, title, current string) views.LayoutProps
 
 // flash sets a one-time message shown on the next page.
 func flash(c echo.Context, msg string) {
-	c.SetCookie(&http.Cookie{Name: "flash", Value: url.QueryEscape(msg), Path: "/", MaxAge: 60, HttpOnly: true, SameSite: http.SameSiteLaxMode})
+	sec, _ := c.Get(ctxSecureCookies).(bool)
+	c.SetCookie(&http.Cookie{Name: "flash", Value: url.QueryEscape(msg), Path: "/", MaxAge: 60, HttpOnly: true,
+		SameSite: http.SameSiteLaxMode, Secure: sec})
 }
+
+// ctxSecureCookies is the context key of secureRequest's answer (set by
+// pageGuard) for helpers without the Server.
+const ctxSecureCookies = "secure_cookies"
 
 // userError is an error whose message is safe to show.
 type userError struct {

@@ -22,7 +22,7 @@ func (d *DB) CreateSession(ctx context.Context, tokenHash []byte, userID int64, 
 
 // SessionUser returns the enabled user of an unexpired session.
 func (d *DB) SessionUser(ctx context.Context, tokenHash []byte) (User, error) {
-	return scanUser(d.db.QueryRowContext(ctx, `SELECT u.id, u.name, u.role, u.password_hash, u.created_at, u.disabled
+	return scanUser(d.db.QueryRowContext(ctx, `SELECT `+userColsU+`
 		FROM sessions s JOIN users u ON u.id = s.user_id
 		WHERE s.token_hash = ? AND s.expires_at > ? AND u.disabled = 0`, tokenHash, d.now()))
 }
@@ -63,23 +63,67 @@ func (d *DB) CreateToken(ctx context.Context, userID int64, name string, tokenHa
 	return Token{ID: id, UserID: userID, Name: name, CreatedAt: time.Unix(now, 0)}, nil
 }
 
-// TokenUser returns the enabled user of an unrevoked token and records
-// its use.
-func (d *DB) TokenUser(ctx context.Context, tokenHash []byte) (User, error) {
-	var id int64
-	err := d.db.QueryRowContext(ctx, `SELECT t.id FROM api_tokens t JOIN users u ON u.id = t.user_id
-		WHERE t.token_hash = ? AND t.revoked_at IS NULL AND u.disabled = 0`, tokenHash).Scan(&id)
+// TokenAuth is what a token lookup finds: the token's user, the token's
+// id and when its use was last stored (zero: never).
+type TokenAuth struct {
+	User       User
+	TokenID    int64
+	LastUsedAt time.Time
+}
+
+// LookupToken finds the enabled user of an unrevoked token. It only reads:
+// recording the use is TouchToken, which callers do rarely and outside
+// the request (a write per API request would queue behind every writer).
+// An unknown, revoked or disabled token is ErrNotFound; any other error
+// is the database's.
+func (d *DB) LookupToken(ctx context.Context, tokenHash []byte) (TokenAuth, error) {
+	var a TokenAuth
+	var used sql.NullInt64
+	var role string
+	var created int64
+	var disabled, mustChange int
+	err := d.db.QueryRowContext(ctx, `SELECT t.id, t.last_used_at, `+userColsU+`
+		FROM api_tokens t JOIN users u ON u.id = t.user_id
+		WHERE t.token_hash = ? AND t.revoked_at IS NULL AND u.disabled = 0`, tokenHash).
+		Scan(&a.TokenID, &used, &a.User.ID, &a.User.Name, &role, &a.User.PasswordHash, &created, &disabled, &mustChange)
 	if errors.Is(err, sql.ErrNoRows) {
-		return User{}, fmt.Errorf("token: %w", ErrNotFound)
+		return TokenAuth{}, fmt.Errorf("token: %w", ErrNotFound)
 	}
 	if err != nil {
-		return User{}, err
+		return TokenAuth{}, fmt.Errorf("store: token lookup: %w", err)
 	}
-	if _, err := d.db.ExecContext(ctx, `UPDATE api_tokens SET last_used_at = ? WHERE id = ?`, d.now(), id); err != nil {
-		return User{}, err
+	a.User.Role, a.User.CreatedAt = Role(role), time.Unix(created, 0)
+	a.User.Disabled, a.User.MustChangePassword = disabled != 0, mustChange != 0
+	if used.Valid {
+		a.LastUsedAt = time.Unix(used.Int64, 0)
 	}
-	return scanUser(d.db.QueryRowContext(ctx, `SELECT u.id, u.name, u.role, u.password_hash, u.created_at, u.disabled
-		FROM api_tokens t JOIN users u ON u.id = t.user_id WHERE t.id = ?`, id))
+	return a, nil
+}
+
+// TokenUser returns the enabled user of an unrevoked token (a read; see
+// LookupToken).
+func (d *DB) TokenUser(ctx context.Context, tokenHash []byte) (User, error) {
+	a, err := d.LookupToken(ctx, tokenHash)
+	return a.User, err
+}
+
+// TouchToken records that token id was used at t (never moving the stored
+// time backwards).
+func (d *DB) TouchToken(ctx context.Context, id int64, t time.Time) error {
+	_, err := d.db.ExecContext(ctx, `UPDATE api_tokens SET last_used_at = ? WHERE id = ? AND (last_used_at IS NULL OR last_used_at < ?)`,
+		t.Unix(), id, t.Unix())
+	return err
+}
+
+// RevokeUserTokens revokes all of a user's active tokens and returns how
+// many there were.
+func (d *DB) RevokeUserTokens(ctx context.Context, userID int64) (int, error) {
+	res, err := d.db.ExecContext(ctx, `UPDATE api_tokens SET revoked_at = ? WHERE user_id = ? AND revoked_at IS NULL`, d.now(), userID)
+	if err != nil {
+		return 0, err
+	}
+	n, _ := res.RowsAffected()
+	return int(n), nil
 }
 
 // Tokens lists a user's tokens, newest first.

@@ -44,10 +44,13 @@ type DB struct {
 // journaling (readers run during writes), a 5 s busy timeout (writers
 // wait instead of failing) and immediate write transactions (no upgrade
 // deadlocks), through the DSN so that the pragmas cover the whole pool.
+// The file and its -wal and -shm are made private (0600, EnsurePrivate).
 func Open(ctx context.Context, path string) (*DB, error) {
 	dsn := "file:" + path + "?_pragma=foreign_keys(1)&_pragma=journal_mode(WAL)&_pragma=busy_timeout(5000)&_pragma=synchronous(NORMAL)&_txlock=immediate"
 	if path == ":memory:" {
 		dsn = "file::memory:?_pragma=foreign_keys(1)&_pragma=busy_timeout(5000)&_txlock=immediate"
+	} else if err := EnsurePrivate(path); err != nil {
+		return nil, err
 	}
 	sdb, err := sql.Open("sqlite", dsn)
 	if err != nil {

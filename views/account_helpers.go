@@ -7,3 +7,11 @@ func tokenRevokeURL(id int64) string {
 }
 
 func userRoleURL(id int64) string { return "/admin/users/" + strconv.FormatInt(id, 10) + "/role" }
+
+func userDisabledURL(id int64) string {
+	return "/admin/users/" + strconv.FormatInt(id, 10) + "/disabled"
+}
+
+func userEndSessionsURL(id int64) string {
+	return "/admin/users/" + strconv.FormatInt(id, 10) + "/sessions/end"
+}
