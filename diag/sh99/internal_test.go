@@ -245,3 +245,29 @@ func TestDopplerRemovalUncertainty(t *testing.T) {
 			u, 100*worstDom[FWHM], 100*worstDom[FWHA], 100*worstAll[FWHM], 100*worstAll[FWHA])
 	}
 }
+
+// BenchmarkDecode measures the one-time decoding of the embedded tables
+// and the preparation of every node profile and table width.
+func BenchmarkDecode(b *testing.B) {
+	for b.Loop() {
+		if _, err := decode(); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+// BenchmarkStarkWidthsHbeta measures the one-time, per-line computation
+// of the Stark-only widths (both kinds) of Hβ with their Doppler-removal
+// uncertainty.
+func BenchmarkStarkWidthsHbeta(b *testing.B) {
+	for b.Loop() {
+		b.StopTimer()
+		s, err := decode()
+		if err != nil {
+			b.Fatal(err)
+		}
+		b.StartTimer()
+		s.lines[4].starkWidths(FWHM)
+		s.lines[4].starkWidths(FWHA)
+	}
+}

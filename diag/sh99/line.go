@@ -360,6 +360,11 @@ func (l *Line) rangeText(tK float64, g [][]float64) string {
 	return fmt.Sprintf("%s, n_e %.4g–%.4g m⁻³; nothing available at T = %.4g K", tr, l.ne[0]*1e6, l.ne[len(l.ne)-1]*1e6, tK)
 }
 
+// widthName names a width in messages.
+func widthName(kind WidthKind, stark int) string {
+	return [2][numKinds]string{{"table FWHM", "table FWHA"}, {"Stark FWHM", "Stark FWHA"}}[stark][kind]
+}
+
 // grid returns the node widths (ln) of kind: table widths (stark = 0) or
 // Stark-only widths (stark = 1).
 func (l *Line) grid(kind WidthKind, stark int) [][]float64 {
@@ -378,11 +383,7 @@ func (l *Line) width(kind WidthKind, stark int, neM3, tK float64) (float64, erro
 		panic(fmt.Sprintf("sh99: unknown width kind %d", int(kind)))
 	}
 	g := l.grid(kind, stark)
-	what := "table " + kind.String()
-	if stark == 1 {
-		what = "Stark " + kind.String()
-	}
-	c, err := l.locate(neM3, tK, g, what)
+	c, err := l.locate(neM3, tK, g, widthName(kind, stark))
 	if err != nil {
 		return 0, err
 	}
@@ -424,7 +425,7 @@ func (l *Line) StarkWidthNM(kind WidthKind, neM3, tK float64) (float64, error) {
 // systematic uncertainty of the SH99 Stark width.
 func (l *Line) DopplerRemovalUncRel(kind WidthKind, neM3, tK float64) (float64, error) {
 	g := l.grid(kind, 1)
-	c, err := l.locate(neM3, tK, g, "Stark "+kind.String())
+	c, err := l.locate(neM3, tK, g, widthName(kind, 1))
 	if err != nil {
 		return 0, err
 	}
@@ -446,6 +447,11 @@ func (l *Line) DensityFromStarkWidthM3(kind WidthKind, widthNM, tK float64) (flo
 
 // DensityFromTableWidthM3 is the inverse of TableWidthNM at fixed tK: the
 // electron density whose table width (Stark ⊗ Doppler at tK) is widthNM.
+// At low n_e, where the table width is the Doppler width and hardly
+// depends on n_e (not even monotonically, within the interpolation's
+// accuracy), it returns an error wrapping ErrOutOfRange: the inverse is
+// defined only from the upper end of the grid down to where the width
+// stops increasing with n_e.
 func (l *Line) DensityFromTableWidthM3(kind WidthKind, widthNM, tK float64) (float64, error) {
 	return l.density(kind, 0, widthNM, tK)
 }
@@ -454,10 +460,7 @@ func (l *Line) density(kind WidthKind, stark int, widthNM, tK float64) (float64,
 	if kind < 0 || kind >= numKinds {
 		panic(fmt.Sprintf("sh99: unknown width kind %d", int(kind)))
 	}
-	what := "table " + kind.String()
-	if stark == 1 {
-		what = "Stark " + kind.String()
-	}
+	what := widthName(kind, stark)
 	if !(widthNM > 0) || math.IsInf(widthNM, 0) {
 		return 0, fmt.Errorf("sh99: %s %s = %g nm: width must be positive and finite", l.name(), what, widthNM)
 	}
@@ -466,7 +469,7 @@ func (l *Line) density(kind WidthKind, stark int, widthNM, tK float64) (float64,
 	if !ok {
 		return 0, fmt.Errorf("sh99: %s %s at T = %.4g K: %w (%s)", l.name(), what, tK, ErrOutOfRange, l.rangeText(tK, g))
 	}
-	lo, hi := l.ne[jlo]*1e6, l.ne[jhi]*1e6
+	hi := l.ne[jhi] * 1e6
 	k, tk, _ := cell(l.lt, math.Log(tK))
 	at := func(j int) float64 {
 		switch tk {
@@ -477,18 +480,35 @@ func (l *Line) density(kind WidthKind, stark int, widthNM, tK float64) (float64,
 		}
 		return (1-tk)*g[j][k] + tk*g[j][k+1]
 	}
-	lwant := math.Log(widthNM)
-	wlo, whi := math.Exp(at(jlo)), math.Exp(at(jhi))
-	if lwant < at(jlo) || lwant > at(jhi) {
-		return 0, fmt.Errorf("sh99: %s %s = %.4g nm at T = %.4g K: %w (widths %.4g–%.4g nm for n_e %.4g–%.4g m⁻³)",
-			l.name(), what, widthNM, tK, ErrOutOfRange, wlo, whi, lo, hi)
+	// The inverse is defined on the widest range below the upper end in
+	// which the width increases strictly with n_e. Below it (table
+	// widths in the Doppler-dominated regime, which hardly depend on
+	// n_e) the width does not determine n_e.
+	jstart := jhi
+	for jstart > jlo && at(jstart-1) < at(jstart) {
+		jstart--
 	}
-	for j := jlo; j < jhi; j++ {
+	if jstart == jhi {
+		return 0, fmt.Errorf("sh99: %s %s at T = %.4g K does not increase with n_e near %.4g m⁻³: %w",
+			l.name(), what, tK, hi, ErrOutOfRange)
+	}
+	lwant := math.Log(widthNM)
+	// Widths computed here at the range ends may differ from the node
+	// values by rounding.
+	const eps = 1e-12
+	if lwant < at(jstart) && lwant > at(jstart)-eps {
+		lwant = at(jstart)
+	}
+	if lwant > at(jhi) && lwant < at(jhi)+eps {
+		lwant = at(jhi)
+	}
+	wlo, whi := math.Exp(at(jstart)), math.Exp(at(jhi))
+	if lwant < at(jstart) || lwant > at(jhi) {
+		return 0, fmt.Errorf("sh99: %s %s = %.4g nm at T = %.4g K: %w (widths %.4g–%.4g nm for n_e %.4g–%.4g m⁻³)",
+			l.name(), what, widthNM, tK, ErrOutOfRange, wlo, whi, l.ne[jstart]*1e6, hi)
+	}
+	for j := jstart; j < jhi; j++ {
 		a, b := at(j), at(j+1)
-		if !(b > a) {
-			return 0, fmt.Errorf("sh99: %s %s at T = %.4g K is not increasing with n_e between %.4g and %.4g m⁻³",
-				l.name(), what, tK, l.ne[j]*1e6, l.ne[j+1]*1e6)
-		}
 		if lwant <= b {
 			f := (lwant - a) / (b - a)
 			return math.Exp(l.lne[j]+f*(l.lne[j+1]-l.lne[j])) * 1e6, nil

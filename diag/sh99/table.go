@@ -182,6 +182,9 @@ func newNodeProfile(x, p []float64) (*nodeProfile, error) {
 	return np, nil
 }
 
+// xcFactor scales x_c from the first node below half maximum.
+var xcFactor = 3.0
+
 // uOf maps x to the interpolation variable u − ln x_c (log1p keeps the
 // tiny u of the core distinct).
 func (np *nodeProfile) uOf(x float64) float64 {
