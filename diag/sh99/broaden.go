@@ -14,7 +14,7 @@ type broadened struct {
 }
 
 func newBroadened(np *nodeProfile, xnm, extraFWHM float64) broadened {
-	const h, tmax = 0.1, 7.0
+	const h, tmax = 0.2, 6.0
 	n := int(tmax / h)
 	sigma := extraFWHM / (2 * math.Sqrt(2*math.Ln2))
 	b := broadened{np: np, xnm: xnm, nrm: 0.5 / np.half}

@@ -43,9 +43,9 @@ var ErrOutOfRange = errors.New("outside the Stehlé–Hutcheon tables")
 // maxDopplerRatio bounds the ratio of the table's Doppler FWHM to the
 // Stark-only width of the same kind for which a Stark-only width is
 // reported. Beyond it the removal of the Doppler part depends too much on
-// the assumed shape of the Stark part (see the package doc and the
-// measured accuracy in TestDopplerRemovalSelfConsistency). glowlog's
-// choice, no source.
+// the shape of the Stark part (see the package doc and the measured
+// uncertainty in TestDopplerRemovalUncertainty). glowlog's choice, no
+// source.
 const maxDopplerRatio = 1.0
 
 // Line is one Balmer line n_u → 2 of the tables. Its methods are safe for

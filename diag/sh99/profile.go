@@ -5,6 +5,12 @@ import (
 	"math"
 )
 
+// Citation is the full reference of the tables, to be shown with every
+// result computed from them.
+const Citation = "Stehlé, C. & Hutcheon, R. 1999, \"Extensive tabulations of Stark broadened " +
+	"hydrogen line profiles\", Astron. Astrophys. Suppl. Ser. 140, 93–97, doi:10.1051/aas:1999118; " +
+	"tables CDS/VizieR VI/98A (model microfield method, pure hydrogen plasma, μ = 0.5)"
+
 // Balmer returns the line n_u → 2 with upper level upper from the
 // embedded tables (decoded on first use). It returns an error for a line
 // the tables do not cover or if the embedded data cannot be decoded.
