@@ -23,6 +23,15 @@ func rawFile(t testing.TB) fileTables {
 	return f
 }
 
+func mustLine(t testing.TB, s *set, upper int) *Line {
+	t.Helper()
+	l, ok, err := s.line(upper)
+	if !ok || err != nil {
+		t.Fatalf("line n=%d: %v %v", upper, ok, err)
+	}
+	return l
+}
+
 func mustLoad(t testing.TB) *set {
 	t.Helper()
 	s, err := load()
@@ -40,7 +49,7 @@ func TestProfileReproducesNodes(t *testing.T) {
 	f := rawFile(t)
 	checked := 0
 	for _, fl := range f.Lines {
-		l := s.lines[fl.Upper]
+		l := mustLine(t, s, fl.Upper)
 		for j, ne := range fl.NeCM3 {
 			for k, tk := range fl.TK {
 				if fl.Profile[0][j][k] == 0 {
@@ -85,7 +94,7 @@ func TestProfileReproducesNodes(t *testing.T) {
 // where the grid is dense (≈ 5 points per decade) and where it is sparse.
 func TestNodeInterpolationOnKnownShapes(t *testing.T) {
 	s := mustLoad(t)
-	x := s.lines[4].nodes[0][0].x
+	x := mustLine(t, s, 4).nodes[0][0].x
 	for _, c := range []struct {
 		gMin, gMax float64
 		tolFWHM    float64
@@ -171,7 +180,7 @@ func TestVoigtFWHA(t *testing.T) {
 // removal is exact for a Lorentzian Stark part.
 func TestDopplerRemovalOnVoigtNode(t *testing.T) {
 	s := mustLoad(t)
-	x := s.lines[4].nodes[0][0].x
+	x := mustLine(t, s, 4).nodes[0][0].x
 	const xnm = 1e10 // detuning units per nm
 	for _, c := range []struct{ L, wD float64 }{{1, 0.3}, {1, 0.8}, {0.5, 0.5}, {2, 0.1}} {
 		g := c.L / 2 * xnm
@@ -217,7 +226,7 @@ func TestDopplerRemovalUncertainty(t *testing.T) {
 	}
 	s := mustLoad(t)
 	for _, u := range s.order {
-		l := s.lines[u]
+		l := mustLine(t, s, u)
 		var worstDom, worstAll [numKinds]float64
 		for kind := range numKinds {
 			g := l.starkWidths(kind)
@@ -246,13 +255,26 @@ func TestDopplerRemovalUncertainty(t *testing.T) {
 	}
 }
 
-// BenchmarkDecode measures the one-time decoding of the embedded tables
-// and the preparation of every node profile and table width.
+// BenchmarkDecode measures the one-time decoding of the embedded tables.
 func BenchmarkDecode(b *testing.B) {
 	for b.Loop() {
 		if _, err := decode(); err != nil {
 			b.Fatal(err)
 		}
+	}
+}
+
+// BenchmarkPrepareHbeta measures the one-time preparation of Hβ's node
+// profiles and table widths (on its first use).
+func BenchmarkPrepareHbeta(b *testing.B) {
+	for b.Loop() {
+		b.StopTimer()
+		s, err := decode()
+		if err != nil {
+			b.Fatal(err)
+		}
+		b.StartTimer()
+		mustLine(b, s, 4)
 	}
 }
 
@@ -266,9 +288,10 @@ func BenchmarkStarkWidthsHbeta(b *testing.B) {
 		if err != nil {
 			b.Fatal(err)
 		}
+		l := mustLine(b, s, 4)
 		b.StartTimer()
-		s.lines[4].starkWidths(FWHM)
-		s.lines[4].starkWidths(FWHA)
+		l.starkWidths(FWHM)
+		l.starkWidths(FWHA)
 	}
 }
 
@@ -289,7 +312,7 @@ func TestInterpolationLeaveOneOut(t *testing.T) {
 	s := mustLoad(t)
 	worstW, worstP := 0.0, 0.0
 	for _, u := range []int{3, 4, 5, 6} {
-		l := s.lines[u]
+		l := mustLine(t, s, u)
 		for j := 1; j < len(l.ne)-1; j++ {
 			if l.ne[j] < 3e14 {
 				continue

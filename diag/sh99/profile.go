@@ -19,8 +19,8 @@ func Balmer(upper int) (*Line, error) {
 	if err != nil {
 		return nil, err
 	}
-	if l, ok := s.lines[upper]; ok {
-		return l, nil
+	if l, ok, err := s.line(upper); ok {
+		return l, err
 	}
 	return nil, fmt.Errorf("sh99: the Stehlé–Hutcheon tables do not cover the Balmer line n=%d→2 (covered upper levels: %d…%d)",
 		upper, s.order[0], s.order[len(s.order)-1])

@@ -316,6 +316,15 @@ func TestProfileAreaAndWidth(t *testing.T) {
 		if got := a + b; math.Abs(got/W-1) > 0.01 {
 			t.Errorf("n=%d ne=%g T=%g: profile FWHM %.5g nm, TableWidthNM %.5g nm", c.upper, c.ne, c.T, got, W)
 		}
+		// Hβ (even upper level) has a central dip, so its FWHM is taken
+		// at half of the peaks' maximum, not of the centre value
+		// (physics.md §4.5).
+		if c.upper == 4 && c.ne > 1e20 {
+			p0, _ := l.Profile(0, c.ne, c.T)
+			if !(p0 < 0.95*pk) {
+				t.Errorf("Hβ at %g m⁻³: centre %g vs peak %g: no central dip", c.ne, p0, pk)
+			}
+		}
 	}
 }
 

@@ -51,18 +51,30 @@ type fileTables struct {
 	} `json:"lines"`
 }
 
-// set holds every line of the tables, decoded once.
+// set holds every line of the tables. The file is decoded once; each
+// line's node profiles and widths are prepared on its first use.
 type set struct {
-	lines map[int]*Line
+	prep  map[int]func() (*Line, error)
 	order []int
+}
+
+// line returns the prepared line with upper level upper; ok is false if
+// the tables do not cover it.
+func (s *set) line(upper int) (l *Line, ok bool, err error) {
+	p, ok := s.prep[upper]
+	if !ok {
+		return nil, false, nil
+	}
+	l, err = p()
+	return l, true, err
 }
 
 // load decodes the embedded tables once; later calls return the same
 // result.
 var load = sync.OnceValues(decode)
 
-// decode unpacks the embedded file and prepares every line: node
-// profiles, areas and widths.
+// decode unpacks the embedded file; each line's node profiles, areas and
+// widths are prepared on first use (set.line).
 func decode() (*set, error) {
 	zr, err := gzip.NewReader(bytes.NewReader(rawTables))
 	if err != nil {
@@ -72,16 +84,17 @@ func decode() (*set, error) {
 	if err := json.NewDecoder(zr).Decode(&f); err != nil {
 		return nil, fmt.Errorf("sh99: embedded tables: %w", err)
 	}
-	s := &set{lines: make(map[int]*Line)}
+	s := &set{prep: make(map[int]func() (*Line, error))}
 	for _, fl := range f.Lines {
 		if fl.Lower != 2 {
 			continue
 		}
-		l, err := newLine(fl.Upper, fl.TK, fl.NeCM3, fl.X, fl.Lambda0, fl.Profile)
-		if err != nil {
-			return nil, err
+		if _, dup := s.prep[fl.Upper]; dup {
+			return nil, fmt.Errorf("sh99: embedded tables: line n=%d→2 twice", fl.Upper)
 		}
-		s.lines[fl.Upper] = l
+		s.prep[fl.Upper] = sync.OnceValues(func() (*Line, error) {
+			return newLine(fl.Upper, fl.TK, fl.NeCM3, fl.X, fl.Lambda0, fl.Profile)
+		})
 		s.order = append(s.order, fl.Upper)
 	}
 	sort.Ints(s.order)
@@ -123,6 +136,8 @@ type nodeProfile struct {
 	// tailSlope is d ln P/d ln x beyond the last node.
 	tailSlope float64
 	half      float64 // ∫₀^∞ P dx (one side)
+	// dip is true when the largest tabulated value is off the centre.
+	dip bool
 }
 
 func newNodeProfile(x, p []float64) (*nodeProfile, error) {
@@ -138,6 +153,7 @@ func newNodeProfile(x, p []float64) (*nodeProfile, error) {
 			imax = i
 		}
 	}
+	np.dip = imax > 0
 	// x_c: the first node beyond the peak below half maximum.
 	np.xc = x[n-1]
 	for i := imax; i < n; i++ {
