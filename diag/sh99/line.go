@@ -214,11 +214,18 @@ func (l *Line) Grid() (neM3, tK []float64) {
 }
 
 // Tabulated reports whether the tables hold a profile at the grid node
-// (neM3, tK) given exactly as returned by Grid.
+// (neM3, tK), given as returned by Grid (matched to 1e-9 relative).
 func (l *Line) Tabulated(neM3, tK float64) bool {
-	j := sort.SearchFloat64s(l.ne, neM3*1e-6)
-	k := sort.SearchFloat64s(l.t, tK)
-	return j < len(l.ne) && k < len(l.t) && l.ne[j] == neM3*1e-6 && l.t[k] == tK && l.nodes[j][k] != nil
+	find := func(g []float64, v float64) int {
+		for i, x := range g {
+			if math.Abs(v/x-1) <= 1e-9 {
+				return i
+			}
+		}
+		return -1
+	}
+	j, k := find(l.ne, neM3*1e-6), find(l.t, tK)
+	return j >= 0 && k >= 0 && l.nodes[j][k] != nil
 }
 
 // name returns "Hα", "Hβ", … or "H(n→2)".

@@ -36,6 +36,15 @@ func TestCoveredLines(t *testing.T) {
 			t.Errorf("n=%d: λ₀ %.4f nm, want %.4f nm", upper, got, want)
 		}
 	}
+	// Hβ grid (physics.md §4.5): 10 temperatures, n_e 10¹⁶ … 3.162×10²⁴
+	// m⁻³ (18 values); 5000 K stops at 10²² m⁻³.
+	ne, tk := line(t, 4).Grid()
+	if len(ne) != 18 || len(tk) != 10 || ne[0] != 1e16 || tk[0] != 2500 {
+		t.Errorf("Hβ grid: %d densities from %g, %d temperatures from %g", len(ne), ne[0], len(tk), tk[0])
+	}
+	if l := line(t, 4); !l.Tabulated(ne[12], 10000) || l.Tabulated(ne[13], 5000) {
+		t.Errorf("Hβ Tabulated: (%g, 1e4) %v, (%g, 5000) %v", ne[12], l.Tabulated(ne[12], 10000), ne[13], l.Tabulated(ne[13], 5000))
+	}
 	if _, err := sh99.Balmer(13); err == nil || !strings.Contains(err.Error(), "3…12") {
 		t.Errorf("Balmer(13): error %v, want one naming the covered range", err)
 	}
