@@ -221,16 +221,78 @@ func (s *Server) analyzeAttachments(ctx context.Context, atts []store.Attachment
 	return out, nil
 }
 
-// applySettings puts a version's analysis settings into the conditions of
-// a typed or uploaded line table (a measurement set), so that what the
-// version's settings show is what its results were computed with — as for
-// spectra, whose conditions are the settings alone.
+// How settings and a measurement set's own conditions combine — the same
+// on every path (the run form, the upload form, the API, single and bulk
+// reanalysis), so that the settings stored with a version (and shown
+// beside its results) are what every one of its results was computed with:
 //
-// Precedence, the same on every path (form, API, reanalysis): a setting
-// that is set replaces the measurement set's own value; a setting left
-// unset (0, "" or perturber "none") keeps the set's own value, which each
-// result then shows in its broadening budget, gas temperature and
-// perturber. In detail:
+//  1. The version's settings come first: the run's conditions for a new
+//     run, the previous version's settings for an upload, the form's for a
+//     reanalysis.
+//  2. A setting left unset (0, "", perturber "none") is filled from the
+//     run's line tables (fillFromLineTables): the first line table, in
+//     file order, that states the condition gives it. The filled value is
+//     stored in the settings.
+//  3. Every file is then analysed with these settings: spectra take them
+//     as their conditions; a line table's stated conditions are replaced
+//     by them where they are set (applySettings), per-line instrument
+//     widths included. A condition that no setting and no line table
+//     gives is not used (0: none).
+
+// fillFromLineTables fills st's unset conditions from the measurement sets
+// among atts (step 2 above). A line table that cannot be decoded is
+// skipped here: its analysis reports the error.
+func (s *Server) fillFromLineTables(ctx context.Context, atts []store.Attachment, st *AnalysisSettings) error {
+	for _, a := range atts {
+		if a.Kind != store.KindLineTable {
+			continue
+		}
+		data, err := s.content(ctx, a)
+		if err != nil {
+			return err
+		}
+		m, err := mset.Decode(a.Name, data)
+		if err != nil {
+			continue
+		}
+		if st.Isotope == "" && m.Isotope != diag.Hydrogen {
+			st.Isotope = "D"
+		}
+		if st.InstrumentFWHMNM == 0 {
+			st.InstrumentFWHMNM = m.InstrumentGaussFWHMNM
+		}
+		if st.InstrumentLorentzFWHMNM == 0 {
+			st.InstrumentLorentzFWHMNM = m.InstrumentLorentzFWHMNM
+		}
+		if st.GasTemperatureK == 0 && m.GasTemperatureK > 0 {
+			st.GasTemperatureK, st.GasTemperatureUncK = m.GasTemperatureK, m.GasTemperatureUncK
+		}
+		if st.PressurePa == 0 {
+			st.PressurePa = m.PressurePa
+		}
+		if (st.Perturber == "" || st.Perturber == "none") && m.Perturber != "" && m.Perturber != "none" {
+			if p, err := diag.LookupPerturber(m.Perturber); err == nil {
+				st.Perturber = p.Name
+			}
+		}
+		if m.SolveGasTemperature {
+			st.SolveGasTemperature = true
+		}
+		for n, id := range m.StarkRelations {
+			if _, ok := st.StarkRelations[n]; !ok {
+				if st.StarkRelations == nil {
+					st.StarkRelations = map[int]string{}
+				}
+				st.StarkRelations[n] = id
+			}
+		}
+	}
+	return nil
+}
+
+// applySettings puts a version's settings into the conditions of a line
+// table (step 3 above): every setting that is set replaces the set's own
+// value. In detail:
 //   - isotope, pressure, perturber: the setting when set;
 //   - gas temperature: the setting's value and σ together when the value
 //     is set (a σ belongs to its value);
@@ -359,6 +421,13 @@ func (s *Server) reanalyzeRunWith(ctx context.Context, runID int64, st AnalysisS
 	if err != nil {
 		return 0, err
 	}
+	given := st
+	if err := s.fillFromLineTables(ctx, before, &st); err != nil {
+		return 0, err
+	}
+	if err := st.Validate(); err != nil {
+		return 0, err
+	}
 	st.CalibrationFiles = calibrationFiles(before)
 	results, err := s.analyzeAttachments(ctx, before, st)
 	if err != nil {
@@ -379,10 +448,19 @@ func (s *Server) reanalyzeRunWith(ctx context.Context, runID int64, st AnalysisS
 	if !analysable(now) {
 		return 0, badRequest("no spectrum or line table to analyse")
 	}
-	if cal := calibrationFiles(now); !slices.Equal(cal, st.CalibrationFiles) {
-		// A dark or response file arrived meanwhile: it applies to every
-		// spectrum, so all are analysed again.
-		st.CalibrationFiles = cal
+	final := given
+	if err := s.fillFromLineTables(ctx, now, &final); err != nil {
+		return 0, err
+	}
+	if err := final.Validate(); err != nil {
+		return 0, err
+	}
+	final.CalibrationFiles = calibrationFiles(now)
+	if !sameSettings(final, st) {
+		// A dark or response file (which applies to every spectrum) or a
+		// line table that fills a setting arrived meanwhile: all files are
+		// analysed again, with the settings the version will store.
+		st = final
 		if results, err = s.analyzeAttachments(ctx, now, st); err != nil {
 			return 0, err
 		}
@@ -401,6 +479,13 @@ func (s *Server) reanalyzeRunWith(ctx context.Context, runID int64, st AnalysisS
 		return 0, err
 	}
 	return v, tx.Commit()
+}
+
+// sameSettings reports whether two settings are the same (as stored).
+func sameSettings(a, b AnalysisSettings) bool {
+	ja, err1 := json.Marshal(a)
+	jb, err2 := json.Marshal(b)
+	return err1 == nil && err2 == nil && bytes.Equal(ja, jb)
 }
 
 // completeResults brings results computed from an earlier file list up to
@@ -486,6 +571,12 @@ func (s *Server) ReanalyzeRunTx(ctx context.Context, tx *sql.Tx, runID int64, at
 	}
 	for i := range all {
 		all[i].Content = content[all[i].ID]
+	}
+	if err := s.fillFromLineTables(ctx, all, &st); err != nil {
+		return 0, nil, err
+	}
+	if err := st.Validate(); err != nil {
+		return 0, nil, err
 	}
 	st.CalibrationFiles = calibrationFiles(all)
 	// Adding data to a run with unchanged settings and calibration files
