@@ -253,7 +253,42 @@ func versionInfo(a *store.Analysis) *views.VersionInfo {
 		pretty.WriteString(a.Settings)
 	}
 	return &views.VersionInfo{Version: a.Version, EngineVersion: a.EngineVersion, CreatedBy: by,
-		CreatedAt: a.CreatedAt.UTC().Format("2006-01-02 15:04 UTC"), Reason: a.Reason, Settings: pretty.String()}
+		CreatedAt: a.CreatedAt.UTC().Format("2006-01-02 15:04 UTC"), Reason: a.Reason, Settings: pretty.String(),
+		ComputedWith: computedWith(a.Settings)}
+}
+
+// computedWith describes a version's conditions in words ("" when the
+// settings cannot be read).
+func computedWith(settings string) string {
+	var st AnalysisSettings
+	if json.Unmarshal([]byte(settings), &st) != nil {
+		return ""
+	}
+	num := func(v float64, unit string) string {
+		if v == 0 {
+			return "none"
+		}
+		return strconv.FormatFloat(v, 'g', 6, 64) + " " + unit
+	}
+	instr := "instrument FWHM " + num(st.InstrumentFWHMNM, "nm")
+	if st.InstrumentLorentzFWHMNM > 0 {
+		instr += " (Gaussian) + " + num(st.InstrumentLorentzFWHMNM, "nm") + " (Lorentzian)"
+	}
+	if st.InstrumentID != 0 {
+		instr = fmt.Sprintf("stored instrument function #%d", st.InstrumentID)
+	}
+	gas := "gas temperature " + num(st.GasTemperatureK, "K")
+	if st.GasTemperatureK > 0 && st.GasTemperatureUncK > 0 {
+		gas += " ± " + strconv.FormatFloat(st.GasTemperatureUncK, 'g', 6, 64) + " K"
+	}
+	if st.SolveGasTemperature {
+		gas = "gas temperature solved from Hα and Hβ"
+	}
+	pert := st.Perturber
+	if pert == "" {
+		pert = "none"
+	}
+	return strings.Join([]string{instr, gas, "pressure " + num(st.PressurePa, "Pa"), "perturber " + pert}, ", ")
 }
 
 // versionRows lists every analysis version with its summary values (one

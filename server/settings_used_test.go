@@ -8,6 +8,7 @@ import (
 	"net/http"
 	"net/url"
 	"os"
+	"regexp"
 	"strings"
 	"testing"
 )
@@ -110,8 +111,8 @@ func TestSettingsShownAreSettingsUsed(t *testing.T) {
 		// The run page shows these settings beside the result, whose
 		// budget row has the same width.
 		page := f.get(fmt.Sprintf("/runs/%d", id), sess).Body.String()
-		if !strings.Contains(page, `&#34;instrument_fwhm_nm&#34;: 0.03`) && !strings.Contains(page, `"instrument_fwhm_nm": 0.03`) {
-			t.Errorf("run page does not show the settings: %.200s", page)
+		if !strings.Contains(page, `data-testid="computed-with">Computed with instrument FWHM 0.03 nm, gas temperature 1200 K, pressure 300 Pa`) {
+			t.Errorf("run page does not show the settings used beside the result: %s", regexp.MustCompile(`data-testid="computed-with">[^<]*`).FindString(page))
 		}
 
 		// Reanalysis with another width: the typed table follows it.
