@@ -571,6 +571,13 @@ func (s *Server) ReanalyzeRunTx(ctx context.Context, tx *sql.Tx, runID int64, at
 	}
 	for i := range all {
 		all[i].Content = content[all[i].ID]
+		if all[i].Content == nil && all[i].Kind == store.KindLineTable {
+			// Line tables are small and always analysed again (below);
+			// their content also fills unset settings.
+			if all[i].Content, err = s.content(ctx, all[i]); err != nil {
+				return 0, nil, err
+			}
+		}
 	}
 	if err := s.fillFromLineTables(ctx, all, &st); err != nil {
 		return 0, nil, err
@@ -619,7 +626,7 @@ func (s *Server) latestSettingsTx(ctx context.Context, tx *sql.Tx, r store.Run) 
 	return st, nil
 }
 
-// reusableResults splits atts into files whose newest stored result can be
+// reusableResults splits atts into spectra whose newest stored result can be
 // kept (same settings — including the same dark and response files,
 // st.CalibrationFiles — and the same engine) and the rest, which are
 // analysed; dark and response files always go along as their context.
@@ -647,7 +654,10 @@ func (s *Server) reusableResults(ctx context.Context, tx *sql.Tx, runID int64, a
 	var reused []store.AnalysisResult
 	var rest []store.Attachment
 	for _, a := range atts {
-		if r, ok := old[a.ID]; ok && a.Kind != store.KindDark && a.Kind != store.KindResponse {
+		// Only spectra are reused (their fits are what costs); line tables
+		// are cheap and always analysed again, so that a result stored
+		// before their settings were applied is never carried forward.
+		if r, ok := old[a.ID]; ok && a.Kind == store.KindSpectrum {
 			reused = append(reused, r)
 			continue
 		}

@@ -126,6 +126,29 @@ func TestSettingsShownAreSettingsUsed(t *testing.T) {
 		}
 	})
 
+	t.Run("line-table result stored before settings applied", func(t *testing.T) {
+		// A result stored by an earlier release (line table analysed
+		// without the settings: budget 0 nm) is not carried into a new
+		// version by an upload with unchanged settings.
+		v := newRunValues()
+		v.Set("line_table", tinySet(0))
+		rec := f.postForm("/runs", sess, v)
+		m := runLocation.FindStringSubmatch(rec.Header().Get("Location"))
+		if rec.Code != http.StatusSeeOther || m == nil {
+			t.Fatalf("create: %d", rec.Code)
+		}
+		id := atoi64(t, m[1])
+		if _, err := f.db.SQL().Exec(`UPDATE analysis_results SET result = replace(result, '"instrument_gauss_nm":0.03', '"instrument_gauss_nm":0')
+			WHERE analysis_id = (SELECT id FROM analyses WHERE run_id = ?)`, id); err != nil {
+			t.Fatal(err)
+		}
+		rec = f.postMultipart(fmt.Sprintf("/runs/%d/attachments", id), sess, url.Values{}, formFile{"spectra", "hbeta.csv", hbetaSpectrum(t)})
+		if rec.Code != http.StatusSeeOther {
+			t.Fatalf("upload: %d %.300s", rec.Code, rec.Body.String())
+		}
+		checkSettingsUsed(t, f.s, id, 2)
+	})
+
 	t.Run("line table stating its own conditions", func(t *testing.T) {
 		// The form sets width, temperature and pressure (they win); the
 		// perturber is "none" (unset), so the table's Ar fills it.
