@@ -6,6 +6,8 @@ import (
 	"database/sql"
 	"encoding/json"
 	"errors"
+	"fmt"
+	"net/http"
 	"slices"
 	"strings"
 	"sync"
@@ -195,11 +197,9 @@ func (s *Server) analyzeAttachments(ctx context.Context, atts []store.Attachment
 		if a.Kind == store.KindLineTable {
 			m, err := mset.Decode(a.Name, data)
 			if err == nil {
-				for i := range m.Lines {
-					if slices.Contains(st.ExcludeFromBoltzmann, m.Lines[i].Upper) {
-						m.Lines[i].ExcludeFromBoltzmann = true
-					}
-				}
+				err = applySettings(&m, st, opt.Instrument)
+			}
+			if err == nil {
 				var r diag.Result
 				r, err = diag.Analyze(m)
 				ra.Lines = &r
@@ -219,6 +219,143 @@ func (s *Server) analyzeAttachments(ctx context.Context, atts []store.Attachment
 		out = append(out, ra)
 	}
 	return out, nil
+}
+
+// How settings and a measurement set's own conditions combine — the same
+// on every path (the run form, the upload form, the API, single and bulk
+// reanalysis), so that the settings stored with a version (and shown
+// beside its results) are what every one of its results was computed with:
+//
+//  1. The version's settings come first: the run's conditions for a new
+//     run, the previous version's settings for an upload, the form's for a
+//     reanalysis.
+//  2. A setting left unset (0, "", perturber "none") is filled from the
+//     run's line tables (fillFromLineTables): the first line table, in
+//     file order, that states the condition gives it. The filled value is
+//     stored in the settings.
+//  3. Every file is then analysed with these settings: spectra take them
+//     as their conditions; a line table's stated conditions are replaced
+//     by them where they are set (applySettings), per-line instrument
+//     widths included. A condition that no setting and no line table
+//     gives is not used (0: none).
+
+// fillFromLineTables fills st's unset conditions from the measurement sets
+// among atts (step 2 above). A line table that cannot be decoded is
+// skipped here: its analysis reports the error.
+func (s *Server) fillFromLineTables(ctx context.Context, atts []store.Attachment, st *AnalysisSettings) error {
+	for _, a := range atts {
+		if a.Kind != store.KindLineTable {
+			continue
+		}
+		data, err := s.content(ctx, a)
+		if err != nil {
+			return err
+		}
+		m, err := mset.Decode(a.Name, data)
+		if err != nil {
+			continue
+		}
+		if st.Isotope == "" && m.Isotope != diag.Hydrogen {
+			st.Isotope = "D"
+		}
+		if st.InstrumentFWHMNM == 0 {
+			st.InstrumentFWHMNM = m.InstrumentGaussFWHMNM
+		}
+		if st.InstrumentLorentzFWHMNM == 0 {
+			st.InstrumentLorentzFWHMNM = m.InstrumentLorentzFWHMNM
+		}
+		if st.GasTemperatureK == 0 && m.GasTemperatureK > 0 {
+			st.GasTemperatureK, st.GasTemperatureUncK = m.GasTemperatureK, m.GasTemperatureUncK
+		}
+		if st.PressurePa == 0 {
+			st.PressurePa = m.PressurePa
+		}
+		if (st.Perturber == "" || st.Perturber == "none") && m.Perturber != "" && m.Perturber != "none" {
+			if p, err := diag.LookupPerturber(m.Perturber); err == nil {
+				st.Perturber = p.Name
+			}
+		}
+		if m.SolveGasTemperature {
+			st.SolveGasTemperature = true
+		}
+		for n, id := range m.StarkRelations {
+			if _, ok := st.StarkRelations[n]; !ok {
+				if st.StarkRelations == nil {
+					st.StarkRelations = map[int]string{}
+				}
+				st.StarkRelations[n] = id
+			}
+		}
+	}
+	return nil
+}
+
+// applySettings puts a version's settings into the conditions of a line
+// table (step 3 above): every setting that is set replaces the set's own
+// value. In detail:
+//   - isotope, pressure, perturber: the setting when set;
+//   - gas temperature: the setting's value and σ together when the value
+//     is set (a σ belongs to its value);
+//   - instrument Gaussian / Lorentzian FWHM: the setting when set, for the
+//     whole set, replacing per-line instrument widths too; a stored
+//     instrument function (InstrumentID) gives every line its width at
+//     the line's wavelength, as the spectrum pipeline does;
+//   - two-line gas temperature: on when the setting is on;
+//   - Stark relations: the setting's choice for each line it names;
+//   - excluded lines: the setting's lines are excluded as well.
+func applySettings(m *diag.Measurement, st AnalysisSettings, in spectrum.Instrument) error {
+	if st.Isotope != "" {
+		iso, err := diag.ParseIsotope(st.Isotope)
+		if err != nil {
+			return badRequest("isotope: %v", err)
+		}
+		m.Isotope = iso
+	}
+	if st.InstrumentFWHMNM > 0 {
+		m.InstrumentGaussFWHMNM = st.InstrumentFWHMNM
+		for i := range m.Lines {
+			m.Lines[i].InstrumentGaussFWHMNM = 0
+		}
+	}
+	if st.InstrumentLorentzFWHMNM > 0 {
+		m.InstrumentLorentzFWHMNM = st.InstrumentLorentzFWHMNM
+		for i := range m.Lines {
+			m.Lines[i].InstrumentLorentzFWHMNM = 0
+		}
+	}
+	if in != nil {
+		for i := range m.Lines {
+			t, err := diag.Balmer(m.Lines[i].Upper, m.Isotope)
+			if err != nil {
+				return err
+			}
+			m.Lines[i].InstrumentGaussFWHMNM, m.Lines[i].InstrumentLorentzFWHMNM, _ = in.At(t.WavelengthAirNM)
+		}
+	}
+	if st.GasTemperatureK > 0 {
+		m.GasTemperatureK, m.GasTemperatureUncK = st.GasTemperatureK, st.GasTemperatureUncK
+	}
+	if st.PressurePa > 0 {
+		m.PressurePa = st.PressurePa
+	}
+	if st.Perturber != "" && st.Perturber != "none" {
+		m.Perturber = st.Perturber
+	}
+	if st.SolveGasTemperature {
+		m.SolveGasTemperature = true
+	}
+	for n, id := range st.StarkRelations {
+		if m.StarkRelations == nil {
+			m.StarkRelations = map[int]string{}
+		}
+		m.StarkRelations[n] = id
+	}
+	for i := range m.Lines {
+		if slices.Contains(st.ExcludeFromBoltzmann, m.Lines[i].Upper) {
+			m.Lines[i].ExcludeFromBoltzmann = true
+		}
+	}
+	return nil
 }
 
 // toNewAnalysis turns analysis results into the stored form.
@@ -259,38 +396,200 @@ func toNewAnalysis(st AnalysisSettings, results []RunAnalysis, userID *int64, re
 }
 
 // ReanalyzeRun analyses all of a run's attachments with st and stores the
-// outcome as a new analysis version (earlier versions are kept).
+// outcome as a new analysis version (earlier versions are kept). A
+// signed-off run is refused (409): its numbers are what the reviewer
+// approved until a reviewer reopens it.
 func (s *Server) ReanalyzeRun(ctx context.Context, runID int64, st AnalysisSettings, userID *int64, reason string) (int, error) {
+	return s.reanalyzeRunWith(ctx, runID, st, userID, reason, false)
+}
+
+// reanalyzeRunWith is ReanalyzeRun; with keepApproved a signed-off run gets its
+// new version too (bulk reanalysis that a reviewer extended to signed-off
+// runs), and the store keeps the approved version as the one shown.
+//
+// The files are analysed outside the write transaction (a long time series
+// takes a while, and other writers wait for the lock); inside it the run's
+// files are listed again — the transaction holds the write lock from
+// BEGIN, so that list is final — and any file committed in the meantime is
+// analysed there, before the version is stored. Every version therefore
+// holds exactly the files committed before it.
+func (s *Server) reanalyzeRunWith(ctx context.Context, runID int64, st AnalysisSettings, userID *int64, reason string, keepApproved bool) (int, error) {
 	if err := st.Validate(); err != nil {
 		return 0, err
 	}
-	atts, err := s.DB.Attachments(ctx, runID)
+	before, err := s.DB.Attachments(ctx, runID)
 	if err != nil {
 		return 0, err
 	}
-	st.CalibrationFiles = calibrationFiles(atts)
-	results, err := s.analyzeAttachments(ctx, atts, st)
+	given := st
+	if err := s.fillFromLineTables(ctx, before, &st); err != nil {
+		return 0, err
+	}
+	if err := st.Validate(); err != nil {
+		return 0, err
+	}
+	st.CalibrationFiles = calibrationFiles(before)
+	results, err := s.analyzeAttachments(ctx, before, st)
 	if err != nil {
 		return 0, err
+	}
+	tx, err := s.DB.Begin(ctx)
+	if err != nil {
+		return 0, err
+	}
+	defer tx.Rollback()
+	if err := s.checkNotSignedOffTx(ctx, tx, runID, keepApproved); err != nil {
+		return 0, err
+	}
+	now, err := s.DB.AttachmentsTx(ctx, tx, runID)
+	if err != nil {
+		return 0, err
+	}
+	if !analysable(now) {
+		return 0, badRequest("no spectrum or line table to analyse")
+	}
+	final := given
+	if err := s.fillFromLineTables(ctx, now, &final); err != nil {
+		return 0, err
+	}
+	if err := final.Validate(); err != nil {
+		return 0, err
+	}
+	final.CalibrationFiles = calibrationFiles(now)
+	if !sameSettings(final, st) {
+		// A dark or response file (which applies to every spectrum) or a
+		// line table that fills a setting arrived meanwhile: all files are
+		// analysed again, with the settings the version will store.
+		st = final
+		if results, err = s.analyzeAttachments(ctx, now, st); err != nil {
+			return 0, err
+		}
+	} else {
+		results, err = s.completeResults(ctx, results, now, st)
+		if err != nil {
+			return 0, err
+		}
 	}
 	na, err := toNewAnalysis(st, results, userID, reason)
 	if err != nil {
 		return 0, err
 	}
-	return s.DB.AddAnalysis(ctx, runID, na)
+	v, err := s.DB.AddAnalysisTx(ctx, tx, runID, na)
+	if err != nil {
+		return 0, err
+	}
+	return v, tx.Commit()
 }
 
-// ReanalyzeRunTx is ReanalyzeRun inside the caller's transaction, for
-// requests that store a run, its files and the first analysis at once.
+// sameSettings reports whether two settings are the same (as stored).
+func sameSettings(a, b AnalysisSettings) bool {
+	ja, err1 := json.Marshal(a)
+	jb, err2 := json.Marshal(b)
+	return err1 == nil && err2 == nil && bytes.Equal(ja, jb)
+}
+
+// completeResults brings results computed from an earlier file list up to
+// the list now: results of files no longer there are dropped, files not
+// yet analysed are analysed (with now's dark and response files as their
+// context).
+func (s *Server) completeResults(ctx context.Context, results []RunAnalysis, now []store.Attachment, st AnalysisSettings) ([]RunAnalysis, error) {
+	present := map[int64]bool{}
+	for _, a := range now {
+		present[a.ID] = true
+	}
+	done := map[int64]bool{}
+	kept := results[:0]
+	for _, ra := range results {
+		if present[ra.Attachment.ID] {
+			kept = append(kept, ra)
+			done[ra.Attachment.ID] = true
+		}
+	}
+	var missing []store.Attachment
+	for _, a := range now {
+		switch a.Kind {
+		case store.KindDark, store.KindResponse:
+			missing = append(missing, a) // context only, never a result
+		case store.KindSpectrum, store.KindLineTable:
+			if !done[a.ID] {
+				missing = append(missing, a)
+			}
+		}
+	}
+	if !analysable(missing) {
+		return kept, nil
+	}
+	more, err := s.analyzeAttachments(ctx, missing, st)
+	if err != nil {
+		return nil, err
+	}
+	return append(kept, more...), nil
+}
+
+// checkNotSignedOffTx refuses, inside the write transaction, a new version
+// of a signed-off run (unless keepApproved: the store then keeps the
+// approved version as the one shown).
+func (s *Server) checkNotSignedOffTx(ctx context.Context, tx *sql.Tx, runID int64, keepApproved bool) error {
+	status, approved, err := s.DB.RunStatusTx(ctx, tx, runID)
+	if err != nil {
+		return err
+	}
+	if status == store.StatusSignedOff && !keepApproved {
+		return signedOffError(runID, approved)
+	}
+	return nil
+}
+
+// signedOffError is the 409 answer to changing a signed-off run's numbers.
+func signedOffError(runID int64, approved *int) error {
+	v := "its approved analysis version"
+	if approved != nil && *approved > 0 {
+		v = fmt.Sprintf("approved analysis version %d", *approved)
+	}
+	return &userError{http.StatusConflict, fmt.Sprintf(
+		"run %d is signed off (%s): its numbers cannot change; a reviewer can reopen it first (with a reason)", runID, v)}
+}
+
+// ReanalyzeRunTx adds a new analysis version inside the caller's write
+// transaction, for requests that store a run's files and their analysis at
+// once. atts are the files the caller added in tx (with their content);
+// the run's full file list is read inside tx, so files committed by
+// concurrent requests are never left out.
 func (s *Server) ReanalyzeRunTx(ctx context.Context, tx *sql.Tx, runID int64, atts []store.Attachment, st AnalysisSettings, userID *int64, reason string) (int, []RunAnalysis, error) {
 	if err := st.Validate(); err != nil {
 		return 0, nil, err
 	}
-	st.CalibrationFiles = calibrationFiles(atts)
+	all, err := s.DB.AttachmentsTx(ctx, tx, runID)
+	if err != nil {
+		return 0, nil, err
+	}
+	content := make(map[int64][]byte, len(atts))
+	for _, a := range atts {
+		if a.Content != nil {
+			content[a.ID] = a.Content
+		}
+	}
+	for i := range all {
+		all[i].Content = content[all[i].ID]
+		if all[i].Content == nil && all[i].Kind == store.KindLineTable {
+			// Line tables are small and always analysed again (below);
+			// their content also fills unset settings.
+			if all[i].Content, err = s.content(ctx, all[i]); err != nil {
+				return 0, nil, err
+			}
+		}
+	}
+	if err := s.fillFromLineTables(ctx, all, &st); err != nil {
+		return 0, nil, err
+	}
+	if err := st.Validate(); err != nil {
+		return 0, nil, err
+	}
+	st.CalibrationFiles = calibrationFiles(all)
 	// Adding data to a run with unchanged settings and calibration files
 	// reuses the stored results of its other files: only new spectra are
 	// analysed, so a long time series grows in linear time.
-	reused, toAnalyze, err := s.reusableResults(ctx, tx, runID, atts, st)
+	reused, toAnalyze, err := s.reusableResults(ctx, tx, runID, all, st)
 	if err != nil {
 		return 0, nil, err
 	}
@@ -307,7 +606,27 @@ func (s *Server) ReanalyzeRunTx(ctx context.Context, tx *sql.Tx, runID int64, at
 	return v, results, err
 }
 
-// reusableResults splits atts into files whose newest stored result can be
+// latestSettingsTx returns, inside tx, the settings of a run's newest
+// analysis version, or the run's defaults when it has none (read inside
+// the write transaction, so a concurrent reanalysis's settings are not
+// undone by an upload that read them before it).
+func (s *Server) latestSettingsTx(ctx context.Context, tx *sql.Tx, r store.Run) (AnalysisSettings, error) {
+	sj, err := s.DB.LatestSettingsTx(ctx, tx, r.ID)
+	if errors.Is(err, store.ErrNotFound) {
+		return DefaultSettings(r), nil
+	}
+	if err != nil {
+		return AnalysisSettings{}, err
+	}
+	var st AnalysisSettings
+	if err := json.Unmarshal([]byte(sj), &st); err != nil {
+		return AnalysisSettings{}, fmt.Errorf("server: settings of run %d: %w", r.ID, err)
+	}
+	st.CalibrationFiles = nil // recomputed from the files
+	return st, nil
+}
+
+// reusableResults splits atts into spectra whose newest stored result can be
 // kept (same settings — including the same dark and response files,
 // st.CalibrationFiles — and the same engine) and the rest, which are
 // analysed; dark and response files always go along as their context.
@@ -335,7 +654,10 @@ func (s *Server) reusableResults(ctx context.Context, tx *sql.Tx, runID int64, a
 	var reused []store.AnalysisResult
 	var rest []store.Attachment
 	for _, a := range atts {
-		if r, ok := old[a.ID]; ok && a.Kind != store.KindDark && a.Kind != store.KindResponse {
+		// Only spectra are reused (their fits are what costs); line tables
+		// are cheap and always analysed again, so that a result stored
+		// before their settings were applied is never carried forward.
+		if r, ok := old[a.ID]; ok && a.Kind == store.KindSpectrum {
 			reused = append(reused, r)
 			continue
 		}

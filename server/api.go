@@ -239,10 +239,12 @@ func applySettingFields(c echo.Context, st *AnalysisSettings) error {
 	return nil
 }
 
-// incoming is an upload to be stored: kind, name and bytes.
+// incoming is an upload to be stored: kind, name and bytes; settingFields
+// says that settings came with it (multipart form fields).
 type incoming struct {
-	kind, name string
-	data       []byte
+	kind, name    string
+	data          []byte
+	settingFields bool
 }
 
 // readMeasurement reads the attachment of POST /runs/:id/measurements: a
@@ -262,7 +264,7 @@ func readMeasurement(c echo.Context, st *AnalysisSettings) (incoming, error) {
 		if name == "" {
 			name = "measurement-set.json"
 		}
-		return incoming{store.KindLineTable, name, data}, nil
+		return incoming{store.KindLineTable, name, data, false}, nil
 	case echo.MIMEMultipartForm:
 		fh, err := c.FormFile("file")
 		if err != nil {
@@ -298,7 +300,7 @@ func readMeasurement(c echo.Context, st *AnalysisSettings) (incoming, error) {
 		if len(name) > 200 {
 			name = name[:200]
 		}
-		return incoming{kind, name, data}, nil
+		return incoming{kind, name, data, true}, nil
 	}
 	return incoming{}, &userError{http.StatusUnsupportedMediaType,
 		"Content-Type must be application/json (a measurement set) or multipart/form-data (field \"file\")"}
@@ -318,8 +320,8 @@ func (s *Server) apiAddMeasurement(c echo.Context) error {
 	if run.OperatorID != u.ID && !u.Role.Can(store.RoleAdmin) {
 		return echo.NewHTTPError(http.StatusForbidden, "only the run's operator or an admin may add measurements")
 	}
-	if run.Status == "signed_off" {
-		return &userError{http.StatusConflict, "the run is signed off; its measurements can no longer change"}
+	if run.Status == store.StatusSignedOff {
+		return signedOffError(run.ID, run.ApprovedVersion)
 	}
 	st, err := s.latestSettings(c, run)
 	if err != nil {
@@ -332,26 +334,35 @@ func (s *Server) apiAddMeasurement(c echo.Context) error {
 	if err := st.Validate(); err != nil {
 		return err
 	}
-	list, err := s.DB.Attachments(ctx, id)
-	if err != nil {
-		return err
-	}
-	// Stored files go in without content: their results are reused when
-	// the settings are unchanged, and loaded only if they must be analysed.
-	atts := make([]store.Attachment, 0, len(list)+1)
-	atts = append(atts, list...)
+	// Everything from here is one write transaction, which holds the
+	// write lock from BEGIN: the settings and the run's file list are
+	// read inside it, so the new version includes every file committed
+	// before it (concurrent uploads included) and keeps any settings a
+	// concurrent reanalysis stored. The store refuses the file if the run
+	// was signed off meanwhile.
 	tx, err := s.DB.Begin(ctx)
 	if err != nil {
 		return err
 	}
 	defer tx.Rollback()
+	if st, err = s.latestSettingsTx(ctx, tx, run); err != nil {
+		return err
+	}
+	if in.settingFields {
+		if err := applySettingFields(c, &st); err != nil {
+			return err
+		}
+	}
+	if err := st.Validate(); err != nil {
+		return err
+	}
 	aid, err := s.DB.AddAttachmentTx(ctx, tx, id, in.kind, in.name, in.data)
 	if err != nil {
 		return err
 	}
-	atts = append(atts, store.Attachment{ID: aid, RunID: id, Kind: in.kind, Name: in.name, Content: in.data, Size: len(in.data)})
+	added := []store.Attachment{{ID: aid, RunID: id, Kind: in.kind, Name: in.name, Content: in.data, Size: len(in.data)}}
 	uid := u.ID
-	version, results, err := s.ReanalyzeRunTx(ctx, tx, id, atts, st, &uid, "added "+in.name+" through the API")
+	version, results, err := s.ReanalyzeRunTx(ctx, tx, id, added, st, &uid, "added "+in.name+" through the API")
 	if err != nil {
 		var ue *userError
 		if errors.As(err, &ue) {
@@ -430,10 +441,13 @@ type apiRun struct {
 	Notes            string     `json:"notes,omitempty"`
 	Status           string     `json:"status"`
 	SignedOffAt      *time.Time `json:"signed_off_at,omitempty"`
-	Tags             []string   `json:"tags,omitempty"`
-	CreatedAt        time.Time  `json:"created_at"`
-	UpdatedAt        time.Time  `json:"updated_at"`
-	Summary          apiSummary `json:"summary"`
+	// ApprovedVersion is the analysis version the sign-off approved; the
+	// summary and "analysis" are that version while the run is signed off.
+	ApprovedVersion *int       `json:"approved_analysis_version,omitempty"`
+	Tags            []string   `json:"tags,omitempty"`
+	CreatedAt       time.Time  `json:"created_at"`
+	UpdatedAt       time.Time  `json:"updated_at"`
+	Summary         apiSummary `json:"summary"`
 
 	Attachments []apiAttachment `json:"attachments,omitempty"`
 	Analysis    *apiAnalysis    `json:"analysis,omitempty"`
@@ -475,7 +489,7 @@ func toAPIRun(r store.Run) apiRun {
 		Recipe: r.RecipeName, SourceType: r.SourceType, GasMixture: r.GasMixture, PressurePa: r.PressurePa, PowerW: r.PowerW,
 		Flows: r.Flows, GapMM: r.GapMM, GratingLMM: r.GratingLMM, SlitUM: r.SlitUM, IntegrationMS: r.IntegrationMS,
 		InstrumentFWHMNM: r.InstrumentFWHMNM, GasTemperatureK: r.GasTemperatureK, Perturber: r.Perturber, Notes: r.Notes,
-		Status: r.Status, SignedOffAt: r.SignedOffAt, Tags: r.Tags, CreatedAt: r.CreatedAt, UpdatedAt: r.UpdatedAt,
+		Status: r.Status, SignedOffAt: r.SignedOffAt, ApprovedVersion: r.ApprovedVersion, Tags: r.Tags, CreatedAt: r.CreatedAt, UpdatedAt: r.UpdatedAt,
 		Summary: apiSummary{ExcitationTemperatureK: r.TexcK, ExcitationTemperatureUncK: r.TexcUncK, ElectronDensityM3: r.NeM3,
 			ElectronDensityUncM3: r.NeUncM3, GasTemperatureK: r.TgasK, NWarnings: r.NWarnings, AnalysisVersion: r.AnalysisVersion}}
 }
@@ -502,7 +516,8 @@ func (s *Server) apiGetRun(c echo.Context) error {
 	}
 	full := c.QueryParam("full") == "1" || c.QueryParam("full") == "true"
 	if r.AnalysisVersion > 0 {
-		a, err := s.DB.AnalysisVersion(ctx, id, 0)
+		// The run's current version: the approved one while it is signed off.
+		a, err := s.DB.AnalysisVersion(ctx, id, r.AnalysisVersion)
 		if err != nil {
 			return err
 		}

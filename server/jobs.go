@@ -6,6 +6,7 @@ import (
 	"errors"
 	"fmt"
 	"net/http"
+	"slices"
 	"strconv"
 	"strings"
 	"sync"
@@ -83,6 +84,12 @@ type reanalyzeParams struct {
 	Reason    string            `json:"reason"`
 	UserID    int64             `json:"user_id"`
 	Filter    map[string]string `json:"filter,omitempty"`
+	// IncludeSignedOff is the reviewer's choice to give signed-off runs a
+	// new version too; the store keeps their approved version as the one
+	// shown (AddAnalysisTx). Without it they are left out of RunIDs, and
+	// SkippedSignedOff counts them.
+	IncludeSignedOff bool `json:"include_signed_off,omitempty"`
+	SkippedSignedOff int  `json:"skipped_signed_off,omitempty"`
 }
 
 // settingsOverrides replace settings of each run's latest analysis; nil
@@ -196,7 +203,13 @@ func (j *JobRunner) reanalyzeOne(ctx context.Context, id int64, p reanalyzeParam
 	}
 	p.Overrides.apply(&st)
 	uid := p.UserID
-	_, err = s.ReanalyzeRun(ctx, id, st, &uid, p.Reason)
+	reason := p.Reason
+	if r.Status == store.StatusSignedOff && p.IncludeSignedOff && r.ApprovedVersion != nil {
+		reason += fmt.Sprintf(" (added after sign-off, not approved: the run still shows approved version %d)", *r.ApprovedVersion)
+	}
+	// Inside its transaction the reanalysis refuses a run signed off since
+	// the job was queued, unless the reviewer included signed-off runs.
+	_, err = s.reanalyzeRunWith(ctx, id, st, &uid, reason, p.IncludeSignedOff)
 	return err
 }
 
@@ -250,22 +263,89 @@ func (s *Server) startBulkReanalysis(c echo.Context) error {
 	if len(ids) == 0 {
 		return badRequest("no run matches these filters: nothing to reanalyse")
 	}
-	u := currentUser(c)
+	signed := map[int64]bool{}
+	if rf.Status == "" || rf.Status == store.StatusSignedOff {
+		sf := rf
+		sf.Status = store.StatusSignedOff
+		sids, err := s.DB.RunIDs(ctx, sf)
+		if err != nil {
+			return err
+		}
+		for _, id := range sids {
+			signed[id] = true
+		}
+	}
+	include := c.FormValue("include_signed_off") != ""
+	touch := ids
+	if !include {
+		touch = make([]int64, 0, len(ids))
+		for _, id := range ids {
+			if !signed[id] {
+				touch = append(touch, id)
+			}
+		}
+	}
 	fv := map[string]string{}
 	for k, v := range f.values() {
 		fv[k] = v[0]
 	}
-	params, err := json.Marshal(reanalyzeParams{RunIDs: ids, Overrides: o, Reason: reason, UserID: u.ID, Filter: fv})
+	// First a confirmation: how many runs the job will touch, and how many
+	// signed-off runs it leaves alone.
+	if c.FormValue("confirm") != "1" {
+		cp := views.JobConfirmProps{Layout: s.layout(c, "Confirm bulk reanalysis", ""), Matching: len(ids),
+			SignedOff: len(signed), Touch: len(touch), Include: include, Reason: reason, Changes: o.words()}
+		for k, v := range fv {
+			cp.Hidden = append(cp.Hidden, views.HiddenField{Name: k, Value: v})
+		}
+		for _, k := range []string{"instrument_fwhm_nm", "gas_temperature_k", "pressure_pa", "perturber", "reason"} {
+			if v := strings.TrimSpace(c.FormValue(k)); v != "" {
+				cp.Hidden = append(cp.Hidden, views.HiddenField{Name: k, Value: v})
+			}
+		}
+		if include {
+			cp.Hidden = append(cp.Hidden, views.HiddenField{Name: "include_signed_off", Value: "1"})
+		}
+		slices.SortFunc(cp.Hidden, func(a, b views.HiddenField) int { return strings.Compare(a.Name, b.Name) })
+		return render(c, http.StatusOK, views.JobConfirm(cp))
+	}
+	if len(touch) == 0 {
+		return badRequest("all %d matching runs are signed off and were left out: nothing to reanalyse (tick “include signed-off runs” to add versions to them)", len(ids))
+	}
+	u := currentUser(c)
+	params, err := json.Marshal(reanalyzeParams{RunIDs: touch, Overrides: o, Reason: reason, UserID: u.ID, Filter: fv,
+		IncludeSignedOff: include, SkippedSignedOff: len(ids) - len(touch)})
 	if err != nil {
 		return err
 	}
-	jid, err := s.DB.CreateJob(ctx, jobKindReanalyze, string(params), len(ids), u.ID)
+	jid, err := s.DB.CreateJob(ctx, jobKindReanalyze, string(params), len(touch), u.ID)
 	if err != nil {
 		return err
 	}
 	s.Jobs.notify()
-	flash(c, fmt.Sprintf("Reanalysis of %d runs queued.", len(ids)))
+	msg := fmt.Sprintf("Reanalysis of %d runs queued.", len(touch))
+	if n := len(ids) - len(touch); n > 0 {
+		msg += fmt.Sprintf(" %d signed-off runs are left as approved.", n)
+	}
+	flash(c, msg)
 	return c.Redirect(http.StatusSeeOther, fmt.Sprintf("/jobs/%d", jid))
+}
+
+// words describes the overrides for people ("instrument FWHM 0.06 nm").
+func (o settingsOverrides) words() []string {
+	var out []string
+	if o.InstrumentFWHMNM != nil {
+		out = append(out, "instrument FWHM "+views.SigFig(*o.InstrumentFWHMNM, 4)+" nm")
+	}
+	if o.GasTemperatureK != nil {
+		out = append(out, "gas temperature "+views.SigFig(*o.GasTemperatureK, 4)+" K")
+	}
+	if o.PressurePa != nil {
+		out = append(out, "pressure "+views.SigFig(*o.PressurePa, 4)+" Pa")
+	}
+	if o.Perturber != nil {
+		out = append(out, "perturber "+*o.Perturber)
+	}
+	return out
 }
 
 // showJob handles GET /jobs/:jid: a progress page; with ?fragment=1 only
@@ -290,19 +370,8 @@ func (s *Server) showJob(c echo.Context) error {
 	if job.FinishedAt != nil {
 		jp.FinishedAt = job.FinishedAt.Format(reviewTime)
 	}
-	o := p.Overrides
-	if o.InstrumentFWHMNM != nil {
-		jp.Changes = append(jp.Changes, "instrument FWHM "+views.SigFig(*o.InstrumentFWHMNM, 4)+" nm")
-	}
-	if o.GasTemperatureK != nil {
-		jp.Changes = append(jp.Changes, "gas temperature "+views.SigFig(*o.GasTemperatureK, 4)+" K")
-	}
-	if o.PressurePa != nil {
-		jp.Changes = append(jp.Changes, "pressure "+views.SigFig(*o.PressurePa, 4)+" Pa")
-	}
-	if o.Perturber != nil {
-		jp.Changes = append(jp.Changes, "perturber "+*o.Perturber)
-	}
+	jp.Changes = p.Overrides.words()
+	jp.SkippedSignedOff, jp.IncludeSignedOff = p.SkippedSignedOff, p.IncludeSignedOff
 	if c.QueryParam("fragment") == "1" {
 		return render(c, http.StatusOK, views.JobProgress(jp))
 	}

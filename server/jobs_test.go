@@ -37,25 +37,36 @@ func TestBulkReanalysis(t *testing.T) {
 	if code, _ := f.client(t, f.op).req(http.MethodPost, "/jobs/reanalyze", url.Values{"reason": {"x"}}); code != http.StatusForbidden {
 		t.Errorf("operator starting a job: %d, want 403", code)
 	}
-	code, _ = rev.req(http.MethodPost, "/jobs/reanalyze", url.Values{"chamber": {itoa64(ch)}, "reason": {"new slit function"},
-		"instrument_fwhm_nm": {"0.06"}})
+	// A signed-off run in the same chamber: skipped unless included.
+	signed := analysedRun(t, f.s, f.op, "signed-off Hβ run", t0.Add(4*time.Hour), &ch)
+	signOff(t, f, signed)
+	before, _ := f.s.DB.GetRun(ctx, signed)
+
+	form := url.Values{"chamber": {itoa64(ch)}, "reason": {"new slit function"}, "instrument_fwhm_nm": {"0.06"}}
+	// First the confirmation: counts, nothing queued yet.
+	code, body := rev.req(http.MethodPost, "/jobs/reanalyze", form)
+	if code != http.StatusOK || !strings.Contains(body, `data-testid="confirm-matching">4<`) ||
+		!strings.Contains(body, `data-testid="confirm-signed-off">1<`) || !strings.Contains(body, `data-testid="confirm-touch">3<`) ||
+		!strings.Contains(body, `name="confirm" value="1"`) || !strings.Contains(body, `name="instrument_fwhm_nm" value="0.06"`) {
+		t.Fatalf("confirm step: %d %.2000s", code, body)
+	}
+	if _, err := f.s.DB.Job(ctx, 1); err == nil {
+		t.Fatal("a job was queued before the confirmation")
+	}
+	form.Set("confirm", "1")
+	code, _ = rev.req(http.MethodPost, "/jobs/reanalyze", form)
 	if code != http.StatusSeeOther {
 		t.Fatalf("start job: %d", code)
 	}
-	var job store.Job
-	deadline := time.Now().Add(20 * time.Second)
-	for {
-		var err error
-		if job, err = f.s.DB.Job(ctx, 1); err != nil {
-			t.Fatal(err)
-		}
-		if job.Finished() || time.Now().After(deadline) {
-			break
-		}
-		time.Sleep(20 * time.Millisecond)
-	}
-	if job.State != store.JobDone || job.Done != 2 || job.Failed != 1 || !strings.Contains(job.Message, "no spectrum") {
+	job := waitJob(t, f.s, 1)
+	if job.State != store.JobDone || job.Total != 3 || job.Done != 2 || job.Failed != 1 || !strings.Contains(job.Message, "no spectrum") {
 		t.Fatalf("job %+v", job)
+	}
+	if as, _ := f.s.DB.Analyses(ctx, signed); len(as) != 1 {
+		t.Errorf("signed-off run got %d versions from a job that skips it, want 1", len(as))
+	}
+	if _, body := f.client(t, f.vie).req(http.MethodGet, "/jobs/1", nil); !strings.Contains(body, `data-testid="job-skipped">1 signed-off`) {
+		t.Errorf("job page does not say that a signed-off run was skipped: %.1500s", body)
 	}
 	for _, id := range ids {
 		as, err := f.s.DB.Analyses(ctx, id)
@@ -74,10 +85,38 @@ func TestBulkReanalysis(t *testing.T) {
 	}
 	_ = bare
 
+	// Included by the reviewer: the signed-off run gets a version that is
+	// not approved; everything shown stays the approved version.
+	form.Set("include_signed_off", "1")
+	form.Set("status", "signed_off")
+	form.Set("reason", "slit check on approved runs")
+	form.Del("confirm")
+	if code, body := rev.req(http.MethodPost, "/jobs/reanalyze", form); code != http.StatusOK || !strings.Contains(body, `data-testid="confirm-touch">1<`) {
+		t.Fatalf("confirm with signed-off included: %d %.1500s", code, body)
+	}
+	form.Set("confirm", "1")
+	if code, _ := rev.req(http.MethodPost, "/jobs/reanalyze", form); code != http.StatusSeeOther {
+		t.Fatalf("start job 2: %d", code)
+	}
+	if job := waitJob(t, f.s, 2); job.Done != 1 || job.Failed != 0 {
+		t.Fatalf("job 2 %+v", job)
+	}
+	after, _ := f.s.DB.GetRun(ctx, signed)
+	if as, _ := f.s.DB.Analyses(ctx, signed); len(as) != 2 || !strings.Contains(as[0].Reason, "not approved") {
+		t.Errorf("included signed-off run: %d versions (want 2), newest reason %q", len(as), as[0].Reason)
+	}
+	if after.AnalysisVersion != 1 || *after.ApprovedVersion != 1 || *after.NeM3 != *before.NeM3 || after.Status != store.StatusSignedOff {
+		t.Errorf("signed-off run changed: version %d approved %v n_e %v → %v status %s", after.AnalysisVersion, after.ApprovedVersion,
+			*before.NeM3, *after.NeM3, after.Status)
+	}
+	if cur, _ := f.s.DB.AnalysisVersion(ctx, signed, 0); cur.Version != 1 {
+		t.Errorf("current version of the signed-off run is %d, want the approved 1", cur.Version)
+	}
+
 	// The page, the polled fragment (no trigger once finished), and a
 	// running job's fragment with the htmx poll.
 	v := f.client(t, f.vie)
-	code, body := v.req(http.MethodGet, "/jobs/1", nil)
+	code, body = v.req(http.MethodGet, "/jobs/1", nil)
 	if code != http.StatusOK || !strings.Contains(body, `data-testid="job-bar"`) || strings.Contains(body, `hx-trigger`) {
 		t.Errorf("finished job page: %d %.400s", code, body)
 	}
@@ -106,5 +145,35 @@ func TestStaleJobsFailOnStart(t *testing.T) {
 	j, _ := f.s.DB.Job(context.Background(), id)
 	if j.State != store.JobFailed || !strings.Contains(j.Message, "restarted") {
 		t.Errorf("stale job %+v", j)
+	}
+}
+
+// waitJob waits (bounded) for job id to finish.
+func waitJob(t *testing.T, s *Server, id int64) store.Job {
+	t.Helper()
+	for range 2000 {
+		job, err := s.DB.Job(context.Background(), id)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if job.Finished() {
+			return job
+		}
+		time.Sleep(10 * time.Millisecond)
+	}
+	t.Fatalf("job %d did not finish", id)
+	return store.Job{}
+}
+
+// signOff submits run id (by its operator) and signs it off (by the
+// fixture's reviewer) through the store.
+func signOff(t *testing.T, f *reviewFixture, id int64) {
+	t.Helper()
+	ctx := context.Background()
+	if _, err := f.s.DB.Review(ctx, id, f.op, store.ActionSubmit, ""); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := f.s.DB.Review(ctx, id, f.rev, store.ActionSignOff, "fine"); err != nil {
+		t.Fatal(err)
 	}
 }

@@ -31,7 +31,15 @@ func (s *Server) review(c echo.Context, action store.ReviewAction, done string) 
 	if err != nil {
 		return err
 	}
-	_, err = s.DB.Review(c.Request().Context(), id, *currentUser(c), action, c.FormValue("note"))
+	seen := 0
+	if v := c.FormValue("version"); v != "" && action == store.ActionSignOff {
+		n, err := strconv.Atoi(v)
+		if err != nil || n < 0 {
+			return badRequest("version: %q is not an analysis version", v)
+		}
+		seen = n
+	}
+	_, err = s.DB.ReviewSeen(c.Request().Context(), id, *currentUser(c), action, c.FormValue("note"), seen)
 	if errors.Is(err, store.ErrNotAllowed) {
 		return &userError{http.StatusForbidden, trimStore(err)}
 	}
@@ -76,6 +84,14 @@ func (s *Server) returnRun(c echo.Context) error {
 	return s.review(c, store.ActionReturn, "Run returned for rework.")
 }
 
+// reopenRun handles POST /runs/:id/reopen (reviewers; a reason is
+// required): a signed-off run goes back to "returned for rework", its
+// sign-off and approved version are cleared (recorded in the review
+// history), and its newest analysis version becomes the one shown.
+func (s *Server) reopenRun(c echo.Context) error {
+	return s.review(c, store.ActionReopen, "Run reopened: its sign-off is withdrawn and its newest analysis version is shown.")
+}
+
 // addComment handles POST /runs/:id/comments (operators and above).
 func (s *Server) addComment(c echo.Context) error {
 	id, err := runIDParam(c)
@@ -101,8 +117,15 @@ func (s *Server) runReviewPanel(ctx context.Context, c echo.Context, r store.Run
 		return p, err
 	}
 	for _, e := range evs {
-		p.Events = append(p.Events, views.ReviewEventView{At: e.At.Format(reviewTime), By: e.UserName,
-			From: store.StatusLabel(e.From), To: store.StatusLabel(e.To), Note: e.Note})
+		ev := views.ReviewEventView{At: e.At.Format(reviewTime), By: e.UserName,
+			From: store.StatusLabel(e.From), To: store.StatusLabel(e.To), Note: e.Note}
+		switch {
+		case e.To == store.StatusSignedOff:
+			ev.Version = e.AnalysisVersion
+		case e.From == store.StatusSignedOff:
+			ev.Version, ev.Reopen = e.AnalysisVersion, true
+		}
+		p.Events = append(p.Events, ev)
 	}
 	if r.Status == store.StatusSignedOff && r.SignedOffAt != nil {
 		by := ""
@@ -114,6 +137,10 @@ func (s *Server) runReviewPanel(ctx context.Context, c echo.Context, r store.Run
 		}
 		p.SignedOff = fmt.Sprintf("by %s at %s UTC", by, r.SignedOffAt.Format(reviewTime))
 	}
+	if r.ApprovedVersion != nil {
+		p.ApprovedVersion = *r.ApprovedVersion
+	}
+	p.CurrentVersion = r.AnalysisVersion
 	cs, err := s.DB.Comments(ctx, r.ID)
 	if err != nil {
 		return p, err
@@ -138,6 +165,8 @@ func (s *Server) runReviewPanel(ctx context.Context, c echo.Context, r store.Run
 			p.SignOffBlocked = "You " + why[len("you "):]
 		}
 		p.CanReturn, _ = may(store.ActionReturn)
+	case store.StatusSignedOff:
+		p.CanReopen, _ = may(store.ActionReopen)
 	}
 	return p, nil
 }

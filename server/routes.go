@@ -63,6 +63,7 @@ func (s *Server) routes() {
 	r.GET("/review", s.showReviewQueue)
 	r.POST("/runs/:id/signoff", s.signOffRun)
 	r.POST("/runs/:id/return", s.returnRun)
+	r.POST("/runs/:id/reopen", s.reopenRun)
 	r.POST("/jobs/reanalyze", s.startBulkReanalysis)
 
 	a := h.Group("/admin", requireRole(store.RoleAdmin))

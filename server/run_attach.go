@@ -187,39 +187,48 @@ func (s *Server) uploadAttachment(c echo.Context) error {
 	if len(ups) == 0 {
 		return formUserError("choose at least one file, or type a line table")
 	}
+	responseUnit := func(st *AnalysisSettings) {
+		if ru := strings.TrimSpace(c.FormValue("response_unit")); ru != "" {
+			for _, up := range ups {
+				if up.kind == store.KindResponse {
+					st.ResponseUnit = ru
+				}
+			}
+		}
+	}
 	st, err := s.latestSettings(c, r)
 	if err != nil {
 		return err
 	}
-	if ru := strings.TrimSpace(c.FormValue("response_unit")); ru != "" {
-		for _, up := range ups {
-			if up.kind == store.KindResponse {
-				st.ResponseUnit = ru
-			}
-		}
-	}
+	responseUnit(&st)
 	if err := st.Validate(); err != nil {
 		return err
 	}
-	// The stored files go in without content: the analysis service reuses
-	// their results when it can, and loads only what it must analyse.
-	listed, err := s.DB.Attachments(ctx, id)
-	if err != nil {
-		return err
-	}
-	all := make([]store.Attachment, 0, len(listed)+len(ups))
-	all = append(all, listed...)
-
+	// One write transaction, holding the write lock from BEGIN: the
+	// settings and the run's file list are read inside it (see
+	// ReanalyzeRunTx), so concurrent uploads never drop each other's files
+	// from the new version. The store refuses the files if the run was
+	// signed off meanwhile.
 	tx, err := s.DB.Begin(ctx)
 	if err != nil {
 		return err
 	}
 	defer tx.Rollback()
+	if st, err = s.latestSettingsTx(ctx, tx, r); err != nil {
+		return err
+	}
+	responseUnit(&st)
+	if err := st.Validate(); err != nil {
+		return err
+	}
 	added, err := s.addUploadsTx(ctx, tx, id, ups)
 	if err != nil {
 		return err
 	}
-	all = append(all, added...)
+	all, err := s.DB.AttachmentsTx(ctx, tx, id)
+	if err != nil {
+		return err
+	}
 	fresh := map[int64]bool{}
 	names := make([]string, 0, len(added))
 	for _, a := range added {
@@ -229,7 +238,7 @@ func (s *Server) uploadAttachment(c echo.Context) error {
 	version := 0
 	if analysable(all) {
 		var results []RunAnalysis
-		version, results, err = s.ReanalyzeRunTx(ctx, tx, id, all, st, &u.ID, "added "+strings.Join(names, ", "))
+		version, results, err = s.ReanalyzeRunTx(ctx, tx, id, added, st, &u.ID, "added "+strings.Join(names, ", "))
 		if err != nil {
 			return err
 		}

@@ -18,11 +18,16 @@ import (
 
 // canReanalyze: the run's operator, reviewers and admins may add analysis
 // versions (a reanalysis never changes an earlier version).
+// A signed-off run is refused (409): its numbers are the approved ones
+// until a reviewer reopens it.
 func canReanalyze(u *store.User, r store.Run) error {
-	if u != nil && (u.ID == r.OperatorID || u.Role.Can(store.RoleReviewer)) {
-		return nil
+	if u == nil || (u.ID != r.OperatorID && !u.Role.Can(store.RoleReviewer)) {
+		return echo.NewHTTPError(http.StatusForbidden, "only the run's operator, a reviewer or an admin can reanalyse this run")
 	}
-	return echo.NewHTTPError(http.StatusForbidden, "only the run's operator, a reviewer or an admin can reanalyse this run")
+	if r.Status == store.StatusSignedOff {
+		return signedOffError(r.ID, r.ApprovedVersion)
+	}
+	return nil
 }
 
 // lineName is the short name of a Balmer line.

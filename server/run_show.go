@@ -47,7 +47,8 @@ func (p *runPage) selected() *decodedResult {
 }
 
 // loadRunPage reads the run named by :id with the version ?v= (0 or
-// absent: the newest) and the attachment ?a= (absent: the first result).
+// absent: the run's current version — the approved one while it is signed
+// off, the newest otherwise) and the attachment ?a= (absent: the first result).
 // An unknown run, version or attachment is a 404; a malformed parameter
 // a 400.
 func (s *Server) loadRunPage(c echo.Context) (*runPage, error) {
@@ -167,6 +168,8 @@ func (s *Server) showRun(c echo.Context) error {
 	props.ReportHref = base + "/report" + p.query()
 	if p.Analysis != nil {
 		props.Version = versionInfo(p.Analysis)
+		props.NotApproved = p.Run.Status == store.StatusSignedOff && p.Run.ApprovedVersion != nil &&
+			p.Analysis.Version != *p.Run.ApprovedVersion
 		props.Series = seriesRows(base, p)
 		if r := p.selected(); r != nil {
 			props.Result = resultView(base, p, r, true)
@@ -190,6 +193,9 @@ func runHeader(r store.Run) views.RunHeader {
 		Started: r.StartedAt.UTC().Format("2006-01-02 15:04 UTC"), Notes: r.Notes, Tags: r.Tags}
 	if r.SignedOffAt != nil {
 		h.SignedOffAt = r.SignedOffAt.UTC().Format("2006-01-02 15:04 UTC")
+	}
+	if r.Status == store.StatusSignedOff && r.ApprovedVersion != nil {
+		h.ApprovedVersion = *r.ApprovedVersion
 	}
 	return h
 }
@@ -247,7 +253,42 @@ func versionInfo(a *store.Analysis) *views.VersionInfo {
 		pretty.WriteString(a.Settings)
 	}
 	return &views.VersionInfo{Version: a.Version, EngineVersion: a.EngineVersion, CreatedBy: by,
-		CreatedAt: a.CreatedAt.UTC().Format("2006-01-02 15:04 UTC"), Reason: a.Reason, Settings: pretty.String()}
+		CreatedAt: a.CreatedAt.UTC().Format("2006-01-02 15:04 UTC"), Reason: a.Reason, Settings: pretty.String(),
+		ComputedWith: computedWith(a.Settings)}
+}
+
+// computedWith describes a version's conditions in words ("" when the
+// settings cannot be read).
+func computedWith(settings string) string {
+	var st AnalysisSettings
+	if json.Unmarshal([]byte(settings), &st) != nil {
+		return ""
+	}
+	num := func(v float64, unit string) string {
+		if v == 0 {
+			return "none"
+		}
+		return strconv.FormatFloat(v, 'g', 6, 64) + " " + unit
+	}
+	instr := "instrument FWHM " + num(st.InstrumentFWHMNM, "nm")
+	if st.InstrumentLorentzFWHMNM > 0 {
+		instr += " (Gaussian) + " + num(st.InstrumentLorentzFWHMNM, "nm") + " (Lorentzian)"
+	}
+	if st.InstrumentID != 0 {
+		instr = fmt.Sprintf("stored instrument function #%d", st.InstrumentID)
+	}
+	gas := "gas temperature " + num(st.GasTemperatureK, "K")
+	if st.GasTemperatureK > 0 && st.GasTemperatureUncK > 0 {
+		gas += " ± " + strconv.FormatFloat(st.GasTemperatureUncK, 'g', 6, 64) + " K"
+	}
+	if st.SolveGasTemperature {
+		gas = "gas temperature solved from Hα and Hβ"
+	}
+	pert := st.Perturber
+	if pert == "" {
+		pert = "none"
+	}
+	return strings.Join([]string{instr, gas, "pressure " + num(st.PressurePa, "Pa"), "perturber " + pert}, ", ")
 }
 
 // versionRows lists every analysis version with its summary values (one
@@ -260,6 +301,10 @@ func versionRows(c echo.Context, s *Server, p *runPage) []views.VersionRow {
 			CreatedBy: v.CreatedByName, Reason: v.Reason,
 			Href:    fmt.Sprintf("/runs/%d?v=%d", p.Run.ID, v.Version),
 			Current: p.Analysis != nil && v.Version == p.Analysis.Version}
+		if p.Run.Status == store.StatusSignedOff && p.Run.ApprovedVersion != nil {
+			row.Approved = v.Version == *p.Run.ApprovedVersion
+			row.NotApproved = !row.Approved
+		}
 		if row.CreatedBy == "" {
 			row.CreatedBy = "system"
 		}

@@ -49,7 +49,9 @@ type NewAnalysis struct {
 }
 
 // AddAnalysis stores a new analysis version of a run (never replacing an
-// earlier one) and updates the run's summary, in one transaction.
+// earlier one) and updates the run's summary, in one transaction. The
+// summary of a signed-off run is left alone: it stays that of the version
+// its reviewer approved (see AddAnalysisTx).
 func (d *DB) AddAnalysis(ctx context.Context, runID int64, a NewAnalysis) (int, error) {
 	var version int
 	err := d.inTx(ctx, func(tx *sql.Tx) error {
@@ -60,8 +62,16 @@ func (d *DB) AddAnalysis(ctx context.Context, runID int64, a NewAnalysis) (int, 
 	return version, err
 }
 
-// AddAnalysisTx is AddAnalysis inside the caller's transaction.
+// AddAnalysisTx is AddAnalysis inside the caller's transaction. On a
+// signed-off run the new version is kept in the history, but the run's
+// summary columns and analysis_version (what lists, trends, exports, the
+// API and the run page show) stay those of the approved version until a
+// reviewer reopens the run.
 func (d *DB) AddAnalysisTx(ctx context.Context, tx *sql.Tx, runID int64, a NewAnalysis) (int, error) {
+	var status string
+	if err := tx.QueryRowContext(ctx, `SELECT status FROM runs WHERE id = ?`, runID).Scan(&status); err != nil {
+		return 0, errNoRows(err, fmt.Sprintf("run %d", runID))
+	}
 	var version int
 	if err := tx.QueryRowContext(ctx, `SELECT coalesce(max(version), 0) + 1 FROM analyses WHERE run_id = ?`, runID).Scan(&version); err != nil {
 		return 0, err
@@ -94,16 +104,43 @@ func (d *DB) AddAnalysisTx(ctx context.Context, tx *sql.Tx, runID int64, a NewAn
 			return 0, fmt.Errorf("store: add analysis result: %w", err)
 		}
 	}
+	if status == StatusSignedOff {
+		return version, nil
+	}
 	if err := pruneRunChangesTx(ctx, tx); err != nil {
 		return 0, err
 	}
-	s := summarize(a.Results)
-	if _, err := tx.ExecContext(ctx, `UPDATE runs SET texc_k = ?, texc_unc_k = ?, ne_m3 = ?, ne_unc_m3 = ?, tgas_k = ?,
-		n_warnings = ?, analysis_version = ?, updated_at = ? WHERE id = ?`,
-		nullF(s.TexcK), nullF(s.TexcUncK), nullF(s.NeM3), nullF(s.NeUncM3), nullF(s.TgasK), s.NWarnings, version, d.now(), runID); err != nil {
+	if err := d.setSummaryTx(ctx, tx, runID, version, a.Results); err != nil {
 		return 0, err
 	}
 	return version, nil
+}
+
+// setSummaryTx makes version (with results rs) the run's current analysis:
+// its summary columns and analysis_version.
+func (d *DB) setSummaryTx(ctx context.Context, tx *sql.Tx, runID int64, version int, rs []AnalysisResult) error {
+	s := summarize(rs)
+	_, err := tx.ExecContext(ctx, `UPDATE runs SET texc_k = ?, texc_unc_k = ?, ne_m3 = ?, ne_unc_m3 = ?, tgas_k = ?,
+		n_warnings = ?, analysis_version = ?, updated_at = ? WHERE id = ?`,
+		nullF(s.TexcK), nullF(s.TexcUncK), nullF(s.NeM3), nullF(s.NeUncM3), nullF(s.TgasK), s.NWarnings, version, d.now(), runID)
+	return err
+}
+
+// refreshSummaryTx makes the run's newest analysis version its current one
+// (after a reopen); a run without analyses gets an empty summary.
+func (d *DB) refreshSummaryTx(ctx context.Context, tx *sql.Tx, runID int64) error {
+	var version int
+	if err := tx.QueryRowContext(ctx, `SELECT coalesce(max(version), 0) FROM analyses WHERE run_id = ?`, runID).Scan(&version); err != nil {
+		return err
+	}
+	var rs []AnalysisResult
+	if version > 0 {
+		var err error
+		if _, _, rs, err = d.LatestResultsTx(ctx, tx, runID); err != nil {
+			return err
+		}
+	}
+	return d.setSummaryTx(ctx, tx, runID, version, rs)
 }
 
 // summarize combines the results of a run's attachments (a time series):
@@ -192,11 +229,20 @@ func (d *DB) Analyses(ctx context.Context, runID int64) ([]Analysis, error) {
 	return out, rows.Err()
 }
 
-// AnalysisVersion returns one version (0: the newest) with its results.
+// AnalysisVersion returns one version with its results. Version 0 is the
+// run's current version (runs.analysis_version): the approved one while the
+// run is signed off, the newest otherwise.
 func (d *DB) AnalysisVersion(ctx context.Context, runID int64, version int) (Analysis, error) {
 	all, err := d.Analyses(ctx, runID)
 	if err != nil {
 		return Analysis{}, err
+	}
+	if version == 0 && len(all) > 0 {
+		var cur int
+		if err := d.db.QueryRowContext(ctx, `SELECT analysis_version FROM runs WHERE id = ?`, runID).Scan(&cur); err != nil {
+			return Analysis{}, errNoRows(err, fmt.Sprintf("run %d", runID))
+		}
+		version = cur
 	}
 	var a *Analysis
 	for i := range all {
@@ -239,6 +285,17 @@ func errNoRows(err error, what string) error {
 		return fmt.Errorf("%s: %w", what, ErrNotFound)
 	}
 	return err
+}
+
+// LatestSettingsTx returns, inside the caller's transaction, the settings
+// JSON of a run's newest analysis version (ErrNotFound when it has none).
+func (d *DB) LatestSettingsTx(ctx context.Context, tx *sql.Tx, runID int64) (string, error) {
+	var settings string
+	err := tx.QueryRowContext(ctx, `SELECT settings FROM analyses WHERE run_id = ? ORDER BY version DESC LIMIT 1`, runID).Scan(&settings)
+	if err != nil {
+		return "", errNoRows(err, fmt.Sprintf("run %d analysis", runID))
+	}
+	return settings, nil
 }
 
 // LatestResultsTx returns, inside the caller's transaction, the settings,

@@ -45,6 +45,16 @@ func (d *DB) AddAttachmentTx(ctx context.Context, tx *sql.Tx, runID int64, kind,
 	if len(content) > MaxAttachmentBytes {
 		return 0, fmt.Errorf("%w: %s is %d bytes, above the %d-byte limit", ErrInvalid, name, len(content), MaxAttachmentBytes)
 	}
+	// A signed-off run's files are what its reviewer approved: checked
+	// here, inside the write transaction, so that a sign-off committed
+	// after a handler's own check still wins.
+	var status string
+	if err := tx.QueryRowContext(ctx, `SELECT status FROM runs WHERE id = ?`, runID).Scan(&status); err != nil {
+		return 0, errNoRows(err, fmt.Sprintf("run %d", runID))
+	}
+	if status == StatusSignedOff {
+		return 0, fmt.Errorf("%w: run %d is signed off: its files are locked until a reviewer reopens it", ErrConflict, runID)
+	}
 	var seq int
 	if err := tx.QueryRowContext(ctx, `SELECT coalesce(max(seq), 0) + 1 FROM attachments WHERE run_id = ? AND kind = ?`, runID, kind).Scan(&seq); err != nil {
 		return 0, err
@@ -66,7 +76,27 @@ func (d *DB) AddAttachmentTx(ctx context.Context, tx *sql.Tx, runID int64, kind,
 
 // Attachments lists a run's attachments (without content) by kind and seq.
 func (d *DB) Attachments(ctx context.Context, runID int64) ([]Attachment, error) {
-	rows, err := d.db.QueryContext(ctx, `SELECT id, run_id, kind, name, seq, size, created_at FROM attachments
+	return listAttachments(ctx, d.db, runID)
+}
+
+// AttachmentsTx is Attachments inside the caller's transaction. Write
+// transactions are immediate (they hold the write lock from BEGIN), so the
+// list is every file committed before the transaction plus those it added
+// itself, and no other writer can add one until it ends: an analysis
+// version built from this list includes exactly the files committed before
+// it.
+func (d *DB) AttachmentsTx(ctx context.Context, tx *sql.Tx, runID int64) ([]Attachment, error) {
+	return listAttachments(ctx, tx, runID)
+}
+
+// querier is what *sql.DB and *sql.Tx share.
+type querier interface {
+	QueryContext(ctx context.Context, query string, args ...any) (*sql.Rows, error)
+	QueryRowContext(ctx context.Context, query string, args ...any) *sql.Row
+}
+
+func listAttachments(ctx context.Context, q querier, runID int64) ([]Attachment, error) {
+	rows, err := q.QueryContext(ctx, `SELECT id, run_id, kind, name, seq, size, created_at FROM attachments
 		WHERE run_id = ? ORDER BY kind, seq`, runID)
 	if err != nil {
 		return nil, err

@@ -29,11 +29,13 @@ const MaxNoteLen = 5000
 type ReviewAction string
 
 // The review actions: draft or returned → submitted; submitted →
-// signed_off or returned.
+// signed_off or returned; signed_off → returned (reopen, by a reviewer
+// with a reason: the only way a signed-off run's numbers can change).
 const (
 	ActionSubmit  ReviewAction = "submit"
 	ActionSignOff ReviewAction = "signoff"
 	ActionReturn  ReviewAction = "return"
+	ActionReopen  ReviewAction = "reopen"
 )
 
 var reviewRules = map[ReviewAction]struct {
@@ -43,6 +45,7 @@ var reviewRules = map[ReviewAction]struct {
 	ActionSubmit:  {[]string{StatusDraft, StatusReturned}, StatusSubmitted},
 	ActionSignOff: {[]string{StatusSubmitted}, StatusSignedOff},
 	ActionReturn:  {[]string{StatusSubmitted}, StatusReturned},
+	ActionReopen:  {[]string{StatusSignedOff}, StatusReturned},
 }
 
 // StatusEvent is one review transition of a run.
@@ -54,6 +57,10 @@ type StatusEvent struct {
 	UserName string
 	At       time.Time
 	Note     string
+	// AnalysisVersion is the run's analysis version at this step: for a
+	// sign-off the version approved, for a reopen the one that had been
+	// approved (0: not recorded, events before migration 0005).
+	AnalysisVersion int
 }
 
 // MayReview reports whether user by may take action on a run operated by
@@ -76,6 +83,10 @@ func MayReview(action ReviewAction, by User, operatorID int64) (bool, string) {
 		if !by.Role.Can(RoleReviewer) {
 			return false, "returning a run needs the reviewer role"
 		}
+	case ActionReopen:
+		if !by.Role.Can(RoleReviewer) {
+			return false, "reopening a signed-off run needs the reviewer role"
+		}
 	default:
 		return false, "unknown review action"
 	}
@@ -83,11 +94,24 @@ func MayReview(action ReviewAction, by User, operatorID int64) (bool, string) {
 }
 
 // Review applies a review action to run runID by user by, with a note
-// (required when returning), and records the transition in status_events
-// in the same transaction. A transition that the run's state does not
-// allow is ErrConflict; one the user may not make is ErrNotAllowed; a
-// missing note is ErrInvalid. It returns the recorded event.
+// (required when returning or reopening), and records the transition in
+// status_events in the same transaction. A transition that the run's state
+// does not allow is ErrConflict; one the user may not make is
+// ErrNotAllowed; a missing note is ErrInvalid. It returns the recorded
+// event.
+//
+// Sign-off approves the run's current analysis version: it is recorded in
+// runs.approved_version and stays what the run shows until a reopen, which
+// makes the newest version current again.
 func (d *DB) Review(ctx context.Context, runID int64, by User, action ReviewAction, note string) (StatusEvent, error) {
+	return d.ReviewSeen(ctx, runID, by, action, note, 0)
+}
+
+// ReviewSeen is Review for a reviewer who looked at analysis version seen
+// (0: not given): a sign-off is refused (ErrConflict) when the run's
+// current version is no longer seen, so that nobody approves numbers they
+// did not see.
+func (d *DB) ReviewSeen(ctx context.Context, runID int64, by User, action ReviewAction, note string, seen int) (StatusEvent, error) {
 	rule, ok := reviewRules[action]
 	if !ok {
 		return StatusEvent{}, fmt.Errorf("%w: unknown review action %q", ErrInvalid, action)
@@ -96,14 +120,24 @@ func (d *DB) Review(ctx context.Context, runID int64, by User, action ReviewActi
 	if action == ActionReturn && note == "" {
 		return StatusEvent{}, fmt.Errorf("%w: a note is required when returning a run: say what needs rework", ErrInvalid)
 	}
+	if action == ActionReopen && note == "" {
+		return StatusEvent{}, fmt.Errorf("%w: a reason is required when reopening a signed-off run: say why its approval is withdrawn", ErrInvalid)
+	}
 	if len([]rune(note)) > MaxNoteLen {
 		return StatusEvent{}, fmt.Errorf("%w: the note is longer than %d characters", ErrInvalid, MaxNoteLen)
 	}
 	ev := StatusEvent{RunID: runID, To: rule.to, UserID: by.ID, UserName: by.Name, Note: note}
 	err := d.inTx(ctx, func(tx *sql.Tx) error {
 		var operator int64
-		if err := tx.QueryRowContext(ctx, `SELECT status, operator_id FROM runs WHERE id = ?`, runID).Scan(&ev.From, &operator); err != nil {
+		var current int
+		var approved sql.NullInt64
+		if err := tx.QueryRowContext(ctx, `SELECT status, operator_id, analysis_version, approved_version FROM runs WHERE id = ?`, runID).
+			Scan(&ev.From, &operator, &current, &approved); err != nil {
 			return errNoRows(err, fmt.Sprintf("run %d", runID))
+		}
+		ev.AnalysisVersion = current
+		if ev.From == StatusSignedOff && approved.Valid {
+			ev.AnalysisVersion = int(approved.Int64)
 		}
 		if ok, why := MayReview(action, by, operator); !ok {
 			return fmt.Errorf("%w: %s", ErrNotAllowed, why)
@@ -118,21 +152,32 @@ func (d *DB) Review(ctx context.Context, runID int64, by User, action ReviewActi
 			return fmt.Errorf("%w: run %d is “%s”; only runs that are %s can be moved to “%s”", ErrConflict, runID,
 				StatusLabel(ev.From), strings.Join(labels, " or "), StatusLabel(rule.to))
 		}
+		if action == ActionSignOff && seen > 0 && seen != current {
+			return fmt.Errorf("%w: run %d now shows analysis version %d, not the version %d you reviewed; look at version %d before signing off",
+				ErrConflict, runID, current, seen, current)
+		}
 		now := d.now()
 		ev.At = time.Unix(now, 0).UTC()
 		var err error
 		if action == ActionSignOff {
-			_, err = tx.ExecContext(ctx, `UPDATE runs SET status = ?, signed_off_by = ?, signed_off_at = ?, updated_at = ? WHERE id = ?`,
-				rule.to, by.ID, now, now, runID)
+			_, err = tx.ExecContext(ctx, `UPDATE runs SET status = ?, signed_off_by = ?, signed_off_at = ?, approved_version = analysis_version,
+				updated_at = ? WHERE id = ?`, rule.to, by.ID, now, now, runID)
 		} else {
-			_, err = tx.ExecContext(ctx, `UPDATE runs SET status = ?, signed_off_by = NULL, signed_off_at = NULL, updated_at = ? WHERE id = ?`,
-				rule.to, now, runID)
+			_, err = tx.ExecContext(ctx, `UPDATE runs SET status = ?, signed_off_by = NULL, signed_off_at = NULL, approved_version = NULL,
+				updated_at = ? WHERE id = ?`, rule.to, now, runID)
 		}
 		if err != nil {
 			return fmt.Errorf("store: review: %w", err)
 		}
-		res, err := tx.ExecContext(ctx, `INSERT INTO status_events (run_id, from_status, to_status, user_id, at, note) VALUES (?, ?, ?, ?, ?, ?)`,
-			runID, ev.From, ev.To, by.ID, now, note)
+		if action == ActionReopen {
+			// Versions added while it was signed off become visible: the
+			// newest is current again.
+			if err := d.refreshSummaryTx(ctx, tx, runID); err != nil {
+				return fmt.Errorf("store: reopen: %w", err)
+			}
+		}
+		res, err := tx.ExecContext(ctx, `INSERT INTO status_events (run_id, from_status, to_status, user_id, at, note, analysis_version)
+			VALUES (?, ?, ?, ?, ?, ?, ?)`, runID, ev.From, ev.To, by.ID, now, note, ev.AnalysisVersion)
 		if err != nil {
 			return fmt.Errorf("store: status event: %w", err)
 		}
@@ -147,8 +192,8 @@ func (d *DB) Review(ctx context.Context, runID int64, by User, action ReviewActi
 
 // StatusEvents returns a run's review history, oldest first.
 func (d *DB) StatusEvents(ctx context.Context, runID int64) ([]StatusEvent, error) {
-	rows, err := d.db.QueryContext(ctx, `SELECT e.id, e.run_id, e.from_status, e.to_status, e.user_id, u.name, e.at, e.note
-		FROM status_events e JOIN users u ON u.id = e.user_id WHERE e.run_id = ? ORDER BY e.at, e.id`, runID)
+	rows, err := d.db.QueryContext(ctx, `SELECT e.id, e.run_id, e.from_status, e.to_status, e.user_id, u.name, e.at, e.note,
+		coalesce(e.analysis_version, 0) FROM status_events e JOIN users u ON u.id = e.user_id WHERE e.run_id = ? ORDER BY e.at, e.id`, runID)
 	if err != nil {
 		return nil, fmt.Errorf("store: status events: %w", err)
 	}
@@ -157,7 +202,7 @@ func (d *DB) StatusEvents(ctx context.Context, runID int64) ([]StatusEvent, erro
 	for rows.Next() {
 		var e StatusEvent
 		var at int64
-		if err := rows.Scan(&e.ID, &e.RunID, &e.From, &e.To, &e.UserID, &e.UserName, &at, &e.Note); err != nil {
+		if err := rows.Scan(&e.ID, &e.RunID, &e.From, &e.To, &e.UserID, &e.UserName, &at, &e.Note, &e.AnalysisVersion); err != nil {
 			return nil, err
 		}
 		e.At = time.Unix(at, 0).UTC()

@@ -76,10 +76,15 @@ type Run struct {
 	UpdatedAt        time.Time
 	Tags             []string
 
-	// Summary of the current analysis.
+	// Summary of the current analysis: while the run is signed off, that
+	// of the approved version.
 	TexcK, TexcUncK, NeM3, NeUncM3, TgasK *float64
 	NWarnings                             int
 	AnalysisVersion                       int
+	// ApprovedVersion is the analysis version its sign-off approved (nil
+	// unless the run is signed off; 0 when it was signed off without an
+	// analysis).
+	ApprovedVersion *int
 }
 
 // RunInput is what a user may set on a run (no ids of others, no status,
@@ -235,7 +240,7 @@ const runCols = `r.id, r.title, r.started_at, r.operator_id, u.name, r.chamber_i
 	coalesce(p.name, ''), r.source_type, r.gas_mixture, r.pressure_pa, r.power_w, r.flows, r.electrode_gap_mm,
 	r.grating_l_mm, r.slit_um, r.integration_ms, r.instrument_fwhm_nm, r.instrument_id, r.gas_temperature_k,
 	r.perturber, r.notes, r.status, r.signed_off_by, r.signed_off_at, r.created_at, r.updated_at,
-	r.texc_k, r.texc_unc_k, r.ne_m3, r.ne_unc_m3, r.tgas_k, r.n_warnings, r.analysis_version`
+	r.texc_k, r.texc_unc_k, r.ne_m3, r.ne_unc_m3, r.tgas_k, r.n_warnings, r.analysis_version, r.approved_version`
 
 const runFrom = ` FROM runs r JOIN users u ON u.id = r.operator_id
 	LEFT JOIN chambers c ON c.id = r.chamber_id LEFT JOIN recipes p ON p.id = r.recipe_id`
@@ -243,12 +248,12 @@ const runFrom = ` FROM runs r JOIN users u ON u.id = r.operator_id
 func scanRun(row interface{ Scan(...any) error }) (Run, error) {
 	var r Run
 	var started, created, updated int64
-	var chamber, recipe, instr, signedBy, signedAt sql.NullInt64
+	var chamber, recipe, instr, signedBy, signedAt, approved sql.NullInt64
 	var pressure, power, gap, grating, slit, integ, instFWHM, gasT, texc, texcU, ne, neU, tgas sql.NullFloat64
 	err := row.Scan(&r.ID, &r.Title, &started, &r.OperatorID, &r.OperatorName, &chamber, &r.ChamberName, &recipe,
 		&r.RecipeName, &r.SourceType, &r.GasMixture, &pressure, &power, &r.Flows, &gap, &grating, &slit, &integ,
 		&instFWHM, &instr, &gasT, &r.Perturber, &r.Notes, &r.Status, &signedBy, &signedAt, &created, &updated,
-		&texc, &texcU, &ne, &neU, &tgas, &r.NWarnings, &r.AnalysisVersion)
+		&texc, &texcU, &ne, &neU, &tgas, &r.NWarnings, &r.AnalysisVersion, &approved)
 	if err != nil {
 		if errors.Is(err, sql.ErrNoRows) {
 			return r, fmt.Errorf("run: %w", ErrNotFound)
@@ -264,6 +269,10 @@ func scanRun(row interface{ Scan(...any) error }) (Run, error) {
 		return &v
 	}
 	r.ChamberID, r.RecipeID, r.InstrumentID, r.SignedOffBy = ptrI(chamber), ptrI(recipe), ptrI(instr), ptrI(signedBy)
+	if approved.Valid {
+		v := int(approved.Int64)
+		r.ApprovedVersion = &v
+	}
 	if signedAt.Valid {
 		t := time.Unix(signedAt.Int64, 0).UTC()
 		r.SignedOffAt = &t
@@ -272,6 +281,23 @@ func scanRun(row interface{ Scan(...any) error }) (Run, error) {
 	r.IntegrationMS, r.InstrumentFWHMNM, r.GasTemperatureK = scanF(integ), scanF(instFWHM), scanF(gasT)
 	r.TexcK, r.TexcUncK, r.NeM3, r.NeUncM3, r.TgasK = scanF(texc), scanF(texcU), scanF(ne), scanF(neU), scanF(tgas)
 	return r, nil
+}
+
+// RunStatusTx returns, inside the caller's transaction, a run's review
+// status and the analysis version its sign-off approved (nil unless signed
+// off). Write transactions hold the write lock from BEGIN, so no sign-off
+// or reopen can happen between this read and the transaction's commit.
+func (d *DB) RunStatusTx(ctx context.Context, tx *sql.Tx, runID int64) (string, *int, error) {
+	var status string
+	var approved sql.NullInt64
+	if err := tx.QueryRowContext(ctx, `SELECT status, approved_version FROM runs WHERE id = ?`, runID).Scan(&status, &approved); err != nil {
+		return "", nil, errNoRows(err, fmt.Sprintf("run %d", runID))
+	}
+	if !approved.Valid {
+		return status, nil, nil
+	}
+	v := int(approved.Int64)
+	return status, &v, nil
 }
 
 // GetRun returns one run with its tags.
