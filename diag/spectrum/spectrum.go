@@ -160,9 +160,14 @@ type Result struct {
 type Error struct {
 	Source string
 	Msg    string
+	// Err is the underlying error when there is one (a *diag.LineError or
+	// *diag.NumericError from the analysis), for errors.As.
+	Err error
 }
 
 func (e *Error) Error() string { return e.Source + ": " + e.Msg }
+
+func (e *Error) Unwrap() error { return e.Err }
 
 // ErrNoBalmerLine reports a spectrum in which no Balmer line could be used.
 var ErrNoBalmerLine = errors.New("no Balmer line detected")
@@ -320,6 +325,14 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 				v += math.Max(opt.Dark.Counts[i], 0)*opt.GainElectronsPerCount + opt.ReadNoiseElectrons*opt.ReadNoiseElectrons
 			}
 			sig[i] = math.Sqrt(math.Max(v, 1)) / opt.GainElectronsPerCount / dx
+			if math.IsInf(sig[i], 0) || math.IsNaN(sig[i]) {
+				return res, fail(src, "pixel %d (%.4f nm): the noise model (gain %v e⁻/count, read noise %v e⁻) gives a non-finite σ: check the gain and read noise",
+					i+1, sp.WavelengthNM[i], opt.GainElectronsPerCount, opt.ReadNoiseElectrons)
+			}
+		}
+		if math.IsInf(y[i], 0) || math.IsNaN(y[i]) {
+			return res, fail(src, "pixel %d (%.4f nm): %v counts (dark subtracted: %v) over a %.3g nm pixel is beyond the range that can be analysed: check the values and their scale",
+				i+1, sp.WavelengthNM[i], sp.Counts[i], c, dx)
 		}
 	}
 	if sp.Vacuum {
@@ -450,7 +463,7 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 	}
 	ar, err := diag.Analyze(m)
 	if err != nil {
-		return res, fail(src, "%s", trimDiag(err.Error()))
+		return res, &Error{Source: src, Msg: trimDiag(err.Error()), Err: err}
 	}
 	res.Result = ar
 	if autoSat && anySaturated(cands) {
@@ -469,6 +482,10 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 	res.Warnings = res.Warnings[:0]
 	for _, f := range res.Flags {
 		res.Warnings = append(res.Warnings, f.Message)
+	}
+	// Final net: the fits and the preprocessing record are finite too.
+	if err := diag.CheckFinite(res); err != nil {
+		return res, &Error{Source: src, Msg: trimDiag(err.Error()), Err: err}
 	}
 	return res, nil
 }
