@@ -507,10 +507,10 @@ func fitLine(x, y, w []float64) lineFit {
 // relUncError is the error for a point whose relative intensity
 // uncertainty is outside [minRelIntensityUnc, maxRelIntensityUnc].
 func relUncError(p BoltzmannPoint, rel float64) error {
-	what := fmt.Sprintf("is %.3g times the intensity %v: a relative 1σ below %.0e is beyond the precision of any intensity measurement (and overflows the fit weights); give a realistic uncertainty or leave it out",
+	what := fmt.Sprintf("that is %.3g of the intensity %v; a relative 1σ below %.0e is beyond the precision of any intensity measurement (and overflows the fit weights): give a realistic uncertainty or leave it out",
 		rel, p.Intensity, minRelIntensityUnc)
 	if !(rel < maxRelIntensityUnc) {
-		what = fmt.Sprintf("is %.3g times the intensity %v (limit %.0e): check that both are in the same unit",
+		what = fmt.Sprintf("that is %.3g times the intensity %v (limit %.0e): check that both are in the same unit",
 			rel, p.Intensity, maxRelIntensityUnc)
 	}
 	return &NumericError{Upper: p.Upper, Field: "intensity_unc", Value: p.IntensityUnc, Msg: what}

@@ -90,7 +90,7 @@ func Decode(source string, data []byte) (diag.Measurement, error) {
 	if len(bytes.TrimSpace(data)) == 0 {
 		return fail(0, "", "empty input: expected a JSON object with \"intensity_unit\" and \"lines\"")
 	}
-	if err := checkShape(data, MaxDepth, MaxValues); err != nil {
+	if err := checkShape(data, MaxDepth, MaxValues, msetDepthHint); err != nil {
 		return diag.Measurement{}, shapeToError(source, data, err)
 	}
 	pos, err := indexPositions(data, MaxEntries)

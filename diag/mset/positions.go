@@ -17,6 +17,9 @@ import (
 // any decoding, so its cost does not grow with the depth.
 const MaxDepth = 8
 
+// msetDepthHint ends the nesting message for measurement sets.
+const msetDepthHint = " (a measurement set needs 3): the input is not a measurement set"
+
 // MaxEntries bounds the members of any one object or array in a
 // measurement set: at most one line per Balmer member 3…diag.MaxLevel
 // (38), and far fewer fields per object.
@@ -47,8 +50,9 @@ const MaxValues = 4096
 // *shapeError at the first '{' or '[' that opens level maxDepth+1, or at
 // the value that makes more than maxValues (0: no bound; values are
 // counted as separators plus containers). Strings are skipped, escapes
-// respected; malformed JSON is left to the decoder.
-func checkShape(data []byte, maxDepth, maxValues int) error {
+// respected; malformed JSON is left to the decoder. hint ends the depth
+// message.
+func checkShape(data []byte, maxDepth, maxValues int, hint string) error {
 	depth, values := 0, 1
 	inStr, esc := false, false
 	for i, c := range data {
@@ -70,7 +74,7 @@ func checkShape(data []byte, maxDepth, maxValues int) error {
 			depth++
 			if depth > maxDepth {
 				return &shapeError{off: int64(i), msg: fmt.Sprintf(
-					"objects and arrays are nested more than %d deep (a measurement set needs 3): the input is not a measurement set", maxDepth)}
+					"objects and arrays are nested more than %d deep%s", maxDepth, hint)}
 			}
 			values++
 		case '}', ']':
@@ -194,7 +198,7 @@ var errTrailing = errors.New("unexpected data after the top-level JSON value")
 // error is an *Error naming source and line. Other packages use it for
 // their own JSON bodies.
 func CheckJSON(source string, data []byte, maxDepth int) error {
-	if err := checkShape(data, maxDepth, 0); err != nil {
+	if err := checkShape(data, maxDepth, 0, ""); err != nil {
 		return shapeToError(source, data, err)
 	}
 	if _, err := indexPositions(data, 0); err != nil {
@@ -229,4 +233,22 @@ func lineOf(data []byte, off int64) int {
 		off = int64(len(data))
 	}
 	return bytes.Count(data[:off], []byte{'\n'}) + 1
+}
+
+// LineOf returns the 1-based line of the value at path (e.g.
+// "lines[1].intensity_unc") in a measurement set that Decode accepted, or
+// 0 when the path is not in it. It lets callers place errors found later,
+// by the analysis, in the file.
+func LineOf(data []byte, path string) int {
+	if checkShape(data, MaxDepth, MaxValues, msetDepthHint) != nil {
+		return 0
+	}
+	pos, err := indexPositions(data, MaxEntries)
+	if err != nil {
+		return 0
+	}
+	if off, ok := pos[path]; ok {
+		return lineOf(data, off)
+	}
+	return 0
 }
