@@ -255,3 +255,19 @@ func TestDecodeLongNameNotEchoed(t *testing.T) {
 		t.Errorf("got %.300v", err)
 	}
 }
+
+// BenchmarkAnalyzeWorstAccepted is decoding plus the whole analysis of the
+// worst accepted input (target: under 100 ms and 50 MB).
+func BenchmarkAnalyzeWorstAccepted(b *testing.B) {
+	data := worstAccepted()
+	b.ReportAllocs()
+	for b.Loop() {
+		m, err := Decode("worst.json", data)
+		if err != nil {
+			b.Fatal(err)
+		}
+		if _, err := diag.Analyze(m); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
