@@ -179,3 +179,49 @@ func mustDecode(t *testing.T, lines string) diag.Measurement {
 	}
 	return m
 }
+
+// TestPipelineScaleInvariant: the counts' scale is arbitrary (calibrated
+// spectra come in W or photons per second), so a spectrum scaled by
+// 1e-300 or 1e300 gives the same density and intensities scaled alike.
+// Before the fit worked in normalised units, both failed ("fit-failed").
+func TestPipelineScaleInvariant(t *testing.T) {
+	x := make([]float64, 96)
+	for i := range x {
+		x[i] = 484.6 + 0.05*float64(i)
+	}
+	y, _, err := Synthesize(SynthConfig{WavelengthNM: x, Uppers: []int{4}, ExcitationTemperatureK: 8000,
+		ElectronDensityM3: 1e21, GasTemperatureK: 1000, InstrumentFWHMNM: 0.1, HalphaArea: 1e5,
+		BaselinePerNM: 20, NoisePerNM: 5, Rand: rand.New(rand.NewPCG(7, 7))})
+	if err != nil {
+		t.Fatal(err)
+	}
+	opt := Options{Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.1, GasTemperatureK: 1000}, KeepWindows: true}
+	p := NewPipeline(1024)
+	run := func(scale float64) Result {
+		ys := make([]float64, len(y))
+		for i := range y {
+			ys[i] = y[i] * scale
+		}
+		r, err := p.Analyze(&Spectrum{Name: "s.csv", WavelengthNM: x, Counts: ys}, opt)
+		if err != nil {
+			t.Fatalf("scale %g: %v", scale, err)
+		}
+		if err := diag.CheckFinite(r); err != nil {
+			t.Fatalf("scale %g: %v", scale, err)
+		}
+		return r
+	}
+	ref := run(1)
+	for _, scale := range []float64{1e-300, 1e-200, 1e200, 1e300} {
+		r := run(scale)
+		if r.ElectronDensityM3 == nil || math.Abs(*r.ElectronDensityM3 / *ref.ElectronDensityM3-1) > 1e-9 {
+			t.Errorf("scale %g: n_e %v, unscaled %v", scale, r.ElectronDensityM3, *ref.ElectronDensityM3)
+		}
+		if got, want := *r.Lines[0].Intensity/scale, *ref.Lines[0].Intensity; math.Abs(got/want-1) > 1e-9 {
+			t.Errorf("scale %g: intensity/scale %v, unscaled %v", scale, got, want)
+		}
+		if got, want := r.Windows[0].Model[10]/scale, ref.Windows[0].Model[10]; math.Abs(got/want-1) > 1e-9 {
+			t.Errorf("scale %g: window model/scale %v, unscaled %v", scale, got, want)
+		}
+	}
+}
