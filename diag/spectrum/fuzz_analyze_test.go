@@ -214,7 +214,7 @@ func TestPipelineScaleInvariant(t *testing.T) {
 	ref := run(1)
 	for _, scale := range []float64{1e-300, 1e-200, 1e200, 1e300} {
 		r := run(scale)
-		if r.ElectronDensityM3 == nil || math.Abs(*r.ElectronDensityM3 / *ref.ElectronDensityM3-1) > 1e-9 {
+		if r.ElectronDensityM3 == nil || math.Abs(*r.ElectronDensityM3 / *ref.ElectronDensityM3 - 1) > 1e-9 {
 			t.Errorf("scale %g: n_e %v, unscaled %v", scale, r.ElectronDensityM3, *ref.ElectronDensityM3)
 		}
 		if got, want := *r.Lines[0].Intensity/scale, *ref.Lines[0].Intensity; math.Abs(got/want-1) > 1e-9 {
