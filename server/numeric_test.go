@@ -69,6 +69,18 @@ func TestFormExtremeValues(t *testing.T) {
 	if f.count("attachments") != atts {
 		t.Error("a rejected upload stored a file")
 	}
+	// "Log a run" with the typed line table: the form again, 422, no run.
+	runs := f.count("runs")
+	v := newRunValues()
+	v.Set("line_table", extremeSig)
+	rec = f.postMultipart("/runs", owner, v)
+	body = html.UnescapeString(rec.Body.String())
+	if rec.Code != http.StatusUnprocessableEntity || !strings.Contains(body, "intensity_unc = 1e-160") {
+		t.Errorf("new run with σ = 1e-160: %d %.300s", rec.Code, body)
+	}
+	if f.count("runs") != runs {
+		t.Error("a rejected run was stored")
+	}
 }
 
 // TestHandleErrorNumeric: a numeric input error reaching the error
