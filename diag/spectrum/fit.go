@@ -240,6 +240,13 @@ func (p *Pipeline) fitAll(cands []balmerCandidate, x, y, sig []float64, opt Opti
 				lines[k].Area = math.Ldexp(lines[k].Area, -scaleExp)
 			}
 		}
+		if !validSigma(ws) {
+			for _, i := range fitted {
+				cands[i].search.Status = "fit-failed"
+				cands[i].search.Reason = "the pixel uncertainties in this window are zero or beyond the range of the fit (check the noise model and the data's scale)"
+			}
+			continue
+		}
 		// Without a noise model the σ are the robust noise estimate and the
 		// parameter errors are scaled by the residuals.
 		prob := linefit.Problem{X: wx, Y: wy, Sigma: ws, Lines: lines, BaselineOrder: 1,
@@ -309,6 +316,17 @@ func (p *Pipeline) fitAll(cands []balmerCandidate, x, y, sig []float64, opt Opti
 		return 0, 0, nil
 	}
 	return swx / sw, 1 / math.Sqrt(sw), nil
+}
+
+// validSigma reports whether every σ is positive and finite, as the fit
+// requires.
+func validSigma(ws []float64) bool {
+	for _, s := range ws {
+		if !(s > 0 && s <= math.MaxFloat64) {
+			return false
+		}
+	}
+	return true
 }
 
 // windowScaleExp returns k such that the window's values divided by 2^k

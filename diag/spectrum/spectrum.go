@@ -342,8 +342,16 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 	}
 	noise := robustNoise(y, grow(&p.work, n))
 	if opt.GainElectronsPerCount <= 0 {
+		// Without a noise model the fit's σ only weights the pixels
+		// equally (its errors are scaled by the residuals), so a spectrum
+		// without measurable noise (a flat zero with one spike) takes a
+		// σ far below its values instead of 0, which no fit accepts.
+		s := noise
+		if !(s > 0) {
+			s = flatNoiseFloor(y)
+		}
 		for i := range sig {
-			sig[i] = noise
+			sig[i] = s
 		}
 	}
 	if !(noise > 0) {
@@ -382,6 +390,10 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 			if r, err := opt.Response.At(x[i]); err == nil && r > 0 {
 				y[i] /= r
 				sig[i] /= r
+				if math.IsInf(y[i], 0) || !(sig[i] > 0 && sig[i] <= math.MaxFloat64) {
+					return res, fail(src, "pixel %d (%.4f nm): dividing by the response %v gives %v ± %v, beyond the range that can be analysed: check the response calibration's scale",
+						i+1, x[i], r, y[i], sig[i])
+				}
 			} else {
 				y[i], sig[i] = math.NaN(), math.NaN()
 			}
@@ -488,6 +500,21 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 		return res, &Error{Source: src, Msg: trimDiag(err.Error()), Err: err}
 	}
 	return res, nil
+}
+
+// flatNoiseFloor is the σ used when the robust noise estimate is zero:
+// 2⁻⁴⁰ of the largest finite magnitude, or 1 for an all-zero spectrum.
+func flatNoiseFloor(y []float64) float64 {
+	var m float64
+	for _, v := range y {
+		if a := math.Abs(v); a > m && a <= math.MaxFloat64 {
+			m = a
+		}
+	}
+	if s := math.Ldexp(m, -40); s > 0 {
+		return s
+	}
+	return 1
 }
 
 func joinReasons(rs []string) string {
