@@ -167,7 +167,7 @@ func AnalyzeCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) in
 	// or an error record in its place. Exit status: 0 when every file was
 	// analysed, 2 when any file was bad input (its record says why), 1 on
 	// an internal failure (writing the output, or a result that could not
-	// be encoded, which also gets an error record).
+	// be encoded, which also gets an error record; 1 wins over 2).
 	status := ExitOK
 	single := len(files) == 1
 	for i, r := range results {
@@ -187,14 +187,15 @@ func AnalyzeCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) in
 				if single {
 					return status
 				}
-				r, _ = encodeRecord(errorRecord{Source: src, Error: "internal error: the result could not be encoded: " + err.Error()}, false)
-				buf = r.([]byte)
+				buf, _ = encodeRecord(errorRecord{Source: src, Error: "internal error: the result could not be encoded: " + err.Error()}, false)
 			} else {
 				buf = b
 			}
 		} else {
 			fmt.Fprintf(stderr, "glowlog analyze: %v\n", errs[i])
-			status = max(status, ExitInput)
+			if status == ExitOK {
+				status = ExitInput // an internal failure (1) stays 1
+			}
 			if single {
 				return status
 			}
