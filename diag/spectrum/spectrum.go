@@ -495,8 +495,11 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 	for _, f := range res.Flags {
 		res.Warnings = append(res.Warnings, f.Message)
 	}
-	// Final net: the fits and the preprocessing record are finite too.
-	if err := diag.CheckFinite(res); err != nil {
+	// Final net: the preprocessing and search record is finite too (the
+	// analysis, fits included, was checked by diag.Analyze).
+	own := res
+	own.Result = diag.Result{}
+	if err := diag.CheckFinite(own); err != nil {
 		return res, &Error{Source: src, Msg: trimDiag(err.Error()), Err: err}
 	}
 	return res, nil
