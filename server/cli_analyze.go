@@ -404,6 +404,9 @@ func (c *analyzeConfig) load() error {
 			return fmt.Errorf("--%s must be a finite number ≥ 0, got %v", v.name, v.v)
 		}
 	}
+	if c.gasT > 0 && c.gasT < diag.MinGasTemperatureK {
+		return fmt.Errorf("--gas-temperature-K must be 0 (unknown) or at least %v K, got %v: check the unit", diag.MinGasTemperatureK, c.gasT)
+	}
 	if c.instG > 50 || c.instL > 50 {
 		return fmt.Errorf("--instrument-fwhm-nm above 50 nm: check the unit (nm expected)")
 	}

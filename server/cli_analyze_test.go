@@ -113,6 +113,7 @@ func TestAnalyzeFlagErrors(t *testing.T) {
 		{[]string{"--perturber", "Zz", spec}, "--perturber"},
 		{[]string{"--instrument-fwhm-nm", "-1", spec}, "--instrument-fwhm-nm"},
 		{[]string{"--instrument-fwhm-nm", "500", spec}, "check the unit"},
+		{[]string{"--gas-temperature-K", "5e-324", spec}, "at least 1 K"},
 		{[]string{"--max-upper", "2", spec}, "--max-upper"},
 		{[]string{"--lamp", spec, spec}, "--lamp-irradiance"},
 		{[]string{"--grey-body-K", "3000", spec}, "need --lamp"},

@@ -277,6 +277,11 @@ func (p *Pipeline) fitAll(cands []balmerCandidate, x, y, sig []float64, opt Opti
 			lr.VoigtFWHMErr *= scale
 			lr.PeakErr *= scale
 			c := &cands[i]
+			if !finiteF(lr.Area) || math.IsInf(lr.AreaErr, 0) {
+				c.search.Status = "fit-failed"
+				c.search.Reason = "the fitted area is not a finite number: the window's values are beyond the range of the fit"
+				continue
+			}
 			if !(lr.Area > 0) || lr.Area < 3*lr.AreaErr || math.IsNaN(lr.AreaErr) {
 				c.search.Status = "not-detected"
 				c.search.Reason = fmt.Sprintf("the fitted area %.3g ± %.2g is not significant (< 3σ)", lr.Area, lr.AreaErr)
@@ -317,6 +322,8 @@ func (p *Pipeline) fitAll(cands []balmerCandidate, x, y, sig []float64, opt Opti
 	}
 	return swx / sw, 1 / math.Sqrt(sw), nil
 }
+
+func finiteF(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
 
 // validSigma reports whether every σ is positive and finite, as the fit
 // requires.
