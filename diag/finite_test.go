@@ -121,3 +121,27 @@ func TestAnalyzeTinyWidths(t *testing.T) {
 		t.Fatalf("gas temperature 5e-324 K: got %v", err)
 	}
 }
+
+// TestBoltzmannFlatSlope: a slope so close to zero that T_exc or its σ
+// would be infinite (here −1e-153 eV⁻¹ from synthetic points 1e153 eV
+// apart) gives no temperature and a flag, not +Inf.
+func TestBoltzmannFlatSlope(t *testing.T) {
+	pts := []BoltzmannPoint{
+		{Upper: 3, EnergyEV: 0, G: 1, A: 1, Intensity: 1, IntensityUnc: 1},
+		{Upper: 4, EnergyEV: 1e153, G: 1, A: 1, Intensity: math.Exp(-1), IntensityUnc: math.Exp(-1)},
+	}
+	r, err := FitBoltzmann(pts, BoltzmannOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.Defined || r.TemperatureK != 0 || !(r.Slope < 0) || CheckFinite(r) != nil {
+		t.Errorf("slope %v: defined %v, T %v", r.Slope, r.Defined, r.TemperatureK)
+	}
+	found := false
+	for _, f := range r.Flags {
+		found = found || f.Code == FlagSlopeFlat
+	}
+	if !found {
+		t.Errorf("flags %v lack %s", r.Flags, FlagSlopeFlat)
+	}
+}
