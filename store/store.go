@@ -37,6 +37,11 @@ type DB struct {
 	Now func() time.Time
 
 	trends trendCache
+
+	// auditReady is set once the audit tables and triggers are in place
+	// (after the migrations); from then on every write transaction
+	// records its actor (audit.go).
+	auditReady bool
 }
 
 // Open opens (creating if needed) the database file at path and applies
@@ -61,6 +66,11 @@ func Open(ctx context.Context, path string) (*DB, error) {
 		sdb.Close()
 		return nil, err
 	}
+	if err := d.ensureAuditTriggers(ctx); err != nil {
+		sdb.Close()
+		return nil, err
+	}
+	d.auditReady = true
 	return d, nil
 }
 
@@ -139,14 +149,21 @@ func splitSQL(s string) []string {
 	return out
 }
 
-// inTx runs fn in a transaction, committing when it returns nil.
+// inTx runs fn in a transaction, committing when it returns nil. The
+// context's actor (WithActor) is recorded for the audit trail.
 func (d *DB) inTx(ctx context.Context, fn func(tx *sql.Tx) error) error {
 	tx, err := d.db.BeginTx(ctx, nil)
 	if err != nil {
 		return err
 	}
 	defer tx.Rollback()
+	if err := d.setActor(ctx, tx); err != nil {
+		return err
+	}
 	if err := fn(tx); err != nil {
+		return err
+	}
+	if err := d.clearActor(ctx, tx); err != nil {
 		return err
 	}
 	return tx.Commit()

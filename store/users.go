@@ -55,7 +55,7 @@ func (d *DB) CreateUser(ctx context.Context, name string, role Role, passwordHas
 		return User{}, err
 	}
 	now := d.now()
-	res, err := d.db.ExecContext(ctx, `INSERT INTO users (name, role, password_hash, created_at) VALUES (?, ?, ?, ?)`,
+	res, err := d.exec(ctx, `INSERT INTO users (name, role, password_hash, created_at) VALUES (?, ?, ?, ?)`,
 		name, string(role), passwordHash, now)
 	if err != nil {
 		if strings.Contains(err.Error(), "UNIQUE") {
@@ -124,7 +124,7 @@ func (d *DB) SetUserRole(ctx context.Context, id int64, role Role) error {
 	if _, err := ParseRole(string(role)); err != nil {
 		return err
 	}
-	res, err := d.db.ExecContext(ctx, `UPDATE users SET role = ? WHERE id = ?`, string(role), id)
+	res, err := d.exec(ctx, `UPDATE users SET role = ? WHERE id = ?`, string(role), id)
 	if err != nil {
 		return err
 	}
