@@ -78,6 +78,10 @@ var auditLabels = map[string]string{
 	"log_started": "audit trail started",
 }
 
+// auditOpenFields is the most fields of a created or deleted record shown
+// unfolded.
+const auditOpenFields = 6
+
 // maxAuditValue bounds one shown value (the CSV has them whole).
 const maxAuditValue = 300
 
@@ -115,6 +119,7 @@ func auditRow(e store.AuditEntry) views.AuditRow {
 	for _, ch := range e.Changes() {
 		r.Changes = append(r.Changes, views.AuditChangeView{Field: ch.Field, Before: cutAudit(ch.Before), After: cutAudit(ch.After)})
 	}
+	r.Collapse = (e.Before == "" || e.After == "") && len(r.Changes) > auditOpenFields
 	return r
 }
 
