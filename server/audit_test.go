@@ -8,6 +8,7 @@ import (
 	"net/http"
 	"net/http/httptest"
 	"net/url"
+	"path/filepath"
 	"regexp"
 	"strings"
 	"testing"
@@ -269,5 +270,61 @@ func TestAuditSignInAndAPI(t *testing.T) {
 		if strings.Contains(all.String(), s) {
 			t.Errorf("the audit log holds %q", s)
 		}
+	}
+}
+
+// Writes outside web requests name their source: a bulk reanalysis job
+// its starter, the command line "cli".
+func TestAuditJobAndCLIActors(t *testing.T) {
+	f := newReviewFixture(t)
+	ctx, cancel := context.WithCancel(context.Background())
+	defer cancel()
+	id := analysedRun(t, f.s, f.op, "Hβ run", time.Date(2026, 5, 1, 8, 0, 0, 0, time.UTC), nil)
+	params, _ := json.Marshal(reanalyzeParams{RunIDs: []int64{id}, Reason: "new slit function", UserID: f.rev.ID})
+	jid, err := f.s.DB.CreateJob(ctx, jobKindReanalyze, string(params), 1, f.rev.ID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	f.s.Jobs.Start(ctx)
+	deadline := time.Now().Add(20 * time.Second)
+	for {
+		job, err := f.s.DB.Job(ctx, jid)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if job.Finished() {
+			if job.State != store.JobDone {
+				t.Fatalf("job %+v", job)
+			}
+			break
+		}
+		if time.Now().After(deadline) {
+			t.Fatal("job did not finish")
+		}
+		time.Sleep(20 * time.Millisecond)
+	}
+	cancel()
+	f.s.Jobs.Wait()
+	es := auditEntries(t, f.s.DB, store.AuditFilter{RunID: id, Kind: store.AuditAnalysis})
+	if len(es) != 2 || !strings.Contains(es[0].After, "new slit function") {
+		t.Fatalf("analysis entries of run %d: %+v", id, es)
+	}
+	if e := es[0]; e.ActorID == nil || *e.ActorID != f.rev.ID || e.ActorName != f.rev.Name || e.Via != store.ViaJob {
+		t.Errorf("job's analysis version logged by %v %q via %q, want %s via job", e.ActorID, e.ActorName, e.Via, f.rev.Name)
+	}
+
+	path := filepath.Join(t.TempDir(), "cli.db")
+	var out, errb bytes.Buffer
+	if code := UserCommand([]string{"add", "mira", "--role", "reviewer", "--db", path}, strings.NewReader("a-long-password\n"), &out, &errb); code != ExitOK {
+		t.Fatalf("user add: %d %s", code, errb.String())
+	}
+	db, err := store.Open(context.Background(), path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer db.Close()
+	es = auditEntries(t, db, store.AuditFilter{Kind: store.AuditUser})
+	if len(es) != 1 || es[0].Via != store.ViaCLI || es[0].ActorID != nil {
+		t.Errorf("user add entries: %+v", es)
 	}
 }
