@@ -4,13 +4,14 @@
 -- tables (created by the store at start from each table's columns, see
 -- store/audit.go), never by application statements, and the triggers
 -- below refuse every UPDATE and DELETE of a logged row, and an INSERT that
--- would replace one. Times are Unix seconds (UTC). before and after are
+-- would replace one (so ids only grow: no AUTOINCREMENT needed). Times
+-- are Unix seconds (UTC). before and after are
 -- JSON objects: the whole row for insert and delete, the changed columns
 -- for update; secrets (password hashes) show as "(hidden)"/"(changed)",
 -- token hashes and file contents are never copied.
 
 CREATE TABLE audit_log (
-  id         INTEGER PRIMARY KEY AUTOINCREMENT,
+  id         INTEGER PRIMARY KEY,
   at         INTEGER NOT NULL,
   actor_id   INTEGER,
   actor_name TEXT NOT NULL DEFAULT '',

@@ -6,6 +6,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"math"
+	"regexp"
 	"sort"
 	"strconv"
 	"strings"
@@ -173,6 +174,9 @@ func AuditActions() []string {
 	return []string{"insert", "update", "delete", "sign_in", "sign_in_failed", "session_ended", "log_started"}
 }
 
+// plainName is a column name that needs no quoting in SQL nor in JSON.
+var plainName = regexp.MustCompile(`^[A-Za-z_][A-Za-z0-9_]*$`)
+
 // auditTriggers returns the trigger name → CREATE TRIGGER statement for
 // one table with the given columns (name → declared type, in order).
 func auditTriggers(sp auditSpec, cols []string, types map[string]string) map[string]string {
@@ -190,20 +194,16 @@ func auditTriggers(sp auditSpec, cols []string, types map[string]string) map[str
 		}
 		return strings.ReplaceAll(expr, "R.", r+".")
 	}
-	// obj builds json_object(...) over row r; in an update (other != "")
-	// secrets compare with the other row and ignored columns are left out.
-	obj := func(r string, update bool) string {
+	// record builds json_object(...) of the whole row r (insert, delete).
+	record := func(r string) string {
 		var parts []string
 		for _, c := range cols {
-			if strings.EqualFold(types[c], "BLOB") || (update && ignore[c]) {
+			if strings.EqualFold(types[c], "BLOB") {
 				continue
 			}
 			v := r + "." + c
 			if secret[c] {
 				v = "'(hidden)'"
-				if update && r == "NEW" {
-					v = "CASE WHEN OLD." + c + " IS NEW." + c + " THEN '(hidden)' ELSE '(changed)' END"
-				}
 			}
 			parts = append(parts, "'"+c+"', "+v)
 		}
@@ -231,7 +231,7 @@ func auditTriggers(sp auditSpec, cols []string, types map[string]string) map[str
 	n := "audit_" + sp.table + "_insert"
 	out[n] = "CREATE TRIGGER " + n + " AFTER INSERT ON " + sp.table + " BEGIN " + cols0 +
 		"SELECT unixepoch(), " + id + ", " + name + ", coalesce(a.via, ''), '" + sp.kind + "', " +
-		sub(sp.rowID, "NEW") + ", " + sub(sp.runID, "NEW") + ", '" + action(sp.insertAction, "insert") + "', NULL, " + obj("NEW", false) + from + "; END"
+		sub(sp.rowID, "NEW") + ", " + sub(sp.runID, "NEW") + ", '" + action(sp.insertAction, "insert") + "', NULL, " + record("NEW") + from + "; END"
 
 	id, name = actor("OLD")
 	n = "audit_" + sp.table + "_delete"
@@ -241,18 +241,38 @@ func auditTriggers(sp auditSpec, cols []string, types map[string]string) map[str
 	}
 	out[n] = "CREATE TRIGGER " + n + " AFTER DELETE ON " + sp.table + when + " BEGIN " + cols0 +
 		"SELECT unixepoch(), " + id + ", " + name + ", coalesce(a.via, ''), '" + sp.kind + "', " +
-		sub(sp.rowID, "OLD") + ", " + sub(sp.runID, "OLD") + ", '" + action(sp.deleteAction, "delete") + "', " + obj("OLD", false) + ", NULL" + from + "; END"
+		sub(sp.rowID, "OLD") + ", " + sub(sp.runID, "OLD") + ", '" + action(sp.deleteAction, "delete") + "', " + record("OLD") + ", NULL" + from + "; END"
 
 	if !sp.noUpdate {
+		// Only the changed columns, as JSON text built column by column
+		// (json_quote gives each value's JSON form): no JSON parsing, and
+		// the WHEN clause skips updates that change nothing audited.
+		var audited, changed, before, after []string
+		for _, c := range cols {
+			if strings.EqualFold(types[c], "BLOB") || ignore[c] {
+				continue
+			}
+			audited = append(audited, c)
+			diff := "OLD." + c + " IS NOT NEW." + c
+			changed = append(changed, diff)
+			if secret[c] {
+				before = append(before, "CASE WHEN "+diff+" THEN ',\""+c+"\":\"(hidden)\"' ELSE '' END")
+				after = append(after, "CASE WHEN "+diff+" THEN ',\""+c+"\":\"(changed)\"' ELSE '' END")
+				continue
+			}
+			before = append(before, "CASE WHEN "+diff+" THEN ',\""+c+"\":' || json_quote(OLD."+c+") ELSE '' END")
+			after = append(after, "CASE WHEN "+diff+" THEN ',\""+c+"\":' || json_quote(NEW."+c+") ELSE '' END")
+		}
+		obj := func(parts []string) string {
+			return "'{' || substr(" + strings.Join(parts, " || ") + ", 2) || '}'"
+		}
 		id, name = actor("NEW")
 		n = "audit_" + sp.table + "_update"
-		diff := func(side string) string {
-			return "(SELECT json_group_object(" + side + ".key, " + side + ".value) FROM json_each(x.o) o JOIN json_each(x.n) n ON n.key = o.key WHERE o.value IS NOT n.value OR o.type IS NOT n.type)"
-		}
-		out[n] = "CREATE TRIGGER " + n + " AFTER UPDATE ON " + sp.table + " BEGIN " + cols0 +
+		// UPDATE OF: a statement that sets only other columns (a token's
+		// last use) does not even compile this trigger.
+		out[n] = "CREATE TRIGGER " + n + " AFTER UPDATE OF " + strings.Join(audited, ", ") + " ON " + sp.table + " WHEN " + strings.Join(changed, " OR ") + " BEGIN " + cols0 +
 			"SELECT unixepoch(), " + id + ", " + name + ", coalesce(a.via, ''), '" + sp.kind + "', " +
-			sub(sp.rowID, "NEW") + ", " + sub(sp.runID, "NEW") + ", 'update', " + diff("o") + ", " + diff("n") +
-			" FROM (SELECT " + obj("OLD", true) + " AS o, " + obj("NEW", true) + " AS n) x LEFT JOIN audit_actor a ON a.id = 1 WHERE x.o IS NOT x.n; END"
+			sub(sp.rowID, "NEW") + ", " + sub(sp.runID, "NEW") + ", 'update', " + obj(before) + ", " + obj(after) + from + "; END"
 	}
 	return out
 }
@@ -284,6 +304,11 @@ func (d *DB) wantAuditTriggers(ctx context.Context, q interface {
 		}
 		if len(cols) == 0 {
 			continue // table not in this schema
+		}
+		for _, c := range cols {
+			if !plainName.MatchString(c) {
+				return nil, fmt.Errorf("column %s.%q: the audit triggers need plain column names (letters, digits, _)", sp.table, c)
+			}
 		}
 		for n, s := range auditTriggers(sp, cols, types) {
 			want[n] = s

@@ -382,3 +382,27 @@ func TestAuditWritesCarryActor(t *testing.T) {
 		}
 	}
 }
+
+// Rows removed by a cascade (a run's tags and comments when the run goes)
+// are recorded too, with the actor of the deleting transaction.
+func TestAuditCascadeDelete(t *testing.T) {
+	d, op := openRunsDB(t)
+	ctx := WithActor(context.Background(), Actor{UserID: op, Name: "opal", Via: ViaCLI})
+	id, err := d.CreateRun(ctx, op, RunInput{Title: "gone", StartedAt: time.Date(2026, 3, 1, 0, 0, 0, 0, time.UTC), SourceType: "dc_glow", Tags: []string{"t"}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := d.AddComment(ctx, id, op, "note"); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := d.exec(ctx, `DELETE FROM runs WHERE id = ?`, id); err != nil {
+		t.Fatal(err)
+	}
+	for _, k := range []string{AuditRun, AuditRunTag, AuditComment} {
+		e := auditFind(t, d, k, "delete", 0)
+		wantActor(t, e, op, "opal", ViaCLI)
+		if e.RunID == nil || *e.RunID != id {
+			t.Errorf("%s delete: run %v", k, e.RunID)
+		}
+	}
+}
