@@ -124,14 +124,18 @@ func auditRow(e store.AuditEntry) views.AuditRow {
 }
 
 // runHistoryLimit is how many entries the run page shows.
-const runHistoryLimit = 100
+var runHistoryLimit = 100
 
 // runHistory is the run page's History section: the run's newest
 // entries, and for admins a link to all of them on the audit page.
 func (s *Server) runHistory(c echo.Context, runID int64) (templ.Component, error) {
-	es, err := s.DB.AuditLog(c.Request().Context(), store.AuditFilter{RunID: runID, Limit: runHistoryLimit})
+	es, err := s.DB.AuditLog(c.Request().Context(), store.AuditFilter{RunID: runID, Limit: runHistoryLimit + 1})
 	if err != nil {
 		return nil, err
+	}
+	more := len(es) > runHistoryLimit
+	if more {
+		es = es[:runHistoryLimit]
 	}
 	rows := make([]views.AuditRow, 0, len(es))
 	for _, e := range es {
@@ -141,7 +145,7 @@ func (s *Server) runHistory(c echo.Context, runID int64) (templ.Component, error
 	if u := currentUser(c); u != nil && u.Role.Can(store.RoleAdmin) {
 		all = "/admin/audit?run=" + strconv.FormatInt(runID, 10)
 	}
-	return views.RunHistory(rows, all), nil
+	return views.RunHistory(rows, more, all), nil
 }
 
 // auditForm is the admin page's (and the export's) filter.

@@ -87,6 +87,15 @@ func TestAuditTrailWeb(t *testing.T) {
 	if body := f.get(path, admin).Body.String(); !strings.Contains(body, `href="/admin/audit?run=`+idStr(r.ID)+`"`) {
 		t.Errorf("an admin gets no link to the run's audit entries")
 	}
+	if strings.Contains(body, `data-testid="history-more"`) {
+		t.Errorf("a short history says entries are left out")
+	}
+	defer func(n int) { runHistoryLimit = n }(runHistoryLimit)
+	runHistoryLimit = 3
+	if body := f.get(path, viewer).Body.String(); auditRows(body) != 3 || !strings.Contains(body, `data-testid="history-more"`) {
+		t.Errorf("a long history: %d rows shown, want 3 and a note", auditRows(body))
+	}
+	runHistoryLimit = 100
 
 	// Only admins see the audit page and its export.
 	for _, who := range []*http.Cookie{viewer, owner, reviewer} {

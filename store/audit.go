@@ -123,7 +123,7 @@ type auditSpec struct {
 	deleteWhen string
 	// insertAction and deleteAction name the actions ("" = insert/delete).
 	insertAction, deleteAction string
-	noUpdate                   bool
+	noUpdate, noDelete         bool
 }
 
 // auditSpecs are the audited tables. BLOB columns (token and session
@@ -143,6 +143,9 @@ var auditSpecs = []auditSpec{
 		deleteWhen: "R.expires_at > unixepoch()"},
 	{table: "instruments", kind: AuditInstrument, rowID: "R.id"},
 	{table: "chambers", kind: AuditChamber, rowID: "R.id"},
+	// a background job's start (bulk reanalysis: which runs, the new
+	// settings, the reason); its progress is bookkeeping
+	{table: "jobs", kind: AuditJob, rowID: "R.id", noUpdate: true, noDelete: true},
 	{table: "recipes", kind: AuditRecipe, rowID: "R.id"},
 }
 
@@ -160,13 +163,14 @@ const (
 	AuditInstrument = "instrument"
 	AuditChamber    = "chamber"
 	AuditRecipe     = "recipe"
+	AuditJob        = "job"
 	AuditLog        = "audit"
 )
 
 // AuditKinds lists the kinds for filters, in display order.
 func AuditKinds() []string {
 	return []string{AuditRun, AuditRunTag, AuditFile, AuditAnalysis, AuditReview, AuditComment,
-		AuditUser, AuditToken, AuditSession, AuditInstrument, AuditChamber, AuditRecipe, AuditLog}
+		AuditUser, AuditToken, AuditSession, AuditInstrument, AuditChamber, AuditRecipe, AuditJob, AuditLog}
 }
 
 // AuditActions lists the actions for filters.
@@ -233,15 +237,17 @@ func auditTriggers(sp auditSpec, cols []string, types map[string]string) map[str
 		"SELECT unixepoch(), " + id + ", " + name + ", coalesce(a.via, ''), '" + sp.kind + "', " +
 		sub(sp.rowID, "NEW") + ", " + sub(sp.runID, "NEW") + ", '" + action(sp.insertAction, "insert") + "', NULL, " + record("NEW") + from + "; END"
 
-	id, name = actor("OLD")
-	n = "audit_" + sp.table + "_delete"
-	when := ""
-	if sp.deleteWhen != "" {
-		when = " WHEN " + sub(sp.deleteWhen, "OLD")
+	if !sp.noDelete {
+		id, name = actor("OLD")
+		n = "audit_" + sp.table + "_delete"
+		when := ""
+		if sp.deleteWhen != "" {
+			when = " WHEN " + sub(sp.deleteWhen, "OLD")
+		}
+		out[n] = "CREATE TRIGGER " + n + " AFTER DELETE ON " + sp.table + when + " BEGIN " + cols0 +
+			"SELECT unixepoch(), " + id + ", " + name + ", coalesce(a.via, ''), '" + sp.kind + "', " +
+			sub(sp.rowID, "OLD") + ", " + sub(sp.runID, "OLD") + ", '" + action(sp.deleteAction, "delete") + "', " + record("OLD") + ", NULL" + from + "; END"
 	}
-	out[n] = "CREATE TRIGGER " + n + " AFTER DELETE ON " + sp.table + when + " BEGIN " + cols0 +
-		"SELECT unixepoch(), " + id + ", " + name + ", coalesce(a.via, ''), '" + sp.kind + "', " +
-		sub(sp.rowID, "OLD") + ", " + sub(sp.runID, "OLD") + ", '" + action(sp.deleteAction, "delete") + "', " + record("OLD") + ", NULL" + from + "; END"
 
 	if !sp.noUpdate {
 		// Only the changed columns, as JSON text built column by column
