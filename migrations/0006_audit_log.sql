@@ -43,6 +43,8 @@ CREATE TABLE audit_actor (
 
 INSERT INTO audit_actor (id, user_id, name, via) VALUES (1, NULL, '', '');
 
+CREATE TRIGGER audit_actor_keep BEFORE DELETE ON audit_actor BEGIN SELECT RAISE(ABORT, 'audit_actor keeps its one row'); END;
+
 CREATE TRIGGER audit_log_no_update BEFORE UPDATE ON audit_log BEGIN SELECT RAISE(ABORT, 'the audit log is append-only: rows cannot be changed'); END;
 
 CREATE TRIGGER audit_log_no_delete BEFORE DELETE ON audit_log BEGIN SELECT RAISE(ABORT, 'the audit log is append-only: rows cannot be deleted'); END;

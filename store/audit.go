@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"math"
 	"regexp"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -124,12 +125,26 @@ type auditSpec struct {
 	// insertAction and deleteAction name the actions ("" = insert/delete).
 	insertAction, deleteAction string
 	noUpdate, noDelete         bool
+	// updateGroups are columns that statements set together, each audited
+	// by its own update trigger (the other columns form one more group).
+	// An UPDATE setting columns of several groups gives one record each.
+	updateGroups []auditGroup
+}
+
+// auditGroup is a named group of columns (auditSpec.updateGroups).
+type auditGroup struct {
+	name string
+	cols []string
 }
 
 // auditSpecs are the audited tables. BLOB columns (token and session
 // hashes, file contents) are never copied into the log.
 var auditSpecs = []auditSpec{
-	{table: "runs", kind: AuditRun, rowID: "R.id", runID: "R.id", ignore: []string{"updated_at"}},
+	{table: "runs", kind: AuditRun, rowID: "R.id", runID: "R.id", ignore: []string{"updated_at"},
+		updateGroups: []auditGroup{
+			{"summary", []string{"texc_k", "texc_unc_k", "ne_m3", "ne_unc_m3", "tgas_k", "n_warnings", "analysis_version"}},
+			{"review", []string{"status", "signed_off_by", "signed_off_at"}},
+		}},
 	{table: "run_tags", kind: AuditRunTag, runID: "R.run_id", noUpdate: true},
 	{table: "attachments", kind: AuditFile, rowID: "R.id", runID: "R.run_id"},
 	{table: "analyses", kind: AuditAnalysis, rowID: "R.id", runID: "R.run_id"},
@@ -215,14 +230,17 @@ func auditTriggers(sp auditSpec, cols []string, types map[string]string) map[str
 	}
 	actor := func(r string) (id, name string) {
 		if sp.actorFallback == "" {
-			return "a.user_id", "coalesce(a.name, '')"
+			return "a.user_id", "a.name"
 		}
 		f := r + "." + sp.actorFallback
 		return "coalesce(a.user_id, " + f + ")",
 			"coalesce(nullif(a.name, ''), (SELECT name FROM users WHERE id = coalesce(a.user_id, " + f + ")), '')"
 	}
 	const cols0 = "INSERT INTO audit_log (at, actor_id, actor_name, via, kind, row_id, run_id, action, before, after) "
-	const from = " FROM (SELECT 1) LEFT JOIN audit_actor a ON a.id = 1"
+	// audit_actor always has its one row (migration 0006 inserts it, a
+	// trigger refuses deleting it, ensureAuditTriggers checks it), so a
+	// plain FROM (cheaper to compile than a join) never loses a record.
+	const from = " FROM audit_actor a"
 	out := map[string]string{}
 	action := func(a, def string) string {
 		if a == "" {
@@ -234,7 +252,7 @@ func auditTriggers(sp auditSpec, cols []string, types map[string]string) map[str
 	id, name := actor("NEW")
 	n := "audit_" + sp.table + "_insert"
 	out[n] = "CREATE TRIGGER " + n + " AFTER INSERT ON " + sp.table + " BEGIN " + cols0 +
-		"SELECT unixepoch(), " + id + ", " + name + ", coalesce(a.via, ''), '" + sp.kind + "', " +
+		"SELECT unixepoch(), " + id + ", " + name + ", a.via, '" + sp.kind + "', " +
 		sub(sp.rowID, "NEW") + ", " + sub(sp.runID, "NEW") + ", '" + action(sp.insertAction, "insert") + "', NULL, " + record("NEW") + from + "; END"
 
 	if !sp.noDelete {
@@ -245,40 +263,75 @@ func auditTriggers(sp auditSpec, cols []string, types map[string]string) map[str
 			when = " WHEN " + sub(sp.deleteWhen, "OLD")
 		}
 		out[n] = "CREATE TRIGGER " + n + " AFTER DELETE ON " + sp.table + when + " BEGIN " + cols0 +
-			"SELECT unixepoch(), " + id + ", " + name + ", coalesce(a.via, ''), '" + sp.kind + "', " +
+			"SELECT unixepoch(), " + id + ", " + name + ", a.via, '" + sp.kind + "', " +
 			sub(sp.rowID, "OLD") + ", " + sub(sp.runID, "OLD") + ", '" + action(sp.deleteAction, "delete") + "', " + record("OLD") + ", NULL" + from + "; END"
 	}
 
 	if !sp.noUpdate {
-		// Only the changed columns, as JSON text built column by column
-		// (json_quote gives each value's JSON form): no JSON parsing, and
-		// the WHEN clause skips updates that change nothing audited.
-		var audited, changed, before, after []string
+		var audited []string
 		for _, c := range cols {
-			if strings.EqualFold(types[c], "BLOB") || ignore[c] {
-				continue
+			if !strings.EqualFold(types[c], "BLOB") && !ignore[c] {
+				audited = append(audited, c)
 			}
-			audited = append(audited, c)
-			diff := "OLD." + c + " IS NOT NEW." + c
-			changed = append(changed, diff)
-			if secret[c] {
-				before = append(before, "CASE WHEN "+diff+" THEN ',\""+c+"\":\"(hidden)\"' ELSE '' END")
-				after = append(after, "CASE WHEN "+diff+" THEN ',\""+c+"\":\"(changed)\"' ELSE '' END")
-				continue
-			}
-			before = append(before, "CASE WHEN "+diff+" THEN ',\""+c+"\":' || json_quote(OLD."+c+") ELSE '' END")
-			after = append(after, "CASE WHEN "+diff+" THEN ',\""+c+"\":' || json_quote(NEW."+c+") ELSE '' END")
 		}
-		obj := func(parts []string) string {
-			return "'{' || substr(" + strings.Join(parts, " || ") + ", 2) || '}'"
+		// One trigger per group of columns that statements set together,
+		// each AFTER UPDATE OF its columns: SQLite compiles, with every
+		// UPDATE statement, only the triggers of the columns it sets, so a
+		// run's summary update does not pay for its conditions (and a
+		// token's last use, an ignored column, compiles none).
+		inGroup := map[string]bool{}
+		type group struct {
+			suffix string
+			cols   []string
+		}
+		var groups []group
+		for _, g := range sp.updateGroups {
+			var gc []string
+			for _, c := range g.cols {
+				if slices.Contains(audited, c) {
+					gc = append(gc, c)
+					inGroup[c] = true
+				}
+			}
+			if len(gc) > 0 {
+				groups = append(groups, group{"_" + g.name, gc})
+			}
+		}
+		var rest []string
+		for _, c := range audited {
+			if !inGroup[c] {
+				rest = append(rest, c)
+			}
+		}
+		if len(rest) > 0 {
+			groups = append([]group{{"", rest}}, groups...)
 		}
 		id, name = actor("NEW")
-		n = "audit_" + sp.table + "_update"
-		// UPDATE OF: a statement that sets only other columns (a token's
-		// last use) does not even compile this trigger.
-		out[n] = "CREATE TRIGGER " + n + " AFTER UPDATE OF " + strings.Join(audited, ", ") + " ON " + sp.table + " WHEN " + strings.Join(changed, " OR ") + " BEGIN " + cols0 +
-			"SELECT unixepoch(), " + id + ", " + name + ", coalesce(a.via, ''), '" + sp.kind + "', " +
-			sub(sp.rowID, "NEW") + ", " + sub(sp.runID, "NEW") + ", 'update', " + obj(before) + ", " + obj(after) + from + "; END"
+		for _, g := range groups {
+			// Only the changed columns, as JSON text built column by
+			// column (json_quote gives each value's JSON form): no JSON
+			// parsing; WHEN skips updates that change nothing audited.
+			var changed, before, after []string
+			for _, c := range g.cols {
+				diff := "OLD." + c + " IS NOT NEW." + c
+				changed = append(changed, diff)
+				if secret[c] {
+					before = append(before, "CASE WHEN "+diff+" THEN ',\""+c+"\":\"(hidden)\"' ELSE '' END")
+					after = append(after, "CASE WHEN "+diff+" THEN ',\""+c+"\":\"(changed)\"' ELSE '' END")
+					continue
+				}
+				before = append(before, "CASE WHEN "+diff+" THEN ',\""+c+"\":' || json_quote(OLD."+c+") ELSE '' END")
+				after = append(after, "CASE WHEN "+diff+" THEN ',\""+c+"\":' || json_quote(NEW."+c+") ELSE '' END")
+			}
+			obj := func(parts []string) string {
+				return "'{' || substr(" + strings.Join(parts, " || ") + ", 2) || '}'"
+			}
+			n := "audit_" + sp.table + "_update" + g.suffix
+			out[n] = "CREATE TRIGGER " + n + " AFTER UPDATE OF " + strings.Join(g.cols, ", ") + " ON " + sp.table +
+				" WHEN " + strings.Join(changed, " OR ") + " BEGIN " + cols0 +
+				"SELECT unixepoch(), " + id + ", " + name + ", a.via, '" + sp.kind + "', " +
+				sub(sp.rowID, "NEW") + ", " + sub(sp.runID, "NEW") + ", 'update', " + obj(before) + ", " + obj(after) + from + "; END"
+		}
 	}
 	return out
 }
@@ -328,7 +381,7 @@ func haveAuditTriggers(ctx context.Context, q interface {
 	QueryContext(context.Context, string, ...any) (*sql.Rows, error)
 }) (map[string]string, error) {
 	rows, err := q.QueryContext(ctx, `SELECT name, sql FROM sqlite_master WHERE type = 'trigger' AND name LIKE 'audit\_%' ESCAPE '\'
-		AND name NOT LIKE 'audit\_log\_%' ESCAPE '\'`)
+		AND name NOT LIKE 'audit\_log\_%' ESCAPE '\' AND name NOT LIKE 'audit\_actor\_%' ESCAPE '\'`)
 	if err != nil {
 		return nil, err
 	}
@@ -366,10 +419,17 @@ func (d *DB) ensureAuditTriggers(ctx context.Context) error {
 	if err != nil {
 		return fmt.Errorf("store: audit triggers: %w", err)
 	}
-	if same(want, have) {
+	var actors int
+	if err := d.db.QueryRowContext(ctx, `SELECT count(*) FROM audit_actor`).Scan(&actors); err != nil {
+		return fmt.Errorf("store: audit actor: %w", err)
+	}
+	if same(want, have) && actors == 1 {
 		return nil
 	}
 	err = d.inTx(ctx, func(tx *sql.Tx) error {
+		if _, err := tx.ExecContext(ctx, `INSERT OR IGNORE INTO audit_actor (id) VALUES (1)`); err != nil {
+			return err
+		}
 		// again inside the write lock: another process may have done it
 		want, err := d.wantAuditTriggers(ctx, tx)
 		if err != nil {
