@@ -75,7 +75,7 @@ func (s *Server) auditSignIn(next echo.HandlerFunc) echo.HandlerFunc {
 var auditLabels = map[string]string{
 	"insert": "created", "update": "changed", "delete": "deleted",
 	"sign_in": "signed in", "session_ended": "session ended", "sign_in_failed": "failed sign-in",
-	"log_started": "audit trail started",
+	"log_started": "audit trail started", "migration": "schema migrated",
 }
 
 // auditOpenFields is the most fields of a created or deleted record shown

@@ -179,18 +179,19 @@ const (
 	AuditChamber    = "chamber"
 	AuditRecipe     = "recipe"
 	AuditJob        = "job"
+	AuditSchema     = "schema"
 	AuditLog        = "audit"
 )
 
 // AuditKinds lists the kinds for filters, in display order.
 func AuditKinds() []string {
 	return []string{AuditRun, AuditRunTag, AuditFile, AuditAnalysis, AuditReview, AuditComment,
-		AuditUser, AuditToken, AuditSession, AuditInstrument, AuditChamber, AuditRecipe, AuditJob, AuditLog}
+		AuditUser, AuditToken, AuditSession, AuditInstrument, AuditChamber, AuditRecipe, AuditJob, AuditSchema, AuditLog}
 }
 
 // AuditActions lists the actions for filters.
 func AuditActions() []string {
-	return []string{"insert", "update", "delete", "sign_in", "sign_in_failed", "session_ended", "log_started"}
+	return []string{"insert", "update", "delete", "sign_in", "sign_in_failed", "session_ended", "log_started", "migration"}
 }
 
 // plainName is a column name that needs no quoting in SQL nor in JSON.
@@ -395,6 +396,34 @@ func haveAuditTriggers(ctx context.Context, q interface {
 		have[n] = s
 	}
 	return have, rows.Err()
+}
+
+// dropAuditTriggers removes the generated audit triggers (before a
+// migration; ensureAuditTriggers puts them back).
+func dropAuditTriggers(ctx context.Context, tx *sql.Tx) error {
+	have, err := haveAuditTriggers(ctx, tx)
+	if err != nil {
+		return err
+	}
+	for n := range have {
+		if _, err := tx.ExecContext(ctx, `DROP TRIGGER "`+n+`"`); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// recordMigration notes an applied schema migration in the audit trail
+// (once the trail exists): what a migration does to stored rows is not
+// recorded row by row.
+func recordMigration(ctx context.Context, tx *sql.Tx, name string) error {
+	var n int
+	if err := tx.QueryRowContext(ctx, `SELECT count(*) FROM sqlite_master WHERE type = 'table' AND name = 'audit_log'`).Scan(&n); err != nil || n == 0 {
+		return err
+	}
+	_, err := tx.ExecContext(ctx, `INSERT INTO audit_log (at, kind, action, after) VALUES (unixepoch(), ?, 'migration', json_object('name', ?))`,
+		AuditSchema, name)
+	return err
 }
 
 // ensureAuditTriggers puts the audit triggers in place (after the

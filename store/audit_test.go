@@ -2,6 +2,7 @@ package store
 
 import (
 	"context"
+	"database/sql"
 	"encoding/hex"
 	"os"
 	"path/filepath"
@@ -287,6 +288,9 @@ func TestAuditLogAppendOnly(t *testing.T) {
 			t.Errorf("%s changed the log", q)
 		}
 	}
+	if _, err := d.SQL().Exec(`DELETE FROM audit_actor`); err == nil {
+		t.Errorf("the audit_actor row could be deleted (later records would have no actor row to read)")
+	}
 	// the start record is there
 	e := auditFind(t, d, AuditLog, "log_started", 0)
 	if e.ID != 1 {
@@ -438,5 +442,45 @@ func TestAuditCascadeDelete(t *testing.T) {
 		if e.RunID == nil || *e.RunID != id {
 			t.Errorf("%s delete: run %v", k, e.RunID)
 		}
+	}
+}
+
+// A migration may drop an audited column: the audit triggers are taken
+// out during migrations and rebuilt from the new columns; each applied
+// migration is noted in the trail.
+func TestAuditMigrationDropsColumn(t *testing.T) {
+	ctx := context.Background()
+	path := filepath.Join(t.TempDir(), "m.db")
+	d, err := Open(ctx, path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	es, err := d.AuditLog(ctx, AuditFilter{Kind: AuditSchema, Action: "migration"})
+	if err != nil || len(es) != 1 || !strings.Contains(es[0].After, "0006_audit_log.sql") {
+		t.Errorf("migration entries %+v, %v; want the audit log's own", es, err)
+	}
+	if _, err := d.SQL().Exec(`ALTER TABLE instruments DROP COLUMN created_at`); err == nil {
+		t.Fatal("dropping a column that the audit triggers name succeeded; the test no longer shows why they are dropped first")
+	}
+	if err := d.inTx(ctx, func(tx *sql.Tx) error {
+		if err := dropAuditTriggers(ctx, tx); err != nil {
+			return err
+		}
+		_, err := tx.Exec(`ALTER TABLE instruments DROP COLUMN created_at`)
+		return err
+	}); err != nil {
+		t.Fatal(err)
+	}
+	d.Close()
+	if d, err = Open(ctx, path); err != nil {
+		t.Fatal(err)
+	}
+	defer d.Close()
+	if _, err := d.exec(ctx, `INSERT INTO instruments (name, definition) VALUES ('i', '{}')`); err != nil {
+		t.Fatal(err)
+	}
+	e := auditFind(t, d, AuditInstrument, "insert", 0)
+	if _, ok := change(e, "created_at"); ok || !strings.Contains(e.After, `"name":"i"`) {
+		t.Errorf("instrument entry after the column went: %s", e.After)
 	}
 }

@@ -112,13 +112,21 @@ func (d *DB) migrate(ctx context.Context) error {
 			return err
 		}
 		if err := d.inTx(ctx, func(tx *sql.Tx) error {
+			// The audit triggers name the columns of their tables; they
+			// are rebuilt after the migrations (ensureAuditTriggers), so
+			// that a migration may drop or rename an audited column.
+			if err := dropAuditTriggers(ctx, tx); err != nil {
+				return err
+			}
 			for _, stmt := range splitSQL(string(body)) {
 				if _, err := tx.ExecContext(ctx, stmt); err != nil {
 					return fmt.Errorf("%w\n%s", err, stmt)
 				}
 			}
-			_, err := tx.ExecContext(ctx, `INSERT INTO schema_migrations (name, applied_at) VALUES (?, ?)`, name, d.now())
-			return err
+			if _, err := tx.ExecContext(ctx, `INSERT INTO schema_migrations (name, applied_at) VALUES (?, ?)`, name, d.now()); err != nil {
+				return err
+			}
+			return recordMigration(ctx, tx, name)
 		}); err != nil {
 			return fmt.Errorf("store: migration %s: %w", name, err)
 		}
