@@ -73,7 +73,7 @@ func (d *DB) setActor(ctx context.Context, tx *sql.Tx) error {
 	if a.UserID != 0 {
 		uid = a.UserID
 	}
-	if _, err := tx.ExecContext(ctx, `UPDATE audit_actor SET user_id = ?, name = ?, via = ? WHERE id = 1`, uid, a.Name, a.Via); err != nil {
+	if _, err := tx.StmtContext(ctx, d.actorSet).ExecContext(ctx, uid, a.Name, a.Via); err != nil {
 		return fmt.Errorf("store: audit actor: %w", err)
 	}
 	return nil
@@ -86,7 +86,7 @@ func (d *DB) clearActor(ctx context.Context, tx *sql.Tx) error {
 	if !d.auditReady {
 		return nil
 	}
-	if _, err := tx.ExecContext(ctx, `UPDATE audit_actor SET user_id = NULL, name = '', via = '' WHERE id = 1`); err != nil {
+	if _, err := tx.StmtContext(ctx, d.actorClear).ExecContext(ctx); err != nil {
 		return fmt.Errorf("store: audit actor: %w", err)
 	}
 	return nil
@@ -424,6 +424,19 @@ func recordMigration(ctx context.Context, tx *sql.Tx, name string) error {
 	_, err := tx.ExecContext(ctx, `INSERT INTO audit_log (at, kind, action, after) VALUES (unixepoch(), ?, 'migration', json_object('name', ?))`,
 		AuditSchema, name)
 	return err
+}
+
+// prepareActor prepares the two statements of every write transaction
+// once (database/sql keeps them prepared on each connection).
+func (d *DB) prepareActor(ctx context.Context) error {
+	var err error
+	if d.actorSet, err = d.db.PrepareContext(ctx, `UPDATE audit_actor SET user_id = ?, name = ?, via = ? WHERE id = 1`); err != nil {
+		return fmt.Errorf("store: audit actor: %w", err)
+	}
+	if d.actorClear, err = d.db.PrepareContext(ctx, `UPDATE audit_actor SET user_id = NULL, name = '', via = '' WHERE id = 1`); err != nil {
+		return fmt.Errorf("store: audit actor: %w", err)
+	}
+	return nil
 }
 
 // ensureAuditTriggers puts the audit triggers in place (after the

@@ -42,6 +42,8 @@ type DB struct {
 	// (after the migrations); from then on every write transaction
 	// records its actor (audit.go).
 	auditReady bool
+	// actorSet and actorClear write audit_actor (prepared once).
+	actorSet, actorClear *sql.Stmt
 }
 
 // Open opens (creating if needed) the database file at path and applies
@@ -67,6 +69,10 @@ func Open(ctx context.Context, path string) (*DB, error) {
 		return nil, err
 	}
 	if err := d.ensureAuditTriggers(ctx); err != nil {
+		sdb.Close()
+		return nil, err
+	}
+	if err := d.prepareActor(ctx); err != nil {
 		sdb.Close()
 		return nil, err
 	}
