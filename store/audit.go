@@ -7,7 +7,6 @@ import (
 	"fmt"
 	"math"
 	"regexp"
-	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -131,7 +130,8 @@ type auditSpec struct {
 	updateGroups []auditGroup
 }
 
-// auditGroup is a named group of columns (auditSpec.updateGroups).
+// auditGroup is a named group of columns (auditSpec.updateGroups); a
+// name ending in * stands for every column with that prefix.
 type auditGroup struct {
 	name string
 	cols []string
@@ -143,7 +143,8 @@ var auditSpecs = []auditSpec{
 	{table: "runs", kind: AuditRun, rowID: "R.id", runID: "R.id", ignore: []string{"updated_at"},
 		updateGroups: []auditGroup{
 			{"summary", []string{"texc_k", "texc_unc_k", "ne_m3", "ne_unc_m3", "tgas_k", "n_warnings", "analysis_version"}},
-			{"review", []string{"status", "signed_off_by", "signed_off_at"}},
+			// with whatever sign-off / reopening columns later migrations add
+			{"review", []string{"status", "signed_off_*", "reopen*"}},
 		}},
 	{table: "run_tags", kind: AuditRunTag, runID: "R.run_id", noUpdate: true},
 	{table: "attachments", kind: AuditFile, rowID: "R.id", runID: "R.run_id"},
@@ -288,10 +289,16 @@ func auditTriggers(sp auditSpec, cols []string, types map[string]string) map[str
 		var groups []group
 		for _, g := range sp.updateGroups {
 			var gc []string
-			for _, c := range g.cols {
-				if slices.Contains(audited, c) {
-					gc = append(gc, c)
-					inGroup[c] = true
+			for _, c := range audited {
+				if inGroup[c] {
+					continue
+				}
+				for _, p := range g.cols {
+					if c == p || (strings.HasSuffix(p, "*") && strings.HasPrefix(c, strings.TrimSuffix(p, "*"))) {
+						gc = append(gc, c)
+						inGroup[c] = true
+						break
+					}
 				}
 			}
 			if len(gc) > 0 {

@@ -484,3 +484,39 @@ func TestAuditMigrationDropsColumn(t *testing.T) {
 		t.Errorf("instrument entry after the column went: %s", e.After)
 	}
 }
+
+// A sign-off column added later joins the review group: one sign-off,
+// one record.
+func TestAuditReviewGroup(t *testing.T) {
+	ctx := context.Background()
+	path := filepath.Join(t.TempDir(), "g.db")
+	d, err := Open(ctx, path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := d.SQL().Exec(`ALTER TABLE runs ADD COLUMN signed_off_version INTEGER`); err != nil {
+		t.Fatal(err)
+	}
+	d.Close()
+	if d, err = Open(ctx, path); err != nil {
+		t.Fatal(err)
+	}
+	defer d.Close()
+	u, err := d.CreateUser(ctx, "rex", RoleReviewer, "h")
+	if err != nil {
+		t.Fatal(err)
+	}
+	id, err := d.CreateRun(ctx, u.ID, RunInput{Title: "r", StartedAt: time.Date(2026, 3, 1, 0, 0, 0, 0, time.UTC), SourceType: "dc_glow"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := d.exec(ctx, `UPDATE runs SET status = 'signed_off', signed_off_by = ?, signed_off_at = 5, signed_off_version = 1 WHERE id = ?`, u.ID, id); err != nil {
+		t.Fatal(err)
+	}
+	es, err := d.AuditLog(ctx, AuditFilter{RunID: id, Action: "update"})
+	if err != nil || len(es) != 1 {
+		t.Fatalf("sign-off gave %d update records (%v), want 1", len(es), err)
+	}
+	wantChange(t, es[0], "signed_off_version", "null", "1")
+	wantChange(t, es[0], "status", "draft", "signed_off")
+}
