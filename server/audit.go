@@ -3,6 +3,7 @@ package server
 import (
 	"context"
 	"encoding/csv"
+	"errors"
 	"fmt"
 	"net/http"
 	"net/url"
@@ -57,7 +58,18 @@ func jobActor(ctx context.Context, job store.Job) context.Context {
 func (s *Server) auditSignIn(next echo.HandlerFunc) echo.HandlerFunc {
 	return func(c echo.Context) error {
 		err := next(c)
-		if c.Response().Committed && c.Response().Status == http.StatusUnauthorized {
+		status := c.Response().Status
+		if !c.Response().Committed {
+			var he *echo.HTTPError
+			var ue *userError
+			switch {
+			case errors.As(err, &he):
+				status = he.Code
+			case errors.As(err, &ue):
+				status = ue.code
+			}
+		}
+		if status == http.StatusUnauthorized {
 			name := strings.TrimSpace(c.FormValue("name"))
 			if r := []rune(name); len(r) > 64 {
 				name = string(r[:64]) + "…"
