@@ -73,6 +73,7 @@ func New(db *store.DB, opt Options) *Server {
 	e.Use(middleware.BodyLimit(bodyLimit))
 	e.Use(s.loadUser)
 	e.Use(s.pageGuard)
+	e.Use(s.auditActor)
 	s.routes()
 	return s
 }
