@@ -36,6 +36,11 @@ func TestAuditTrail(t *testing.T) {
 		chromedp.SendKeys(chromedp.CSS(`[data-testid=audit-actor]`), "olwen"),
 		chromedp.SetValue(chromedp.CSS(`[data-testid=audit-kind]`), "file"),
 		chromedp.Submit(chromedp.CSS(`[data-testid=audit-actor]`)),
+	)
+	// Wait for the filtered page itself (the unfiltered one has rows too,
+	// and reading it mid-navigation loses the execution context).
+	do(t, actx,
+		chromedp.WaitVisible(chromedp.CSS(`[data-testid=audit-csv][href*="actor=olwen"]`)),
 		chromedp.WaitVisible(chromedp.CSS(`[data-testid=audit-row]`)),
 	)
 	who := run(t, actx, chromedp.Nodes(chromedp.CSS(`[data-testid=audit-who]`)))
