@@ -39,7 +39,8 @@ type sh99Truth struct {
 	Gain         float64 `json:"gain_e_per_count"`
 	ReadNoise    float64 `json:"read_noise_e"`
 	Lines        []struct {
-		Upper int `json:"upper_level"`
+		Upper int     `json:"upper_level"`
+		Area  float64 `json:"area"`
 	} `json:"lines"`
 }
 
@@ -211,6 +212,7 @@ func sh99Table(t *testing.T, cases []sh99Case) {
 		fmt.Fprintf(&b, "%-8s  %-44s  %-44s\n", name, sh99Measure(cases, typ, true), sh99Measure(cases, typ, false))
 	}
 	if testing.Verbose() {
+		b.WriteString(sh99AreaTable(cases))
 		fmt.Fprintf(&b, "\n%-26s %10s %22s %8s %16s  %s\n", "spectrum", "n_e truth", "n_e ± σ", "T_exc", "T_exc ± σ", "n_e source")
 		for _, c := range cases {
 			src, _ := c.raw["electron_density_source"].(string)
@@ -219,6 +221,50 @@ func sh99Table(t *testing.T, cases []sh99Case) {
 		}
 	}
 	t.Log(b.String())
+}
+
+// sh99AreaTable gives, per type and line, the median of fitted area /
+// true area − 1 and how many lines were fitted (a diagnostic for the
+// line model: Voigt wings against Stark wings).
+func sh99AreaTable(cases []sh99Case) string {
+	var b strings.Builder
+	b.WriteString("\nfitted line area / truth − 1 (median, fitted/present)\n")
+	for _, typ := range sh99Types {
+		fmt.Fprintf(&b, "%-8s", typ)
+		for u := 3; u <= 7; u++ {
+			var d []float64
+			present := 0
+			for _, c := range cases {
+				if c.truth.Spectrometer != typ {
+					continue
+				}
+				for _, tl := range c.truth.Lines {
+					if tl.Upper != u {
+						continue
+					}
+					present++
+					lines, _ := c.raw["lines"].([]any)
+					for _, l := range lines {
+						m, _ := l.(map[string]any)
+						if a, ok := m["intensity"].(float64); ok && m["upper_level"] == float64(u) {
+							d = append(d, a/tl.Area-1)
+						}
+					}
+				}
+			}
+			if present == 0 {
+				continue
+			}
+			med := math.NaN()
+			if len(d) > 0 {
+				slices.Sort(d)
+				med = (d[(len(d)-1)/2] + d[len(d)/2]) / 2
+			}
+			fmt.Fprintf(&b, "  n=%d %+6.1f %% (%d/%d)", u, 100*med, len(d), present)
+		}
+		b.WriteString("\n")
+	}
+	return b.String()
 }
 
 func sh99PlusMinus(v, u *float64, f string) string {
