@@ -1,0 +1,466 @@
+package server
+
+// Accuracy and coverage of the spectrum pipeline on independent synthetic
+// spectra shaped by the Stehlé & Hutcheon (1999) Stark–Doppler profiles
+// (testdata/sh99synth/, made by testdata/sh99synth/gen.py with scipy; the
+// truth of each spectrum is in its *.truth.json). Every spectrum goes
+// through `glowlog analyze` exactly as a user would run it: the instrument
+// width, gas temperature, detector gain and read noise and the response
+// curve given as flags, from the truth file.
+
+import (
+	"bytes"
+	"encoding/json"
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"slices"
+	"strings"
+	"sync"
+	"testing"
+
+	"glowlog/diag/sh99"
+)
+
+const sh99SynthDir = "../testdata/sh99synth"
+
+// sh99Truth is the part of a truth file the harness uses.
+type sh99Truth struct {
+	Spectrometer string  `json:"spectrometer"`
+	Spectrum     string  `json:"spectrum"`
+	Pixels       int     `json:"pixels"`
+	Response     string  `json:"response"`
+	InstrumentNM float64 `json:"instrument_fwhm_nm"`
+	GasK         float64 `json:"gas_temperature_K"`
+	ElectronK    float64 `json:"electron_temperature_K"`
+	NeM3         float64 `json:"electron_density_m3"`
+	TexcK        float64 `json:"excitation_temperature_K"`
+	Gain         float64 `json:"gain_e_per_count"`
+	ReadNoise    float64 `json:"read_noise_e"`
+	Lines        []struct {
+		Upper int     `json:"upper_level"`
+		Area  float64 `json:"area"`
+	} `json:"lines"`
+}
+
+// sh99Case is one spectrum and what the pipeline made of it.
+type sh99Case struct {
+	truth sh99Truth
+	// raw is the analysis record as printed; nil when analyze failed.
+	raw     map[string]any
+	code    int
+	stderr  string
+	ne      *float64 // electron_density_m3
+	neUnc   *float64 // electron_density_unc_m3 (the total once it exists)
+	texc    *float64 // excitation_temperature_K
+	texcUnc *float64 // excitation_temperature_unc_K
+}
+
+// sh99Types are the spectrometer types of gen.py, in report order.
+var sh99Types = []string{"hires", "mid", "survey"}
+
+// sh99Results analyses every synthetic spectrum once per test binary.
+var sh99Results = sync.OnceValues(func() ([]sh99Case, error) {
+	files, err := filepath.Glob(filepath.Join(sh99SynthDir, "*.truth.json"))
+	if err != nil {
+		return nil, err
+	}
+	if len(files) == 0 {
+		return nil, fmt.Errorf("no truth files in %s", sh99SynthDir)
+	}
+	slices.Sort(files)
+	// Pass the electron temperature (the tables' T) when analyze has the
+	// setting; older versions assume 10⁴ K, which is also the truth.
+	var usage bytes.Buffer
+	AnalyzeCommand([]string{"-h"}, nil, &bytes.Buffer{}, &usage)
+	hasTe := strings.Contains(usage.String(), "-electron-temperature-K")
+
+	cases := make([]sh99Case, len(files))
+	var wg sync.WaitGroup
+	sem := make(chan struct{}, 4)
+	for i, f := range files {
+		b, err := os.ReadFile(f)
+		if err != nil {
+			return nil, err
+		}
+		if err := json.Unmarshal(b, &cases[i].truth); err != nil {
+			return nil, fmt.Errorf("%s: %v", f, err)
+		}
+		tr := cases[i].truth
+		args := []string{
+			"--instrument-fwhm-nm", fmt.Sprint(tr.InstrumentNM),
+			"--gas-temperature-K", fmt.Sprint(tr.GasK),
+			"--gain-e-per-count", fmt.Sprint(tr.Gain),
+			"--read-noise-e", fmt.Sprint(tr.ReadNoise),
+			"--response", filepath.Join(sh99SynthDir, tr.Response),
+		}
+		if hasTe {
+			args = append(args, "--electron-temperature-K", fmt.Sprint(tr.ElectronK))
+		}
+		args = append(args, filepath.Join(sh99SynthDir, tr.Spectrum))
+		wg.Add(1)
+		go func(c *sh99Case) {
+			defer wg.Done()
+			sem <- struct{}{}
+			defer func() { <-sem }()
+			var out, errb bytes.Buffer
+			c.code = AnalyzeCommand(args, nil, &out, &errb)
+			c.stderr = errb.String()
+			if c.code != ExitOK {
+				return
+			}
+			if err := json.Unmarshal(out.Bytes(), &c.raw); err != nil {
+				c.stderr += "output is not JSON: " + err.Error()
+				c.raw = nil
+				return
+			}
+			c.ne = jsonNumber(c.raw, "electron_density_m3")
+			c.neUnc = jsonNumber(c.raw, "electron_density_unc_m3")
+			c.texc = jsonNumber(c.raw, "excitation_temperature_K")
+			c.texcUnc = jsonNumber(c.raw, "excitation_temperature_unc_K")
+		}(&cases[i])
+	}
+	wg.Wait()
+	return cases, nil
+})
+
+// jsonNumber returns a finite number at key, or nil (absent or null).
+func jsonNumber(m map[string]any, key string) *float64 {
+	v, ok := m[key].(float64)
+	if !ok || math.IsNaN(v) || math.IsInf(v, 0) {
+		return nil
+	}
+	return &v
+}
+
+// sh99Stats are the figures of one group of cases for one quantity.
+type sh99Stats struct {
+	cases    int     // spectra in the group where the quantity is defined
+	numbers  int     // spectra with a reported value
+	median   float64 // median |value/truth − 1| over the values (NaN: none)
+	withUnc  int     // values with a reported 1σ
+	in1, in2 int     // truth within 1σ, 2σ
+}
+
+func (s sh99Stats) frac1() float64 { return float64(s.in1) / float64(s.withUnc) }
+func (s sh99Stats) frac2() float64 { return float64(s.in2) / float64(s.withUnc) }
+
+func sh99Measure(cases []sh99Case, typ string, ne bool) sh99Stats {
+	var s sh99Stats
+	var errs []float64
+	for _, c := range cases {
+		if typ != "" && c.truth.Spectrometer != typ {
+			continue
+		}
+		truth, v, u := c.truth.NeM3, c.ne, c.neUnc
+		if !ne {
+			if len(c.truth.Lines) < 2 {
+				continue // one line gives no excitation temperature
+			}
+			truth, v, u = c.truth.TexcK, c.texc, c.texcUnc
+		}
+		s.cases++
+		if v == nil {
+			continue
+		}
+		s.numbers++
+		errs = append(errs, math.Abs(*v/truth-1))
+		if u == nil || !(*u > 0) {
+			continue
+		}
+		s.withUnc++
+		d := math.Abs(*v - truth)
+		if d <= *u {
+			s.in1++
+		}
+		if d <= 2**u {
+			s.in2++
+		}
+	}
+	s.median = math.NaN()
+	if len(errs) > 0 {
+		slices.Sort(errs)
+		n := len(errs)
+		s.median = (errs[(n-1)/2] + errs[n/2]) / 2
+	}
+	return s
+}
+
+func (s sh99Stats) String() string {
+	if s.cases == 0 {
+		return "—"
+	}
+	if s.withUnc == 0 {
+		return fmt.Sprintf("%2d/%2d  med %5.1f %%  (no σ)", s.numbers, s.cases, 100*s.median)
+	}
+	return fmt.Sprintf("%2d/%2d  med %5.1f %%  1σ %2d/%-2d  2σ %2d/%-2d", s.numbers, s.cases, 100*s.median,
+		s.in1, s.withUnc, s.in2, s.withUnc)
+}
+
+// sh99Table prints the per-type figures (visible with -v).
+func sh99Table(t *testing.T, cases []sh99Case) {
+	t.Helper()
+	var b strings.Builder
+	fmt.Fprintf(&b, "SH99 synthetic spectra (%s): values/cases, median |error|, truth within reported 1σ and 2σ\n", sh99SynthDir)
+	fmt.Fprintf(&b, "%-8s  %-44s  %-44s\n", "type", "n_e", "T_exc")
+	for _, typ := range append(slices.Clone(sh99Types), "") {
+		name := typ
+		if typ == "" {
+			name = "all"
+		}
+		fmt.Fprintf(&b, "%-8s  %-44s  %-44s\n", name, sh99Measure(cases, typ, true), sh99Measure(cases, typ, false))
+	}
+	if testing.Verbose() {
+		b.WriteString(sh99AreaTable(cases))
+		fmt.Fprintf(&b, "\n%-26s %10s %22s %8s %16s  %s\n", "spectrum", "n_e truth", "n_e ± σ", "T_exc", "T_exc ± σ", "n_e source")
+		for _, c := range cases {
+			src, _ := c.raw["electron_density_source"].(string)
+			fmt.Fprintf(&b, "%-26s %10.3g %22s %8.0f %16s  %s\n", c.truth.Spectrum, c.truth.NeM3,
+				sh99PlusMinus(c.ne, c.neUnc, "%.3g"), c.truth.TexcK, sh99PlusMinus(c.texc, c.texcUnc, "%.0f"), src)
+		}
+	}
+	t.Log(b.String())
+}
+
+// sh99AreaTable gives, per type and line, the median of fitted area /
+// true area − 1 and how many lines were fitted (a diagnostic for the
+// line model: Voigt wings against Stark wings).
+func sh99AreaTable(cases []sh99Case) string {
+	var b strings.Builder
+	b.WriteString("\nfitted line area / truth − 1 (median, fitted/present)\n")
+	for _, typ := range sh99Types {
+		fmt.Fprintf(&b, "%-8s", typ)
+		for u := 3; u <= 7; u++ {
+			var d []float64
+			present := 0
+			for _, c := range cases {
+				if c.truth.Spectrometer != typ {
+					continue
+				}
+				for _, tl := range c.truth.Lines {
+					if tl.Upper != u {
+						continue
+					}
+					present++
+					lines, _ := c.raw["lines"].([]any)
+					for _, l := range lines {
+						m, _ := l.(map[string]any)
+						if a, ok := m["intensity"].(float64); ok && m["upper_level"] == float64(u) {
+							d = append(d, a/tl.Area-1)
+						}
+					}
+				}
+			}
+			if present == 0 {
+				continue
+			}
+			med := math.NaN()
+			if len(d) > 0 {
+				slices.Sort(d)
+				med = (d[(len(d)-1)/2] + d[len(d)/2]) / 2
+			}
+			fmt.Fprintf(&b, "  n=%d %+6.1f %% (%d/%d)", u, 100*med, len(d), present)
+		}
+		b.WriteString("\n")
+	}
+	return b.String()
+}
+
+func sh99PlusMinus(v, u *float64, f string) string {
+	switch {
+	case v == nil:
+		return "—"
+	case u == nil:
+		return fmt.Sprintf(f, *v)
+	}
+	return fmt.Sprintf(f+" ± "+f, *v, *u)
+}
+
+// sh99Load runs (once) and checks that every spectrum gave a result.
+func sh99Load(t *testing.T) []sh99Case {
+	t.Helper()
+	cases, err := sh99Results()
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range cases {
+		if c.code != ExitOK || c.raw == nil {
+			t.Errorf("%s: analyze exit %d: %s", c.truth.Spectrum, c.code, c.stderr)
+		}
+	}
+	if t.Failed() {
+		t.FailNow()
+	}
+	return cases
+}
+
+// TestSH99SynthAccuracy: every SH99-shaped synthetic spectrum is analysed
+// without error, Hβ (present in every spectrum) is fitted in each, and the
+// median errors of n_e and T_exc per spectrometer type stay below bounds
+// set at 1.3 × the figures measured when the set was made (listed in
+// sh99MedianBound), so that a change that makes the pipeline less
+// accurate on realistic line shapes fails here.
+func TestSH99SynthAccuracy(t *testing.T) {
+	cases := sh99Load(t)
+	if len(cases) < 36 {
+		t.Fatalf("%d synthetic spectra, want at least 36", len(cases))
+	}
+	for _, c := range cases {
+		if px, _ := c.raw["pixels"].(float64); int(px) != c.truth.Pixels {
+			t.Errorf("%s: analysed %v pixels, the truth file says %d", c.truth.Spectrum, c.raw["pixels"], c.truth.Pixels)
+		}
+		fitted := false
+		search, _ := c.raw["line_search"].([]any)
+		for _, s := range search {
+			m, _ := s.(map[string]any)
+			if m["upper_level"] == 4.0 && m["status"] == "fitted" {
+				fitted = true
+			}
+		}
+		if !fitted {
+			t.Errorf("%s: Hβ not fitted (line_search %v)", c.truth.Spectrum, search)
+		}
+	}
+	sh99Table(t, cases)
+	for _, typ := range sh99Types {
+		for _, q := range []struct {
+			name string
+			ne   bool
+		}{{"n_e", true}, {"T_exc", false}} {
+			s := sh99Measure(cases, typ, q.ne)
+			bound, ok := sh99MedianBound[typ+" "+q.name]
+			if s.cases == 0 {
+				if ok {
+					t.Errorf("%s: no cases for %s", typ, q.name)
+				}
+				continue
+			}
+			if !ok {
+				t.Errorf("%s %s: no bound set (measured median %.3f)", typ, q.name, s.median)
+				continue
+			}
+			// A value for at least half of the spectra: withholding a
+			// number is allowed (a bound instead of a tight number that
+			// misses), withholding nearly all of them is not accuracy.
+			if 2*s.numbers < s.cases {
+				t.Errorf("%s %s: values for only %d of %d spectra", typ, q.name, s.numbers, s.cases)
+			}
+			if !(s.median <= bound) {
+				t.Errorf("%s %s: median |error| %.3f above the bound %.3f", typ, q.name, s.median, bound)
+			}
+		}
+	}
+}
+
+// sh99MedianBound is 1.3 × the median relative error measured on
+// testdata/sh99synth when it was made (see the table of
+// TestSH99SynthAccuracy -v and the notes), per spectrometer type and
+// quantity.
+var sh99MedianBound = map[string]float64{
+	"hires n_e":    0.48,  // measured 0.364 (GGC 2003 Hβ relation on a Voigt fit)
+	"mid n_e":      0.37,  // measured 0.282
+	"survey n_e":   0.57,  // measured 0.436
+	"mid T_exc":    0.15,  // measured 0.112 (Hα and Hβ only)
+	"survey T_exc": 0.056, // measured 0.043 (Hα … Hε)
+}
+
+// TestSH99SynthCoverage: the targets of issue 8 for honest total
+// uncertainties, over all spectra: the truth within the reported total 1σ
+// in 68 % ± 8 % of cases and within 2σ in at least 93 %, for n_e and for
+// T_exc. It runs once the analysis reports its σ split into statistical
+// and systematic parts (electron_density_unc_sys_m3 in the output); the
+// statistical-only σ of earlier versions is not meant to meet it.
+func TestSH99SynthCoverage(t *testing.T) {
+	cases := sh99Load(t)
+	split := false
+	for _, c := range cases {
+		if _, ok := c.raw["electron_density_unc_sys_m3"]; ok {
+			split = true
+		}
+	}
+	if !split {
+		sh99Table(t, cases)
+		t.Skip("coverage targets pending the total-σ work")
+	}
+	sh99Table(t, cases)
+	for _, q := range []struct {
+		name string
+		ne   bool
+	}{{"n_e", true}, {"T_exc", false}} {
+		s := sh99Measure(cases, "", q.ne)
+		if s.withUnc < s.cases/2 {
+			t.Errorf("%s: a value with σ for only %d of %d spectra", q.name, s.withUnc, s.cases)
+			continue
+		}
+		if f := s.frac1(); f < 0.60 || f > 0.76 {
+			t.Errorf("%s: truth within the total 1σ in %d of %d (%.0f %%), want 68 %% ± 8 %%", q.name, s.in1, s.withUnc, 100*f)
+		}
+		if f := s.frac2(); f < 0.93 {
+			t.Errorf("%s: truth within the total 2σ in %d of %d (%.0f %%), want ≥ 93 %%", q.name, s.in2, s.withUnc, 100*f)
+		}
+	}
+}
+
+// TestSH99SynthTableWidths: the generator's own interpolation of the
+// tables (scipy PCHIP in ln P against asinh(x/x_h)) and glowlog's
+// (package sh99: PCHIP in ln P against ½ ln(1 + x²/x_c²)) give the same
+// FWHM of each node profile used within 1 % (measured: at most 0.52 %,
+// Hα at 3.162×10²² m⁻³, the rest ≤ 0.25 %; package sh99 states 0.2 % for
+// its detuning interpolation where the grid is dense and 2.5 % where a
+// Doppler core falls between sparse nodes; the generator's widths are in
+// air, sh99's in vacuum, 0.03 % apart). 1 % is glowlog's choice, about
+// twice the largest difference measured. Two independent readings of the
+// same published table, so a fault in either shows here.
+func TestSH99SynthTableWidths(t *testing.T) {
+	files, err := filepath.Glob(filepath.Join(sh99SynthDir, "*.truth.json"))
+	if err != nil || len(files) == 0 {
+		t.Fatalf("no truth files: %v", err)
+	}
+	type key struct {
+		upper int
+		ne    float64
+	}
+	seen := map[key]float64{}
+	for _, f := range files {
+		b, err := os.ReadFile(f)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var tr struct {
+			NeM3      float64 `json:"electron_density_m3"`
+			ElectronK float64 `json:"electron_temperature_K"`
+			Lines     []struct {
+				Upper  int     `json:"upper_level"`
+				FWHMNM float64 `json:"table_fwhm_nm"`
+			} `json:"lines"`
+		}
+		if err := json.Unmarshal(b, &tr); err != nil {
+			t.Fatal(err)
+		}
+		for _, l := range tr.Lines {
+			k := key{l.Upper, tr.NeM3}
+			if _, ok := seen[k]; ok {
+				continue
+			}
+			line, err := sh99.Balmer(l.Upper)
+			if err != nil {
+				t.Fatal(err)
+			}
+			w, err := line.TableWidthNM(sh99.FWHM, tr.NeM3, tr.ElectronK)
+			if err != nil {
+				t.Fatalf("%s: upper %d: %v", f, l.Upper, err)
+			}
+			seen[k] = l.FWHMNM/w - 1
+			t.Logf("upper %d n_e %.4g m⁻³: generator %.4f nm, sh99 %.4f nm (%+.2f %%)", l.Upper, tr.NeM3, l.FWHMNM, w, 100*(l.FWHMNM/w-1))
+		}
+	}
+	if len(seen) < 10 {
+		t.Fatalf("only %d line/density nodes", len(seen))
+	}
+	for k, d := range seen {
+		if math.Abs(d) > 0.01 {
+			t.Errorf("upper %d, n_e %.4g m⁻³: generator's table FWHM differs from package sh99's by %+.2f %%", k.upper, k.ne, 100*d)
+		}
+	}
+}
