@@ -35,13 +35,28 @@ func ServeCommand(args []string, stdout, stderr io.Writer) int {
 	dbPath := fs.String("db", envOr("GLOWLOG_DB", DefaultDB), "SQLite database file (env GLOWLOG_DB)")
 	noDemo := fs.Bool("no-demo", os.Getenv("GLOWLOG_NO_DEMO") != "", "do not seed the demo scenario into an empty database (env GLOWLOG_NO_DEMO)")
 	secure := fs.Bool("secure-cookies", os.Getenv("GLOWLOG_SECURE_COOKIES") != "", "mark cookies Secure (behind TLS) (env GLOWLOG_SECURE_COOKIES)")
+	syncMode := fs.String("sync", envOr("GLOWLOG_SYNC", store.SyncNormal), "when commits reach the disk: normal (a commit survives a crash of glowlog; the last ones can be lost on power loss) or full (fsync at every commit; survives power loss) (env GLOWLOG_SYNC)")
+	var bk BackupSchedule
+	fs.StringVar(&bk.Dir, "backup-dir", os.Getenv("GLOWLOG_BACKUP_DIR"), "write checked backups into DIR on a schedule (env GLOWLOG_BACKUP_DIR)")
+	fs.DurationVar(&bk.Every, "backup-every", 6*time.Hour, "interval of scheduled backups")
+	fs.IntVar(&bk.Keep, "backup-keep", 14, "how many scheduled backups to keep (the newest)")
 	if err := fs.Parse(args); err != nil {
 		return ExitInput
 	}
+	sync, err := store.ParseSync(*syncMode)
+	if err != nil {
+		fmt.Fprintf(stderr, "glowlog serve: --sync %q: use full or normal\n", *syncMode)
+		return ExitInput
+	}
+	if err := bk.Check(); err != nil {
+		fmt.Fprintf(stderr, "glowlog serve: %v\n", err)
+		return ExitInput
+	}
+	extra := serveOptions{Store: store.Options{Sync: sync}, Backups: bk}
 	log := slog.New(slog.NewTextHandler(stderr, nil))
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer stop()
-	if err := serve(ctx, *addr, *dbPath, !*noDemo, *secure, log, stdout); err != nil {
+	if err := serve(ctx, *addr, *dbPath, !*noDemo, *secure, log, stdout, extra); err != nil {
 		fmt.Fprintf(stderr, "glowlog serve: %v\n", err)
 		return ExitError
 	}
@@ -55,17 +70,34 @@ func envOr(k, def string) string {
 	return def
 }
 
-func serve(ctx context.Context, addr, dbPath string, demo, secure bool, log *slog.Logger, stdout io.Writer) error {
+// serveOptions are the storage settings of serve: durability and
+// scheduled backups.
+type serveOptions struct {
+	Store   store.Options
+	Backups BackupSchedule
+}
+
+func serve(ctx context.Context, addr, dbPath string, demo, secure bool, log *slog.Logger, stdout io.Writer, extra serveOptions) error {
 	if dir := filepath.Dir(dbPath); dir != "." {
 		if err := os.MkdirAll(dir, 0o755); err != nil {
 			return err
 		}
 	}
-	db, err := store.Open(ctx, dbPath)
+	db, err := store.Open(ctx, dbPath, extra.Store)
 	if err != nil {
 		return err
 	}
 	defer db.Close()
+	if extra.Backups.Dir != "" {
+		if err := os.MkdirAll(extra.Backups.Dir, 0o700); err != nil {
+			return err
+		}
+		bctx, stopBackups := context.WithCancel(ctx)
+		done := make(chan struct{})
+		go func() { defer close(done); runBackups(bctx, db, extra.Backups, log) }()
+		defer func() { stopBackups(); <-done }() // before db.Close
+	}
+	log.Info("database", "file", dbPath, "sync", extra.Store.Sync, "backup_dir", extra.Backups.Dir)
 	s := New(db, Options{Log: log, SecureCookies: secure})
 	if err := s.bootstrap(ctx, demo, stdout); err != nil {
 		return err
