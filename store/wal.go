@@ -232,12 +232,18 @@ func readDBHeader(path string) (dbHeader, error) {
 
 // CheckWAL returns a *WALError when path-wal holds committed changes that
 // cannot belong to the database file at path (see the conditions above),
-// and nil when there is no such WAL or it may belong. It reads the WAL
-// before and after the database header and retries when a live writer
-// restarted the WAL in between, so it can run while the database is open.
+// and nil when there is no such WAL or it may belong.
+//
+// It may run while another process has the database open: it judges only
+// a stable view (the WAL read twice, the database header in between, both
+// WAL reads with the same salts and the same committed frames, so that a
+// checkpoint in between copied nothing the view lacks) and reports a
+// mismatch only when three stable views agree. A WAL that never holds
+// still is in use by a live writer, which owns it.
 func CheckWAL(path string) error {
 	walPath := path + "-wal"
-	for range 5 {
+	mismatches := 0
+	for range 20 {
 		a, err := readWAL(walPath)
 		if err != nil {
 			return err
@@ -256,15 +262,18 @@ func CheckWAL(path string) error {
 		if b.commits == 0 {
 			return nil // checkpointed and reset meanwhile
 		}
-		if a.salt1 != b.salt1 || a.salt2 != b.salt2 || a.ckptSeq != b.ckptSeq {
-			continue // restarted by a live writer meanwhile: read again
+		if a.salt1 != b.salt1 || a.salt2 != b.salt2 || a.ckptSeq != b.ckptSeq || a.commits != b.commits {
+			continue // a live writer changed it meanwhile: look again
 		}
-		if reason := walMismatch(h, b); reason != "" {
+		reason := walMismatch(h, b)
+		if reason == "" {
+			return nil
+		}
+		if mismatches++; mismatches == 3 {
 			return &WALError{DB: path, WAL: walPath, Reason: reason}
 		}
-		return nil
 	}
-	return nil // a live writer keeps restarting it: it is in use, so it belongs
+	return nil
 }
 
 // walMismatch names the first condition a genuine pair would satisfy and

@@ -8,6 +8,7 @@ import (
 	"os"
 	"path/filepath"
 	"strings"
+	"sync"
 	"testing"
 	"time"
 )
@@ -272,4 +273,69 @@ func TestReadWALChecksums(t *testing.T) {
 	if w, _ := readWAL(p); w.commits != 0 {
 		t.Fatalf("damaged header: %d committed frames", w.commits)
 	}
+}
+
+// TestCheckWALWhileWriting runs CheckWAL again and again (as a second
+// process's Open would) while three goroutines insert runs and a fourth
+// checkpoints with restarts: a live database's own WAL is never refused.
+func TestCheckWALWhileWriting(t *testing.T) {
+	ctx := context.Background()
+	path := filepath.Join(t.TempDir(), "live.db")
+	d := openWithRuns(t, path, 1)
+	defer d.Close()
+	u, err := d.CreateUser(ctx, "busy", RoleOperator, "x")
+	if err != nil {
+		t.Fatal(err)
+	}
+	done := make(chan struct{})
+	errs := make(chan error, 8)
+	var wg sync.WaitGroup
+	for w := range 3 {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for i := range 80 {
+				if _, err := d.CreateRun(ctx, u.ID, RunInput{Title: "busy", StartedAt: time.Date(2026, 6, 1, w, i, 0, 0, time.UTC), SourceType: "dc_glow", Notes: string(make([]byte, 1500))}); err != nil {
+					errs <- err
+					return
+				}
+			}
+		}()
+	}
+	wg.Add(1)
+	go func() {
+		defer wg.Done()
+		for i := 0; ; i++ {
+			select {
+			case <-done:
+				return
+			default:
+			}
+			mode := []string{"PASSIVE", "RESTART", "TRUNCATE"}[i%3]
+			d.SQL().ExecContext(ctx, `PRAGMA wal_checkpoint(`+mode+`)`)
+			time.Sleep(2 * time.Millisecond)
+		}
+	}()
+	checks := 0
+	for {
+		if err := CheckWAL(path); err != nil {
+			close(done)
+			wg.Wait()
+			t.Fatalf("after %d checks: %v", checks, err)
+		}
+		checks++
+		var n int
+		d.SQL().QueryRow(`SELECT count(*) FROM runs`).Scan(&n)
+		if n >= 1+3*80 || len(errs) > 0 || checks > 5000 {
+			break
+		}
+	}
+	close(done)
+	wg.Wait()
+	select {
+	case err := <-errs:
+		t.Fatal(err)
+	default:
+	}
+	t.Logf("%d checks while writing", checks)
 }
