@@ -88,6 +88,11 @@ func serve(ctx context.Context, addr, dbPath string, demo, secure bool, log *slo
 		return err
 	}
 	defer db.Close()
+	log.Info("database", "file", dbPath, "sync", extra.Store.Sync, "backup_dir", extra.Backups.Dir)
+	s := New(db, Options{Log: log, SecureCookies: secure})
+	if err := s.bootstrap(ctx, demo, stdout); err != nil {
+		return err
+	}
 	if extra.Backups.Dir != "" {
 		if err := os.MkdirAll(extra.Backups.Dir, 0o700); err != nil {
 			return err
@@ -96,11 +101,6 @@ func serve(ctx context.Context, addr, dbPath string, demo, secure bool, log *slo
 		done := make(chan struct{})
 		go func() { defer close(done); runBackups(bctx, db, extra.Backups, log) }()
 		defer func() { stopBackups(); <-done }() // before db.Close
-	}
-	log.Info("database", "file", dbPath, "sync", extra.Store.Sync, "backup_dir", extra.Backups.Dir)
-	s := New(db, Options{Log: log, SecureCookies: secure})
-	if err := s.bootstrap(ctx, demo, stdout); err != nil {
-		return err
 	}
 	// Read the default trend (all runs, T_exc against time) once in the
 	// background, so that the first visitor of the Trends page gets it
