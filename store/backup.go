@@ -9,6 +9,8 @@ import (
 	"path/filepath"
 	"strings"
 	"time"
+
+	"glowlog/store/sqlitewal"
 )
 
 // Backups. A plain copy (cp) of a live database is not a backup: the
@@ -53,22 +55,24 @@ func (d *DB) Backup(ctx context.Context, out string, force bool) (BackupSummary,
 // BackupFile backs up the database file at dbPath, which may be in use by
 // a running server, without migrating it (see DB.Backup).
 func BackupFile(ctx context.Context, dbPath, out string, force bool) (BackupSummary, error) {
-	h, err := readDBHeader(dbPath)
+	h, err := sqlitewal.ReadHeader(dbPath)
 	if err != nil {
 		return BackupSummary{}, err
 	}
-	if !h.exists {
+	if !h.Exists {
 		return BackupSummary{}, fmt.Errorf("%w: database %s does not exist", ErrInvalid, dbPath)
 	}
-	if !h.sqlite {
+	if !h.SQLite {
 		return BackupSummary{}, fmt.Errorf("%w: %s is not a SQLite database", ErrInvalid, dbPath)
 	}
 	if err := CheckWAL(dbPath); err != nil {
 		return BackupSummary{}, err
 	}
-	sdb, err := openSQL(dbPath, SyncNormal)
+	// No journal_mode pragma: the source keeps the mode it has (a WAL
+	// database is read through its WAL), and backup changes nothing in it.
+	sdb, err := sql.Open("sqlite", "file:"+dbPath+"?_pragma=busy_timeout(5000)")
 	if err != nil {
-		return BackupSummary{}, err
+		return BackupSummary{}, fmt.Errorf("store: open %s: %w", dbPath, err)
 	}
 	defer sdb.Close()
 	return backupSQL(ctx, sdb, dbPath, out, force)
@@ -130,14 +134,14 @@ func backupSQL(ctx context.Context, sdb *sql.DB, dbPath, out string, force bool)
 // Problems with the file are ErrInvalid.
 func Verify(ctx context.Context, path string) (BackupSummary, error) {
 	sum := BackupSummary{Path: path}
-	h, err := readDBHeader(path)
+	h, err := sqlitewal.ReadHeader(path)
 	if err != nil {
 		return sum, err
 	}
-	if !h.exists {
+	if !h.Exists {
 		return sum, fmt.Errorf("%w: %s does not exist", ErrInvalid, path)
 	}
-	if !h.sqlite {
+	if !h.SQLite {
 		return sum, fmt.Errorf("%w: %s is not a SQLite database", ErrInvalid, path)
 	}
 	if err := CheckWAL(path); err != nil {
@@ -217,9 +221,9 @@ func Restore(ctx context.Context, dbPath, backupPath string, now time.Time) (Res
 	} else if same {
 		return res, fmt.Errorf("%w: the backup %s is the database itself", ErrInvalid, backupPath)
 	}
-	if w, err := readWAL(backupPath + "-wal"); err != nil {
+	if w, err := sqlitewal.ReadWAL(backupPath + "-wal"); err != nil {
 		return res, err
-	} else if w.commits > 0 {
+	} else if w.Commits > 0 {
 		return res, fmt.Errorf("%w: %s has a WAL with committed changes beside it (a copy of a live database, not a backup); make backups with glowlog backup", ErrInvalid, backupPath)
 	}
 	if _, err := Verify(ctx, backupPath); err != nil {

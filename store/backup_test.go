@@ -8,6 +8,8 @@ import (
 	"sync"
 	"testing"
 	"time"
+
+	"glowlog/store/sqlitewal"
 )
 
 // TestBackupUnderWriteLoad backs up while four goroutines insert runs
@@ -139,10 +141,10 @@ func TestBackupRefusals(t *testing.T) {
 		}
 	}
 	// A backup has its own file identity and is in rollback-journal mode.
-	hl, _ := readDBHeader(live)
-	hb, _ := readDBHeader(out)
-	if hb.id == 0 || hb.id == hl.id || hb.writeVer != 1 {
-		t.Fatalf("backup identity %x (database %x), write version %d", hb.id, hl.id, hb.writeVer)
+	hl, _ := sqlitewal.ReadHeader(live)
+	hb, _ := sqlitewal.ReadHeader(out)
+	if hb.ID == 0 || hb.ID == hl.ID || hb.WriteVer != 1 {
+		t.Fatalf("backup identity %x (database %x), write version %d", hb.ID, hl.ID, hb.WriteVer)
 	}
 }
 
