@@ -6,6 +6,8 @@
 //	glowlog [serve]                  start the web application (default)
 //	glowlog analyze [flags] FILE...  analyse measurement sets or spectra, print JSON
 //	glowlog instrument [flags] FILE  measure the instrument function from a lamp spectrum
+//	glowlog backup [--db FILE] OUT   consistent copy of a live database, checked
+//	glowlog restore [--db FILE] BAK  put a backup back (server stopped)
 //
 // See README.md for the input and output fields.
 package main
@@ -37,7 +39,9 @@ func main() {
 // run dispatches a subcommand and returns the process exit status.
 func run(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 	cmd := "serve"
-	if len(args) > 0 && !strings.HasPrefix(args[0], "-") {
+	if len(args) > 0 && (args[0] == "-h" || args[0] == "--help" || args[0] == "-help") {
+		cmd, args = "help", args[1:]
+	} else if len(args) > 0 && !strings.HasPrefix(args[0], "-") {
 		cmd, args = args[0], args[1:]
 	}
 	switch cmd {
@@ -51,6 +55,10 @@ func run(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 		return server.TokenCommand(args, stdout, stderr)
 	case "serve":
 		return runServe(args, stdout, stderr)
+	case "backup":
+		return runBackup(args, stdout, stderr)
+	case "restore":
+		return runRestore(args, stdout, stderr)
 	case "version":
 		fmt.Fprintf(stdout, "glowlog %s (%s)\n", diag.EngineVersion, diag.ConstantsSet)
 		return exitOK
@@ -69,8 +77,12 @@ const usage = `usage:
   glowlog instrument [flags] FILE   measure the instrument function from a calibration-lamp spectrum
   glowlog user add NAME --role R    create an account (password on stdin); --db FILE
   glowlog token create NAME         print a new API token for user NAME, once; --db FILE
+  glowlog backup [--force] OUT      write a checked, consistent copy of the database (also while
+                                    serve runs); --db FILE
+  glowlog restore BACKUP            put a backup in place of the database (stop serve first; the
+                                    replaced file is kept as FILE.before-restore-TIME); --db FILE
   glowlog version                   print the version
-run "glowlog analyze -h" or "glowlog instrument -h" for the flags
+run "glowlog COMMAND -h" for the flags of a command
 `
 
 func runServe(args []string, stdout, stderr io.Writer) int {

@@ -38,6 +38,11 @@ func ServeCommand(args []string, stdout, stderr io.Writer) int {
 	proxies := envList("GLOWLOG_TRUSTED_PROXY")
 	fs.Func("trusted-proxy", "believe X-Forwarded-For and X-Forwarded-Proto only from this proxy address or CIDR range; repeatable (env GLOWLOG_TRUSTED_PROXY, comma-separated)",
 		func(v string) error { proxies = append(proxies, v); return nil })
+	syncMode := fs.String("sync", envOr("GLOWLOG_SYNC", store.SyncNormal), "when commits reach the disk: normal (a commit survives a crash of glowlog; the last ones can be lost on power loss) or full (fsync at every commit; survives power loss) (env GLOWLOG_SYNC)")
+	var bk BackupSchedule
+	fs.StringVar(&bk.Dir, "backup-dir", os.Getenv("GLOWLOG_BACKUP_DIR"), "write checked backups into DIR on a schedule (env GLOWLOG_BACKUP_DIR)")
+	fs.DurationVar(&bk.Every, "backup-every", 6*time.Hour, "interval of scheduled backups")
+	fs.IntVar(&bk.Keep, "backup-keep", 14, "how many scheduled backups to keep (the newest)")
 	if err := fs.Parse(args); err != nil {
 		return ExitInput
 	}
@@ -46,10 +51,20 @@ func ServeCommand(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "glowlog serve: %v\n", err)
 		return ExitInput
 	}
+	sync, err := store.ParseSync(*syncMode)
+	if err != nil {
+		fmt.Fprintf(stderr, "glowlog serve: --sync %q: use full or normal\n", *syncMode)
+		return ExitInput
+	}
+	if err := bk.Check(); err != nil {
+		fmt.Fprintf(stderr, "glowlog serve: %v\n", err)
+		return ExitInput
+	}
+	extra := serveOptions{Store: store.Options{Sync: sync}, Backups: bk}
 	log := slog.New(slog.NewTextHandler(stderr, nil))
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer stop()
-	if err := serve(ctx, *addr, *dbPath, !*noDemo, Options{SecureCookies: *secure, TrustedProxies: trusted}, log, stdout); err != nil {
+	if err := serve(ctx, *addr, *dbPath, !*noDemo, Options{SecureCookies: *secure, TrustedProxies: trusted}, log, stdout, extra); err != nil {
 		fmt.Fprintf(stderr, "glowlog serve: %v\n", err)
 		return ExitError
 	}
@@ -63,21 +78,38 @@ func envOr(k, def string) string {
 	return def
 }
 
-func serve(ctx context.Context, addr, dbPath string, demo bool, opt Options, log *slog.Logger, stdout io.Writer) error {
+// serveOptions are the storage settings of serve: durability and
+// scheduled backups.
+type serveOptions struct {
+	Store   store.Options
+	Backups BackupSchedule
+}
+
+func serve(ctx context.Context, addr, dbPath string, demo bool, opt Options, log *slog.Logger, stdout io.Writer, extra serveOptions) error {
 	if dir := filepath.Dir(dbPath); dir != "." {
 		if err := os.MkdirAll(dir, 0o755); err != nil {
 			return err
 		}
 	}
-	db, err := store.Open(ctx, dbPath)
+	db, err := store.Open(ctx, dbPath, extra.Store)
 	if err != nil {
 		return err
 	}
 	defer db.Close()
+	log.Info("database", "file", dbPath, "sync", extra.Store.Sync, "backup_dir", extra.Backups.Dir)
 	opt.Log = log
 	s := New(db, opt)
 	if err := s.bootstrap(ctx, demo, stdout); err != nil {
 		return err
+	}
+	if extra.Backups.Dir != "" {
+		if err := os.MkdirAll(extra.Backups.Dir, 0o700); err != nil {
+			return err
+		}
+		bctx, stopBackups := context.WithCancel(ctx)
+		done := make(chan struct{})
+		go func() { defer close(done); runBackups(bctx, db, extra.Backups, log) }()
+		defer func() { stopBackups(); <-done }() // before db.Close
 	}
 	// Read the default trend (all runs, T_exc against time) once in the
 	// background, so that the first visitor of the Trends page gets it

@@ -26,10 +26,20 @@ import (
 // series of seriesLen spectra: a new run (POST /api/v1/runs, included in
 // the time) after every seriesLen uploads. Reported: spectra per second.
 //
+// One sub-benchmark per durability mode of serve --sync: normal (the
+// default; the WAL is synced at checkpoints) and full (an fsync at every
+// commit).
+//
 //	go test ./server/ -run '^$' -bench APIIngest -benchtime 2000x
 func BenchmarkAPIIngest(b *testing.B) {
+	for _, mode := range []string{store.SyncNormal, store.SyncFull} {
+		b.Run("sync="+mode, func(b *testing.B) { benchAPIIngest(b, mode) })
+	}
+}
+
+func benchAPIIngest(b *testing.B, syncMode string) {
 	ctx := context.Background()
-	db, err := store.Open(ctx, filepath.Join(b.TempDir(), "ingest.db"))
+	db, err := store.Open(ctx, filepath.Join(b.TempDir(), "ingest.db"), store.Options{Sync: syncMode})
 	if err != nil {
 		b.Fatal(err)
 	}

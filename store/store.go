@@ -44,29 +44,73 @@ type DB struct {
 	auditReady bool
 	// actorSet and actorClear write audit_actor (prepared once).
 	actorSet, actorClear *sql.Stmt
+
+	path string // the file, for Backup
+}
+
+// Sync modes of Options.Sync (SQLite's PRAGMA synchronous in WAL mode).
+const (
+	// SyncNormal syncs the WAL at checkpoints only: a commit survives a
+	// crash of the process, but the last commits before a power loss or
+	// an operating-system crash can be lost (the database stays
+	// consistent). The default.
+	SyncNormal = "normal"
+	// SyncFull also syncs the WAL at every commit: a commit that returned
+	// survives a power loss too, at the price of one fsync per write.
+	SyncFull = "full"
+)
+
+// ParseSync checks a sync mode name ("" is SyncNormal).
+func ParseSync(s string) (string, error) {
+	switch strings.ToLower(strings.TrimSpace(s)) {
+	case "", SyncNormal:
+		return SyncNormal, nil
+	case SyncFull:
+		return SyncFull, nil
+	}
+	return "", fmt.Errorf("%w: sync mode %q: use full or normal", ErrInvalid, s)
+}
+
+// Options tune Open; the zero value is the default.
+type Options struct {
+	// Sync is SyncNormal (default when empty) or SyncFull.
+	Sync string
 }
 
 // Open opens (creating if needed) the database file at path and applies
 // pending migrations. Every pooled connection gets foreign keys on, WAL
 // journaling (readers run during writes), a 5 s busy timeout (writers
-// wait instead of failing) and immediate write transactions (no upgrade
-// deadlocks), through the DSN so that the pragmas cover the whole pool.
-// The file and its -wal and -shm are made private (0600, EnsurePrivate).
-func Open(ctx context.Context, path string) (*DB, error) {
-	dsn := "file:" + path + "?_pragma=foreign_keys(1)&_pragma=journal_mode(WAL)&_pragma=busy_timeout(5000)&_pragma=synchronous(NORMAL)&_txlock=immediate"
-	if path == ":memory:" {
-		dsn = "file::memory:?_pragma=foreign_keys(1)&_pragma=busy_timeout(5000)&_txlock=immediate"
-	} else if err := EnsurePrivate(path); err != nil {
+// wait instead of failing), the sync mode of opts (synchronous=NORMAL
+// unless Options.Sync is SyncFull) and immediate write transactions (no
+// upgrade deadlocks), through the DSN so that the pragmas cover the whole
+// pool. The file and its -wal and -shm are made private (0600,
+// EnsurePrivate).
+//
+// Before SQLite sees the file, Open refuses a leftover path-wal that does
+// not belong to it (CheckWAL): SQLite would apply its pages to the wrong
+// database.
+func Open(ctx context.Context, path string, opts ...Options) (*DB, error) {
+	var o Options
+	if len(opts) > 0 {
+		o = opts[0]
+	}
+	sync, err := ParseSync(o.Sync)
+	if err != nil {
 		return nil, err
 	}
-	sdb, err := sql.Open("sqlite", dsn)
+	if path != ":memory:" {
+		if err := CheckWAL(path); err != nil {
+			return nil, err
+		}
+	}
+	sdb, err := openSQL(path, sync)
 	if err != nil {
-		return nil, fmt.Errorf("store: open %s: %w", path, err)
+		return nil, err
 	}
 	if path == ":memory:" {
 		sdb.SetMaxOpenConns(1) // one in-memory database, not one per connection
 	}
-	d := &DB{db: sdb, Now: time.Now}
+	d := &DB{db: sdb, Now: time.Now, path: path}
 	if err := d.migrate(ctx); err != nil {
 		sdb.Close()
 		return nil, err
@@ -80,7 +124,28 @@ func Open(ctx context.Context, path string) (*DB, error) {
 		return nil, err
 	}
 	d.auditReady = true
+	if path != ":memory:" {
+		if err := ensureIdentity(ctx, sdb); err != nil {
+			sdb.Close()
+			return nil, err
+		}
+	}
 	return d, nil
+}
+
+// openSQL opens the pool with glowlog's pragmas, without migrating.
+func openSQL(path, sync string) (*sql.DB, error) {
+	dsn := "file:" + path + "?_pragma=foreign_keys(1)&_pragma=journal_mode(WAL)&_pragma=busy_timeout(5000)&_pragma=synchronous(" + strings.ToUpper(sync) + ")&_txlock=immediate"
+	if path == ":memory:" {
+		dsn = "file::memory:?_pragma=foreign_keys(1)&_pragma=busy_timeout(5000)&_txlock=immediate"
+	} else if err := EnsurePrivate(path); err != nil {
+		return nil, err
+	}
+	sdb, err := sql.Open("sqlite", dsn)
+	if err != nil {
+		return nil, fmt.Errorf("store: open %s: %w", path, err)
+	}
+	return sdb, nil
 }
 
 // Close closes the database.
