@@ -117,42 +117,11 @@ func (s *Server) planTrend(c echo.Context) (trendPlan, error) {
 	default:
 		return p, badRequest("mode: unknown value %q (trend or control)", f.Mode)
 	}
-	switch f.Rules {
-	case "", "we":
-		p.rules = spc.WesternElectric
-	case "nelson":
-		p.rules = spc.Nelson
-	default:
-		return p, badRequest("rules: unknown rule set %q (we or nelson)", f.Rules)
+	if p.rules, err = parseRules(f.Rules); err != nil {
+		return p, err
 	}
-	switch f.Base {
-	case "", "first":
-		p.baseN = 20
-		if strings.TrimSpace(f.BaseN) != "" {
-			if p.baseN, err = strconv.Atoi(strings.TrimSpace(f.BaseN)); err != nil || p.baseN < 2 || p.baseN > 100000 {
-				return p, badRequest("baseline: the number of runs must be a whole number from 2 to 100000, got %q", f.BaseN)
-			}
-		}
-	case "dates":
-		d := func(name, v string) (time.Time, error) {
-			t, err := time.Parse("2006-01-02", strings.TrimSpace(v))
-			if err != nil {
-				return t, badRequest("baseline %s date: %q is not a date like 2026-03-04", name, v)
-			}
-			return t, nil
-		}
-		if p.baseFrom, err = d("from", f.BaseFrom); err != nil {
-			return p, err
-		}
-		if p.baseTo, err = d("to", f.BaseTo); err != nil {
-			return p, err
-		}
-		p.baseTo = p.baseTo.AddDate(0, 0, 1)
-		if !p.baseFrom.Before(p.baseTo) {
-			return p, badRequest("baseline: the from date (%s) is after the to date (%s)", f.BaseFrom, f.BaseTo)
-		}
-	default:
-		return p, badRequest("baseline: unknown choice %q (first or dates)", f.Base)
+	if p.baseN, p.baseFrom, p.baseTo, err = parseBaseline(f.Base, f.BaseN, f.BaseFrom, f.BaseTo); err != nil {
+		return p, err
 	}
 	switch f.Compare {
 	case "":
@@ -173,6 +142,54 @@ func (s *Server) planTrend(c echo.Context) (trendPlan, error) {
 	}
 	p.form = f
 	return p, nil
+}
+
+// parseBaseline checks a control chart's baseline choice, as the trends
+// page and the board take it: base "first" (or "") with the number of
+// runs baseN (default 20), or "dates" with a from and to date (the to day
+// included; to is returned as the next midnight).
+func parseBaseline(base, baseN, baseFrom, baseTo string) (n int, from, to time.Time, err error) {
+	switch base {
+	case "", "first":
+		n = 20
+		if strings.TrimSpace(baseN) != "" {
+			if n, err = strconv.Atoi(strings.TrimSpace(baseN)); err != nil || n < 2 || n > 100000 {
+				return 0, from, to, badRequest("baseline: the number of runs must be a whole number from 2 to 100000, got %q", baseN)
+			}
+		}
+	case "dates":
+		d := func(name, v string) (time.Time, error) {
+			t, err := time.Parse("2006-01-02", strings.TrimSpace(v))
+			if err != nil {
+				return t, badRequest("baseline %s date: %q is not a date like 2026-03-04", name, v)
+			}
+			return t, nil
+		}
+		if from, err = d("from", baseFrom); err != nil {
+			return 0, from, to, err
+		}
+		if to, err = d("to", baseTo); err != nil {
+			return 0, from, to, err
+		}
+		to = to.AddDate(0, 0, 1)
+		if !from.Before(to) {
+			return 0, from, to, badRequest("baseline: the from date (%s) is after the to date (%s)", baseFrom, baseTo)
+		}
+	default:
+		return 0, from, to, badRequest("baseline: unknown choice %q (first or dates)", base)
+	}
+	return n, from, to, nil
+}
+
+// parseRules picks a run-rule set: "" or "we" (Western Electric), "nelson".
+func parseRules(v string) ([]spc.Rule, error) {
+	switch v {
+	case "", "we":
+		return spc.WesternElectric, nil
+	case "nelson":
+		return spc.Nelson, nil
+	}
+	return nil, badRequest("rules: unknown rule set %q (we or nelson)", v)
 }
 
 // groups loads the series of a plan and, in control mode, computes limits
