@@ -21,9 +21,15 @@ import (
 // boardRecent runs with a value; the rules see boardContext runs so that
 // a pattern (at most 15 points, Nelson 7) that ends among the shown runs
 // is found as on the trends page.
+//
+// A rule that fires on one of the last boardCurrent runs makes the
+// chamber "out of control"; one that fired earlier among the shown runs
+// (and not since) makes it "watch": a process engineer looks at the
+// chamber now, not at a false alarm of last month.
 const (
 	boardRecent  = 20
 	boardContext = 50
+	boardCurrent = 5
 )
 
 // boardQuantities are the quantities of a tile, in order.
@@ -35,6 +41,7 @@ var boardQuantities = []struct{ Key, Label, Short string }{
 // Tile states, worst first (the board's sort order).
 const (
 	boardOut     = "out"
+	boardWatch   = "watch"
 	boardUnknown = "unknown"
 	boardIn      = "in"
 	boardEmpty   = "empty"
@@ -42,13 +49,14 @@ const (
 
 var boardStateWord = map[string]string{
 	boardOut:     "Out of control",
+	boardWatch:   "Watch: a rule fired earlier",
 	boardUnknown: "No limits yet",
 	boardIn:      "In control",
 	boardEmpty:   "No runs yet",
 }
 
 func boardRank(state string) int {
-	return slices.Index([]string{boardOut, boardUnknown, boardIn, boardEmpty}, state)
+	return slices.Index([]string{boardOut, boardWatch, boardUnknown, boardIn, boardEmpty}, state)
 }
 
 // boardQuantityState is the control status of one quantity of a chamber.
@@ -95,7 +103,11 @@ func boardState(s store.BoardSeries, rules []spc.Rule) boardQuantityState {
 			q.nViol++
 		}
 		q.flagged[v.Index-first] = true
-		q.state = boardOut
+		if v.Index >= len(pts)-boardCurrent {
+			q.state = boardOut
+		} else if q.state != boardOut {
+			q.state = boardWatch
+		}
 		v := v
 		q.latestV, q.latestP = &v, pts[v.Index]
 	}
@@ -160,6 +172,8 @@ func (s *Server) showBoard(c echo.Context) error {
 			props.NOut++
 		case boardIn:
 			props.NIn++
+		case boardWatch:
+			props.NWatch++
 		default:
 			props.NOther++
 		}
@@ -201,11 +215,14 @@ func boardTile(ch store.BoardChamber, events map[int64]store.ChamberEvent, rules
 			q.Sparkline = sparkline(st, field, bq.Label)
 		}
 		switch st.state {
-		case boardOut:
+		case boardOut, boardWatch:
 			v := st.latestV
 			d := fmt.Sprintf("%s: %s at run #%d (%s)", bq.Label, v.Rule.String(), st.latestP.RunID, st.latestP.StartedAt.Format("2006-01-02"))
 			if st.nViol > 1 {
 				d += fmt.Sprintf("; %d of the last %d runs flagged", st.nViol, len(st.recent))
+			}
+			if st.state == boardWatch {
+				d += fmt.Sprintf("; none of the last %d", boardCurrent)
 			}
 			t.Details = append(t.Details, d)
 			if firing == "" || st.latestP.StartedAt.After(firingAt) {

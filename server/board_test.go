@@ -9,6 +9,7 @@ import (
 	"testing"
 	"time"
 
+	"glowlog/diag/spc"
 	"glowlog/store"
 )
 
@@ -192,4 +193,45 @@ func (h *htmlClient) do(method, path string, form url.Values) (int, string) {
 func (h *htmlClient) redirect(method, path string) (int, string) { return h.do(method, path, nil) }
 func (h *htmlClient) post(path string, form url.Values) (int, string) {
 	return h.do(http.MethodPost, path, form)
+}
+
+// TestBoardState: a rule that fired on one of the last 5 runs is "out",
+// one that fired earlier among the shown runs is "watch", none is "in";
+// a baseline with one value gives no limits.
+func TestBoardState(t *testing.T) {
+	mk := func(vals ...float64) []store.TrendPoint {
+		var pts []store.TrendPoint
+		for i, v := range vals {
+			pts = append(pts, store.TrendPoint{RunID: int64(i + 1), Y: v, StartedAt: time.Unix(int64(1.78e9+3600*i), 0).UTC()})
+		}
+		return pts
+	}
+	var base []float64
+	for i := range 20 {
+		base = append(base, 3000+20*float64(i%2))
+	}
+	series := func(tail ...float64) store.BoardSeries {
+		pts := mk(append(append([]float64{}, base...), tail...)...)
+		return store.BoardSeries{Recent: pts, Baseline: pts[:20]}
+	}
+	for _, c := range []struct {
+		name string
+		s    store.BoardSeries
+		want string
+	}{
+		{"steady", series(3000, 3020, 3000), boardIn},
+		{"outlier last", series(3000, 3020, 3500), boardOut},
+		{"outlier 5th from the end", series(3500, 3000, 3020, 3000, 3020), boardOut},
+		{"outlier 6th from the end", series(3500, 3000, 3020, 3000, 3020, 3000), boardWatch},
+		{"one baseline value", store.BoardSeries{Recent: mk(3000, 3500), Baseline: mk(3000)}, boardUnknown},
+		{"no runs", store.BoardSeries{}, boardEmpty},
+	} {
+		st := boardState(c.s, spc.WesternElectric)
+		if st.state != c.want {
+			t.Errorf("%s: state %q, want %q", c.name, st.state, c.want)
+		}
+		if len(st.recent) > boardRecent {
+			t.Errorf("%s: %d runs shown, want at most %d", c.name, len(st.recent), boardRecent)
+		}
+	}
 }

@@ -11,6 +11,7 @@ import (
 	"strconv"
 	"strings"
 	"time"
+	"unicode/utf8"
 
 	"github.com/labstack/echo/v4"
 	"gonum.org/v1/plot"
@@ -433,6 +434,9 @@ type trendChartIn struct {
 	keys        trendKeys
 	events      []store.ChamberEvent
 	title, desc string
+	// oneChamber: every event is of the one charted chamber (labels
+	// leave its name out).
+	oneChamber bool
 }
 
 // trendBuilt is a chart's plot before drawing, with what the overlay
@@ -615,8 +619,11 @@ func (b *trendBuilt) finishRanges(xmin, xmax float64) {
 	if d := p.Y.Max - p.Y.Min; d > 0 {
 		p.Y.Min -= 0.05 * d
 		top := 0.05
-		if len(b.in.events) > 0 {
+		switch {
+		case len(b.in.events) == 1:
 			top = 0.14
+		case len(b.in.events) > 1:
+			top = 0.26 // up to three rows of labels
 		}
 		p.Y.Max += top * d
 	}
@@ -648,6 +655,12 @@ func (b *trendBuilt) svg(shift vg.Length) (string, error) {
 	left, right := float64(o.min.X.Points()), float64(o.max.X.Points())
 	var w strings.Builder
 	w.WriteString(`<g class="events">`)
+	// Labels go in the first of three rows where they do not overlap an
+	// earlier label (width estimated at 0.55 em per character).
+	var rowEnd [3]float64
+	for i := range rowEnd {
+		rowEnd[i] = math.Inf(-1)
+	}
 	for _, e := range b.in.events {
 		if !b.in.x.Time {
 			break
@@ -661,13 +674,27 @@ func (b *trendBuilt) svg(shift vg.Length) (string, error) {
 			tip += " — " + e.Note
 		}
 		tip += " (logged by " + e.LoggedBy + ")"
-		anchor, dx := "start", 3.0
-		if x > right-120 {
-			anchor, dx = "end", -3
+		label := store.EventKindLabel(e.Kind)
+		if !b.in.oneChamber {
+			label += ", " + e.ChamberName
+		}
+		width := 5.5 * float64(utf8.RuneCountInString(label))
+		x0, x1, anchor := x+3, x+3+width, "start"
+		if x1 > right {
+			x0, x1, anchor = x-3-width, x-3, "end"
+		}
+		row := 0
+		for row < len(rowEnd)-1 && rowEnd[row] > x0-4 {
+			row++
+		}
+		rowEnd[row] = max(rowEnd[row], x1)
+		tx := x0
+		if anchor == "end" {
+			tx = x1
 		}
 		fmt.Fprintf(&w, `<g class="event" data-testid="trend-event"><title>%s</title><line x1="%.1f" x2="%.1f" y1="%.1f" y2="%.1f" stroke="#4a3f75" stroke-width="1.2" stroke-dasharray="2 2"/>`+
 			`<text x="%.1f" y="%.1f" font-size="10" font-family="Liberation Sans, Arial, sans-serif" fill="#4a3f75" text-anchor="%s">%s</text></g>`,
-			htmlAttr(tip), x, x, top, bottom, x+dx, top+11, anchor, htmlAttr(store.EventKindLabel(e.Kind)+", "+e.ChamberName))
+			htmlAttr(tip), x, x, top, bottom, tx, top+11+11*float64(row), anchor, htmlAttr(label))
 	}
 	w.WriteString(`</g><g class="points">`)
 	for gi, g := range b.in.groups {
@@ -888,7 +915,8 @@ func (s *Server) showTrends(c echo.Context) error {
 					}
 				}
 			}
-			ins = append(ins, trendChartIn{groups: set, x: p.x, y: p.y, keys: keys, events: ev, title: title, desc: trendDesc(set, p)})
+			ins = append(ins, trendChartIn{groups: set, x: p.x, y: p.y, keys: keys, events: ev, title: title, desc: trendDesc(set, p),
+				oneChamber: p.compare == "chamber" || p.filter.ChamberID != 0})
 		}
 		svgs, built, err := drawTrendCharts(ins, !p.control)
 		if err != nil {
