@@ -94,5 +94,5 @@ func TestBoardAndTrends(t *testing.T) {
 // count returns the number of elements matching a CSS selector.
 func count(t *testing.T, ctx context.Context, sel string) int {
 	t.Helper()
-	return run(t, ctx, chromedp.Evaluate[int](`document.querySelectorAll(` + "`" + sel + "`" + `).length`))
+	return run(t, ctx, chromedp.Evaluate[int](`document.querySelectorAll(`+"`"+sel+"`"+`).length`))
 }
