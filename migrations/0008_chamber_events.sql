@@ -12,3 +12,7 @@ CREATE TABLE chamber_events (
 ) STRICT;
 CREATE INDEX chamber_events_chamber_at ON chamber_events(chamber_id, at);
 CREATE INDEX chamber_events_at ON chamber_events(at);
+
+-- The board counts runs awaiting review per chamber from this index alone
+-- (without it, every submitted run's row is read).
+CREATE INDEX runs_status_chamber ON runs(status, chamber_id);

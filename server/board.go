@@ -163,6 +163,9 @@ func (s *Server) showBoard(c echo.Context) error {
 	}
 	for _, ch := range chambers {
 		props.Chambers = append(props.Chambers, views.Option{Value: strconv.FormatInt(ch.ID, 10), Label: ch.Name})
+		if ch.Name == qp.Get("event_chamber") {
+			props.EventChamber = strconv.FormatInt(ch.ID, 10)
+		}
 		props.Tiles = append(props.Tiles, boardTile(ch, events, rules, chart, now))
 	}
 	slices.SortStableFunc(props.Tiles, func(a, b views.BoardTile) int { return boardRank(a.State) - boardRank(b.State) })
@@ -184,7 +187,10 @@ func (s *Server) showBoard(c echo.Context) error {
 func boardTile(ch store.BoardChamber, events map[int64]store.ChamberEvent, rules []spc.Rule, chart url.Values, now time.Time) views.BoardTile {
 	id := strconv.FormatInt(ch.ID, 10)
 	t := views.BoardTile{ChamberID: ch.ID, Name: ch.Name, State: boardEmpty,
-		AwaitingHref: "/runs?chamber=" + id + "&status=" + store.StatusSubmitted, Awaiting: ch.Awaiting}
+		AwaitingHref: "/runs?chamber=" + id + "&status=" + store.StatusSubmitted, Awaiting: strconv.Itoa(ch.Awaiting)}
+	if ch.Awaiting > store.MaxAwaitingCount {
+		t.Awaiting = "more than " + strconv.Itoa(store.MaxAwaitingCount)
+	}
 	chartFor := func(key string) string {
 		v := url.Values{}
 		for k, vs := range chart {

@@ -161,6 +161,15 @@ func TestChamberEvents(t *testing.T) {
 	if err != nil || len(evs) != 2 {
 		t.Fatalf("%d events stored (%v), want 2", len(evs), err)
 	}
+	// The run page links to the form with the run's chamber chosen.
+	_, body = op.req(http.MethodGet, "/runs/1", nil)
+	if !strings.Contains(body, `href="/board?event_chamber=Bell+jar+B-2#log-event" data-testid="run-log-event"`) {
+		t.Error("the run page has no link to log an event for its chamber")
+	}
+	_, body = op.req(http.MethodGet, "/board?event_chamber=Bell+jar+B-2", nil)
+	if !strings.Contains(body, `<option value="`+itoa64(chA)+`" selected>Bell jar B-2</option>`) {
+		t.Error("the event form does not preselect the run's chamber")
+	}
 	// Viewers cannot log events.
 	if code, _ := f.client(t, f.vie).req(http.MethodPost, "/chamber-events", form(chA, "2026-05-30T09:00", "other", "", "")); code != http.StatusForbidden {
 		t.Errorf("viewer logs an event: %d", code)

@@ -32,11 +32,16 @@ type BoardChamber struct {
 	// time when it has none), whether or not it has results.
 	LastRunID int64
 	LastRunAt time.Time
-	// Awaiting counts runs submitted for review.
+	// Awaiting counts runs submitted for review, up to
+	// MaxAwaitingCount+1 (more than MaxAwaitingCount).
 	Awaiting int
 	// Series holds the quantities asked for, by TrendFields key.
 	Series map[string]BoardSeries
 }
+
+// MaxAwaitingCount is the most runs awaiting review the board counts
+// exactly per chamber.
+const MaxAwaitingCount = 999
 
 // Board returns every chamber with its latest run, the number of runs
 // awaiting review, and for each field key (texc_k, ne_m3, …) its recent
@@ -57,27 +62,15 @@ func (d *DB) Board(ctx context.Context, keys []string, recent int, base BoardBas
 	if err != nil {
 		return nil, err
 	}
-	awaiting := map[int64]int{}
-	rows, err := d.db.QueryContext(ctx, `SELECT chamber_id, count(*) FROM runs WHERE status = 'submitted' AND chamber_id IS NOT NULL GROUP BY chamber_id`)
-	if err != nil {
-		return nil, fmt.Errorf("store: board: %w", err)
-	}
-	for rows.Next() {
-		var id int64
-		var n int
-		if err := rows.Scan(&id, &n); err != nil {
-			rows.Close()
-			return nil, err
-		}
-		awaiting[id] = n
-	}
-	rows.Close()
-	if err := rows.Err(); err != nil {
-		return nil, err
-	}
 	out := make([]BoardChamber, 0, len(chambers))
 	for _, ch := range chambers {
-		bc := BoardChamber{Named: ch, Awaiting: awaiting[ch.ID], Series: map[string]BoardSeries{}}
+		bc := BoardChamber{Named: ch, Series: map[string]BoardSeries{}}
+		// Counted up to MaxAwaitingCount from the (status, chamber_id)
+		// index: a long backlog costs no more than a short one.
+		if err := d.db.QueryRowContext(ctx, `SELECT count(*) FROM (SELECT 1 FROM runs WHERE status = 'submitted' AND chamber_id = ? LIMIT ?)`,
+			ch.ID, MaxAwaitingCount+1).Scan(&bc.Awaiting); err != nil {
+			return nil, fmt.Errorf("store: board: %w", err)
+		}
 		var at int64
 		err := d.db.QueryRowContext(ctx, `SELECT id, started_at FROM runs WHERE chamber_id = ? ORDER BY started_at DESC, id DESC LIMIT 1`, ch.ID).
 			Scan(&bc.LastRunID, &at)
