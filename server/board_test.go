@@ -2,9 +2,13 @@ package server
 
 import (
 	"context"
+	"math"
 	"net/http"
 	"net/http/httptest"
 	"net/url"
+	"os"
+	"regexp"
+	"strconv"
 	"strings"
 	"testing"
 	"time"
@@ -100,6 +104,15 @@ func TestBoard(t *testing.T) {
 	if code, body := v.req(http.MethodGet, "/board?base_n=1", nil); code != http.StatusBadRequest || !strings.Contains(body, "baseline") {
 		t.Errorf("base_n=1: %d", code)
 	}
+	// A date-span baseline (as on the trends page) is carried into the
+	// chart links; the outlier is still out of control.
+	code, body = v.req(http.MethodGet, "/board?base=dates&base_from=2026-06-01&base_to=2026-06-01&rules=nelson", nil)
+	if code != http.StatusOK || !strings.Contains(body, "base=dates&amp;base_from=2026-06-01&amp;base_to=2026-06-01") ||
+		!strings.Contains(body, "the runs from 2026-06-01 to 2026-06-01") || !strings.Contains(body, "Nelson 1–8") ||
+		!strings.Contains(strings.Split(body, `data-testid="board-tile"`)[1], `data-state="out"`) {
+		t.Errorf("date-span baseline: %d", code)
+	}
+	_, body = v.req(http.MethodGet, "/board", nil)
 	if code, _ := v.req(http.MethodGet, "/board?rules=zz", nil); code != http.StatusBadRequest {
 		t.Errorf("rules=zz: %d", code)
 	}
@@ -243,4 +256,62 @@ func TestBoardState(t *testing.T) {
 			t.Errorf("%s: %d runs shown, want at most %d", c.name, len(st.recent), boardRecent)
 		}
 	}
+}
+
+// TestBoardContrast: the status words and event labels of the board and
+// trends keep a contrast of at least 4.5:1 (WCAG 2.1, 1.4.3) against the
+// tile backgrounds set in the stylesheet.
+func TestBoardContrast(t *testing.T) {
+	css, err := os.ReadFile("../static/glowlog-1.css")
+	if err != nil {
+		t.Fatal(err)
+	}
+	rule := func(sel, prop string) string {
+		t.Helper()
+		re := regexp.MustCompile(regexp.QuoteMeta(sel) + `\s*\{[^}]*?\b` + prop + `:\s*(#[0-9a-fA-F]{6}|var\(--[a-z0-9-]+\))`)
+		m := re.FindStringSubmatch(string(css))
+		if m == nil {
+			t.Fatalf("no %s in the rule for %s", prop, sel)
+		}
+		v := m[1]
+		if strings.HasPrefix(v, "var(") {
+			name := strings.TrimSuffix(strings.TrimPrefix(v, "var("), ")")
+			vm := regexp.MustCompile(regexp.QuoteMeta(name) + `:\s*(#[0-9a-fA-F]{6})`).FindStringSubmatch(string(css))
+			if vm == nil {
+				t.Fatalf("no value for %s", name)
+			}
+			v = vm[1]
+		}
+		return v
+	}
+	for _, c := range []struct{ fg, bg string }{
+		{rule(".state-out", "color"), rule(".tile-out", "background")},
+		{rule(".state-watch", "color"), rule(".tile-watch", "background")},
+		{rule(".state-in", "color"), "#ffffff"},
+		{rule(".tile-q .label", "color"), rule(".tile-out", "background")},
+		{"#4a3f75", "#ffffff"}, // event labels on the chart
+	} {
+		if r := contrastRatio(c.fg, c.bg); r < 4.5 {
+			t.Errorf("%s on %s: contrast %.2f, want ≥ 4.5", c.fg, c.bg, r)
+		}
+	}
+}
+
+// contrastRatio is the WCAG 2.1 contrast ratio of two #rrggbb colours.
+func contrastRatio(a, b string) float64 {
+	lum := func(h string) float64 {
+		var ch [3]float64
+		for i := range 3 {
+			v, _ := strconv.ParseUint(h[1+2*i:3+2*i], 16, 8)
+			c := float64(v) / 255
+			if c <= 0.04045 {
+				ch[i] = c / 12.92
+			} else {
+				ch[i] = math.Pow((c+0.055)/1.055, 2.4)
+			}
+		}
+		return 0.2126*ch[0] + 0.7152*ch[1] + 0.0722*ch[2]
+	}
+	la, lb := lum(a), lum(b)
+	return (max(la, lb) + 0.05) / (min(la, lb) + 0.05)
 }
