@@ -292,11 +292,12 @@ func sparkline(st boardQuantityState, f store.TrendField, label string) string {
 	if st.limits != nil {
 		lo, hi = math.Min(lo, st.limits.LCL), math.Max(hi, st.limits.UCL)
 	}
-	if !(hi > lo) {
-		lo, hi = lo-1, hi+1
-		if lo == hi-2 && lo != 0 {
-			lo, hi = pts[0].Y*0.9, pts[0].Y*1.1
+	if !(hi > lo) { // one value: ±10 % around it (±1 around 0)
+		d := 0.1 * math.Abs(lo)
+		if d == 0 {
+			d = 1
 		}
+		lo, hi = lo-d, hi+d
 	}
 	x := func(i int) float64 {
 		if len(pts) < 2 {

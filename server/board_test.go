@@ -315,3 +315,24 @@ func contrastRatio(a, b string) float64 {
 	la, lb := lum(a), lum(b)
 	return (max(la, lb) + 0.05) / (min(la, lb) + 0.05)
 }
+
+// TestSparklineFlat: a single run or equal values draw inside the box.
+func TestSparklineFlat(t *testing.T) {
+	f, _ := store.LookupTrendField("ne_m3")
+	for _, vals := range [][]float64{{5e20}, {5e20, 5e20, 5e20}, {0, 0}} {
+		var pts []store.TrendPoint
+		for i, v := range vals {
+			pts = append(pts, store.TrendPoint{RunID: int64(i + 1), Y: v})
+		}
+		svg := sparkline(boardQuantityState{recent: pts, flagged: map[int]bool{}}, f, "n_e")
+		for _, m := range regexp.MustCompile(`c[xy]="([-0-9.]+)"`).FindAllStringSubmatch(svg, -1) {
+			v, err := strconv.ParseFloat(m[1], 64)
+			if err != nil || v < 0 || v > sparkW {
+				t.Errorf("%v: coordinate %s outside the sparkline", vals, m[1])
+			}
+		}
+		if strings.Contains(svg, "NaN") {
+			t.Errorf("%v: NaN in %s", vals, svg)
+		}
+	}
+}
