@@ -137,6 +137,10 @@ func (s *Server) showBoard(c echo.Context) error {
 	if err != nil {
 		return err
 	}
+	recent, err := s.DB.RecentChamberEvents(ctx, 10)
+	if err != nil {
+		return err
+	}
 	// The control-chart link carries the board's baseline and rules.
 	chart := url.Values{"mode": {"control"}}
 	for _, k := range []string{"base", "base_n", "base_from", "base_to", "rules"} {
@@ -167,6 +171,10 @@ func (s *Server) showBoard(c echo.Context) error {
 			props.EventChamber = strconv.FormatInt(ch.ID, 10)
 		}
 		props.Tiles = append(props.Tiles, boardTile(ch, events, rules, chart, now))
+	}
+	for _, e := range recent {
+		props.Events = append(props.Events, views.BoardEvent{When: e.At.Format("2006-01-02 15:04"), Chamber: e.ChamberName,
+			Kind: store.EventKindLabel(e.Kind), Note: e.Note, By: e.LoggedBy})
 	}
 	slices.SortStableFunc(props.Tiles, func(a, b views.BoardTile) int { return boardRank(a.State) - boardRank(b.State) })
 	for _, t := range props.Tiles {

@@ -154,6 +154,11 @@ func TestChamberEvents(t *testing.T) {
 	if !strings.Contains(tiles[1], "Gas bottle change") {
 		t.Error("B-2 tile lacks its event")
 	}
+	// The list of latest events, newest first.
+	if i, j := strings.Index(body, "<td>pin electrode replaced</td>"), strings.Index(body, "<td>new H2 bottle</td>"); i < 0 || j < 0 || i > j ||
+		strings.Count(body, `data-testid="board-event"`) != 2 {
+		t.Error("the board's event list lacks the events or is not newest first")
+	}
 	// Bad input: 400 with a message naming the field, nothing stored.
 	for _, c := range []struct {
 		f    url.Values

@@ -157,3 +157,11 @@ func (d *DB) queryEvents(ctx context.Context, q string, args ...any) ([]ChamberE
 	}
 	return out, rows.Err()
 }
+
+// RecentChamberEvents returns the latest n events of all chambers, newest
+// first.
+func (d *DB) RecentChamberEvents(ctx context.Context, n int) ([]ChamberEvent, error) {
+	return d.queryEvents(ctx, `SELECT e.id, e.chamber_id, c.name, e.at, e.kind, e.note, u.name, e.created_at
+		FROM chamber_events e JOIN chambers c ON c.id = e.chamber_id JOIN users u ON u.id = e.logged_by
+		ORDER BY e.at DESC, e.id DESC LIMIT ?`, n)
+}
