@@ -88,6 +88,23 @@ var demoOperators = []struct {
 	{"oren.falk", store.RoleOperator}, {"maud.lind", store.RoleReviewer},
 }
 
+// demoEvents are the invented chamber events of the scenario (day of the
+// scenario, time of day UTC, chamber index, kind, note, staff index).
+var demoEvents = []struct {
+	day     int
+	at      time.Duration
+	chamber int
+	kind    string
+	note    string
+	by      int
+}{
+	{28, 7*time.Hour + 40*time.Minute, 3, store.EventMaintenance, "Barrier plates cleaned and re-seated; gap checked at 1.0 mm.", 3},
+	{61, 7*time.Hour + 15*time.Minute, 1, store.EventGasBottleChange, "H2 cylinder changed (same grade); lines purged before the first run.", 1},
+	{96, 16*time.Hour + 30*time.Minute, 0, store.EventOther, "n_e on J1 down by about a quarter since the spring; pin erosion suspected, spare electrode ordered.", 2},
+	{demoMaintenanceDay, 7*time.Hour + 30*time.Minute, 0, store.EventElectrodeChange, "Pin electrode replaced (tip eroded, gap had grown to 1.5 mm); gap reset to 1.0 mm.", 0},
+	{141, 7*time.Hour + 50*time.Minute, 2, store.EventMaintenance, "Hollow cathode cleaned; viewport window replaced.", 3},
+}
+
 var demoReturnNotes = []string{
 	"Hα peak looks clipped in the second spectrum; please check the integration time and add a dark frame.",
 	"Gas temperature was taken from last week's run; measure it for this run or justify it in the notes.",
@@ -266,6 +283,17 @@ func SeedDemo(ctx context.Context, s *Server, adminID int64, opt DemoOptions) er
 			runs = append(runs, seeded{id, op, t})
 		}
 		if err := tx.Commit(); err != nil {
+			return err
+		}
+	}
+
+	// Chamber events that explain the trends: the J1 pin electrode wears
+	// (n_e falls) until it is replaced on the maintenance day.
+	for _, e := range demoEvents {
+		at := start.AddDate(0, 0, e.day).Add(e.at)
+		clock = at.Add(20 * time.Minute)
+		by := staff[e.by%len(staff)]
+		if _, err := s.DB.AddChamberEvent(ctx, by.ID, store.ChamberEventInput{ChamberID: chamberIDs[e.chamber], At: at, Kind: e.kind, Note: e.note}); err != nil {
 			return err
 		}
 	}

@@ -88,6 +88,15 @@ func TestSeedDemo(t *testing.T) {
 	if !(after > 1.15*before) {
 		t.Errorf("J1 mean n_e %.3g before vs %.3g after the maintenance: no step", before, after)
 	}
+	// The chamber events tell the story: the J1 electrode change on the
+	// maintenance day, before the first run of that day.
+	evs, err := db.ChamberEvents(ctx, []int64{j1}, maint, maint.AddDate(0, 0, 1), 0)
+	if err != nil || len(evs) != 1 || evs[0].Kind != store.EventElectrodeChange || evs[0].At.Hour() >= 8 {
+		t.Errorf("J1 events on the maintenance day: %+v (%v)", evs, err)
+	}
+	if all, _ := db.ChamberEvents(ctx, nil, time.Time{}, time.Time{}, 0); len(all) != len(demoEvents) {
+		t.Errorf("%d chamber events, want %d", len(all), len(demoEvents))
+	}
 	if rs, _, _ := db.ListRuns(ctx, store.RunFilter{Tag: "maintenance"}); len(rs) == 0 {
 		t.Log("no run in the first maintenance week in this small scenario")
 	}

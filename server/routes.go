@@ -25,7 +25,7 @@ func (s *Server) routes() {
 
 	// HTML pages: CSRF on every form.
 	h := e.Group("", s.csrf())
-	h.GET("/", func(c echo.Context) error { return c.Redirect(http.StatusSeeOther, "/runs") })
+	h.GET("/", func(c echo.Context) error { return c.Redirect(http.StatusSeeOther, "/board") })
 	h.GET("/login", s.showLogin)
 	h.POST("/login", s.login, loginLimiter(), s.auditSignIn)
 	h.POST("/logout", s.logout)
@@ -74,6 +74,10 @@ func (s *Server) routes() {
 	a.GET("/audit.csv", s.exportAudit)
 	a.POST("/users/:uid/disabled", s.setUserDisabled)
 	a.POST("/users/:uid/sessions/end", s.endUserSessions)
+
+	// Chamber board (the process engineer's home) and chamber events.
+	v.GET("/board", s.showBoard)
+	o.POST("/chamber-events", s.logChamberEvent)
 
 	// Keep last. A group with middleware registers catch-all routes that
 	// run its middleware, so an unknown path would answer with the last

@@ -7,15 +7,18 @@ import (
 	"math"
 	"net/http"
 	"net/url"
+	"slices"
 	"strconv"
 	"strings"
 	"time"
+	"unicode/utf8"
 
 	"github.com/labstack/echo/v4"
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
+	"gonum.org/v1/plot/vg/vgsvg"
 
 	"glowlog/diag/spc"
 	"glowlog/store"
@@ -36,13 +39,14 @@ type trendForm struct {
 	Compare  string // "", "chamber" or "recipe"
 	CmpA     string
 	CmpB     string
+	ColourBy string // "" or "chamber" (default), "recipe"
 }
 
 func bindTrendForm(c echo.Context) trendForm {
 	q := c.QueryParams()
 	return trendForm{runListForm: bindRunListForm(c), X: q.Get("x"), Y: q.Get("y"), Mode: q.Get("mode"), Rules: q.Get("rules"),
 		Base: q.Get("base"), BaseN: q.Get("base_n"), BaseFrom: q.Get("base_from"), BaseTo: q.Get("base_to"),
-		Compare: q.Get("compare"), CmpA: q.Get("cmp_a"), CmpB: q.Get("cmp_b")}
+		Compare: q.Get("compare"), CmpA: q.Get("cmp_a"), CmpB: q.Get("cmp_b"), ColourBy: q.Get("colour")}
 }
 
 func (f trendForm) values() url.Values {
@@ -50,7 +54,7 @@ func (f trendForm) values() url.Values {
 	v.Del("sort")
 	for _, kv := range [][2]string{{"x", f.X}, {"y", f.Y}, {"mode", f.Mode}, {"rules", f.Rules}, {"base", f.Base},
 		{"base_n", f.BaseN}, {"base_from", f.BaseFrom}, {"base_to", f.BaseTo}, {"compare", f.Compare},
-		{"cmp_a", f.CmpA}, {"cmp_b", f.CmpB}} {
+		{"cmp_a", f.CmpA}, {"cmp_b", f.CmpB}, {"colour", f.ColourBy}} {
 		if strings.TrimSpace(kv[1]) != "" {
 			v.Set(kv[0], kv[1])
 		}
@@ -65,8 +69,13 @@ type trendGroup struct {
 	Series store.TrendSeries
 	Limits *spc.Limits
 	Viol   []spc.Violation
-	// BaseN is the number of baseline points (control mode).
-	BaseN int
+	// BaseN is the number of baseline points (control mode), and
+	// BaseX0…BaseX1 their x span (HasBase: shaded on the chart).
+	BaseN          int
+	HasBase        bool
+	BaseX0, BaseX1 float64
+	// ChamberID is the chamber of a side-by-side series of chambers.
+	ChamberID int64
 }
 
 // trendPlan is a checked trend request.
@@ -117,42 +126,16 @@ func (s *Server) planTrend(c echo.Context) (trendPlan, error) {
 	default:
 		return p, badRequest("mode: unknown value %q (trend or control)", f.Mode)
 	}
-	switch f.Rules {
-	case "", "we":
-		p.rules = spc.WesternElectric
-	case "nelson":
-		p.rules = spc.Nelson
-	default:
-		return p, badRequest("rules: unknown rule set %q (we or nelson)", f.Rules)
+	if p.rules, err = parseRules(f.Rules); err != nil {
+		return p, err
 	}
-	switch f.Base {
-	case "", "first":
-		p.baseN = 20
-		if strings.TrimSpace(f.BaseN) != "" {
-			if p.baseN, err = strconv.Atoi(strings.TrimSpace(f.BaseN)); err != nil || p.baseN < 2 || p.baseN > 100000 {
-				return p, badRequest("baseline: the number of runs must be a whole number from 2 to 100000, got %q", f.BaseN)
-			}
-		}
-	case "dates":
-		d := func(name, v string) (time.Time, error) {
-			t, err := time.Parse("2006-01-02", strings.TrimSpace(v))
-			if err != nil {
-				return t, badRequest("baseline %s date: %q is not a date like 2026-03-04", name, v)
-			}
-			return t, nil
-		}
-		if p.baseFrom, err = d("from", f.BaseFrom); err != nil {
-			return p, err
-		}
-		if p.baseTo, err = d("to", f.BaseTo); err != nil {
-			return p, err
-		}
-		p.baseTo = p.baseTo.AddDate(0, 0, 1)
-		if !p.baseFrom.Before(p.baseTo) {
-			return p, badRequest("baseline: the from date (%s) is after the to date (%s)", f.BaseFrom, f.BaseTo)
-		}
+	if p.baseN, p.baseFrom, p.baseTo, err = parseBaseline(f.Base, f.BaseN, f.BaseFrom, f.BaseTo); err != nil {
+		return p, err
+	}
+	switch f.ColourBy {
+	case "", "chamber", "recipe":
 	default:
-		return p, badRequest("baseline: unknown choice %q (first or dates)", f.Base)
+		return p, badRequest("colour: unknown choice %q (chamber or recipe)", f.ColourBy)
 	}
 	switch f.Compare {
 	case "":
@@ -175,15 +158,64 @@ func (s *Server) planTrend(c echo.Context) (trendPlan, error) {
 	return p, nil
 }
 
+// parseBaseline checks a control chart's baseline choice, as the trends
+// page and the board take it: base "first" (or "") with the number of
+// runs baseN (default 20), or "dates" with a from and to date (the to day
+// included; to is returned as the next midnight).
+func parseBaseline(base, baseN, baseFrom, baseTo string) (n int, from, to time.Time, err error) {
+	switch base {
+	case "", "first":
+		n = 20
+		if strings.TrimSpace(baseN) != "" {
+			if n, err = strconv.Atoi(strings.TrimSpace(baseN)); err != nil || n < 2 || n > 100000 {
+				return 0, from, to, badRequest("baseline: the number of runs must be a whole number from 2 to 100000, got %q", baseN)
+			}
+		}
+	case "dates":
+		d := func(name, v string) (time.Time, error) {
+			t, err := time.Parse("2006-01-02", strings.TrimSpace(v))
+			if err != nil {
+				return t, badRequest("baseline %s date: %q is not a date like 2026-03-04", name, v)
+			}
+			return t, nil
+		}
+		if from, err = d("from", baseFrom); err != nil {
+			return 0, from, to, err
+		}
+		if to, err = d("to", baseTo); err != nil {
+			return 0, from, to, err
+		}
+		to = to.AddDate(0, 0, 1)
+		if !from.Before(to) {
+			return 0, from, to, badRequest("baseline: the from date (%s) is after the to date (%s)", baseFrom, baseTo)
+		}
+	default:
+		return 0, from, to, badRequest("baseline: unknown choice %q (first or dates)", base)
+	}
+	return n, from, to, nil
+}
+
+// parseRules picks a run-rule set: "" or "we" (Western Electric), "nelson".
+func parseRules(v string) ([]spc.Rule, error) {
+	switch v {
+	case "", "we":
+		return spc.WesternElectric, nil
+	case "nelson":
+		return spc.Nelson, nil
+	}
+	return nil, badRequest("rules: unknown rule set %q (we or nelson)", v)
+}
+
 // groups loads the series of a plan and, in control mode, computes limits
 // and rule violations.
 func (s *Server) trendGroups(c echo.Context, p *trendPlan) ([]trendGroup, error) {
 	ctx := c.Request().Context()
 	type sel struct {
-		label string
-		f     store.RunFilter
+		label   string
+		f       store.RunFilter
+		chamber int64
 	}
-	sels := []sel{{"Selected runs", p.filter}}
+	sels := []sel{{"Selected runs", p.filter, 0}}
 	if p.compare != "" {
 		var names []store.Named
 		var err error
@@ -212,7 +244,7 @@ func (s *Server) trendGroups(c echo.Context, p *trendPlan) ([]trendGroup, error)
 			} else {
 				f.RecipeID = id
 			}
-			sels = append(sels, sel{label, f})
+			sels = append(sels, sel{label, f, id})
 		}
 	}
 	var out []trendGroup
@@ -222,6 +254,12 @@ func (s *Server) trendGroups(c echo.Context, p *trendPlan) ([]trendGroup, error)
 			return nil, err
 		}
 		g := trendGroup{Label: sl.label, Series: ts}
+		if p.compare == "chamber" {
+			g.ChamberID = sl.chamber
+		}
+		if !p.control && p.compare != "" && len(ts.Points) == 0 {
+			p.notes = append(p.notes, fmt.Sprintf("%s: no run has both values, so it has no chart.", sl.label))
+		}
 		if p.control && len(ts.Points) == 0 {
 			p.notes = append(p.notes, fmt.Sprintf("%s: no run has a value, so there are no control limits for it.", sl.label))
 		}
@@ -239,6 +277,18 @@ func (s *Server) trendGroups(c echo.Context, p *trendPlan) ([]trendGroup, error)
 				}
 			}
 			g.BaseN = len(base)
+			for i, pt := range ts.Points {
+				in := i < p.baseN
+				if !p.baseFrom.IsZero() {
+					in = !pt.StartedAt.Before(p.baseFrom) && pt.StartedAt.Before(p.baseTo)
+				}
+				if in {
+					if !g.HasBase {
+						g.BaseX0 = pt.X
+					}
+					g.HasBase, g.BaseX1 = true, pt.X
+				}
+			}
 			if l, err := spc.IndividualsLimits(base); err == nil {
 				g.Limits = &l
 				g.Viol = spc.Check(ys, l, p.rules)
@@ -258,29 +308,54 @@ func (s *Server) trendGroups(c echo.Context, p *trendPlan) ([]trendGroup, error)
 	return out, nil
 }
 
-// Series styles: two colours that stay apart for common colour-vision
-// deficiencies, and two marker shapes so that print in grey still tells
-// them apart.
-var trendStyles = []struct {
-	Colour color.RGBA
-	Hex    string
-	Shape  draw.GlyphDrawer
-	Marker string
-}{
-	{color.RGBA{R: 0x1f, G: 0x5f, B: 0x99, A: 0xff}, "#1f5f99", draw.CircleGlyph{}, "circles"},
-	{color.RGBA{R: 0xc8, G: 0x62, B: 0x0b, A: 0xff}, "#c8620b", draw.TriangleGlyph{}, "triangles"},
+// trendPalette colours series (by chamber or recipe): our own set of
+// six that stay apart for common colour-vision deficiencies, each with at
+// least 3:1 contrast on white (WCAG 1.4.11 for graphics). Red is kept for
+// rule violations. Shapes cycle too, so that no series is told by colour
+// alone.
+var trendPalette = []color.RGBA{
+	{R: 0x1f, G: 0x5f, B: 0x99, A: 0xff}, // blue
+	{R: 0xc8, G: 0x62, B: 0x0b, A: 0xff}, // orange
+	{R: 0x2e, G: 0x7d, B: 0x4f, A: 0xff}, // green
+	{R: 0x7b, G: 0x3f, B: 0x98, A: 0xff}, // purple
+	{R: 0x0f, G: 0x76, B: 0x80, A: 0xff}, // teal
+	{R: 0x80, G: 0x6a, B: 0x12, A: 0xff}, // ochre
 }
+
+// trendShapes are the marker shapes, cycled with a different period
+// than the colours.
+var trendShapes = []string{"circle", "triangle", "square", "diamond"}
+
+// trendNoKeyColour is for runs without a chamber (or recipe).
+var trendNoKeyColour = color.RGBA{R: 0x5b, G: 0x66, B: 0x73, A: 0xff}
 
 var (
 	trendLimitColour = color.RGBA{R: 0x9b, G: 0x1c, B: 0x1c, A: 0xff}
 	trendCentreColor = color.RGBA{R: 0x3a, G: 0x44, B: 0x4f, A: 0xff}
+	trendBandColour  = color.RGBA{R: 0xe6, G: 0xee, B: 0xe8, A: 0xff}
 )
+
+func hexColour(c color.RGBA) string { return fmt.Sprintf("#%02x%02x%02x", c.R, c.G, c.B) }
+
+// trendStyle is the colour and shape of one colour key (0: no chamber or
+// recipe; otherwise the position of the key in the name list).
+type trendStyle struct {
+	Colour color.RGBA
+	Shape  string
+}
+
+func styleFor(pos int) trendStyle {
+	if pos < 0 {
+		return trendStyle{trendNoKeyColour, "square"}
+	}
+	return trendStyle{trendPalette[pos%len(trendPalette)], trendShapes[pos%len(trendShapes)]}
+}
 
 // trendBuckets is the number of x buckets of the min/max decimation (about
 // one per horizontal pixel of the drawn chart).
 const trendBuckets = 500
 
-// maxErrorBarPoints is the most points a trend series draws error bars for.
+// maxErrorBarPoints is the most points a trend chart draws error bars for.
 const maxErrorBarPoints = 300
 
 // decimateIdx returns the indices of ys to draw: all when there are at
@@ -323,126 +398,393 @@ type xyErr struct {
 
 func (e xyErr) YError(i int) (float64, float64) { return e.unc[i], e.unc[i] }
 
-// trendSVG draws groups on one chart (with limits when there is exactly
-// one group with limits).
-func trendSVG(groups []trendGroup, styleFrom int, x, y store.TrendField, title, desc string) (string, error) {
+// trendKeys says how points are coloured: by chamber or by recipe, with
+// the names and palette positions of the keys.
+type trendKeys struct {
+	by   string // "chamber" or "recipe"
+	name map[int64]string
+	pos  map[int64]int
+}
+
+func (k trendKeys) key(pt store.TrendPoint) int64 {
+	if k.by == "recipe" {
+		return pt.RecipeID
+	}
+	return pt.ChamberID
+}
+
+func (k trendKeys) style(key int64) trendStyle {
+	if p, ok := k.pos[key]; ok && key != 0 {
+		return styleFor(p)
+	}
+	return styleFor(-1)
+}
+
+func (k trendKeys) label(key int64) string {
+	if n, ok := k.name[key]; ok && key != 0 {
+		return n
+	}
+	return "no " + k.by
+}
+
+// trendChartIn is one chart to draw.
+type trendChartIn struct {
+	groups      []trendGroup
+	x, y        store.TrendField
+	keys        trendKeys
+	events      []store.ChamberEvent
+	title, desc string
+	// oneChamber: every event is of the one charted chamber (labels
+	// leave its name out).
+	oneChamber bool
+}
+
+// trendBuilt is a chart's plot before drawing, with what the overlay
+// needs.
+type trendBuilt struct {
+	in   trendChartIn
+	p    *plot.Plot
+	rec  *overlayRec
+	idx  [][]int // decimated indices per group
+	keys map[int64]bool
+	bars bool // error bars drawn
+}
+
+// overlayRec is a plotter that draws nothing and records the data area
+// and the transforms, so that the linked points and the event marks can
+// be written into the SVG at the exact positions.
+type overlayRec struct {
+	trX, trY func(float64) vg.Length
+	min, max vg.Point
+}
+
+func (o *overlayRec) Plot(c draw.Canvas, p *plot.Plot) {
+	o.trX, o.trY = p.Transforms(&c)
+	o.min, o.max = c.Min, c.Max
+}
+
+// rangeOnly is a plotter that draws nothing but gives the axes the range
+// of its points.
+type rangeOnly plotter.XYs
+
+func (r rangeOnly) Plot(draw.Canvas, *plot.Plot) {}
+
+func (r rangeOnly) DataRange() (xmin, xmax, ymin, ymax float64) {
+	return plotter.XYRange(plotter.XYs(r))
+}
+
+// bandPlotter shades the x span [x0, x1] over the whole height of the
+// data area (the baseline of a control chart).
+type bandPlotter struct{ x0, x1 float64 }
+
+func (b bandPlotter) Plot(c draw.Canvas, p *plot.Plot) {
+	trX, _ := p.Transforms(&c)
+	x0, x1 := max(trX(b.x0), c.Min.X), min(trX(b.x1), c.Max.X)
+	if x1-x0 < vg.Points(2) {
+		x0, x1 = x0-vg.Points(1), x0+vg.Points(1)
+	}
+	c.FillPolygon(trendBandColour, []vg.Point{{X: x0, Y: c.Min.Y}, {X: x1, Y: c.Min.Y}, {X: x1, Y: c.Max.Y}, {X: x0, Y: c.Max.Y}})
+}
+
+// trendChartW and trendChartH are the drawn size: wide, because the chart
+// takes the page width (the SVG scales with its viewBox).
+const (
+	trendChartW = 11.5 * vg.Inch
+	trendChartH = 4.4 * vg.Inch
+)
+
+// buildTrend makes the plot of one chart: grid, baseline band, error bars
+// per colour key, limits and violation rings. The points themselves are
+// drawn by the overlay (links and tooltips).
+func buildTrend(in trendChartIn) (*trendBuilt, error) {
 	p := newFigure()
-	p.X.Label.Text, p.Y.Label.Text = x.AxisLabel(), y.AxisLabel()
+	p.X.Label.Text, p.Y.Label.Text = in.x.AxisLabel(), in.y.AxisLabel()
+	p.BackgroundColor = color.White
+	b := &trendBuilt{in: in, p: p, rec: &overlayRec{}, keys: map[int64]bool{}}
+	for _, g := range in.groups {
+		if g.HasBase && len(g.Series.Points) > 0 {
+			p.Add(bandPlotter{g.BaseX0, g.BaseX1})
+		}
+	}
 	p.Add(plotter.NewGrid())
-	xmin, xmax := math.Inf(1), math.Inf(-1)
-	for gi, g := range groups {
-		st := trendStyles[(gi+styleFrom)%len(trendStyles)]
-		pts := g.Series.Points
-		ys := make([]float64, len(pts))
-		for i, pt := range pts {
+	total := 0
+	for _, g := range in.groups {
+		ys := make([]float64, len(g.Series.Points))
+		for i, pt := range g.Series.Points {
 			ys[i] = pt.Y
 		}
 		idx := decimateIdx(ys, trendBuckets)
-		xy := make(plotter.XYs, len(idx))
-		var eb xyErr
-		for k, i := range idx {
-			xy[k] = plotter.XY{X: pts[i].X, Y: pts[i].Y}
-			if pts[i].YUnc > 0 {
-				eb.XYs = append(eb.XYs, xy[k])
-				eb.unc = append(eb.unc, pts[i].YUnc)
+		b.idx = append(b.idx, idx)
+		total += len(idx)
+	}
+	bars := map[int64]*xyErr{}
+	var order []int64
+	for gi, g := range in.groups {
+		pts := g.Series.Points
+		var all plotter.XYs
+		for _, i := range b.idx[gi] {
+			pt := pts[i]
+			k := in.keys.key(pt)
+			b.keys[k] = true
+			all = append(all, plotter.XY{X: pt.X, Y: pt.Y})
+			if pt.YUnc > 0 && total <= maxErrorBarPoints {
+				e := bars[k]
+				if e == nil {
+					e = &xyErr{}
+					bars[k] = e
+					order = append(order, k)
+				}
+				e.XYs = append(e.XYs, plotter.XY{X: pt.X, Y: pt.Y})
+				e.unc = append(e.unc, pt.YUnc)
 			}
 		}
-		if len(pts) > 0 {
-			xmin, xmax = math.Min(xmin, pts[0].X), math.Max(xmax, pts[len(pts)-1].X)
-		}
-		// Error bars on hundreds of points are an unreadable smear and most
-		// of the page's weight: they are drawn for sparse series only (the
-		// CSV keeps every σ).
-		if len(eb.XYs) > 0 && len(idx) <= maxErrorBarPoints {
-			bars, err := plotter.NewYErrorBars(eb)
-			if err != nil {
-				return "", err
-			}
-			// Half-transparent: NRGBA, because color.RGBA is alpha-premultiplied
-			// and a straight colour under A = 0x80 overflows to 7 hex digits,
-			// which browsers reject (every bar vanished).
-			bars.LineStyle.Color = color.NRGBA{R: st.Colour.R, G: st.Colour.G, B: st.Colour.B, A: 0x80}
-			bars.LineStyle.Width = vg.Points(0.6)
-			p.Add(bars)
-		}
-		if len(xy) > 0 {
-			sc, err := plotter.NewScatter(xy)
-			if err != nil {
-				return "", err
-			}
-			sc.GlyphStyle = draw.GlyphStyle{Color: st.Colour, Radius: vg.Points(2.2), Shape: st.Shape}
-			p.Add(sc)
-			label := g.Label
-			if len(groups) == 1 && len(eb.XYs) > 0 {
-				label += " (±1σ)"
-			}
-			p.Legend.Add(label, sc)
-		}
-		if g.Limits != nil && len(pts) > 0 {
-			l := g.Limits
-			hline := func(v float64, dashed bool, c color.Color, name string) error {
-				ln, err := plotter.NewLine(plotter.XYs{{X: pts[0].X, Y: v}, {X: pts[len(pts)-1].X, Y: v}})
-				if err != nil {
-					return err
-				}
-				ln.LineStyle.Color, ln.LineStyle.Width = c, vg.Points(1)
-				if dashed {
-					ln.LineStyle.Dashes = []vg.Length{vg.Points(5), vg.Points(3)}
-				}
-				p.Add(ln)
-				if name != "" {
-					p.Legend.Add(name, ln)
-				}
-				return nil
-			}
-			if err := hline(l.Center, false, trendCentreColor, "centre line"); err != nil {
-				return "", err
-			}
-			if err := hline(l.UCL, true, trendLimitColour, "±3σ limits"); err != nil {
-				return "", err
-			}
-			if err := hline(l.LCL, true, trendLimitColour, ""); err != nil {
-				return "", err
-			}
-			var flagged plotter.XYs
-			seen := map[int]bool{}
-			for _, v := range g.Viol {
-				if !seen[v.Index] && len(flagged) < 5000 {
-					seen[v.Index] = true
-					flagged = append(flagged, plotter.XY{X: pts[v.Index].X, Y: pts[v.Index].Y})
-				}
-			}
-			if len(flagged) > 0 {
-				sc, err := plotter.NewScatter(flagged)
-				if err != nil {
-					return "", err
-				}
-				sc.GlyphStyle = draw.GlyphStyle{Color: trendLimitColour, Radius: vg.Points(4.5), Shape: draw.RingGlyph{}}
-				p.Add(sc)
-				p.Legend.Add("rule violation", sc)
-			}
+		if len(all) > 0 {
+			// Sets the axis ranges to the points; the overlay draws them.
+			p.Add(rangeOnly(all))
 		}
 	}
-	if x.Time && xmax > xmin {
+	// Error bars on hundreds of points are an unreadable smear and most
+	// of the page's weight: they are drawn for sparse charts only (the CSV
+	// keeps every σ).
+	b.bars = len(order) > 0
+	for _, k := range order {
+		eb, err := plotter.NewYErrorBars(bars[k])
+		if err != nil {
+			return nil, err
+		}
+		c := in.keys.style(k).Colour
+		// NRGBA: color.RGBA is alpha-premultiplied, and a straight colour
+		// under A < 0xff overflows to 7 hex digits, which browsers reject.
+		eb.LineStyle.Color = color.NRGBA{R: c.R, G: c.G, B: c.B, A: 0x80}
+		eb.LineStyle.Width = vg.Points(0.8)
+		eb.CapWidth = vg.Points(4)
+		p.Add(eb)
+	}
+	for _, g := range in.groups {
+		pts := g.Series.Points
+		if g.Limits == nil || len(pts) == 0 {
+			continue
+		}
+		l := g.Limits
+		lcl := max(l.LCL, 0) // every plotted quantity is ≥ 0 (said in a note)
+		for _, h := range []struct {
+			v      float64
+			dashed bool
+			c      color.Color
+		}{{l.Center, false, trendCentreColor}, {l.UCL, true, trendLimitColour}, {lcl, true, trendLimitColour}} {
+			ln, err := plotter.NewLine(plotter.XYs{{X: pts[0].X, Y: h.v}, {X: pts[len(pts)-1].X, Y: h.v}})
+			if err != nil {
+				return nil, err
+			}
+			ln.LineStyle.Color, ln.LineStyle.Width = h.c, vg.Points(1)
+			if h.dashed {
+				ln.LineStyle.Dashes = []vg.Length{vg.Points(5), vg.Points(3)}
+			}
+			p.Add(ln)
+		}
+		var flagged plotter.XYs
+		seen := map[int]bool{}
+		for _, v := range g.Viol {
+			if !seen[v.Index] && len(flagged) < 5000 {
+				seen[v.Index] = true
+				flagged = append(flagged, plotter.XY{X: pts[v.Index].X, Y: pts[v.Index].Y})
+			}
+		}
+		if len(flagged) > 0 {
+			sc, err := plotter.NewScatter(flagged)
+			if err != nil {
+				return nil, err
+			}
+			sc.GlyphStyle = draw.GlyphStyle{Color: trendLimitColour, Radius: vg.Points(6), Shape: draw.RingGlyph{}}
+			p.Add(sc)
+		}
+	}
+	p.Add(b.rec)
+	return b, nil
+}
+
+// finishRanges pads the axes; x is the shared range of all charts, y
+// gets room at the top for the event labels.
+func (b *trendBuilt) finishRanges(xmin, xmax float64) {
+	p := b.p
+	p.X.Min, p.X.Max = xmin, xmax
+	if b.in.x.Time && xmax > xmin {
 		format := "2006-01-02"
 		if xmax-xmin < 3*86400 {
 			format = "01-02 15:04"
 		}
 		p.X.Tick.Marker = plot.TimeTicks{Format: format, Time: func(t float64) time.Time { return time.Unix(int64(t), 0).UTC() }}
 	}
-	// The axes get room beyond the data, with a band at the top kept free
-	// for the legend so it never hides points or limits.
-	p.Legend.Top, p.Legend.Left = true, true
-	padRange(&p.X.Min, &p.X.Max, 0.02)
+	padRange(&p.X.Min, &p.X.Max, 0.015)
 	if d := p.Y.Max - p.Y.Min; d > 0 {
 		p.Y.Min -= 0.05 * d
-		p.Y.Max += 0.22 * d
+		top := 0.05
+		switch {
+		case len(b.in.events) == 1:
+			top = 0.14
+		case len(b.in.events) > 1:
+			top = 0.26 // up to three rows of labels
+		}
+		p.Y.Max += top * d
 	}
-	svg, err := drawSVG(p.Draw, 8*vg.Inch, 4.2*vg.Inch)
+}
+
+// dataLeft is the left edge of the data area when drawn unshifted.
+func (b *trendBuilt) dataLeft() vg.Length {
+	c := vgsvg.NewWith(vgsvg.UseWH(trendChartW, trendChartH))
+	return b.p.DataCanvas(draw.New(c)).Min.X
+}
+
+// svg draws the chart with the data area shifted right by shift (to
+// align with other charts) and writes the overlay: chamber events as
+// labelled vertical lines with a tooltip, then every drawn point as a
+// link to its run with a tooltip.
+func (b *trendBuilt) svg(shift vg.Length) (string, error) {
+	raw, err := drawSVG(func(c draw.Canvas) { b.p.Draw(draw.Crop(c, shift, 0, 0, 0)) }, trendChartW, trendChartH)
 	if err != nil {
 		return "", err
 	}
-	return inlineSVG(withAccessibility(svg, title, desc)), nil
+	o := b.rec
+	if o.trX == nil {
+		return inlineSVG(withAccessibility(raw, b.in.title, b.in.desc)), nil
+	}
+	H := float64(trendChartH.Points())
+	X := func(v float64) float64 { return float64(o.trX(v).Points()) }
+	Y := func(v float64) float64 { return H - float64(o.trY(v).Points()) }
+	top, bottom := H-float64(o.max.Y.Points()), H-float64(o.min.Y.Points())
+	left, right := float64(o.min.X.Points()), float64(o.max.X.Points())
+	var w strings.Builder
+	w.WriteString(`<g class="events">`)
+	// Labels go in the first of three rows where they do not overlap an
+	// earlier label (width estimated at 0.55 em per character).
+	var rowEnd [3]float64
+	for i := range rowEnd {
+		rowEnd[i] = math.Inf(-1)
+	}
+	for _, e := range b.in.events {
+		if !b.in.x.Time {
+			break
+		}
+		x := X(float64(e.At.Unix()))
+		if x < left || x > right {
+			continue
+		}
+		tip := fmt.Sprintf("%s UTC · %s · %s", e.At.Format("2006-01-02 15:04"), e.ChamberName, store.EventKindLabel(e.Kind))
+		if e.Note != "" {
+			tip += " — " + e.Note
+		}
+		tip += " (logged by " + e.LoggedBy + ")"
+		label := store.EventKindLabel(e.Kind)
+		if !b.in.oneChamber {
+			label += ", " + e.ChamberName
+		}
+		width := 5.5 * float64(utf8.RuneCountInString(label))
+		x0, x1, anchor := x+3, x+3+width, "start"
+		if x1 > right {
+			x0, x1, anchor = x-3-width, x-3, "end"
+		}
+		row := 0
+		for row < len(rowEnd)-1 && rowEnd[row] > x0-4 {
+			row++
+		}
+		rowEnd[row] = max(rowEnd[row], x1)
+		tx := x0
+		if anchor == "end" {
+			tx = x1
+		}
+		fmt.Fprintf(&w, `<g class="event" data-testid="trend-event"><title>%s</title><line x1="%.1f" x2="%.1f" y1="%.1f" y2="%.1f" stroke="#4a3f75" stroke-width="1.2" stroke-dasharray="2 2"/>`+
+			`<text x="%.1f" y="%.1f" font-size="10" font-family="Liberation Sans, Arial, sans-serif" fill="#4a3f75" text-anchor="%s">%s</text></g>`,
+			htmlAttr(tip), x, x, top, bottom, tx, top+11+11*float64(row), anchor, htmlAttr(label))
+	}
+	w.WriteString(`</g><g class="points">`)
+	for gi, g := range b.in.groups {
+		for _, i := range b.idx[gi] {
+			pt := g.Series.Points[i]
+			k := b.in.keys.key(pt)
+			st := b.in.keys.style(k)
+			cx, cy := X(pt.X), Y(pt.Y)
+			val := views.ValueUnc(&pt.Y, &pt.YUnc)
+			if b.in.y.Unit != "" {
+				val += " " + b.in.y.Unit
+			}
+			tip := fmt.Sprintf("Run #%d · %s UTC · %s · %s %s", pt.RunID, pt.StartedAt.Format("2006-01-02 15:04"), b.in.keys.label(k),
+				b.in.y.Label, val)
+			if !b.in.x.Time {
+				tip += " at " + b.in.x.Label + " " + fmtQ(b.in.x, pt.X)
+			}
+			fmt.Fprintf(&w, `<a href="/runs/%d">%s<title>%s</title></%s></a>`, pt.RunID, shapeOpen(st, cx, cy), htmlAttr(tip), shapeTag(st.Shape))
+		}
+	}
+	w.WriteString(`</g></svg>`)
+	out := string(raw)
+	end := strings.LastIndex(out, "</svg>")
+	if end < 0 {
+		return "", fmt.Errorf("trend chart: no </svg> in the drawing")
+	}
+	out = out[:end] + w.String()
+	return inlineSVG(withAccessibility([]byte(out), b.in.title, b.in.desc)), nil
+}
+
+func shapeTag(shape string) string {
+	switch shape {
+	case "circle":
+		return "circle"
+	case "square":
+		return "rect"
+	}
+	return "polygon"
+}
+
+// shapeOpen writes the opening tag of a marker centred at (x, y).
+func shapeOpen(st trendStyle, x, y float64) string {
+	fill := hexColour(st.Colour)
+	switch st.Shape {
+	case "circle":
+		return fmt.Sprintf(`<circle class="pt" cx="%.1f" cy="%.1f" r="3.4" fill="%s">`, x, y, fill)
+	case "square":
+		return fmt.Sprintf(`<rect class="pt" x="%.1f" y="%.1f" width="6.2" height="6.2" fill="%s">`, x-3.1, y-3.1, fill)
+	case "triangle":
+		return fmt.Sprintf(`<polygon class="pt" points="%.1f,%.1f %.1f,%.1f %.1f,%.1f" fill="%s">`, x, y-4.2, x+3.9, y+2.6, x-3.9, y+2.6, fill)
+	}
+	return fmt.Sprintf(`<polygon class="pt" points="%.1f,%.1f %.1f,%.1f %.1f,%.1f %.1f,%.1f" fill="%s">`, x, y-4.4, x+4.4, y, x, y+4.4, x-4.4, y, fill)
+}
+
+// drawTrendCharts builds the charts, gives them one x range and aligned
+// data areas, and draws them. In trend mode side-by-side charts share
+// the y range too.
+func drawTrendCharts(ins []trendChartIn, shareY bool) ([]string, []*trendBuilt, error) {
+	var built []*trendBuilt
+	xmin, xmax := math.Inf(1), math.Inf(-1)
+	ymin, ymax := math.Inf(1), math.Inf(-1)
+	for _, in := range ins {
+		b, err := buildTrend(in)
+		if err != nil {
+			return nil, nil, err
+		}
+		built = append(built, b)
+		xmin, xmax = math.Min(xmin, b.p.X.Min), math.Max(xmax, b.p.X.Max)
+		ymin, ymax = math.Min(ymin, b.p.Y.Min), math.Max(ymax, b.p.Y.Max)
+	}
+	var lefts []vg.Length
+	maxLeft := vg.Length(0)
+	for _, b := range built {
+		if shareY && len(built) > 1 {
+			b.p.Y.Min, b.p.Y.Max = ymin, ymax
+		}
+		b.finishRanges(xmin, xmax)
+		l := b.dataLeft()
+		lefts = append(lefts, l)
+		maxLeft = max(maxLeft, l)
+	}
+	var out []string
+	for i, b := range built {
+		svg, err := b.svg(maxLeft - lefts[i])
+		if err != nil {
+			return nil, nil, err
+		}
+		out = append(out, svg)
+	}
+	return out, built, nil
 }
 
 // fmtQ formats a value of field f for tables and descriptions.
@@ -504,17 +846,20 @@ func (s *Server) showTrends(c echo.Context) error {
 		}
 	}
 
-	// Charts: one with both series (trend mode), or one per series with
-	// its own limits (control mode).
+	// Charts: one for the selection, or two aligned ones side by side
+	// (the same x range; in trend mode the same y range too).
 	total := 0
 	for _, g := range groups {
 		total += len(g.Series.Points)
 	}
 	props.Total = total
-	var ids []int64
+	type flaggedRun struct {
+		group, index int
+		rules        []spc.Rule
+	}
+	var flagged []flaggedRun
 	for gi, g := range groups {
-		st := trendStyles[gi%len(trendStyles)]
-		sum := views.TrendGroupSummary{Label: g.Label, Colour: st.Hex, Marker: st.Marker, N: len(g.Series.Points), Missing: g.Series.Missing}
+		sum := views.TrendGroupSummary{Label: g.Label, N: len(g.Series.Points), Missing: g.Series.Missing}
 		if g.Limits != nil {
 			l := g.Limits
 			baseline := fmt.Sprintf("first %d runs", g.BaseN)
@@ -523,59 +868,197 @@ func (s *Server) showTrends(c echo.Context) error {
 			}
 			sum.Limits = &views.ControlLimitsView{Centre: fmtQ(p.y, l.Center), Sigma: fmtQ(p.y, l.Sigma),
 				UCL: fmtQ(p.y, l.UCL), LCL: fmtQ(p.y, l.LCL), MRBar: fmtQ(p.y, l.MRBar), Baseline: baseline}
-			sum.Flagged = len(g.Viol)
+			// One entry per run with all the rules it breaks (Check
+			// orders violations by index).
 			for _, v := range g.Viol {
-				ids = append(ids, g.Series.Points[v.Index].RunID)
+				if n := len(flagged); n > 0 && flagged[n-1].group == gi && flagged[n-1].index == v.Index {
+					flagged[n-1].rules = append(flagged[n-1].rules, v.Rule)
+					continue
+				}
+				flagged = append(flagged, flaggedRun{gi, v.Index, []spc.Rule{v.Rule}})
+				sum.Flagged++
 			}
 		}
 		props.Groups = append(props.Groups, sum)
 	}
 	if total > 0 {
+		keys, err := s.trendColourKeys(c, p.form.ColourBy)
+		if err != nil {
+			return err
+		}
+		events, err := s.trendEvents(c, p, groups)
+		if err != nil {
+			return err
+		}
 		chartSets := [][]trendGroup{groups}
-		if p.control && len(groups) > 1 {
+		if len(groups) > 1 {
 			chartSets = [][]trendGroup{groups[:1], groups[1:]}
 		}
-		for ci, set := range chartSets {
-			if len(set) == 1 && len(set[0].Series.Points) == 0 {
+		var ins []trendChartIn
+		for _, set := range chartSets {
+			if len(set[0].Series.Points) == 0 {
 				continue // said in a note
 			}
 			title := p.y.Label + " against " + strings.ToLower(p.x.Label)
 			if p.control {
 				title = "Control chart (individuals): " + strings.ToLower(p.y.Label)
 			}
-			if len(set) == 1 && len(groups) > 1 {
+			if len(groups) > 1 {
 				title += " — " + set[0].Label
 			}
-			svg, err := trendSVG(set, ci, p.x, p.y, title, trendDesc(set, p))
-			if err != nil {
-				return err
+			ev := events
+			if p.compare == "chamber" {
+				ev = nil
+				for _, e := range events {
+					if e.ChamberID == set[0].ChamberID {
+						ev = append(ev, e)
+					}
+				}
 			}
-			props.Charts = append(props.Charts, views.TrendChart{Title: title, SVG: svg})
+			ins = append(ins, trendChartIn{groups: set, x: p.x, y: p.y, keys: keys, events: ev, title: title, desc: trendDesc(set, p),
+				oneChamber: p.compare == "chamber" || p.filter.ChamberID != 0})
 		}
+		svgs, built, err := drawTrendCharts(ins, !p.control)
+		if err != nil {
+			return err
+		}
+		used := map[int64]bool{}
+		nEvents, band, bars := 0, false, false
+		for i, svg := range svgs {
+			props.Charts = append(props.Charts, views.TrendChart{Title: ins[i].title, SVG: svg})
+			for k := range built[i].keys {
+				used[k] = true
+			}
+			nEvents += strings.Count(svg, `data-testid="trend-event"`)
+			for _, g := range ins[i].groups {
+				band = band || g.HasBase
+			}
+			bars = bars || built[i].bars
+		}
+		props.Legend = trendLegend(keys, used, p.control, band, len(flagged) > 0, nEvents > 0, bars)
+		props.ColourBy = keys.by
 	}
 
-	// Violations table (at most 100 rows; the CSV lists them all).
-	const maxRows = 100
-	if len(ids) > maxRows {
-		ids = ids[:maxRows]
+	// Violations: one row per run with all its rules; the first 20 shown,
+	// the rest (up to 200) collapsed; the CSV lists them all.
+	const maxRows = 200
+	var ids []int64
+	for _, fr := range flagged[:min(len(flagged), maxRows)] {
+		ids = append(ids, groups[fr.group].Series.Points[fr.index].RunID)
 	}
 	titles, err := s.DB.RunTitles(c.Request().Context(), ids)
 	if err != nil {
 		return err
 	}
-	for _, g := range groups {
-		for _, v := range g.Viol {
-			if len(props.Violations) >= maxRows {
-				props.MoreViolations++
-				continue
-			}
-			pt := g.Series.Points[v.Index]
-			props.Violations = append(props.Violations, views.ViolationRow{RunID: pt.RunID, Title: titles[pt.RunID],
-				Started: pt.StartedAt.Format("2006-01-02 15:04"), Group: g.Label, Rule: v.Rule.String(), Source: v.Rule.Source(),
-				Value: fmtQ(p.y, pt.Y)})
+	for i, fr := range flagged {
+		if i >= maxRows {
+			props.MoreViolations = len(flagged) - maxRows
+			break
 		}
+		g := groups[fr.group]
+		pt := g.Series.Points[fr.index]
+		row := views.ViolationRow{RunID: pt.RunID, Title: titles[pt.RunID], Started: pt.StartedAt.Format("2006-01-02 15:04"),
+			Group: g.Label, Value: fmtQ(p.y, pt.Y)}
+		var names, sources []string
+		for _, r := range fr.rules {
+			names = append(names, r.String())
+			sources = append(sources, r.Source())
+		}
+		row.Rule, row.Source = strings.Join(names, "; "), strings.Join(slices.Compact(sources), "; ")
+		props.Violations = append(props.Violations, row)
 	}
 	return render(c, http.StatusOK, views.Trends(props))
+}
+
+// trendColourKeys loads the names of the chambers (or recipes) that colour
+// the points, each with a fixed palette position (its place in the name
+// list), so that a chamber keeps its colour from chart to chart.
+func (s *Server) trendColourKeys(c echo.Context, by string) (trendKeys, error) {
+	k := trendKeys{by: by, name: map[int64]string{}, pos: map[int64]int{}}
+	var names []store.Named
+	var err error
+	if by == "recipe" {
+		names, err = s.DB.Recipes(c.Request().Context())
+	} else {
+		k.by = "chamber"
+		names, err = s.DB.Chambers(c.Request().Context())
+	}
+	if err != nil {
+		return k, err
+	}
+	for i, n := range names {
+		k.name[n.ID], k.pos[n.ID] = n.Name, i
+	}
+	return k, nil
+}
+
+// trendEvents loads the chamber events within the charts' time range: of
+// the filtered or compared chambers, or of all chambers.
+func (s *Server) trendEvents(c echo.Context, p trendPlan, groups []trendGroup) ([]store.ChamberEvent, error) {
+	if !p.x.Time {
+		return nil, nil
+	}
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for _, g := range groups {
+		if n := len(g.Series.Points); n > 0 {
+			lo, hi = math.Min(lo, g.Series.Points[0].X), math.Max(hi, g.Series.Points[n-1].X)
+		}
+	}
+	if lo > hi {
+		return nil, nil
+	}
+	var ids []int64
+	switch {
+	case p.compare == "chamber":
+		ids = p.cmp[:]
+	case p.filter.ChamberID != 0:
+		ids = []int64{p.filter.ChamberID}
+	}
+	// A little beyond the runs: an event just before the first run of the
+	// range still explains it (the axis is padded by 1.5 %).
+	pad := 0.015 * (hi - lo)
+	return s.DB.ChamberEvents(c.Request().Context(), ids, time.Unix(int64(lo-pad), 0), time.Unix(int64(hi+pad)+1, 0), 200)
+}
+
+// trendLegend lists what the charts show, drawn outside the plot area.
+func trendLegend(k trendKeys, used map[int64]bool, control, band, violations, events, bars bool) []views.LegendItem {
+	var keys []int64
+	for id := range used {
+		keys = append(keys, id)
+	}
+	slices.SortFunc(keys, func(a, b int64) int {
+		pa, oka := k.pos[a]
+		pb, okb := k.pos[b]
+		if !oka || a == 0 {
+			pa = math.MaxInt
+		}
+		if !okb || b == 0 {
+			pb = math.MaxInt
+		}
+		return pa - pb
+	})
+	var out []views.LegendItem
+	for _, id := range keys {
+		st := k.style(id)
+		out = append(out, views.LegendItem{Label: k.label(id), Colour: hexColour(st.Colour), Shape: st.Shape})
+	}
+	if bars {
+		out = append(out, views.LegendItem{Label: "error bar ±1σ", Colour: "#5b6673", Shape: "bar"})
+	}
+	if control {
+		out = append(out, views.LegendItem{Label: "centre line", Colour: hexColour(trendCentreColor), Shape: "line"},
+			views.LegendItem{Label: "control limits ±3σ", Colour: hexColour(trendLimitColour), Shape: "dashed"})
+	}
+	if band {
+		out = append(out, views.LegendItem{Label: "baseline runs", Colour: hexColour(trendBandColour), Shape: "band"})
+	}
+	if violations {
+		out = append(out, views.LegendItem{Label: "rule violation", Colour: hexColour(trendLimitColour), Shape: "ring"})
+	}
+	if events {
+		out = append(out, views.LegendItem{Label: "chamber event (hover for the note)", Colour: "#4a3f75", Shape: "event"})
+	}
+	return out
 }
 
 // trendDesc describes a chart in words for screen readers.

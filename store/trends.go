@@ -77,6 +77,9 @@ type TrendPoint struct {
 	X, Y      float64
 	// YUnc is the 1σ uncertainty of Y, 0 when unknown.
 	YUnc float64
+	// ChamberID and RecipeID are the run's chamber and recipe (0: none),
+	// for colouring series.
+	ChamberID, RecipeID int64
 }
 
 // TrendSeries is the series of one trend: the runs matching a filter that
@@ -231,7 +234,7 @@ func (d *DB) trendRead(ctx context.Context, f RunFilter, xField, yField, cond st
 		args = append(args, condArgs...)
 	}
 	rows, err := d.db.QueryContext(ctx, `SELECT r.id, r.started_at, `+xf.col+`, `+yf.col+`, `+unc+
-		` FROM runs r`+where, args...)
+		`, coalesce(r.chamber_id, 0), coalesce(r.recipe_id, 0) FROM runs r`+where, args...)
 	if err != nil {
 		return ts, nil, fmt.Errorf("store: trend series: %w", err)
 	}
@@ -241,7 +244,7 @@ func (d *DB) trendRead(ctx context.Context, f RunFilter, xField, yField, cond st
 		var p TrendPoint
 		var started int64
 		var x, y, u sql.NullFloat64
-		if err := rows.Scan(&p.RunID, &started, &x, &y, &u); err != nil {
+		if err := rows.Scan(&p.RunID, &started, &x, &y, &u, &p.ChamberID, &p.RecipeID); err != nil {
 			return ts, nil, err
 		}
 		if !x.Valid || !y.Valid {

@@ -21,7 +21,7 @@ type UserView struct {
 type LayoutProps struct {
 	Title   string
 	User    *UserView
-	Current string // nav key: runs, new, trends, review, planner, safety, admin
+	Current string // nav key: board, runs, new, trends, review, planner, safety, admin
 	CSRF    string
 	Flash   string
 	Error   string
@@ -31,7 +31,7 @@ type LayoutProps struct {
 type navItem struct{ Key, Href, Label string }
 
 func navItems(u *UserView) []navItem {
-	items := []navItem{{"runs", "/runs", "Run log"}}
+	items := []navItem{{"board", "/board", "Board"}, {"runs", "/runs", "Run log"}}
 	if u != nil && u.CanEdit {
 		items = append(items, navItem{"new", "/runs/new", "Log a run"})
 	}
@@ -83,7 +83,7 @@ func Layout(p LayoutProps, content templ.Component) templ.Component {
 		if templ_7745c5c3_Err != nil {
 			return templ_7745c5c3_Err
 		}
-		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 2, " · glowlog</title><link rel=\"stylesheet\" href=\"/static/glowlog-1.css\"><script src=\"/static/htmx-4.0.1.min.js\" defer></script><script src=\"/static/glowlog-1.js\" defer></script></head><body><header class=\"top\"><a class=\"brand\" href=\"/runs\">glowlog</a> ")
+		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 2, " · glowlog</title><link rel=\"stylesheet\" href=\"/static/glowlog-1.css\"><script src=\"/static/htmx-4.0.1.min.js\" defer></script><script src=\"/static/glowlog-1.js\" defer></script></head><body><header class=\"top\"><a class=\"brand\" href=\"/board\">glowlog</a> ")
 		if templ_7745c5c3_Err != nil {
 			return templ_7745c5c3_Err
 		}

@@ -27,9 +27,12 @@ func TestDemoScreenshots(t *testing.T) {
 	ctx := tab(t)
 	signIn(t, ctx, a, "rhys")
 	for _, p := range []struct{ name, path string }{
+		{"d0-board", "/board"},
 		{"d1-runs", "/runs"},
 		{"d2-run", "/runs/5"},
 		{"d3-trends-j1", "/trends?y=ne_m3&chamber=1&mode=control&base_n=30"},
+		{"d3b-trends-all", "/trends?y=ne_m3"},
+		{"d3c-trends-side", "/trends?y=ne_m3&compare=chamber&cmp_a=1&cmp_b=2"},
 		{"d4-review", "/review"},
 		{"d5-planner", "/planner"},
 		{"d6-safety", "/safety"},
