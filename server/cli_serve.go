@@ -38,8 +38,8 @@ func ServeCommand(args []string, stdout, stderr io.Writer) int {
 	proxies := envList("GLOWLOG_TRUSTED_PROXY")
 	fs.Func("trusted-proxy", "believe X-Forwarded-For and X-Forwarded-Proto only from this proxy address or CIDR range; repeatable (env GLOWLOG_TRUSTED_PROXY, comma-separated)",
 		func(v string) error { proxies = append(proxies, v); return nil })
-	if err := fs.Parse(args); err != nil {
-		return ExitInput
+	if err := ParseInterleaved(fs, args); err != nil {
+		return flagExit(err)
 	}
 	trusted, err := ParseTrustedProxies(proxies)
 	if err != nil {
