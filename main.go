@@ -6,6 +6,7 @@
 //	glowlog [serve]                  start the web application (default)
 //	glowlog analyze [flags] FILE...  analyse measurement sets or spectra, print JSON
 //	glowlog instrument [flags] FILE  measure the instrument function from a lamp spectrum
+//	glowlog watch DIR --server URL   upload new spectrum files from a folder
 //
 // See README.md for the input and output fields.
 package main
@@ -37,7 +38,7 @@ func main() {
 // run dispatches a subcommand and returns the process exit status.
 func run(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 	cmd := "serve"
-	if len(args) > 0 && !strings.HasPrefix(args[0], "-") {
+	if len(args) > 0 && (!strings.HasPrefix(args[0], "-") || isHelp(args[0])) {
 		cmd, args = args[0], args[1:]
 	}
 	switch cmd {
@@ -51,10 +52,12 @@ func run(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 		return server.TokenCommand(args, stdout, stderr)
 	case "serve":
 		return runServe(args, stdout, stderr)
+	case "watch":
+		return runWatch(args, stdout, stderr)
 	case "version":
 		fmt.Fprintf(stdout, "glowlog %s (%s)\n", diag.EngineVersion, diag.ConstantsSet)
 		return exitOK
-	case "help", "-h", "--help":
+	case "help", "-h", "-help", "--help":
 		fmt.Fprint(stdout, usage)
 		return exitOK
 	}
@@ -62,16 +65,25 @@ func run(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 	return exitInput
 }
 
-const usage = `usage:
-  glowlog [serve]                   start the web application (default)
-  glowlog analyze [flags] FILE...   analyse measurement sets (JSON) or spectra (text, JCAMP-DX);
-                                    one file: indented JSON; several: JSON Lines, in order
-  glowlog instrument [flags] FILE   measure the instrument function from a calibration-lamp spectrum
-  glowlog user add NAME --role R    create an account (password on stdin); --db FILE
-  glowlog token create NAME         print a new API token for user NAME, once; --db FILE
-  glowlog version                   print the version
-run "glowlog analyze -h" or "glowlog instrument -h" for the flags
+const usage = `usage: glowlog COMMAND [flags] [ARGS]   (flags may come before or after the arguments; -- ends them)
+
+commands:
+  serve                          start the web application (the default command)
+  analyze [flags] FILE...        analyse measurement sets (JSON) or spectra (text, JCAMP-DX), print JSON
+  instrument [flags] FILE        measure the instrument function from a calibration-lamp spectrum
+  watch DIR --server URL ...     upload each new spectrum written into DIR to a glowlog server, once
+  user add NAME --role R         create an account (password on standard input)
+  token create NAME              print a new API token for user NAME, once
+  version                        print the version
+  help                           print this list
+
+"glowlog COMMAND -h" lists the flags of a command.
 `
+
+// isHelp says whether a first argument asks for the command list.
+func isHelp(a string) bool {
+	return a == "-h" || a == "-help" || a == "--help"
+}
 
 func runServe(args []string, stdout, stderr io.Writer) int {
 	return server.ServeCommand(args, stdout, stderr)
