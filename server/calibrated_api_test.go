@@ -2,7 +2,9 @@ package server
 
 import (
 	"encoding/json"
+	"fmt"
 	"net/http"
+	"net/url"
 	"os"
 	"strconv"
 	"strings"
@@ -49,5 +51,39 @@ func TestAPICalibratedSpectrum(t *testing.T) {
 	_, code, out = post(map[string]string{"response_corrected_unit": "watts"})
 	if code != http.StatusBadRequest || !strings.Contains(out["error"].(string), "response_corrected_unit") {
 		t.Errorf("bad unit: %d %v", code, out)
+	}
+}
+
+// TestReanalyzeFormCalibrated: the run page's reanalysis form declares
+// the spectra response-corrected; the setting is stored with the version
+// and shown selected; an unknown unit is refused.
+func TestReanalyzeFormCalibrated(t *testing.T) {
+	f := newRunsFixture(t)
+	_, sess := f.signIn("ada.quill", "operator")
+	v := newRunValues()
+	v.Set("line_table", tinySet(0))
+	rec := f.postForm("/runs", sess, v)
+	m := runLocation.FindStringSubmatch(rec.Header().Get("Location"))
+	if rec.Code != http.StatusSeeOther || m == nil {
+		t.Fatalf("create: %d %.300s", rec.Code, rec.Body.String())
+	}
+	id := atoi64(t, m[1])
+	form := func(unit string) url.Values {
+		return url.Values{"reason": {"calibrated export"}, "instrument_fwhm_nm": {"0.03"}, "gas_temperature_k": {"1200"},
+			"pressure_pa": {"300"}, "perturber": {"none"}, "response_corrected_unit": {unit}}
+	}
+	rec = f.postForm(fmt.Sprintf("/runs/%d/reanalyze", id), sess, form("energy"))
+	if rec.Code != http.StatusSeeOther {
+		t.Fatalf("reanalyse: %d %.300s", rec.Code, rec.Body.String())
+	}
+	if st := checkSettingsUsed(t, f.s, id, 2); st.ResponseCorrectedUnit != "energy" {
+		t.Errorf("stored settings %+v", st)
+	}
+	page := f.get(fmt.Sprintf("/runs/%d", id), sess).Body.String()
+	if !strings.Contains(page, `<option value="energy" selected>yes, in energy units`) {
+		t.Error("the run page's form does not show the declared unit selected")
+	}
+	if rec = f.postForm(fmt.Sprintf("/runs/%d/reanalyze", id), sess, form("watts")); rec.Code < 400 || !strings.Contains(rec.Body.String(), "response_corrected_unit") {
+		t.Errorf("unknown unit: %d %.300s", rec.Code, rec.Body.String())
 	}
 }
