@@ -111,7 +111,11 @@ func parseWatchFlags(args []string, stderr io.Writer) (*watchConfig, int) {
 			if !ok || strings.TrimSpace(k) == "" {
 				return fmt.Errorf("want NAME=VALUE")
 			}
-			cfg.fields[strings.TrimSpace(k)] = strings.TrimSpace(val)
+			k = strings.TrimSpace(k)
+			if !slices.Contains(uploadSettingFields, k) {
+				return fmt.Errorf("unknown setting %q (want one of %s)", k, strings.Join(uploadSettingFields, ", "))
+			}
+			cfg.fields[k] = strings.TrimSpace(val)
 			return nil
 		})
 	calibrated := fs.String("calibrated", "", "the spectra are already response-corrected (calibrated exports), in photon or energy units")
@@ -189,6 +193,13 @@ func parseWatchFlags(args []string, stderr io.Writer) (*watchConfig, int) {
 	}
 	return cfg, exitOK
 }
+
+// uploadSettingFields are the multipart settings fields of POST
+// /api/v1/runs/:id/measurements (server/api.go applySettingFields).
+var uploadSettingFields = []string{"instrument_fwhm_nm", "instrument_lorentz_fwhm_nm", "gas_temperature_K",
+	"gas_temperature_unc_K", "pressure_Pa", "perturber", "isotope", "solve_gas_temperature", "correct_offset",
+	"min_snr", "max_upper", "saturation_counts", "gain_e_per_count", "read_noise_e", "response_unit",
+	"response_corrected_unit"}
 
 // fatalError stops the watcher: a problem no retry can fix (a refused
 // token, a missing or signed-off run, run fields the server rejects).

@@ -427,6 +427,7 @@ func TestWatchFlags(t *testing.T) {
 		{[]string{dir, "--server", "http://x", "--token", "t", "--new-run-per-file"}, "--source-type"},
 		{[]string{dir, "--server", "http://x", "--token", "t", "--run", "3", "--chamber", "C"}, "need --new-run-per-file"},
 		{[]string{dir, "--server", "x:8080", "--token", "t", "--run", "3"}, "http://"},
+		{[]string{dir, "--server", "http://x", "--token", "t", "--run", "3", "--set", "instrument_fwhm=0.05"}, "unknown setting"},
 		{[]string{filepath.Join(dir, "nope"), "--server", "http://x", "--token", "t", "--run", "3"}, "not a folder"},
 	} {
 		var errb bytes.Buffer
