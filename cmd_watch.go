@@ -61,6 +61,7 @@ func runWatch(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "glowlog watch: %v\n", err)
 		return exitInput
 	}
+	defer w.close()
 	fmt.Fprintf(stderr, "glowlog watch: following %s, sending to %s (state in %s); Ctrl-C stops\n", cfg.dir, cfg.server, cfg.statePath)
 	if err := w.loop(ctx); err != nil {
 		fmt.Fprintf(stderr, "glowlog watch: %v\n", err)
@@ -218,6 +219,7 @@ type watcher struct {
 	errw   io.Writer // retries and notices
 	client *http.Client
 	state  *watchState
+	lock   *os.File // held while the watcher runs (nil where not supported)
 	now    func() time.Time
 	rand   func() float64
 
@@ -235,12 +237,27 @@ type sighting struct {
 }
 
 func newWatcher(cfg *watchConfig, out, errw io.Writer) (*watcher, error) {
-	st, err := loadState(cfg.statePath)
+	lock, err := lockState(cfg.statePath)
 	if err != nil {
 		return nil, err
 	}
-	return &watcher{cfg: cfg, out: out, errw: errw, client: &http.Client{Timeout: cfg.timeout}, state: st,
+	st, err := loadState(cfg.statePath)
+	if err != nil {
+		if lock != nil {
+			lock.Close()
+		}
+		return nil, err
+	}
+	return &watcher{cfg: cfg, out: out, errw: errw, client: &http.Client{Timeout: cfg.timeout}, state: st, lock: lock,
 		now: time.Now, rand: rand.Float64, seen: map[string]sighting{}}, nil
+}
+
+// close releases the state file's lock.
+func (w *watcher) close() {
+	if w.lock != nil {
+		w.lock.Close()
+		w.lock = nil
+	}
 }
 
 func (w *watcher) loop(ctx context.Context) error {
@@ -288,7 +305,7 @@ func (w *watcher) step(ctx context.Context) error {
 			continue
 		}
 		path := filepath.Join(w.cfg.dir, name)
-		if abs, _ := filepath.Abs(path); abs == stateAbs {
+		if abs, _ := filepath.Abs(path); abs == stateAbs || abs == stateAbs+".lock" {
 			continue
 		}
 		present[name] = true

@@ -81,6 +81,7 @@ type watchEnv struct {
 	runID int64
 	dir   string
 	clock time.Time
+	last  *watcher // the running watcher, stopped when the next starts
 }
 
 func newWatchEnv(t *testing.T) *watchEnv {
@@ -132,12 +133,17 @@ func (e *watchEnv) watcher(out *bytes.Buffer, change func(*watchConfig)) *watche
 	if change != nil {
 		change(cfg)
 	}
+	if e.last != nil {
+		e.last.close()
+	}
 	w, err := newWatcher(cfg, out, io.Discard)
 	if err != nil {
 		e.t.Fatal(err)
 	}
 	w.now = func() time.Time { return e.clock }
 	w.rand = func() float64 { return 1 }
+	e.last = w
+	e.t.Cleanup(w.close)
 	return w
 }
 
@@ -190,7 +196,7 @@ func TestWatchSettlesBeforeSending(t *testing.T) {
 	e := newWatchEnv(t)
 	data := spectrumData(t)
 	var out bytes.Buffer
-	w := e.watcher(&out, nil)
+	w := e.watcher(&out, func(c *watchConfig) { c.statePath = filepath.Join(e.dir, "sent.json") }) // a state file among the spectra
 	path := filepath.Join(e.dir, "s001.csv")
 	appendFile(t, filepath.Join(e.dir, "s002.csv.part"), data)
 	appendFile(t, filepath.Join(e.dir, "s003.tmp"), data)
@@ -445,4 +451,21 @@ func TestHelp(t *testing.T) {
 			t.Errorf("%s: exit %d, %q", a, code, out.String())
 		}
 	}
+}
+
+// TestWatchOneWatcherPerState: a second watcher on the same state file is
+// refused while the first runs, and may start once it stopped.
+func TestWatchOneWatcherPerState(t *testing.T) {
+	e := newWatchEnv(t)
+	var out bytes.Buffer
+	w := e.watcher(&out, nil)
+	if _, err := newWatcher(w.cfg, &out, io.Discard); err == nil || !strings.Contains(err.Error(), "another glowlog watch") {
+		t.Fatalf("second watcher: %v", err)
+	}
+	w.close()
+	w2, err := newWatcher(w.cfg, &out, io.Discard)
+	if err != nil {
+		t.Fatalf("after the first stopped: %v", err)
+	}
+	w2.close()
 }
