@@ -223,7 +223,8 @@ type watcher struct {
 	now    func() time.Time
 	rand   func() float64
 
-	seen map[string]sighting // files not yet settled
+	seen         map[string]sighting // files not yet settled
+	changedNoted map[string]bool     // done files whose change was reported
 
 	failures     int       // consecutive unreachable-server failures
 	backoffUntil time.Time // no request before this
@@ -249,7 +250,7 @@ func newWatcher(cfg *watchConfig, out, errw io.Writer) (*watcher, error) {
 		return nil, err
 	}
 	return &watcher{cfg: cfg, out: out, errw: errw, client: &http.Client{Timeout: cfg.timeout}, state: st, lock: lock,
-		now: time.Now, rand: rand.Float64, seen: map[string]sighting{}}, nil
+		now: time.Now, rand: rand.Float64, seen: map[string]sighting{}, changedNoted: map[string]bool{}}, nil
 }
 
 // close releases the state file's lock.
@@ -312,6 +313,11 @@ func (w *watcher) step(ctx context.Context) error {
 		if fs := w.state.Files[name]; fs != nil {
 			if !fs.done() {
 				todo = append(todo, ready{name, fs.ModTime})
+			} else if fi, err := e.Info(); err == nil && !w.changedNoted[name] &&
+				(fi.Size() != fs.Size || !fi.ModTime().Equal(fs.ModTime)) {
+				w.changedNoted[name] = true
+				fmt.Fprintf(w.errw, "%s %s changed after it was %s; not sent again (files are sent once, by name)\n",
+					now.UTC().Format(time.RFC3339), name, fs.Status)
 			}
 			continue
 		}

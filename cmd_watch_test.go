@@ -250,8 +250,9 @@ func TestWatchRestart(t *testing.T) {
 		t.Fatal("a.csv not sent")
 	}
 
-	// Restart: nothing is sent again.
+	// Restart: nothing is sent again, even when a sent file changes.
 	w = e.watcher(&out, nil)
+	appendFile(t, filepath.Join(e.dir, "a.csv"), []byte("\n"))
 	for range 3 {
 		e.step(w, 3*time.Second)
 	}
