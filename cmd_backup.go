@@ -93,21 +93,13 @@ func plainError(err error) string {
 	return s
 }
 
-// splitArgs separates positional arguments from flags so that flags may
-// come before or after them.
+// splitArgs parses a command's flags anywhere among its positional
+// arguments (server.ParseInterleaved) and returns the positional ones.
 func splitArgs(fs *flag.FlagSet, args []string) ([]string, error) {
-	var pos []string
-	for {
-		if err := fs.Parse(args); err != nil {
-			return nil, err
-		}
-		args = fs.Args()
-		if len(args) == 0 {
-			return pos, nil
-		}
-		pos = append(pos, args[0])
-		args = args[1:]
+	if err := server.ParseInterleaved(fs, args); err != nil {
+		return nil, err
 	}
+	return fs.Args(), nil
 }
 
 func envOr(k, def string) string {

@@ -242,7 +242,7 @@ func TestBackupRestoreBadInput(t *testing.T) {
 		t.Errorf("bad input left files: %v", fileNames)
 	}
 	code, out, _ := cli("--help")
-	if code != exitOK || !strings.Contains(out, "glowlog backup") || !strings.Contains(out, "glowlog restore") {
+	if code != exitOK || !strings.Contains(out, "\n  backup ") || !strings.Contains(out, "\n  restore ") {
 		t.Errorf("--help: exit %d\n%s", code, out)
 	}
 }

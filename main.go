@@ -8,6 +8,7 @@
 //	glowlog instrument [flags] FILE  measure the instrument function from a lamp spectrum
 //	glowlog backup [--db FILE] OUT   consistent copy of a live database, checked
 //	glowlog restore [--db FILE] BAK  put a backup back (server stopped)
+//	glowlog watch DIR --server URL   upload new spectrum files from a folder
 //
 // See README.md for the input and output fields.
 package main
@@ -39,9 +40,7 @@ func main() {
 // run dispatches a subcommand and returns the process exit status.
 func run(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 	cmd := "serve"
-	if len(args) > 0 && (args[0] == "-h" || args[0] == "--help" || args[0] == "-help") {
-		cmd, args = "help", args[1:]
-	} else if len(args) > 0 && !strings.HasPrefix(args[0], "-") {
+	if len(args) > 0 && (!strings.HasPrefix(args[0], "-") || isHelp(args[0])) {
 		cmd, args = args[0], args[1:]
 	}
 	switch cmd {
@@ -59,10 +58,12 @@ func run(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 		return runBackup(args, stdout, stderr)
 	case "restore":
 		return runRestore(args, stdout, stderr)
+	case "watch":
+		return runWatch(args, stdout, stderr)
 	case "version":
 		fmt.Fprintf(stdout, "glowlog %s (%s)\n", diag.EngineVersion, diag.ConstantsSet)
 		return exitOK
-	case "help", "-h", "--help":
+	case "help", "-h", "-help", "--help":
 		fmt.Fprint(stdout, usage)
 		return exitOK
 	}
@@ -70,20 +71,28 @@ func run(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 	return exitInput
 }
 
-const usage = `usage:
-  glowlog [serve]                   start the web application (default)
-  glowlog analyze [flags] FILE...   analyse measurement sets (JSON) or spectra (text, JCAMP-DX);
-                                    one file: indented JSON; several: JSON Lines, in order
-  glowlog instrument [flags] FILE   measure the instrument function from a calibration-lamp spectrum
-  glowlog user add NAME --role R    create an account (password on stdin); --db FILE
-  glowlog token create NAME         print a new API token for user NAME, once; --db FILE
-  glowlog backup [--force] OUT      write a checked, consistent copy of the database (also while
-                                    serve runs); --db FILE
-  glowlog restore BACKUP            put a backup in place of the database (stop serve first; the
-                                    replaced file is kept as FILE.before-restore-TIME); --db FILE
-  glowlog version                   print the version
-run "glowlog COMMAND -h" for the flags of a command
+const usage = `usage: glowlog COMMAND [flags] [ARGS]   (flags may come before or after the arguments; -- ends them)
+
+commands:
+  serve                          start the web application (the default command)
+  analyze [flags] FILE...        analyse measurement sets (JSON) or spectra (text, JCAMP-DX), print JSON
+  instrument [flags] FILE        measure the instrument function from a calibration-lamp spectrum
+  watch DIR --server URL ...     upload each new spectrum written into DIR to a glowlog server, once
+  user add NAME --role R         create an account (password on standard input)
+  token create NAME              print a new API token for user NAME, once
+  backup [--force] OUT           write a checked, consistent copy of the database (also while serve runs)
+  restore BACKUP                 put a backup in place of the database (stop serve first; the replaced
+                                 file is kept as FILE.before-restore-TIME)
+  version                        print the version
+  help                           print this list
+
+"glowlog COMMAND -h" lists the flags of a command.
 `
+
+// isHelp says whether a first argument asks for the command list.
+func isHelp(a string) bool {
+	return a == "-h" || a == "-help" || a == "--help"
+}
 
 func runServe(args []string, stdout, stderr io.Writer) int {
 	return server.ServeCommand(args, stdout, stderr)

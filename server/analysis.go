@@ -23,24 +23,28 @@ import (
 // AnalysisSettings are the settings of one analysis version, stored with
 // it as JSON. Zero values take the run's conditions.
 type AnalysisSettings struct {
-	Isotope                 string         `json:"isotope,omitempty"`
-	InstrumentFWHMNM        float64        `json:"instrument_fwhm_nm,omitempty"`
-	InstrumentLorentzFWHMNM float64        `json:"instrument_lorentz_fwhm_nm,omitempty"`
-	InstrumentID            int64          `json:"instrument_id,omitempty"`
-	GasTemperatureK         float64        `json:"gas_temperature_K,omitempty"`
-	GasTemperatureUncK      float64        `json:"gas_temperature_unc_K,omitempty"`
-	SolveGasTemperature     bool           `json:"solve_gas_temperature,omitempty"`
-	PressurePa              float64        `json:"pressure_Pa,omitempty"`
-	Perturber               string         `json:"perturber,omitempty"`
-	ResponseUnit            string         `json:"response_unit,omitempty"`
-	SaturationCounts        float64        `json:"saturation_counts,omitempty"`
-	GainElectronsPerCount   float64        `json:"gain_e_per_count,omitempty"`
-	ReadNoiseElectrons      float64        `json:"read_noise_e,omitempty"`
-	CorrectOffset           bool           `json:"correct_offset,omitempty"`
-	MinSNR                  float64        `json:"min_snr,omitempty"`
-	MaxUpper                int            `json:"max_upper,omitempty"`
-	StarkRelations          map[int]string `json:"stark_relations,omitempty"`
-	ExcludeFromBoltzmann    []int          `json:"exclude_from_boltzmann,omitempty"`
+	Isotope                 string  `json:"isotope,omitempty"`
+	InstrumentFWHMNM        float64 `json:"instrument_fwhm_nm,omitempty"`
+	InstrumentLorentzFWHMNM float64 `json:"instrument_lorentz_fwhm_nm,omitempty"`
+	InstrumentID            int64   `json:"instrument_id,omitempty"`
+	GasTemperatureK         float64 `json:"gas_temperature_K,omitempty"`
+	GasTemperatureUncK      float64 `json:"gas_temperature_unc_K,omitempty"`
+	SolveGasTemperature     bool    `json:"solve_gas_temperature,omitempty"`
+	PressurePa              float64 `json:"pressure_Pa,omitempty"`
+	Perturber               string  `json:"perturber,omitempty"`
+	ResponseUnit            string  `json:"response_unit,omitempty"`
+	// ResponseCorrectedUnit, "photon" or "energy", says the spectra are
+	// already response-corrected (calibrated exports, densities per nm) in
+	// that unit; "" (the default) says they are raw counts.
+	ResponseCorrectedUnit string         `json:"response_corrected_unit,omitempty"`
+	SaturationCounts      float64        `json:"saturation_counts,omitempty"`
+	GainElectronsPerCount float64        `json:"gain_e_per_count,omitempty"`
+	ReadNoiseElectrons    float64        `json:"read_noise_e,omitempty"`
+	CorrectOffset         bool           `json:"correct_offset,omitempty"`
+	MinSNR                float64        `json:"min_snr,omitempty"`
+	MaxUpper              int            `json:"max_upper,omitempty"`
+	StarkRelations        map[int]string `json:"stark_relations,omitempty"`
+	ExcludeFromBoltzmann  []int          `json:"exclude_from_boltzmann,omitempty"`
 	// CalibrationFiles records the dark and response attachments a version
 	// was computed with (set by the analysis service, not by users).
 	CalibrationFiles []int64 `json:"calibration_files,omitempty"`
@@ -94,6 +98,11 @@ func (st *AnalysisSettings) Validate() error {
 	if st.ResponseUnit != "" {
 		if _, err := diag.ParseIntensityUnit(st.ResponseUnit); err != nil {
 			return badRequest("response unit: %v", err)
+		}
+	}
+	if st.ResponseCorrectedUnit != "" {
+		if _, err := diag.ParseIntensityUnit(st.ResponseCorrectedUnit); err != nil {
+			return badRequest("response_corrected_unit: %v", err)
 		}
 	}
 	for n, id := range st.StarkRelations {
@@ -180,6 +189,13 @@ func (s *Server) analyzeAttachments(ctx context.Context, atts []store.Attachment
 			}
 			opt.Response, opt.ResponseUnit = r, unit
 		}
+	}
+	if st.ResponseCorrectedUnit != "" {
+		if opt.Response != nil {
+			return nil, badRequest("the spectra are declared response-corrected (response_corrected_unit %s) and the run has a response file too: remove one of them", st.ResponseCorrectedUnit)
+		}
+		opt.Calibrated = true
+		opt.CalibratedUnit, _ = diag.ParseIntensityUnit(st.ResponseCorrectedUnit)
 	}
 	p := pipelines.Get().(*spectrum.Pipeline)
 	defer pipelines.Put(p)

@@ -235,7 +235,8 @@ func applySettingFields(c echo.Context, st *AnalysisSettings) error {
 	for _, f := range []struct {
 		name string
 		p    *string
-	}{{"perturber", &st.Perturber}, {"isotope", &st.Isotope}, {"response_unit", &st.ResponseUnit}} {
+	}{{"perturber", &st.Perturber}, {"isotope", &st.Isotope}, {"response_unit", &st.ResponseUnit},
+		{"response_corrected_unit", &st.ResponseCorrectedUnit}} {
 		if v := strings.TrimSpace(c.FormValue(f.name)); v != "" {
 			*f.p = v
 		}

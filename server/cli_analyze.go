@@ -54,6 +54,8 @@ type analyzeConfig struct {
 	minSNR         float64
 	maxUpper       int
 	windows        bool
+	calibrated     string
+	progress       string
 	set            map[string]bool // flags given on the command line
 
 	// Loaded once for all files.
@@ -66,7 +68,7 @@ var conditionFlags = []string{"isotope", "instrument-fwhm-nm", "instrument-loren
 	"gas-temperature-K", "gas-temperature-unc-K", "solve-gas-temperature", "pressure-Pa", "perturber",
 	"ground-state-density-m3", "intensity-unit", "dark", "response", "lamp", "lamp-irradiance", "grey-body-K",
 	"saturation-counts", "gain-e-per-count", "read-noise-e", "correct-offset", "min-snr", "max-upper", "windows",
-	"x-unit", "vacuum-axis"}
+	"x-unit", "vacuum-axis", "calibrated"}
 
 func analyzeFlags(stderr io.Writer) (*flag.FlagSet, *analyzeConfig) {
 	c := &analyzeConfig{}
@@ -106,14 +108,16 @@ flags (spectra only):
 	fs.Float64Var(&c.minSNR, "min-snr", 0, fmt.Sprintf("detection threshold on peak SNR (default %v)", spectrum.DefaultMinSNR))
 	fs.IntVar(&c.maxUpper, "max-upper", 0, fmt.Sprintf("highest Balmer member searched (default %d)", spectrum.DefaultMaxUpper))
 	fs.BoolVar(&c.windows, "windows", false, "include each fitted window's data, model and residuals")
+	fs.StringVar(&c.calibrated, "calibrated", "", "the spectra are already response-corrected (calibrated irradiance or radiance, per nm), in photon or energy units")
+	fs.StringVar(&c.progress, "progress", "auto", "progress line on standard error for several files: auto (when it is a terminal), always or never")
 	return fs, c
 }
 
 // AnalyzeCommand runs "glowlog analyze" and returns the exit status.
 func AnalyzeCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 	fs, c := analyzeFlags(stderr)
-	if err := fs.Parse(args); err != nil {
-		return ExitInput
+	if err := ParseInterleaved(fs, args); err != nil {
+		return flagExit(err)
 	}
 	c.set = map[string]bool{}
 	fs.Visit(func(f *flag.Flag) { c.set[f.Name] = true })
@@ -123,6 +127,11 @@ func AnalyzeCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) in
 		return ExitInput
 	}
 	if err := c.load(); err != nil {
+		fmt.Fprintf(stderr, "glowlog analyze: %v\n", err)
+		return ExitInput
+	}
+	prog, err := newProgress(stderr, c.progress, len(files))
+	if err != nil {
 		fmt.Fprintf(stderr, "glowlog analyze: %v\n", err)
 		return ExitInput
 	}
@@ -154,6 +163,7 @@ func AnalyzeCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) in
 			p := spectrum.NewPipeline(8192)
 			for i := range jobs {
 				results[i], errs[i] = c.analyzeOne(p, files[i], stdinData)
+				prog.done()
 			}
 		}()
 	}
@@ -162,6 +172,7 @@ func AnalyzeCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) in
 	}
 	close(jobs)
 	wg.Wait()
+	prog.finish()
 
 	// Every file gets exactly one record, in the order given: its result,
 	// or an error record in its place. Exit status: 0 when every file was
@@ -451,6 +462,19 @@ func (c *analyzeConfig) load() error {
 	}
 	if c.set["intensity-unit"] && c.responseFile == "" && c.lampFile == "" {
 		return fmt.Errorf("--intensity-unit describes a response calibration: give --response or --lamp too")
+	}
+	if c.calibrated != "" {
+		u, err := diag.ParseIntensityUnit(c.calibrated)
+		if err != nil {
+			return fmt.Errorf("--calibrated: %v", err)
+		}
+		if c.responseFile != "" || c.lampFile != "" || c.set["intensity-unit"] {
+			return fmt.Errorf("--calibrated says the spectra are already response-corrected: give no --response, --lamp or --intensity-unit with it")
+		}
+		if c.gain > 0 {
+			return fmt.Errorf("--calibrated spectra are not detector counts: --gain-e-per-count does not apply")
+		}
+		o.Calibrated, o.CalibratedUnit = true, u
 	}
 	switch {
 	case c.responseFile != "" && c.lampFile != "":

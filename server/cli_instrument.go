@@ -37,8 +37,8 @@ func InstrumentCommand(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintln(stderr, "usage: glowlog instrument (--lamp-lines NAME | --lines FILE) [--out FILE] LAMP-SPECTRUM")
 		fs.PrintDefaults()
 	}
-	if err := fs.Parse(args); err != nil {
-		return ExitInput
+	if err := ParseInterleaved(fs, args); err != nil {
+		return flagExit(err)
 	}
 	if fs.NArg() != 1 {
 		fs.Usage()

@@ -43,8 +43,8 @@ func ServeCommand(args []string, stdout, stderr io.Writer) int {
 	fs.StringVar(&bk.Dir, "backup-dir", os.Getenv("GLOWLOG_BACKUP_DIR"), "write checked backups into DIR on a schedule (env GLOWLOG_BACKUP_DIR)")
 	fs.DurationVar(&bk.Every, "backup-every", 6*time.Hour, "interval of scheduled backups")
 	fs.IntVar(&bk.Keep, "backup-keep", 14, "how many scheduled backups to keep (the newest)")
-	if err := fs.Parse(args); err != nil {
-		return ExitInput
+	if err := ParseInterleaved(fs, args); err != nil {
+		return flagExit(err)
 	}
 	trusted, err := ParseTrustedProxies(proxies)
 	if err != nil {

@@ -12,23 +12,6 @@ import (
 	"glowlog/store"
 )
 
-// splitCommandArgs separates positional arguments from flags so that
-// "add NAME --role R" and "add --role R NAME" both work.
-func splitCommandArgs(fs *flag.FlagSet, args []string) ([]string, error) {
-	var pos []string
-	for len(args) > 0 {
-		if err := fs.Parse(args); err != nil {
-			return nil, err
-		}
-		args = fs.Args()
-		if len(args) > 0 {
-			pos = append(pos, args[0])
-			args = args[1:]
-		}
-	}
-	return pos, nil
-}
-
 // UserCommand runs "glowlog user add NAME --role ROLE [--db FILE]": it
 // creates an account whose password is the first line of stdin (at least
 // 10 characters). Exit 2 with one line on stderr for bad input.
@@ -43,7 +26,7 @@ func UserCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 	roleName := fs.String("role", "", "role: viewer, operator, reviewer or admin (required)")
 	pos, err := splitCommandArgs(fs, args[1:])
 	if err != nil {
-		return ExitInput
+		return flagExit(err)
 	}
 	if len(pos) != 1 {
 		fmt.Fprintln(stderr, "glowlog user add: give exactly one user NAME")
@@ -105,7 +88,7 @@ func TokenCommand(args []string, stdout, stderr io.Writer) int {
 	label := fs.String("label", "command line", "name of the token, shown on the account page")
 	pos, err := splitCommandArgs(fs, args[1:])
 	if err != nil {
-		return ExitInput
+		return flagExit(err)
 	}
 	if len(pos) != 1 {
 		fmt.Fprintln(stderr, "glowlog token create: give exactly one user NAME")

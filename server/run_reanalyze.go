@@ -81,7 +81,7 @@ func (s *Server) reanalyzeFormProps(c echo.Context, r store.Run, st AnalysisSett
 	}
 	p.Values = views.ReanalyzeValues{InstrumentFWHMNM: fmtZero(st.InstrumentFWHMNM), GasTemperatureK: fmtZero(st.GasTemperatureK),
 		GasTemperatureUncK: fmtZero(st.GasTemperatureUncK), SolveGasTemperature: st.SolveGasTemperature,
-		PressurePa: fmtZero(st.PressurePa), Perturber: pert, ResponseUnit: st.ResponseUnit,
+		PressurePa: fmtZero(st.PressurePa), Perturber: pert, ResponseUnit: st.ResponseUnit, ResponseCorrected: st.ResponseCorrectedUnit,
 		SaturationCounts: fmtZero(st.SaturationCounts), Gain: fmtZero(st.GainElectronsPerCount),
 		ReadNoise: fmtZero(st.ReadNoiseElectrons), CorrectOffset: st.CorrectOffset, MinSNR: fmtZero(st.MinSNR),
 		Exclude: strings.Join(ex, ", ")}
@@ -183,6 +183,7 @@ func bindReanalyze(c echo.Context, base AnalysisSettings) (AnalysisSettings, str
 	st.CorrectOffset = c.FormValue("correct_offset") != ""
 	st.Perturber = strings.TrimSpace(c.FormValue("perturber"))
 	st.ResponseUnit = strings.TrimSpace(c.FormValue("response_unit"))
+	st.ResponseCorrectedUnit = strings.TrimSpace(c.FormValue("response_corrected_unit"))
 	st.MaxUpper = 0
 	if v := strings.TrimSpace(c.FormValue("max_upper")); v != "" {
 		n, err := strconv.Atoi(v)

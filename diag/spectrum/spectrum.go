@@ -52,6 +52,16 @@ type Options struct {
 	// the corrected intensities.
 	Response     Response
 	ResponseUnit diag.IntensityUnit
+	// Calibrated says the spectrum's values are already corrected for the
+	// spectrometer's relative response (a calibrated irradiance or
+	// radiance export): spectral densities per nm in CalibratedUnit
+	// (photon: photons s⁻¹ … nm⁻¹; energy: W … nm⁻¹). They are taken as
+	// they are — not divided by the pixel width, no Response applied (both
+	// together are an error), no detector noise model (gain) — and the
+	// Boltzmann fit is done in CalibratedUnit without the uncalibrated
+	// flag.
+	Calibrated     bool
+	CalibratedUnit diag.IntensityUnit
 	// Instrument is a measured instrument function (nil: the constant
 	// widths in Conditions).
 	Instrument Instrument
@@ -272,6 +282,13 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 		opt.MaxUpper = diag.MaxLevel
 	}
 
+	if opt.Calibrated && opt.Response != nil {
+		return res, fail(src, "the spectrum is declared response-corrected and a response calibration is given too: give one or the other")
+	}
+	if opt.Calibrated && opt.GainElectronsPerCount > 0 {
+		return res, fail(src, "the spectrum is declared response-corrected: its values are not detector counts, so a detector gain does not apply")
+	}
+
 	// Preprocess into per-nm, dark-subtracted, calibrated arrays.
 	x := grow(&p.x, n)
 	y := grow(&p.y, n)
@@ -318,6 +335,9 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 			dx = (x[i+1] - x[i-1]) / 2
 		}
 		y[i] = c / dx
+		if opt.Calibrated {
+			y[i] = c // already a density per nm
+		}
 		if opt.GainElectronsPerCount > 0 {
 			raw := math.Max(sp.Counts[i], 0) * opt.GainElectronsPerCount
 			v := raw + opt.ReadNoiseElectrons*opt.ReadNoiseElectrons
@@ -425,10 +445,13 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 	// Measurement for the analysis.
 	m := opt.Conditions
 	m.Lines = nil
-	m.ResponseCorrected = opt.Response != nil
+	m.ResponseCorrected = opt.Response != nil || opt.Calibrated
 	m.Unit = diag.PhotonUnits
-	if opt.Response != nil {
+	switch {
+	case opt.Response != nil:
 		m.Unit = opt.ResponseUnit
+	case opt.Calibrated:
+		m.Unit = opt.CalibratedUnit
 	}
 	res.NoiseSigma = noise
 	if opt.Response != nil && len(cands) > 0 {
