@@ -120,14 +120,16 @@ type synthLine struct {
 	center, area, gauss, lorentz float64
 }
 
-// synthesize returns counts per pixel of Voigt lines (voigt.Profile) on a
-// flat baseline, with Gaussian noise of σ noisePerNM (per nm) from rng.
+// synthesize returns counts per pixel of Voigt lines (voigt.Profile
+// integrated over each pixel by PixelMeanVoigt) on a flat baseline, with
+// Gaussian noise of σ noisePerNM (per nm) from rng.
 func synthesize(x []float64, lines []synthLine, base, noisePerNM float64, rng *rand.Rand) []float64 {
 	y := make([]float64, len(x))
 	for i := range x {
 		v := base
 		for _, l := range lines {
-			v += l.area * voigt.Profile(x[i]-l.center, voigt.SigmaFromFWHM(l.gauss), voigt.GammaFromFWHM(l.lorentz))
+			lo, hi := pixelEdgesAt(x, i)
+			v += l.area * PixelMeanVoigt(lo-l.center, hi-l.center, voigt.SigmaFromFWHM(l.gauss), voigt.GammaFromFWHM(l.lorentz))
 		}
 		if rng != nil {
 			v += noisePerNM * rng.NormFloat64()
