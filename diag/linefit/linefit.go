@@ -191,7 +191,7 @@ type Fitter struct {
 	pxLo, pxW []float64 // lower edge and width of each point's pixel
 	um, uq    []float64 // pixel means of u and u² (baseline basis)
 	order     []int     // scratch for pixelEdges
-	nodes     []int     // per line: Gauss–Legendre nodes, never lowered within a fit
+	nodes     []int     // per line: Gauss–Legendre nodes of the last evaluation
 	pixMax    float64   // widest pixel of the window
 }
 
@@ -576,13 +576,11 @@ func (f *Fitter) eval(p *Problem, t, model, jac []float64) float64 {
 		}
 		shared := f.psg >= 0
 		aG := a / voigt.FWHMPerSigma
-		// Nodes per pixel for this line (never fewer than earlier in this
-		// fit, so that the model does not jump back and forth).
-		nq := f.nodes[k]
+		// Nodes per pixel for this line; a change of tier changes the
+		// model by less than intTol of the peak.
+		nq := 1
 		if f.pixMax > 0 {
-			nq = max(nq, nodesFor(voigt.OliveroFWHM(fg, fl)/f.pixMax))
-		} else {
-			nq = 1
+			nq = nodesFor(voigt.OliveroFWHM(fg, fl) / f.pixMax)
 		}
 		f.nodes[k] = nq
 		reach := coreReach(sigma, gamma, f.pixMax)

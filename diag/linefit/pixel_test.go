@@ -46,7 +46,7 @@ func refPixelMeans(x []float64, c, area, fg, fl float64) []float64 {
 
 // TestPixelSchemeAccuracy measures the worst quadrature error of the fit
 // model (node tiers of nodesFor, one node beyond coreReach, the switch to
-// plain centre sampling at 60 pixels included) against a 48-node reference,
+// plain centre sampling at 35 pixels included) against a 48-node reference,
 // relative to the line's peak A·V(0), over Gaussian to Lorentzian shapes,
 // FWHM from 0.7 to 130 pixels and sub-pixel line positions. It must stay
 // below the design bound intTol at every switch-over.
@@ -136,7 +136,7 @@ func TestNarrowLinePixelBias(t *testing.T) {
 			}
 			nw, old := fit(false), fit(true)
 			for _, q := range []struct {
-				what             string
+				what            string
 				got, err, truth float64
 			}{
 				{"area", nw.Area, nw.AreaErr, area},
