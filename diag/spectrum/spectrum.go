@@ -525,6 +525,7 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 	if res.Partial {
 		res.Flags = append(res.Flags, diag.Flag{Code: FlagPartialResult, Message: "partial result: " + joinReasons(res.PartialReasons)})
 	}
+	diag.SetSeverities(res.Flags)
 	res.Warnings = res.Warnings[:0]
 	for _, f := range res.Flags {
 		res.Warnings = append(res.Warnings, f.Message)

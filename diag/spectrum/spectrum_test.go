@@ -532,6 +532,11 @@ func TestUndersampledFlag(t *testing.T) {
 		}
 		fw := searchFor(res.LineSearch, 4).FWHMPixels
 		flagged := hasFlagFor(res.Flags, FlagUndersampled, "Hβ")
+		for _, f := range res.Flags {
+			if f.Code == FlagUndersampled && f.Severity != diag.SeverityCaution {
+				t.Errorf("undersampled flag severity %q, want caution", f.Severity)
+			}
+		}
 		if flagged != tc.want || (fw < MinFWHMPixels) != tc.want {
 			t.Errorf("%d px: FWHM %.2f px, flagged %v, want %v", tc.npx, fw, flagged, tc.want)
 		}
