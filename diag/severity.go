@@ -24,7 +24,7 @@ var flagSeverity = map[string]Severity{
 	FlagTooFewLines:      SeverityCaution, // no T_exc from this run
 	FlagSlopeNotNegative: SeverityProblem, // no physical temperature
 	FlagSlopeFlat:        SeverityProblem, // no temperature from the slope
-	FlagLowSensitivity:   SeverityCaution, // short energy lever: wide T_exc
+	FlagLowSensitivity:   SeverityNote,    // Balmer levels span ~1 eV: always a short lever
 	FlagWideUncertainty:  SeverityCaution,
 	FlagSelfAbsorption:   SeverityProblem, // Hα low: self-absorption suspected
 	FlagPartialLTE:       SeverityCaution, // a level off the line
