@@ -233,6 +233,9 @@ func NewFitter(maxPoints, maxLines int) *Fitter {
 	return f
 }
 
+// sqrt2 is √2.
+const sqrt2 = math.Sqrt2
+
 // Convergence and damping constants.
 const (
 	ftol   = 1e-10 // relative reduction of χ² (actual and predicted)
@@ -589,9 +592,17 @@ func (f *Fitter) eval(p *Problem, t, model, jac []float64) float64 {
 			half := 0.5 * f.pxW[i]
 			d := f.pxLo[i] + half - c
 			var v, dx, ds, dgm float64
-			if nq == 1 || math.Abs(d) > reach+half {
+			switch {
+			case nq == 1 || math.Abs(d) > reach+half:
 				v, dx, ds, dgm = voigt.ProfileDeriv(d, sigma, gamma)
-			} else {
+			case nq == 2 && math.Abs(d)+half+gamma < 50*sqrt2*sigma:
+				// Wide enough for the midpoint Taylor mean (one
+				// Faddeeva evaluation, the accuracy of two nodes);
+				// |z| < 50 keeps the recurrences for w″ and w‴ free
+				// of cancellation (near-Lorentzian shapes use the
+				// nodes).
+				v, dx, ds, dgm = taylorMean(d, half, sigma, gamma)
+			default:
 				for j, tj := range rule.t {
 					vj, dxj, dsj, dgj := voigt.ProfileDeriv(d+half*tj, sigma, gamma)
 					wj := rule.w[j]

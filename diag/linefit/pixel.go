@@ -4,6 +4,8 @@ import (
 	"cmp"
 	"math"
 	"slices"
+
+	"glowlog/diag/voigt"
 )
 
 // Pixel integration.
@@ -170,4 +172,40 @@ func pixelEdges(x, lo, wd []float64, order []int) float64 {
 		wmax = max(wmax, h-l)
 	}
 	return wmax
+}
+
+// taylorMean returns the mean of the Voigt profile V(·; σ, γ) over
+// [x − h, x + h] by its Taylor expansion about the midpoint,
+//
+//	⟨V⟩ ≈ V(x) + (h²/6) V″(x),
+//
+// (remainder h⁴V⁗/120, the size of the 2-node Gauss–Legendre error
+// h⁴V⁗/135) together with its derivatives with respect to x, σ and γ,
+// from one Faddeeva evaluation. With s = σ√2, c = 1/(σ√(2π)) and
+// z = (x + iγ)/s, the x-derivatives are V⁽ⁿ⁾ = c Re w⁽ⁿ⁾(z)/sⁿ, with
+// w′ = −2zw + 2i/√π, w″ = −2w − 2zw′ and w‴ = −4w′ − 2zw″ (Abramowitz &
+// Stegun 7.1.20); ∂V″/∂γ = −c Im w‴/s³ and
+// ∂V″/∂σ = −(3V″ + c Re(z w‴)/s²)/σ. σ must be positive.
+func taylorMean(x, h, sigma, gamma float64) (v, dx, dsigma, dgamma float64) {
+	s := sigma * math.Sqrt2
+	is := 1 / s
+	z := complex(x*is, gamma*is)
+	w := voigt.Faddeeva(z)
+	w1 := -2*z*w + complex(0, 2/math.SqrtPi)
+	w2 := -2*w - 2*z*w1
+	w3 := -4*w1 - 2*z*w2
+	c := 1 / (sigma * math.Sqrt(2*math.Pi))
+	k := h * h / 6
+	is2 := is * is
+	v0 := c * real(w)
+	v2 := c * real(w2) * is2
+	v = v0 + k*v2
+	// First derivatives of V (as voigt.ProfileDeriv) and of V″.
+	d0x := c * real(w1) * is
+	d0g := -c * imag(w1) * is
+	d0s := -c / sigma * (real(w) + real(z*w1))
+	d2x := c * real(w3) * is2 * is
+	d2g := -c * imag(w3) * is2 * is
+	d2s := -(3*v2 + c*real(z*w3)*is2) / sigma
+	return v, d0x + k*d2x, d0s + k*d2s, d0g + k*d2g
 }

@@ -166,3 +166,23 @@ func TestNarrowLinePixelBias(t *testing.T) {
 		})
 	}
 }
+
+// TestTaylorMeanDerivs: the derivatives of taylorMean match central
+// finite differences, and its value the 48-node pixel mean for a wide line.
+func TestTaylorMeanDerivs(t *testing.T) {
+	for _, c := range [][4]float64{{0.3, 0.5, 1.0, 0.4}, {-2.1, 0.5, 0.7, 1.3}, {5, 0.5, 2, 0.01}, {0, 0.5, 3, 2}} {
+		x, h, s, g := c[0], c[1], c[2], c[3]
+		_, dx, ds, dg := taylorMean(x, h, s, g)
+		const e = 1e-6
+		num := func(f func(d float64) float64) float64 { return (f(e) - f(-e)) / (2 * e) }
+		vx := num(func(d float64) float64 { v, _, _, _ := taylorMean(x+d, h, s, g); return v })
+		vs := num(func(d float64) float64 { v, _, _, _ := taylorMean(x, h, s+d, g); return v })
+		vg := num(func(d float64) float64 { v, _, _, _ := taylorMean(x, h, s, g+d); return v })
+		peak := voigt.Profile(0, s, g)
+		for _, q := range [][3]float64{{dx, vx, 0}, {ds, vs, 1}, {dg, vg, 2}} {
+			if math.Abs(q[0]-q[1]) > 1e-7*peak/s {
+				t.Errorf("%v: derivative %v = %.10g, finite difference %.10g", c, q[2], q[0], q[1])
+			}
+		}
+	}
+}
