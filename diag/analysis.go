@@ -169,7 +169,9 @@ const (
 	FlagRelationRange    = "stark_relation_range"
 	FlagDensityDisagree  = "density_lines_disagree"
 	FlagUnverified       = "coefficients_unverified"
-	FlagLTE              = "lte_validity"
+	// FlagLTE is the single LTE code of results stored before the LTE
+	// warnings got one code each (validity.go); it is no longer emitted.
+	FlagLTE = "lte_validity"
 )
 
 // MinGasTemperatureK is the lowest gas temperature Analyze accepts: below
@@ -243,8 +245,7 @@ func Analyze(m Measurement) (Result, error) {
 		}
 	}
 	if len(pts) > 0 && !m.ResponseCorrected {
-		res.Flags = append(res.Flags, Flag{FlagUncalibrated,
-			"the intensities are not corrected for the spectrometer's relative spectral response: a Boltzmann plot on raw counts is meaningless (the response varies by factors of 2–10 between 380 and 660 nm)"})
+		res.Flags = append(res.Flags, Flag{Code: FlagUncalibrated, Message: "the intensities are not corrected for the spectrometer's relative spectral response: a Boltzmann plot on raw counts is meaningless (the response varies by factors of 2–10 between 380 and 660 nm)"})
 	}
 
 	// Gas temperature.
@@ -289,8 +290,7 @@ func Analyze(m Measurement) (Result, error) {
 		lr.InBoltzmann = in.line.Intensity > 0 && !in.line.ExcludeFromBoltzmann && bz.N > 0
 		if in.line.FWHMNM > 0 || in.line.LorentzFWHMNM > 0 {
 			if gasT <= 0 && !anyFlag(res.Flags, FlagNoGasTemperature) {
-				res.Flags = append(res.Flags, Flag{FlagNoGasTemperature,
-					"no gas temperature was given: Doppler and van der Waals widths are left out of the budget, so the Stark widths and densities are upper limits"})
+				res.Flags = append(res.Flags, Flag{Code: FlagNoGasTemperature, Message: "no gas temperature was given: Doppler and van der Waals widths are left out of the budget, so the Stark widths and densities are upper limits"})
 			}
 			if err := analyzeWidth(&lr, in, m, pert, gasT, gasTUnc); err != nil {
 				return res, &LineError{i, in.line.Upper, err}
@@ -310,7 +310,7 @@ func Analyze(m Measurement) (Result, error) {
 		res.Relations = append(res.Relations, RelationSummary{r.ID, r.Upper, r.Kind.String(), r.Citation,
 			r.MinNeM3, r.MaxNeM3, r.Verified, r.Provenance})
 		if !r.Verified {
-			res.Flags = append(res.Flags, Flag{FlagUnverified, fmt.Sprintf(
+			res.Flags = append(res.Flags, Flag{Code: FlagUnverified, Message: fmt.Sprintf(
 				"the coefficients of Stark relation %s are from memory and not yet checked against the publication: treat the densities as provisional", r.ID)})
 		}
 	}
@@ -322,7 +322,7 @@ func Analyze(m Measurement) (Result, error) {
 		}
 	}
 	if len(noRel) > 0 {
-		res.Flags = append(res.Flags, Flag{FlagNoRelation, fmt.Sprintf(
+		res.Flags = append(res.Flags, Flag{Code: FlagNoRelation, Message: fmt.Sprintf(
 			"%s: no Stark-width relation is implemented for these lines (only Hα and Hβ), so their widths give no density", strings.Join(noRel, ", "))})
 	}
 	for _, n := range densityPreference {
@@ -354,6 +354,7 @@ func Analyze(m Measurement) (Result, error) {
 	res.Validity = validitySummary(res, m)
 	res.Flags = append(res.Flags, res.Validity.Flags...)
 
+	SetSeverities(res.Flags)
 	for _, f := range res.Flags {
 		res.Warnings = append(res.Warnings, f.Message)
 	}
@@ -415,7 +416,7 @@ type lineWidthInput struct {
 func (lr *LineResult) note(code, format string, args ...any) {
 	msg := fmt.Sprintf(format, args...)
 	lr.Notes = append(lr.Notes, msg)
-	lr.flags = append(lr.flags, Flag{code, lr.Name + ": " + msg})
+	lr.flags = append(lr.flags, Flag{Code: code, Message: lr.Name + ": " + msg})
 }
 
 func ptr(v float64) *float64 { return &v }

@@ -54,8 +54,8 @@ func validitySummary(res Result, m Measurement) ValiditySummary {
 	if v.FailedLevels == nil {
 		v.FailedLevels = []int{}
 	}
-	for _, w := range a.Warnings {
-		v.Flags = append(v.Flags, Flag{FlagLTE, w})
+	for i, w := range a.Warnings {
+		v.Flags = append(v.Flags, Flag{Code: a.Codes[i], Message: w})
 	}
 	return v
 }

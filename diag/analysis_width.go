@@ -201,7 +201,7 @@ func densityConsistency(lines []LineResult) []Flag {
 			d := math.Abs(*a.ElectronDensityM3 - *b.ElectronDensityM3)
 			if a.ElectronDensityUncM3 == nil || b.ElectronDensityUncM3 == nil {
 				if mean := (*a.ElectronDensityM3 + *b.ElectronDensityM3) / 2; d > unknownSpreadLimit*mean {
-					out = append(out, Flag{FlagDensityDisagree, fmt.Sprintf(
+					out = append(out, Flag{Code: FlagDensityDisagree, Message: fmt.Sprintf(
 						"%s and %s give electron densities %s and %s m⁻³, %.0f %% apart (no width uncertainties were given to judge the difference): check the instrument width, the gas temperature and self-absorption; the Hβ value is preferred",
 						a.Name, b.Name, sci(*a.ElectronDensityM3, 3), sci(*b.ElectronDensityM3, 3), 100*d/mean)})
 				}
@@ -210,7 +210,7 @@ func densityConsistency(lines []LineResult) []Flag {
 			s := math.Hypot(math.Hypot(*a.ElectronDensityUncM3, relationSystematic**a.ElectronDensityM3),
 				math.Hypot(*b.ElectronDensityUncM3, relationSystematic**b.ElectronDensityM3))
 			if d > 2*s {
-				out = append(out, Flag{FlagDensityDisagree, fmt.Sprintf(
+				out = append(out, Flag{Code: FlagDensityDisagree, Message: fmt.Sprintf(
 					"%s and %s give electron densities %s and %s m⁻³, which differ by more than twice their combined uncertainty (statistical, plus 5 %% per relation): check the instrument width, the gas temperature and self-absorption; the Hβ value is preferred",
 					a.Name, b.Name, sci(*a.ElectronDensityM3, 3), sci(*b.ElectronDensityM3, 3))})
 			}

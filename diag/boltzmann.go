@@ -108,11 +108,13 @@ const (
 	maxRelIntensityUnc = 1e12
 )
 
-// Flag is a structured warning: a stable machine code and a plain-language
-// message.
+// Flag is a structured warning: a stable machine code, a plain-language
+// message and a severity (problem, caution or note) set from the one
+// table in severity.go when the result is finalised.
 type Flag struct {
-	Code    string `json:"code"`
-	Message string `json:"message"`
+	Code     string   `json:"code"`
+	Message  string   `json:"message"`
+	Severity Severity `json:"severity"`
 }
 
 // Flag codes of the Boltzmann fit.
@@ -276,8 +278,7 @@ func FitBoltzmann(pts []BoltzmannPoint, opt BoltzmannOptions) (BoltzmannResult, 
 		res.EnergySpreadEV = hi - lo
 	}
 	if res.N < 2 || res.EnergySpreadEV == 0 {
-		res.Flags = append(res.Flags, Flag{FlagTooFewLines,
-			fmt.Sprintf("only %d line(s) with distinct upper levels in the Boltzmann plot: at least two are needed, so no excitation temperature is given", res.N)})
+		res.Flags = append(res.Flags, Flag{Code: FlagTooFewLines, Message: fmt.Sprintf("only %d line(s) with distinct upper levels in the Boltzmann plot: at least two are needed, so no excitation temperature is given", res.N)})
 		return res, nil
 	}
 	line := fitLine(x, y, w)
@@ -290,12 +291,10 @@ func FitBoltzmann(pts []BoltzmannPoint, opt BoltzmannOptions) (BoltzmannResult, 
 	case !haveUnc && dof > 0:
 		scale = math.Sqrt(line.chi2 / float64(dof))
 		res.UncBasis = "chi2-scaled"
-		res.Flags = append(res.Flags, Flag{FlagNoIntensityUnc,
-			"no intensity uncertainties were given: the temperature uncertainty is estimated from the scatter of the points about the line"})
+		res.Flags = append(res.Flags, Flag{Code: FlagNoIntensityUnc, Message: "no intensity uncertainties were given: the temperature uncertainty is estimated from the scatter of the points about the line"})
 	case !haveUnc:
 		res.UncBasis = "none"
-		res.Flags = append(res.Flags, Flag{FlagNoIntensityUnc,
-			"no intensity uncertainties were given and two points leave no scatter to estimate one: the temperature has no uncertainty"})
+		res.Flags = append(res.Flags, Flag{Code: FlagNoIntensityUnc, Message: "no intensity uncertainties were given and two points leave no scatter to estimate one: the temperature has no uncertainty"})
 	default:
 		res.UncBasis = "covariance"
 	}
@@ -306,7 +305,7 @@ func FitBoltzmann(pts []BoltzmannPoint, opt BoltzmannOptions) (BoltzmannResult, 
 			if line.chi2 > limit {
 				scale = math.Sqrt(res.ReducedChi2)
 				res.UncBasis = "chi2-scaled"
-				res.Flags = append(res.Flags, Flag{FlagScaledUnc, fmt.Sprintf(
+				res.Flags = append(res.Flags, Flag{Code: FlagScaledUnc, Message: fmt.Sprintf(
 					"the points scatter more than their stated uncertainties allow (reduced χ² = %.2g with %d degrees of freedom): the uncertainty is scaled by √χ²ᵣ = %.2g", res.ReducedChi2, dof, scale)})
 			}
 		}
@@ -326,7 +325,7 @@ func FitBoltzmann(pts []BoltzmannPoint, opt BoltzmannOptions) (BoltzmannResult, 
 		}
 	}
 	if res.Slope >= 0 {
-		res.Flags = append(res.Flags, Flag{FlagSlopeNotNegative, fmt.Sprintf(
+		res.Flags = append(res.Flags, Flag{Code: FlagSlopeNotNegative, Message: fmt.Sprintf(
 			"the Boltzmann slope is %+.3g eV⁻¹ (not negative): the upper levels are not Boltzmann-distributed and no excitation temperature is given", res.Slope)})
 		return res, nil
 	}
@@ -346,7 +345,7 @@ func FitBoltzmann(pts []BoltzmannPoint, opt BoltzmannOptions) (BoltzmannResult, 
 	if !finite(t) || !finite(uncK) || !finite(covK) || !finite(scaledK) {
 		// A slope this close to zero is a flat plot: the temperature (or
 		// its uncertainty) is beyond any float, and beyond physics.
-		res.Flags = append(res.Flags, Flag{FlagSlopeFlat, fmt.Sprintf(
+		res.Flags = append(res.Flags, Flag{Code: FlagSlopeFlat, Message: fmt.Sprintf(
 			"the Boltzmann slope is %.3g ± %.3g eV⁻¹, indistinguishable from a flat plot: the excitation temperature is unbounded and none is given", res.Slope, res.SlopeUnc)})
 		return res, nil
 	}
@@ -365,11 +364,11 @@ func sensitivityFlags(res BoltzmannResult) []Flag {
 	// lines (physics.md §2, pitfall 1).
 	if ratio := res.EnergySpreadEV / kT; ratio < 3 {
 		dT := res.TemperatureK * kT / res.EnergySpreadEV * 0.10
-		out = append(out, Flag{FlagLowSensitivity, fmt.Sprintf(
+		out = append(out, Flag{Code: FlagLowSensitivity, Message: fmt.Sprintf(
 			"the upper levels span only ΔE = %.3g eV = %.2g k_BT: a 10 %% relative intensity error between the extreme lines (e.g. a calibration tilt) moves the excitation temperature by about %s K", res.EnergySpreadEV, ratio, sci(dT, 2))})
 	}
 	if res.TemperatureUncK > 0.2*res.TemperatureK {
-		out = append(out, Flag{FlagWideUncertainty, fmt.Sprintf(
+		out = append(out, Flag{Code: FlagWideUncertainty, Message: fmt.Sprintf(
 			"the excitation temperature is uncertain by more than 20 %% (%s ± %s K): quote at most two significant figures", sci(res.TemperatureK, 2), sci(res.TemperatureUncK, 2))})
 	}
 	return out
@@ -441,11 +440,11 @@ func offLineFlags(pts []BoltzmannPoint, full BoltzmannResult, opt BoltzmannOptio
 		name := map[int]string{3: "Hα", 4: "Hβ"}[target]
 		pct := (math.Exp(dev) - 1) * 100
 		if target == 3 && dev < 0 {
-			out = append(out, Flag{FlagSelfAbsorption, fmt.Sprintf(
+			out = append(out, Flag{Code: FlagSelfAbsorption, Message: fmt.Sprintf(
 				"%s lies %s %% below the line through the other points (%.1fσ): suspect self-absorption of %s (n = 2 is strongly populated in many discharges), or n = 3 out of partial LTE; consider excluding it", name, sci(-pct, 2), -dev/sigma, name)})
 			continue
 		}
-		out = append(out, Flag{FlagPartialLTE, fmt.Sprintf(
+		out = append(out, Flag{Code: FlagPartialLTE, Message: fmt.Sprintf(
 			"the n = %d point (%s) lies %s %% %s the line through the other points (%.1fσ): level n = %d may be over- or under-populated relative to the higher levels (not in partial LTE); consider excluding it", target, name, sci(math.Abs(pct), 2), aboveBelow(dev), math.Abs(dev)/sigma, target)})
 	}
 	return out

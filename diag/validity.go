@@ -111,6 +111,26 @@ type LTEAssessment struct {
 	Checked bool
 	// Warnings are plain-language messages for the user.
 	Warnings []string
+	// Codes holds the flag code of each warning (same length).
+	Codes []string
+}
+
+// Flag codes of the LTE checks (one per kind of warning, so that each has
+// its own severity).
+const (
+	// FlagLTENotChecked: no n_e or no T_exc, the criteria were not checked.
+	FlagLTENotChecked = "lte_not_checked"
+	// FlagLTEComplete: the McWhirter criterion for complete LTE fails.
+	FlagLTEComplete = "lte_complete_not_met"
+	// FlagLTEPartial: Griem's partial-LTE criterion fails for fitted levels.
+	FlagLTEPartial = "lte_partial_not_met"
+	// FlagLTEDensitySameSource: n_e comes from the same spectrum.
+	FlagLTEDensitySameSource = "lte_density_same_spectrum"
+)
+
+func (a *LTEAssessment) warn(code, msg string) {
+	a.Warnings = append(a.Warnings, msg)
+	a.Codes = append(a.Codes, code)
 }
 
 // AssessLTE checks the McWhirter (complete LTE) and Griem (partial LTE)
@@ -131,7 +151,7 @@ func AssessLTE(c LTECheck) LTEAssessment {
 	levels := append([]int(nil), c.Levels...)
 	sort.Ints(levels)
 	if !(c.ExcitationTempK > 0) || !(c.ElectronDensityM3 > 0) {
-		a.Warnings = append(a.Warnings, "No electron density or excitation temperature is available, so the LTE criteria could not be checked. "+
+		a.warn(FlagLTENotChecked, "No electron density or excitation temperature is available, so the LTE criteria could not be checked. "+
 			"Treat the Boltzmann slope as an excitation temperature of the Balmer upper levels.")
 		return a
 	}
@@ -141,7 +161,7 @@ func AssessLTE(c LTECheck) LTEAssessment {
 	a.McWhirterMinM3 = McWhirterMinDensityM3(T, gap)
 	a.CompleteLTE = ne >= a.McWhirterMinM3
 	if !a.CompleteLTE {
-		a.Warnings = append(a.Warnings, fmt.Sprintf(
+		a.warn(FlagLTEComplete, fmt.Sprintf(
 			"Complete LTE is not satisfied (n_e = %s m⁻³ < required %s m⁻³ by the McWhirter criterion at T_exc = %.0f K, ΔE = %.3f eV). "+
 				"The Boltzmann slope is an excitation temperature of the Balmer upper levels, not T_e. "+
 				"It is valid only if those levels are in partial LTE.",
@@ -170,14 +190,14 @@ func AssessLTE(c LTECheck) LTEAssessment {
 			lv, it = "Levels", "them"
 		}
 		list := strings.Join(names, ", ")
-		a.Warnings = append(a.Warnings, fmt.Sprintf(
+		a.warn(FlagLTEPartial, fmt.Sprintf(
 			"Griem's partial-LTE criterion fails for n = %s (needs n_e ≥ %s m⁻³). "+
 				"%s n = %s may be depopulated or overpopulated relative to Saha–Boltzmann (ionising or recombining plasma). "+
 				"Consider excluding %s from the fit, or use a collisional–radiative model.",
 			list, sci(worst, 3), lv, list, it))
 	}
 	if c.DensityFromSameSpectrum {
-		a.Warnings = append(a.Warnings,
+		a.warn(FlagLTEDensitySameSource,
 			"n_e was derived from the Stark width in this same spectrum. An inflated n_e (for example from an unremoved instrument width) "+
 				"makes these LTE checks easier to pass.")
 	}

@@ -405,7 +405,9 @@ func toNewAnalysis(st AnalysisSettings, results []RunAnalysis, userID *int64, re
 		if d.GasTemperatureSource != "two-line" {
 			r.TgasK = nil // only a solved gas temperature is a result
 		}
-		r.NWarnings = distinctFlagCodes(d.Flags)
+		var worst diag.Severity
+		r.NWarnings, worst = diag.CountWarnings(d.Flags)
+		r.WarnWorst = string(worst)
 		na.Results = append(na.Results, r)
 	}
 	return na, nil
@@ -713,14 +715,4 @@ func (s *Server) content(ctx context.Context, a store.Attachment) ([]byte, error
 // specRead is used by the forms to check an upload before storing it.
 func specRead(name string, data []byte) (*specfile.Spectrum, error) {
 	return specfile.Read(name, bytes.NewReader(data), specfile.Options{})
-}
-
-// distinctFlagCodes counts the kinds of warning of a result (a warning
-// repeated for several lines or relations counts once).
-func distinctFlagCodes(fs []diag.Flag) int {
-	seen := map[string]bool{}
-	for _, f := range fs {
-		seen[f.Code] = true
-	}
-	return len(seen)
 }

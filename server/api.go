@@ -420,6 +420,7 @@ type apiSummary struct {
 	ElectronDensityUncM3      *float64 `json:"electron_density_unc_m3"`
 	GasTemperatureK           *float64 `json:"gas_temperature_K"`
 	NWarnings                 int      `json:"n_warnings"`
+	WarningsWorst             string   `json:"warnings_worst"`
 	AnalysisVersion           int      `json:"analysis_version"`
 }
 
@@ -486,6 +487,7 @@ type apiResultEntry struct {
 	ElectronDensityM3         *float64        `json:"electron_density_m3"`
 	ElectronDensityUncM3      *float64        `json:"electron_density_unc_m3"`
 	NWarnings                 int             `json:"n_warnings"`
+	WarningsWorst             string          `json:"warnings_worst"`
 	Result                    json.RawMessage `json:"result,omitempty"`
 }
 
@@ -496,7 +498,7 @@ func toAPIRun(r store.Run) apiRun {
 		InstrumentFWHMNM: r.InstrumentFWHMNM, GasTemperatureK: r.GasTemperatureK, Perturber: r.Perturber, Notes: r.Notes,
 		Status: r.Status, SignedOffAt: r.SignedOffAt, ApprovedVersion: r.ApprovedVersion, Tags: r.Tags, CreatedAt: r.CreatedAt, UpdatedAt: r.UpdatedAt,
 		Summary: apiSummary{ExcitationTemperatureK: r.TexcK, ExcitationTemperatureUncK: r.TexcUncK, ElectronDensityM3: r.NeM3,
-			ElectronDensityUncM3: r.NeUncM3, GasTemperatureK: r.TgasK, NWarnings: r.NWarnings, AnalysisVersion: r.AnalysisVersion}}
+			ElectronDensityUncM3: r.NeUncM3, GasTemperatureK: r.TgasK, NWarnings: r.NWarnings, WarningsWorst: r.WarnWorst, AnalysisVersion: r.AnalysisVersion}}
 }
 
 // apiGetRun returns a run with its attachments and latest analysis; the
@@ -531,7 +533,7 @@ func (s *Server) apiGetRun(c echo.Context) error {
 		for _, res := range a.Results {
 			e := apiResultEntry{AttachmentID: res.AttachmentID, Attachment: res.AttachmentName, Error: res.Error,
 				ExcitationTemperatureK: res.TexcK, ExcitationTemperatureUncK: res.TexcUncK, ElectronDensityM3: res.NeM3,
-				ElectronDensityUncM3: res.NeUncM3, NWarnings: res.NWarnings}
+				ElectronDensityUncM3: res.NeUncM3, NWarnings: res.NWarnings, WarningsWorst: res.WarnWorst}
 			if full && res.Result != "" {
 				e.Result = json.RawMessage(res.Result)
 			}

@@ -50,7 +50,7 @@ type demoChamber struct {
 var demoChambers = []demoChamber{
 	{name: "Jet line J1", recipe: "J1 argon/hydrogen jet", recipeDesc: "Ar + 1 % H2, 2 slm, pin electrode",
 		source: "plasma_jet", gas: "Ar + 1 % H2", flows: "Ar 2.0 slm, H2 20 sccm", perturber: "Ar",
-		pressurePa: 101325, powerW: [2]float64{25, 35}, gapMM: 1.0, instFWHM: [2]float64{0.05, 0.08},
+		pressurePa: 101325, powerW: [2]float64{25, 35}, gapMM: 1.0, instFWHM: [2]float64{0.2, 0.25},
 		gasT: 1500, texc: 6500, uppers: []int{3, 4, 5, 6}, weight: 0.4,
 		// The pin electrode erodes: n_e falls by 40 % over 120 days and
 		// comes back when the electrode is replaced.
@@ -63,12 +63,12 @@ var demoChambers = []demoChamber{
 		}},
 	{name: "Torch line T1", recipe: "T1 microwave torch", recipeDesc: "2.45 GHz surface-wave torch, Ar + 3 % H2",
 		source: "microwave", gas: "Ar + 3 % H2", flows: "Ar 5 slm, H2 150 sccm", perturber: "Ar",
-		pressurePa: 101325, powerW: [2]float64{800, 1500}, instFWHM: [2]float64{0.1, 0.2},
+		pressurePa: 101325, powerW: [2]float64{800, 1500}, instFWHM: [2]float64{0.2, 0.3},
 		gasT: 2500, texc: 7500, uppers: []int{3, 4, 5, 6, 7}, weight: 0.25,
 		ne: func(_, power float64) float64 { return 3e21 * math.Pow(power/1000, 0.6) }},
 	{name: "Glow tube G3", recipe: "G3 hydrogen glow", recipeDesc: "DC glow, H2 + 10 % Ar, hollow cathode",
 		source: "dc_glow", gas: "H2 + 10 % Ar", flows: "H2 45 sccm, Ar 5 sccm", perturber: "H2",
-		pressurePa: 600, powerW: [2]float64{40, 90}, gapMM: 30, instFWHM: [2]float64{0.03, 0.05},
+		pressurePa: 600, powerW: [2]float64{40, 90}, gapMM: 30, instFWHM: [2]float64{0.2, 0.25},
 		gasT: 500, texc: 4000, uppers: []int{3, 4, 5, 6, 7, 8}, weight: 0.2,
 		ne: func(_, power float64) float64 { return 1.5e20 * power / 60 }},
 	{name: "DBD cell D1", recipe: "D1 helium barrier", recipeDesc: "Helium dielectric barrier, 20 kHz, 1 mm gap",
@@ -180,7 +180,10 @@ func SeedDemo(ctx context.Context, s *Server, adminID int64, opt DemoOptions) er
 		times[i] = start.AddDate(0, 0, day).Add(time.Duration(8*60+rng.IntN(9*60)) * time.Minute)
 	}
 	sort.Slice(times, func(i, j int) bool { return times[i].Before(times[j]) })
-	grid := make([]float64, 2048)
+	// One survey spectrometer: 4096 pixels over 380–700 nm (0.078 nm per
+	// pixel), so that every chamber's instrument FWHM (0.2 nm or more)
+	// spans at least 2.5 pixels and the lines are not undersampled.
+	grid := make([]float64, 4096)
 	for i := range grid {
 		grid[i] = 380 + 320*float64(i)/float64(len(grid)-1)
 	}

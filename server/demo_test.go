@@ -41,8 +41,13 @@ func TestSeedDemo(t *testing.T) {
 		t.Fatalf("%d runs, want 40", total)
 	}
 	status := map[string]int{}
+	warnings := 0
 	for _, r := range runs {
 		status[r.Status]++
+		warnings += r.NWarnings
+		if (r.NWarnings > 0) != (r.WarnWorst != "") {
+			t.Errorf("run %d: %d warnings but worst severity %q", r.ID, r.NWarnings, r.WarnWorst)
+		}
 		if r.AnalysisVersion != 1 {
 			t.Errorf("run %d: analysis version %d", r.ID, r.AnalysisVersion)
 		}
@@ -52,6 +57,11 @@ func TestSeedDemo(t *testing.T) {
 		if r.StartedAt.After(end) || r.StartedAt.Before(end.AddDate(0, 0, -demoDays-1)) {
 			t.Errorf("run %d starts %v, outside the scenario", r.ID, r.StartedAt)
 		}
+	}
+	// Routine method caveats are notes, not warnings: the demo's runs
+	// average fewer than one problem or caution each.
+	if avg := float64(warnings) / float64(len(runs)); avg >= 1 {
+		t.Errorf("demo runs average %.2f problems and cautions, want < 1", avg)
 	}
 	if status["signed_off"] == 0 || status["draft"] == 0 {
 		t.Errorf("review states %v: want signed-off and draft runs", status)

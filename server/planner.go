@@ -217,6 +217,13 @@ func planSpectrometer(in plannerInput) (*views.PlannerResult, error) {
 	}
 	r.Stark = chk
 	r.StarkVerdict = starkVerdict(chk)
+	if centre.Undersampled() {
+		r.SamplingWarning = fmt.Sprintf("Undersampled: the instrument FWHM of %s nm spans only %s pixels (fewer than %s). "+
+			"Line widths measured with this set-up are unreliable, and glowlog gives no electron density from a line narrower than %s pixels. "+
+			"Widen the slit a little, or use a detector with smaller pixels or a longer focal length.",
+			views.SigFig(centre.PracticalNM, 3), views.SigFig(centre.FWHMPixels(), 2), views.SigFig(grating.MinFWHMPixels, 2),
+			views.SigFig(grating.MinFWHMPixels, 2))
+	}
 	return r, nil
 }
 

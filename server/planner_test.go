@@ -173,3 +173,18 @@ func TestSafetyPublic(t *testing.T) {
 		}
 	}
 }
+
+// TestPlannerUndersampled: the default set-up (20 µm slit on 13.5 µm
+// pixels: instrument FWHM 1.5 pixels) is undersampled and says so; a
+// 50 µm slit (3.7 pixels) is not.
+func TestPlannerUndersampled(t *testing.T) {
+	s, ck := plannerServer(t)
+	_, body := plannerGet(t, s, ck, "/planner")
+	if w := testidText(body, "sampling-warning"); !strings.Contains(w, "Undersampled") || !strings.Contains(w, "1.5 pixels") {
+		t.Errorf("default set-up: sampling warning %q, want an undersampling warning at 1.5 pixels", w)
+	}
+	_, body = plannerGet(t, s, ck, "/planner?slit=50")
+	if strings.Contains(body, `data-testid="sampling-warning"`) {
+		t.Errorf("50 µm slit: unexpected sampling warning %q", testidText(body, "sampling-warning"))
+	}
+}

@@ -184,7 +184,7 @@ func (s *Server) listRuns(c echo.Context) error {
 		p.Rows = append(p.Rows, views.RunRow{ID: r.ID, Started: r.StartedAt.UTC().Format("2006-01-02 15:04"), Title: r.Title,
 			Chamber: r.ChamberName, Recipe: r.RecipeName, Source: store.SourceLabel(r.SourceType), Operator: r.OperatorName,
 			Status: r.Status, StatusLabel: store.StatusLabel(r.Status), TexcK: r.TexcK, TexcUncK: r.TexcUncK,
-			NeM3: r.NeM3, NeUncM3: r.NeUncM3, Warnings: r.NWarnings, Version: r.AnalysisVersion})
+			NeM3: r.NeM3, NeUncM3: r.NeUncM3, Warnings: r.NWarnings, WarnWorst: r.WarnWorst, Version: r.AnalysisVersion})
 	}
 	// Sort headers: a click on the current column flips its direction;
 	// a new column starts descending for numbers and times, ascending

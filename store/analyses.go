@@ -32,7 +32,11 @@ type AnalysisResult struct {
 	Result                                string // JSON, "" when Error is set
 	Error                                 string
 	TexcK, TexcUncK, NeM3, NeUncM3, TgasK *float64
-	NWarnings                             int
+	// NWarnings counts the distinct problem and caution flag codes;
+	// WarnWorst is the worst of their severities ("problem", "caution",
+	// or "" when there is none).
+	NWarnings int
+	WarnWorst string
 	// SameAs is the id of the result row whose JSON this result shares
 	// (a result kept unchanged from an earlier version); 0 when it holds
 	// its own.
@@ -83,7 +87,7 @@ func (d *DB) AddAnalysisTx(ctx context.Context, tx *sql.Tx, runID int64, a NewAn
 	}
 	aid, _ := res.LastInsertId()
 	ins, err := tx.PrepareContext(ctx, `INSERT INTO analysis_results (analysis_id, attachment_id, result, error, texc_k, texc_unc_k,
-		ne_m3, ne_unc_m3, tgas_k, n_warnings, same_as) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`)
+		ne_m3, ne_unc_m3, tgas_k, n_warnings, warn_worst, same_as) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`)
 	if err != nil {
 		return 0, err
 	}
@@ -100,7 +104,7 @@ func (d *DB) AddAnalysisTx(ctx context.Context, tx *sql.Tx, runID int64, a NewAn
 			errMsg = r.Error
 		}
 		if _, err := ins.ExecContext(ctx, aid, r.AttachmentID, result, errMsg, nullF(r.TexcK), nullF(r.TexcUncK), nullF(r.NeM3), nullF(r.NeUncM3),
-			nullF(r.TgasK), r.NWarnings, sameAs); err != nil {
+			nullF(r.TgasK), r.NWarnings, r.WarnWorst, sameAs); err != nil {
 			return 0, fmt.Errorf("store: add analysis result: %w", err)
 		}
 	}
@@ -121,8 +125,8 @@ func (d *DB) AddAnalysisTx(ctx context.Context, tx *sql.Tx, runID int64, a NewAn
 func (d *DB) setSummaryTx(ctx context.Context, tx *sql.Tx, runID int64, version int, rs []AnalysisResult) error {
 	s := summarize(rs)
 	_, err := tx.ExecContext(ctx, `UPDATE runs SET texc_k = ?, texc_unc_k = ?, ne_m3 = ?, ne_unc_m3 = ?, tgas_k = ?,
-		n_warnings = ?, analysis_version = ?, updated_at = ? WHERE id = ?`,
-		nullF(s.TexcK), nullF(s.TexcUncK), nullF(s.NeM3), nullF(s.NeUncM3), nullF(s.TgasK), s.NWarnings, version, d.now(), runID)
+		n_warnings = ?, warn_worst = ?, analysis_version = ?, updated_at = ? WHERE id = ?`,
+		nullF(s.TexcK), nullF(s.TexcUncK), nullF(s.NeM3), nullF(s.NeUncM3), nullF(s.TgasK), s.NWarnings, s.WarnWorst, version, d.now(), runID)
 	return err
 }
 
@@ -195,9 +199,13 @@ func summarize(rs []AnalysisResult) AnalysisResult {
 	out.TexcK, out.TexcUncK = mean(func(r AnalysisResult) (*float64, *float64) { return r.TexcK, r.TexcUncK })
 	out.NeM3, out.NeUncM3 = mean(func(r AnalysisResult) (*float64, *float64) { return r.NeM3, r.NeUncM3 })
 	out.TgasK, _ = mean(func(r AnalysisResult) (*float64, *float64) { return r.TgasK, nil })
-	// The run's warning count is that of its most-warned spectrum.
+	// The run's warning count is that of its most-warned spectrum, its
+	// worst severity the worst of any spectrum.
 	for _, r := range rs {
 		out.NWarnings = max(out.NWarnings, r.NWarnings)
+		if r.WarnWorst == "problem" || r.WarnWorst != "" && out.WarnWorst == "" {
+			out.WarnWorst = r.WarnWorst
+		}
 	}
 	return out
 }
@@ -255,7 +263,7 @@ func (d *DB) AnalysisVersion(ctx context.Context, runID int64, version int) (Ana
 		return Analysis{}, fmt.Errorf("run %d analysis version %d: %w", runID, version, ErrNotFound)
 	}
 	rows, err := d.db.QueryContext(ctx, `SELECT r.id, r.attachment_id, t.name, t.seq, coalesce(r.result, o.result, ''), coalesce(r.error, ''),
-		r.texc_k, r.texc_unc_k, r.ne_m3, r.ne_unc_m3, r.tgas_k, r.n_warnings
+		r.texc_k, r.texc_unc_k, r.ne_m3, r.ne_unc_m3, r.tgas_k, r.n_warnings, r.warn_worst
 		FROM analysis_results r JOIN attachments t ON t.id = r.attachment_id
 		LEFT JOIN analysis_results o ON o.id = r.same_as
 		WHERE r.analysis_id = ? ORDER BY t.kind, t.seq`, a.ID)
@@ -267,7 +275,7 @@ func (d *DB) AnalysisVersion(ctx context.Context, runID int64, version int) (Ana
 		var r AnalysisResult
 		var texc, texcU, ne, neU, tg sql.NullFloat64
 		if err := rows.Scan(&r.ID, &r.AttachmentID, &r.AttachmentName, &r.AttachmentSeq, &r.Result, &r.Error,
-			&texc, &texcU, &ne, &neU, &tg, &r.NWarnings); err != nil {
+			&texc, &texcU, &ne, &neU, &tg, &r.NWarnings, &r.WarnWorst); err != nil {
 			return *a, err
 		}
 		r.TexcK, r.TexcUncK, r.NeM3, r.NeUncM3, r.TgasK = scanF(texc), scanF(texcU), scanF(ne), scanF(neU), scanF(tg)
@@ -311,7 +319,7 @@ func (d *DB) LatestResultsTx(ctx context.Context, tx *sql.Tx, runID int64) (sett
 		return "", "", nil, errNoRows(err, fmt.Sprintf("run %d analysis", runID))
 	}
 	rows, err := tx.QueryContext(ctx, `SELECT attachment_id, coalesce(same_as, id), coalesce(error, ''), texc_k, texc_unc_k,
-		ne_m3, ne_unc_m3, tgas_k, n_warnings FROM analysis_results WHERE analysis_id = ?`, aid)
+		ne_m3, ne_unc_m3, tgas_k, n_warnings, warn_worst FROM analysis_results WHERE analysis_id = ?`, aid)
 	if err != nil {
 		return "", "", nil, err
 	}
@@ -319,7 +327,7 @@ func (d *DB) LatestResultsTx(ctx context.Context, tx *sql.Tx, runID int64) (sett
 	for rows.Next() {
 		var r AnalysisResult
 		var texc, texcU, ne, neU, tg sql.NullFloat64
-		if err := rows.Scan(&r.AttachmentID, &r.SameAs, &r.Error, &texc, &texcU, &ne, &neU, &tg, &r.NWarnings); err != nil {
+		if err := rows.Scan(&r.AttachmentID, &r.SameAs, &r.Error, &texc, &texcU, &ne, &neU, &tg, &r.NWarnings, &r.WarnWorst); err != nil {
 			return "", "", nil, err
 		}
 		r.TexcK, r.TexcUncK, r.NeM3, r.NeUncM3, r.TgasK = scanF(texc), scanF(texcU), scanF(ne), scanF(neU), scanF(tg)

@@ -79,8 +79,11 @@ type Run struct {
 	// Summary of the current analysis: while the run is signed off, that
 	// of the approved version.
 	TexcK, TexcUncK, NeM3, NeUncM3, TgasK *float64
-	NWarnings                             int
-	AnalysisVersion                       int
+	// NWarnings counts distinct problem and caution flag codes;
+	// WarnWorst is the worst of them ("problem", "caution" or "").
+	NWarnings       int
+	WarnWorst       string
+	AnalysisVersion int
 	// ApprovedVersion is the analysis version its sign-off approved (nil
 	// unless the run is signed off; 0 when it was signed off without an
 	// analysis).
@@ -240,7 +243,7 @@ const runCols = `r.id, r.title, r.started_at, r.operator_id, u.name, r.chamber_i
 	coalesce(p.name, ''), r.source_type, r.gas_mixture, r.pressure_pa, r.power_w, r.flows, r.electrode_gap_mm,
 	r.grating_l_mm, r.slit_um, r.integration_ms, r.instrument_fwhm_nm, r.instrument_id, r.gas_temperature_k,
 	r.perturber, r.notes, r.status, r.signed_off_by, r.signed_off_at, r.created_at, r.updated_at,
-	r.texc_k, r.texc_unc_k, r.ne_m3, r.ne_unc_m3, r.tgas_k, r.n_warnings, r.analysis_version, r.approved_version`
+	r.texc_k, r.texc_unc_k, r.ne_m3, r.ne_unc_m3, r.tgas_k, r.n_warnings, r.warn_worst, r.analysis_version, r.approved_version`
 
 const runFrom = ` FROM runs r JOIN users u ON u.id = r.operator_id
 	LEFT JOIN chambers c ON c.id = r.chamber_id LEFT JOIN recipes p ON p.id = r.recipe_id`
@@ -253,7 +256,7 @@ func scanRun(row interface{ Scan(...any) error }) (Run, error) {
 	err := row.Scan(&r.ID, &r.Title, &started, &r.OperatorID, &r.OperatorName, &chamber, &r.ChamberName, &recipe,
 		&r.RecipeName, &r.SourceType, &r.GasMixture, &pressure, &power, &r.Flows, &gap, &grating, &slit, &integ,
 		&instFWHM, &instr, &gasT, &r.Perturber, &r.Notes, &r.Status, &signedBy, &signedAt, &created, &updated,
-		&texc, &texcU, &ne, &neU, &tgas, &r.NWarnings, &r.AnalysisVersion, &approved)
+		&texc, &texcU, &ne, &neU, &tgas, &r.NWarnings, &r.WarnWorst, &r.AnalysisVersion, &approved)
 	if err != nil {
 		if errors.Is(err, sql.ErrNoRows) {
 			return r, fmt.Errorf("run: %w", ErrNotFound)

@@ -33,7 +33,7 @@ type TrendField struct {
 //	texc_k             excitation temperature (K), with 1σ
 //	ne_m3              electron density (m⁻³), with 1σ
 //	tgas_k             gas temperature from the analysis (K; two-line solution)
-//	n_warnings         number of validity warnings of the analysis
+//	n_warnings         number of problem and caution warnings of the analysis
 //	pressure_pa        pressure (Pa), condition
 //	power_w            power (W), condition
 //	electrode_gap_mm   electrode gap (mm), condition
@@ -44,7 +44,7 @@ var TrendFields = []TrendField{
 	{Key: "texc_k", Label: "Excitation temperature", Unit: "K", Result: true, HasUnc: true, col: "r.texc_k", uncCol: "r.texc_unc_k"},
 	{Key: "ne_m3", Label: "Electron density", Unit: "m⁻³", Result: true, HasUnc: true, col: "r.ne_m3", uncCol: "r.ne_unc_m3"},
 	{Key: "tgas_k", Label: "Gas temperature (analysis)", Unit: "K", Result: true, col: "r.tgas_k"},
-	{Key: "n_warnings", Label: "Validity warnings", Unit: "", Result: true, col: "r.n_warnings"},
+	{Key: "n_warnings", Label: "Warnings (problems and cautions)", Unit: "", Result: true, col: "r.n_warnings"},
 	{Key: "pressure_pa", Label: "Pressure", Unit: "Pa", col: "r.pressure_pa"},
 	{Key: "power_w", Label: "Power", Unit: "W", col: "r.power_w"},
 	{Key: "electrode_gap_mm", Label: "Electrode gap", Unit: "mm", col: "r.electrode_gap_mm"},

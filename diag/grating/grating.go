@@ -253,6 +253,22 @@ func (s Spectrometer) At(lambdaNM, alphaDeg float64) (Point, error) {
 	return p, nil
 }
 
+// MinFWHMPixels is the smallest instrument FWHM, in detector pixels, at
+// which a line's width can be measured: below it a line is undersampled
+// and its fitted width is unreliable. The spectrum pipeline withholds the
+// width of such lines from the electron density at the same value
+// (spectrum.MinFWHMPixels). Common practice, no source (Nyquist-like
+// sampling of about 2.5 pixels per FWHM).
+const MinFWHMPixels = 2.5
+
+// FWHMPixels returns the estimated instrument FWHM (PracticalNM) in
+// detector pixels.
+func (p Point) FWHMPixels() float64 { return p.PracticalNM / p.DispersionNMPerPixel }
+
+// Undersampled reports whether the instrument FWHM spans fewer than
+// MinFWHMPixels pixels.
+func (p Point) Undersampled() bool { return p.FWHMPixels() < MinFWHMPixels }
+
 // Littrow returns At(λ, θ) with θ the Littrow angle of λ: the grating
 // turned so that λ is diffracted back along the incident beam.
 func (s Spectrometer) Littrow(lambdaNM float64) (Point, error) {

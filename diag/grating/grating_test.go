@@ -217,3 +217,24 @@ func TestStarkMeasurability(t *testing.T) {
 		t.Error("zero Stark width accepted")
 	}
 }
+
+// TestUndersampled: FWHMPixels is the practical FWHM over the dispersion
+// per pixel, and Undersampled fires below MinFWHMPixels.
+func TestUndersampled(t *testing.T) {
+	s := Spectrometer{GroovesPerMM: 1200, Order: 1, FocalLengthMM: 500, SlitWidthUM: 20, PixelSizeUM: 13.5, Pixels: 1024, IlluminatedWidthMM: 50}
+	p, err := s.Littrow(656.279)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Slit-limited: 20/13.5 pixels (computed).
+	if got := p.FWHMPixels(); math.Abs(got-20/13.5) > 1e-9 {
+		t.Errorf("FWHM %.6g pixels, want %.6g", got, 20/13.5)
+	}
+	if !p.Undersampled() {
+		t.Errorf("1.48 pixels not undersampled")
+	}
+	s.SlitWidthUM = 40
+	if p, _ = s.Littrow(656.279); p.Undersampled() {
+		t.Errorf("%.2f pixels undersampled", p.FWHMPixels())
+	}
+}

@@ -9,13 +9,19 @@ import (
 
 func ExampleFitter_Fit() {
 	// A noise-free Hα-like window: Gaussian FWHM 0.02 nm known, Lorentzian
-	// FWHM 0.05 nm to be found, on a constant baseline of 5 counts.
+	// FWHM 0.05 nm to be found, on a constant baseline of 5 counts. Like a
+	// detector, each pixel (0.005 nm wide) holds the profile's mean over
+	// its width, here by a 64-point midpoint sum.
 	const n = 120
 	x, y := make([]float64, n), make([]float64, n)
 	sigma, gamma := voigt.SigmaFromFWHM(0.02), voigt.GammaFromFWHM(0.05)
 	for i := range x {
 		x[i] = 656.0 + 0.005*float64(i)
-		y[i] = 5 + 2*voigt.Profile(x[i]-656.279, sigma, gamma)
+		var mean float64
+		for j := range 64 {
+			mean += voigt.Profile(x[i]+0.005*((float64(j)+0.5)/64-0.5)-656.279, sigma, gamma) / 64
+		}
+		y[i] = 5 + 2*mean
 	}
 	p := &linefit.Problem{
 		X: x, Y: y,

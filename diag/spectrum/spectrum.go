@@ -110,7 +110,30 @@ type LineSearch struct {
 	Status  string  `json:"status"`
 	PeakSNR float64 `json:"peak_snr"`
 	Reason  string  `json:"reason,omitempty"`
+	// FWHMPixels is the fitted total FWHM in pixels at the line (0 when
+	// not fitted); below MinFWHMPixels the line is undersampled.
+	FWHMPixels float64 `json:"fwhm_pixels,omitempty"`
 }
+
+// MinFWHMPixels is the smallest fitted FWHM, in pixels, whose widths the
+// pipeline uses for the electron density. Below it a line is undersampled:
+// the pixel-integrated fit keeps its area unbiased, but the Lorentzian
+// part of a profile spread over two pixels is not determined reliably
+// (the Gaussian and Lorentzian parts trade off within the noise), so the
+// line's width is withheld from the density (no n_e from it, not even a
+// bound) and FlagUndersampled says so; its area still enters the
+// Boltzmann plot. Common practice, no source (Nyquist-like sampling of
+// about 2.5 pixels per FWHM); the spectrometer planner warns at the same
+// value (grating.MinFWHMPixels).
+const MinFWHMPixels = 2.5
+
+// Flag codes of the pipeline (besides those of diag.Analyze).
+const (
+	FlagSaturationAuto = "saturation_auto"
+	FlagLineSaturated  = "line_saturated"
+	FlagPartialResult  = "partial_result"
+	FlagUndersampled   = "line_undersampled"
+)
 
 // Window is one fitted window kept for plotting (Options.KeepWindows).
 type Window struct {
@@ -460,8 +483,12 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 			res.NoiseSigma = noise / r
 		}
 	}
+	var undersampled []string
 	for i := range cands {
 		c := &cands[i]
+		if c.fit != nil {
+			c.search.FWHMPixels = c.fit.VoigtFWHM / pixelWidth(x, min(max(index(x, c.fit.Center), 0), n-1))
+		}
 		res.LineSearch = append(res.LineSearch, c.search)
 		if c.search.Status == "saturated" || c.search.Status == "fit-failed" {
 			res.Partial = true
@@ -473,7 +500,11 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 		f := c.fit
 		ml := diag.MeasuredLine{Upper: c.t.Upper, Intensity: f.Area, IntensityUnc: f.AreaErr,
 			ExcludeFromBoltzmann: slices.Contains(opt.ExcludeFromBoltzmann, c.t.Upper)}
-		if !f.LorentzAtBound && f.LorentzFWHM > 0 {
+		if c.search.FWHMPixels < MinFWHMPixels {
+			undersampled = append(undersampled, fmt.Sprintf(
+				"%s is undersampled: its fitted FWHM %.3g nm spans %.2g pixels (< %.1f), so its width is unreliable and gives no electron density; its area is kept. Use a finer grating, a narrower slit setting with more pixels per nm, or a higher order",
+				c.t.Name(), f.VoigtFWHM, c.search.FWHMPixels, MinFWHMPixels))
+		} else if !f.LorentzAtBound && f.LorentzFWHM > 0 {
 			ml.LorentzFWHMNM, ml.LorentzFWHMUncNM = f.LorentzFWHM, f.LorentzFWHMErr
 		}
 		ml.InstrumentGaussFWHMNM, ml.InstrumentLorentzFWHMNM = c.instG, c.instL
@@ -502,18 +533,22 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 	}
 	res.Result = ar
 	if autoSat && anySaturated(cands) {
-		res.Flags = append(res.Flags, diag.Flag{Code: "saturation_auto", Message: fmt.Sprintf(
+		res.Flags = append(res.Flags, diag.Flag{Code: FlagSaturationAuto, Message: fmt.Sprintf(
 			"no detector ceiling was given; a flat top at %.6g counts was taken as saturation", satLevel)})
 	}
 	for _, c := range cands {
 		if c.search.Status == "saturated" {
-			res.Flags = append(res.Flags, diag.Flag{Code: "line_saturated", Message: fmt.Sprintf(
+			res.Flags = append(res.Flags, diag.Flag{Code: FlagLineSaturated, Message: fmt.Sprintf(
 				"%s touches the detector ceiling (%.6g counts) and is kept out of the analysis: reduce the integration time", c.t.Name(), satLevel)})
 		}
 	}
-	if res.Partial {
-		res.Flags = append(res.Flags, diag.Flag{Code: "partial_result", Message: "partial result: " + joinReasons(res.PartialReasons)})
+	for _, msg := range undersampled {
+		res.Flags = append(res.Flags, diag.Flag{Code: FlagUndersampled, Message: msg})
 	}
+	if res.Partial {
+		res.Flags = append(res.Flags, diag.Flag{Code: FlagPartialResult, Message: "partial result: " + joinReasons(res.PartialReasons)})
+	}
+	diag.SetSeverities(res.Flags)
 	res.Warnings = res.Warnings[:0]
 	for _, f := range res.Flags {
 		res.Warnings = append(res.Warnings, f.Message)

@@ -120,14 +120,16 @@ type synthLine struct {
 	center, area, gauss, lorentz float64
 }
 
-// synthesize returns counts per pixel of Voigt lines (voigt.Profile) on a
-// flat baseline, with Gaussian noise of σ noisePerNM (per nm) from rng.
+// synthesize returns counts per pixel of Voigt lines (voigt.Profile
+// integrated over each pixel by PixelMeanVoigt) on a flat baseline, with
+// Gaussian noise of σ noisePerNM (per nm) from rng.
 func synthesize(x []float64, lines []synthLine, base, noisePerNM float64, rng *rand.Rand) []float64 {
 	y := make([]float64, len(x))
 	for i := range x {
 		v := base
 		for _, l := range lines {
-			v += l.area * voigt.Profile(x[i]-l.center, voigt.SigmaFromFWHM(l.gauss), voigt.GammaFromFWHM(l.lorentz))
+			lo, hi := pixelEdgesAt(x, i)
+			v += l.area * PixelMeanVoigt(lo-l.center, hi-l.center, voigt.SigmaFromFWHM(l.gauss), voigt.GammaFromFWHM(l.lorentz))
 		}
 		if rng != nil {
 			v += noisePerNM * rng.NormFloat64()
@@ -223,6 +225,13 @@ func TestOwnSynthetic(t *testing.T) {
 					t.Errorf("n=%d at local SNR %.1f reported as fitted", n, lsnr)
 				}
 				if lsnr < 100 {
+					continue
+				}
+				if fw := searchFor(res.LineSearch, n).FWHMPixels; fw > 0 && fw < MinFWHMPixels {
+					// Undersampled: the width is withheld and flagged.
+					if got == nil || got.LorentzFWHMNM != nil || !hasFlagFor(res.Flags, FlagUndersampled, got.Name) {
+						t.Errorf("n=%d: FWHM %.2f px is undersampled but its width was used or not flagged", n, fw)
+					}
 					continue
 				}
 				if got == nil || got.LorentzFWHMNM == nil {
@@ -480,5 +489,62 @@ func TestExcludeFromBoltzmann(t *testing.T) {
 	}
 	if !found || res.Boltzmann.N != len(res.Boltzmann.Points)-1 {
 		t.Errorf("Hα excluded %v, %d of %d points fitted", found, res.Boltzmann.N, len(res.Boltzmann.Points))
+	}
+}
+
+func searchFor(ls []LineSearch, upper int) LineSearch {
+	for _, l := range ls {
+		if l.UpperLevel == upper {
+			return l
+		}
+	}
+	return LineSearch{}
+}
+
+func hasFlagFor(fs []diag.Flag, code, name string) bool {
+	for _, f := range fs {
+		if f.Code == code && strings.Contains(f.Message, name) {
+			return true
+		}
+	}
+	return false
+}
+
+// TestUndersampledFlag: an Hβ line whose FWHM spans under 2.5 pixels is
+// flagged and gives no density; the same line on a grid four times finer
+// is not flagged and gives one.
+func TestUndersampledFlag(t *testing.T) {
+	for _, tc := range []struct {
+		npx  int
+		want bool
+	}{{300, true}, {1200, false}} {
+		x := linspace(480, 492, tc.npx) // 0.04 or 0.01 nm pixels
+		y, _, err := Synthesize(SynthConfig{WavelengthNM: x, Uppers: []int{4}, ExcitationTemperatureK: 8000,
+			ElectronDensityM3: 1e20, GasTemperatureK: 600, InstrumentFWHMNM: 0.05, HalphaArea: 1e6, BaselinePerNM: 50,
+			NoisePerNM: 20, Rand: rand.New(rand.NewPCG(3, 4))})
+		if err != nil {
+			t.Fatal(err)
+		}
+		res, err := NewPipeline(4096).Analyze(&Spectrum{Name: "u", WavelengthNM: x, Counts: y},
+			Options{Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.05, GasTemperatureK: 600}})
+		if err != nil {
+			t.Fatal(err)
+		}
+		fw := searchFor(res.LineSearch, 4).FWHMPixels
+		flagged := hasFlagFor(res.Flags, FlagUndersampled, "Hβ")
+		for _, f := range res.Flags {
+			if f.Code == FlagUndersampled && f.Severity != diag.SeverityCaution {
+				t.Errorf("undersampled flag severity %q, want caution", f.Severity)
+			}
+		}
+		if flagged != tc.want || (fw < MinFWHMPixels) != tc.want {
+			t.Errorf("%d px: FWHM %.2f px, flagged %v, want %v", tc.npx, fw, flagged, tc.want)
+		}
+		if len(res.Lines) != 1 {
+			t.Fatalf("%d px: %d lines", tc.npx, len(res.Lines))
+		}
+		if got := res.Lines[0].ElectronDensityM3 != nil; got == tc.want {
+			t.Errorf("%d px: density given = %v, want %v", tc.npx, got, !tc.want)
+		}
 	}
 }

@@ -112,10 +112,12 @@ func SynthLines(cfg SynthConfig) ([]SynthLine, error) {
 
 // Synthesize returns the counts per pixel of cfg and the lines it contains:
 //
-//	counts_i = (baseline + Σ_lines Area·V(λ_i − λ_0; σ, γ) + noise) · Δλ_i
+//	counts_i = (baseline + Σ_lines Area·⟨V(λ − λ_0; σ, γ)⟩_i + noise) · Δλ_i
 //
-// with V the area-normalised Voigt profile of glowlog/diag/voigt and Δλ_i
-// the pixel width (half the distance between the neighbouring centres).
+// with V the area-normalised Voigt profile of glowlog/diag/voigt, ⟨⟩_i its
+// mean over pixel i (PixelMeanVoigt: a detector integrates over the pixel)
+// and Δλ_i the pixel width (the pixel runs between the midpoints to the
+// neighbouring centres).
 // Lines far outside the grid add nothing visible but are still returned.
 func Synthesize(cfg SynthConfig) ([]float64, []SynthLine, error) {
 	x := cfg.WavelengthNM
@@ -139,7 +141,8 @@ func Synthesize(cfg SynthConfig) ([]float64, []SynthLine, error) {
 		sigma, gamma := voigt.SigmaFromFWHM(l.GaussFWHMNM), voigt.GammaFromFWHM(l.LorentzFWHMNM)
 		// Every pixel gets the Lorentzian wing, so the area is kept.
 		for i := range x {
-			y[i] += l.Area * voigt.Profile(x[i]-l.CenterNM, sigma, gamma)
+			lo, hi := pixelEdgesAt(x, i)
+			y[i] += l.Area * PixelMeanVoigt(lo-l.CenterNM, hi-l.CenterNM, sigma, gamma)
 		}
 	}
 	for i := range y {
@@ -149,4 +152,58 @@ func Synthesize(cfg SynthConfig) ([]float64, []SynthLine, error) {
 		y[i] *= pixelWidth(x, i)
 	}
 	return y, lines, nil
+}
+
+// pixelEdgesAt returns the edges of pixel i of an ascending axis: the
+// midpoints to its neighbours, mirrored at the ends.
+func pixelEdgesAt(x []float64, i int) (lo, hi float64) {
+	n := len(x)
+	switch {
+	case i == 0:
+		hi = 0.5 * (x[0] + x[1])
+		return x[0] - (hi - x[0]), hi
+	case i == n-1:
+		lo = 0.5 * (x[n-2] + x[n-1])
+		return lo, x[n-1] + (x[n-1] - lo)
+	}
+	return 0.5 * (x[i-1] + x[i]), 0.5 * (x[i] + x[i+1])
+}
+
+// gl8 are the nodes t ∈ (0, 1) and weights of the 8-point Gauss–Legendre
+// rule on (−1, 1) (Abramowitz & Stegun 1964, Table 25.4); the rule is
+// symmetric.
+var gl8 = [4][2]float64{
+	{0.183434642495649804939476142360184, 0.362683783378361982965150449277196},
+	{0.525532409916328985817739049189, 0.313706645877887287337962201986601},
+	{0.796666477413626739591553936475830, 0.222381034453374470544355994426241},
+	{0.960289856497536231683560868569473, 0.101228536290376259152531354309962},
+}
+
+// PixelMeanVoigt returns the mean of the Voigt profile V(x; σ, γ) over
+// the pixel a ≤ x ≤ b (offsets from the line centre, b > a): composite
+// 8-point Gauss–Legendre on sub-intervals no wider than a quarter of the
+// line's FWHM (at most 32 of them), which is exact to about 1e-10 of the
+// peak for any Voigt shape. Beyond 40 FWHM from the centre the midpoint
+// value is used (its error there is below 1e-8 of the peak).
+func PixelMeanVoigt(a, b, sigma, gamma float64) float64 {
+	w := b - a
+	fwhm := voigt.OliveroFWHM(sigma*voigt.FWHMPerSigma, 2*gamma)
+	mid := 0.5 * (a + b)
+	if !(w > 0) || math.Abs(mid) > 40*fwhm+w {
+		return voigt.Profile(mid, sigma, gamma)
+	}
+	s := 1
+	if fwhm > 0 {
+		s = int(min(32, math.Ceil(4*w/fwhm)))
+	}
+	h := w / float64(s)
+	var sum float64
+	for k := range s {
+		c := a + (float64(k)+0.5)*h
+		for _, nw := range gl8 {
+			d := 0.5 * h * nw[0]
+			sum += nw[1] * (voigt.Profile(c-d, sigma, gamma) + voigt.Profile(c+d, sigma, gamma))
+		}
+	}
+	return sum / (2 * float64(s))
 }

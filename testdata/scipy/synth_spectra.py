@@ -7,7 +7,11 @@ Run with Debian's Python and python3-scipy:
 
 For each case it writes testdata/spectra/scipy_<name>.csv (wavelength_nm,
 counts) and scipy_<name>.truth.json. Line profiles are
-scipy.special.voigt_profile sampled at pixel centres; line data are the NIST
+scipy.special.voigt_profile integrated over each pixel (as a detector does):
+the pixel runs between the midpoints to its neighbouring centres (mirrored
+at the two ends) and its mean is taken by numpy's Gauss-Legendre rule
+(numpy.polynomial.legendre.leggauss), 16 nodes on each of 8 equal parts of
+the pixel; line data are the NIST
 ASD values (observed air wavelengths; E_k from the NIST level centroids;
 A from Wiese & Fuhr 2009 for n = 3-6, and the computed values of
 physics.md section 1.2 for n = 7, 8), not glowlog's computed ones.
@@ -21,9 +25,10 @@ width is the whole Lorentzian width except the natural width (ignored,
 1e-4 nm). Gaussian width: instrument FWHM combined in quadrature with the
 Doppler FWHM 7.16233e-7 * lambda * sqrt(T/M), M = 1.00794.
 Noise: Gaussian with sigma = peak / SNR of the strongest line (per nm), seeded.
-The file holds counts per pixel: the spectral density at the pixel centre
-times the pixel width, so that a reader dividing by the pixel width gets the
-density back; areas in the truth file are in counts (density x nm).
+The file holds counts per pixel: the spectral density averaged over the
+pixel times the pixel width, so that a reader dividing by the pixel width
+gets the mean density back; areas in the truth file are in counts
+(density x nm); "peak" is the largest pixel mean of the line.
 """
 import json
 import os
@@ -68,6 +73,21 @@ CASES = [
 ]
 
 
+def pixel_mean(x, fn, parts=8, nodes=16):
+    """Mean of fn over each pixel of the ascending axis x."""
+    mid = 0.5 * (x[1:] + x[:-1])
+    lo = np.concatenate(([x[0] - (mid[0] - x[0])], mid))
+    hi = np.concatenate((mid, [x[-1] + (x[-1] - mid[-1])]))
+    t, w = np.polynomial.legendre.leggauss(nodes)
+    width = (hi - lo) / parts
+    total = np.zeros_like(x)
+    for k in range(parts):
+        a = lo + k * width
+        pts = a[:, None] + 0.5 * width[:, None] * (t[None, :] + 1)
+        total += (fn(pts) * w[None, :]).sum(axis=1) / 2
+    return total / parts
+
+
 def main():
     os.makedirs(OUT, exist_ok=True)
     for name, npx, lo, hi, texc, ne, tgas, inst, snr, seed in CASES:
@@ -87,7 +107,7 @@ def main():
             wg = np.hypot(inst, wd)
             wl = stark_fwhm(n, ne)
             sigma = wg / (2 * np.sqrt(2 * np.log(2)))
-            prof = area * voigt_profile(x - lam, sigma, wl / 2)
+            prof = area * pixel_mean(x, lambda v: voigt_profile(v - lam, sigma, wl / 2))
             y += prof
             truth["lines"].append({"upper_level": n, "center_nm": lam, "area": area,
                                    "gauss_fwhm_nm": wg, "lorentz_fwhm_nm": wl,
@@ -98,13 +118,14 @@ def main():
         noise = rng.normal(0.0, peak / snr, size=x.size)
         truth["noise_sigma"] = peak / snr
         truth["baseline"] = "50 + 0.02*(lambda - lo)"
-        # Detector counts per pixel: the density (per nm) times the local
-        # pixel width; the noise is added per pixel.
+        # Detector counts per pixel: the pixel-mean density (per nm) times
+        # the local pixel width; the noise is added per pixel. (The linear
+        # baseline's pixel mean is its value at the centre.)
         dx = np.gradient(x)
         data = (y + base) * dx + noise * dx
         with open(os.path.join(OUT, "scipy_%s.csv" % name), "w") as f:
             f.write("# synthetic Balmer spectrum by testdata/scipy/synth_spectra.py (scipy %s)\n" % scipy.__version__)
-            f.write("# counts per pixel (density per nm at the pixel centre times the pixel width), wavelengths in air\n")
+            f.write("# counts per pixel (density per nm averaged over the pixel times the pixel width), wavelengths in air\n")
             f.write("wavelength_nm,counts\n")
             for xi, yi in zip(x, data):
                 f.write("%.6f,%.6g\n" % (xi, yi))
