@@ -2,6 +2,7 @@ package diag
 
 import (
 	"encoding/json"
+	"glowlog/diag/sh99"
 	"math"
 	"strings"
 	"testing"
@@ -223,5 +224,61 @@ func TestShapeLowerLimit(t *testing.T) {
 	}
 	if !res.Lines[0].DensityLowerLimit || !anyFlag(res.Flags, FlagShapeBound) {
 		t.Errorf("Hβ with a 3 nm instrument: lower limit %v, flags %v", res.Lines[0].DensityLowerLimit, res.Flags)
+	}
+}
+
+// TestSH99AgainstPhysicsNotes checks the SH99 relations at 1e4 K against
+// the widths physics.md reads from the same tables (§10 items 10–11,
+// §4.5), and explains the Hβ gap the diag/sh99 tests found: at 1e21 m⁻³
+// the notes' 0.200 nm is the tables' own width including their 1e4 K
+// Doppler part (0.2010 nm here, tolerance 1 %); at the tabulated nodes
+// 1e22 and 1e23 m⁻³ (no interpolation in n_e) the notes are 3.7 % wider at
+// both, a constant factor, while a half level relative to the central dip
+// would make them 15 % wider: most likely the notes interpolated the
+// sparse detuning grid linearly (convex wings → too wide). Tolerances: 5 %
+// for Hβ (that gap), 3 % for Hα FWHA and Hγ.
+func TestSH99AgainstPhysicsNotes(t *testing.T) {
+	hb, _ := sh99.Balmer(4)
+	if w, _ := hb.TableWidthNM(sh99.FWHM, 1e21, 1e4); math.Abs(w/0.200-1) > 0.01 {
+		t.Errorf("Hβ table FWHM at 1e21 = %.4f nm, want 0.200 (physics.md §10 item 10) within 1 %%", w)
+	}
+	for _, c := range []struct {
+		id        string
+		ne, want  float64
+		tol       float64
+		reference string
+	}{
+		{"sh99-hbeta-fwhm", 1e22, 0.971, 0.05, "physics.md §10 item 10"},
+		{"sh99-hbeta-fwhm", 1e23, 4.66, 0.05, "physics.md §10 item 10"},
+		{"sh99-halpha-fwha", 1e22, 0.204, 0.03, "physics.md §10 item 11"},
+		{"sh99-hgamma-fwhm", 1e22, 1.19, 0.03, "physics.md §4.5"},
+	} {
+		r, _ := LookupStarkRelation(c.id)
+		w, err := r.WidthAt(c.ne, 1e4)
+		if err != nil || math.Abs(w/c.want-1) > c.tol {
+			t.Errorf("%s at %g m⁻³, 1e4 K = %.4f nm (%v), want %.3g within %.0f %% (%s)", c.id, c.ne, w, err, c.want, 100*c.tol, c.reference)
+		}
+		// Round trip through the relation.
+		if ne, err := r.DensityAt(w, 1e4); err != nil || math.Abs(ne/c.ne-1) > 1e-8 {
+			t.Errorf("%s: DensityAt(WidthAt(%g)) = %g (%v)", c.id, c.ne, ne, err)
+		}
+	}
+	// GGC vs SH99 in n_e at the same width, 1e4 K, 1e21–1e23 m⁻³: Hβ
+	// 1.09–1.13 and Hα 1.19–1.24 (widths 1.06–1.09 and 1.12–1.16, diag/sh99
+	// TestAgainstGGC2003; physics.md §10 items 10–11 read 3–4 % and 11–16 %
+	// in width). Asserted with the bounds of the width ratios to the power
+	// 1/0.68: Hβ 1.0–1.2, Hα 1.1–1.35.
+	for _, c := range []struct {
+		ggc, sh string
+		lo, hi  float64
+	}{{"ggc2003-hbeta-fwhm", "sh99-hbeta-fwhm", 1.0, 1.2}, {"ggc2003-halpha-fwha", "sh99-halpha-fwha", 1.1, 1.35}} {
+		g, _ := LookupStarkRelation(c.ggc)
+		s, _ := LookupStarkRelation(c.sh)
+		for _, ne := range []float64{1e22, 3e22, 1e23} {
+			w, _ := s.WidthAt(ne, 1e4)
+			if r := ne / g.DensityFromWidth(w); r < c.lo || r > c.hi {
+				t.Errorf("%s vs %s at %g m⁻³: n_e(SH99)/n_e(GGC) = %.3f, want %.2f–%.2f", c.sh, c.ggc, ne, r, c.lo, c.hi)
+			}
+		}
 	}
 }
