@@ -69,6 +69,9 @@ func generate(t *testing.T, c synthCase) []byte {
 	}
 	if c.solveGas {
 		doc["solve_gas_temperature"] = true
+		// The two-line solver uses the GGC power laws: the lines' densities
+		// use them too, so that the set is consistent.
+		doc["stark_relations"] = map[string]string{"3": "ggc2003-halpha-fwha", "4": "ggc2003-hbeta-fwhm"}
 	} else {
 		doc["gas_temperature_K"] = c.tGas
 	}
@@ -90,7 +93,16 @@ func generate(t *testing.T, c synthCase) []byte {
 			if err != nil {
 				t.Fatal(err)
 			}
-			lor := rel.WidthFromDensity(c.ne) + b.LorentzNonStarkNM
+			// The engine prefers SH99 where its tables cover the line
+			// (at the default 1e4 K): make the width with the model the
+			// engine will prefer.
+			stark := rel.WidthFromDensity(c.ne)
+			if !c.solveGas {
+				if stark, _, err = diag.PreferredStarkWidthNM(n, c.ne, diag.DefaultElectronTemperatureK); err != nil {
+					t.Fatal(err)
+				}
+			}
+			lor := stark + b.LorentzNonStarkNM
 			if c.lorentzOK {
 				l.Lorentz = &lor
 			} else {
@@ -193,6 +205,9 @@ func TestAnalyzeBadInput(t *testing.T) {
 		{"width below Gaussian budget", base(`{"upper_level": 4, "intensity": 1, "fwhm_nm": 0.03}`), []string{"n=4", "narrower than its Gaussian budget"}},
 		{"line with nothing", base(`{"upper_level": 4}`), []string{"lines[0]", "needs an intensity"}},
 		{"trailing data", `{"intensity_unit": "photon", "lines": [` + ok1 + `]} {}`, []string{"after the top-level"}},
+		{"electron temperature in eV", `{"intensity_unit": "photon", "electron_temperature_K": 1.5, "lines": [` + ok1 + `]}`, []string{"electron_temperature_K", "1000–2e6 K"}},
+		{"negative instrument σ", `{"intensity_unit": "photon", "instrument_fwhm_unc_nm": -0.01, "lines": [` + ok1 + `]}`, []string{"instrument_fwhm_unc_nm", "-0.01"}},
+		{"response σ in per cent", `{"intensity_unit": "photon", "response_unc_rel": 5, "lines": [` + ok1 + `]}`, []string{"response_unc_rel", "fraction"}},
 		{"two-line without Hβ", `{"intensity_unit": "photon", "solve_gas_temperature": true, "pressure_Pa": 1e5, "perturber": "Ar", "lines": [` + ok1 + `]}`, []string{"solve_gas_temperature", "Hβ"}},
 		{"oversized", `{"intensity_unit": "photon", "lines": [` + strings.Repeat(" ", maxInputBytes) + `]}`, []string{"byte limit"}},
 	}

@@ -3,8 +3,11 @@ package diag
 import (
 	"errors"
 	"fmt"
+	"math"
 	"strconv"
 	"strings"
+
+	"glowlog/diag/sh99"
 )
 
 // EngineVersion is the version of the analysis engine, recorded with
@@ -44,15 +47,29 @@ type Result struct {
 
 	// ExcitationTemperatureK is the Boltzmann-plot excitation temperature
 	// of the Balmer upper levels (never an electron temperature).
-	ExcitationTemperatureK    *float64        `json:"excitation_temperature_K"`
-	ExcitationTemperatureUncK *float64        `json:"excitation_temperature_unc_K"`
-	Boltzmann                 BoltzmannResult `json:"boltzmann"`
+	// ExcitationTemperatureUncK is the total 1σ (statistical ⊕
+	// systematic); the systematic part is the response calibration.
+	ExcitationTemperatureK        *float64        `json:"excitation_temperature_K"`
+	ExcitationTemperatureUncK     *float64        `json:"excitation_temperature_unc_K"`
+	ExcitationTemperatureUncStatK *float64        `json:"excitation_temperature_unc_stat_K"`
+	ExcitationTemperatureUncSysK  *float64        `json:"excitation_temperature_unc_sys_K"`
+	Boltzmann                     BoltzmannResult `json:"boltzmann"`
 
-	// ElectronDensityM3 is the best estimate (Hβ preferred, physics.md §4).
-	ElectronDensityM3     *float64 `json:"electron_density_m3"`
-	ElectronDensityUncM3  *float64 `json:"electron_density_unc_m3"`
-	ElectronDensityCM3    *float64 `json:"electron_density_cm3"`
-	ElectronDensityUncCM3 *float64 `json:"electron_density_unc_cm3"`
+	// ElectronDensityM3 is the best estimate: the inverse-variance
+	// weighted mean of the lines' preferred densities.
+	// ElectronDensityUncM3 is its total 1σ, the quadrature sum of the
+	// statistical and systematic parts.
+	ElectronDensityM3        *float64  `json:"electron_density_m3"`
+	ElectronDensityUncM3     *float64  `json:"electron_density_unc_m3"`
+	ElectronDensityUncStatM3 *float64  `json:"electron_density_unc_stat_m3"`
+	ElectronDensityUncSysM3  *float64  `json:"electron_density_unc_sys_m3"`
+	ElectronDensityUncParts  []UncPart `json:"electron_density_unc_sys_parts,omitempty"`
+	// ElectronTemperatureK is the temperature of the T-dependent Stark
+	// models; ElectronTemperatureSource is "given" or "default".
+	ElectronTemperatureK      float64  `json:"electron_temperature_K"`
+	ElectronTemperatureSource string   `json:"electron_temperature_source"`
+	ElectronDensityCM3        *float64 `json:"electron_density_cm3"`
+	ElectronDensityUncCM3     *float64 `json:"electron_density_unc_cm3"`
 	// ElectronDensitySource names the line and relation of the best estimate.
 	ElectronDensitySource string `json:"electron_density_source"`
 
@@ -72,6 +89,9 @@ type Result struct {
 	Relations []RelationSummary `json:"stark_relations_used"`
 	// Perturber is the van der Waals perturber used.
 	Perturber PerturberSummary `json:"perturber"`
+	// ConstantSources gives the status and source of the other constants
+	// the analysis uses.
+	ConstantSources []ConstantSource `json:"constant_sources"`
 
 	// Flags are structured warnings; Warnings repeats their messages.
 	Flags    []Flag   `json:"flags"`
@@ -99,12 +119,23 @@ type LineResult struct {
 	LorentzSource    string      `json:"lorentz_source,omitempty"`
 	Budget           *BudgetView `json:"broadening_budget"`
 
-	StarkFWHMNM          *float64 `json:"stark_fwhm_nm"`
-	StarkFWHMUncNM       *float64 `json:"stark_fwhm_unc_nm"`
-	StarkRelation        string   `json:"stark_relation,omitempty"`
-	ElectronDensityM3    *float64 `json:"electron_density_m3"`
-	ElectronDensityUncM3 *float64 `json:"electron_density_unc_m3"`
-	Notes                []string `json:"notes,omitempty"`
+	StarkFWHMNM    *float64 `json:"stark_fwhm_nm"`
+	StarkFWHMUncNM *float64 `json:"stark_fwhm_unc_nm"`
+	StarkRelation  string   `json:"stark_relation,omitempty"`
+	// ElectronDensityM3 is the preferred model's density (StarkRelation);
+	// ElectronDensityUncM3 its total 1σ (statistical ⊕ systematic).
+	ElectronDensityM3        *float64 `json:"electron_density_m3"`
+	ElectronDensityUncM3     *float64 `json:"electron_density_unc_m3"`
+	ElectronDensityUncStatM3 *float64 `json:"electron_density_unc_stat_m3"`
+	ElectronDensityUncSysM3  *float64 `json:"electron_density_unc_sys_m3"`
+	// DensityUncParts are the parts of the systematic σ, m⁻³.
+	DensityUncParts []UncPart `json:"electron_density_unc_sys_parts,omitempty"`
+	// DensityLowerLimit is true when n_e is only a lower limit (Stark
+	// width far below the Gaussian width: ShapeBiasRel).
+	DensityLowerLimit bool `json:"electron_density_lower_limit,omitempty"`
+	// Densities lists the density of every applicable Stark model.
+	Densities []DensityEstimate `json:"densities"`
+	Notes     []string          `json:"notes,omitempty"`
 	// ProfileFit is set when the line was fitted in a spectrum; its fields
 	// appear inline (center_nm, gauss_fwhm_nm, …).
 	*ProfileFit
@@ -125,7 +156,8 @@ type BudgetView struct {
 	LorentzNonStarkNM   float64 `json:"lorentz_non_stark_nm"`
 }
 
-// RelationSummary describes a Stark relation used.
+// RelationSummary describes a Stark relation used. For the SH99 tables
+// the density range is the one at the electron temperature used.
 type RelationSummary struct {
 	ID         string  `json:"id"`
 	UpperLevel int     `json:"upper_level"`
@@ -134,6 +166,8 @@ type RelationSummary struct {
 	MinNeM3    float64 `json:"min_ne_m3"`
 	MaxNeM3    float64 `json:"max_ne_m3"`
 	Verified   bool    `json:"verified"`
+	Status     string  `json:"status"`
+	Source     string  `json:"source"`
 	Provenance string  `json:"provenance"`
 }
 
@@ -141,6 +175,7 @@ type RelationSummary struct {
 type PerturberSummary struct {
 	Name              string  `json:"name"`
 	PolarizabilityCM3 float64 `json:"polarizability_cm3"`
+	Status            string  `json:"status"`
 	Source            string  `json:"source"`
 }
 
@@ -198,7 +233,8 @@ func Analyze(m Measurement) (Result, error) {
 	if err != nil {
 		return res, err
 	}
-	res.Perturber = PerturberSummary{pert.Name, pert.PolarizabilityCM3, pert.Source}
+	res.Perturber = PerturberSummary{pert.Name, pert.PolarizabilityCM3, pert.Status, pert.Source}
+	res.ConstantSources = ConstantSources()
 	if m.PressurePa == 0 {
 		pert = NoPerturber
 	}
@@ -242,10 +278,32 @@ func Analyze(m Measurement) (Result, error) {
 		res.ExcitationTemperatureK = ptr(bz.TemperatureK)
 		if bz.UncBasis != "none" {
 			res.ExcitationTemperatureUncK = ptr(bz.TemperatureUncK)
+			res.ExcitationTemperatureUncStatK = ptr(bz.TemperatureUncK)
 		}
+	}
+	if bz.Defined {
+		texcSystematics(&res, pts, bz, m)
 	}
 	if len(pts) > 0 && !m.ResponseCorrected {
 		res.Flags = append(res.Flags, Flag{Code: FlagUncalibrated, Message: "the intensities are not corrected for the spectrometer's relative spectral response: a Boltzmann plot on raw counts is meaningless (the response varies by factors of 2–10 between 380 and 660 nm)"})
+	}
+
+	// Electron temperature of the T-dependent Stark models.
+	te := m.ElectronTemperatureK
+	res.ElectronTemperatureSource = "given"
+	if te == 0 {
+		te, res.ElectronTemperatureSource = DefaultElectronTemperatureK, "default"
+	}
+	if !(te > 0) || !finite(te) {
+		return res, &NumericError{Field: "electron_temperature_K", Value: te, Msg: "the electron temperature must be a positive number of kelvin"}
+	}
+	res.ElectronTemperatureK = te
+	m.ElectronTemperatureK = te
+	if m.InstrumentFWHMUncNM < 0 || !finite(m.InstrumentFWHMUncNM) {
+		return res, &NumericError{Field: "instrument_fwhm_unc_nm", Value: m.InstrumentFWHMUncNM, Msg: "the instrument width's 1σ must be ≥ 0 nm"}
+	}
+	if m.ResponseUncRel < 0 || !finite(m.ResponseUncRel) {
+		return res, &NumericError{Field: "response_unc_rel", Value: m.ResponseUncRel, Msg: "the response calibration's relative 1σ must be ≥ 0"}
 	}
 
 	// Gas temperature.
@@ -302,16 +360,24 @@ func Analyze(m Measurement) (Result, error) {
 	// Relations used, their warnings, and the best estimate.
 	used := map[string]bool{}
 	for _, lr := range res.Lines {
-		if lr.StarkRelation == "" || used[lr.StarkRelation] {
-			continue
-		}
-		used[lr.StarkRelation] = true
-		r, _ := LookupStarkRelation(lr.StarkRelation)
-		res.Relations = append(res.Relations, RelationSummary{r.ID, r.Upper, r.Kind.String(), r.Citation,
-			r.MinNeM3, r.MaxNeM3, r.Verified, r.Provenance})
-		if !r.Verified {
-			res.Flags = append(res.Flags, Flag{Code: FlagUnverified, Message: fmt.Sprintf(
-				"the coefficients of Stark relation %s are from memory and not yet checked against the publication: treat the densities as provisional", r.ID)})
+		for _, d := range lr.Densities {
+			if used[d.Relation] {
+				continue
+			}
+			used[d.Relation] = true
+			r, _ := LookupStarkRelation(d.Relation)
+			lo, hi := r.MinNeM3, r.MaxNeM3
+			if r.model == modelSH99 {
+				if l, err := sh99.Balmer(r.Upper); err == nil {
+					lo, hi, _, _, _ = l.StarkRange(sh99Kind(r.Kind), te)
+				}
+			}
+			res.Relations = append(res.Relations, RelationSummary{r.ID, r.Upper, r.Kind.String(), r.Citation,
+				lo, hi, r.Verified, r.Status, r.Source, r.Provenance})
+			if r.Status == StatusOpen {
+				res.Flags = append(res.Flags, Flag{Code: FlagUnverified, Message: fmt.Sprintf(
+					"the coefficients of Stark relation %s are from memory and not yet checked against the publication: treat the densities as provisional", r.ID)})
+			}
 		}
 	}
 	var noRel []string
@@ -323,24 +389,21 @@ func Analyze(m Measurement) (Result, error) {
 	}
 	if len(noRel) > 0 {
 		res.Flags = append(res.Flags, Flag{Code: FlagNoRelation, Message: fmt.Sprintf(
-			"%s: no Stark-width relation is implemented for these lines (only Hα and Hβ), so their widths give no density", strings.Join(noRel, ", "))})
+			"%s: no Stark model covers these lines' widths here (GGC 2003: Hα, Hβ; SH99: Hα … H(12→2) within its tables), so they give no density", strings.Join(noRel, ", "))})
 	}
-	for _, n := range densityPreference {
-		for _, lr := range res.Lines {
-			if lr.UpperLevel == n && lr.ElectronDensityM3 != nil {
-				res.ElectronDensityM3 = ptr(*lr.ElectronDensityM3)
-				res.ElectronDensityCM3 = ptr(*lr.ElectronDensityM3 * 1e-6)
-				if lr.ElectronDensityUncM3 != nil {
-					res.ElectronDensityUncM3 = ptr(*lr.ElectronDensityUncM3)
-					res.ElectronDensityUncCM3 = ptr(*lr.ElectronDensityUncM3 * 1e-6)
-				}
-				res.ElectronDensitySource = fmt.Sprintf("%s (%s)", lr.Name, lr.StarkRelation)
-				break
-			}
+	if ne, st, sy, parts, src, fl, ok := combineDensities(res.Lines); ok {
+		res.ElectronDensityM3 = ptr(ne)
+		res.ElectronDensityCM3 = ptr(ne * 1e-6)
+		if st > 0 {
+			res.ElectronDensityUncStatM3 = ptr(st)
 		}
-		if res.ElectronDensityM3 != nil {
-			break
-		}
+		res.ElectronDensityUncSysM3 = ptr(sy)
+		res.ElectronDensityUncParts = parts
+		tot := math.Hypot(st, sy)
+		res.ElectronDensityUncM3 = ptr(tot)
+		res.ElectronDensityUncCM3 = ptr(tot * 1e-6)
+		res.ElectronDensitySource = src
+		res.Flags = append(res.Flags, fl...)
 	}
 	res.Flags = append(res.Flags, densityConsistency(res.Lines)...)
 
@@ -444,5 +507,6 @@ func lineResultBase(l MeasuredLine, t Transition) LineResult {
 		lr.MeasuredFWHMNM = ptr(l.FWHMNM)
 	}
 	lr.ProfileFit = l.Profile
+	lr.Densities = []DensityEstimate{}
 	return lr
 }

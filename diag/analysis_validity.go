@@ -85,11 +85,17 @@ func solveTwoLineAnalysis(inputs []lineWidthInput, m Measurement, pert Perturber
 		return TwoLineSummary{}, errors.New("solve_gas_temperature needs a polarizable perturber and a positive pressure_Pa (the van der Waals widths carry the temperature dependence)")
 	}
 	tin := TwoLineInput{Perturber: pert, PressurePa: m.PressurePa, Isotope: m.Isotope}
+	// The two-line solver needs power laws: a T-dependent override (SH99,
+	// Griem α½) leaves the default GGC relation in the two-line solution.
 	if id, ok := m.StarkRelations[3]; ok {
-		tin.AlphaRelation, _ = LookupStarkRelation(id)
+		if r, err := LookupStarkRelation(id); err == nil && !r.TDependent() {
+			tin.AlphaRelation = r
+		}
 	}
 	if id, ok := m.StarkRelations[4]; ok {
-		tin.BetaRelation, _ = LookupStarkRelation(id)
+		if r, err := LookupStarkRelation(id); err == nil && !r.TDependent() {
+			tin.BetaRelation = r
+		}
 	}
 	gasT := 1000.0
 	if m.GasTemperatureK > 0 {

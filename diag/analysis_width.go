@@ -117,24 +117,45 @@ func analyzeWidth(lr *LineResult, in lineWidthInput, m Measurement, pert Perturb
 		lr.StarkFWHMUncNM = ptr(starkUnc)
 	}
 
-	var rel StarkRelation
-	if id, ok := m.StarkRelations[l.Upper]; ok {
-		rel, err = LookupStarkRelation(id)
-	} else {
-		rel, err = DefaultStarkRelation(l.Upper)
+	// The Stark width with the instrument width, gas temperature and the
+	// van der Waals and resonance constants changed, for the systematic
+	// parts. A Lorentzian width from a profile fit with the Gaussian held
+	// at the budget moves with that budget as the Voigt inversion of the
+	// fitted total width does.
+	starkWith := func(instG, tg, vdwScale, resScale float64) float64 {
+		in2 := in
+		in2.instG = instG
+		bb, err := lineBudget(in2, m, pert, tg)
+		if err != nil {
+			return math.NaN()
+		}
+		var ll float64
+		switch {
+		case l.LorentzFWHMNM > 0 && l.Profile != nil && l.Profile.GaussFixed && l.Profile.TotalFWHMNM > 0:
+			l1, err1 := LorentzFromVoigt(l.Profile.TotalFWHMNM, bb.GaussTotalNM)
+			l0, err0 := LorentzFromVoigt(l.Profile.TotalFWHMNM, b.GaussTotalNM)
+			if err1 != nil || err0 != nil {
+				return math.NaN()
+			}
+			ll = l.LorentzFWHMNM + l1 - l0
+		default:
+			ll, err = lorentzOf(in2, bb, l.FWHMNM)
+			if err != nil {
+				return math.NaN()
+			}
+		}
+		return ll - bb.LorentzNonStarkNM - (vdwScale-1)*bb.VanDerWaalsNM - (resScale-1)*bb.ResonanceNM
 	}
-	if err != nil {
-		// Reported on the line; Analyze gathers these into one flag.
-		lr.Notes = append(lr.Notes, "no Stark-width relation is available for this line (only Hα and Hβ have published fits implemented), so its width gives no density")
-		lr.noRelation = true
-		return nil
+	te := m.ElectronTemperatureK
+	if te <= 0 {
+		te = DefaultElectronTemperatureK
 	}
-	lr.StarkRelation = rel.ID
-	ne := rel.DensityFromLorentzianNM(stark)
-	lr.ElectronDensityM3 = ptr(ne)
-	if starkUnc > 0 {
-		neUnc := ne * DensityRelSigma(rel.Exponent, starkUnc/stark)
-		if !finite(ne) || !finite(neUnc) {
+	lineDensities(lr, in, m, te, stark, lorUnc, gasT, gasTUnc, b, starkWith)
+	if lr.noRelation {
+		lr.Notes = append(lr.Notes, "no Stark model covers this line's width here, so it gives no density")
+	}
+	for _, d := range lr.Densities {
+		if !finite(d.ElectronDensityM3) || !finite(d.ElectronDensityUncM3) {
 			field, v := "fwhm_unc_nm", l.FWHMUncNM
 			if l.LorentzFWHMNM > 0 {
 				field, v = "lorentz_fwhm_unc_nm", l.LorentzFWHMUncNM
@@ -142,12 +163,6 @@ func analyzeWidth(lr *LineResult, in lineWidthInput, m Measurement, pert Perturb
 			return &NumericError{Upper: l.Upper, Field: field, Value: v, Msg: fmt.Sprintf(
 				"the Stark width %v nm is %.3g times smaller than its 1σ %v nm, so the density's uncertainty is unbounded: the Stark width is not resolved (check the widths and their unit, nm)",
 				stark, starkUnc/stark, starkUnc)}
-		}
-		lr.ElectronDensityUncM3 = ptr(neUnc)
-	}
-	for _, w := range rel.Warnings(ne, 0) {
-		if rel.Verified || !isUnverifiedNote(w) {
-			lr.note(FlagRelationRange, "%s", w)
 		}
 	}
 	return nil

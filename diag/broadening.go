@@ -92,10 +92,12 @@ func NaturalFWHMNM(t Transition, iso Isotope) float64 {
 }
 
 // aliGriemConst is the constant of the working form of the Ali–Griem
-// resonance width, nm per (nm³ cm⁻³): from memory, unverified
-// (physics.md §5.3 and §10 item 5). Recast, the half-width form used in a
-// public stellar-opacity routine, Δν/ν = 2.07e-24 f/((1−1/n²)(1/n_l²−1/n_u²))
-// N_H, agrees with it to about 15 %.
+// resonance width, nm per (nm³ cm⁻³). Status open, ±20 % (physics.md
+// §5.3 and §10 item 9): from memory; independent stellar-opacity
+// implementations correspond to 10–16 % larger widths (recast, the
+// half-width form Δν/ν = 2.07e-24 f/((1−1/n²)(1/n_l²−1/n_u²)) N_H agrees
+// with it to about 15 %). The analysis carries ±20 % (aliGriemRelUnc) as a
+// systematic σ of the resonance width.
 const aliGriemConst = 8.61e-28
 
 // ResonanceLevelFWHMNM returns the Ali–Griem resonance (self) broadening,
@@ -107,7 +109,7 @@ const aliGriemConst = 8.61e-28
 //
 // with g₁ = 2, g_n = 2n², and λ_R (vacuum) and f_R = f(1→n) the
 // n-averaged Lyman line of level n (NewTransition(n, 1, iso)). The
-// constant 8.61e-28 is from memory, unverified. It returns 0 for n = 1
+// constant 8.61e-28 is open (from memory, ±20 %, physics.md §10 item 9). It returns 0 for n = 1
 // (the ground level has no resonance partner of its own) and panics for
 // n outside 1…MaxLevel, a non-positive wavelength or a negative density.
 //
@@ -158,12 +160,18 @@ func ResonanceFWHMNM(t Transition, groundDensityM3 float64, iso Isotope) float64
 }
 
 // vdWConst is the constant of the general van der Waals impact formula,
-// cm-based cgs units as in VanDerWaalsFWHMNM. From memory, unverified
-// (physics.md §5.4 and §10 item 2). A re-derivation from the Unsöld C₆ =
-// e²ᾱ⟨R²⟩a₀²/ħ and the Lindholm–Foley FWHM 8.08 C₆^(2/5) v̄^(3/5) N gives
-// 7.00e-12 instead; 8.18e-12 is kept because published coefficients were
-// built with it.
+// cm-based cgs units as in VanDerWaalsFWHMNM. Convention (physics.md §5.4
+// and §10 item 7, "convention, now explained"): 8.18e-12 is the constant of
+// the literature formula behind the published simplified two-line-method
+// coefficients (Griem 1964; Allard & Kielkopf 1982), and glowlog uses it.
+// The Lindholm–Foley FWHM with Unsöld's C₆ = e²ᾱ⟨R²⟩a₀²/ħ gives
+// vdWConstUnsold = 6.999e-12 (ratio 1.169); the analysis carries the
+// difference as a systematic σ of the van der Waals width.
 const vdWConst = 8.18e-12
+
+// vdWConstUnsold is the van der Waals constant of the Lindholm–Foley FWHM
+// with Unsöld's C₆ (physics.md §10 item 7, computed there).
+const vdWConstUnsold = 6.999e-12
 
 // vdWTempExponent is d ln Δλ_W / d ln T at constant pressure: N = p/(k_B T)
 // contributes −1 and (T/μ)^(3/10) contributes +3/10.
@@ -197,7 +205,7 @@ func MeanSquareRadiusA0(n int) float64 {
 // with ᾱ the perturber polarizability in cm³, μ the emitter–perturber
 // reduced mass in u (emitter mass EmitterMassAMU(t.Isotope)) and λ the air
 // wavelength of t. At constant pressure Δλ_W = C/T^0.7. The constant
-// 8.18e-12 is from memory, unverified; see vdWConst. The zero perturber
+// 8.18e-12 is a named convention (see vdWConst). The zero perturber
 // (NoPerturber) gives 0. It panics for a negative pressure, a
 // non-positive temperature or a polarizable perturber without a mass.
 //

@@ -55,12 +55,18 @@ func ExampleAnalyze() {
 	}
 	fmt.Printf("T_exc = %.0f ± %.0f K (%s, reduced χ² %.1f)\n", *res.ExcitationTemperatureK, *res.ExcitationTemperatureUncK,
 		res.Boltzmann.UncBasis, res.Boltzmann.ReducedChi2)
-	fmt.Printf("n_e = %.2e ± %.1e m⁻³ from %s\n", *res.ElectronDensityM3, *res.ElectronDensityUncM3, res.ElectronDensitySource)
+	fmt.Printf("n_e = %.2e ± %.1e m⁻³ (stat %.1e, sys %.1e) from %s\n", *res.ElectronDensityM3, *res.ElectronDensityUncM3,
+		*res.ElectronDensityUncStatM3, *res.ElectronDensityUncSysM3, res.ElectronDensitySource)
 	hb := res.Lines[1]
+	for _, d := range hb.Densities {
+		fmt.Printf("  %s: %.2e ± %.1e m⁻³\n", d.Relation, d.ElectronDensityM3, d.ElectronDensityUncM3)
+	}
 	fmt.Printf("Hβ budget: Gauss %.4f nm, non-Stark Lorentz %.4f nm, Stark %.4f nm\n",
 		hb.Budget.GaussTotalNM, hb.Budget.LorentzNonStarkNM, *hb.StarkFWHMNM)
 	// Output:
 	// T_exc = 8183 ± 647 K (chi2-scaled, reduced χ² 11.7)
-	// n_e = 3.72e+21 ± 1.1e+20 m⁻³ from Hβ (ggc2003-hbeta-fwhm)
+	// n_e = 3.72e+21 ± 3.9e+20 m⁻³ (stat 1.1e+20, sys 3.7e+20) from Hβ (ggc2003-hbeta-fwhm)
+	//   ggc2003-hbeta-fwhm: 3.72e+21 ± 2.1e+20 m⁻³
+	//   sh99-hbeta-fwhm: 4.18e+21 ± 2.4e+20 m⁻³
 	// Hβ budget: Gauss 0.0514 nm, non-Stark Lorentz 0.0347 nm, Stark 0.5101 nm
 }

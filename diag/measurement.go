@@ -34,6 +34,17 @@ type Measurement struct {
 	// LastResolvedUpper is the highest resolved Balmer member, for the
 	// Inglis–Teller estimate (0 = not given).
 	LastResolvedUpper int
+	// InstrumentFWHMUncNM is the 1σ of the instrument's Gaussian FWHM, nm
+	// (0 = not given); it enters the systematic σ of n_e.
+	InstrumentFWHMUncNM float64
+	// ElectronTemperatureK selects the temperature of the T-dependent
+	// Stark models (SH99 tables, Griem α½), K (0 = the default
+	// DefaultElectronTemperatureK).
+	ElectronTemperatureK float64
+	// ResponseUncRel is the relative 1σ of the spectral-response
+	// calibration between the extreme lines of the Boltzmann plot (0 = not
+	// given: the σ of T_exc then excludes the calibration, and says so).
+	ResponseUncRel float64
 	// SolveGasTemperature asks for the two-line (Hα + Hβ) solution of n_e
 	// and gas temperature from the Lorentzian widths.
 	SolveGasTemperature bool

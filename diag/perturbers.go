@@ -27,10 +27,13 @@ type Perturber struct {
 	// table (possibly a reproduction of it); false for values from
 	// memory or derived here.
 	Verified bool
+	// Status is StatusSourced, StatusCrossChecked or StatusOpen
+	// (physics.md §10 items 4–5).
+	Status string
 }
 
 // NoPerturber is the zero perturber: no van der Waals width.
-var NoPerturber = Perturber{Name: "none", Source: "no neutral perturber: van der Waals width is zero", Verified: true}
+var NoPerturber = Perturber{Name: "none", Source: "no neutral perturber: van der Waals width is zero", Verified: true, Status: StatusSourced}
 
 // crcReproduction names the secondary source of most polarizabilities.
 const crcReproduction = "CRC Handbook of Chemistry and Physics, 100th ed., table " +
@@ -51,42 +54,42 @@ var perturberTable = []Perturber{
 	{
 		Name: "Ar", PolarizabilityCM3: 1.6411e-24, MassAMU: 39.948,
 		Source:   "CRC Handbook (\"Atomic and molecular polarizabilities\"); " + crcReproduction + " gives the same 1.6411",
-		Verified: true,
+		Verified: true, Status: StatusSourced,
 	},
 	{
 		Name: "He", PolarizabilityCM3: 0.2050522e-24, MassAMU: 4.002602,
 		Source:   crcReproduction + "; agrees with Dalgarno & Kingston 1960 (1.384 a₀³ = 0.2051e-24 cm³)",
-		Verified: true,
+		Verified: true, Status: StatusSourced,
 	},
 	{
 		Name: "Ne", PolarizabilityCM3: 0.39432e-24, MassAMU: 20.1797,
 		Source:   crcReproduction + "; agrees with Dalgarno & Kingston 1960 (2.663 a₀³ = 0.3946e-24 cm³)",
-		Verified: true,
+		Verified: true, Status: StatusSourced,
 	},
 	{
 		Name: "Kr", PolarizabilityCM3: 2.4844e-24, MassAMU: 83.798,
 		Source:   crcReproduction + "; Dalgarno & Kingston 1960 give 16.734 a₀³ = 2.4798e-24 cm³ (0.2 % lower)",
-		Verified: true,
+		Verified: true, Status: StatusSourced,
 	},
 	{
 		Name: "Xe", PolarizabilityCM3: 4.044e-24, MassAMU: 131.293,
 		Source:   crcReproduction + "; agrees with Dalgarno & Kingston 1960 (27.292 a₀³ = 4.0443e-24 cm³)",
-		Verified: true,
+		Verified: true, Status: StatusSourced,
 	},
 	{
 		Name: "N2", PolarizabilityCM3: 1.7403e-24, MassAMU: 28.0134,
 		Source:   crcReproduction,
-		Verified: true,
+		Verified: true, Status: StatusSourced,
 	},
 	{
-		// From memory, unverified. The reproduction that gave the other
-		// entries lists 0.842 for H₂, which disagrees with both the value
-		// recalled here (0.8045) and the recalled theoretical static mean
-		// polarizability of the v = 0 ground state, about 5.41 a₀³ =
-		// 0.802e-24 cm³. The conflict is unresolved.
+		// Open (physics.md §10 item 5): the CRC 100th ed. reproduction
+		// shows 0.842, some tables 0.8045, theory ≈ 0.80 (5.41 a₀³). The
+		// value used is 0.8045; the spread 0.80–0.842 (5 %) changes the van
+		// der Waals width (∝ ᾱ^(2/5)) by ≤ 1.8 %.
 		Name: "H2", PolarizabilityCM3: 0.8045e-24, MassAMU: 2.01588,
-		Source:   "CRC Handbook value from memory, unverified (a web reproduction of the table shows 0.842; theory ≈ 0.802); must be checked",
-		Verified: false,
+		Source: "0.8045e-24 cm³ used (some tables; from memory); CRC 100th ed. reproduction shows 0.842, theory ≈ 0.80: " +
+			"spread 0.80–0.842 (5 %), ≤ 1.8 % in the van der Waals width (physics.md §10 item 5)",
+		Verified: false, Status: StatusOpen,
 	},
 	{
 		// Derived here. (1) Mole-fraction average of N₂ 1.7403, O₂ 1.5689
@@ -97,8 +100,8 @@ var perturberTable = []Perturber{
 		// n − 1 = 2.7263e-4 at 15 °C and 101 325 Pa, with ᾱ = (n − 1)/(2πN):
 		// 1.7036e-24 cm³. The two agree to 0.03 %.
 		Name: "air", PolarizabilityCM3: 1.7040e-24, MassAMU: 28.9647,
-		Source:   "derived: mole-fraction average of N2, O2, Ar, CO2 polarizabilities (composition from memory), checked against the static limit of the IAU standard-air refractivity (1.7036e-24); mean molar mass 28.9647 from memory",
-		Verified: false,
+		Source:   "derived: mole-fraction average of N2, O2, Ar, CO2 polarizabilities (composition from memory), checked against the static limit of the IAU standard-air refractivity (1.7036e-24, 0.03 %); mean molar mass 28.9647 from memory",
+		Verified: false, Status: StatusCrossChecked,
 	},
 }
 

@@ -38,7 +38,13 @@ var flagSeverity = map[string]Severity{
 	FlagNoRelation:       SeverityNote, // the method has no relation for these lines
 	FlagRelationRange:    SeverityCaution,
 	FlagDensityDisagree:  SeverityProblem,
-	FlagUnverified:       SeverityNote, // coefficients of the method itself
+	FlagUnverified:       SeverityNote,    // coefficients of the method itself
+	FlagModelRange:       SeverityNote,    // one of several Stark models outside its tables: the others give n_e
+	FlagShapeBound:       SeverityCaution, // Stark width ≪ instrument: n_e only a lower limit
+	FlagDensityScatter:   SeverityCaution, // lines disagree beyond their σ (σ scaled up)
+	// The calibration σ is unknown unless given: a caveat of every run
+	// without it, said once in the method panel.
+	FlagTexNoCalibrationUnc: SeverityNote,
 
 	// LTE checks.
 	FlagLTENotChecked:        SeverityCaution,

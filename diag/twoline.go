@@ -97,8 +97,9 @@ type TwoLineResult struct {
 // widths that are NaN or negative σ, and for bounds that are not ordered.
 //
 // The model is a solver for the stated widths, not physics validation:
-// the Stark and van der Waals coefficients are from memory (physics.md
-// §10) and the Doppler width inside the Gaussian budget depends on the
+// the GGC Stark coefficients are cross-checked, not read in the paper, the
+// van der Waals constant is a named convention (physics.md §10 items 7,
+// 10, 11) and the Doppler width inside the Gaussian budget depends on the
 // assumed T_g, which a caller may need to iterate.
 func SolveTwoLine(in TwoLineInput) (TwoLineResult, error) {
 	if math.IsNaN(in.AlphaLorentzNM) || math.IsNaN(in.BetaLorentzNM) || !(in.AlphaSigmaNM >= 0) || !(in.BetaSigmaNM >= 0) {

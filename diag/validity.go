@@ -8,12 +8,17 @@ import (
 )
 
 // mcWhirterConst is the constant of the McWhirter criterion in cm⁻³
-// K^(−1/2) eV⁻³: from memory, unverified (physics.md §3.1, §10 item 4).
+// K^(−1/2) eV⁻³. Status sourced (secondary): McWhirter (1965), in Plasma
+// Diagnostic Techniques (Huddlestone & Leonard, eds.), Academic Press,
+// pp. 201–264, as quoted by Cristoforetti et al. (2010), Spectrochim. Acta
+// B 65, 86–95 (physics.md §10 item 3).
 const mcWhirterConst = 1.6e12
 
 // griemPLTEConst is the constant of Griem's partial-LTE criterion in cm⁻³,
-// and griemPLTEExponent its exponent of n: both from memory, unverified
-// (physics.md §3.2, §10 item 4).
+// and griemPLTEExponent its exponent of n. Status sourced: NRL Plasma
+// Formulary (2019), "Atomic Physics and Radiation", eq. (20), citing Griem,
+// Plasma Spectroscopy (1964) (physics.md §10 item 1); check value n = 4,
+// kT = 2 eV → 2.05e13 cm⁻³ (TestGriemNRLCheck).
 const (
 	griemPLTEConst    = 7e18
 	griemPLTEExponent = 17.0 / 2.0
@@ -31,8 +36,8 @@ const griemEHEV = 13.6
 //	n_e[cm⁻³] ≥ 1.6e12 · T^(1/2)[K] · (ΔE[eV])³
 //
 // For hydrogen ΔE is the 1s–2 gap (HydrogenLargestGapEV, 10.199 eV). The
-// criterion is necessary, not sufficient. The constant 1.6e12 is from
-// memory, unverified. It panics for a negative temperature or gap.
+// criterion is necessary, not sufficient. The constant 1.6e12 is sourced
+// (secondary, via Cristoforetti et al. 2010; see mcWhirterConst). It panics for a negative temperature or gap.
 //
 // References:
 //
@@ -64,8 +69,8 @@ func HydrogenLargestGapEV(iso Isotope) float64 {
 //
 //	n_e[cm⁻³] ≥ 7e18 · z⁷/n^(17/2) · (k_B T/(z² E_H))^(1/2),  z = 1, E_H = 13.6 eV
 //
-// The constant 7e18 and the exponent 17/2 are from memory, unverified.
-// It panics for n < 1 or a negative temperature.
+// The constant 7e18 and the exponent 17/2 are sourced (NRL Plasma
+// Formulary 2019, eq. (20); see griemPLTEConst). It panics for n < 1 or a negative temperature.
 //
 // References:
 //
@@ -144,8 +149,8 @@ func (a *LTEAssessment) warn(code, msg string) {
 //   - n_e from the same spectrum: an inflated n_e makes the checks easier
 //     to pass.
 //
-// T_exc is used in place of T_e in both criteria. The bounds use
-// constants from memory (McWhirterMinDensityM3, GriemPLTEMinDensityM3).
+// T_exc is used in place of T_e in both criteria. The bounds' constants
+// are sourced (McWhirterMinDensityM3, GriemPLTEMinDensityM3).
 func AssessLTE(c LTECheck) LTEAssessment {
 	var a LTEAssessment
 	levels := append([]int(nil), c.Levels...)

@@ -6,9 +6,8 @@ import (
 )
 
 // TestMcWhirter covers physics.md check 28 and the §3.1 values. The
-// constant 1.6e12 is from memory, unverified (physics.md §10 item 4):
-// these are regression checks of our implementation, not physics
-// validation. Expected values are physics.md's [C] numbers.
+// constant 1.6e12 is sourced via Cristoforetti et al. 2010 (physics.md §10
+// item 3); the expected values are physics.md's [C] numbers from it.
 func TestMcWhirter(t *testing.T) {
 	t.Parallel()
 	for _, tc := range []struct {
@@ -34,10 +33,21 @@ func TestMcWhirter(t *testing.T) {
 	}
 }
 
-// TestGriemPLTE covers the §3.2 values (physics.md [C] with constants from
-// memory, unverified: regression checks, not physics validation; the values
-// are rounded to 3 digits, so the tolerance is half a unit of the last
-// digit, ≤ 5e-3; 9.5e12 has 2 digits, 6e-3).
+// TestGriemNRLCheck is the NRL Plasma Formulary check of Griem's
+// partial-LTE criterion (physics.md §10 item 1: NRL Plasma Formulary 2019,
+// eq. (20)): n = 4, kT = 2 eV → 2.05e13 cm⁻³ (3 digits, tolerance 3e-3).
+func TestGriemNRLCheck(t *testing.T) {
+	t.Parallel()
+	tempK := 2 / BoltzmannEVPerK
+	if got := GriemPLTEMinDensityM3(4, tempK) * 1e-6; broadRel(got, 2.05e13) > 3e-3 {
+		t.Errorf("Griem bound n = 4, kT = 2 eV = %.4g cm⁻³, want 2.05e13 (NRL Plasma Formulary)", got)
+	}
+}
+
+// TestGriemPLTE covers the §3.2 values (physics.md [C] from the sourced
+// constants, §10 item 1; the values are rounded to 3 digits, so the
+// tolerance is half a unit of the last digit, ≤ 5e-3; 9.5e12 has 2
+// digits, 6e-3).
 func TestGriemPLTE(t *testing.T) {
 	t.Parallel()
 	for _, tc := range []struct {

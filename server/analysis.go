@@ -45,6 +45,14 @@ type AnalysisSettings struct {
 	MaxUpper              int            `json:"max_upper,omitempty"`
 	StarkRelations        map[int]string `json:"stark_relations,omitempty"`
 	ExcludeFromBoltzmann  []int          `json:"exclude_from_boltzmann,omitempty"`
+	// InstrumentFWHMUncNM is the 1σ of the instrument FWHM (nm),
+	// ElectronTemperatureK the temperature of the T-dependent Stark models
+	// (K; 0 = diag.DefaultElectronTemperatureK) and ResponseUncRel the
+	// relative 1σ of the response calibration between the extreme lines
+	// (0 = not given).
+	InstrumentFWHMUncNM  float64 `json:"instrument_fwhm_unc_nm,omitempty"`
+	ElectronTemperatureK float64 `json:"electron_temperature_K,omitempty"`
+	ResponseUncRel       float64 `json:"response_unc_rel,omitempty"`
 	// CalibrationFiles records the dark and response attachments a version
 	// was computed with (set by the analysis service, not by users).
 	CalibrationFiles []int64 `json:"calibration_files,omitempty"`
@@ -87,10 +95,15 @@ func (st *AnalysisSettings) Validate() error {
 	}{{"instrument FWHM (nm)", st.InstrumentFWHMNM, 50}, {"instrument Lorentzian FWHM (nm)", st.InstrumentLorentzFWHMNM, 50},
 		{"gas temperature (K)", st.GasTemperatureK, 1e6}, {"gas temperature σ (K)", st.GasTemperatureUncK, 1e6},
 		{"pressure (Pa)", st.PressurePa, 1e8}, {"saturation (counts)", st.SaturationCounts, 1e15},
-		{"gain (e⁻/count)", st.GainElectronsPerCount, 1e6}, {"read noise (e⁻)", st.ReadNoiseElectrons, 1e6}, {"minimum SNR", st.MinSNR, 1e6}} {
+		{"gain (e⁻/count)", st.GainElectronsPerCount, 1e6}, {"read noise (e⁻)", st.ReadNoiseElectrons, 1e6}, {"minimum SNR", st.MinSNR, 1e6},
+		{"instrument FWHM σ (nm)", st.InstrumentFWHMUncNM, 50}, {"electron temperature (K)", st.ElectronTemperatureK, 2e6},
+		{"response calibration σ (relative)", st.ResponseUncRel, 1}} {
 		if !(f.v >= 0 && f.v <= f.max) {
 			return badRequest("%s must be between 0 and %g, got %g", f.name, f.max, f.v)
 		}
+	}
+	if st.ElectronTemperatureK != 0 && st.ElectronTemperatureK < 1000 {
+		return badRequest("electron temperature (K) must be 0 (default %g K) or 1000–2e6 K, got %g", diag.DefaultElectronTemperatureK, st.ElectronTemperatureK)
 	}
 	if st.MaxUpper != 0 && (st.MaxUpper < 3 || st.MaxUpper > diag.MaxLevel) {
 		return badRequest("highest Balmer member must be 3…%d, got %d", diag.MaxLevel, st.MaxUpper)
@@ -143,7 +156,8 @@ func (s *Server) analyzeAttachments(ctx context.Context, atts []store.Attachment
 		Conditions: diag.Measurement{Isotope: iso, InstrumentGaussFWHMNM: st.InstrumentFWHMNM,
 			InstrumentLorentzFWHMNM: st.InstrumentLorentzFWHMNM, GasTemperatureK: st.GasTemperatureK,
 			GasTemperatureUncK: st.GasTemperatureUncK, PressurePa: st.PressurePa, Perturber: st.Perturber,
-			SolveGasTemperature: st.SolveGasTemperature, StarkRelations: st.StarkRelations},
+			SolveGasTemperature: st.SolveGasTemperature, StarkRelations: st.StarkRelations,
+			InstrumentFWHMUncNM: st.InstrumentFWHMUncNM, ElectronTemperatureK: st.ElectronTemperatureK, ResponseUncRel: st.ResponseUncRel},
 		SaturationCounts: st.SaturationCounts, GainElectronsPerCount: st.GainElectronsPerCount,
 		ReadNoiseElectrons: st.ReadNoiseElectrons, CorrectOffset: st.CorrectOffset, MinSNR: st.MinSNR,
 		MaxUpper: st.MaxUpper, KeepWindows: true, ExcludeFromBoltzmann: st.ExcludeFromBoltzmann,
@@ -317,6 +331,8 @@ func (s *Server) fillFromLineTables(ctx context.Context, atts []store.Attachment
 //     instrument function (InstrumentID) gives every line its width at
 //     the line's wavelength, as the spectrum pipeline does;
 //   - two-line gas temperature: on when the setting is on;
+//   - instrument-width σ, electron temperature, response σ: the setting
+//     when set;
 //   - Stark relations: the setting's choice for each line it names;
 //   - excluded lines: the setting's lines are excluded as well.
 func applySettings(m *diag.Measurement, st AnalysisSettings, in spectrum.Instrument) error {
@@ -359,6 +375,15 @@ func applySettings(m *diag.Measurement, st AnalysisSettings, in spectrum.Instrum
 	}
 	if st.SolveGasTemperature {
 		m.SolveGasTemperature = true
+	}
+	if st.InstrumentFWHMUncNM > 0 {
+		m.InstrumentFWHMUncNM = st.InstrumentFWHMUncNM
+	}
+	if st.ElectronTemperatureK > 0 {
+		m.ElectronTemperatureK = st.ElectronTemperatureK
+	}
+	if st.ResponseUncRel > 0 {
+		m.ResponseUncRel = st.ResponseUncRel
 	}
 	for n, id := range st.StarkRelations {
 		if m.StarkRelations == nil {

@@ -198,7 +198,9 @@ func applySettingFields(c echo.Context, st *AnalysisSettings) error {
 	}{{"instrument_fwhm_nm", &st.InstrumentFWHMNM}, {"instrument_lorentz_fwhm_nm", &st.InstrumentLorentzFWHMNM},
 		{"gas_temperature_K", &st.GasTemperatureK}, {"gas_temperature_unc_K", &st.GasTemperatureUncK},
 		{"pressure_Pa", &st.PressurePa}, {"saturation_counts", &st.SaturationCounts},
-		{"gain_e_per_count", &st.GainElectronsPerCount}, {"read_noise_e", &st.ReadNoiseElectrons}, {"min_snr", &st.MinSNR}}
+		{"gain_e_per_count", &st.GainElectronsPerCount}, {"read_noise_e", &st.ReadNoiseElectrons}, {"min_snr", &st.MinSNR},
+		{"instrument_fwhm_unc_nm", &st.InstrumentFWHMUncNM}, {"electron_temperature_K", &st.ElectronTemperatureK},
+		{"response_unc_rel", &st.ResponseUncRel}}
 	for _, f := range floats {
 		v := strings.TrimSpace(c.FormValue(f.name))
 		if v == "" {

@@ -38,6 +38,9 @@ type analyzeConfig struct {
 	instG, instL   float64
 	instrumentFile string
 	gasT, gasTUnc  float64
+	instGUnc       float64
+	electronT      float64
+	responseUnc    float64
 	solveGas       bool
 	pressure       float64
 	perturber      string
@@ -65,7 +68,8 @@ type analyzeConfig struct {
 // conditionFlags are the flags that describe measurement conditions; a
 // measurement-set file carries its own and may not be combined with them.
 var conditionFlags = []string{"isotope", "instrument-fwhm-nm", "instrument-lorentz-fwhm-nm", "instrument",
-	"gas-temperature-K", "gas-temperature-unc-K", "solve-gas-temperature", "pressure-Pa", "perturber",
+	"gas-temperature-K", "gas-temperature-unc-K", "solve-gas-temperature", "instrument-fwhm-unc-nm",
+	"electron-temperature-K", "response-unc-rel", "pressure-Pa", "perturber",
 	"ground-state-density-m3", "intensity-unit", "dark", "response", "lamp", "lamp-irradiance", "grey-body-K",
 	"saturation-counts", "gain-e-per-count", "read-noise-e", "correct-offset", "min-snr", "max-upper", "windows",
 	"x-unit", "vacuum-axis", "calibrated"}
@@ -91,6 +95,9 @@ flags (spectra only):
 	fs.StringVar(&c.instrumentFile, "instrument", "", "instrument-function file written by glowlog instrument (overrides the constant widths)")
 	fs.Float64Var(&c.gasT, "gas-temperature-K", 0, "gas temperature for Doppler and van der Waals widths, K")
 	fs.Float64Var(&c.gasTUnc, "gas-temperature-unc-K", 0, "1σ of the gas temperature, K")
+	fs.Float64Var(&c.instGUnc, "instrument-fwhm-unc-nm", 0, "1σ of the instrument's Gaussian FWHM, nm (enters the systematic σ of n_e)")
+	fs.Float64Var(&c.electronT, "electron-temperature-K", 0, fmt.Sprintf("electron temperature of the Stark tables, K (default %g)", diag.DefaultElectronTemperatureK))
+	fs.Float64Var(&c.responseUnc, "response-unc-rel", 0, "relative 1σ of the response calibration between the extreme lines (e.g. 0.05)")
 	fs.BoolVar(&c.solveGas, "solve-gas-temperature", false, "solve n_e and gas temperature together from Hα and Hβ")
 	fs.Float64Var(&c.pressure, "pressure-Pa", 0, "pressure of the perturber gas, Pa")
 	fs.StringVar(&c.perturber, "perturber", "none", "van der Waals perturber: Ar, He, Ne, Kr, Xe, N2, H2, air or none")
@@ -410,13 +417,23 @@ func (c *analyzeConfig) load() error {
 	}{{"instrument-fwhm-nm", c.instG}, {"instrument-lorentz-fwhm-nm", c.instL}, {"gas-temperature-K", c.gasT},
 		{"gas-temperature-unc-K", c.gasTUnc}, {"pressure-Pa", c.pressure}, {"ground-state-density-m3", c.groundDensity},
 		{"grey-body-K", c.greyBodyK}, {"saturation-counts", c.saturation}, {"gain-e-per-count", c.gain},
-		{"read-noise-e", c.readNE}, {"min-snr", c.minSNR}} {
+		{"read-noise-e", c.readNE}, {"min-snr", c.minSNR}, {"instrument-fwhm-unc-nm", c.instGUnc},
+		{"electron-temperature-K", c.electronT}, {"response-unc-rel", c.responseUnc}} {
 		if !(v.v >= 0) || v.v > 1e300 {
 			return fmt.Errorf("--%s must be a finite number ≥ 0, got %v", v.name, v.v)
 		}
 	}
 	if c.gasT > 0 && c.gasT < diag.MinGasTemperatureK {
 		return fmt.Errorf("--gas-temperature-K must be 0 (unknown) or at least %v K, got %v: check the unit", diag.MinGasTemperatureK, c.gasT)
+	}
+	if c.electronT != 0 && (c.electronT < 1000 || c.electronT > 2e6) {
+		return fmt.Errorf("--electron-temperature-K must be 0 (default %g K) or 1000–2e6 K, got %v: check the unit", diag.DefaultElectronTemperatureK, c.electronT)
+	}
+	if c.responseUnc > 1 {
+		return fmt.Errorf("--response-unc-rel is a fraction ≤ 1 (0.05 for 5 %%), got %v", c.responseUnc)
+	}
+	if c.instGUnc > 50 {
+		return fmt.Errorf("--instrument-fwhm-unc-nm above 50 nm: check the unit (nm expected)")
 	}
 	if c.instG > 50 || c.instL > 50 {
 		return fmt.Errorf("--instrument-fwhm-nm above 50 nm: check the unit (nm expected)")
@@ -427,7 +444,8 @@ func (c *analyzeConfig) load() error {
 	o := &c.opt
 	o.Conditions = diag.Measurement{Isotope: iso, InstrumentGaussFWHMNM: c.instG, InstrumentLorentzFWHMNM: c.instL,
 		GasTemperatureK: c.gasT, GasTemperatureUncK: c.gasTUnc, PressurePa: c.pressure, Perturber: c.perturber,
-		GroundStateDensityM3: c.groundDensity, SolveGasTemperature: c.solveGas}
+		GroundStateDensityM3: c.groundDensity, SolveGasTemperature: c.solveGas,
+		InstrumentFWHMUncNM: c.instGUnc, ElectronTemperatureK: c.electronT, ResponseUncRel: c.responseUnc}
 	o.SaturationCounts, o.GainElectronsPerCount, o.ReadNoiseElectrons = c.saturation, c.gain, c.readNE
 	o.CorrectOffset, o.MinSNR, o.MaxUpper, o.KeepWindows = c.correctOffset, c.minSNR, c.maxUpper, c.windows
 	if c.instrumentFile != "" {

@@ -223,3 +223,45 @@ func TestAnalyzeExtremeValues(t *testing.T) {
 		t.Errorf("deep record %s", recs[3])
 	}
 }
+
+// TestAnalyzeUncertaintyFlags: the issue-8 flags reach the analysis (the
+// electron temperature is echoed, the instrument σ adds a σ_sys part) and
+// bad values exit 2 naming the flag.
+func TestAnalyzeUncertaintyFlags(t *testing.T) {
+	file := filepath.Join(spectraDir, "scipy_hbeta_window_snr1000.csv")
+	var out, errb bytes.Buffer
+	code := AnalyzeCommand([]string{"--instrument-fwhm-nm", "0.03", "--gas-temperature-K", "1200", "--instrument-fwhm-unc-nm", "0.01",
+		"--electron-temperature-K", "15000", "--response-unc-rel", "0.05", file}, nil, &out, &errb)
+	if code != ExitOK {
+		t.Fatalf("exit %d: %s", code, errb.String())
+	}
+	var r struct {
+		Te    float64 `json:"electron_temperature_K"`
+		Sys   float64 `json:"electron_density_unc_sys_m3"`
+		Lines []struct {
+			Parts []struct {
+				Name string `json:"name"`
+			} `json:"electron_density_unc_sys_parts"`
+		} `json:"lines"`
+	}
+	if err := json.Unmarshal(out.Bytes(), &r); err != nil {
+		t.Fatal(err)
+	}
+	if r.Te != 15000 || !(r.Sys > 0) || len(r.Lines) == 0 {
+		t.Fatalf("T_e %v, σ_sys %v, lines %d", r.Te, r.Sys, len(r.Lines))
+	}
+	found := false
+	for _, p := range r.Lines[0].Parts {
+		found = found || p.Name == "instrument width"
+	}
+	if !found {
+		t.Errorf("σ_sys parts %+v lack the instrument width", r.Lines[0].Parts)
+	}
+	for _, bad := range [][]string{{"--electron-temperature-K", "1.2"}, {"--response-unc-rel", "5"}, {"--instrument-fwhm-unc-nm", "-1"}} {
+		out.Reset()
+		errb.Reset()
+		if code := AnalyzeCommand(append(bad, file), nil, &out, &errb); code != 2 || !strings.Contains(errb.String(), bad[0]) {
+			t.Errorf("%v: exit %d, stderr %q", bad, code, errb.String())
+		}
+	}
+}

@@ -84,7 +84,8 @@ func (s *Server) reanalyzeFormProps(c echo.Context, r store.Run, st AnalysisSett
 		PressurePa: fmtZero(st.PressurePa), Perturber: pert, ResponseUnit: st.ResponseUnit, ResponseCorrected: st.ResponseCorrectedUnit,
 		SaturationCounts: fmtZero(st.SaturationCounts), Gain: fmtZero(st.GainElectronsPerCount),
 		ReadNoise: fmtZero(st.ReadNoiseElectrons), CorrectOffset: st.CorrectOffset, MinSNR: fmtZero(st.MinSNR),
-		Exclude: strings.Join(ex, ", ")}
+		Exclude: strings.Join(ex, ", "), InstrumentFWHMUncNM: fmtZero(st.InstrumentFWHMUncNM),
+		ElectronTemperatureK: fmtZero(st.ElectronTemperatureK), ResponseUncRel: fmtZero(st.ResponseUncRel)}
 	if st.InstrumentID != 0 {
 		p.Values.InstrumentID = strconv.FormatInt(st.InstrumentID, 10)
 	}
@@ -102,9 +103,7 @@ func (s *Server) reanalyzeFormProps(c echo.Context, r store.Run, st AnalysisSett
 			if rel.ID == def.ID {
 				label += ", default"
 			}
-			if !rel.Verified {
-				label += ", coefficients unverified"
-			}
+			label += ", " + rel.Status
 			sc.Options = append(sc.Options, views.Option{Value: rel.ID, Label: label + ")"})
 		}
 		p.Stark = append(p.Stark, sc)
@@ -166,7 +165,10 @@ func bindReanalyze(c echo.Context, base AnalysisSettings) (AnalysisSettings, str
 	}{{"instrument FWHM (nm)", "instrument_fwhm_nm", &st.InstrumentFWHMNM}, {"gas temperature (K)", "gas_temperature_k", &st.GasTemperatureK},
 		{"gas temperature σ (K)", "gas_temperature_unc_k", &st.GasTemperatureUncK}, {"pressure (Pa)", "pressure_pa", &st.PressurePa},
 		{"saturation (counts)", "saturation_counts", &st.SaturationCounts}, {"gain (e⁻/count)", "gain_e_per_count", &st.GainElectronsPerCount},
-		{"read noise (e⁻)", "read_noise_e", &st.ReadNoiseElectrons}, {"minimum SNR", "min_snr", &st.MinSNR}} {
+		{"read noise (e⁻)", "read_noise_e", &st.ReadNoiseElectrons}, {"minimum SNR", "min_snr", &st.MinSNR},
+		{"instrument FWHM σ (nm)", "instrument_fwhm_unc_nm", &st.InstrumentFWHMUncNM},
+		{"electron temperature (K)", "electron_temperature_k", &st.ElectronTemperatureK},
+		{"response calibration σ (relative)", "response_unc_rel", &st.ResponseUncRel}} {
 		if err := num(f.label, f.key, f.dst); err != nil {
 			return st, "", err
 		}

@@ -60,6 +60,9 @@ type Input struct {
 	StarkRelations          map[string]string `json:"stark_relations"`
 	LastResolvedUpper       *int              `json:"last_resolved_upper_level"`
 	SolveGasTemperature     *bool             `json:"solve_gas_temperature"`
+	InstrumentFWHMUncNM     *float64          `json:"instrument_fwhm_unc_nm"`
+	ElectronTemperatureK    *float64          `json:"electron_temperature_K"`
+	ResponseUncRel          *float64          `json:"response_unc_rel"`
 	Lines                   []LineInput       `json:"lines"`
 }
 
@@ -186,6 +189,9 @@ func Decode(source string, data []byte) (diag.Measurement, error) {
 		{"gas_temperature_unc_K", in.GasTemperatureUncK, &m.GasTemperatureUncK, false, "a 1σ in K, ≥ 0"},
 		{"pressure_Pa", in.PressurePa, &m.PressurePa, false, "a pressure in Pa, ≥ 0"},
 		{"ground_state_density_m3", in.GroundStateDensityM3, &m.GroundStateDensityM3, false, "an H(1s) density in m⁻³, ≥ 0"},
+		{"instrument_fwhm_unc_nm", in.InstrumentFWHMUncNM, &m.InstrumentFWHMUncNM, false, "a 1σ of the instrument FWHM in nm, ≥ 0"},
+		{"electron_temperature_K", in.ElectronTemperatureK, &m.ElectronTemperatureK, true, "an electron temperature in K, > 0"},
+		{"response_unc_rel", in.ResponseUncRel, &m.ResponseUncRel, false, "a relative 1σ of the response calibration, ≥ 0 (e.g. 0.05)"},
 	}
 	for _, n := range nums {
 		if n.v == nil {
@@ -202,6 +208,15 @@ func Decode(source string, data []byte) (diag.Measurement, error) {
 	}
 	if m.InstrumentGaussFWHMNM > 50 || m.InstrumentLorentzFWHMNM > 50 {
 		return fail(at("instrument_fwhm_nm"), "instrument_fwhm_nm", "instrument width above 50 nm: check the unit (nm expected)")
+	}
+	if m.InstrumentFWHMUncNM > 50 {
+		return fail(at("instrument_fwhm_unc_nm"), "instrument_fwhm_unc_nm", "%v nm is not a plausible 1σ of an instrument width (limit 50 nm): check the unit", m.InstrumentFWHMUncNM)
+	}
+	if m.ElectronTemperatureK != 0 && (m.ElectronTemperatureK < 1000 || m.ElectronTemperatureK > 2e6) {
+		return fail(at("electron_temperature_K"), "electron_temperature_K", "%v K is outside 1000–2e6 K: check the unit (K expected; the SH99 tables cover 2500–1.26e6 K)", m.ElectronTemperatureK)
+	}
+	if m.ResponseUncRel > 1 {
+		return fail(at("response_unc_rel"), "response_unc_rel", "%v is a relative 1σ above 100 %%: give a fraction (0.05 for 5 %%)", m.ResponseUncRel)
 	}
 	if m.PressurePa > 1e8 {
 		return fail(at("pressure_Pa"), "pressure_Pa", "%v Pa is above 1000 bar: check the unit (Pa expected)", m.PressurePa)

@@ -271,3 +271,15 @@ func BenchmarkAnalyzeWorstAccepted(b *testing.B) {
 		}
 	}
 }
+
+// TestDecodeUncertaintyInputs: the issue-8 inputs reach the measurement.
+func TestDecodeUncertaintyInputs(t *testing.T) {
+	m, err := Decode("t", []byte(`{"intensity_unit":"photon","instrument_fwhm_unc_nm":0.004,"electron_temperature_K":15000,"response_unc_rel":0.05,
+"lines":[{"upper_level":4,"intensity":1}]}`))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if m.InstrumentFWHMUncNM != 0.004 || m.ElectronTemperatureK != 15000 || m.ResponseUncRel != 0.05 {
+		t.Errorf("decoded %+v", m)
+	}
+}

@@ -66,10 +66,12 @@ type SynthLine struct {
 //
 //	I_n ∝ g_n·A_n·exp(−E_n/(k_B T_exc))
 //
-// Stark widths come from diag.DefaultStarkRelation(n).WidthFromDensity for
-// Hα and Hβ. Higher members have no relation in glowlog; they are given
-// 1.5·(n/4)² times the Hβ width, a display approximation of the roughly
-// n²-scaling of Stark widths along the series, not a physical relation.
+// Stark widths come from diag.PreferredStarkWidthNM at the default
+// electron temperature (the SH99 tables where they cover the line, else
+// the GGC 2003 relation of Hα and Hβ), the model the analysis prefers.
+// Lines no model covers are given 1.5·(n/4)² times the Hβ GGC width, a
+// display approximation of the roughly n²-scaling of Stark widths along
+// the series, not a physical relation.
 // The other widths are those of diag.NewBudget.
 func SynthLines(cfg SynthConfig) ([]SynthLine, error) {
 	if !(cfg.ExcitationTemperatureK > 0) || !(cfg.HalphaArea > 0) || !(cfg.ElectronDensityM3 >= 0) {
@@ -99,8 +101,8 @@ func SynthLines(cfg SynthConfig) ([]SynthLine, error) {
 			return nil, err
 		}
 		var stark float64
-		if rel, err := diag.DefaultStarkRelation(n); err == nil {
-			stark = rel.WidthFromDensity(cfg.ElectronDensityM3)
+		if w, _, err := diag.PreferredStarkWidthNM(n, cfg.ElectronDensityM3, diag.DefaultElectronTemperatureK); err == nil {
+			stark = w
 		} else {
 			stark = 1.5 * hbRel.WidthFromDensity(cfg.ElectronDensityM3) * float64(n*n) / 16
 		}
