@@ -33,16 +33,47 @@ func label(list []struct{ Key, Label string }, key string) string {
 	return key
 }
 
-// Statuses are the review states of a run, with display names of our own.
+// Statuses are the review states of a run. Each state has one name: the
+// key, stored in the database and written as it is by the CSV exports and
+// the API ("signed_off"); pages show the same name as words ("Signed
+// off", StatusLabel). Every page, file and answer takes the names from
+// here, so no state gets a second name.
 var Statuses = []struct{ Key, Label string }{
-	{"draft", "Draft"},
-	{"submitted", "Awaiting review"},
-	{"returned", "Returned for rework"},
-	{"signed_off", "Signed off"},
+	{StatusDraft, "Draft"},
+	{StatusSubmitted, "Submitted"},
+	{StatusReturned, "Returned"},
+	{StatusSignedOff, "Signed off"},
 }
 
-// StatusLabel returns the display name of a status key.
+// StatusLabel returns the display name of a status key (the key itself
+// when it is not a status).
 func StatusLabel(key string) string { return label(Statuses, key) }
+
+// ValidStatus reports whether key names a review state.
+func ValidStatus(key string) bool {
+	for _, s := range Statuses {
+		if s.Key == key {
+			return true
+		}
+	}
+	return false
+}
+
+// StatusKeys lists the state names as the API and CSV write them, for
+// messages ("draft, submitted, returned or signed_off").
+func StatusKeys() string {
+	var b strings.Builder
+	for i, s := range Statuses {
+		switch {
+		case i == len(Statuses)-1 && i > 0:
+			b.WriteString(" or ")
+		case i > 0:
+			b.WriteString(", ")
+		}
+		b.WriteString(s.Key)
+	}
+	return b.String()
+}
 
 // Run is a discharge run with its conditions and current summary.
 type Run struct {
