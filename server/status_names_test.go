@@ -16,7 +16,9 @@ import (
 
 // sameName folds a state name as a page, a CSV file or the API writes it
 // ("Signed off", "signed_off") to one form.
-func sameName(s string) string { return strings.ReplaceAll(strings.ToLower(strings.TrimSpace(s)), "_", " ") }
+func sameName(s string) string {
+	return strings.ReplaceAll(strings.ToLower(strings.TrimSpace(s)), "_", " ")
+}
 
 // TestOneNamePerState: every review state has one name, the same on the
 // pages, in the CSV export and in the API; a page shows the key in words.
