@@ -30,6 +30,8 @@ type runForm struct {
 	// Lines are the typed line table's rows, LineUnit its intensity unit.
 	Lines    []views.LineRow
 	LineUnit string
+	// PressureUnit is the unit PressurePa was typed in (Pa, mbar, Torr).
+	PressureUnit string
 }
 
 // newLineRows is the number of empty rows the line table starts with.
@@ -139,13 +141,21 @@ func upperOptions() []views.Option {
 
 func bindRunForm(c echo.Context) runForm {
 	v := func(k string) string { return strings.TrimSpace(c.FormValue(k)) }
-	return runForm{Title: v("title"), StartedAt: v("started_at"), SourceType: v("source_type"),
+	f := runForm{Title: v("title"), StartedAt: v("started_at"), SourceType: v("source_type"),
 		ChamberID: v("chamber_id"), NewChamber: v("new_chamber"), RecipeID: v("recipe_id"), NewRecipe: v("new_recipe"),
 		GasMixture: v("gas_mixture"), PressurePa: v("pressure_pa"), PowerW: v("power_w"), Flows: v("flows"),
 		GapMM: v("gap_mm"), GratingLMM: v("grating_lmm"), SlitUM: v("slit_um"), IntegrationMS: v("integration_ms"),
 		InstrumentFWHMNM: v("instrument_fwhm_nm"), InstrumentID: v("instrument_id"), GasTemperatureK: v("gas_temperature_k"),
 		Perturber: v("perturber"), Notes: c.FormValue("notes"), Tags: v("tags"), ResponseUnit: v("response_unit"),
-		LineTable: c.FormValue("line_table"), Lines: bindLineRows(c), LineUnit: v("lt_unit")}
+		LineTable: c.FormValue("line_table"), Lines: bindLineRows(c), LineUnit: v("lt_unit"), PressureUnit: v("pressure_unit")}
+	// The pressure is typed with its unit; a form that sends pressure_pa
+	// (as before the unit choice) gives it in Pa.
+	if form, err := c.FormParams(); err == nil && form.Has("pressure") {
+		f.PressurePa = v("pressure")
+	} else {
+		f.PressureUnit = "Pa"
+	}
+	return f
 }
 
 // formUserError is a rejected form field (422, shown on the form).
@@ -205,7 +215,7 @@ func (f runForm) input() (store.RunInput, error) {
 	for _, fl := range []struct {
 		label, v string
 		dst      **float64
-	}{{"pressure (Pa)", f.PressurePa, &in.PressurePa}, {"power (W)", f.PowerW, &in.PowerW},
+	}{{"pressure (" + orPa(f.PressureUnit) + ")", f.PressurePa, &in.PressurePa}, {"power (W)", f.PowerW, &in.PowerW},
 		{"electrode gap (mm)", f.GapMM, &in.GapMM}, {"grating (lines/mm)", f.GratingLMM, &in.GratingLMM},
 		{"slit (µm)", f.SlitUM, &in.SlitUM}, {"integration time (ms)", f.IntegrationMS, &in.IntegrationMS},
 		{"instrument FWHM (nm)", f.InstrumentFWHMNM, &in.InstrumentFWHMNM},
@@ -214,6 +224,15 @@ func (f runForm) input() (store.RunInput, error) {
 			return in, err
 		}
 	}
+	unit := orPa(f.PressureUnit)
+	pa, ok := store.PressureUnitPa(unit)
+	if !ok {
+		return in, formUserError("pressure unit: %q is not Pa, mbar or Torr", f.PressureUnit)
+	}
+	if in.PressurePa != nil {
+		*in.PressurePa *= pa
+	}
+	in.PressureUnit = unit
 	if f.NewChamber == "" {
 		if in.ChamberID, err = optID("chamber", f.ChamberID); err != nil {
 			return in, err
@@ -332,16 +351,47 @@ func (f runForm) view() views.RunFormValues {
 		PressurePa: f.PressurePa, PowerW: f.PowerW, Flows: f.Flows, GapMM: f.GapMM, GratingLMM: f.GratingLMM,
 		SlitUM: f.SlitUM, IntegrationMS: f.IntegrationMS, InstrumentFWHMNM: f.InstrumentFWHMNM,
 		InstrumentID: f.InstrumentID, GasTemperatureK: f.GasTemperatureK, Perturber: f.Perturber, Notes: f.Notes,
-		Tags: f.Tags, ResponseUnit: f.ResponseUnit, LineTable: f.LineTable, Lines: f.Lines, LineUnit: f.LineUnit}
+		Tags: f.Tags, ResponseUnit: f.ResponseUnit, LineTable: f.LineTable, Lines: f.Lines, LineUnit: f.LineUnit,
+		PressureUnit: f.PressureUnit}
 }
 
 func runFormFromRun(r store.Run) runForm {
 	return runForm{Title: r.Title, StartedAt: r.StartedAt.UTC().Format("2006-01-02T15:04"), SourceType: r.SourceType,
 		ChamberID: idOpt(r.ChamberID), RecipeID: idOpt(r.RecipeID), GasMixture: r.GasMixture,
-		PressurePa: fmtOpt(r.PressurePa), PowerW: fmtOpt(r.PowerW), Flows: r.Flows, GapMM: fmtOpt(r.GapMM),
+		PressurePa: pressureAsEntered(r.PressurePa, r.PressureUnit), PressureUnit: r.PressureUnit, PowerW: fmtOpt(r.PowerW), Flows: r.Flows, GapMM: fmtOpt(r.GapMM),
 		GratingLMM: fmtOpt(r.GratingLMM), SlitUM: fmtOpt(r.SlitUM), IntegrationMS: fmtOpt(r.IntegrationMS),
 		InstrumentFWHMNM: fmtOpt(r.InstrumentFWHMNM), InstrumentID: idOpt(r.InstrumentID),
 		GasTemperatureK: fmtOpt(r.GasTemperatureK), Perturber: r.Perturber, Notes: r.Notes, Tags: strings.Join(r.Tags, ", ")}
+}
+
+func orPa(unit string) string {
+	if unit == "" {
+		return "Pa"
+	}
+	return unit
+}
+
+// pressureAsEntered writes a pressure stored in Pa in the unit it was
+// entered in, with 12 significant digits so that the conversion's last
+// bit does not show ("0.5" Torr, not "0.49999999999999994").
+func pressureAsEntered(pa *float64, unit string) string {
+	if pa == nil {
+		return ""
+	}
+	f, ok := store.PressureUnitPa(unit)
+	if !ok {
+		f = 1
+	}
+	return strconv.FormatFloat(*pa/f, 'g', 12, 64)
+}
+
+// pressureUnitOptions are the pressure unit choices.
+func pressureUnitOptions() []views.Option {
+	var out []views.Option
+	for _, u := range store.PressureUnits {
+		out = append(out, views.Option{Value: u.Key, Label: u.Key})
+	}
+	return out
 }
 
 // perturberOptions lists "none" and the perturbers of diag.
@@ -374,7 +424,8 @@ func (s *Server) runFormProps(c echo.Context, f runForm, edit bool, run *store.R
 		title, cur = "Edit run", "runs"
 	}
 	p := views.RunFormProps{Layout: s.layout(c, title, cur), Edit: edit, Values: f.view(),
-		Perturbers: perturberOptions(), MaxFileMB: store.MaxAttachmentBytes >> 20, Uppers: upperOptions()}
+		Perturbers: perturberOptions(), MaxFileMB: store.MaxAttachmentBytes >> 20, Uppers: upperOptions(),
+		PressureUnits: pressureUnitOptions()}
 	if run != nil {
 		p.RunID, p.AnalysisVersion = run.ID, run.AnalysisVersion
 	}
@@ -415,7 +466,8 @@ func canChangeRun(u *store.User, r store.Run) error {
 // newRun is GET /runs/new.
 func (s *Server) newRun(c echo.Context) error {
 	f := runForm{StartedAt: s.DB.Now().UTC().Format("2006-01-02T15:04"), SourceType: store.SourceTypes[0].Key,
-		Perturber: "none", ResponseUnit: "photon", Lines: make([]views.LineRow, newLineRows), LineUnit: "photon"}
+		Perturber: "none", ResponseUnit: "photon", Lines: make([]views.LineRow, newLineRows), LineUnit: "photon",
+		PressureUnit: "Pa"}
 	p, err := s.runFormProps(c, f, false, nil)
 	if err != nil {
 		return err

@@ -234,7 +234,7 @@ func conditionRows(r store.Run) (cond, spec []views.KV) {
 	cond = []views.KV{
 		{K: "Source type", V: store.SourceLabel(r.SourceType)},
 		{K: "Gas mixture", V: gas},
-		{K: "Pressure (Pa)", V: num(r.PressurePa)},
+		{K: "Pressure", V: pressureText(r.PressurePa, r.PressureUnit)},
 		{K: "Power (W)", V: num(r.PowerW)},
 		{K: "Flows (sccm)", V: flows},
 		{K: "Electrode gap (mm)", V: num(r.GapMM)},
@@ -540,4 +540,20 @@ func (s *Server) figureSpectrum(c echo.Context) error {
 	}
 	svg, err := s.spectrumSVG(c, r)
 	return svgBlob(c, fileStem(p, r)+"-spectrum.svg", svg, err)
+}
+
+// pressureText shows a pressure as entered, with Pa beside another unit
+// ("5 mbar (500 Pa)", "300 Pa").
+func pressureText(pa *float64, unit string) string {
+	if pa == nil {
+		return "—"
+	}
+	if unit == "" || unit == "Pa" {
+		return strconv.FormatFloat(*pa, 'g', 6, 64) + " Pa"
+	}
+	v, err := strconv.ParseFloat(pressureAsEntered(pa, unit), 64)
+	if err != nil {
+		v = *pa
+	}
+	return strconv.FormatFloat(v, 'g', 6, 64) + " " + unit + " (" + strconv.FormatFloat(*pa, 'g', 6, 64) + " Pa)"
 }
