@@ -141,3 +141,33 @@ func mustID(t *testing.T, s string) int64 {
 	}
 	return id
 }
+
+// TestLineTableRowsOnUpload: the run page's "Add data" form offers the
+// same rows, and typed rows are added to the run as a line table and
+// analysed as a new version (303 to it).
+func TestLineTableRowsOnUpload(t *testing.T) {
+	f := newRunsFixture(t)
+	_, owner := f.signIn("opal", store.RoleOperator)
+	r := f.createTestRun(owner)
+	page := f.get("/runs/"+idStr(r.ID), owner).Body.String()
+	up := testidInner(page, "upload-form")
+	if n := strings.Count(page, `data-testid="lt-row"`); n != newLineRows || !strings.Contains(up, `name="lt_upper"`) {
+		t.Errorf("upload form has %d line rows, want %d", n, newLineRows)
+	}
+	v := url.Values{"lt_unit": {"photon"}, "lt_upper": {"4", ""}, "lt_intensity": {"", ""}, "lt_intensity_unc": {"", ""},
+		"lt_fwhm": {"0.40", ""}, "lt_fwhm_unc": {"0.01", ""}}
+	rec := f.postMultipart("/runs/"+idStr(r.ID)+"/attachments", owner, v)
+	if rec.Code != http.StatusSeeOther || !strings.HasSuffix(rec.Header().Get("Location"), "?v=2") {
+		t.Fatalf("upload rows: %d → %q %s", rec.Code, rec.Header().Get("Location"), rec.Body.String())
+	}
+	atts, err := f.db.Attachments(context.Background(), r.ID)
+	var typed int
+	for _, a := range atts {
+		if a.Kind == store.KindLineTable && a.Name == "typed-line-table.json" {
+			typed++
+		}
+	}
+	if err != nil || len(atts) != 2 || typed != 1 {
+		t.Fatalf("attachments after upload: %+v (%v), want the spectrum and one typed line table", atts, err)
+	}
+}
