@@ -591,8 +591,8 @@ func (s *Server) apiFilter(c echo.Context) (store.RunFilter, error) {
 	if f.SourceType != "" && store.SourceLabel(f.SourceType) == f.SourceType {
 		return f, badRequest("source: %q is not one of %s", f.SourceType, sourceKeys())
 	}
-	if f.Status != "" && store.StatusLabel(f.Status) == f.Status {
-		return f, badRequest("status: %q is not draft, submitted, returned or signed_off", f.Status)
+	if f.Status != "" && !store.ValidStatus(f.Status) {
+		return f, badRequest("status: %q is not %s", f.Status, store.StatusKeys())
 	}
 	for _, d := range []struct {
 		name string

@@ -8,6 +8,7 @@ import (
 	"image/color"
 	"math"
 	"regexp"
+	"sort"
 	"strconv"
 	"strings"
 
@@ -416,4 +417,147 @@ func inlineSVG(svg []byte) string {
 		s = s[i:]
 	}
 	return svgSize.ReplaceAllString(s, `<svg width="100%"`)
+}
+
+// Marker colours of the whole-spectrum figure: fitted lines in the fit's
+// amber, lines searched for but not fitted in grey.
+var (
+	figMissed = color.RGBA{R: 0x6b, G: 0x74, B: 0x7e, A: 0xff}
+	figGuide  = color.RGBA{R: 0xe3, G: 0xb0, B: 0x8f, A: 0xff} // the fit amber, lightened
+)
+
+// SpectrumSVG draws a whole uploaded spectrum (wavelength in nm against
+// the counts as uploaded) with the Balmer lines of its analysis marked:
+// a solid vertical line and the line's name at the fitted centre of each
+// fitted line, a dashed one at the expected centre of each line searched
+// for but not fitted (not detected, saturated, fit failed). Long spectra
+// are decimated (min/max per bucket) so that narrow peaks survive.
+func SpectrumSVG(wl, counts []float64, d *diag.Result, search []spectrum.LineSearch, name string) ([]byte, error) {
+	n := len(wl)
+	if n < 2 || len(counts) != n {
+		return nil, errNoFigure
+	}
+	pts := decimate(wl, counts, maxPlotPoints/2)
+	if len(pts) < 2 {
+		return nil, errNoFigure
+	}
+	x0, x1 := math.Inf(1), math.Inf(-1)
+	y0, y1 := math.Inf(1), math.Inf(-1)
+	for _, p := range pts {
+		x0, x1 = math.Min(x0, p.X), math.Max(x1, p.X)
+		y0, y1 = math.Min(y0, p.Y), math.Max(y1, p.Y)
+	}
+	if !(y1 > y0) {
+		y1 = y0 + 1
+	}
+
+	p := newFigure()
+	p.Title.Text = "Whole spectrum: " + name
+	p.X.Label.Text = "wavelength (nm, as in the file)"
+	p.Y.Label.Text = "counts (as uploaded)"
+	p.Add(plotter.NewGrid())
+
+	type mark struct {
+		x      float64
+		name   string
+		fitted bool
+	}
+	var marks []mark
+	fitted := map[int]bool{}
+	if d != nil {
+		for _, l := range d.Lines {
+			if l.ProfileFit != nil {
+				marks = append(marks, mark{l.CenterNM, l.Name, true})
+				fitted[l.UpperLevel] = true
+			}
+		}
+	}
+	for _, ls := range search {
+		if !fitted[ls.UpperLevel] && ls.Status != "fitted" {
+			marks = append(marks, mark{ls.ExpectedNM, ls.Name, false})
+		}
+	}
+	sort.Slice(marks, func(i, j int) bool { return marks[i].x < marks[j].x })
+	// Labels sit above the data in up to three rows: a label closer than
+	// minGap to the previous one in its row moves up a row.
+	span := y1 - y0
+	minGap := 0.035 * (x1 - x0)
+	rowY := func(r int) float64 { return y1 + (0.07+0.075*float64(r))*span }
+	top := rowY(2) + 0.06*span
+	var lastX [3]float64
+	for i := range lastX {
+		lastX[i] = math.Inf(-1)
+	}
+	var fitL, missL plotter.XYLabels
+	var fittedNames, missedNames []string
+	for _, m := range marks {
+		if m.x < x0 || m.x > x1 {
+			continue
+		}
+		row := 0
+		for row < 2 && m.x-lastX[row] < minGap {
+			row++
+		}
+		lastX[row] = m.x
+		// A faint guide from the axis to the label, under the data.
+		v, err := plotter.NewLine(plotter.XYs{{X: m.x, Y: math.Min(y0, 0)}, {X: m.x, Y: rowY(row) - 0.03*span}})
+		if err != nil {
+			return nil, err
+		}
+		v.LineStyle.Width = vg.Points(0.8)
+		xy := plotter.XY{X: m.x, Y: rowY(row)}
+		if m.fitted {
+			v.LineStyle.Color = figGuide
+			fitL.XYs, fitL.Labels = append(fitL.XYs, xy), append(fitL.Labels, m.name)
+			fittedNames = append(fittedNames, m.name+" at "+views.SigFig(m.x, 6)+" nm")
+		} else {
+			v.LineStyle.Color = figMissed
+			v.LineStyle.Dashes = []vg.Length{vg.Points(3), vg.Points(3)}
+			missL.XYs, missL.Labels = append(missL.XYs, xy), append(missL.Labels, m.name+"?")
+			missedNames = append(missedNames, m.name)
+		}
+		p.Add(v)
+	}
+	ln, err := plotter.NewLine(pts)
+	if err != nil {
+		return nil, err
+	}
+	ln.LineStyle.Color, ln.LineStyle.Width = figPoint, vg.Points(1)
+	p.Add(ln)
+	for _, l := range []struct {
+		xyl plotter.XYLabels
+		c   color.Color
+	}{{fitL, figFit}, {missL, figMissed}} {
+		if len(l.xyl.XYs) == 0 {
+			continue
+		}
+		lb, err := plotter.NewLabels(l.xyl)
+		if err != nil {
+			return nil, err
+		}
+		setLabelStyle(lb, l.c)
+		for i := range lb.TextStyle {
+			lb.TextStyle[i].XAlign = draw.XCenter
+			lb.TextStyle[i].Font.Size = vg.Points(10)
+		}
+		p.Add(lb)
+	}
+	p.X.Min, p.X.Max = x0, x1
+	p.Y.Min, p.Y.Max = math.Min(y0, 0), top
+
+	svg, err := drawSVG(p.Draw, 10*vg.Inch, 3.4*vg.Inch)
+	if err != nil {
+		return nil, err
+	}
+	desc := fmt.Sprintf("Spectrum %s from %s to %s nm with %d pixels, counts as uploaded.", name,
+		views.SigFig(x0, 6), views.SigFig(x1, 6), n)
+	if len(fittedNames) > 0 {
+		desc += " Fitted lines: " + strings.Join(fittedNames, ", ") + "."
+	} else {
+		desc += " No line was fitted."
+	}
+	if len(missedNames) > 0 {
+		desc += " Searched for but not fitted: " + strings.Join(missedNames, ", ") + "."
+	}
+	return withAccessibility(svg, "Whole spectrum: "+name, desc), nil
 }

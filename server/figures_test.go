@@ -139,3 +139,40 @@ func TestWindowSVG(t *testing.T) {
 		t.Errorf("empty window: err = %v, want errNoFigure", err)
 	}
 }
+
+// TestSpectrumSVG: the whole spectrum is drawn over its full range with
+// every fitted line labelled at its centre and a line searched for but
+// not fitted marked with "?"; the description says the same in words.
+func TestSpectrumSVG(t *testing.T) {
+	n := 1024
+	wl, counts := make([]float64, n), make([]float64, n)
+	for i := range n {
+		wl[i] = 380 + 320*float64(i)/float64(n-1)
+		counts[i] = 100 + 5000*math.Exp(-math.Pow((wl[i]-656.28)/0.3, 2)) + 900*math.Exp(-math.Pow((wl[i]-486.13)/0.3, 2))
+	}
+	d := &diag.Result{Lines: []diag.LineResult{
+		{UpperLevel: 3, Name: "Hα", ProfileFit: &diag.ProfileFit{CenterNM: 656.28}},
+		{UpperLevel: 4, Name: "Hβ", ProfileFit: &diag.ProfileFit{CenterNM: 486.13}},
+	}}
+	search := []spectrum.LineSearch{
+		{UpperLevel: 3, Name: "Hα", ExpectedNM: 656.28, Status: "fitted"},
+		{UpperLevel: 4, Name: "Hβ", ExpectedNM: 486.13, Status: "fitted"},
+		{UpperLevel: 5, Name: "Hγ", ExpectedNM: 434.05, Status: "not-detected"},
+	}
+	svg, err := SpectrumSVG(wl, counts, d, search, "lamp.csv")
+	if err != nil {
+		t.Fatal(err)
+	}
+	wellFormed(t, svg)
+	saveFigure(t, "spectrum.svg", svg)
+	s := string(svg)
+	for _, want := range []string{`role="img"`, "<title>Whole spectrum: lamp.csv</title>", "from 380.000 to 700.000 nm with 1024 pixels",
+		"Fitted lines: Hβ at 486.130 nm, Hα at 656.280 nm.", "Searched for but not fitted: Hγ.", ">Hα<", ">Hβ<", ">Hγ?<"} {
+		if !strings.Contains(s, want) {
+			t.Errorf("spectrum figure lacks %q", want)
+		}
+	}
+	if _, err := SpectrumSVG(wl[:1], counts[:1], d, nil, "x"); err != errNoFigure {
+		t.Errorf("one point: err %v, want errNoFigure", err)
+	}
+}

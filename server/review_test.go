@@ -107,11 +107,11 @@ func TestReviewWorkflow(t *testing.T) {
 			t.Fatalf("POST %s: %d, want %d with %q; body %.300s", p, code, want, contains, body)
 		}
 	}
-	post(rev, path(run, "signoff"), nil, http.StatusConflict, "only runs that are “Awaiting review”")
+	post(rev, path(run, "signoff"), nil, http.StatusConflict, "only runs that are “Submitted”")
 	post(rev2, path(run, "submit"), nil, http.StatusForbidden, "only the run&#39;s operator or an admin")
 	post(vie, path(run, "comments"), url.Values{"body": {"hi"}}, http.StatusForbidden, "operator role")
 	post(op, path(run, "submit"), url.Values{"note": {"ready"}}, http.StatusSeeOther, "")
-	post(op, path(run, "submit"), nil, http.StatusConflict, "is “Awaiting review”")
+	post(op, path(run, "submit"), nil, http.StatusConflict, "is “Submitted”")
 	post(op, path(run, "signoff"), nil, http.StatusForbidden, "reviewer role")
 	post(rev, path(run, "return"), url.Values{"note": {""}}, http.StatusBadRequest, "a note is required")
 	post(rev, path(run, "return"), url.Values{"note": {"dark frame missing"}}, http.StatusSeeOther, "")
@@ -166,7 +166,7 @@ func TestRunReviewPanel(t *testing.T) {
 		t.Fatal(err)
 	}
 	if p.CanSignOff || !p.CanReturn || p.CanSubmit || !strings.Contains(p.SignOffBlocked, "You operated this run") ||
-		len(p.Events) != 1 || p.Events[0].To != "Awaiting review" || p.CSRF != "tok" {
+		len(p.Events) != 1 || p.Events[0].To != "Submitted" || p.CSRF != "tok" {
 		t.Errorf("own run panel: %+v", p)
 	}
 	c.Set("user", &f.rev2)

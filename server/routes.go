@@ -40,6 +40,7 @@ func (s *Server) routes() {
 	v.GET("/runs/:id/lines.csv", s.downloadLinesCSV)
 	v.GET("/runs/:id/boltzmann.svg", s.figureBoltzmann)
 	v.GET("/runs/:id/window.svg", s.figureWindow)
+	v.GET("/runs/:id/spectrum.svg", s.figureSpectrum)
 	v.GET("/trends", s.showTrends)
 	v.GET("/trends.csv", s.exportTrends)
 	v.GET("/planner", s.showPlanner)

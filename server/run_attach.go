@@ -57,7 +57,18 @@ func readUploads(c echo.Context) ([]upload, error) {
 			}
 		}
 	}
-	if lt := strings.TrimSpace(c.FormValue("line_table")); lt != "" {
+	typed, err := lineTableJSON(strings.TrimSpace(c.FormValue("lt_unit")), bindLineRows(c))
+	if err != nil {
+		return nil, err
+	}
+	lt := strings.TrimSpace(c.FormValue("line_table"))
+	if lt != "" && typed != nil {
+		return nil, formUserError("line table: fill in the rows or paste JSON, not both")
+	}
+	if typed != nil {
+		lt = string(typed)
+	}
+	if lt != "" {
 		if len(lt) > store.MaxAttachmentBytes {
 			return nil, formUserError("the typed line table is larger than %d MB", store.MaxAttachmentBytes>>20)
 		}

@@ -2,6 +2,7 @@ package server
 
 import (
 	"context"
+	"encoding/json"
 	"errors"
 	"fmt"
 	"net/http"
@@ -26,17 +27,135 @@ type runForm struct {
 	InstrumentFWHMNM, InstrumentID             string
 	GasTemperatureK, Perturber, Notes, Tags    string
 	ResponseUnit, LineTable                    string
+	// Lines are the typed line table's rows, LineUnit its intensity unit.
+	Lines    []views.LineRow
+	LineUnit string
+	// PressureUnit is the unit PressurePa was typed in (Pa, mbar, Torr).
+	PressureUnit string
+}
+
+// newLineRows is the number of empty rows the line table starts with.
+const newLineRows = 4
+
+// maxLineRows bounds the typed line table (diag.MaxLevel upper levels).
+const maxLineRows = diag.MaxLevel
+
+// bindLineRows reads the typed line table's rows (parallel fields
+// lt_upper, lt_intensity, lt_intensity_unc, lt_fwhm, lt_fwhm_unc).
+func bindLineRows(c echo.Context) []views.LineRow {
+	form, err := c.FormParams()
+	if err != nil {
+		return nil
+	}
+	col := func(k string, i int) string {
+		if v := form[k]; i < len(v) {
+			return strings.TrimSpace(v[i])
+		}
+		return ""
+	}
+	n := len(form["lt_upper"])
+	for _, k := range []string{"lt_intensity", "lt_intensity_unc", "lt_fwhm", "lt_fwhm_unc"} {
+		n = max(n, len(form[k]))
+	}
+	n = min(n, maxLineRows)
+	rows := make([]views.LineRow, n)
+	for i := range rows {
+		rows[i] = views.LineRow{Upper: col("lt_upper", i), Intensity: col("lt_intensity", i),
+			IntensityUnc: col("lt_intensity_unc", i), FWHM: col("lt_fwhm", i), FWHMUnc: col("lt_fwhm_unc", i)}
+	}
+	return rows
+}
+
+// lineTableJSON turns the typed rows into a measurement set (the JSON that
+// glowlog analyze reads); nil when every row is empty. A problem names the
+// row and the field.
+func lineTableJSON(unit string, rows []views.LineRow) ([]byte, error) {
+	type line struct {
+		Upper        int      `json:"upper_level"`
+		Intensity    *float64 `json:"intensity,omitempty"`
+		IntensityUnc *float64 `json:"intensity_unc,omitempty"`
+		FWHM         *float64 `json:"fwhm_nm,omitempty"`
+		FWHMUnc      *float64 `json:"fwhm_unc_nm,omitempty"`
+	}
+	if unit == "" {
+		unit = "photon"
+	}
+	if unit != "photon" && unit != "energy" {
+		return nil, formUserError("line table: intensity unit %q is not photon or energy", unit)
+	}
+	var lines []line
+	seen := map[int]int{}
+	for i, r := range rows {
+		if r == (views.LineRow{}) {
+			continue
+		}
+		row := fmt.Sprintf("line table, row %d", i+1)
+		if r.Upper == "" {
+			return nil, formUserError("%s: choose the line (upper level)", row)
+		}
+		n, err := strconv.Atoi(r.Upper)
+		if err != nil || n < 3 || n > diag.MaxLevel {
+			return nil, formUserError("%s: %q is not a Balmer upper level (3 to %d)", row, r.Upper, diag.MaxLevel)
+		}
+		if j, dup := seen[n]; dup {
+			return nil, formUserError("%s: the line n = %d is already in row %d", row, n, j)
+		}
+		seen[n] = i + 1
+		l := line{Upper: n}
+		for _, fl := range []struct {
+			label, v string
+			dst      **float64
+		}{{"intensity", r.Intensity, &l.Intensity}, {"intensity σ", r.IntensityUnc, &l.IntensityUnc},
+			{"FWHM (nm)", r.FWHM, &l.FWHM}, {"FWHM σ (nm)", r.FWHMUnc, &l.FWHMUnc}} {
+			if *fl.dst, err = optFloat(row+": "+fl.label, fl.v); err != nil {
+				return nil, err
+			}
+		}
+		if l.Intensity == nil && l.FWHM == nil {
+			return nil, formUserError("%s: give an intensity, a FWHM or both", row)
+		}
+		lines = append(lines, l)
+	}
+	if len(lines) == 0 {
+		return nil, nil
+	}
+	return json.MarshalIndent(struct {
+		Unit  string `json:"intensity_unit"`
+		Lines []line `json:"lines"`
+	}{unit, lines}, "", "  ")
+}
+
+// upperOptions are the line table's choices: the Balmer lines by name
+// with their upper level.
+func upperOptions() []views.Option {
+	var out []views.Option
+	for n := 3; n <= 12; n++ {
+		t, err := diag.Balmer(n, diag.Hydrogen)
+		if err != nil {
+			continue
+		}
+		out = append(out, views.Option{Value: strconv.Itoa(n), Label: fmt.Sprintf("%s (n = %d)", t.Name(), n)})
+	}
+	return out
 }
 
 func bindRunForm(c echo.Context) runForm {
 	v := func(k string) string { return strings.TrimSpace(c.FormValue(k)) }
-	return runForm{Title: v("title"), StartedAt: v("started_at"), SourceType: v("source_type"),
+	f := runForm{Title: v("title"), StartedAt: v("started_at"), SourceType: v("source_type"),
 		ChamberID: v("chamber_id"), NewChamber: v("new_chamber"), RecipeID: v("recipe_id"), NewRecipe: v("new_recipe"),
 		GasMixture: v("gas_mixture"), PressurePa: v("pressure_pa"), PowerW: v("power_w"), Flows: v("flows"),
 		GapMM: v("gap_mm"), GratingLMM: v("grating_lmm"), SlitUM: v("slit_um"), IntegrationMS: v("integration_ms"),
 		InstrumentFWHMNM: v("instrument_fwhm_nm"), InstrumentID: v("instrument_id"), GasTemperatureK: v("gas_temperature_k"),
 		Perturber: v("perturber"), Notes: c.FormValue("notes"), Tags: v("tags"), ResponseUnit: v("response_unit"),
-		LineTable: c.FormValue("line_table")}
+		LineTable: c.FormValue("line_table"), Lines: bindLineRows(c), LineUnit: v("lt_unit"), PressureUnit: v("pressure_unit")}
+	// The pressure is typed with its unit; a form that sends pressure_pa
+	// (as before the unit choice) gives it in Pa.
+	if form, err := c.FormParams(); err == nil && form.Has("pressure") {
+		f.PressurePa = v("pressure")
+	} else {
+		f.PressureUnit = "Pa"
+	}
+	return f
 }
 
 // formUserError is a rejected form field (422, shown on the form).
@@ -96,7 +215,7 @@ func (f runForm) input() (store.RunInput, error) {
 	for _, fl := range []struct {
 		label, v string
 		dst      **float64
-	}{{"pressure (Pa)", f.PressurePa, &in.PressurePa}, {"power (W)", f.PowerW, &in.PowerW},
+	}{{"pressure (" + orPa(f.PressureUnit) + ")", f.PressurePa, &in.PressurePa}, {"power (W)", f.PowerW, &in.PowerW},
 		{"electrode gap (mm)", f.GapMM, &in.GapMM}, {"grating (lines/mm)", f.GratingLMM, &in.GratingLMM},
 		{"slit (µm)", f.SlitUM, &in.SlitUM}, {"integration time (ms)", f.IntegrationMS, &in.IntegrationMS},
 		{"instrument FWHM (nm)", f.InstrumentFWHMNM, &in.InstrumentFWHMNM},
@@ -105,6 +224,15 @@ func (f runForm) input() (store.RunInput, error) {
 			return in, err
 		}
 	}
+	unit := orPa(f.PressureUnit)
+	pa, ok := store.PressureUnitPa(unit)
+	if !ok {
+		return in, formUserError("pressure unit: %q is not Pa, mbar or Torr", f.PressureUnit)
+	}
+	if in.PressurePa != nil {
+		*in.PressurePa *= pa
+	}
+	in.PressureUnit = unit
 	if f.NewChamber == "" {
 		if in.ChamberID, err = optID("chamber", f.ChamberID); err != nil {
 			return in, err
@@ -223,16 +351,47 @@ func (f runForm) view() views.RunFormValues {
 		PressurePa: f.PressurePa, PowerW: f.PowerW, Flows: f.Flows, GapMM: f.GapMM, GratingLMM: f.GratingLMM,
 		SlitUM: f.SlitUM, IntegrationMS: f.IntegrationMS, InstrumentFWHMNM: f.InstrumentFWHMNM,
 		InstrumentID: f.InstrumentID, GasTemperatureK: f.GasTemperatureK, Perturber: f.Perturber, Notes: f.Notes,
-		Tags: f.Tags, ResponseUnit: f.ResponseUnit, LineTable: f.LineTable}
+		Tags: f.Tags, ResponseUnit: f.ResponseUnit, LineTable: f.LineTable, Lines: f.Lines, LineUnit: f.LineUnit,
+		PressureUnit: f.PressureUnit}
 }
 
 func runFormFromRun(r store.Run) runForm {
 	return runForm{Title: r.Title, StartedAt: r.StartedAt.UTC().Format("2006-01-02T15:04"), SourceType: r.SourceType,
 		ChamberID: idOpt(r.ChamberID), RecipeID: idOpt(r.RecipeID), GasMixture: r.GasMixture,
-		PressurePa: fmtOpt(r.PressurePa), PowerW: fmtOpt(r.PowerW), Flows: r.Flows, GapMM: fmtOpt(r.GapMM),
+		PressurePa: pressureAsEntered(r.PressurePa, r.PressureUnit), PressureUnit: r.PressureUnit, PowerW: fmtOpt(r.PowerW), Flows: r.Flows, GapMM: fmtOpt(r.GapMM),
 		GratingLMM: fmtOpt(r.GratingLMM), SlitUM: fmtOpt(r.SlitUM), IntegrationMS: fmtOpt(r.IntegrationMS),
 		InstrumentFWHMNM: fmtOpt(r.InstrumentFWHMNM), InstrumentID: idOpt(r.InstrumentID),
 		GasTemperatureK: fmtOpt(r.GasTemperatureK), Perturber: r.Perturber, Notes: r.Notes, Tags: strings.Join(r.Tags, ", ")}
+}
+
+func orPa(unit string) string {
+	if unit == "" {
+		return "Pa"
+	}
+	return unit
+}
+
+// pressureAsEntered writes a pressure stored in Pa in the unit it was
+// entered in, with 12 significant digits so that the conversion's last
+// bit does not show ("0.5" Torr, not "0.49999999999999994").
+func pressureAsEntered(pa *float64, unit string) string {
+	if pa == nil {
+		return ""
+	}
+	f, ok := store.PressureUnitPa(unit)
+	if !ok {
+		f = 1
+	}
+	return strconv.FormatFloat(*pa/f, 'g', 12, 64)
+}
+
+// pressureUnitOptions are the pressure unit choices.
+func pressureUnitOptions() []views.Option {
+	var out []views.Option
+	for _, u := range store.PressureUnits {
+		out = append(out, views.Option{Value: u.Key, Label: u.Key})
+	}
+	return out
 }
 
 // perturberOptions lists "none" and the perturbers of diag.
@@ -265,9 +424,13 @@ func (s *Server) runFormProps(c echo.Context, f runForm, edit bool, run *store.R
 		title, cur = "Edit run", "runs"
 	}
 	p := views.RunFormProps{Layout: s.layout(c, title, cur), Edit: edit, Values: f.view(),
-		Perturbers: perturberOptions(), MaxFileMB: store.MaxAttachmentBytes >> 20}
+		Perturbers: perturberOptions(), MaxFileMB: store.MaxAttachmentBytes >> 20, Uppers: upperOptions(),
+		PressureUnits: pressureUnitOptions()}
 	if run != nil {
 		p.RunID, p.AnalysisVersion = run.ID, run.AnalysisVersion
+	}
+	if !edit && len(p.Values.Lines) == 0 {
+		p.Values.Lines = make([]views.LineRow, newLineRows)
 	}
 	for _, st := range store.SourceTypes {
 		p.Sources = append(p.Sources, views.Option{Value: st.Key, Label: st.Label})
@@ -303,7 +466,8 @@ func canChangeRun(u *store.User, r store.Run) error {
 // newRun is GET /runs/new.
 func (s *Server) newRun(c echo.Context) error {
 	f := runForm{StartedAt: s.DB.Now().UTC().Format("2006-01-02T15:04"), SourceType: store.SourceTypes[0].Key,
-		Perturber: "none", ResponseUnit: "photon"}
+		Perturber: "none", ResponseUnit: "photon", Lines: make([]views.LineRow, newLineRows), LineUnit: "photon",
+		PressureUnit: "Pa"}
 	p, err := s.runFormProps(c, f, false, nil)
 	if err != nil {
 		return err
@@ -317,6 +481,11 @@ func (s *Server) createRun(c echo.Context) error {
 	ctx := c.Request().Context()
 	u := currentUser(c)
 	f := bindRunForm(c)
+	// "Add a line" and "×" re-render the form with one row more or less
+	// (without a script); nothing is stored.
+	if c.FormValue("lt_add") != "" || c.FormValue("lt_remove") != "" {
+		return s.relayoutLineTable(c, f)
+	}
 	ups, upErr := readUploads(c)
 	fail := func(err error) error {
 		msg, ok := userMessage(err)
@@ -479,4 +648,34 @@ func (s *Server) updateRun(c echo.Context) error {
 	}
 	flash(c, msg)
 	return c.Redirect(http.StatusSeeOther, fmt.Sprintf("/runs/%d", id))
+}
+
+// relayoutLineTable answers the line table's add and remove buttons: the
+// form comes back as typed with a row added or the chosen row removed.
+func (s *Server) relayoutLineTable(c echo.Context, f runForm) error {
+	if c.FormValue("lt_add") != "" && len(f.Lines) < maxLineRows {
+		f.Lines = append(f.Lines, views.LineRow{})
+	}
+	if v := c.FormValue("lt_remove"); v != "" {
+		i, err := strconv.Atoi(v)
+		if err != nil || i < 0 || i >= len(f.Lines) {
+			return badRequest("lt_remove: no row %q to remove", v)
+		}
+		f.Lines = append(f.Lines[:i:i], f.Lines[i+1:]...)
+		if len(f.Lines) == 0 {
+			f.Lines = []views.LineRow{{}}
+		}
+	}
+	p, err := s.runFormProps(c, f, false, nil)
+	if err != nil {
+		return err
+	}
+	if form, err := c.MultipartForm(); err == nil && form != nil {
+		for _, fhs := range form.File {
+			for _, fh := range fhs {
+				p.FilesLost = p.FilesLost || fh.Filename != ""
+			}
+		}
+	}
+	return render(c, http.StatusOK, views.RunForm(p))
 }

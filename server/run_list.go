@@ -76,8 +76,8 @@ func (f runListForm) filter() (store.RunFilter, error) {
 		rf.SourceType = f.Source
 	}
 	if f.Status != "" {
-		if store.StatusLabel(f.Status) == f.Status {
-			return rf, badRequest("status: unknown value %q", f.Status)
+		if !store.ValidStatus(f.Status) {
+			return rf, badRequest("status: unknown value %q (one of %s)", f.Status, store.StatusKeys())
 		}
 		rf.Status = f.Status
 	}

@@ -100,7 +100,7 @@ func TestRunListFiltersAndSort(t *testing.T) {
 	for _, want := range []string{
 		`href="/runs.csv?gas=Ar&amp;sort=-texc"`, // CSV link keeps the query
 		`href="/runs?gas=Ar&amp;sort=texc"`,      // clicking the sorted column flips it
-		`<span class="badge submitted" data-testid="run-status">Awaiting review</span>`,
+		`<span class="badge submitted" data-testid="run-status">Submitted</span>`,
 		`2026-03-02 09:00`,
 		`(2.00 ± 0.20) × 10²¹`, // n_e ± σ
 		`5200 ± 260`,           // T_exc ± σ

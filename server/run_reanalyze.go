@@ -134,7 +134,7 @@ func (s *Server) uploadFormFor(c echo.Context, r store.Run) templ.Component {
 	if canChangeRun(currentUser(c), r) != nil {
 		return nil
 	}
-	p := views.UploadFormProps{RunID: r.ID, MaxFileMB: store.MaxAttachmentBytes >> 20}
+	p := views.UploadFormProps{RunID: r.ID, MaxFileMB: store.MaxAttachmentBytes >> 20, Uppers: upperOptions()}
 	if tok, ok := c.Get(middleware.DefaultCSRFConfig.ContextKey).(string); ok {
 		p.CSRF = tok
 	}

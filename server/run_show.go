@@ -3,6 +3,7 @@ package server
 import (
 	"bytes"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"math"
 	"net/http"
@@ -173,7 +174,15 @@ func (s *Server) showRun(c echo.Context) error {
 		props.Series = seriesRows(base, p)
 		if r := p.selected(); r != nil {
 			props.Result = resultView(base, p, r, true)
+			props.Result.Compact = true
+			if r.Spectrum != nil {
+				props.Result.Spectrum = s.spectrumFigure(c, base, p, r)
+			}
 		}
+	}
+	props.Summary = runSummary(p)
+	if canChangeRun(currentUser(c), p.Run) == nil {
+		props.Summary.EditHref = base + "/edit"
 	}
 	if props.Reanalyze, err = s.reanalyzeFormFor(c, p.Run); err != nil {
 		return err
@@ -184,6 +193,7 @@ func (s *Server) showRun(c echo.Context) error {
 		return err
 	}
 	props.Review = views.RunReviewPanel(rp)
+	props.ReviewActions = views.RunReviewActions(rp)
 	if props.History, err = s.runHistory(c, p.Run.ID); err != nil {
 		return err
 	}
@@ -224,7 +234,7 @@ func conditionRows(r store.Run) (cond, spec []views.KV) {
 	cond = []views.KV{
 		{K: "Source type", V: store.SourceLabel(r.SourceType)},
 		{K: "Gas mixture", V: gas},
-		{K: "Pressure (Pa)", V: num(r.PressurePa)},
+		{K: "Pressure", V: pressureText(r.PressurePa, r.PressureUnit)},
 		{K: "Power (W)", V: num(r.PowerW)},
 		{K: "Flows (sccm)", V: flows},
 		{K: "Electrode gap (mm)", V: num(r.GapMM)},
@@ -444,4 +454,106 @@ func windowYLabel(d *diag.Result) string {
 		return "radiance (rel. energy units/nm)"
 	}
 	return "intensity (rel. photon units/nm)"
+}
+
+// runSummary gives the numbers of the result shown (for a version with
+// several spectra, also their mean), its problems and failures.
+func runSummary(p *runPage) views.RunSummary {
+	var sum views.RunSummary
+	if p.Analysis == nil {
+		return sum
+	}
+	sum.Analysed = true
+	for _, r := range p.Results {
+		if r.Error != "" {
+			sum.Failed++
+		}
+	}
+	with := func(v, unc *float64, unit string) string {
+		if v == nil {
+			return ""
+		}
+		return views.ValueUnc(v, unc) + " " + unit
+	}
+	r := p.selected()
+	if r == nil || r.Diag == nil {
+		return sum
+	}
+	d := r.Diag
+	sum.Texc = with(d.ExcitationTemperatureK, d.ExcitationTemperatureUncK, "K")
+	sum.Ne = with(d.ElectronDensityM3, d.ElectronDensityUncM3, "m⁻³")
+	sum.NeCM3 = with(d.ElectronDensityCM3, d.ElectronDensityUncCM3, "cm⁻³")
+	sum.Tgas = with(d.GasTemperatureK, d.GasTemperatureUncK, "K")
+	switch d.GasTemperatureSource {
+	case "two-line":
+		sum.TgasLabel = "(solved from Hα and Hβ)"
+	case "given":
+		sum.TgasLabel = "(given)"
+	}
+	sum.NeSource = d.ElectronDensitySource
+	sum.Problems = len(d.Flags)
+	if len(p.Results) > 1 {
+		sum.Of = fmt.Sprintf("spectrum %s (%d of %d in this version)", r.AttachmentName, p.Sel+1, len(p.Results))
+		t, tu := meanOf(p.Analysis.Results, func(r store.AnalysisResult) (*float64, *float64) { return r.TexcK, r.TexcUncK })
+		n, nu := meanOf(p.Analysis.Results, func(r store.AnalysisResult) (*float64, *float64) { return r.NeM3, r.NeUncM3 })
+		sum.Mean = fmt.Sprintf("Mean of the %d spectra: T_exc %s, n_e %s.", len(p.Results),
+			withUnit(views.ValueUnc(t, tu), "K"), withUnit(views.ValueUnc(n, nu), "m⁻³"))
+	}
+	return sum
+}
+
+// spectrumFigure draws the whole uploaded spectrum of result r with its
+// lines marked (nil when the file cannot be read or drawn: the page then
+// shows the windows only).
+func (s *Server) spectrumFigure(c echo.Context, base string, p *runPage, r *decodedResult) *views.Figure {
+	svg, err := s.spectrumSVG(c, r)
+	if err != nil {
+		if !errors.Is(err, errNoFigure) {
+			s.Log.Warn("whole-spectrum figure", "run", p.Run.ID, "attachment", r.AttachmentID, "err", err)
+		}
+		return nil
+	}
+	return &views.Figure{Title: "Whole spectrum " + r.AttachmentName, Href: base + "/spectrum.svg" + p.query(), SVG: inlineSVG(svg)}
+}
+
+func (s *Server) spectrumSVG(c echo.Context, r *decodedResult) ([]byte, error) {
+	if r.Spectrum == nil || r.Kind != store.KindSpectrum {
+		return nil, errNoFigure
+	}
+	att, err := s.DB.AttachmentContent(c.Request().Context(), r.AttachmentID)
+	if err != nil {
+		return nil, err
+	}
+	sp, err := (&analyzeConfig{format: "auto"}).readSpectrum(att.Name, att.Content)
+	if err != nil {
+		return nil, err
+	}
+	return SpectrumSVG(sp.WavelengthNM, sp.Counts, r.Diag, r.Spectrum.LineSearch, r.AttachmentName)
+}
+
+// figureSpectrum handles GET /runs/:id/spectrum.svg?v=&a=: the whole
+// uploaded spectrum of the selected result with its lines marked.
+func (s *Server) figureSpectrum(c echo.Context) error {
+	p, r, err := s.selectedResult(c)
+	if err != nil {
+		return err
+	}
+	svg, err := s.spectrumSVG(c, r)
+	return svgBlob(c, fileStem(p, r)+"-spectrum.svg", svg, err)
+}
+
+// pressureText shows a pressure as entered, with Pa beside another unit
+// ("5 mbar (500 Pa)", "300 Pa").
+func pressureText(pa *float64, unit string) string {
+	if pa == nil {
+		return "—"
+	}
+	if unit == "" || unit == "Pa" {
+		return strconv.FormatFloat(*pa, 'g', 6, 64) + " Pa"
+	}
+	v, err := strconv.ParseFloat(pressureAsEntered(pa, unit), 64)
+	if err != nil {
+		v = *pa
+	}
+	return strconv.FormatFloat(v, 'g', 6, 64) + " " + unit + " (" + strconv.FormatFloat(*pa, 'g', 6, 64) + " Pa)"
 }

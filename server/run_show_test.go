@@ -129,7 +129,7 @@ func TestShowRunPage(t *testing.T) {
 			t.Errorf("run page lacks %s", id)
 		}
 	}
-	for _, want := range []string{"Pressure (Pa)", "Instrument FWHM, Gaussian (nm)", "CODATA 2018", "cross-checked",
+	for _, want := range []string{"Pressure", "120 Pa", "Instrument FWHM, Gaussian (nm)", "CODATA 2018", "cross-checked",
 		"2026-03-04 09:30 UTC", "first analysis", "warmer gas", `data-testid="method-notes"`, `data-severity="note"`, "<title>Boltzmann plot", `role="img"`, `<svg width="100%"`} {
 		if !strings.Contains(body, want) {
 			t.Errorf("run page lacks %q", want)

@@ -825,6 +825,7 @@ func (s *Server) showTrends(c echo.Context) error {
 	if err := s.runListChoices(c, &lp); err != nil {
 		return err
 	}
+	props.Perturbers = perturberOptions()
 	props.Chambers, props.Recipes, props.Operators, props.Sources, props.Statuses, props.Tags =
 		lp.Chambers, lp.Recipes, lp.Operators, lp.Sources, lp.Statuses, lp.Tags
 	for _, tf := range store.TrendFields {

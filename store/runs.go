@@ -33,16 +33,47 @@ func label(list []struct{ Key, Label string }, key string) string {
 	return key
 }
 
-// Statuses are the review states of a run, with display names of our own.
+// Statuses are the review states of a run. Each state has one name: the
+// key, stored in the database and written as it is by the CSV exports and
+// the API ("signed_off"); pages show the same name as words ("Signed
+// off", StatusLabel). Every page, file and answer takes the names from
+// here, so no state gets a second name.
 var Statuses = []struct{ Key, Label string }{
-	{"draft", "Draft"},
-	{"submitted", "Awaiting review"},
-	{"returned", "Returned for rework"},
-	{"signed_off", "Signed off"},
+	{StatusDraft, "Draft"},
+	{StatusSubmitted, "Submitted"},
+	{StatusReturned, "Returned"},
+	{StatusSignedOff, "Signed off"},
 }
 
-// StatusLabel returns the display name of a status key.
+// StatusLabel returns the display name of a status key (the key itself
+// when it is not a status).
 func StatusLabel(key string) string { return label(Statuses, key) }
+
+// ValidStatus reports whether key names a review state.
+func ValidStatus(key string) bool {
+	for _, s := range Statuses {
+		if s.Key == key {
+			return true
+		}
+	}
+	return false
+}
+
+// StatusKeys lists the state names as the API and CSV write them, for
+// messages ("draft, submitted, returned or signed_off").
+func StatusKeys() string {
+	var b strings.Builder
+	for i, s := range Statuses {
+		switch {
+		case i == len(Statuses)-1 && i > 0:
+			b.WriteString(" or ")
+		case i > 0:
+			b.WriteString(", ")
+		}
+		b.WriteString(s.Key)
+	}
+	return b.String()
+}
 
 // Run is a discharge run with its conditions and current summary.
 type Run struct {
@@ -58,6 +89,7 @@ type Run struct {
 	SourceType       string
 	GasMixture       string
 	PressurePa       *float64
+	PressureUnit     string // as entered: Pa, mbar or Torr
 	PowerW           *float64
 	Flows            string
 	GapMM            *float64
@@ -93,13 +125,16 @@ type Run struct {
 // RunInput is what a user may set on a run (no ids of others, no status,
 // no summary).
 type RunInput struct {
-	Title            string
-	StartedAt        time.Time
-	ChamberID        *int64
-	RecipeID         *int64
-	SourceType       string
-	GasMixture       string
-	PressurePa       *float64
+	Title      string
+	StartedAt  time.Time
+	ChamberID  *int64
+	RecipeID   *int64
+	SourceType string
+	GasMixture string
+	PressurePa *float64
+	// PressureUnit is the unit the pressure was entered in (a key of
+	// PressureUnits; "" is Pa). PressurePa is always in Pa.
+	PressureUnit     string
 	PowerW           *float64
 	Flows            string
 	GapMM            *float64
@@ -112,6 +147,29 @@ type RunInput struct {
 	Perturber        string
 	Notes            string
 	Tags             []string
+}
+
+// PressureUnits are the units a pressure may be entered in, with their
+// size in Pa: 1 mbar = 100 Pa (1 bar = 10⁵ Pa by definition, SI
+// brochure, 9th ed., table 8); 1 Torr = 101325/760 Pa (1/760 of the
+// standard atmosphere, 101 325 Pa by definition).
+var PressureUnits = []struct {
+	Key string
+	Pa  float64
+}{{"Pa", 1}, {"mbar", 100}, {"Torr", 101325.0 / 760}}
+
+// PressureUnitPa returns the size of a pressure unit in Pa (false for an
+// unknown unit; "" is Pa).
+func PressureUnitPa(unit string) (float64, bool) {
+	if unit == "" {
+		return 1, true
+	}
+	for _, u := range PressureUnits {
+		if u.Key == unit {
+			return u.Pa, true
+		}
+	}
+	return 0, false
 }
 
 // Validate checks a run input and returns a user-facing error.
@@ -143,6 +201,12 @@ func (in *RunInput) Validate() error {
 	}
 	if in.Perturber == "" {
 		in.Perturber = "none"
+	}
+	if in.PressureUnit == "" {
+		in.PressureUnit = "Pa"
+	}
+	if _, ok := PressureUnitPa(in.PressureUnit); !ok {
+		return fmt.Errorf("%w: pressure unit %q is not Pa, mbar or Torr", ErrInvalid, in.PressureUnit)
 	}
 	seen := map[string]bool{}
 	var tags []string
@@ -179,12 +243,12 @@ func (d *DB) CreateRun(ctx context.Context, operatorID int64, in RunInput) (int6
 func createRunTx(ctx context.Context, tx *sql.Tx, operatorID int64, in RunInput, now int64) (int64, error) {
 	res, err := tx.ExecContext(ctx, `INSERT INTO runs (title, started_at, operator_id, chamber_id, recipe_id, source_type,
 		gas_mixture, pressure_pa, power_w, flows, electrode_gap_mm, grating_l_mm, slit_um, integration_ms,
-		instrument_fwhm_nm, instrument_id, gas_temperature_k, perturber, notes, created_at, updated_at)
-		VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
+		instrument_fwhm_nm, instrument_id, gas_temperature_k, perturber, notes, created_at, updated_at, pressure_unit)
+		VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
 		in.Title, in.StartedAt.Unix(), operatorID, in.ChamberID, in.RecipeID, in.SourceType, in.GasMixture,
 		nullF(in.PressurePa), nullF(in.PowerW), in.Flows, nullF(in.GapMM), nullF(in.GratingLMM), nullF(in.SlitUM),
 		nullF(in.IntegrationMS), nullF(in.InstrumentFWHMNM), in.InstrumentID, nullF(in.GasTemperatureK), in.Perturber,
-		in.Notes, now, now)
+		in.Notes, now, now, in.PressureUnit)
 	if err != nil {
 		return 0, fmt.Errorf("store: create run: %w", err)
 	}
@@ -213,10 +277,11 @@ func (d *DB) UpdateRun(ctx context.Context, id int64, in RunInput) error {
 		res, err := tx.ExecContext(ctx, `UPDATE runs SET title = ?, started_at = ?, chamber_id = ?, recipe_id = ?, source_type = ?,
 			gas_mixture = ?, pressure_pa = ?, power_w = ?, flows = ?, electrode_gap_mm = ?, grating_l_mm = ?, slit_um = ?,
 			integration_ms = ?, instrument_fwhm_nm = ?, instrument_id = ?, gas_temperature_k = ?, perturber = ?, notes = ?,
-			updated_at = ? WHERE id = ?`,
+			updated_at = ?, pressure_unit = ? WHERE id = ?`,
 			in.Title, in.StartedAt.Unix(), in.ChamberID, in.RecipeID, in.SourceType, in.GasMixture, nullF(in.PressurePa),
 			nullF(in.PowerW), in.Flows, nullF(in.GapMM), nullF(in.GratingLMM), nullF(in.SlitUM), nullF(in.IntegrationMS),
-			nullF(in.InstrumentFWHMNM), in.InstrumentID, nullF(in.GasTemperatureK), in.Perturber, in.Notes, d.now(), id)
+			nullF(in.InstrumentFWHMNM), in.InstrumentID, nullF(in.GasTemperatureK), in.Perturber, in.Notes, d.now(),
+			in.PressureUnit, id)
 		if err != nil {
 			return fmt.Errorf("store: update run: %w", err)
 		}
@@ -243,7 +308,8 @@ const runCols = `r.id, r.title, r.started_at, r.operator_id, u.name, r.chamber_i
 	coalesce(p.name, ''), r.source_type, r.gas_mixture, r.pressure_pa, r.power_w, r.flows, r.electrode_gap_mm,
 	r.grating_l_mm, r.slit_um, r.integration_ms, r.instrument_fwhm_nm, r.instrument_id, r.gas_temperature_k,
 	r.perturber, r.notes, r.status, r.signed_off_by, r.signed_off_at, r.created_at, r.updated_at,
-	r.texc_k, r.texc_unc_k, r.ne_m3, r.ne_unc_m3, r.tgas_k, r.n_warnings, r.warn_worst, r.analysis_version, r.approved_version`
+	r.texc_k, r.texc_unc_k, r.ne_m3, r.ne_unc_m3, r.tgas_k, r.n_warnings, r.warn_worst, r.analysis_version, r.approved_version,
+	r.pressure_unit`
 
 const runFrom = ` FROM runs r JOIN users u ON u.id = r.operator_id
 	LEFT JOIN chambers c ON c.id = r.chamber_id LEFT JOIN recipes p ON p.id = r.recipe_id`
@@ -256,7 +322,7 @@ func scanRun(row interface{ Scan(...any) error }) (Run, error) {
 	err := row.Scan(&r.ID, &r.Title, &started, &r.OperatorID, &r.OperatorName, &chamber, &r.ChamberName, &recipe,
 		&r.RecipeName, &r.SourceType, &r.GasMixture, &pressure, &power, &r.Flows, &gap, &grating, &slit, &integ,
 		&instFWHM, &instr, &gasT, &r.Perturber, &r.Notes, &r.Status, &signedBy, &signedAt, &created, &updated,
-		&texc, &texcU, &ne, &neU, &tgas, &r.NWarnings, &r.WarnWorst, &r.AnalysisVersion, &approved)
+		&texc, &texcU, &ne, &neU, &tgas, &r.NWarnings, &r.WarnWorst, &r.AnalysisVersion, &approved, &r.PressureUnit)
 	if err != nil {
 		if errors.Is(err, sql.ErrNoRows) {
 			return r, fmt.Errorf("run: %w", ErrNotFound)

@@ -2,6 +2,7 @@ package e2e
 
 import (
 	"context"
+	"fmt"
 	"os"
 	"testing"
 
@@ -40,5 +41,34 @@ func TestDemoScreenshots(t *testing.T) {
 	} {
 		do(t, ctx, chromedp.Navigate(a.url+p.path), chromedp.WaitReady(chromedp.CSS("footer")))
 		shot(t, ctx, p.name)
+		t.Logf("%s: page height %d px at 1280 px wide", p.name, pageHeight(t, ctx))
 	}
+	// A run awaiting review, as the reviewer sees it (review buttons in
+	// the summary).
+	if q, err := a.db.ReviewQueue(context.Background(), 1); err == nil && len(q) > 0 {
+		do(t, ctx, chromedp.Navigate(fmt.Sprintf("%s/runs/%d", a.url, q[0].Run.ID)), chromedp.WaitReady(chromedp.CSS("footer")))
+		shot(t, ctx, "d8-run-submitted")
+		t.Logf("d8-run-submitted: page height %d px at 1280 px wide", pageHeight(t, ctx))
+	}
+	// The same pages on a 390 px wide phone screen.
+	do(t, ctx, chromedp.EmulateViewport(390, 844))
+	for _, p := range []struct{ name, path string }{
+		{"n1-runs-390", "/runs"},
+		{"n2-run-390", "/runs/5"},
+		{"n3-trends-390", "/trends?y=ne_m3&chamber=1&mode=control&base_n=30"},
+		{"n4-new-390", "/runs/new"},
+	} {
+		do(t, ctx, chromedp.Navigate(a.url+p.path), chromedp.WaitReady(chromedp.CSS("footer")))
+		shot(t, ctx, p.name)
+		t.Logf("%s: page height %d px, content width %d px at 390 px wide", p.name, pageHeight(t, ctx), pageWidth(t, ctx))
+	}
+}
+
+// pageHeight and pageWidth are the document's scroll size in CSS pixels.
+func pageHeight(t *testing.T, ctx context.Context) int {
+	return run(t, ctx, chromedp.Evaluate[int](`document.documentElement.scrollHeight`))
+}
+
+func pageWidth(t *testing.T, ctx context.Context) int {
+	return run(t, ctx, chromedp.Evaluate[int](`document.documentElement.scrollWidth`))
 }
