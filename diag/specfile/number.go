@@ -3,6 +3,7 @@ package specfile
 import (
 	"math"
 	"strconv"
+	"strings"
 )
 
 // scanDecimal scans a decimal number starting at s[i]:
@@ -87,4 +88,116 @@ func atof(s string) float64 {
 }
 
 // isFinite reports whether v is neither NaN nor ±Inf.
-func isFinite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
+func isFinite(v float64) bool { return math.Float64bits(v)&(0x7ff<<52) != 0x7ff<<52 }
+
+// pow10tab holds the powers of ten that are exact in float64 (10²² is the
+// largest: 5²² < 2⁵³).
+var pow10tab = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10,
+	1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
+
+// parseNumber parses s, which must be exactly one number in the grammar of
+// scanDecimal (asdf false) with point as the decimal separator ('.' or
+// ','), and returns the same value, bit for bit, as strconv.ParseFloat
+// of s written with a '.' (range errors folded in: ±Inf or ±0). It
+// allocates nothing unless it falls back to strconv.
+//
+// Most spectrometer numbers have at most 19 significant digits and a
+// small decimal exponent. Then the digits form an integer m ≤ 2⁵³, exact
+// in float64, and so is 10^|e| for |e| ≤ 22; one IEEE multiplication or
+// division of two exact values is correctly rounded, which is the value
+// ParseFloat returns (Clinger's fast path: W. D. Clinger, "How to read
+// floating point numbers accurately", PLDI 1990; strconv takes the same
+// path first). Everything else goes to strconv.ParseFloat.
+func parseNumber(s string, point byte) (float64, bool) {
+	i := 0
+	neg := false
+	if i < len(s) && (s[i] == '+' || s[i] == '-') {
+		neg = s[i] == '-'
+		i++
+	}
+	var mant uint64
+	sig := 0 // significant digits in mant (leading zeros excluded)
+	digits := 0
+	for ; i < len(s) && isDigit(s[i]); i++ {
+		mant = mant*10 + uint64(s[i]-'0')
+		if mant != 0 {
+			sig++
+		}
+		digits++
+		if sig > 19 {
+			break
+		}
+	}
+	frac := 0
+	if sig <= 19 && i < len(s) && s[i] == point {
+		i++
+		for ; i < len(s) && isDigit(s[i]); i++ {
+			mant = mant*10 + uint64(s[i]-'0')
+			if mant != 0 {
+				sig++
+			}
+			digits++
+			frac++
+			if sig > 19 {
+				break
+			}
+		}
+	}
+	if sig > 19 {
+		return parseNumberSlow(s, point)
+	}
+	if digits == 0 {
+		return 0, false
+	}
+	exp := 0
+	if i < len(s) && (s[i] == 'e' || s[i] == 'E') {
+		k := i + 1
+		eneg := false
+		if k < len(s) && (s[k] == '+' || s[k] == '-') {
+			eneg = s[k] == '-'
+			k++
+		}
+		if k >= len(s) || !isDigit(s[k]) {
+			return 0, false // "1e", "1e+": the number ends before the 'e'
+		}
+		for ; k < len(s) && isDigit(s[k]); k++ {
+			if exp < 100000 {
+				exp = exp*10 + int(s[k]-'0')
+			}
+		}
+		if eneg {
+			exp = -exp
+		}
+		i = k
+	}
+	if i != len(s) {
+		return 0, false
+	}
+	var v float64
+	switch e := exp - frac; {
+	case mant == 0:
+		v = 0
+	case mant > 1<<53 || e < -22 || e > 22:
+		return parseNumberSlow(s, point)
+	case e >= 0:
+		v = float64(mant) * pow10tab[e]
+	default:
+		v = float64(mant) / pow10tab[-e]
+	}
+	if neg {
+		v = -v
+	}
+	return v, true
+}
+
+// parseNumberSlow is parseNumber by scanDecimal and strconv.ParseFloat.
+func parseNumberSlow(s string, point byte) (float64, bool) {
+	if point != '.' {
+		if strings.IndexByte(s, '.') >= 0 {
+			return 0, false
+		}
+		s = strings.Replace(s, string(point), ".", 1)
+	}
+	v, _, ok := parseDecimal(s)
+	return v, ok
+}
