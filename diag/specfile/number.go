@@ -100,85 +100,87 @@ var pow10tab = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e
 // ','), and returns the same value, bit for bit, as strconv.ParseFloat
 // of s written with a '.' (range errors folded in: ±Inf or ±0). It
 // allocates nothing unless it falls back to strconv.
-//
-// Most spectrometer numbers have at most 19 significant digits and a
-// small decimal exponent. Then the digits form an integer m ≤ 2⁵³, exact
-// in float64, and so is 10^|e| for |e| ≤ 22; one IEEE multiplication or
-// division of two exact values is correctly rounded, which is the value
-// ParseFloat returns (Clinger's fast path: W. D. Clinger, "How to read
-// floating point numbers accurately", PLDI 1990; strconv takes the same
-// path first). Everything else goes to strconv.ParseFloat.
 func parseNumber(s string, point byte) (float64, bool) {
-	i := 0
+	v, end, ok := scanNumber(s, 0, point)
+	if !ok || end != len(s) {
+		return 0, false
+	}
+	return v, true
+}
+
+// scanNumber scans the longest number of scanDecimal's grammar (asdf
+// false, point as the decimal separator) at s[i:] and returns its value,
+// as parseNumber would give it, and its end. ok is false if s[i:] does not
+// start with a number.
+//
+// Most spectrometer numbers have at most 19 digits and a small decimal
+// exponent. Then the digits form an integer m ≤ 2⁵³, exact in float64,
+// and so is 10^|e| for |e| ≤ 22; one IEEE multiplication or division of
+// two exact values is correctly rounded, which is the value ParseFloat
+// returns (Clinger's fast path: W. D. Clinger, "How to read floating point
+// numbers accurately", PLDI 1990; strconv takes the same path first).
+// Everything else goes to strconv.ParseFloat.
+func scanNumber(s string, i int, point byte) (v float64, end int, ok bool) {
+	start := i
 	neg := false
 	if i < len(s) && (s[i] == '+' || s[i] == '-') {
 		neg = s[i] == '-'
 		i++
 	}
 	var mant uint64
-	sig := 0 // significant digits in mant (leading zeros excluded)
-	digits := 0
-	for ; i < len(s) && isDigit(s[i]); i++ {
-		mant = mant*10 + uint64(s[i]-'0')
-		if mant != 0 {
-			sig++
-		}
-		digits++
-		if sig > 19 {
+	d0 := i
+	for i < len(s) {
+		c := s[i] - '0'
+		if c > 9 {
 			break
 		}
-	}
-	frac := 0
-	if sig <= 19 && i < len(s) && s[i] == point {
+		mant = mant*10 + uint64(c)
 		i++
-		for ; i < len(s) && isDigit(s[i]); i++ {
-			mant = mant*10 + uint64(s[i]-'0')
-			if mant != 0 {
-				sig++
-			}
-			digits++
-			frac++
-			if sig > 19 {
+	}
+	nd := i - d0 // digits; more than 19 may overflow mant
+	frac := 0
+	if i < len(s) && s[i] == point {
+		i++
+		f0 := i
+		for i < len(s) {
+			c := s[i] - '0'
+			if c > 9 {
 				break
 			}
+			mant = mant*10 + uint64(c)
+			i++
 		}
+		frac = i - f0
+		nd += frac
 	}
-	if sig > 19 {
-		return parseNumberSlow(s, point)
-	}
-	if digits == 0 {
-		return 0, false
+	if nd == 0 {
+		return 0, start, false
 	}
 	exp := 0
-	if i < len(s) && (s[i] == 'e' || s[i] == 'E') {
+	if i < len(s) && s[i]|0x20 == 'e' {
 		k := i + 1
 		eneg := false
 		if k < len(s) && (s[k] == '+' || s[k] == '-') {
 			eneg = s[k] == '-'
 			k++
 		}
-		if k >= len(s) || !isDigit(s[k]) {
-			return 0, false // "1e", "1e+": the number ends before the 'e'
-		}
-		for ; k < len(s) && isDigit(s[k]); k++ {
-			if exp < 100000 {
-				exp = exp*10 + int(s[k]-'0')
+		if k < len(s) && isDigit(s[k]) { // else the number ends before the 'e'
+			for ; k < len(s) && isDigit(s[k]); k++ {
+				if exp < 100000 {
+					exp = exp*10 + int(s[k]-'0')
+				}
 			}
+			if eneg {
+				exp = -exp
+			}
+			i = k
 		}
-		if eneg {
-			exp = -exp
-		}
-		i = k
 	}
-	if i != len(s) {
-		return 0, false
-	}
-	var v float64
 	switch e := exp - frac; {
+	case nd > 19 || mant > 1<<53 || (mant != 0 && (e < -22 || e > 22)):
+		return atofPoint(s[start:i], point), i, true
 	case mant == 0:
 		v = 0
-	case mant > 1<<53 || e < -22 || e > 22:
-		return parseNumberSlow(s, point)
 	case e >= 0:
 		v = float64(mant) * pow10tab[e]
 	default:
@@ -187,17 +189,14 @@ func parseNumber(s string, point byte) (float64, bool) {
 	if neg {
 		v = -v
 	}
-	return v, true
+	return v, i, true
 }
 
-// parseNumberSlow is parseNumber by scanDecimal and strconv.ParseFloat.
-func parseNumberSlow(s string, point byte) (float64, bool) {
+// atofPoint is atof of a number written with point as its decimal
+// separator.
+func atofPoint(s string, point byte) float64 {
 	if point != '.' {
-		if strings.IndexByte(s, '.') >= 0 {
-			return 0, false
-		}
 		s = strings.Replace(s, string(point), ".", 1)
 	}
-	v, _, ok := parseDecimal(s)
-	return v, ok
+	return atof(s)
 }

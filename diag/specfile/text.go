@@ -418,68 +418,108 @@ func onlyDelimiters(t string) bool {
 // whenever those would report an error, or a whitespace-delimited line has
 // bytes outside ASCII (white space is then Unicode's, which the general
 // path handles). Every failure is left to the general path to word.
+//
+// A wanted field is first read in place: white space, a number, white
+// space, then the delimiter or the end of the line. Anything else in it
+// (quotes, a stray character) takes the field the long way: cut, trimmed,
+// unquoted and parsed as splitFields and fieldValue do.
 func fastRow(s string, delim, dec byte, ncols, xc, yc int) (x, y float64, ok bool) {
-	var fx, fy string
+	var v float64
 	n := 0 // fields seen
-	last := ""
 	if delim == ' ' {
 		// strings.Fields on ASCII: runs of ASCII white space separate.
 		i := 0
-		for i < len(s) {
+		for {
 			for i < len(s) && asciiSpace(s[i]) {
 				i++
 			}
 			if i == len(s) {
 				break
 			}
-			j := i
-			for j < len(s) && !asciiSpace(s[j]) {
-				if s[j] >= 0x80 {
-					return 0, 0, false
-				}
-				j++
+			want := n == xc || n == yc
+			end := 0
+			if want {
+				v, end, ok = scanNumber(s, i, dec)
 			}
-			f := unquote(s[i:j])
+			if !want || !ok || end < len(s) && !asciiSpace(s[end]) {
+				end = i
+				for end < len(s) && !asciiSpace(s[end]) {
+					if s[end] >= 0x80 {
+						return 0, 0, false
+					}
+					end++
+				}
+				if want {
+					if v, ok = parseNumber(unquote(s[i:end]), dec); !ok {
+						return 0, 0, false
+					}
+				}
+			}
 			if n == xc {
-				fx = f
+				x = v
 			} else if n == yc {
-				fy = f
+				y = v
 			}
 			n++
-			i = j
+			i = end
 		}
 	} else {
+		lastEmpty := false
 		for start := 0; ; {
-			end := strings.IndexByte(s[start:], delim)
-			if end < 0 {
-				end = len(s)
-			} else {
-				end += start
+			want := n == xc || n == yc
+			next := -1 // start of the next field, -1 at the end of the line
+			if want {
+				i := start
+				for i < len(s) && s[i] != delim && asciiSpace(s[i]) {
+					i++
+				}
+				end := 0
+				v, end, ok = scanNumber(s, i, dec)
+				for ok && end < len(s) && s[end] != delim && asciiSpace(s[end]) {
+					end++
+				}
+				switch {
+				case ok && end == len(s):
+				case ok && s[end] == delim:
+					next = end + 1
+				default:
+					ok = false
+				}
 			}
-			f := unquote(strings.TrimSpace(s[start:end]))
+			if !want || !ok {
+				end := strings.IndexByte(s[start:], delim)
+				if end >= 0 {
+					next = start + end + 1
+					end += start
+				} else {
+					end = len(s)
+				}
+				f := unquote(strings.TrimSpace(s[start:end]))
+				if want {
+					if v, ok = parseNumber(f, dec); !ok {
+						return 0, 0, false
+					}
+				}
+				lastEmpty = f == ""
+			} else {
+				lastEmpty = false
+			}
 			if n == xc {
-				fx = f
+				x = v
 			} else if n == yc {
-				fy = f
+				y = v
 			}
 			n++
-			last = f
-			if end == len(s) {
+			if next < 0 {
 				break
 			}
-			start = end + 1
+			start = next
 		}
-		if n > 1 && last == "" {
+		if n > 1 && lastEmpty {
 			n-- // one trailing delimiter
 		}
 	}
-	if n != ncols || fx == "" || fy == "" {
-		return 0, 0, false
-	}
-	if x, ok = parseNumber(fx, dec); !ok || !isFinite(x) {
-		return 0, 0, false
-	}
-	if y, ok = parseNumber(fy, dec); !ok || !isFinite(y) {
+	if n != ncols || !isFinite(x) || !isFinite(y) {
 		return 0, 0, false
 	}
 	return x, y, true
