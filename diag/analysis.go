@@ -3,6 +3,7 @@ package diag
 import (
 	"errors"
 	"fmt"
+	"strconv"
 	"strings"
 )
 
@@ -171,6 +172,12 @@ const (
 	FlagLTE              = "lte_validity"
 )
 
+// MinGasTemperatureK is the lowest gas temperature Analyze accepts: below
+// it the neutral density P/(k_B T) of the van der Waals width runs away.
+// Common practice, no source (no gas discharge is colder than liquid
+// helium).
+const MinGasTemperatureK = 1.0
+
 // densityPreference is the order in which lines supply the best n_e
 // estimate: Hβ first (weak dependence on T and ion dynamics), then Hα
 // (physics.md §4.1).
@@ -221,6 +228,10 @@ func Analyze(m Measurement) (Result, error) {
 	}
 	bz, err := FitBoltzmann(pts, BoltzmannOptions{Unit: m.Unit})
 	if err != nil {
+		var ne *NumericError
+		if errors.As(err, &ne) && ne.Upper > 0 {
+			return res, &LineError{lineIndex(m.Lines, ne.Upper), ne.Upper, err}
+		}
 		return res, err
 	}
 	res.Boltzmann = bz
@@ -238,6 +249,10 @@ func Analyze(m Measurement) (Result, error) {
 
 	// Gas temperature.
 	gasT, gasTUnc := m.GasTemperatureK, m.GasTemperatureUncK
+	if gasT != 0 && !(gasT >= MinGasTemperatureK) {
+		return res, &NumericError{Field: "gas_temperature_K", Value: gasT, Msg: fmt.Sprintf(
+			"a gas temperature below %v K is not a discharge (and overflows the van der Waals width): check the unit (K)", MinGasTemperatureK)}
+	}
 	if gasT > 0 {
 		res.GasTemperatureSource = "given"
 	}
@@ -348,7 +363,46 @@ func Analyze(m Measurement) (Result, error) {
 	if res.Flags == nil {
 		res.Flags = []Flag{}
 	}
+	// Final net: every number in the result is finite (or null), so that
+	// it can always be written as JSON; anything else is an input outside
+	// the range the analysis can represent, reported against its line.
+	if err := CheckFinite(res); err != nil {
+		return res, resultLineError(res, m.Lines, err.(*NumericError))
+	}
 	return res, nil
+}
+
+// lineIndex returns the index of the line with upper level n (-1: none).
+func lineIndex(lines []MeasuredLine, n int) int {
+	for i, l := range lines {
+		if l.Upper == n {
+			return i
+		}
+	}
+	return -1
+}
+
+// resultLineError attributes a non-finite result field to the input line
+// its path names ("lines[i]…" or "boltzmann.points[i]…"), if any.
+func resultLineError(res Result, lines []MeasuredLine, ne *NumericError) error {
+	upper := 0
+	if rest, ok := strings.CutPrefix(ne.Field, "lines["); ok {
+		num, _, _ := strings.Cut(rest, "]")
+		if i, err := strconv.Atoi(num); err == nil && i >= 0 && i < len(res.Lines) {
+			upper = res.Lines[i].UpperLevel
+		}
+	}
+	if rest, ok := strings.CutPrefix(ne.Field, "boltzmann.points["); ok {
+		num, _, _ := strings.Cut(rest, "]")
+		if i, err := strconv.Atoi(num); err == nil && i >= 0 && i < len(res.Boltzmann.Points) {
+			upper = res.Boltzmann.Points[i].Upper
+		}
+	}
+	if i := lineIndex(lines, upper); i >= 0 {
+		ne.Upper = upper
+		return &LineError{i, upper, ne}
+	}
+	return ne
 }
 
 type lineWidthInput struct {

@@ -77,6 +77,10 @@ func analyzeWidth(lr *LineResult, in lineWidthInput, m Measurement, pert Perturb
 			}, l.FWHMNM)
 		}
 	}
+	if !finite(lorUnc) {
+		return &NumericError{Upper: l.Upper, Field: "fwhm_unc_nm", Value: l.FWHMUncNM, Msg: fmt.Sprintf(
+			"through the Voigt inversion of the width %v nm this uncertainty becomes %v: check the value and its unit (nm)", l.FWHMNM, lorUnc)}
+	}
 	lr.LorentzFWHMNM = ptr(lor)
 	if lorUnc > 0 {
 		lr.LorentzFWHMUncNM = ptr(lorUnc)
@@ -129,7 +133,17 @@ func analyzeWidth(lr *LineResult, in lineWidthInput, m Measurement, pert Perturb
 	ne := rel.DensityFromLorentzianNM(stark)
 	lr.ElectronDensityM3 = ptr(ne)
 	if starkUnc > 0 {
-		lr.ElectronDensityUncM3 = ptr(ne * DensityRelSigma(rel.Exponent, starkUnc/stark))
+		neUnc := ne * DensityRelSigma(rel.Exponent, starkUnc/stark)
+		if !finite(ne) || !finite(neUnc) {
+			field, v := "fwhm_unc_nm", l.FWHMUncNM
+			if l.LorentzFWHMNM > 0 {
+				field, v = "lorentz_fwhm_unc_nm", l.LorentzFWHMUncNM
+			}
+			return &NumericError{Upper: l.Upper, Field: field, Value: v, Msg: fmt.Sprintf(
+				"the Stark width %v nm is %.3g times smaller than its 1σ %v nm, so the density's uncertainty is unbounded: the Stark width is not resolved (check the widths and their unit, nm)",
+				stark, starkUnc/stark, starkUnc)}
+		}
+		lr.ElectronDensityUncM3 = ptr(neUnc)
 	}
 	for _, w := range rel.Warnings(ne, 0) {
 		if rel.Verified || !isUnverifiedNote(w) {
@@ -147,9 +161,17 @@ func isUnverifiedNote(w string) bool {
 	return strings.Contains(lw, "unverified") || strings.Contains(lw, "from memory")
 }
 
-// numDeriv is a central-difference derivative with a relative step.
+// numDeriv is a central-difference derivative with a relative step, so
+// that x ± h keeps the sign of x (widths and temperatures stay positive
+// however small they are). It is 0 at x = 0.
 func numDeriv(f func(float64) float64, x float64) float64 {
-	h := 1e-6 * math.Max(math.Abs(x), 1e-12)
+	h := 1e-6 * math.Abs(x)
+	if h == 0 {
+		h = math.Abs(x) / 2 // subnormal x: 1e-6·x underflows
+	}
+	if h == 0 {
+		return 0
+	}
 	return math.Abs(f(x+h)-f(x-h)) / (2 * h)
 }
 

@@ -63,13 +63,50 @@ type BoltzmannPoint struct {
 
 // Ordinate returns the Boltzmann-plot ordinate y = ln(I/(gA)) (photon
 // units) or ln(Iλ/(gA)) (energy units, λ in nm).
+//
+// The ratio is formed directly when it is a normal float64 (bit for bit as
+// before) and as a sum of logarithms otherwise, so that any positive
+// finite intensity — 1.7e308 or the subnormal 5e-324 — gives a finite
+// ordinate instead of ln(+Inf) or ln(0).
 func (p BoltzmannPoint) Ordinate(u IntensityUnit) float64 {
 	v := p.Intensity / (p.G * p.A)
 	if u == EnergyUnits {
 		v *= p.WavelengthNM
 	}
-	return math.Log(v)
+	if v >= minNormal && v <= math.MaxFloat64 {
+		return math.Log(v)
+	}
+	y := logPos(p.Intensity) - math.Log(p.G) - math.Log(p.A)
+	if u == EnergyUnits {
+		y += math.Log(p.WavelengthNM)
+	}
+	return y
 }
+
+// minNormal is the smallest normal float64, 2⁻¹⁰²².
+const minNormal = 0x1p-1022
+
+// logPos is ln x for x > 0, exact for subnormal x too: math.Log's
+// assembly version on amd64 reads the exponent bits directly and is off
+// by several units for subnormals (ln 1.28e-312 comes out −709.09 instead
+// of −718.16), so subnormals are scaled by 2⁵⁴ first.
+func logPos(x float64) float64 {
+	if x < minNormal {
+		return math.Log(x*0x1p54) - 54*math.Ln2
+	}
+	return math.Log(x)
+}
+
+// Bounds on a point's relative intensity uncertainty σ_I/I. Below
+// minRelIntensityUnc no intensity measurement is that precise (the best
+// absolute radiometry reaches about 1e-4), and the fit weight 1/σ² would
+// overflow; above maxRelIntensityUnc the value is a unit mistake, not an
+// uncertainty. Common practice, no source: both are far outside any real
+// measurement and only keep the arithmetic finite.
+const (
+	minRelIntensityUnc = 1e-12
+	maxRelIntensityUnc = 1e12
+)
 
 // Flag is a structured warning: a stable machine code and a plain-language
 // message.
@@ -88,6 +125,7 @@ const (
 	FlagScaledUnc        = "boltzmann_uncertainty_scaled"
 	FlagNoIntensityUnc   = "boltzmann_no_intensity_uncertainty"
 	FlagWideUncertainty  = "boltzmann_wide_uncertainty"
+	FlagSlopeFlat        = "boltzmann_slope_flat"
 )
 
 // BoltzmannResult is the outcome of a weighted straight-line fit of a
@@ -193,7 +231,11 @@ func FitBoltzmann(pts []BoltzmannPoint, opt BoltzmannOptions) (BoltzmannResult, 
 			return res, fmt.Errorf("%w (line n=%d)", ErrBadPoint, p.Upper)
 		}
 		if p.IntensityUnc > 0 {
-			relSum += p.IntensityUnc / p.Intensity
+			rel := p.IntensityUnc / p.Intensity
+			if !(rel >= minRelIntensityUnc && rel <= maxRelIntensityUnc) {
+				return res, relUncError(p, rel)
+			}
+			relSum += rel
 			nRel++
 		}
 	}
@@ -288,19 +330,28 @@ func FitBoltzmann(pts []BoltzmannPoint, opt BoltzmannOptions) (BoltzmannResult, 
 			"the Boltzmann slope is %+.3g eV⁻¹ (not negative): the upper levels are not Boltzmann-distributed and no excitation temperature is given", res.Slope)})
 		return res, nil
 	}
-	res.Defined = true
-	res.TemperatureK = -1 / (BoltzmannEVPerK * res.Slope)
-	kT2 := BoltzmannEVPerK * res.TemperatureK * res.TemperatureK
-	res.TemperatureUncK = kT2 * res.SlopeUnc
+	t := -1 / (BoltzmannEVPerK * res.Slope)
+	kT2 := BoltzmannEVPerK * t * t
+	var uncK, covK, scaledK float64
+	uncK = kT2 * res.SlopeUnc
 	if haveUnc {
-		res.TemperatureUncCovK = kT2 * sigM
+		covK = kT2 * sigM
 	}
 	if dof > 0 {
-		res.TemperatureUncScaledK = kT2 * sigM * math.Sqrt(res.ReducedChi2)
+		scaledK = kT2 * sigM * math.Sqrt(res.ReducedChi2)
 		if !haveUnc {
-			res.TemperatureUncScaledK = kT2 * sigM * scale
+			scaledK = kT2 * sigM * scale
 		}
 	}
+	if !finite(t) || !finite(uncK) || !finite(covK) || !finite(scaledK) {
+		// A slope this close to zero is a flat plot: the temperature (or
+		// its uncertainty) is beyond any float, and beyond physics.
+		res.Flags = append(res.Flags, Flag{FlagSlopeFlat, fmt.Sprintf(
+			"the Boltzmann slope is %.3g ± %.3g eV⁻¹, indistinguishable from a flat plot: the excitation temperature is unbounded and none is given", res.Slope, res.SlopeUnc)})
+		return res, nil
+	}
+	res.Defined = true
+	res.TemperatureK, res.TemperatureUncK, res.TemperatureUncCovK, res.TemperatureUncScaledK = t, uncK, covK, scaledK
 	res.Flags = append(res.Flags, sensitivityFlags(res)...)
 	res.Flags = append(res.Flags, offLineFlags(pts, res, opt, haveUnc)...)
 	return res, nil
@@ -451,6 +502,18 @@ func fitLine(x, y, w []float64) lineFit {
 		f.r2 = 1
 	}
 	return f
+}
+
+// relUncError is the error for a point whose relative intensity
+// uncertainty is outside [minRelIntensityUnc, maxRelIntensityUnc].
+func relUncError(p BoltzmannPoint, rel float64) error {
+	what := fmt.Sprintf("that is %.3g of the intensity %v; a relative 1σ below %.0e is beyond the precision of any intensity measurement (and overflows the fit weights): give a realistic uncertainty or leave it out",
+		rel, p.Intensity, minRelIntensityUnc)
+	if !(rel < maxRelIntensityUnc) {
+		what = fmt.Sprintf("that is %.3g times the intensity %v (limit %.0e): check that both are in the same unit",
+			rel, p.Intensity, maxRelIntensityUnc)
+	}
+	return &NumericError{Upper: p.Upper, Field: "intensity_unc", Value: p.IntensityUnc, Msg: what}
 }
 
 func aboveBelow(dev float64) string {

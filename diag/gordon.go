@@ -104,11 +104,16 @@ type pair struct{ hi, lo int }
 
 var strengthCache sync.Map // pair → float64
 
-// lineStrengthReducedUnits returns S(n_u→n_l) in (e a_μ)², cached. It is
-// symmetric in its arguments.
+// lineStrengthReducedUnits returns S(n_u→n_l) in (e a_μ)²: from
+// lineStrengthTable up to MaxLevel (the exact values rounded to float64,
+// so that no input pays seconds for them), otherwise computed and cached.
+// It is symmetric in its arguments.
 func lineStrengthReducedUnits(nu, nl int) float64 {
 	if nu < nl {
 		nu, nl = nl, nu
+	}
+	if nu <= MaxLevel && nl >= 1 {
+		return lineStrengthTable[nu][nl]
 	}
 	key := pair{nu, nl}
 	if v, ok := strengthCache.Load(key); ok {

@@ -62,6 +62,10 @@ func decodeStrict(r io.Reader, limit int64, v any) error {
 	if len(bytes.TrimSpace(data)) == 0 {
 		return badRequest("empty request body: expected a JSON object")
 	}
+	// Nesting and repeated keys are refused before decoding (mset.CheckJSON).
+	if err := mset.CheckJSON("request body", data, mset.MaxDepth); err != nil {
+		return badRequest("%v", err)
+	}
 	dec := json.NewDecoder(bytes.NewReader(data))
 	dec.DisallowUnknownFields()
 	if err := dec.Decode(v); err != nil {

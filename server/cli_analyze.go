@@ -3,6 +3,7 @@ package server
 import (
 	"bytes"
 	"encoding/json"
+	"errors"
 	"flag"
 	"fmt"
 	"io"
@@ -162,32 +163,64 @@ func AnalyzeCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) in
 	close(jobs)
 	wg.Wait()
 
+	// Every file gets exactly one record, in the order given: its result,
+	// or an error record in its place. Exit status: 0 when every file was
+	// analysed, 2 when any file was bad input (its record says why), 1 on
+	// an internal failure (writing the output, or a result that could not
+	// be encoded, which also gets an error record; 1 wins over 2).
 	status := ExitOK
 	single := len(files) == 1
 	for i, r := range results {
-		if errs[i] != nil {
+		src := sourceName(files[i])
+		if errs[i] == nil {
+			// Final net: no NaN or ±Inf reaches the encoder.
+			if err := diag.CheckFinite(r); err != nil {
+				errs[i] = fmt.Errorf("%s: %s", src, strings.TrimPrefix(err.Error(), "diag: "))
+			}
+		}
+		var buf []byte
+		if errs[i] == nil {
+			b, err := encodeRecord(r, single)
+			if err != nil {
+				fmt.Fprintf(stderr, "glowlog analyze: %s: encoding result: %v\n", src, err)
+				status = ExitError
+				if single {
+					return status
+				}
+				buf, _ = encodeRecord(errorRecord{Source: src, Error: "internal error: the result could not be encoded: " + err.Error()}, false)
+			} else {
+				buf = b
+			}
+		} else {
 			fmt.Fprintf(stderr, "glowlog analyze: %v\n", errs[i])
-			status = ExitInput
+			if status == ExitOK {
+				status = ExitInput // an internal failure (1) stays 1
+			}
 			if single {
 				return status
 			}
-			r = errorRecord{Source: sourceName(files[i]), Error: errs[i].Error()}
+			buf, _ = encodeRecord(errorRecord{Source: src, Error: errs[i].Error()}, false)
 		}
-		var buf bytes.Buffer
-		enc := json.NewEncoder(&buf)
-		enc.SetEscapeHTML(false)
-		if single {
-			enc.SetIndent("", "  ")
-		}
-		if err := enc.Encode(r); err != nil {
-			fmt.Fprintf(stderr, "glowlog analyze: encoding result: %v\n", err)
-			return ExitError
-		}
-		if _, err := stdout.Write(buf.Bytes()); err != nil {
+		if _, err := stdout.Write(buf); err != nil {
+			fmt.Fprintf(stderr, "glowlog analyze: writing output: %v\n", err)
 			return ExitError
 		}
 	}
 	return status
+}
+
+// encodeRecord writes one JSON record (indented for a single file).
+func encodeRecord(v any, indent bool) ([]byte, error) {
+	var buf bytes.Buffer
+	enc := json.NewEncoder(&buf)
+	enc.SetEscapeHTML(false)
+	if indent {
+		enc.SetIndent("", "  ")
+	}
+	if err := enc.Encode(v); err != nil {
+		return nil, err
+	}
+	return buf.Bytes(), nil
 }
 
 // errorRecord stands in a JSON Lines batch for a file that failed.
@@ -231,7 +264,7 @@ func (c *analyzeConfig) analyzeOne(p *spectrum.Pipeline, name string, stdinData 
 		}
 		res, err := diag.Analyze(m)
 		if err != nil {
-			return nil, fmt.Errorf("%s: %s", src, strings.TrimPrefix(err.Error(), "diag: "))
+			return nil, fmt.Errorf("%s%s: %s", src, lineSuffix(data, err), strings.TrimPrefix(err.Error(), "diag: "))
 		}
 		return res, nil
 	}
@@ -244,6 +277,33 @@ func (c *analyzeConfig) analyzeOne(p *spectrum.Pipeline, name string, stdinData 
 		return nil, err
 	}
 	return res, nil
+}
+
+// lineSuffix places an analysis error of a measurement set in the file:
+// ":N" for the line of the input field at fault (a line's field, or the
+// line's object when the fault is in a computed value), "" if unknown.
+func lineSuffix(data []byte, err error) string {
+	var path string
+	var le *diag.LineError
+	var ne *diag.NumericError
+	hasNE := errors.As(err, &ne)
+	switch {
+	case errors.As(err, &le) && le.Index >= 0:
+		path = fmt.Sprintf("lines[%d]", le.Index)
+		if hasNE && !strings.ContainsAny(ne.Field, ".[") {
+			if n := mset.LineOf(data, path+"."+ne.Field); n > 0 {
+				return fmt.Sprintf(":%d", n)
+			}
+		}
+	case hasNE && !strings.ContainsAny(ne.Field, ".["):
+		path = ne.Field
+	default:
+		return ""
+	}
+	if n := mset.LineOf(data, path); n > 0 {
+		return fmt.Sprintf(":%d", n)
+	}
+	return ""
 }
 
 func (c *analyzeConfig) isMeasurementSet(data []byte) bool {
@@ -343,6 +403,9 @@ func (c *analyzeConfig) load() error {
 		if !(v.v >= 0) || v.v > 1e300 {
 			return fmt.Errorf("--%s must be a finite number ≥ 0, got %v", v.name, v.v)
 		}
+	}
+	if c.gasT > 0 && c.gasT < diag.MinGasTemperatureK {
+		return fmt.Errorf("--gas-temperature-K must be 0 (unknown) or at least %v K, got %v: check the unit", diag.MinGasTemperatureK, c.gasT)
 	}
 	if c.instG > 50 || c.instL > 50 {
 		return fmt.Errorf("--instrument-fwhm-nm above 50 nm: check the unit (nm expected)")

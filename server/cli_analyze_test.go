@@ -113,6 +113,7 @@ func TestAnalyzeFlagErrors(t *testing.T) {
 		{[]string{"--perturber", "Zz", spec}, "--perturber"},
 		{[]string{"--instrument-fwhm-nm", "-1", spec}, "--instrument-fwhm-nm"},
 		{[]string{"--instrument-fwhm-nm", "500", spec}, "check the unit"},
+		{[]string{"--gas-temperature-K", "5e-324", spec}, "at least 1 K"},
 		{[]string{"--max-upper", "2", spec}, "--max-upper"},
 		{[]string{"--lamp", spec, spec}, "--lamp-irradiance"},
 		{[]string{"--grey-body-K", "3000", spec}, "need --lamp"},
@@ -149,5 +150,76 @@ func TestAnalyzeWithResponse(t *testing.T) {
 	}
 	if r.Unit != "energy" || strings.Contains(strings.Join(r.Warnings, " "), "meaningless") {
 		t.Errorf("unit %q warnings %v", r.Unit, r.Warnings)
+	}
+}
+
+// TestAnalyzeExtremeValues: extreme but valid intensities are analysed
+// (exit 0, finite JSON); an intensity σ of 1e-160 is a clear input error
+// (exit 2) naming the file line, the measurement line and the value; in a
+// batch every file keeps its record and the bad one gets an error record.
+func TestAnalyzeExtremeValues(t *testing.T) {
+	dir := t.TempDir()
+	write := func(name, body string) string {
+		p := filepath.Join(dir, name)
+		if err := os.WriteFile(p, []byte(body), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		return p
+	}
+	big := write("big.json", `{"intensity_unit":"energy","lines":[{"upper_level":3,"intensity":1.7e308},{"upper_level":4,"intensity":1e307},{"upper_level":5,"intensity":1e306}]}`)
+	tiny := write("tiny.json", `{"intensity_unit":"photon","lines":[{"upper_level":3,"intensity":5e-324},{"upper_level":4,"intensity":1e-320},{"upper_level":5,"intensity":1e-322}]}`)
+	sig := write("sig.json", "{\"intensity_unit\":\"photon\",\n\"lines\":[\n{\"upper_level\":3,\"intensity\":1,\n \"intensity_unc\":1e-160},\n{\"upper_level\":4,\"intensity\":0.2,\"intensity_unc\":0.01}]}\n")
+	deep := write("deep.json", `{"intensity_unit":"photon","lines":`+strings.Repeat("[", 20000)+strings.Repeat("]", 20000)+`}`)
+
+	for _, f := range []string{big, tiny} {
+		var out, errb bytes.Buffer
+		if code := AnalyzeCommand([]string{f}, nil, &out, &errb); code != ExitOK {
+			t.Fatalf("%s: exit %d: %s", f, code, errb.String())
+		}
+		var full struct {
+			B struct {
+				N int `json:"lines_fitted"`
+			} `json:"boltzmann"`
+		}
+		if err := json.Unmarshal(out.Bytes(), &full); err != nil || full.B.N != 3 {
+			t.Errorf("%s: %v, %d lines fitted", f, err, full.B.N)
+		}
+	}
+
+	var out, errb bytes.Buffer
+	if code := AnalyzeCommand([]string{sig}, nil, &out, &errb); code != ExitInput {
+		t.Fatalf("σ = 1e-160: exit %d, want 2 (%s)", code, errb.String())
+	}
+	for _, want := range []string{"sig.json:4:", "lines[0] (n=3)", "intensity_unc = 1e-160"} {
+		if !strings.Contains(errb.String(), want) {
+			t.Errorf("stderr %q lacks %q", errb.String(), want)
+		}
+	}
+
+	files := []string{big, sig, tiny, deep, "../testdata/example_hbeta.json"}
+	out.Reset()
+	errb.Reset()
+	if code := AnalyzeCommand(files, nil, &out, &errb); code != ExitInput {
+		t.Errorf("batch with bad files: exit %d, want 2", code)
+	}
+	recs := strings.Split(strings.TrimSpace(out.String()), "\n")
+	if len(recs) != len(files) {
+		t.Fatalf("%d records for %d files:\n%s", len(recs), len(files), out.String())
+	}
+	for i, rec := range recs {
+		var m map[string]any
+		if err := json.Unmarshal([]byte(rec), &m); err != nil {
+			t.Fatalf("record %d: %v", i, err)
+		}
+		msg, isErr := m["error"].(string)
+		if wantErr := i == 1 || i == 3; isErr != wantErr {
+			t.Errorf("record %d (%s): error %q", i, files[i], msg)
+		}
+		if isErr && m["source"] != files[i] {
+			t.Errorf("record %d is for %v, want %s", i, m["source"], files[i])
+		}
+	}
+	if !strings.Contains(recs[3], "nested more than 8 deep") {
+		t.Errorf("deep record %s", recs[3])
 	}
 }

@@ -73,7 +73,7 @@ func UserCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "glowlog user add: %v\n", err)
 		return ExitInput
 	}
-	ctx := context.Background()
+	ctx := store.WithActor(context.Background(), store.Actor{Via: store.ViaCLI})
 	db, err := store.Open(ctx, *dbPath)
 	if err != nil {
 		fmt.Fprintf(stderr, "glowlog user add: %v\n", err)
@@ -115,7 +115,7 @@ func TokenCommand(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintln(stderr, "glowlog token create: --label must have 1–100 characters")
 		return ExitInput
 	}
-	ctx := context.Background()
+	ctx := store.WithActor(context.Background(), store.Actor{Via: store.ViaCLI})
 	db, err := store.Open(ctx, *dbPath)
 	if err != nil {
 		fmt.Fprintf(stderr, "glowlog token create: %v\n", err)

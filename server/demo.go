@@ -103,6 +103,7 @@ var demoReturnNotes = []string{
 // written in a few transactions; the store's clock follows the scenario so
 // that creation and review times are plausible. It prints nothing.
 func SeedDemo(ctx context.Context, s *Server, adminID int64, opt DemoOptions) error {
+	ctx = store.WithActor(ctx, store.Actor{Via: store.ViaDemo})
 	if opt.Runs <= 0 {
 		opt.Runs = 300
 	}

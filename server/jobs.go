@@ -120,6 +120,7 @@ func (o settingsOverrides) apply(st *AnalysisSettings) {
 const jobKindReanalyze = "reanalyze"
 
 func (j *JobRunner) run(ctx context.Context, job store.Job) {
+	ctx = jobActor(ctx, job)
 	db := j.s.DB
 	var p reanalyzeParams
 	if job.Kind != jobKindReanalyze || json.Unmarshal([]byte(job.Params), &p) != nil {

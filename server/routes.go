@@ -27,7 +27,7 @@ func (s *Server) routes() {
 	h := e.Group("", s.csrf())
 	h.GET("/", func(c echo.Context) error { return c.Redirect(http.StatusSeeOther, "/runs") })
 	h.GET("/login", s.showLogin)
-	h.POST("/login", s.login, loginLimiter())
+	h.POST("/login", s.login, loginLimiter(), s.auditSignIn)
 	h.POST("/logout", s.logout)
 	h.GET("/safety", s.showSafety)
 
@@ -70,6 +70,8 @@ func (s *Server) routes() {
 	a.GET("/users", s.showUsers)
 	a.POST("/users", s.createUserForm)
 	a.POST("/users/:uid/role", s.setUserRole)
+	a.GET("/audit", s.showAudit)
+	a.GET("/audit.csv", s.exportAudit)
 	a.POST("/users/:uid/disabled", s.setUserDisabled)
 	a.POST("/users/:uid/sessions/end", s.endUserSessions)
 

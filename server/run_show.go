@@ -184,6 +184,9 @@ func (s *Server) showRun(c echo.Context) error {
 		return err
 	}
 	props.Review = views.RunReviewPanel(rp)
+	if props.History, err = s.runHistory(c, p.Run.ID); err != nil {
+		return err
+	}
 	return render(c, http.StatusOK, views.RunShow(props))
 }
 

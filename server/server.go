@@ -17,6 +17,7 @@ import (
 	"golang.org/x/time/rate"
 
 	"glowlog/diag"
+	"glowlog/diag/mset"
 	"glowlog/store"
 	"glowlog/views"
 )
@@ -72,6 +73,7 @@ func New(db *store.DB, opt Options) *Server {
 	e.Use(middleware.BodyLimit(bodyLimit))
 	e.Use(s.loadUser)
 	e.Use(s.pageGuard)
+	e.Use(s.auditActor)
 	s.routes()
 	return s
 }
@@ -180,9 +182,16 @@ func (s *Server) handleError(err error, c echo.Context) {
 	code, msg := http.StatusInternalServerError, "internal error"
 	var he *echo.HTTPError
 	var ue *userError
+	var ne *diag.NumericError
+	var me *mset.Error
 	switch {
 	case errors.As(err, &ue):
 		code, msg = ue.code, ue.msg
+	case errors.As(err, &ne), errors.As(err, &me):
+		// Input the analysis cannot use (a value out of range, a
+		// measurement set that is too deep or repeats a key): the
+		// message names the line and the value.
+		code, msg = http.StatusUnprocessableEntity, strings.TrimPrefix(err.Error(), "diag: ")
 	case errors.As(err, &he):
 		code = he.Code
 		if m, ok := he.Message.(string); ok {

@@ -130,5 +130,16 @@ func (d *DB) AttachmentContent(ctx context.Context, id int64) (Attachment, error
 }
 
 // Begin starts a transaction for requests that store several things
-// atomically (a run with its attachments and first analysis).
-func (d *DB) Begin(ctx context.Context) (*sql.Tx, error) { return d.db.BeginTx(ctx, nil) }
+// atomically (a run with its attachments and first analysis); the
+// context's actor is recorded for the audit trail.
+func (d *DB) Begin(ctx context.Context) (*sql.Tx, error) {
+	tx, err := d.db.BeginTx(ctx, nil)
+	if err != nil {
+		return nil, err
+	}
+	if err := d.setActor(ctx, tx); err != nil {
+		tx.Rollback()
+		return nil, err
+	}
+	return tx, nil
+}

@@ -35,7 +35,7 @@ func (d *DB) AddComment(ctx context.Context, runID, authorID int64, body string)
 		return Comment{}, fmt.Errorf("run %d: %w", runID, ErrNotFound)
 	}
 	now := d.now()
-	res, err := d.db.ExecContext(ctx, `INSERT INTO comments (run_id, author_id, body, created_at) VALUES (?, ?, ?, ?)`,
+	res, err := d.exec(ctx, `INSERT INTO comments (run_id, author_id, body, created_at) VALUES (?, ?, ?, ?)`,
 		runID, authorID, body, now)
 	if err != nil {
 		return Comment{}, fmt.Errorf("store: add comment: %w", err)

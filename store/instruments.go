@@ -25,7 +25,7 @@ func (d *DB) SaveInstrument(ctx context.Context, in *calib.Instrument) (int64, e
 		return 0, err
 	}
 	name := strings.TrimSpace(in.Name)
-	if _, err := d.db.ExecContext(ctx, `INSERT INTO instruments (name, definition, created_at) VALUES (?, ?, ?)
+	if _, err := d.exec(ctx, `INSERT INTO instruments (name, definition, created_at) VALUES (?, ?, ?)
 		ON CONFLICT(name) DO UPDATE SET definition = excluded.definition`, name, buf.String(), d.now()); err != nil {
 		return 0, fmt.Errorf("store: save instrument: %w", err)
 	}

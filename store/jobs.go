@@ -36,7 +36,7 @@ func (j Job) Finished() bool { return j.State == JobDone || j.State == JobFailed
 
 // CreateJob queues a job of kind with params (JSON) over total items.
 func (d *DB) CreateJob(ctx context.Context, kind, params string, total int, createdBy int64) (int64, error) {
-	res, err := d.db.ExecContext(ctx, `INSERT INTO jobs (kind, state, params, total, created_by, created_at) VALUES (?, 'queued', ?, ?, ?, ?)`,
+	res, err := d.exec(ctx, `INSERT INTO jobs (kind, state, params, total, created_by, created_at) VALUES (?, 'queued', ?, ?, ?, ?)`,
 		kind, params, total, createdBy, d.now())
 	if err != nil {
 		return 0, fmt.Errorf("store: create job: %w", err)

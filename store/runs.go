@@ -501,7 +501,7 @@ func (d *DB) ensureNamed(ctx context.Context, table, name, description string) (
 	if name == "" {
 		return 0, fmt.Errorf("%w: empty name", ErrInvalid)
 	}
-	if _, err := d.db.ExecContext(ctx, `INSERT INTO `+table+` (name, description) VALUES (?, ?) ON CONFLICT(name) DO NOTHING`, name, description); err != nil {
+	if _, err := d.exec(ctx, `INSERT INTO `+table+` (name, description) VALUES (?, ?) ON CONFLICT(name) DO NOTHING`, name, description); err != nil {
 		return 0, err
 	}
 	var id int64

@@ -12,7 +12,7 @@ import (
 // from now.
 func (d *DB) CreateSession(ctx context.Context, tokenHash []byte, userID int64, ttl time.Duration) error {
 	now := d.Now()
-	_, err := d.db.ExecContext(ctx, `INSERT INTO sessions (token_hash, user_id, created_at, expires_at) VALUES (?, ?, ?, ?)`,
+	_, err := d.exec(ctx, `INSERT INTO sessions (token_hash, user_id, created_at, expires_at) VALUES (?, ?, ?, ?)`,
 		tokenHash, userID, now.Unix(), now.Add(ttl).Unix())
 	if err != nil {
 		return fmt.Errorf("store: create session: %w", err)
@@ -30,13 +30,13 @@ func (d *DB) SessionUser(ctx context.Context, tokenHash []byte) (User, error) {
 // DeleteSession ends a session (logout); deleting an unknown one is not an
 // error.
 func (d *DB) DeleteSession(ctx context.Context, tokenHash []byte) error {
-	_, err := d.db.ExecContext(ctx, `DELETE FROM sessions WHERE token_hash = ?`, tokenHash)
+	_, err := d.exec(ctx, `DELETE FROM sessions WHERE token_hash = ?`, tokenHash)
 	return err
 }
 
 // PurgeSessions deletes expired sessions.
 func (d *DB) PurgeSessions(ctx context.Context) error {
-	_, err := d.db.ExecContext(ctx, `DELETE FROM sessions WHERE expires_at <= ?`, d.now())
+	_, err := d.exec(ctx, `DELETE FROM sessions WHERE expires_at <= ?`, d.now())
 	return err
 }
 
@@ -54,7 +54,7 @@ type Token struct {
 // CreateToken stores the hash of a new API token.
 func (d *DB) CreateToken(ctx context.Context, userID int64, name string, tokenHash []byte) (Token, error) {
 	now := d.now()
-	res, err := d.db.ExecContext(ctx, `INSERT INTO api_tokens (user_id, name, token_hash, created_at) VALUES (?, ?, ?, ?)`,
+	res, err := d.exec(ctx, `INSERT INTO api_tokens (user_id, name, token_hash, created_at) VALUES (?, ?, ?, ?)`,
 		userID, name, tokenHash, now)
 	if err != nil {
 		return Token{}, fmt.Errorf("store: create token: %w", err)
@@ -110,7 +110,7 @@ func (d *DB) TokenUser(ctx context.Context, tokenHash []byte) (User, error) {
 // TouchToken records that token id was used at t (never moving the stored
 // time backwards).
 func (d *DB) TouchToken(ctx context.Context, id int64, t time.Time) error {
-	_, err := d.db.ExecContext(ctx, `UPDATE api_tokens SET last_used_at = ? WHERE id = ? AND (last_used_at IS NULL OR last_used_at < ?)`,
+	_, err := d.exec(ctx, `UPDATE api_tokens SET last_used_at = ? WHERE id = ? AND (last_used_at IS NULL OR last_used_at < ?)`,
 		t.Unix(), id, t.Unix())
 	return err
 }
@@ -118,7 +118,7 @@ func (d *DB) TouchToken(ctx context.Context, id int64, t time.Time) error {
 // RevokeUserTokens revokes all of a user's active tokens and returns how
 // many there were.
 func (d *DB) RevokeUserTokens(ctx context.Context, userID int64) (int, error) {
-	res, err := d.db.ExecContext(ctx, `UPDATE api_tokens SET revoked_at = ? WHERE user_id = ? AND revoked_at IS NULL`, d.now(), userID)
+	res, err := d.exec(ctx, `UPDATE api_tokens SET revoked_at = ? WHERE user_id = ? AND revoked_at IS NULL`, d.now(), userID)
 	if err != nil {
 		return 0, err
 	}
@@ -158,7 +158,7 @@ func (d *DB) Tokens(ctx context.Context, userID int64) ([]Token, error) {
 
 // RevokeToken revokes one of a user's tokens.
 func (d *DB) RevokeToken(ctx context.Context, userID, tokenID int64) error {
-	res, err := d.db.ExecContext(ctx, `UPDATE api_tokens SET revoked_at = ? WHERE id = ? AND user_id = ? AND revoked_at IS NULL`,
+	res, err := d.exec(ctx, `UPDATE api_tokens SET revoked_at = ? WHERE id = ? AND user_id = ? AND revoked_at IS NULL`,
 		d.now(), tokenID, userID)
 	if err != nil {
 		return err

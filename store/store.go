@@ -37,6 +37,13 @@ type DB struct {
 	Now func() time.Time
 
 	trends trendCache
+
+	// auditReady is set once the audit tables and triggers are in place
+	// (after the migrations); from then on every write transaction
+	// records its actor (audit.go).
+	auditReady bool
+	// actorSet and actorClear write audit_actor (prepared once).
+	actorSet, actorClear *sql.Stmt
 }
 
 // Open opens (creating if needed) the database file at path and applies
@@ -64,6 +71,15 @@ func Open(ctx context.Context, path string) (*DB, error) {
 		sdb.Close()
 		return nil, err
 	}
+	if err := d.ensureAuditTriggers(ctx); err != nil {
+		sdb.Close()
+		return nil, err
+	}
+	if err := d.prepareActor(ctx); err != nil {
+		sdb.Close()
+		return nil, err
+	}
+	d.auditReady = true
 	return d, nil
 }
 
@@ -105,13 +121,21 @@ func (d *DB) migrate(ctx context.Context) error {
 			return err
 		}
 		if err := d.inTx(ctx, func(tx *sql.Tx) error {
+			// The audit triggers name the columns of their tables; they
+			// are rebuilt after the migrations (ensureAuditTriggers), so
+			// that a migration may drop or rename an audited column.
+			if err := dropAuditTriggers(ctx, tx); err != nil {
+				return err
+			}
 			for _, stmt := range splitSQL(string(body)) {
 				if _, err := tx.ExecContext(ctx, stmt); err != nil {
 					return fmt.Errorf("%w\n%s", err, stmt)
 				}
 			}
-			_, err := tx.ExecContext(ctx, `INSERT INTO schema_migrations (name, applied_at) VALUES (?, ?)`, name, d.now())
-			return err
+			if _, err := tx.ExecContext(ctx, `INSERT INTO schema_migrations (name, applied_at) VALUES (?, ?)`, name, d.now()); err != nil {
+				return err
+			}
+			return recordMigration(ctx, tx, name)
 		}); err != nil {
 			return fmt.Errorf("store: migration %s: %w", name, err)
 		}
@@ -142,14 +166,21 @@ func splitSQL(s string) []string {
 	return out
 }
 
-// inTx runs fn in a transaction, committing when it returns nil.
+// inTx runs fn in a transaction, committing when it returns nil. The
+// context's actor (WithActor) is recorded for the audit trail.
 func (d *DB) inTx(ctx context.Context, fn func(tx *sql.Tx) error) error {
 	tx, err := d.db.BeginTx(ctx, nil)
 	if err != nil {
 		return err
 	}
 	defer tx.Rollback()
+	if err := d.setActor(ctx, tx); err != nil {
+		return err
+	}
 	if err := fn(tx); err != nil {
+		return err
+	}
+	if err := d.clearActor(ctx, tx); err != nil {
 		return err
 	}
 	return tx.Commit()

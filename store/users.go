@@ -64,7 +64,7 @@ func (d *DB) CreateUserMustChange(ctx context.Context, name string, role Role, p
 		return User{}, err
 	}
 	now := d.now()
-	res, err := d.db.ExecContext(ctx, `INSERT INTO users (name, role, password_hash, created_at, must_change_password) VALUES (?, ?, ?, ?, ?)`,
+	res, err := d.exec(ctx, `INSERT INTO users (name, role, password_hash, created_at, must_change_password) VALUES (?, ?, ?, ?, ?)`,
 		name, string(role), passwordHash, now, boolInt(mustChange))
 	if err != nil {
 		if strings.Contains(err.Error(), "UNIQUE") {
@@ -136,7 +136,7 @@ func (d *DB) SetUserRole(ctx context.Context, id int64, role Role) error {
 	if _, err := ParseRole(string(role)); err != nil {
 		return err
 	}
-	res, err := d.db.ExecContext(ctx, `UPDATE users SET role = ? WHERE id = ?`, string(role), id)
+	res, err := d.exec(ctx, `UPDATE users SET role = ? WHERE id = ?`, string(role), id)
 	if err != nil {
 		return err
 	}
@@ -176,7 +176,7 @@ func (d *DB) ChangePassword(ctx context.Context, id int64, hash string, revokeTo
 
 // SetMustChangePassword sets or clears the must-change-password flag.
 func (d *DB) SetMustChangePassword(ctx context.Context, id int64, must bool) error {
-	res, err := d.db.ExecContext(ctx, `UPDATE users SET must_change_password = ? WHERE id = ?`, boolInt(must), id)
+	res, err := d.exec(ctx, `UPDATE users SET must_change_password = ? WHERE id = ?`, boolInt(must), id)
 	if err != nil {
 		return err
 	}
@@ -209,7 +209,7 @@ func (d *DB) SetUserDisabled(ctx context.Context, id int64, disabled bool) error
 // EndSessions deletes all of a user's sessions and returns how many there
 // were.
 func (d *DB) EndSessions(ctx context.Context, userID int64) (int, error) {
-	res, err := d.db.ExecContext(ctx, `DELETE FROM sessions WHERE user_id = ?`, userID)
+	res, err := d.exec(ctx, `DELETE FROM sessions WHERE user_id = ?`, userID)
 	if err != nil {
 		return 0, err
 	}

@@ -41,7 +41,7 @@ func navItems(u *UserView) []navItem {
 	}
 	items = append(items, navItem{"planner", "/planner", "Spectrometer planner"}, navItem{"safety", "/safety", "Safety"})
 	if u != nil && u.IsAdmin {
-		items = append(items, navItem{"admin", "/admin/users", "Accounts"})
+		items = append(items, navItem{"admin", "/admin/users", "Accounts"}, navItem{"audit", "/admin/audit", "Audit trail"})
 	}
 	return items
 }

@@ -16,6 +16,11 @@ import (
 // MaxBytes is the largest measurement set Decode accepts.
 const MaxBytes = 1 << 20
 
+// maxNameBytes bounds the string values of a measurement set (units,
+// isotope, perturber, Stark relation IDs), so that messages never echo a
+// long string.
+const maxNameBytes = 64
+
 // Error is a problem with a measurement set. Line is 1-based (0 when the
 // problem has no place in the file, e.g. it is empty or too large).
 type Error struct {
@@ -85,10 +90,16 @@ func Decode(source string, data []byte) (diag.Measurement, error) {
 	if len(bytes.TrimSpace(data)) == 0 {
 		return fail(0, "", "empty input: expected a JSON object with \"intensity_unit\" and \"lines\"")
 	}
-	pos, err := indexPositions(data)
+	if err := checkShape(data, MaxDepth, MaxValues, msetDepthHint); err != nil {
+		return diag.Measurement{}, shapeToError(source, data, err)
+	}
+	pos, err := indexPositions(data, MaxEntries)
 	if err != nil {
 		var se *json.SyntaxError
+		var sh *shapeError
 		switch {
+		case errors.As(err, &sh):
+			return diag.Measurement{}, shapeToError(source, data, err)
 		case errors.As(err, &se):
 			return fail(lineOf(data, se.Offset), "", "malformed JSON: %v", se)
 		case errors.Is(err, errTrailing):
@@ -124,6 +135,21 @@ func Decode(source string, data []byte) (diag.Measurement, error) {
 			return fail(line, name, "unknown field (see README for the measurement-set fields)")
 		}
 		return fail(0, "", "malformed JSON: %v", err)
+	}
+
+	// Names are short: a long one is not a name, and is not echoed back.
+	for _, f := range []struct {
+		path string
+		v    *string
+	}{{"intensity_unit", in.IntensityUnit}, {"isotope", in.Isotope}, {"perturber", in.Perturber}} {
+		if f.v != nil && len(*f.v) > maxNameBytes {
+			return fail(at(f.path), f.path, "a %d-byte value is not a name (limit %d bytes)", len(*f.v), maxNameBytes)
+		}
+	}
+	for k, v := range in.StarkRelations {
+		if len(k) > maxNameBytes || len(v) > maxNameBytes {
+			return fail(at("stark_relations"), "stark_relations", "keys are upper levels and values relation IDs, each at most %d bytes", maxNameBytes)
+		}
 	}
 
 	// Top-level fields.

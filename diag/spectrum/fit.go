@@ -225,6 +225,28 @@ func (p *Pipeline) fitAll(cands []balmerCandidate, x, y, sig []float64, opt Opti
 		if len(lines) == 0 {
 			continue
 		}
+		// Fit in normalised units: the fit is invariant under a common
+		// scale of data, σ and areas, but its sums of squares overflow or
+		// underflow for values beyond about 1e±150 (spectra in W or in
+		// photons per second). Scaling by a power of two is exact, and it
+		// is 1 for windows whose values are already in range.
+		scaleExp := windowScaleExp(wy)
+		if scaleExp != 0 {
+			for i := range wy {
+				wy[i] = math.Ldexp(wy[i], -scaleExp)
+				ws[i] = math.Ldexp(ws[i], -scaleExp)
+			}
+			for k := range lines {
+				lines[k].Area = math.Ldexp(lines[k].Area, -scaleExp)
+			}
+		}
+		if !validSigma(ws) {
+			for _, i := range fitted {
+				cands[i].search.Status = "fit-failed"
+				cands[i].search.Reason = "the pixel uncertainties in this window are zero or beyond the range of the fit (check the noise model and the data's scale)"
+			}
+			continue
+		}
 		// Without a noise model the σ are the robust noise estimate and the
 		// parameter errors are scaled by the residuals.
 		prob := linefit.Problem{X: wx, Y: wy, Sigma: ws, Lines: lines, BaselineOrder: 1,
@@ -244,6 +266,10 @@ func (p *Pipeline) fitAll(cands []balmerCandidate, x, y, sig []float64, opt Opti
 		}
 		for k, i := range fitted {
 			lr := p.fres.Lines[k]
+			if scaleExp != 0 {
+				lr.Area, lr.AreaErr = math.Ldexp(lr.Area, scaleExp), math.Ldexp(lr.AreaErr, scaleExp)
+				lr.Peak, lr.PeakErr = math.Ldexp(lr.Peak, scaleExp), math.Ldexp(lr.PeakErr, scaleExp)
+			}
 			lr.CenterErr *= scale
 			lr.AreaErr *= scale
 			lr.GaussFWHMErr *= scale
@@ -251,6 +277,11 @@ func (p *Pipeline) fitAll(cands []balmerCandidate, x, y, sig []float64, opt Opti
 			lr.VoigtFWHMErr *= scale
 			lr.PeakErr *= scale
 			c := &cands[i]
+			if !finiteF(lr.Area) || math.IsInf(lr.AreaErr, 0) {
+				c.search.Status = "fit-failed"
+				c.search.Reason = "the fitted area is not a finite number: the window's values are beyond the range of the fit"
+				continue
+			}
 			if !(lr.Area > 0) || lr.Area < 3*lr.AreaErr || math.IsNaN(lr.AreaErr) {
 				c.search.Status = "not-detected"
 				c.search.Reason = fmt.Sprintf("the fitted area %.3g ± %.2g is not significant (< 3σ)", lr.Area, lr.AreaErr)
@@ -273,6 +304,13 @@ func (p *Pipeline) fitAll(cands []balmerCandidate, x, y, sig []float64, opt Opti
 			for i := range wy {
 				win.Model[i] = wy[i] - win.Residual[i]
 			}
+			if scaleExp != 0 {
+				for i := range wy {
+					win.Data[i] = math.Ldexp(win.Data[i], scaleExp)
+					win.Model[i] = math.Ldexp(win.Model[i], scaleExp)
+					win.Residual[i] = math.Ldexp(win.Residual[i], scaleExp)
+				}
+			}
 			for _, i := range fitted {
 				win.Uppers = append(win.Uppers, cands[i].t.Upper)
 			}
@@ -283,6 +321,39 @@ func (p *Pipeline) fitAll(cands []balmerCandidate, x, y, sig []float64, opt Opti
 		return 0, 0, nil
 	}
 	return swx / sw, 1 / math.Sqrt(sw), nil
+}
+
+func finiteF(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
+
+// validSigma reports whether every σ is positive and finite, as the fit
+// requires.
+func validSigma(ws []float64) bool {
+	for _, s := range ws {
+		if !(s > 0 && s <= math.MaxFloat64) {
+			return false
+		}
+	}
+	return true
+}
+
+// windowScaleExp returns k such that the window's values divided by 2^k
+// have their largest magnitude near 1, or 0 when that magnitude already
+// lies within 2^±100 (the fit is then done on the values as they are).
+func windowScaleExp(wy []float64) int {
+	var m float64
+	for _, v := range wy {
+		if a := math.Abs(v); a > m && a <= math.MaxFloat64 {
+			m = a
+		}
+	}
+	if m == 0 {
+		return 0
+	}
+	_, e := math.Frexp(m)
+	if e >= -100 && e <= 100 {
+		return 0
+	}
+	return e
 }
 
 type groupChi2 struct {

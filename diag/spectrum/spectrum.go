@@ -160,9 +160,14 @@ type Result struct {
 type Error struct {
 	Source string
 	Msg    string
+	// Err is the underlying error when there is one (a *diag.LineError or
+	// *diag.NumericError from the analysis), for errors.As.
+	Err error
 }
 
 func (e *Error) Error() string { return e.Source + ": " + e.Msg }
+
+func (e *Error) Unwrap() error { return e.Err }
 
 // ErrNoBalmerLine reports a spectrum in which no Balmer line could be used.
 var ErrNoBalmerLine = errors.New("no Balmer line detected")
@@ -320,6 +325,14 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 				v += math.Max(opt.Dark.Counts[i], 0)*opt.GainElectronsPerCount + opt.ReadNoiseElectrons*opt.ReadNoiseElectrons
 			}
 			sig[i] = math.Sqrt(math.Max(v, 1)) / opt.GainElectronsPerCount / dx
+			if math.IsInf(sig[i], 0) || math.IsNaN(sig[i]) {
+				return res, fail(src, "pixel %d (%.4f nm): the noise model (gain %v e⁻/count, read noise %v e⁻) gives a non-finite σ: check the gain and read noise",
+					i+1, sp.WavelengthNM[i], opt.GainElectronsPerCount, opt.ReadNoiseElectrons)
+			}
+		}
+		if math.IsInf(y[i], 0) || math.IsNaN(y[i]) {
+			return res, fail(src, "pixel %d (%.4f nm): %v counts (dark subtracted: %v) over a %.3g nm pixel is beyond the range that can be analysed: check the values and their scale",
+				i+1, sp.WavelengthNM[i], sp.Counts[i], c, dx)
 		}
 	}
 	if sp.Vacuum {
@@ -329,8 +342,16 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 	}
 	noise := robustNoise(y, grow(&p.work, n))
 	if opt.GainElectronsPerCount <= 0 {
+		// Without a noise model the fit's σ only weights the pixels
+		// equally (its errors are scaled by the residuals), so a spectrum
+		// without measurable noise (a flat zero with one spike) takes a
+		// σ far below its values instead of 0, which no fit accepts.
+		s := noise
+		if !(s > 0) {
+			s = flatNoiseFloor(y)
+		}
 		for i := range sig {
-			sig[i] = noise
+			sig[i] = s
 		}
 	}
 	if !(noise > 0) {
@@ -369,6 +390,10 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 			if r, err := opt.Response.At(x[i]); err == nil && r > 0 {
 				y[i] /= r
 				sig[i] /= r
+				if math.IsInf(y[i], 0) || !(sig[i] > 0 && sig[i] <= math.MaxFloat64) {
+					return res, fail(src, "pixel %d (%.4f nm): dividing by the response %v gives %v ± %v, beyond the range that can be analysed: check the response calibration's scale",
+						i+1, x[i], r, y[i], sig[i])
+				}
 			} else {
 				y[i], sig[i] = math.NaN(), math.NaN()
 			}
@@ -450,7 +475,7 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 	}
 	ar, err := diag.Analyze(m)
 	if err != nil {
-		return res, fail(src, "%s", trimDiag(err.Error()))
+		return res, &Error{Source: src, Msg: trimDiag(err.Error()), Err: err}
 	}
 	res.Result = ar
 	if autoSat && anySaturated(cands) {
@@ -470,7 +495,29 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 	for _, f := range res.Flags {
 		res.Warnings = append(res.Warnings, f.Message)
 	}
+	// Final net: the preprocessing and search record is finite too (the
+	// analysis, fits included, was checked by diag.Analyze).
+	own := res
+	own.Result = diag.Result{}
+	if err := diag.CheckFinite(own); err != nil {
+		return res, &Error{Source: src, Msg: trimDiag(err.Error()), Err: err}
+	}
 	return res, nil
+}
+
+// flatNoiseFloor is the σ used when the robust noise estimate is zero:
+// 2⁻⁴⁰ of the largest finite magnitude, or 1 for an all-zero spectrum.
+func flatNoiseFloor(y []float64) float64 {
+	var m float64
+	for _, v := range y {
+		if a := math.Abs(v); a > m && a <= math.MaxFloat64 {
+			m = a
+		}
+	}
+	if s := math.Ldexp(m, -40); s > 0 {
+		return s
+	}
+	return 1
 }
 
 func joinReasons(rs []string) string {
