@@ -9,6 +9,7 @@ import (
 	"io"
 	"os"
 	"runtime"
+	"runtime/debug"
 	"strings"
 	"sync"
 
@@ -142,6 +143,13 @@ func AnalyzeCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) in
 		}
 	}
 
+	// A batch holds every result until the end, and each file leaves
+	// garbage (its text, arrays, encoding): collecting when the heap has
+	// grown by 4× the live data rather than 1× takes about a tenth off a
+	// batch's CPU time for some tens of MB. GOGC, if set, wins.
+	if len(files) > 1 && os.Getenv("GOGC") == "" {
+		defer debug.SetGCPercent(debug.SetGCPercent(400))
+	}
 	results := make([]any, len(files))
 	errs := make([]error, len(files))
 	jobs := make(chan int)
@@ -152,8 +160,9 @@ func AnalyzeCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) in
 		go func() {
 			defer wg.Done()
 			p := spectrum.NewPipeline(8192)
+			var buf []byte // one read buffer per worker, reused file after file
 			for i := range jobs {
-				results[i], errs[i] = c.analyzeOne(p, files[i], stdinData)
+				results[i], errs[i] = c.analyzeOne(p, &buf, files[i], stdinData)
 			}
 		}()
 	}
@@ -236,18 +245,19 @@ func sourceName(f string) string {
 	return f
 }
 
-// analyzeOne reads and analyses one file.
-func (c *analyzeConfig) analyzeOne(p *spectrum.Pipeline, name string, stdinData []byte) (any, error) {
+// analyzeOne reads and analyses one file, reading into *buf, which it
+// grows as needed. Nothing of the result refers to *buf.
+func (c *analyzeConfig) analyzeOne(p *spectrum.Pipeline, buf *[]byte, name string, stdinData []byte) (any, error) {
 	src := sourceName(name)
 	var data []byte
 	if name == "-" {
 		data = stdinData
 	} else {
-		b, err := readLimited(name, specfile.DefaultMaxBytes)
+		b, err := readLimitedInto(*buf, name, specfile.DefaultMaxBytes)
 		if err != nil {
 			return nil, err
 		}
-		data = b
+		*buf, data = b, b
 	}
 	if c.isMeasurementSet(data) {
 		for _, f := range conditionFlags {
@@ -258,6 +268,7 @@ func (c *analyzeConfig) analyzeOne(p *spectrum.Pipeline, name string, stdinData 
 		if len(data) > mset.MaxBytes {
 			return nil, &mset.Error{Source: src, Msg: fmt.Sprintf("file is %d bytes, more than the %d-byte limit for a measurement set", len(data), mset.MaxBytes)}
 		}
+		data = bytes.Clone(data) // off the reused buffer: small, and decoded once
 		m, err := mset.Decode(src, data)
 		if err != nil {
 			return nil, err
@@ -318,14 +329,39 @@ func (c *analyzeConfig) isMeasurementSet(data []byte) bool {
 }
 
 func readLimited(name string, limit int64) ([]byte, error) {
+	return readLimitedInto(nil, name, limit)
+}
+
+// readLimitedInto is readLimited reading into buf's memory, grown to the
+// file's size if it is smaller, so that a batch reads file after file
+// without allocating.
+func readLimitedInto(buf []byte, name string, limit int64) ([]byte, error) {
 	f, err := os.Open(name)
 	if err != nil {
 		return nil, err
 	}
 	defer f.Close()
-	b, err := io.ReadAll(io.LimitReader(f, limit+1))
-	if err != nil {
-		return nil, fmt.Errorf("%s: %v", name, err)
+	size := int64(512)
+	if st, err := f.Stat(); err == nil && st.Mode().IsRegular() {
+		size = min(st.Size(), limit) + 1 // + 1: room to see EOF without growing
+	}
+	b := buf[:0]
+	if int64(cap(b)) < size {
+		b = make([]byte, 0, size)
+	}
+	r := io.LimitReader(f, limit+1)
+	for {
+		if len(b) == cap(b) {
+			b = append(b, 0)[:len(b)]
+		}
+		n, err := r.Read(b[len(b):cap(b)])
+		b = b[:len(b)+n]
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return nil, fmt.Errorf("%s: %v", name, err)
+		}
 	}
 	if int64(len(b)) > limit {
 		return nil, fmt.Errorf("%s: file exceeds the %d-byte limit", name, limit)
