@@ -181,26 +181,27 @@ func AnalyzeCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) in
 	single := len(files) == 1
 	for i, r := range results {
 		src := sourceName(files[i])
+		var buf []byte
+		var encErr error
 		if errs[i] == nil {
-			// Final net: no NaN or ±Inf reaches the encoder.
-			if err := diag.CheckFinite(r); err != nil {
-				errs[i] = fmt.Errorf("%s: %s", src, strings.TrimPrefix(err.Error(), "diag: "))
+			buf, encErr = encodeRecord(r, single)
+			// Final net: a NaN or ±Inf, which encoding/json refuses, is
+			// named by its path as a problem of the input. (Checked only
+			// when the encoder fails: a result it writes has none.)
+			if encErr != nil {
+				if err := diag.CheckFinite(r); err != nil {
+					errs[i], encErr = fmt.Errorf("%s: %s", src, strings.TrimPrefix(err.Error(), "diag: ")), nil
+				}
 			}
 		}
-		var buf []byte
-		if errs[i] == nil {
-			b, err := encodeRecord(r, single)
-			if err != nil {
-				fmt.Fprintf(stderr, "glowlog analyze: %s: encoding result: %v\n", src, err)
-				status = ExitError
-				if single {
-					return status
-				}
-				buf, _ = encodeRecord(errorRecord{Source: src, Error: "internal error: the result could not be encoded: " + err.Error()}, false)
-			} else {
-				buf = b
+		if encErr != nil {
+			fmt.Fprintf(stderr, "glowlog analyze: %s: encoding result: %v\n", src, encErr)
+			status = ExitError
+			if single {
+				return status
 			}
-		} else {
+			buf, _ = encodeRecord(errorRecord{Source: src, Error: "internal error: the result could not be encoded: " + encErr.Error()}, false)
+		} else if errs[i] != nil {
 			fmt.Fprintf(stderr, "glowlog analyze: %v\n", errs[i])
 			if status == ExitOK {
 				status = ExitInput // an internal failure (1) stays 1
