@@ -116,7 +116,10 @@ func parseText(name string, data []byte, opt TextOptions, lim Limits) (*Spectrum
 		case t[0] == '#' || t[0] == '%' || strings.HasPrefix(t, "//"):
 			addCommentMeta(sp, strings.TrimLeft(t, "#%/"))
 		default:
-			start := sc.start + strings.Index(line, t)
+			start := sc.start
+			if len(t) != len(line) {
+				start += strings.Index(line, t)
+			}
 			content = append(content, contentLine{num: sc.num, start: start, end: start + len(t), semi: t[0] == ';'})
 		}
 	}
@@ -424,6 +427,19 @@ func onlyDelimiters(t string) bool {
 // (quotes, a stray character) takes the field the long way: cut, trimmed,
 // unquoted and parsed as splitFields and fieldValue do.
 func fastRow(s string, delim, dec byte, ncols, xc, yc int) (x, y float64, ok bool) {
+	if ncols == 2 && delim != ' ' {
+		// The usual two-column line, "656.28,1234.5": a number, the
+		// delimiter, a number. Both fields are then exactly the numbers.
+		a, e, ok1 := scanNumber(s, 0, dec)
+		if ok1 && e < len(s) && s[e] == delim {
+			if b, e2, ok2 := scanNumber(s, e+1, dec); ok2 && e2 == len(s) && isFinite(a) && isFinite(b) {
+				if xc == 0 {
+					return a, b, true
+				}
+				return b, a, true
+			}
+		}
+	}
 	var v float64
 	n := 0 // fields seen
 	if delim == ' ' {
