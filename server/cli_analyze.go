@@ -399,12 +399,11 @@ func (c *analyzeConfig) readCurve(src string, data []byte, minPoints int) (*spec
 	if err != nil {
 		return nil, err
 	}
-	x, y, err := s.WavelengthNM()
-	if err != nil {
+	vacuum := c.vacuum || s.XUnit == specfile.WavenumberPerCM
+	if err := s.ToWavelengthNM(); err != nil { // in place: the file's axis is not needed
 		return nil, fmt.Errorf("%s: %v (give --x-unit nm, angstrom, um or cm-1)", src, strings.TrimPrefix(err.Error(), "specfile: "))
 	}
-	return &spectrum.Spectrum{Name: src, WavelengthNM: x, Counts: y,
-		Vacuum: c.vacuum || s.XUnit == specfile.WavenumberPerCM}, nil
+	return &spectrum.Spectrum{Name: src, WavelengthNM: s.X, Counts: s.Y, Vacuum: vacuum}, nil
 }
 
 func parseAxisUnit(s string) (specfile.AxisUnit, error) {

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"strconv"
 	"strings"
 	"testing"
@@ -281,5 +282,54 @@ func TestReadTextAllocs(t *testing.T) {
 	})
 	if allocs > 16 {
 		t.Errorf("ReadText of 2048 points: %v allocations, want ≤ 16", allocs)
+	}
+}
+
+// TestToWavelengthNM: the in-place conversion gives WavelengthNM's values
+// bit for bit and its errors, leaves s alone on error, and allocates
+// nothing.
+func TestToWavelengthNM(t *testing.T) {
+	r := rand.New(rand.NewPCG(7, 8))
+	for _, unit := range []AxisUnit{NM, Angstrom, Micrometer, WavenumberPerCM, UnknownUnit} {
+		for _, desc := range []bool{false, true} {
+			for _, bad := range []int{-1, 0, 5} {
+				n := 12
+				x, y := make([]float64, n), make([]float64, n)
+				for i := range n {
+					x[i] = 100 + float64(i) + r.Float64()/2
+					y[i] = r.NormFloat64()
+				}
+				if desc {
+					slices.Reverse(x)
+				}
+				if bad >= 0 {
+					x[bad] = -x[bad] * float64(bad%2)
+				}
+				sp := &Spectrum{X: slices.Clone(x), Y: slices.Clone(y), XUnit: unit}
+				wl, wy, err := sp.WavelengthNM()
+				err2 := sp.ToWavelengthNM()
+				if (err == nil) != (err2 == nil) || err != nil && err.Error() != err2.Error() {
+					t.Fatalf("%v desc=%v bad=%d: WavelengthNM error %v, ToWavelengthNM %v", unit, desc, bad, err, err2)
+				}
+				if err != nil {
+					if !slices.Equal(sp.X, x) || !slices.Equal(sp.Y, y) || sp.XUnit != unit {
+						t.Fatalf("%v: ToWavelengthNM changed the spectrum on error", unit)
+					}
+					continue
+				}
+				for i := range wl {
+					if math.Float64bits(sp.X[i]) != math.Float64bits(wl[i]) || math.Float64bits(sp.Y[i]) != math.Float64bits(wy[i]) {
+						t.Fatalf("%v desc=%v: point %d = (%v, %v), WavelengthNM (%v, %v)", unit, desc, i, sp.X[i], sp.Y[i], wl[i], wy[i])
+					}
+				}
+				if sp.XUnit != NM {
+					t.Errorf("XUnit = %v after conversion", sp.XUnit)
+				}
+			}
+		}
+	}
+	sp := &Spectrum{X: []float64{20000, 25000}, Y: []float64{1, 2}, XUnit: WavenumberPerCM}
+	if a := testing.AllocsPerRun(10, func() { sp.XUnit = WavenumberPerCM; _ = sp.ToWavelengthNM() }); a != 0 {
+		t.Errorf("ToWavelengthNM allocates %v times", a)
 	}
 }
