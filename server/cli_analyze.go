@@ -179,12 +179,13 @@ func AnalyzeCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) in
 	// be encoded, which also gets an error record; 1 wins over 2).
 	status := ExitOK
 	single := len(files) == 1
+	var out bytes.Buffer // one encoding buffer, reused record after record
 	for i, r := range results {
 		src := sourceName(files[i])
 		var buf []byte
 		var encErr error
 		if errs[i] == nil {
-			buf, encErr = encodeRecord(r, single)
+			buf, encErr = encodeRecord(&out, r, single)
 			// Final net: a NaN or ±Inf, which encoding/json refuses, is
 			// named by its path as a problem of the input. (Checked only
 			// when the encoder fails: a result it writes has none.)
@@ -200,7 +201,7 @@ func AnalyzeCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) in
 			if single {
 				return status
 			}
-			buf, _ = encodeRecord(errorRecord{Source: src, Error: "internal error: the result could not be encoded: " + encErr.Error()}, false)
+			buf, _ = encodeRecord(&out, errorRecord{Source: src, Error: "internal error: the result could not be encoded: " + encErr.Error()}, false)
 		} else if errs[i] != nil {
 			fmt.Fprintf(stderr, "glowlog analyze: %v\n", errs[i])
 			if status == ExitOK {
@@ -209,7 +210,7 @@ func AnalyzeCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) in
 			if single {
 				return status
 			}
-			buf, _ = encodeRecord(errorRecord{Source: src, Error: errs[i].Error()}, false)
+			buf, _ = encodeRecord(&out, errorRecord{Source: src, Error: errs[i].Error()}, false)
 		}
 		if _, err := stdout.Write(buf); err != nil {
 			fmt.Fprintf(stderr, "glowlog analyze: writing output: %v\n", err)
@@ -219,10 +220,12 @@ func AnalyzeCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) in
 	return status
 }
 
-// encodeRecord writes one JSON record (indented for a single file).
-func encodeRecord(v any, indent bool) ([]byte, error) {
-	var buf bytes.Buffer
-	enc := json.NewEncoder(&buf)
+// encodeRecord writes one JSON record (indented for a single file) into
+// buf, which it resets first, and returns buf's bytes, valid until the
+// next use of buf.
+func encodeRecord(buf *bytes.Buffer, v any, indent bool) ([]byte, error) {
+	buf.Reset()
+	enc := json.NewEncoder(buf)
 	enc.SetEscapeHTML(false)
 	if indent {
 		enc.SetIndent("", "  ")
