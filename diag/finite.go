@@ -98,7 +98,10 @@ func planOf(t reflect.Type) *typePlan {
 			sf := t.Field(i)
 			tag := sf.Tag.Get("json")
 			name, _, _ := strings.Cut(tag, ",")
-			if (!sf.IsExported() && !sf.Anonymous) || tag == "-" || !computeHoldsFloat(sf.Type, map[reflect.Type]bool{}) {
+			// planOf(sf.Type).holds is computeHoldsFloat(sf.Type, {}),
+			// cached: nested result types are decided once, not again for
+			// every type that contains them.
+			if (!sf.IsExported() && !sf.Anonymous) || tag == "-" || !planOf(sf.Type).holds {
 				continue
 			}
 			fp := fieldPlan{index: i, name: name}

@@ -13,7 +13,7 @@ import (
 // FWHAFromVoigt returns the full width at half area of a Voigt profile
 // with Gaussian FWHM wG and Lorentzian FWHM wL, by interpolation in a table
 // of FWHA/w_V against the Lorentzian fraction ρ = w_L/(w_L + w_G), with w_V
-// the Olivero–Longbothum FWHM. The table (513 nodes, built once from
+// the Olivero–Longbothum FWHM. The table (513 nodes, generated from
 // FWHAFromVoigtExact) and cubic Hermite interpolation reproduce the exact
 // value to better than 1e-6 relative (tested). Limits as for
 // FWHAFromVoigtExact.
@@ -24,7 +24,6 @@ func FWHAFromVoigt(wG, wL float64) float64 {
 	if wG == 0 || wL == 0 {
 		return FWHAFromVoigtExact(wG, wL)
 	}
-	fwhaTableOnce.Do(initFWHATable)
 	rho := wL / (wL + wG)
 	u := rho * float64(len(fwhaTable)-1)
 	i := min(int(u), len(fwhaTable)-2)
@@ -45,17 +44,14 @@ func FWHAFromVoigt(wG, wL float64) float64 {
 	return r * VoigtFWHM(wG, wL)
 }
 
-var (
-	fwhaTableOnce sync.Once
-	fwhaTable     [513]float64 // FWHA/w_V at ρ = k/512
-)
-
-func initFWHATable() {
-	for k := range fwhaTable {
-		rho := float64(k) / float64(len(fwhaTable)-1)
-		wG, wL := 1-rho, rho
-		fwhaTable[k] = FWHAFromVoigtExact(wG, wL) / VoigtFWHM(wG, wL)
-	}
+// fwhaTableNode returns node k of fwhaTable, FWHA/w_V at ρ = k/512,
+// computed. The table itself is generated from it (fwha_table.go; the 513
+// exact values cost tens of milliseconds, which every process paid on its
+// first analysis when the table was built at run time).
+func fwhaTableNode(k int) float64 {
+	rho := float64(k) / float64(len(fwhaTable)-1)
+	wG, wL := 1-rho, rho
+	return FWHAFromVoigtExact(wG, wL) / VoigtFWHM(wG, wL)
 }
 
 // FWHAFromVoigtExact returns the full width at half area of a Voigt profile

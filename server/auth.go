@@ -11,6 +11,7 @@ import (
 	"net/http"
 	"net/url"
 	"strings"
+	"sync"
 
 	"github.com/labstack/echo/v4"
 	"golang.org/x/crypto/argon2"
@@ -64,8 +65,13 @@ func CheckPassword(hash, password string) bool {
 }
 
 // dummyHash is checked against when a user name is unknown, so that the
-// time of a failed sign-in does not tell whether the name exists.
-var dummyHash, _ = HashPassword("not-a-real-password-0")
+// time of a failed sign-in does not tell whether the name exists. It is
+// made on first use, not at start-up: one Argon2id hash costs about 60 ms
+// and 20 MB, which every command (glowlog analyze, version) would pay.
+var dummyHash = sync.OnceValue(func() string {
+	h, _ := HashPassword("not-a-real-password-0")
+	return h
+})
 
 // NewToken returns a random token and its SHA-256 hash (what is stored).
 func NewToken() (string, []byte) {
@@ -180,7 +186,7 @@ func (s *Server) login(c echo.Context) error {
 	case err == nil && !u.Disabled:
 		ok = CheckPassword(u.PasswordHash, pw)
 	case errors.Is(err, store.ErrNotFound) || err == nil:
-		CheckPassword(dummyHash, pw)
+		CheckPassword(dummyHash(), pw)
 	default:
 		return err
 	}

@@ -218,23 +218,34 @@ func NewFitter(maxPoints, maxLines int) *Fitter {
 	f.col = make([]float64, p)
 	f.ata = make([]float64, p*p)
 	f.fac = make([]float64, p*p)
-	f.jac = make([]float64, maxPoints*p)
-	f.jacT = make([]float64, maxPoints*p)
-	f.model = make([]float64, maxPoints)
-	f.modelT = make([]float64, maxPoints)
-	f.wt = make([]float64, maxPoints)
-	f.rw = make([]float64, maxPoints)
-	f.pxLo = make([]float64, maxPoints)
-	f.pxW = make([]float64, maxPoints)
-	f.um = make([]float64, maxPoints)
-	f.uq = make([]float64, maxPoints)
-	f.order = make([]int, maxPoints)
 	f.nodes = make([]int, maxLines)
 	return f
 }
 
 // sqrt2 is √2.
 const sqrt2 = math.Sqrt2
+
+// growPoints makes the per-point workspace (the Jacobian above all:
+// maxPoints × maxP values, several MB for wide windows) hold n points. It
+// grows with the largest window fitted so far rather than being made for
+// maxPoints up front, so that a Fitter made for wide windows costs nothing
+// until it fits one; repeated fits of windows no larger allocate nothing.
+func (f *Fitter) growPoints(n int) {
+	if len(f.model) >= n {
+		return
+	}
+	f.jac = make([]float64, n*f.maxP)
+	f.jacT = make([]float64, n*f.maxP)
+	f.model = make([]float64, n)
+	f.modelT = make([]float64, n)
+	f.wt = make([]float64, n)
+	f.rw = make([]float64, n)
+	f.pxLo = make([]float64, n)
+	f.pxW = make([]float64, n)
+	f.um = make([]float64, n)
+	f.uq = make([]float64, n)
+	f.order = make([]int, n)
+}
 
 // Convergence and damping constants.
 const (
@@ -417,6 +428,7 @@ loop:
 
 // setup lays out the parameter vector and its start values.
 func (f *Fitter) setup(p *Problem) {
+	f.growPoints(len(p.X))
 	xmin, xmax := math.Inf(1), math.Inf(-1)
 	for _, x := range p.X {
 		xmin = min(xmin, x)

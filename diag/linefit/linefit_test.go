@@ -4,6 +4,7 @@ import (
 	"errors"
 	"math"
 	"math/rand/v2"
+	"runtime"
 	"strings"
 	"testing"
 
@@ -365,6 +366,35 @@ func TestFitNoAllocs(t *testing.T) {
 	}
 	if a := testing.AllocsPerRun(50, func() { _ = f.Fit(&res, p) }); a != 0 {
 		t.Errorf("Fit allocates %v times per call, want 0", a)
+	}
+}
+
+// TestFitterWorkspaceOnDemand: a Fitter made for wide windows allocates
+// its per-point workspace (two Jacobians of maxPoints × parameters) only
+// as windows need it, and fits exactly as one made to measure.
+func TestFitterWorkspaceOnDemand(t *testing.T) {
+	var before, after runtime.MemStats
+	runtime.ReadMemStats(&before)
+	wide := NewFitter(8192, 8)
+	runtime.ReadMemStats(&after)
+	if b := after.TotalAlloc - before.TotalAlloc; b > 64<<10 {
+		t.Errorf("NewFitter(8192, 8) allocates %d bytes up front, want ≤ 64 KiB", b)
+	}
+	x, y0, s := halpha.make()
+	y := make([]float64, len(x))
+	noisy(rand.New(rand.NewPCG(5, 6)), y0, s, y)
+	p := &Problem{X: x, Y: y, Sigma: constSigma(len(x), s), SigmaAbsolute: true,
+		Lines: []Line{start(halpha.lines[0])}, BaselineOrder: 1}
+	var got, want Result
+	if err := wide.Fit(&got, p); err != nil {
+		t.Fatal(err)
+	}
+	if err := NewFitter(len(x), 1).Fit(&want, p); err != nil {
+		t.Fatal(err)
+	}
+	if got.Chi2 != want.Chi2 || got.Lines[0].Area != want.Lines[0].Area || got.Lines[0].AreaErr != want.Lines[0].AreaErr {
+		t.Errorf("wide fitter: χ² %v, area %v ± %v; made to measure: %v, %v ± %v",
+			got.Chi2, got.Lines[0].Area, got.Lines[0].AreaErr, want.Chi2, want.Lines[0].Area, want.Lines[0].AreaErr)
 	}
 }
 

@@ -6,6 +6,7 @@ import (
 	"math"
 	"slices"
 	"strings"
+	"unsafe"
 )
 
 // utf8BOM is the UTF-8 encoding of U+FEFF, which some editors prepend.
@@ -13,8 +14,32 @@ var utf8BOM = []byte{0xEF, 0xBB, 0xBF}
 
 // readAll reads r up to lim.MaxBytes. It reads at most one byte more than
 // the limit, so an oversized upload costs no more than the limit.
+//
+// A reader that knows its length (bytes.Reader, strings.Reader,
+// bytes.Buffer) is read into one buffer of the right size; others into a
+// buffer that grows as io.ReadAll's does.
 func readAll(name string, r io.Reader, lim Limits) ([]byte, error) {
-	data, err := io.ReadAll(io.LimitReader(r, lim.MaxBytes+1))
+	size := int64(512)
+	if l, ok := r.(interface{ Len() int }); ok {
+		size = int64(l.Len()) + 1 // + 1: room to see EOF without growing
+	}
+	data := make([]byte, 0, min(size, lim.MaxBytes+1))
+	lr := io.LimitReader(r, lim.MaxBytes+1)
+	var err error
+	for {
+		if len(data) == cap(data) {
+			data = append(data, 0)[:len(data)]
+		}
+		var n int
+		n, err = lr.Read(data[len(data):cap(data)])
+		data = data[:len(data)+n]
+		if err != nil {
+			if err == io.EOF {
+				err = nil
+			}
+			break
+		}
+	}
 	if err != nil {
 		return nil, &ParseError{File: name, Line: 1 + bytes.Count(data, []byte{'\n'}),
 			Msg: "read failed: " + err.Error(), Err: ErrRead}
@@ -33,13 +58,16 @@ type lineScanner struct {
 	name   string
 	data   string
 	pos    int
+	start  int // offset in data of the line last returned
 	num    int // number of the line last returned, 1-based
 	maxLen int
 }
 
+// The scanner's text shares memory with data, which must not change
+// afterwards: every caller passes the buffer readAll made for it alone.
 func newLineScanner(name string, data []byte, lim Limits) *lineScanner {
 	data = bytes.TrimPrefix(data, utf8BOM)
-	return &lineScanner{name: name, data: string(data), maxLen: lim.MaxLineLen}
+	return &lineScanner{name: name, data: unsafe.String(unsafe.SliceData(data), len(data)), maxLen: lim.MaxLineLen}
 }
 
 // next returns the next line. ok is false at end of input.
@@ -48,6 +76,7 @@ func (s *lineScanner) next() (line string, ok bool, err error) {
 		return "", false, nil
 	}
 	s.num++
+	s.start = s.pos
 	rest := s.data[s.pos:]
 	i := strings.IndexByte(rest, '\n')
 	if i < 0 {
@@ -62,6 +91,12 @@ func (s *lineScanner) next() (line string, ok bool, err error) {
 		return "", false, errf(s.name, s.num, ErrLineTooLong, "line exceeds %d bytes", s.maxLen)
 	}
 	return line, true, nil
+}
+
+// lineCountHint is an upper bound of the number of lines left, for
+// sizing slices.
+func (s *lineScanner) lineCountHint() int {
+	return strings.Count(s.data[s.pos:], "\n") + 1
 }
 
 // lastLine is the number of the last line of the input (at least 1), used

@@ -2,7 +2,9 @@ package specfile
 
 import (
 	"math"
+	"math/bits"
 	"strconv"
+	"strings"
 )
 
 // scanDecimal scans a decimal number starting at s[i]:
@@ -87,4 +89,143 @@ func atof(s string) float64 {
 }
 
 // isFinite reports whether v is neither NaN nor ±Inf.
-func isFinite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
+func isFinite(v float64) bool { return math.Float64bits(v)&(0x7ff<<52) != 0x7ff<<52 }
+
+// pow10tab holds the powers of ten that are exact in float64 (10²² is the
+// largest: 5²² < 2⁵³).
+var pow10tab = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10,
+	1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
+
+// parseNumber parses s, which must be exactly one number in the grammar of
+// scanDecimal (asdf false) with point as the decimal separator ('.' or
+// ','), and returns the same value, bit for bit, as strconv.ParseFloat
+// of s written with a '.' (range errors folded in: ±Inf or ±0). It
+// allocates nothing unless it falls back to strconv.
+func parseNumber(s string, point byte) (float64, bool) {
+	v, end, ok := scanNumber(s, 0, point)
+	if !ok || end != len(s) {
+		return 0, false
+	}
+	return v, true
+}
+
+// scanNumber scans the longest number of scanDecimal's grammar (asdf
+// false, point as the decimal separator) at s[i:] and returns its value,
+// as parseNumber would give it, and its end. ok is false if s[i:] does not
+// start with a number.
+//
+// Most spectrometer numbers have at most 19 digits and a small decimal
+// exponent. Then the digits form an integer m ≤ 2⁵³, exact in float64,
+// and so is 10^|e| for |e| ≤ 22; one IEEE multiplication or division of
+// two exact values is correctly rounded, which is the value ParseFloat
+// returns (Clinger's fast path: W. D. Clinger, "How to read floating point
+// numbers accurately", PLDI 1990; strconv takes the same path first).
+// Everything else goes to strconv.ParseFloat.
+func scanNumber(s string, i int, point byte) (v float64, end int, ok bool) {
+	start := i
+	neg := false
+	if i < len(s) && (s[i] == '+' || s[i] == '-') {
+		neg = s[i] == '-'
+		i++
+	}
+	d0 := i
+	mant, i := digitRun(s, i, 0)
+	nd := i - d0 // digits; more than 19 may overflow mant
+	frac := 0
+	if i < len(s) && s[i] == point {
+		f0 := i + 1
+		mant, i = digitRun(s, f0, mant)
+		frac = i - f0
+		nd += frac
+	}
+	if nd == 0 {
+		return 0, start, false
+	}
+	exp := 0
+	if i < len(s) && s[i]|0x20 == 'e' {
+		k := i + 1
+		eneg := false
+		if k < len(s) && (s[k] == '+' || s[k] == '-') {
+			eneg = s[k] == '-'
+			k++
+		}
+		if k < len(s) && isDigit(s[k]) { // else the number ends before the 'e'
+			for ; k < len(s) && isDigit(s[k]); k++ {
+				if exp < 100000 {
+					exp = exp*10 + int(s[k]-'0')
+				}
+			}
+			if eneg {
+				exp = -exp
+			}
+			i = k
+		}
+	}
+	switch e := exp - frac; {
+	case nd > 19 || mant > 1<<53 || (mant != 0 && (e < -22 || e > 22)):
+		return atofPoint(s[start:i], point), i, true
+	case mant == 0:
+		v = 0
+	case e >= 0:
+		v = float64(mant) * pow10tab[e]
+	default:
+		v = float64(mant) / pow10tab[-e]
+	}
+	if neg {
+		v = -v
+	}
+	return v, i, true
+}
+
+// atofPoint is atof of a number written with point as its decimal
+// separator.
+func atofPoint(s string, point byte) float64 {
+	if point != '.' {
+		s = strings.Replace(s, string(point), ".", 1)
+	}
+	return atof(s)
+}
+
+// pow10u[d] is 10^d.
+var pow10u = [...]uint64{1, 10, 100, 1000, 10000, 100000, 1000000, 10000000, 100000000}
+
+// digitRun appends the decimal digits at s[i:] to mant (mant·10 + digit
+// for each) and returns it with the end of the digits. More than 19 digits
+// overflow mant; the caller counts them. Eight bytes at a time where the
+// string has them (the SWAR method of fast_float: Lemire, "Number parsing
+// at a gigabyte per second", Software: Practice and Experience 51, 2021).
+func digitRun(s string, i int, mant uint64) (uint64, int) {
+	for i+8 <= len(s) {
+		b := s[i : i+8]
+		w := uint64(b[0]) | uint64(b[1])<<8 | uint64(b[2])<<16 | uint64(b[3])<<24 |
+			uint64(b[4])<<32 | uint64(b[5])<<40 | uint64(b[6])<<48 | uint64(b[7])<<56
+		// A byte is a digit iff its high nibble is 3 and stays 3 when 6 is
+		// added (0x30–0x39). Carries only leave non-digit bytes, and only
+		// upwards, past the first non-digit.
+		t := (w&0xF0F0F0F0F0F0F0F0 ^ 0x3030303030303030) |
+			((w+0x0606060606060606)&0xF0F0F0F0F0F0F0F0 ^ 0x3030303030303030)
+		d := bits.TrailingZeros64(t) >> 3 // leading digits, 0–8
+		if d == 0 {
+			return mant, i
+		}
+		// Digit values in the low d bytes, first digit lowest, shifted up
+		// so that the unused high bytes become leading zeros.
+		x := (w - 0x3030303030303030) << (64 - 8*d)
+		x = x*10 + x>>8
+		x = ((x&0x000000FF000000FF)*(100+1000000<<32) + (x>>16&0x000000FF000000FF)*(1+10000<<32)) >> 32
+		mant = mant*pow10u[d] + x
+		i += d
+		if d < 8 {
+			return mant, i
+		}
+	}
+	for i < len(s) {
+		c := s[i] - '0'
+		if c > 9 {
+			break
+		}
+		mant = mant*10 + uint64(c)
+		i++
+	}
+	return mant, i
+}

@@ -119,3 +119,44 @@ func (s *Spectrum) WavelengthNM() (wl, y []float64, err error) {
 	}
 	return wl, y, nil
 }
+
+// ToWavelengthNM converts s in place to what [Spectrum.WavelengthNM]
+// returns: X in nanometres, ascending, Y reordered to match, and XUnit
+// NM. It returns the same errors, leaving s unchanged, and allocates
+// nothing: for callers that no longer need the file's own axis.
+func (s *Spectrum) ToWavelengthNM() error {
+	if len(s.X) != len(s.Y) {
+		panic(fmt.Sprintf("specfile: ToWavelengthNM: len(X)=%d != len(Y)=%d", len(s.X), len(s.Y)))
+	}
+	switch s.XUnit {
+	case NM, Angstrom, Micrometer, WavenumberPerCM:
+	default:
+		return ErrUnknownUnit
+	}
+	for i, x := range s.X {
+		if !(x > 0) {
+			return fmt.Errorf("%w: x[%d] = %g %s", ErrNonPositiveAxis, i, x, s.XUnit)
+		}
+	}
+	x := s.X
+	switch s.XUnit { // the expressions of WavelengthNM, for the same bits
+	case Angstrom:
+		for i := range x {
+			x[i] = x[i] / 10
+		}
+	case Micrometer:
+		for i := range x {
+			x[i] = x[i] * 1000
+		}
+	case WavenumberPerCM:
+		for i := range x {
+			x[i] = 1e7 / x[i]
+		}
+	}
+	if len(x) > 1 && x[0] > x[len(x)-1] {
+		slices.Reverse(x)
+		slices.Reverse(s.Y)
+	}
+	s.XUnit = NM
+	return nil
+}

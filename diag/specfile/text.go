@@ -52,12 +52,23 @@ func ReadText(name string, r io.Reader, opt TextOptions) (*Spectrum, error) {
 	return parseText(name, data, opt, lim)
 }
 
-// textLine is a non-blank, non-comment line of a text file.
+// textLine is a line of a file with its number.
 type textLine struct {
 	num  int
 	s    string
 	semi bool // starts with ';': a comment unless ';' is the delimiter
 }
+
+// contentLine is a non-blank, non-comment line of a text file, trimmed of
+// white space: src[start:end] of the file's text src. It holds no pointer,
+// so a file's worth of them costs the garbage collector nothing.
+type contentLine struct {
+	num        int
+	start, end int
+	semi       bool // starts with ';': a comment unless ';' is the delimiter
+}
+
+func (l contentLine) str(src string) string { return src[l.start:l.end] }
 
 func checkTextOptions(opt TextOptions) {
 	switch opt.Delimiter {
@@ -85,10 +96,11 @@ func parseText(name string, data []byte, opt TextOptions, lim Limits) (*Spectrum
 	checkTextOptions(opt)
 	sp := &Spectrum{Meta: map[string]string{}, Format: FormatText}
 	sc := newLineScanner(name, data, lim)
+	src := sc.data
 
 	// Pass 1: separate comments from content. ';'-prefixed lines are kept
 	// aside until the delimiter is known.
-	var content []textLine
+	content := make([]contentLine, 0, sc.lineCountHint())
 	for {
 		line, ok, err := sc.next()
 		if err != nil {
@@ -99,12 +111,16 @@ func parseText(name string, data []byte, opt TextOptions, lim Limits) (*Spectrum
 		}
 		t := strings.TrimSpace(line)
 		switch {
-		case strings.Trim(t, ",;\t ") == "":
+		case onlyDelimiters(t):
 			// blank, or delimiters only
 		case t[0] == '#' || t[0] == '%' || strings.HasPrefix(t, "//"):
 			addCommentMeta(sp, strings.TrimLeft(t, "#%/"))
 		default:
-			content = append(content, textLine{num: sc.num, s: t, semi: t[0] == ';'})
+			start := sc.start
+			if len(t) != len(line) {
+				start += strings.Index(line, t)
+			}
+			content = append(content, contentLine{num: sc.num, start: start, end: start + len(t), semi: t[0] == ';'})
 		}
 	}
 
@@ -120,11 +136,11 @@ func parseText(name string, data []byte, opt TextOptions, lim Limits) (*Spectrum
 			}
 			if !seenFirst {
 				seenFirst = true
-				if isHeaderLine(l.s) {
+				if isHeaderLine(l.str(src)) {
 					continue
 				}
 			}
-			delim = detectDelimiter(l.s)
+			delim = detectDelimiter(l.str(src))
 			break
 		}
 	}
@@ -132,7 +148,7 @@ func parseText(name string, data []byte, opt TextOptions, lim Limits) (*Spectrum
 		kept := content[:0]
 		for _, l := range content {
 			if l.semi {
-				addCommentMeta(sp, strings.TrimLeft(l.s, ";"))
+				addCommentMeta(sp, strings.TrimLeft(l.str(src), ";"))
 			} else {
 				kept = append(kept, l)
 			}
@@ -140,8 +156,8 @@ func parseText(name string, data []byte, opt TextOptions, lim Limits) (*Spectrum
 		content = kept
 	}
 
-	var header *textLine
-	if len(content) > 0 && isHeaderLine(content[0].s) {
+	var header *contentLine
+	if len(content) > 0 && isHeaderLine(content[0].str(src)) {
 		header = &content[0]
 		content = content[1:]
 	}
@@ -153,14 +169,14 @@ func parseText(name string, data []byte, opt TextOptions, lim Limits) (*Spectrum
 	dec := opt.Decimal
 	if dec == 0 {
 		var err error
-		if dec, err = detectDecimal(name, content, delim); err != nil {
+		if dec, err = detectDecimal(name, src, content, delim); err != nil {
 			return nil, err
 		}
 	}
 
 	// Choose columns from the first data row.
 	first := content[0]
-	fields := splitFields(first.s, delim)
+	fields := splitFields(first.str(src), delim)
 	ncols := len(fields)
 	xc, yc := opt.XColumn-1, opt.YColumn-1
 	for _, c := range []int{xc, yc} {
@@ -199,8 +215,8 @@ func parseText(name string, data []byte, opt TextOptions, lim Limits) (*Spectrum
 	// Units from the header, if its columns line up with the data.
 	var headerUnit AxisUnit
 	if header != nil {
-		sp.Meta["header"] = header.s
-		names := splitHeader(header.s, delim, ncols)
+		sp.Meta["header"] = header.str(src)
+		names := splitHeader(header.str(src), delim, ncols)
 		switch {
 		case len(names) == ncols:
 			sp.Meta["x_column"] = names[xc]
@@ -222,7 +238,14 @@ func parseText(name string, data []byte, opt TextOptions, lim Limits) (*Spectrum
 	sink.x = make([]float64, 0, min(len(content), lim.MaxPoints))
 	sink.y = make([]float64, 0, min(len(content), lim.MaxPoints))
 	for _, l := range content {
-		fields = splitFields(l.s, delim)
+		if x, y, ok := fastRow(l.str(src), byte(delim), byte(dec), ncols, xc, yc); ok {
+			if err := sink.add(x, y, l.num); err != nil {
+				return nil, err
+			}
+			continue
+		}
+		// The general path, which also words every error.
+		fields = splitFields(l.str(src), delim)
 		if len(fields) != ncols {
 			return nil, errf(name, l.num, ErrSyntax, "line has %d columns, expected %d as on line %d", len(fields), ncols, first.num)
 		}
@@ -301,13 +324,13 @@ func detectDelimiter(s string) rune {
 
 // detectDecimal decides the decimal separator from the first data line
 // that contains a '.' or a ','.
-func detectDecimal(name string, content []textLine, delim rune) (rune, error) {
+func detectDecimal(name, src string, content []contentLine, delim rune) (rune, error) {
 	if delim == ',' {
 		return '.', nil
 	}
 	for _, l := range content {
-		dot := strings.ContainsRune(l.s, '.')
-		comma := strings.ContainsRune(l.s, ',')
+		dot := strings.ContainsRune(l.str(src), '.')
+		comma := strings.ContainsRune(l.str(src), ',')
 		switch {
 		case dot && comma:
 			return 0, errf(name, l.num, ErrSyntax, "ambiguous decimal separator: line has both '.' and ','")
@@ -377,14 +400,150 @@ func unquote(f string) string {
 
 // parseField parses a numeric field with the given decimal separator.
 func parseField(f string, dec rune) (float64, bool) {
-	if dec == ',' {
-		if strings.ContainsRune(f, '.') {
-			return 0, false
+	return parseNumber(f, byte(dec))
+}
+
+// onlyDelimiters reports whether t holds nothing but ',', ';', tab and
+// space: a blank line, or one of delimiters only.
+func onlyDelimiters(t string) bool {
+	for i := 0; i < len(t); i++ {
+		switch t[i] {
+		case ',', ';', '\t', ' ':
+		default:
+			return false
 		}
-		f = strings.Replace(f, ",", ".", 1)
 	}
-	v, _, ok := parseDecimal(f)
-	return v, ok
+	return true
+}
+
+// fastRow reads the x and y columns of a data line without allocating. It
+// gives the values splitFields and fieldValue would give, and ok false
+// whenever those would report an error, or a whitespace-delimited line has
+// bytes outside ASCII (white space is then Unicode's, which the general
+// path handles). Every failure is left to the general path to word.
+//
+// A wanted field is first read in place: white space, a number, white
+// space, then the delimiter or the end of the line. Anything else in it
+// (quotes, a stray character) takes the field the long way: cut, trimmed,
+// unquoted and parsed as splitFields and fieldValue do.
+func fastRow(s string, delim, dec byte, ncols, xc, yc int) (x, y float64, ok bool) {
+	if ncols == 2 && delim != ' ' {
+		// The usual two-column line, "656.28,1234.5": a number, the
+		// delimiter, a number. Both fields are then exactly the numbers.
+		a, e, ok1 := scanNumber(s, 0, dec)
+		if ok1 && e < len(s) && s[e] == delim {
+			if b, e2, ok2 := scanNumber(s, e+1, dec); ok2 && e2 == len(s) && isFinite(a) && isFinite(b) {
+				if xc == 0 {
+					return a, b, true
+				}
+				return b, a, true
+			}
+		}
+	}
+	var v float64
+	n := 0 // fields seen
+	if delim == ' ' {
+		// strings.Fields on ASCII: runs of ASCII white space separate.
+		i := 0
+		for {
+			for i < len(s) && asciiSpace(s[i]) {
+				i++
+			}
+			if i == len(s) {
+				break
+			}
+			want := n == xc || n == yc
+			end := 0
+			if want {
+				v, end, ok = scanNumber(s, i, dec)
+			}
+			if !want || !ok || end < len(s) && !asciiSpace(s[end]) {
+				end = i
+				for end < len(s) && !asciiSpace(s[end]) {
+					if s[end] >= 0x80 {
+						return 0, 0, false
+					}
+					end++
+				}
+				if want {
+					if v, ok = parseNumber(unquote(s[i:end]), dec); !ok {
+						return 0, 0, false
+					}
+				}
+			}
+			if n == xc {
+				x = v
+			} else if n == yc {
+				y = v
+			}
+			n++
+			i = end
+		}
+	} else {
+		lastEmpty := false
+		for start := 0; ; {
+			want := n == xc || n == yc
+			next := -1 // start of the next field, -1 at the end of the line
+			if want {
+				i := start
+				for i < len(s) && s[i] != delim && asciiSpace(s[i]) {
+					i++
+				}
+				end := 0
+				v, end, ok = scanNumber(s, i, dec)
+				for ok && end < len(s) && s[end] != delim && asciiSpace(s[end]) {
+					end++
+				}
+				switch {
+				case ok && end == len(s):
+				case ok && s[end] == delim:
+					next = end + 1
+				default:
+					ok = false
+				}
+			}
+			if !want || !ok {
+				end := strings.IndexByte(s[start:], delim)
+				if end >= 0 {
+					next = start + end + 1
+					end += start
+				} else {
+					end = len(s)
+				}
+				f := unquote(strings.TrimSpace(s[start:end]))
+				if want {
+					if v, ok = parseNumber(f, dec); !ok {
+						return 0, 0, false
+					}
+				}
+				lastEmpty = f == ""
+			} else {
+				lastEmpty = false
+			}
+			if n == xc {
+				x = v
+			} else if n == yc {
+				y = v
+			}
+			n++
+			if next < 0 {
+				break
+			}
+			start = next
+		}
+		if n > 1 && lastEmpty {
+			n-- // one trailing delimiter
+		}
+	}
+	if n != ncols || !isFinite(x) || !isFinite(y) {
+		return 0, 0, false
+	}
+	return x, y, true
+}
+
+// asciiSpace reports whether c is white space to strings.Fields.
+func asciiSpace(c byte) bool {
+	return c == ' ' || c == '\t' || c == '\n' || c == '\v' || c == '\f' || c == '\r'
 }
 
 // fieldValue parses the field f of line num, describing failures as the
