@@ -39,11 +39,17 @@ func (s *Server) showAccount(c echo.Context) error {
 	if err != nil {
 		return err
 	}
+	if h := c.QueryParam("new_token"); h != "" {
+		if tok, name, ok := s.newTokens.take(h, currentUser(c).ID, time.Now()); ok {
+			p.NewToken, p.NewName = tok, name
+		}
+	}
 	return render(c, http.StatusOK, views.Account(p))
 }
 
-// createToken makes a new API token and shows it once, on the page that
-// answers the POST (never in a redirect or a cookie).
+// createToken makes a new API token and answers 303 to the account page,
+// which shows it once: the redirect carries only a one-time handle
+// (tokenStash), never the token, and no cookie holds it.
 func (s *Server) createToken(c echo.Context) error {
 	name := strings.TrimSpace(c.FormValue("name"))
 	if name == "" || len([]rune(name)) > 100 {
@@ -58,13 +64,8 @@ func (s *Server) createToken(c echo.Context) error {
 	if _, err := s.DB.CreateToken(c.Request().Context(), currentUser(c).ID, name, h); err != nil {
 		return err
 	}
-	p, err := s.accountProps(c)
-	if err != nil {
-		return err
-	}
-	p.NewToken, p.NewName = tok, name
-	c.Response().Header().Set("Cache-Control", "no-store")
-	return render(c, http.StatusOK, views.Account(p))
+	handle := s.newTokens.put(currentUser(c).ID, tok, name, time.Now())
+	return c.Redirect(http.StatusSeeOther, "/account?new_token="+handle+"#new-token")
 }
 
 func (s *Server) revokeToken(c echo.Context) error {

@@ -22,6 +22,8 @@ type htmlClient struct {
 	s       *Server
 	session string
 	csrf    string
+	// location is the Location header of the last answer.
+	location string
 }
 
 func newHTMLClient(t *testing.T, s *Server, u store.User) *htmlClient {
@@ -50,6 +52,7 @@ func (h *htmlClient) req(method, path string, form url.Values) (int, string) {
 	}
 	w := httptest.NewRecorder()
 	h.s.ServeHTTP(w, r)
+	h.location = w.Header().Get("Location")
 	for _, c := range w.Result().Cookies() {
 		if c.Name == "_csrf" && c.Value != "" {
 			h.csrf = c.Value
@@ -76,12 +79,25 @@ func TestAccountTokens(t *testing.T) {
 	if code, body := h.req(http.MethodGet, "/account", nil); code != 200 || !strings.Contains(body, `data-testid="no-tokens"`) {
 		t.Fatalf("account page: %d", code)
 	}
+	// Post/redirect/get: the POST answers 303 to a page that shows the
+	// token once; the redirect carries a one-time handle, not the token.
 	code, body := h.req(http.MethodPost, "/account/tokens", url.Values{"name": {"bench PC"}})
+	loc, _, _ := strings.Cut(h.location, "#") // browsers do not send the fragment
+	if code != http.StatusSeeOther || !strings.HasPrefix(loc, "/account?new_token=") || strings.Contains(body, `data-testid="new-token"`) {
+		t.Fatalf("create token: %d, Location %q", code, loc)
+	}
+	code, body = h.req(http.MethodGet, loc, nil)
 	m := regexp.MustCompile(`data-testid="new-token">([A-Za-z0-9_-]+)<`).FindStringSubmatch(body)
 	if code != 200 || m == nil {
-		t.Fatalf("create token: %d, token shown: %v", code, m != nil)
+		t.Fatalf("page after creating a token: %d, token shown: %v", code, m != nil)
 	}
 	tok := m[1]
+	if strings.Contains(loc, tok) {
+		t.Error("the redirect URL carries the token")
+	}
+	if _, body := h.req(http.MethodGet, loc, nil); strings.Contains(body, tok) {
+		t.Error("token shown again on reloading the page after the redirect")
+	}
 	if _, err := s.DB.TokenUser(context.Background(), hashToken(tok)); err != nil {
 		t.Errorf("shown token does not authenticate: %v", err)
 	}
@@ -153,3 +169,27 @@ func TestAdminUsers(t *testing.T) {
 }
 
 func itoa64(n int64) string { return strconv.FormatInt(n, 10) }
+
+// TestNewTokenHandle: the one-time handle of a new token shows it to the
+// user who made it (any of their sessions), never to another user.
+func TestNewTokenHandle(t *testing.T) {
+	s2, u2 := newAccountServer(t)
+	h1 := newHTMLClient(t, s2, u2)
+	h2 := newHTMLClient(t, s2, u2)
+	h1.req(http.MethodGet, "/account", nil) // takes the CSRF token
+	if code, _ := h1.req(http.MethodPost, "/account/tokens", url.Values{"name": {"second"}}); code != http.StatusSeeOther {
+		t.Fatalf("create token: %d", code)
+	}
+	other, err := s2.DB.CreateUser(context.Background(), "someone", store.RoleViewer, "x")
+	if err != nil {
+		t.Fatal(err)
+	}
+	h3 := newHTMLClient(t, s2, other)
+	loc2, _, _ := strings.Cut(h1.location, "#")
+	if _, body := h3.req(http.MethodGet, loc2, nil); strings.Contains(body, `data-testid="new-token"`) {
+		t.Error("another user was shown a new token")
+	}
+	if _, body := h2.req(http.MethodGet, loc2, nil); !strings.Contains(body, `data-testid="new-token"`) {
+		t.Error("the same user's other session could not show the new token")
+	}
+}

@@ -38,8 +38,9 @@ type Server struct {
 	// X-Forwarded-Proto are believed.
 	TrustedProxies []*net.IPNet
 
-	backoff  *accountBackoff
-	tokenUse *tokenUse
+	backoff   *accountBackoff
+	tokenUse  *tokenUse
+	newTokens *tokenStash
 }
 
 // Options configures New.
@@ -59,7 +60,7 @@ func New(db *store.DB, opt Options) *Server {
 	e := echo.New()
 	e.HideBanner, e.HidePort = true, true
 	s := &Server{DB: db, Log: opt.Log, Echo: e, SessionTTL: 12 * time.Hour, SecureCookies: opt.SecureCookies,
-		TrustedProxies: opt.TrustedProxies, backoff: newAccountBackoff()}
+		TrustedProxies: opt.TrustedProxies, backoff: newAccountBackoff(), newTokens: newTokenStash()}
 	s.tokenUse = &tokenUse{written: map[int64]time.Time{}, write: db.TouchToken, log: s.Log.Warn}
 	setProxyTrust(e, opt.TrustedProxies)
 	s.Jobs = NewJobRunner(s)
