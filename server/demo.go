@@ -22,8 +22,8 @@ type DemoOptions struct {
 	Runs int
 	// Seed makes the scenario reproducible (0: a fixed default).
 	Seed uint64
-	// End is the last day of the scenario (zero: today, UTC); the runs
-	// span the 182 days before it.
+	// End is the last day of the scenario (zero, or later than the
+	// store's clock: today, UTC); the runs span the 182 days before it.
 	End time.Time
 }
 
@@ -213,15 +213,14 @@ func SeedDemo(ctx context.Context, s *Server, adminID int64, opt DemoOptions) er
 		return err
 	}
 	realNow := s.DB.Now
+	// limit is the latest time the scenario may write: the seeding clock,
+	// or opt.End when that is earlier (an End in the future is moved back
+	// to now).
 	limit := realNow().UTC()
-	end := opt.End
-	if end.IsZero() {
-		end = limit
+	if !opt.End.IsZero() && opt.End.Before(limit) {
+		limit = opt.End.UTC()
 	}
-	if end.Before(limit) {
-		limit = end.UTC()
-	}
-	end = end.UTC().Truncate(24 * time.Hour)
+	end := limit.Truncate(24 * time.Hour)
 	start := end.AddDate(0, 0, -demoDays)
 	rng := rand.New(rand.NewPCG(opt.Seed, 0x9e3779b97f4a7c15))
 

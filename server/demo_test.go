@@ -127,6 +127,19 @@ func TestSeedDemo(t *testing.T) {
 	checkDemoSpectrometers(t, db, runs)
 	checkDemoNoFuture(t, db, now)
 	checkDemoReviewers(t, db, admin.ID)
+
+	// An End in the future is moved back to the seeding clock.
+	db2, err := store.Open(ctx, filepath.Join(t.TempDir(), "demo2.db"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer db2.Close()
+	db2.Now = func() time.Time { return now }
+	admin2, _ := db2.CreateUser(ctx, "admin", store.RoleAdmin, "x")
+	if err := SeedDemo(ctx, New(db2, Options{Log: slog.New(slog.NewTextHandler(io.Discard, nil))}), admin2.ID, DemoOptions{Runs: 4, End: now.AddDate(0, 1, 0)}); err != nil {
+		t.Fatal(err)
+	}
+	checkDemoNoFuture(t, db2, now)
 }
 
 func deref(p *float64) float64 {
