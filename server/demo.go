@@ -11,6 +11,7 @@ import (
 	"time"
 
 	"glowlog/diag"
+	"glowlog/diag/grating"
 	"glowlog/diag/spectrum"
 	"glowlog/store"
 )
@@ -21,8 +22,8 @@ type DemoOptions struct {
 	Runs int
 	// Seed makes the scenario reproducible (0: a fixed default).
 	Seed uint64
-	// End is the last day of the scenario (zero: today, UTC); the runs
-	// span the 182 days before it.
+	// End is the last day of the scenario (zero, or later than the
+	// store's clock: today, UTC); the runs span the 182 days before it.
 	End time.Time
 }
 
@@ -40,17 +41,20 @@ type demoChamber struct {
 	pressurePa                                              float64
 	powerW                                                  [2]float64
 	gapMM                                                   float64
-	instFWHM                                                [2]float64
-	gasT, texc                                              float64
-	ne                                                      func(day, power float64) float64
-	uppers                                                  []int
-	weight                                                  float64
+	// setting is the spectrometer setting the chamber's runs use and
+	// slitsUM the entrance slit widths its operators choose from.
+	setting    *demoSetting
+	slitsUM    []float64
+	gasT, texc float64
+	ne         func(day, power float64) float64
+	uppers     []int
+	weight     float64
 }
 
 var demoChambers = []demoChamber{
 	{name: "Jet line J1", recipe: "J1 argon/hydrogen jet", recipeDesc: "Ar + 1 % H2, 2 slm, pin electrode",
 		source: "plasma_jet", gas: "Ar + 1 % H2", flows: "Ar 2.0 slm, H2 20 sccm", perturber: "Ar",
-		pressurePa: 101325, powerW: [2]float64{25, 35}, gapMM: 1.0, instFWHM: [2]float64{0.2, 0.25},
+		pressurePa: 101325, powerW: [2]float64{25, 35}, gapMM: 1.0, setting: &demoSurvey, slitsUM: []float64{35, 40},
 		gasT: 1500, texc: 6500, uppers: []int{3, 4, 5, 6}, weight: 0.4,
 		// The pin electrode erodes: n_e falls by 40 % over 120 days and
 		// comes back when the electrode is replaced.
@@ -63,33 +67,102 @@ var demoChambers = []demoChamber{
 		}},
 	{name: "Torch line T1", recipe: "T1 microwave torch", recipeDesc: "2.45 GHz surface-wave torch, Ar + 3 % H2",
 		source: "microwave", gas: "Ar + 3 % H2", flows: "Ar 5 slm, H2 150 sccm", perturber: "Ar",
-		pressurePa: 101325, powerW: [2]float64{800, 1500}, instFWHM: [2]float64{0.2, 0.3},
+		pressurePa: 101325, powerW: [2]float64{800, 1500}, setting: &demoSurvey, slitsUM: []float64{35, 40, 50},
 		gasT: 2500, texc: 7500, uppers: []int{3, 4, 5, 6, 7}, weight: 0.25,
 		ne: func(_, power float64) float64 { return 3e21 * math.Pow(power/1000, 0.6) }},
 	{name: "Glow tube G3", recipe: "G3 hydrogen glow", recipeDesc: "DC glow, H2 + 10 % Ar, hollow cathode",
 		source: "dc_glow", gas: "H2 + 10 % Ar", flows: "H2 45 sccm, Ar 5 sccm", perturber: "H2",
-		pressurePa: 600, powerW: [2]float64{40, 90}, gapMM: 30, instFWHM: [2]float64{0.2, 0.25},
+		pressurePa: 600, powerW: [2]float64{40, 90}, gapMM: 30, setting: &demoHbeta, slitsUM: []float64{40, 50},
 		gasT: 500, texc: 4000, uppers: []int{3, 4, 5, 6, 7, 8}, weight: 0.2,
 		ne: func(_, power float64) float64 { return 1.5e20 * power / 60 }},
 	{name: "DBD cell D1", recipe: "D1 helium barrier", recipeDesc: "Helium dielectric barrier, 20 kHz, 1 mm gap",
 		source: "dielectric_barrier", gas: "He + 0.5 % H2", flows: "He 3 slm, H2 15 sccm", perturber: "He",
-		pressurePa: 101325, powerW: [2]float64{10, 25}, gapMM: 1.0, instFWHM: [2]float64{0.2, 0.35},
+		pressurePa: 101325, powerW: [2]float64{10, 25}, gapMM: 1.0, setting: &demoHalpha, slitsUM: []float64{40, 50},
 		gasT: 400, texc: 4500, uppers: []int{3, 4, 5}, weight: 0.15,
-		ne: func(_, power float64) float64 { return 1.2e21 * math.Pow(power/15, 0.4) }},
+		ne: func(_, power float64) float64 { return 1.5e21 * math.Pow(power/15, 0.4) }},
 }
 
-// demoOperators are the invented staff (none can sign in: their
-// passwords are random and never shown).
+// demoSetting is one spectrometer of the lab with a grating in place and
+// the wavelength on the detector centre. The spectrometers and their
+// figures are invented; the wavelength axis, dispersion and instrument
+// width of every demo spectrum follow from them through diag/grating (the
+// spectrometer planner's physics), in a Littrow mount.
+type demoSetting struct {
+	// name is the instrument as a run's notes mention it.
+	name string
+	// spec is the spectrometer without its slit (set per run).
+	spec grating.Spectrometer
+	// centreNM is the wavelength on the detector centre (air, nm).
+	centreNM float64
+	// response is the name of the relative-response file attached to
+	// each run measured with this instrument.
+	response string
+}
+
+// The lab's two spectrometers (invented):
+//   - FH-S1, a 0.57 m survey spectrograph with a 300 l/mm grating and a
+//     4096 × 13.5 µm line detector: 378–702 nm, 0.079 nm per pixel, all
+//     Balmer lines from Hα to H8 in one exposure (T_exc and n_e);
+//   - FH-H2, a 0.75 m high-resolution spectrometer with a turret of
+//     1800 and 2400 l/mm gratings and a 2048 × 13.5 µm detector: 18 nm
+//     around Hβ (0.009 nm per pixel) or 9.5 nm around Hα (0.0046 nm per
+//     pixel) — one line on the detector, so n_e but no Boltzmann plot. The
+//     low-density glow tube G3 and the barrier cell D1 need it: their
+//     Stark widths (a few hundredths of a nm) vanish under the survey
+//     instrument's 0.2 nm.
+//
+// Illuminated widths are the grating widths of such instruments (from
+// memory); they only set the theoretical resolution, far below the slit
+// limit here.
+var (
+	demoSurvey = demoSetting{name: "FH-S1 survey spectrograph (f = 570 mm, 300 l/mm, 4096 × 13.5 µm)",
+		spec:     grating.Spectrometer{GroovesPerMM: 300, Order: 1, FocalLengthMM: 570, PixelSizeUM: 13.5, Pixels: 4096, IlluminatedWidthMM: 50},
+		centreNM: 540, response: "fh-s1-relative-response.csv"}
+	demoHbeta = demoSetting{name: "FH-H2 high-resolution spectrometer (f = 750 mm, 1800 l/mm, 2048 × 13.5 µm, centred on Hβ)",
+		spec:     grating.Spectrometer{GroovesPerMM: 1800, Order: 1, FocalLengthMM: 750, PixelSizeUM: 13.5, Pixels: 2048, IlluminatedWidthMM: 60},
+		centreNM: 486.13, response: "fh-h2-1800-relative-response.csv"}
+	demoHalpha = demoSetting{name: "FH-H2 high-resolution spectrometer (f = 750 mm, 2400 l/mm, 2048 × 13.5 µm, centred on Hα)",
+		spec:     grating.Spectrometer{GroovesPerMM: 2400, Order: 1, FocalLengthMM: 750, PixelSizeUM: 13.5, Pixels: 2048, IlluminatedWidthMM: 60},
+		centreNM: 656.28, response: "fh-h2-2400-relative-response.csv"}
+)
+
+// demoAxis returns the pixel-centre wavelengths of a setting, and
+// demoInstrument the instrument FWHM (nm, the planner's estimate: the
+// largest of the slit image, one pixel and the theoretical limit, at the
+// detector centre) and its width in pixels with the given slit.
+func demoAxis(st *demoSetting) ([]float64, error) {
+	alpha, err := grating.LittrowAngleDeg(st.centreNM, st.spec.GroovesPerMM, st.spec.Order)
+	if err != nil {
+		return nil, err
+	}
+	sp := st.spec
+	sp.SlitWidthUM = 1 // not used by the axis
+	return sp.PixelWavelengths(st.centreNM, alpha)
+}
+
+func demoInstrument(st *demoSetting, slitUM float64) (fwhmNM, pixels float64, err error) {
+	sp := st.spec
+	sp.SlitWidthUM = slitUM
+	p, err := sp.Littrow(st.centreNM)
+	if err != nil {
+		return 0, 0, err
+	}
+	return p.PracticalNM, p.FWHMPixels(), nil
+}
+
 var demoOperators = []struct {
 	name string
 	role store.Role
 }{
 	{"ilse.varga", store.RoleOperator}, {"tomas.quill", store.RoleOperator}, {"nadia.brenn", store.RoleOperator},
-	{"oren.falk", store.RoleOperator}, {"maud.lind", store.RoleReviewer},
+	{"oren.falk", store.RoleOperator}, {"maud.lind", store.RoleReviewer}, {"piet.harrowgate", store.RoleReviewer},
 }
 
 // demoEvents are the invented chamber events of the scenario (day of the
-// scenario, time of day UTC, chamber index, kind, note, staff index).
+// scenario, time of day UTC, chamber index, kind, note, staff index). They
+// are in time order. The J1 ones frame its saw-tooth: a new pin on day 0,
+// n_e about a third down by day 96 (the model gives 1 − 0.4·96/120 = 0.68),
+// the pin replaced on the maintenance day before the first run.
 var demoEvents = []struct {
 	day     int
 	at      time.Duration
@@ -98,27 +171,36 @@ var demoEvents = []struct {
 	note    string
 	by      int
 }{
+	{0, 7*time.Hour + 10*time.Minute, 0, store.EventElectrodeChange, "New tungsten pin electrode fitted; gap set to 1.0 mm.", 0},
 	{28, 7*time.Hour + 40*time.Minute, 3, store.EventMaintenance, "Barrier plates cleaned and re-seated; gap checked at 1.0 mm.", 3},
 	{61, 7*time.Hour + 15*time.Minute, 1, store.EventGasBottleChange, "H2 cylinder changed (same grade); lines purged before the first run.", 1},
-	{96, 16*time.Hour + 30*time.Minute, 0, store.EventOther, "n_e on J1 down by about a quarter since the spring; pin erosion suspected, spare electrode ordered.", 2},
+	{96, 16*time.Hour + 30*time.Minute, 0, store.EventOther, "n_e on J1 down by about a third since the new pin; gap now 1.4 mm. Pin erosion suspected, spare electrode ordered.", 2},
 	{demoMaintenanceDay, 7*time.Hour + 30*time.Minute, 0, store.EventElectrodeChange, "Pin electrode replaced (tip eroded, gap had grown to 1.5 mm); gap reset to 1.0 mm.", 0},
 	{141, 7*time.Hour + 50*time.Minute, 2, store.EventMaintenance, "Hollow cathode cleaned; viewport window replaced.", 3},
 }
 
 var demoReturnNotes = []string{
-	"Hα peak looks clipped in the second spectrum; please check the integration time and add a dark frame.",
+	"The strongest line looks clipped in the second spectrum; please check the integration time and add a dark frame.",
 	"Gas temperature was taken from last week's run; measure it for this run or justify it in the notes.",
-	"The instrument FWHM is the nominal value; please use the lamp measurement from this month.",
-	"Hβ fit residuals show structure; try a narrower window or check the wavelength offset.",
+	"Please confirm the slit width: the notes and the setting disagree.",
+	"Fit residuals of the broadened line show structure; try a narrower window or check the wavelength offset.",
 }
 
 // SeedDemo fills an empty database with the demo scenario: the invented
-// Fenwick Hollow Plasma Lab, four chambers, five staff, opt.Runs runs over
-// six months with synthetic spectra (spectrum.Synthesize) analysed by
-// ReanalyzeRunTx, a slow electrode-wear drift of n_e in Jet line J1 with
-// a maintenance step on day 120, and runs in every review state. Rows are
-// written in a few transactions; the store's clock follows the scenario so
-// that creation and review times are plausible. It prints nothing.
+// Fenwick Hollow Plasma Lab, four chambers, six staff (four operators, two
+// reviewers), opt.Runs runs over six months with synthetic spectra
+// (spectrum.Synthesize) on the wavelength axis of the run's spectrometer
+// (demoSetting), analysed by ReanalyzeRunTx, a slow electrode-wear drift
+// of n_e in Jet line J1 with a maintenance step on day 120, chamber events
+// that explain it, and runs in every review state.
+//
+// Rows are written in a few transactions; the store's clock follows the
+// scenario so that creation and review times are plausible, and no time
+// is later than the seeding clock (s.DB.Now when SeedDemo is called) or
+// opt.End if that is earlier. The admin (adminID, which must exist) is
+// never an actor of the scenario: runs are by the operators, submissions
+// by their operators, returns and sign-offs by the demo reviewers. It
+// prints nothing.
 func SeedDemo(ctx context.Context, s *Server, adminID int64, opt DemoOptions) error {
 	ctx = store.WithActor(ctx, store.Actor{Via: store.ViaDemo})
 	if opt.Runs <= 0 {
@@ -127,25 +209,26 @@ func SeedDemo(ctx context.Context, s *Server, adminID int64, opt DemoOptions) er
 	if opt.Seed == 0 {
 		opt.Seed = 20260301
 	}
-	end := opt.End
-	if end.IsZero() {
-		end = time.Now().UTC()
-	}
-	end = end.UTC().Truncate(24 * time.Hour)
-	start := end.AddDate(0, 0, -demoDays)
-	rng := rand.New(rand.NewPCG(opt.Seed, 0x9e3779b97f4a7c15))
-
-	admin, err := s.DB.UserByID(ctx, adminID)
-	if err != nil {
+	if _, err := s.DB.UserByID(ctx, adminID); err != nil {
 		return err
 	}
 	realNow := s.DB.Now
+	// limit is the latest time the scenario may write: the seeding clock,
+	// or opt.End when that is earlier (an End in the future is moved back
+	// to now).
+	limit := realNow().UTC()
+	if !opt.End.IsZero() && opt.End.Before(limit) {
+		limit = opt.End.UTC()
+	}
+	end := limit.Truncate(24 * time.Hour)
+	start := end.AddDate(0, 0, -demoDays)
+	rng := rand.New(rand.NewPCG(opt.Seed, 0x9e3779b97f4a7c15))
+
 	defer func() { s.DB.Now = realNow }()
 	clock := start
 	s.DB.Now = func() time.Time { return clock }
 
-	var staff []store.User
-	var reviewer store.User
+	var staff, reviewers []store.User
 	for _, o := range demoOperators {
 		pw, _ := NewToken()
 		hash, err := HashPassword(pw)
@@ -157,7 +240,7 @@ func SeedDemo(ctx context.Context, s *Server, adminID int64, opt DemoOptions) er
 			return err
 		}
 		if o.role == store.RoleReviewer {
-			reviewer = u
+			reviewers = append(reviewers, u)
 		} else {
 			staff = append(staff, u)
 		}
@@ -165,11 +248,23 @@ func SeedDemo(ctx context.Context, s *Server, adminID int64, opt DemoOptions) er
 	chamberIDs := make([]int64, len(demoChambers))
 	recipeIDs := make([]int64, len(demoChambers))
 	for i, ch := range demoChambers {
+		var err error
 		if chamberIDs[i], err = s.DB.EnsureChamber(ctx, ch.name, "Fenwick Hollow Plasma Lab"); err != nil {
 			return err
 		}
 		if recipeIDs[i], err = s.DB.EnsureRecipe(ctx, ch.recipe, ch.recipeDesc); err != nil {
 			return err
+		}
+	}
+	// The wavelength axis of each spectrometer setting.
+	axes := map[*demoSetting][]float64{}
+	for _, ch := range demoChambers {
+		if axes[ch.setting] == nil {
+			x, err := demoAxis(ch.setting)
+			if err != nil {
+				return fmt.Errorf("demo: %s: %w", ch.setting.name, err)
+			}
+			axes[ch.setting] = x
 		}
 	}
 
@@ -180,13 +275,6 @@ func SeedDemo(ctx context.Context, s *Server, adminID int64, opt DemoOptions) er
 		times[i] = start.AddDate(0, 0, day).Add(time.Duration(8*60+rng.IntN(9*60)) * time.Minute)
 	}
 	sort.Slice(times, func(i, j int) bool { return times[i].Before(times[j]) })
-	// One survey spectrometer: 4096 pixels over 380–700 nm (0.078 nm per
-	// pixel), so that every chamber's instrument FWHM (0.2 nm or more)
-	// spans at least 2.5 pixels and the lines are not undersampled.
-	grid := make([]float64, 4096)
-	for i := range grid {
-		grid[i] = 380 + 320*float64(i)/float64(len(grid)-1)
-	}
 	maintenance := start.AddDate(0, 0, demoMaintenanceDay)
 
 	type seeded struct {
@@ -209,15 +297,22 @@ func SeedDemo(ctx context.Context, s *Server, adminID int64, opt DemoOptions) er
 			op := staff[rng.IntN(len(staff))]
 			power := ch.powerW[0] + (ch.powerW[1]-ch.powerW[0])*rng.Float64()
 			power = math.Round(power)
-			inst := ch.instFWHM[0] + (ch.instFWHM[1]-ch.instFWHM[0])*rng.Float64()
-			inst = math.Round(inst*100) / 100
+			slit := ch.slitsUM[rng.IntN(len(ch.slitsUM))]
+			instNM, _, err := demoInstrument(ch.setting, slit)
+			if err != nil {
+				tx.Rollback()
+				return err
+			}
+			// Stored as an operator would enter it: three figures.
+			inst, _ := strconv.ParseFloat(strconv.FormatFloat(instNM, 'g', 3, 64), 64)
 			gasT := math.Round(ch.gasT*(1+0.05*rng.NormFloat64())/10) * 10
 			in := store.RunInput{Title: fmt.Sprintf("%s, %g W", ch.name, power), StartedAt: t,
 				ChamberID: &chamberIDs[ci], RecipeID: &recipeIDs[ci], SourceType: ch.source, GasMixture: ch.gas,
-				PressurePa: ptr(ch.pressurePa), PowerW: ptr(power), Flows: ch.flows, GratingLMM: ptr(1800.0),
-				SlitUM: ptr(20.0), IntegrationMS: ptr(float64(50 * (1 + rng.IntN(10)))), InstrumentFWHMNM: ptr(inst),
+				PressurePa: ptr(ch.pressurePa), PowerW: ptr(power), Flows: ch.flows, GratingLMM: ptr(ch.setting.spec.GroovesPerMM),
+				SlitUM: ptr(slit), IntegrationMS: ptr(float64(50 * (1 + rng.IntN(10)))), InstrumentFWHMNM: ptr(inst),
 				GasTemperatureK: ptr(gasT), Perturber: ch.perturber,
-				Notes: "Demo run (invented Fenwick Hollow Plasma Lab); spectra are synthetic."}
+				Notes: "Demo run (invented Fenwick Hollow Plasma Lab); spectra are synthetic. Spectrometer: " + ch.setting.name +
+					"; instrument FWHM from the slit width and dispersion."}
 			if ch.gapMM > 0 {
 				gap := ch.gapMM
 				if ci == 0 { // the J1 gap grows as the pin erodes
@@ -246,14 +341,13 @@ func SeedDemo(ctx context.Context, s *Server, adminID int64, opt DemoOptions) er
 			ne := ch.ne(day, power) * (1 + 0.03*rng.NormFloat64())
 			texc := ch.texc * (1 + 0.04*rng.NormFloat64())
 			pert, _ := diag.LookupPerturber(ch.perturber)
+			grid := axes[ch.setting]
 			nSpec := 1 + rng.IntN(3)
 			var atts []store.Attachment
 			for k := 0; k < nSpec; k++ {
-				area := 2e5 * (0.7 + 0.6*rng.Float64())
-				y, _, err := spectrum.Synthesize(spectrum.SynthConfig{WavelengthNM: grid, Uppers: ch.uppers,
+				y, err := demoSpectrum(rng, grid, spectrum.SynthConfig{WavelengthNM: grid, Uppers: ch.uppers,
 					ExcitationTemperatureK: texc, ElectronDensityM3: ne * (1 + 0.02*rng.NormFloat64()), GasTemperatureK: gasT,
-					InstrumentFWHMNM: inst, Perturber: pert, PressurePa: ch.pressurePa, HalphaArea: area,
-					BaselinePerNM: 40 + 20*rng.Float64(), NoisePerNM: area / 2000, Rand: rng})
+					InstrumentFWHMNM: instNM, Perturber: pert, PressurePa: ch.pressurePa, HalphaArea: 1})
 				if err != nil {
 					tx.Rollback()
 					return err
@@ -268,14 +362,16 @@ func SeedDemo(ctx context.Context, s *Server, adminID int64, opt DemoOptions) er
 				atts = append(atts, store.Attachment{ID: aid, RunID: id, Kind: store.KindSpectrum, Name: name, Seq: k + 1, Content: content})
 			}
 			// The synthetic spectra carry no instrument response, so the
-			// true relative response of this invented spectrometer is flat;
-			// attaching it records that the intensities are calibrated.
-			rid, err := s.DB.AddAttachmentTx(ctx, tx, id, store.KindResponse, demoResponseName, demoResponse)
+			// true relative response of these invented spectrometers is
+			// flat; attaching it records that the intensities are
+			// calibrated.
+			resp := demoResponse(ch.setting, grid)
+			rid, err := s.DB.AddAttachmentTx(ctx, tx, id, store.KindResponse, ch.setting.response, resp)
 			if err != nil {
 				tx.Rollback()
 				return err
 			}
-			atts = append(atts, store.Attachment{ID: rid, RunID: id, Kind: store.KindResponse, Name: demoResponseName, Seq: 1, Content: demoResponse})
+			atts = append(atts, store.Attachment{ID: rid, RunID: id, Kind: store.KindResponse, Name: ch.setting.response, Seq: 1, Content: resp})
 			st := DefaultSettings(store.Run{InstrumentFWHMNM: in.InstrumentFWHMNM, GasTemperatureK: in.GasTemperatureK,
 				PressurePa: in.PressurePa, Perturber: in.Perturber})
 			uid := op.ID
@@ -290,11 +386,13 @@ func SeedDemo(ctx context.Context, s *Server, adminID int64, opt DemoOptions) er
 		}
 	}
 
-	// Chamber events that explain the trends: the J1 pin electrode wears
-	// (n_e falls) until it is replaced on the maintenance day.
+	// Chamber events that explain the trends (see demoEvents).
 	for _, e := range demoEvents {
 		at := start.AddDate(0, 0, e.day).Add(e.at)
 		clock = at.Add(20 * time.Minute)
+		if clock.After(limit) {
+			continue
+		}
 		by := staff[e.by%len(staff)]
 		if _, err := s.DB.AddChamberEvent(ctx, by.ID, store.ChamberEventInput{ChamberID: chamberIDs[e.chamber], At: at, Kind: e.kind, Note: e.note}); err != nil {
 			return err
@@ -302,7 +400,9 @@ func SeedDemo(ctx context.Context, s *Server, adminID int64, opt DemoOptions) er
 	}
 
 	// Review states: older runs are mostly signed off, some returned with
-	// a note (and a reply), the newest are drafts or awaiting review.
+	// a note (and a reply), the newest are drafts or awaiting review. A
+	// step that would fall after the limit is not taken: the run stays in
+	// its state.
 	for _, r := range runs {
 		age := end.Sub(r.started).Hours() / 24
 		x := rng.Float64()
@@ -318,23 +418,26 @@ func SeedDemo(ctx context.Context, s *Server, adminID int64, opt DemoOptions) er
 		case x < 0.9 && age > 21:
 			actions = []store.ReviewAction{store.ActionSubmit, store.ActionReturn, store.ActionSubmit, store.ActionSignOff}
 		}
+		reviewer := reviewers[rng.IntN(len(reviewers))]
 		for _, a := range actions {
+			if clock.After(limit) {
+				break
+			}
 			by, note := reviewer, ""
 			switch a {
 			case store.ActionSubmit:
 				by = r.operator
 			case store.ActionReturn:
 				note = demoReturnNotes[rng.IntN(len(demoReturnNotes))]
-			case store.ActionSignOff:
-				if rng.Float64() < 0.2 {
-					by = admin
-				}
 			}
 			if _, err := s.DB.Review(ctx, r.id, by, a, note); err != nil {
 				return err
 			}
 			if a == store.ActionReturn {
 				clock = clock.Add(3 * time.Hour)
+				if clock.After(limit) {
+					break
+				}
 				if _, err := s.DB.AddComment(ctx, r.id, r.operator.ID, "Noted; I will check this on the next shift."); err != nil {
 					return err
 				}
@@ -343,6 +446,34 @@ func SeedDemo(ctx context.Context, s *Server, adminID int64, opt DemoOptions) er
 		}
 	}
 	return nil
+}
+
+// demoSpectrum returns the counts of one exposure: the pixel-integrated
+// Balmer lines of cfg (spectrum.Synthesize, noise-free) scaled so that the
+// highest pixel reads 15 000–45 000 counts (a 16-bit detector kept below
+// saturation, common practice), on a dark-plus-continuum offset of
+// 300–600 counts, with shot noise (√counts, one electron per count
+// assumed) and a read noise of 6 counts (typical of a scientific CCD,
+// from memory).
+func demoSpectrum(rng *rand.Rand, grid []float64, cfg spectrum.SynthConfig) ([]float64, error) {
+	y, _, err := spectrum.Synthesize(cfg)
+	if err != nil {
+		return nil, err
+	}
+	peak := 0.0
+	for _, v := range y {
+		peak = max(peak, v)
+	}
+	if !(peak > 0) {
+		return nil, fmt.Errorf("demo: no line on %.1f–%.1f nm", grid[0], grid[len(grid)-1])
+	}
+	scale := (15000 + 30000*rng.Float64()) / peak
+	offset := 300 + 300*rng.Float64()
+	for i, v := range y {
+		c := v*scale + offset
+		y[i] = math.Round(c + math.Sqrt(c+36)*rng.NormFloat64())
+	}
+	return y, nil
 }
 
 func ptr(v float64) *float64 { return &v }
@@ -372,9 +503,11 @@ func demoCSV(x, y []float64) []byte {
 	return b
 }
 
-// demoResponse is the relative spectral response of the demo spectrometer
-// (flat: the synthetic spectra are generated without one).
-const demoResponseName = "fh-s2-relative-response.csv"
-
-var demoResponse = []byte("# relative spectral response, Fenwick Hollow Plasma Lab spectrometer FH-S2 (demo: flat)\n" +
-	"wavelength_nm,response\n370,1\n450,1\n550,1\n650,1\n710,1\n")
+// demoResponse is the relative spectral response of a demo spectrometer
+// setting over its wavelength axis (flat: the synthetic spectra are
+// generated without one).
+func demoResponse(st *demoSetting, grid []float64) []byte {
+	lo, hi := math.Floor(grid[0])-1, math.Ceil(grid[len(grid)-1])+1
+	return []byte(fmt.Sprintf("# relative spectral response, Fenwick Hollow Plasma Lab %s (demo: flat)\n"+
+		"wavelength_nm,response\n%g,1\n%g,1\n%g,1\n", st.name, lo, (lo+hi)/2, hi))
+}

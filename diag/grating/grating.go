@@ -323,3 +323,38 @@ func (s Spectrometer) Coverage(centreNM, alphaDeg float64) (Coverage, error) {
 	}
 	return Coverage{CentreNM: centreNM, LowNM: l1, HighNM: l2, SpanNM: l2 - l1, DetectorWidthMM: w}, nil
 }
+
+// PixelWavelengths returns the wavelength (nm) at the centre of every
+// pixel of the flat detector of Coverage(centreNM, alphaDeg), in
+// ascending order. Pixel i (0 … Pixels−1) sits at x_i = (i − (Pixels−1)/2)
+// × PixelSizeUM from the detector centre, diffracted at
+// β_i = β_c + atan(x_i/f), so
+//
+//	λ_i = d (sin α + sin β_i) / m.
+//
+// The axis is therefore slightly non-linear, as a real spectrometer's is;
+// the spacing at the centre is Point.DispersionNMPerPixel. Errors are those
+// of At; it also returns an *OrderError if a pixel would lie beyond the
+// grazing ray.
+func (s Spectrometer) PixelWavelengths(centreNM, alphaDeg float64) ([]float64, error) {
+	p, err := s.At(centreNM, alphaDeg)
+	if err != nil {
+		return nil, err
+	}
+	out := make([]float64, s.Pixels)
+	mid := 0.5 * float64(s.Pixels-1)
+	for i := range out {
+		x := (float64(i) - mid) * s.PixelSizeUM * 1e-3
+		b := p.DiffractionDeg + math.Atan(x/s.FocalLengthMM)/deg
+		if b <= -90 || b >= 90 {
+			return nil, &OrderError{Order: s.Order, WavelengthNM: centreNM, IncidenceDeg: alphaDeg, SinBeta: math.Sin(b * deg)}
+		}
+		out[i] = WavelengthNM(s.GroovesPerMM, s.Order, alphaDeg, b)
+	}
+	if len(out) > 1 && out[0] > out[len(out)-1] {
+		for i, j := 0, len(out)-1; i < j; i, j = i+1, j-1 {
+			out[i], out[j] = out[j], out[i]
+		}
+	}
+	return out, nil
+}

@@ -238,3 +238,36 @@ func TestUndersampled(t *testing.T) {
 		t.Errorf("%.2f pixels undersampled", p.FWHMPixels())
 	}
 }
+
+// TestPixelWavelengths: the pixel centres fill the detector's coverage
+// (the outer half pixels reach its edges), ascend, and are spaced by the
+// centre dispersion per pixel near the centre.
+func TestPixelWavelengths(t *testing.T) {
+	t.Parallel()
+	s := Spectrometer{GroovesPerMM: 1800, Order: 1, FocalLengthMM: 750, SlitWidthUM: 40, PixelSizeUM: 13.5, Pixels: 2048, IlluminatedWidthMM: 60}
+	alpha, _ := LittrowAngleDeg(486.13, 1800, 1)
+	x, err := s.PixelWavelengths(486.13, alpha)
+	if err != nil {
+		t.Fatal(err)
+	}
+	cov, _ := s.Coverage(486.13, alpha)
+	p, _ := s.At(486.13, alpha)
+	if len(x) != 2048 {
+		t.Fatalf("%d pixels", len(x))
+	}
+	for i := 1; i < len(x); i++ {
+		if !(x[i] > x[i-1]) {
+			t.Fatalf("pixel %d: %g after %g", i, x[i], x[i-1])
+		}
+	}
+	half := p.DispersionNMPerPixel / 2
+	if math.Abs(x[0]-half-cov.LowNM) > 0.02*half || math.Abs(x[len(x)-1]+half-cov.HighNM) > 0.02*half {
+		t.Errorf("pixels %g…%g nm, coverage %g…%g nm", x[0], x[len(x)-1], cov.LowNM, cov.HighNM)
+	}
+	if d := x[1024] - x[1023]; math.Abs(d-p.DispersionNMPerPixel) > 1e-4*d {
+		t.Errorf("centre spacing %g nm, dispersion %g nm/pixel", d, p.DispersionNMPerPixel)
+	}
+	if _, err := (Spectrometer{}).PixelWavelengths(486.13, alpha); err == nil {
+		t.Error("invalid spectrometer accepted")
+	}
+}
