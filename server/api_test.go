@@ -247,7 +247,8 @@ func TestAPIAddSpectrum(t *testing.T) {
 		t.Fatal(err)
 	}
 	ct, mp := multipartBody(t, "scipy_hbeta_window_snr100.csv", data,
-		map[string]string{"kind": "spectrum", "instrument_fwhm_nm": "0.05", "gas_temperature_K": "1200", "perturber": "none", "pressure_Pa": "0"})
+		map[string]string{"kind": "spectrum", "instrument_fwhm_nm": "0.05", "gas_temperature_K": "1200", "perturber": "none", "pressure_Pa": "0",
+			"line_shape": "voigt"}) // the scipy lines are Voigt profiles
 	code, out := f.do(http.MethodPost, "/api/v1/runs/"+strconv.FormatInt(id, 10)+"/measurements", f.token, ct, mp)
 	if code != http.StatusCreated {
 		t.Fatalf("%d %v", code, out)

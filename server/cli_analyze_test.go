@@ -16,7 +16,8 @@ const spectraDir = "../testdata/spectra"
 // analysis JSON with per-line fit results.
 func TestAnalyzeSpectrumFile(t *testing.T) {
 	var out, errb bytes.Buffer
-	code := AnalyzeCommand([]string{"--instrument-fwhm-nm", "0.03", "--gas-temperature-K", "1200",
+	// The scipy lines are Voigt profiles: --line-shape voigt.
+	code := AnalyzeCommand([]string{"--instrument-fwhm-nm", "0.03", "--gas-temperature-K", "1200", "--line-shape", "voigt",
 		filepath.Join(spectraDir, "scipy_hbeta_window_snr1000.csv")}, nil, &out, &errb)
 	if code != ExitOK {
 		t.Fatalf("exit %d: %s", code, errb.String())

@@ -343,6 +343,7 @@ func (s *Server) createRun(c echo.Context) error {
 	st := DefaultSettings(store.Run{InstrumentFWHMNM: in.InstrumentFWHMNM, InstrumentID: in.InstrumentID,
 		GasTemperatureK: in.GasTemperatureK, PressurePa: in.PressurePa, Perturber: in.Perturber})
 	st.ResponseUnit = f.ResponseUnit
+	st.LineShape = strings.TrimSpace(c.FormValue("line_shape"))
 	if err := st.Validate(); err != nil {
 		return fail(err)
 	}

@@ -1,0 +1,245 @@
+package spectrum
+
+// The Stark-shape correction of the Voigt window fit (shape.go) is measured
+// here, on spectra made in Go from the Stehlé & Hutcheon (1999) profiles of
+// package diag/sh99: one Balmer line per spectrum, the tabulated profile at
+// (n_e, T_e = 1e4 K) convolved with the remaining Gaussian
+// √(w_inst² + w_D(T_gas)² − w_D(T_e)²) — exactly Stark ⊗ Doppler(T_gas) ⊗
+// instrument (diag/sh99 doc) — integrated over each pixel, on a flat
+// continuum with Gaussian noise of a Poisson-like size. Its grid (n_e
+// steps of 10^0.25, instrument widths, pixel sampling, gas temperatures,
+// seeds) is our own and differs from testdata/sh99synth, the independent
+// check, which is never used to set the correction.
+
+import (
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"os"
+	"slices"
+	"strings"
+	"testing"
+
+	"glowlog/diag"
+	"glowlog/diag/sh99"
+)
+
+const shapeTe = 1e4 // K, the tables' temperature of the measurement
+
+// sh99Line makes a one-line spectrum: pixel centres x (uniform, step px),
+// counts = area × pixel integral of the profile + base × px + noise.
+// It returns nil when the tables do not cover the case.
+func sh99Line(upper int, ne, instG, gasT, px, area, base float64, rng *rand.Rand) (*Spectrum, float64, error) {
+	l, err := sh99.Balmer(upper)
+	if err != nil {
+		return nil, 0, err
+	}
+	tr, err := diag.Balmer(upper, diag.Hydrogen)
+	if err != nil {
+		return nil, 0, err
+	}
+	wD := diag.DopplerFWHMNM(tr.WavelengthAirNM, gasT, diag.EmitterMassAMU(diag.Hydrogen))
+	g2 := instG*instG + wD*wD - math.Pow(l.DopplerFWHMNM(shapeTe), 2)
+	if g2 <= 0 {
+		return nil, 0, fmt.Errorf("instrument too narrow for the tables' Doppler")
+	}
+	wT, err := l.TableWidthNM(sh99.FWHM, ne, shapeTe)
+	if err != nil {
+		return nil, 0, err
+	}
+	wTot := diag.VoigtFWHM(math.Sqrt(g2+math.Pow(l.DopplerFWHMNM(shapeTe), 2)), wT)
+	half := math.Max(14*wTot, 60*px)
+	n := int(2*half/px) + 1
+	if n > 6000 {
+		n = 6000
+	}
+	c0 := tr.WavelengthAirNM
+	x := make([]float64, n)
+	for i := range x {
+		x[i] = c0 + (float64(i)-float64(n-1)/2)*px + 0.137*px
+	}
+	// Fine grid over the pixels' span plus the kernel reach.
+	gs := math.Sqrt(g2) / (2 * math.Sqrt(2*math.Ln2))
+	h := math.Min(px/8, math.Min(wT, math.Sqrt(g2))/10)
+	reach := 6 * gs
+	lo := x[0] - px/2 - reach
+	m := int((x[n-1]+px/2+reach-lo)/h) + 2
+	fx := make([]float64, m)
+	for i := range fx {
+		fx[i] = lo + float64(i)*h - c0
+	}
+	prof := make([]float64, m)
+	l.ProfileInto(prof, fx, ne, shapeTe)
+	kh := int(reach / h)
+	kern := make([]float64, 2*kh+1)
+	ks := 0.0
+	for j := range kern {
+		d := float64(j-kh) * h
+		kern[j] = math.Exp(-d * d / (2 * gs * gs))
+		ks += kern[j]
+	}
+	conv := make([]float64, m)
+	for i := kh; i < m-kh; i++ {
+		s := 0.0
+		for j, kv := range kern {
+			s += kv * prof[i+j-kh]
+		}
+		conv[i] = s / ks
+	}
+	// Cumulative trapezoid, then pixel integrals by linear interpolation.
+	cum := make([]float64, m)
+	for i := 1; i < m; i++ {
+		cum[i] = cum[i-1] + 0.5*h*(conv[i]+conv[i-1])
+	}
+	at := func(v float64) float64 {
+		f := (v - c0 - fx[0]) / h
+		i := int(f)
+		return cum[i] + (f-float64(i))*(cum[i+1]-cum[i])
+	}
+	y := make([]float64, n)
+	span := x[n-1] - x[0]
+	slope := 0.6 * (rng.Float64() - 0.5)
+	for i := range y {
+		u := (x[i] - c0) / span
+		s := area*(at(x[i]+px/2)-at(x[i]-px/2)) + base*px*(1+slope*u+0.5*slope*u*u)
+		y[i] = s + math.Sqrt(math.Max(s, 1))*rng.NormFloat64()
+	}
+	return &Spectrum{WavelengthNM: x, Counts: y}, wTot, nil
+}
+
+// shapeSample is one measured case: the inferred ratio r = L/G of the raw
+// Voigt fit, and the fit's Lorentzian over the true Stark width (FWHA for
+// Hα, FWHM otherwise) and fitted over true area.
+type shapeSample struct {
+	upper       int
+	r, q        float64
+	wq, aq      float64
+	ne, inst, g float64
+}
+
+// measureShape runs the pipeline with the Voigt shape (no correction) on
+// one generated line.
+func measureShape(t testing.TB, p *Pipeline, upper int, ne, instG, gasT, pxPerFWHM float64, rng *rand.Rand) (shapeSample, bool) {
+	l, _ := sh99.Balmer(upper)
+	kind := sh99.FWHM
+	if upper == 3 {
+		kind = sh99.FWHA
+	}
+	wS, err := l.StarkWidthNM(kind, ne, shapeTe)
+	if err != nil {
+		return shapeSample{}, false
+	}
+	tr, _ := diag.Balmer(upper, diag.Hydrogen)
+	g := math.Hypot(instG, diag.DopplerFWHMNM(tr.WavelengthAirNM, gasT, diag.EmitterMassAMU(diag.Hydrogen)))
+	wTot := diag.VoigtFWHM(g, wS)
+	px := wTot / pxPerFWHM
+	if px > g/2.2 {
+		px = g / 2.2
+	}
+	const area = 4000.0
+	peak := area / wTot
+	// Continuum 0.3–8 % of the line's peak (log-uniform), with a slope
+	// and curvature: the continuum's noise sets how much the wings weigh
+	// in the fit, and so the area bias.
+	contFrac := 0.002 * math.Pow(0.6/0.002, rng.Float64())
+	sp, _, err := sh99Line(upper, ne, instG, gasT, px, area*(30000/(peak*px)), contFrac*30000/px, rng)
+	if err != nil {
+		return shapeSample{}, false
+	}
+	trueArea := area * (30000 / (peak * px))
+	res, err := p.Analyze(sp, Options{Conditions: diag.Measurement{InstrumentGaussFWHMNM: instG, GasTemperatureK: gasT},
+		GainElectronsPerCount: 1, LineShape: LineShapeVoigt})
+	if err != nil {
+		t.Logf("n=%d ne=%.3g inst=%.3g: %v", upper, ne, instG, err)
+		return shapeSample{}, false
+	}
+	for _, lr := range res.Lines {
+		if lr.UpperLevel != upper || lr.LorentzFWHMNM == nil || lr.Intensity == nil {
+			continue
+		}
+		return shapeSample{upper: upper, r: *lr.LorentzFWHMNM / g, q: lr.ContinuumToPeak, wq: *lr.LorentzFWHMNM / wS,
+			aq: *lr.Intensity / trueArea, ne: ne, inst: instG, g: g}, true
+	}
+	return shapeSample{}, false
+}
+
+// TestMeasureShapeTable prints the correction table of shape.go from a
+// fresh measurement (GLOWLOG_MEASURE_SHAPE=1; about a minute).
+func TestMeasureShapeTable(t *testing.T) {
+	if os.Getenv("GLOWLOG_MEASURE_SHAPE") == "" {
+		t.Skip("set GLOWLOG_MEASURE_SHAPE=1 to measure the Stark-shape correction table")
+	}
+	rng := rand.New(rand.NewPCG(20261202, 7))
+	p := NewPipeline(8192)
+	var all []shapeSample
+	for upper := 3; upper <= 8; upper++ {
+		for e := 19.75; e <= 23.01; e += 0.25 {
+			for _, inst := range []float64{0.05, 0.07, 0.12, 0.2, 0.3, 0.5} {
+				for _, ppf := range []float64{3, 4.5, 6, 9, 12} {
+					gasT := 400 + 2600*rng.Float64()
+					if s, ok := measureShape(t, p, upper, math.Pow(10, e), inst, gasT, ppf, rng); ok {
+						all = append(all, s)
+					}
+				}
+			}
+		}
+	}
+	var b strings.Builder
+	for class := range shapeClasses {
+		b.WriteString("\t{\n")
+		for qb := range shapeQEdges {
+			var cs []shapeSample
+			for _, s := range all {
+				if shapeClass(s.upper) == class && shapeQBin(s.q) == qb {
+					cs = append(cs, s)
+				}
+			}
+			fmt.Fprintf(&b, "\t{ // %s, continuum/peak bin %d, %d cases\n", shapeClasses[class], qb, len(cs))
+			for _, q := range []string{"width", "area"} {
+				var mean, rms []float64
+				for k := range shapeNodes {
+					lo, hi := shapeNodes[max(k-1, 0)], shapeNodes[min(k+1, len(shapeNodes)-1)]
+					var v []float64
+					for _, s := range cs {
+						if s.r >= lo && s.r <= hi {
+							x := s.wq
+							if q == "area" {
+								x = s.aq
+							}
+							v = append(v, math.Log(x))
+						}
+					}
+					if len(v) < 3 {
+						mean = append(mean, math.NaN())
+						rms = append(rms, math.NaN())
+						continue
+					}
+					slices.Sort(v)
+					mu := 0.0
+					for _, x := range v {
+						mu += x
+					}
+					mu /= float64(len(v))
+					ss := 0.0
+					for _, x := range v {
+						ss += (x - mu) * (x - mu)
+					}
+					mean = append(mean, mu)
+					rms = append(rms, math.Sqrt(ss/float64(len(v)-1)))
+				}
+				fmt.Fprintf(&b, "\t\t// %s: ln(fit/true) mean, then its scatter\n\t\t%s, %s,\n", q, goSlice(mean), goSlice(rms))
+			}
+			b.WriteString("\t},\n")
+		}
+		b.WriteString("\t},\n")
+	}
+	t.Log("\n" + b.String())
+}
+
+func goSlice(v []float64) string {
+	s := make([]string, len(v))
+	for i, x := range v {
+		s[i] = fmt.Sprintf("%.3f", x)
+	}
+	return "{" + strings.Join(s, ", ") + "}"
+}
