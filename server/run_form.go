@@ -26,6 +26,7 @@ type runForm struct {
 	InstrumentFWHMNM, InstrumentID             string
 	GasTemperatureK, Perturber, Notes, Tags    string
 	ResponseUnit, LineTable                    string
+	LineShape                                  string
 }
 
 func bindRunForm(c echo.Context) runForm {
@@ -36,7 +37,7 @@ func bindRunForm(c echo.Context) runForm {
 		GapMM: v("gap_mm"), GratingLMM: v("grating_lmm"), SlitUM: v("slit_um"), IntegrationMS: v("integration_ms"),
 		InstrumentFWHMNM: v("instrument_fwhm_nm"), InstrumentID: v("instrument_id"), GasTemperatureK: v("gas_temperature_k"),
 		Perturber: v("perturber"), Notes: c.FormValue("notes"), Tags: v("tags"), ResponseUnit: v("response_unit"),
-		LineTable: c.FormValue("line_table")}
+		LineTable: c.FormValue("line_table"), LineShape: v("line_shape")}
 }
 
 // formUserError is a rejected form field (422, shown on the form).
@@ -223,7 +224,7 @@ func (f runForm) view() views.RunFormValues {
 		PressurePa: f.PressurePa, PowerW: f.PowerW, Flows: f.Flows, GapMM: f.GapMM, GratingLMM: f.GratingLMM,
 		SlitUM: f.SlitUM, IntegrationMS: f.IntegrationMS, InstrumentFWHMNM: f.InstrumentFWHMNM,
 		InstrumentID: f.InstrumentID, GasTemperatureK: f.GasTemperatureK, Perturber: f.Perturber, Notes: f.Notes,
-		Tags: f.Tags, ResponseUnit: f.ResponseUnit, LineTable: f.LineTable}
+		Tags: f.Tags, ResponseUnit: f.ResponseUnit, LineTable: f.LineTable, LineShape: f.LineShape}
 }
 
 func runFormFromRun(r store.Run) runForm {
@@ -343,7 +344,7 @@ func (s *Server) createRun(c echo.Context) error {
 	st := DefaultSettings(store.Run{InstrumentFWHMNM: in.InstrumentFWHMNM, InstrumentID: in.InstrumentID,
 		GasTemperatureK: in.GasTemperatureK, PressurePa: in.PressurePa, Perturber: in.Perturber})
 	st.ResponseUnit = f.ResponseUnit
-	st.LineShape = strings.TrimSpace(c.FormValue("line_shape"))
+	st.LineShape = f.LineShape
 	if err := st.Validate(); err != nil {
 		return fail(err)
 	}

@@ -85,7 +85,7 @@ func (s *Server) reanalyzeFormProps(c echo.Context, r store.Run, st AnalysisSett
 		SaturationCounts: fmtZero(st.SaturationCounts), Gain: fmtZero(st.GainElectronsPerCount),
 		ReadNoise: fmtZero(st.ReadNoiseElectrons), CorrectOffset: st.CorrectOffset, MinSNR: fmtZero(st.MinSNR),
 		Exclude: strings.Join(ex, ", "), InstrumentFWHMUncNM: fmtZero(st.InstrumentFWHMUncNM),
-		ElectronTemperatureK: fmtZero(st.ElectronTemperatureK), ResponseUncRel: fmtZero(st.ResponseUncRel)}
+		ElectronTemperatureK: fmtZero(st.ElectronTemperatureK), ResponseUncRel: fmtZero(st.ResponseUncRel), LineShape: st.LineShape}
 	if st.InstrumentID != 0 {
 		p.Values.InstrumentID = strconv.FormatInt(st.InstrumentID, 10)
 	}

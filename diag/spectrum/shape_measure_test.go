@@ -24,7 +24,9 @@ import (
 	"glowlog/diag/sh99"
 )
 
-const shapeTe = 1e4 // K, the tables' temperature of the measurement
+// shapeTe is the tables' temperature of the measurement, K (a variable:
+// TestMeasureShapeTe changes it).
+var shapeTe = 1e4
 
 // sh99Line makes a one-line spectrum: pixel centres x (uniform, step px),
 // counts = area × pixel integral of the profile + base × px + noise.
@@ -311,10 +313,50 @@ func TestStarkShapeCorrection(t *testing.T) {
 		name   string
 		in, of int
 	}{{"width", in1W, nW}, {"area", in1A, nA}} {
-		// The stated σ includes shapeFloorRel for what this generator does
+		// The stated σ includes the floors (shapeFloorWidthRel, shapeFloorAreaRel) for what this generator does
 		// not vary, so on its own spectra it may over-cover, never under.
 		if f := float64(c.in) / float64(c.of); f < 0.6 {
 			t.Errorf("%s: truth within the stated shape σ in only %d of %d", c.name, c.in, c.of)
 		}
+	}
+}
+
+// TestMeasureShapeTe measures (GLOWLOG_MEASURE_SHAPE=1) what the
+// correction, made at T_e = 1e4 K, leaves on lines shaped by the tables at
+// T_e = 5000 K and 20 000 K: the rms of ln(corrected/true) of the Stark
+// width and the area, per line class — the basis of shapeFloorWidthRel and shapeFloorAreaRel.
+func TestMeasureShapeTe(t *testing.T) {
+	if os.Getenv("GLOWLOG_MEASURE_SHAPE") == "" {
+		t.Skip("set GLOWLOG_MEASURE_SHAPE=1 to measure the T_e dependence of the Stark-shape correction")
+	}
+	defer func(v float64) { shapeTe = v }(shapeTe)
+	rng := rand.New(rand.NewPCG(5, 20000))
+	p := NewPipeline(8192)
+	for _, te := range []float64{5000, 1e4, 2e4} {
+		shapeTe = te
+		var b strings.Builder
+		for class := range shapeClasses {
+			var sw, sa, mw, ma float64
+			n := 0
+			for _, e := range []float64{20.7, 21.2, 21.7, 22.2} {
+				for _, inst := range []float64{0.1, 0.25, 0.5} {
+					s, ok := measureShapeWith(t, p, class+3, math.Pow(10, e), inst, 400+2600*rng.Float64(), 5, rng, "")
+					if !ok {
+						continue
+					}
+					lw, la := math.Log(s.wq), math.Log(s.aq)
+					sw += lw * lw
+					sa += la * la
+					mw += lw
+					ma += la
+					n++
+				}
+			}
+			if n > 0 {
+				fmt.Fprintf(&b, "  %s (%d): width mean %+.3f rms %.3f; area mean %+.3f rms %.3f\n", shapeClasses[class], n,
+					mw/float64(n), math.Sqrt(sw/float64(n)), ma/float64(n), math.Sqrt(sa/float64(n)))
+			}
+		}
+		t.Logf("T_e = %g K, corrected/true:\n%s", te, b.String())
 	}
 }
