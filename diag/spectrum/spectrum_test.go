@@ -469,17 +469,23 @@ func TestUncalibratedWarning(t *testing.T) {
 }
 
 // BenchmarkPipeline2048 is the speed target: one whole 2048-pixel spectrum
-// with Hα–Hδ (and weaker members), from parsed arrays to the final result.
+// with Hα–Hδ (and weaker members), from parsed arrays to the final result,
+// with the Voigt line shape of the spectrum (voigt) and the default
+// Stark-shape correction (stark).
 func BenchmarkPipeline2048(b *testing.B) {
 	sp, tr := loadScipy(b, "bench_2048")
 	p := NewPipeline(4096)
-	// Hα–Hδ, the job of testdata/scipy/fit_bench.py.
-	opt := Options{LineShape: LineShapeVoigt, Conditions: diag.Measurement{InstrumentGaussFWHMNM: tr.Inst, GasTemperatureK: tr.Tg}, MaxUpper: 6}
-	b.ReportAllocs()
-	for b.Loop() {
-		if _, err := p.Analyze(sp, opt); err != nil {
-			b.Fatal(err)
-		}
+	for _, shape := range []string{LineShapeVoigt, LineShapeStark} {
+		b.Run(shape, func(b *testing.B) {
+			// Hα–Hδ, the job of testdata/scipy/fit_bench.py.
+			opt := Options{LineShape: shape, Conditions: diag.Measurement{InstrumentGaussFWHMNM: tr.Inst, GasTemperatureK: tr.Tg}, MaxUpper: 6}
+			b.ReportAllocs()
+			for b.Loop() {
+				if _, err := p.Analyze(sp, opt); err != nil {
+					b.Fatal(err)
+				}
+			}
+		})
 	}
 }
 
