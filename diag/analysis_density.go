@@ -214,8 +214,14 @@ func lineDensities(lr *LineResult, in lineWidthInput, m Measurement, te float64,
 	}
 	ratio := stark / b.GaussTotalNM
 	fromFit := in.line.LorentzFWHMNM > 0
-	bias := ShapeBiasRel(in.line.Upper, fromFit, ratio)
-	addPart("line shape (Voigt approximation of the Stark profile)", bias*p.ne)
+	if in.line.ShapeUncRel > 0 {
+		// The width was corrected for the Stark shape; what is left is
+		// the correction's measured scatter, through n_e ∝ w^(1/p).
+		addPart("line shape (Stark-shape correction of the Voigt fit)", in.line.ShapeUncRel/p.p*p.ne)
+	} else {
+		bias := ShapeBiasRel(in.line.Upper, fromFit, ratio)
+		addPart("line shape (Voigt approximation of the Stark profile)", bias*p.ne)
+	}
 	common := 0.0
 	for _, pt := range parts {
 		common = math.Hypot(common, pt.Sigma/p.ne)

@@ -72,6 +72,12 @@ type MeasuredLine struct {
 	InstrumentGaussFWHMNM, InstrumentLorentzFWHMNM float64
 	// ExcludeFromBoltzmann keeps the line off the Boltzmann fit.
 	ExcludeFromBoltzmann bool
+	// ShapeUncRel is the relative 1σ of LorentzFWHMNM's Stark part left by
+	// a line-shape correction already applied to it (the spectrum
+	// pipeline's Stark-shape correction of its Voigt fits). When > 0 it
+	// replaces the ShapeBiasRel envelope in σ_sys of n_e (0: the width is
+	// a plain Voigt quantity and the envelope is carried).
+	ShapeUncRel float64
 	// Profile holds the details of a profile fit the line came from (nil
 	// for lines typed in); it is passed through to the result.
 	Profile *ProfileFit
@@ -104,4 +110,20 @@ type ProfileFit struct {
 	WindowNM [2]float64 `json:"window_nm"`
 	// JointWith lists the other upper levels fitted in the same window.
 	JointWith []int `json:"fitted_jointly_with,omitempty"`
+	// ContinuumToPeak is the local continuum over the line's peak height
+	// above it, both from the line search (it sets how much the line's
+	// wings weigh in the fit, and so the Stark-shape correction).
+	ContinuumToPeak float64 `json:"continuum_to_peak"`
+	// LineShape is the shape the width and area were taken with: "stark"
+	// (Voigt fit corrected for the Stark shape) or "voigt" (as fitted).
+	LineShape string `json:"line_shape,omitempty"`
+	// StarkShapeWidthFactor and StarkShapeAreaFactor are the measured
+	// ratios fitted/true by which the Voigt fit's Lorentzian (Stark part)
+	// and area were divided (line shape "stark"; 0 otherwise).
+	StarkShapeWidthFactor float64 `json:"stark_shape_width_factor,omitempty"`
+	StarkShapeAreaFactor  float64 `json:"stark_shape_area_factor,omitempty"`
+	// VoigtLorentzFWHMNM and VoigtArea are the Voigt fit's own values
+	// before that correction.
+	VoigtLorentzFWHMNM float64 `json:"voigt_lorentz_fwhm_nm,omitempty"`
+	VoigtArea          float64 `json:"voigt_area,omitempty"`
 }

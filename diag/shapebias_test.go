@@ -4,6 +4,7 @@ import (
 	"math"
 	"math/rand/v2"
 	"sort"
+	"strings"
 	"testing"
 
 	"glowlog/diag"
@@ -312,5 +313,38 @@ func TestCoverageOnSH99Lines(t *testing.T) {
 		trials, c1, c2, 100*errs[len(errs)/2], 100*errs[len(errs)*9/10], 100*sigs[len(sigs)/2])
 	if c2 < 0.85 {
 		t.Errorf("2σ coverage %.2f < 0.85: the total σ of n_e misses SH99-shaped lines", c2)
+	}
+}
+
+// TestShapeUncRelReplacesEnvelope: a width already corrected for the Stark
+// shape (MeasuredLine.ShapeUncRel > 0, as the spectrum pipeline sets it)
+// carries that σ through n_e ∝ w^(1/p) instead of the ShapeBiasRel
+// envelope.
+func TestShapeUncRelReplacesEnvelope(t *testing.T) {
+	part := func(shapeUnc float64) (name string, rel float64) {
+		m := diag.Measurement{InstrumentGaussFWHMNM: 0.05, GasTemperatureK: 1000, Lines: []diag.MeasuredLine{
+			{Upper: 4, Intensity: 1, LorentzFWHMNM: 0.5, LorentzFWHMUncNM: 0.005, ShapeUncRel: shapeUnc}}}
+		r, err := diag.Analyze(m)
+		if err != nil {
+			t.Fatal(err)
+		}
+		lr := r.Lines[0]
+		for _, p := range lr.DensityUncParts {
+			if strings.HasPrefix(p.Name, "line shape") {
+				return p.Name, p.Sigma / *lr.ElectronDensityM3
+			}
+		}
+		t.Fatalf("no line-shape part in %+v", lr.DensityUncParts)
+		return
+	}
+	envName, envRel := part(0)
+	corName, corRel := part(0.05)
+	if envName == corName || !strings.Contains(corName, "correction") {
+		t.Errorf("part names %q and %q", envName, corName)
+	}
+	// Hβ: n_e ∝ w^1.47 or so, so 5 % in width is 6–9 % in n_e; the
+	// envelope at w_S/w_G ≈ 10 is ≥ 8.9 %.
+	if !(corRel > 0.06 && corRel < 0.09) || !(envRel >= 0.089) {
+		t.Errorf("line-shape σ: corrected %.3f (want 0.06–0.09), envelope %.3f (want ≥ 0.089)", corRel, envRel)
 	}
 }

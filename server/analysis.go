@@ -53,6 +53,11 @@ type AnalysisSettings struct {
 	InstrumentFWHMUncNM  float64 `json:"instrument_fwhm_unc_nm,omitempty"`
 	ElectronTemperatureK float64 `json:"electron_temperature_K,omitempty"`
 	ResponseUncRel       float64 `json:"response_unc_rel,omitempty"`
+	// LineShape is the line shape of the spectrum fits: "stark" (the
+	// default, ""; Voigt fits corrected for the Stark shape of Balmer
+	// lines) or "voigt" (Voigt fits as they are, for Voigt-shaped
+	// synthetic spectra).
+	LineShape string `json:"line_shape,omitempty"`
 	// CalibrationFiles records the dark and response attachments a version
 	// was computed with (set by the analysis service, not by users).
 	CalibrationFiles []int64 `json:"calibration_files,omitempty"`
@@ -104,6 +109,9 @@ func (st *AnalysisSettings) Validate() error {
 	}
 	if st.ElectronTemperatureK != 0 && st.ElectronTemperatureK < 1000 {
 		return badRequest("electron temperature (K) must be 0 (default %g K) or 1000–2e6 K, got %g", diag.DefaultElectronTemperatureK, st.ElectronTemperatureK)
+	}
+	if !spectrum.ValidLineShape(st.LineShape) {
+		return badRequest("line shape must be %q or %q, got %q", spectrum.LineShapeStark, spectrum.LineShapeVoigt, st.LineShape)
 	}
 	if st.MaxUpper != 0 && (st.MaxUpper < 3 || st.MaxUpper > diag.MaxLevel) {
 		return badRequest("highest Balmer member must be 3…%d, got %d", diag.MaxLevel, st.MaxUpper)
@@ -161,6 +169,7 @@ func (s *Server) analyzeAttachments(ctx context.Context, atts []store.Attachment
 		SaturationCounts: st.SaturationCounts, GainElectronsPerCount: st.GainElectronsPerCount,
 		ReadNoiseElectrons: st.ReadNoiseElectrons, CorrectOffset: st.CorrectOffset, MinSNR: st.MinSNR,
 		MaxUpper: st.MaxUpper, KeepWindows: true, ExcludeFromBoltzmann: st.ExcludeFromBoltzmann,
+		LineShape: st.LineShape,
 	}
 	if st.InstrumentID != 0 {
 		in, err := s.DB.Instrument(ctx, st.InstrumentID)

@@ -212,6 +212,9 @@ func applySettingFields(c echo.Context, st *AnalysisSettings) error {
 		}
 		*f.p = x
 	}
+	if v := strings.TrimSpace(c.FormValue("line_shape")); v != "" {
+		st.LineShape = v
+	}
 	bools := []struct {
 		name string
 		p    *bool

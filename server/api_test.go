@@ -247,7 +247,8 @@ func TestAPIAddSpectrum(t *testing.T) {
 		t.Fatal(err)
 	}
 	ct, mp := multipartBody(t, "scipy_hbeta_window_snr100.csv", data,
-		map[string]string{"kind": "spectrum", "instrument_fwhm_nm": "0.05", "gas_temperature_K": "1200", "perturber": "none", "pressure_Pa": "0"})
+		map[string]string{"kind": "spectrum", "instrument_fwhm_nm": "0.05", "gas_temperature_K": "1200", "perturber": "none", "pressure_Pa": "0",
+			"line_shape": "voigt"}) // the scipy lines are Voigt profiles
 	code, out := f.do(http.MethodPost, "/api/v1/runs/"+strconv.FormatInt(id, 10)+"/measurements", f.token, ct, mp)
 	if code != http.StatusCreated {
 		t.Fatalf("%d %v", code, out)
@@ -314,5 +315,26 @@ func TestAPITrends(t *testing.T) {
 	}
 	if code, out := f.do(http.MethodGet, "/api/v1/trends?y=colour", f.token, "", nil); code != 400 || !strings.Contains(out["error"].(string), "colour") {
 		t.Errorf("bad field: %d %v", code, out)
+	}
+}
+
+// TestAPILineShapeBad: an unknown line shape is refused with 400 naming it,
+// and nothing is added to the run.
+func TestAPILineShapeBad(t *testing.T) {
+	f := newAPIFixture(t)
+	id := f.createRun(runJSON)
+	data, err := os.ReadFile("../testdata/spectra/scipy_hbeta_window_snr100.csv")
+	if err != nil {
+		t.Fatal(err)
+	}
+	ct, mp := multipartBody(t, "scipy_hbeta_window_snr100.csv", data,
+		map[string]string{"kind": "spectrum", "instrument_fwhm_nm": "0.05", "gas_temperature_K": "1200", "line_shape": "lorentz"})
+	code, out := f.do(http.MethodPost, "/api/v1/runs/"+strconv.FormatInt(id, 10)+"/measurements", f.token, ct, mp)
+	if msg, _ := out["error"].(string); code != http.StatusBadRequest || !strings.Contains(msg, "line shape") {
+		t.Errorf("%d %v, want 400 naming the line shape", code, out)
+	}
+	atts, err := f.db.Attachments(context.Background(), id)
+	if err != nil || len(atts) != 0 {
+		t.Errorf("attachments after a refused upload: %d (%v)", len(atts), err)
 	}
 }

@@ -73,7 +73,7 @@ var conditionFlags = []string{"isotope", "instrument-fwhm-nm", "instrument-loren
 	"electron-temperature-K", "response-unc-rel", "pressure-Pa", "perturber",
 	"ground-state-density-m3", "intensity-unit", "dark", "response", "lamp", "lamp-irradiance", "grey-body-K",
 	"saturation-counts", "gain-e-per-count", "read-noise-e", "correct-offset", "min-snr", "max-upper", "windows",
-	"x-unit", "vacuum-axis", "calibrated"}
+	"x-unit", "vacuum-axis", "calibrated", "line-shape"}
 
 func analyzeFlags(stderr io.Writer) (*flag.FlagSet, *analyzeConfig) {
 	c := &analyzeConfig{}
@@ -98,6 +98,7 @@ flags (spectra only):
 	fs.Float64Var(&c.gasTUnc, "gas-temperature-unc-K", 0, "1σ of the gas temperature, K")
 	fs.Float64Var(&c.instGUnc, "instrument-fwhm-unc-nm", 0, "1σ of the instrument's Gaussian FWHM, nm (enters the systematic σ of n_e)")
 	fs.Float64Var(&c.electronT, "electron-temperature-K", 0, fmt.Sprintf("electron temperature of the Stark tables, K (default %g)", diag.DefaultElectronTemperatureK))
+	fs.StringVar(&c.opt.LineShape, "line-shape", "stark", "line shape of the spectrum fits: stark (Voigt fits corrected for the Stark shape of Balmer lines) or voigt (as fitted, for Voigt-shaped synthetic spectra)")
 	fs.Float64Var(&c.responseUnc, "response-unc-rel", 0, "relative 1σ of the response calibration between the extreme lines (e.g. 0.05)")
 	fs.BoolVar(&c.solveGas, "solve-gas-temperature", false, "solve n_e and gas temperature together from Hα and Hβ")
 	fs.Float64Var(&c.pressure, "pressure-Pa", 0, "pressure of the perturber gas, Pa")
@@ -476,6 +477,9 @@ func (c *analyzeConfig) load() error {
 	}
 	if c.instG > 50 || c.instL > 50 {
 		return fmt.Errorf("--instrument-fwhm-nm above 50 nm: check the unit (nm expected)")
+	}
+	if !spectrum.ValidLineShape(c.opt.LineShape) {
+		return fmt.Errorf("--line-shape must be %s or %s, got %q", spectrum.LineShapeStark, spectrum.LineShapeVoigt, c.opt.LineShape)
 	}
 	if c.maxUpper != 0 && (c.maxUpper < 3 || c.maxUpper > diag.MaxLevel) {
 		return fmt.Errorf("--max-upper must be 3…%d, got %d", diag.MaxLevel, c.maxUpper)

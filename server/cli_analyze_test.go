@@ -16,7 +16,8 @@ const spectraDir = "../testdata/spectra"
 // analysis JSON with per-line fit results.
 func TestAnalyzeSpectrumFile(t *testing.T) {
 	var out, errb bytes.Buffer
-	code := AnalyzeCommand([]string{"--instrument-fwhm-nm", "0.03", "--gas-temperature-K", "1200",
+	// The scipy lines are Voigt profiles: --line-shape voigt.
+	code := AnalyzeCommand([]string{"--instrument-fwhm-nm", "0.03", "--gas-temperature-K", "1200", "--line-shape", "voigt",
 		filepath.Join(spectraDir, "scipy_hbeta_window_snr1000.csv")}, nil, &out, &errb)
 	if code != ExitOK {
 		t.Fatalf("exit %d: %s", code, errb.String())
@@ -263,5 +264,49 @@ func TestAnalyzeUncertaintyFlags(t *testing.T) {
 		if code := AnalyzeCommand(append(bad, file), nil, &out, &errb); code != 2 || !strings.Contains(errb.String(), bad[0]) {
 			t.Errorf("%v: exit %d, stderr %q", bad, code, errb.String())
 		}
+	}
+}
+
+// TestAnalyzeLineShape: --line-shape stark (the default) corrects the
+// Voigt fit of a Stark-shaped line and says so per line; voigt keeps the
+// fit as it is; any other value exits 2 naming the flag.
+func TestAnalyzeLineShape(t *testing.T) {
+	file := filepath.Join(sh99SynthDir, "mid_ne1e22_t2.csv")
+	run := func(extra ...string) (code int, shape string, area, voigtArea float64, stderr string) {
+		var out, errb bytes.Buffer
+		args := append([]string{"--instrument-fwhm-nm", "0.1", "--gas-temperature-K", "1000"}, extra...)
+		code = AnalyzeCommand(append(args, file), nil, &out, &errb)
+		if code != ExitOK {
+			return code, "", 0, 0, errb.String()
+		}
+		var r struct {
+			Lines []struct {
+				Upper     int     `json:"upper_level"`
+				Shape     string  `json:"line_shape"`
+				Area      float64 `json:"intensity"`
+				VoigtArea float64 `json:"voigt_area"`
+			} `json:"lines"`
+		}
+		if err := json.Unmarshal(out.Bytes(), &r); err != nil {
+			t.Fatal(err)
+		}
+		for _, l := range r.Lines {
+			if l.Upper == 4 {
+				return code, l.Shape, l.Area, l.VoigtArea, ""
+			}
+		}
+		t.Fatalf("no Hβ in %s", out.String())
+		return
+	}
+	code, shape, area, voigtArea, stderr := run()
+	if code != ExitOK || shape != "stark" || !(voigtArea > 1.03*area) {
+		t.Errorf("default: exit %d %s, line shape %q, area %g, Voigt area %g: want stark with the Voigt area > 3 %% above", code, stderr, shape, area, voigtArea)
+	}
+	code, shape, vArea, _, stderr := run("--line-shape", "voigt")
+	if code != ExitOK || shape != "voigt" || vArea != voigtArea {
+		t.Errorf("voigt: exit %d %s, line shape %q, area %g, want the Voigt area %g", code, stderr, shape, vArea, voigtArea)
+	}
+	if code, _, _, _, stderr := run("--line-shape", "lorentz"); code != ExitInput || !strings.Contains(stderr, "--line-shape") {
+		t.Errorf("bad line shape: exit %d, stderr %q", code, stderr)
 	}
 }

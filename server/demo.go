@@ -374,6 +374,9 @@ func SeedDemo(ctx context.Context, s *Server, adminID int64, opt DemoOptions) er
 			atts = append(atts, store.Attachment{ID: rid, RunID: id, Kind: store.KindResponse, Name: ch.setting.response, Seq: 1, Content: resp})
 			st := DefaultSettings(store.Run{InstrumentFWHMNM: in.InstrumentFWHMNM, GasTemperatureK: in.GasTemperatureK,
 				PressurePa: in.PressurePa, Perturber: in.Perturber})
+			// The demo's lines are Voigt profiles (spectrum.Synthesize):
+			// analysed with the Voigt shape they were made with.
+			st.LineShape = spectrum.LineShapeVoigt
 			uid := op.ID
 			if _, _, err := s.ReanalyzeRunTx(ctx, tx, id, atts, st, &uid, "first analysis"); err != nil {
 				tx.Rollback()

@@ -32,6 +32,8 @@ type runForm struct {
 	LineUnit string
 	// PressureUnit is the unit PressurePa was typed in (Pa, mbar, Torr).
 	PressureUnit string
+	// LineShape is the window fit's line model: "", "stark" or "voigt".
+	LineShape string
 }
 
 // newLineRows is the number of empty rows the line table starts with.
@@ -147,7 +149,8 @@ func bindRunForm(c echo.Context) runForm {
 		GapMM: v("gap_mm"), GratingLMM: v("grating_lmm"), SlitUM: v("slit_um"), IntegrationMS: v("integration_ms"),
 		InstrumentFWHMNM: v("instrument_fwhm_nm"), InstrumentID: v("instrument_id"), GasTemperatureK: v("gas_temperature_k"),
 		Perturber: v("perturber"), Notes: c.FormValue("notes"), Tags: v("tags"), ResponseUnit: v("response_unit"),
-		LineTable: c.FormValue("line_table"), Lines: bindLineRows(c), LineUnit: v("lt_unit"), PressureUnit: v("pressure_unit")}
+		LineTable: c.FormValue("line_table"), Lines: bindLineRows(c), LineUnit: v("lt_unit"), PressureUnit: v("pressure_unit"),
+		LineShape: v("line_shape")}
 	// The pressure is typed with its unit; a form that sends pressure_pa
 	// (as before the unit choice) gives it in Pa.
 	if form, err := c.FormParams(); err == nil && form.Has("pressure") {
@@ -352,7 +355,7 @@ func (f runForm) view() views.RunFormValues {
 		SlitUM: f.SlitUM, IntegrationMS: f.IntegrationMS, InstrumentFWHMNM: f.InstrumentFWHMNM,
 		InstrumentID: f.InstrumentID, GasTemperatureK: f.GasTemperatureK, Perturber: f.Perturber, Notes: f.Notes,
 		Tags: f.Tags, ResponseUnit: f.ResponseUnit, LineTable: f.LineTable, Lines: f.Lines, LineUnit: f.LineUnit,
-		PressureUnit: f.PressureUnit}
+		PressureUnit: f.PressureUnit, LineShape: f.LineShape}
 }
 
 func runFormFromRun(r store.Run) runForm {
@@ -512,6 +515,7 @@ func (s *Server) createRun(c echo.Context) error {
 	st := DefaultSettings(store.Run{InstrumentFWHMNM: in.InstrumentFWHMNM, InstrumentID: in.InstrumentID,
 		GasTemperatureK: in.GasTemperatureK, PressurePa: in.PressurePa, Perturber: in.Perturber})
 	st.ResponseUnit = f.ResponseUnit
+	st.LineShape = f.LineShape
 	if err := st.Validate(); err != nil {
 		return fail(err)
 	}

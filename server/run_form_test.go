@@ -133,7 +133,9 @@ func hbetaSpectrum(t *testing.T) []byte {
 func newRunValues() url.Values {
 	return url.Values{"title": {"Hβ window, cathode 2"}, "started_at": {"2026-03-04T14:05"}, "source_type": {"dc_glow"},
 		"gas_mixture": {"H2 5 % in Ar"}, "pressure_pa": {"300"}, "instrument_fwhm_nm": {"0.03"},
-		"gas_temperature_k": {"1200"}, "perturber": {"none"}, "new_chamber": {"Fenwick bell jar B"}, "tags": {"baseline, Hβ"}}
+		"gas_temperature_k": {"1200"}, "perturber": {"none"}, "new_chamber": {"Fenwick bell jar B"}, "tags": {"baseline, Hβ"},
+		// the scipy spectrum's lines are Voigt profiles
+		"line_shape": {"voigt"}}
 }
 
 var runLocation = regexp.MustCompile(`^/runs/(\d+)$`)

@@ -85,7 +85,7 @@ func (s *Server) reanalyzeFormProps(c echo.Context, r store.Run, st AnalysisSett
 		SaturationCounts: fmtZero(st.SaturationCounts), Gain: fmtZero(st.GainElectronsPerCount),
 		ReadNoise: fmtZero(st.ReadNoiseElectrons), CorrectOffset: st.CorrectOffset, MinSNR: fmtZero(st.MinSNR),
 		Exclude: strings.Join(ex, ", "), InstrumentFWHMUncNM: fmtZero(st.InstrumentFWHMUncNM),
-		ElectronTemperatureK: fmtZero(st.ElectronTemperatureK), ResponseUncRel: fmtZero(st.ResponseUncRel)}
+		ElectronTemperatureK: fmtZero(st.ElectronTemperatureK), ResponseUncRel: fmtZero(st.ResponseUncRel), LineShape: st.LineShape}
 	if st.InstrumentID != 0 {
 		p.Values.InstrumentID = strconv.FormatInt(st.InstrumentID, 10)
 	}
@@ -184,6 +184,9 @@ func bindReanalyze(c echo.Context, base AnalysisSettings) (AnalysisSettings, str
 	st.SolveGasTemperature = c.FormValue("solve_gas_temperature") != ""
 	st.CorrectOffset = c.FormValue("correct_offset") != ""
 	st.Perturber = strings.TrimSpace(c.FormValue("perturber"))
+	if v := strings.TrimSpace(c.FormValue("line_shape")); v != "" {
+		st.LineShape = v // absent: the version's line shape is kept
+	}
 	st.ResponseUnit = strings.TrimSpace(c.FormValue("response_unit"))
 	st.ResponseCorrectedUnit = strings.TrimSpace(c.FormValue("response_corrected_unit"))
 	st.MaxUpper = 0

@@ -354,15 +354,18 @@ func TestSH99SynthAccuracy(t *testing.T) {
 }
 
 // sh99MedianBound is 1.3 × the median relative error measured on
-// testdata/sh99synth when it was made (see the table of
-// TestSH99SynthAccuracy -v and the notes), per spectrometer type and
-// quantity.
+// testdata/sh99synth with the current pipeline (see the table of
+// TestSH99SynthAccuracy -v), per spectrometer
+// type and quantity, with a floor of 1.5 % so that rounding-level changes
+// do not trip it. When the set was made (Voigt fits, no shape correction)
+// the medians were hires n_e 0.329, mid 0.184, survey 0.167, mid T_exc
+// 0.115, survey T_exc 0.044.
 var sh99MedianBound = map[string]float64{
-	"hires n_e":    0.48,  // measured 0.364 (GGC 2003 Hβ relation on a Voigt fit)
-	"mid n_e":      0.37,  // measured 0.282
-	"survey n_e":   0.57,  // measured 0.436
-	"mid T_exc":    0.15,  // measured 0.112 (Hα and Hβ only)
-	"survey T_exc": 0.056, // measured 0.043 (Hα … Hε)
+	"hires n_e":    0.122, // measured 0.094 (Stark-shape-corrected Voigt fit; GGC 2003 preferred for Hβ ≥ 1e21 m⁻³)
+	"mid n_e":      0.186, // measured 0.143
+	"survey n_e":   0.070, // measured 0.054
+	"mid T_exc":    0.033, // measured 0.025 (Hα and Hβ only)
+	"survey T_exc": 0.015, // measured 0.008 (Hα … Hε)
 }
 
 // TestSH99SynthCoverage: the targets of issue 8 for honest total
@@ -385,11 +388,12 @@ func TestSH99SynthCoverage(t *testing.T) {
 	}
 	sh99Table(t, cases)
 	if os.Getenv("GLOWLOG_COVERAGE_TARGETS") == "" {
-		// Issue 8 is open: the window fits' Voigt shapes bias n_e low and
-		// the areas high on Stark-shaped lines, and σ_sys does not yet
-		// carry that bias for spectra (the table above is the measured
-		// state). GLOWLOG_COVERAGE_TARGETS=1 checks the targets.
-		t.Skip("coverage targets not met yet (issue 8 open); set GLOWLOG_COVERAGE_TARGETS=1 to check them")
+		// Measured with the Stark-shape correction (diag/spectrum/shape.go):
+		// n_e 33/51 within 1σ, 48/51 within 2σ (both met); T_exc 28/36
+		// within 1σ (78 %: over-covers by one case beyond 76 %), 36/36
+		// within 2σ. The σ are not tuned to this set, so the T_exc 1σ
+		// target is left unmet. GLOWLOG_COVERAGE_TARGETS=1 checks them.
+		t.Skip("coverage targets: n_e met, T_exc 1σ over-covers (28/36); set GLOWLOG_COVERAGE_TARGETS=1 to check them")
 	}
 	for _, q := range []struct {
 		name string

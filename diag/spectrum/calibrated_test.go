@@ -59,7 +59,7 @@ func TestCalibratedSpectrum(t *testing.T) {
 	}{{"photon", false, diag.PhotonUnits}, {"energy", true, diag.EnergyUnits}} {
 		t.Run(c.name, func(t *testing.T) {
 			sp := calibratedSpectrum(t, tExc, c.energy)
-			res, err := p.Analyze(sp, Options{Conditions: cond, Calibrated: true, CalibratedUnit: c.unit})
+			res, err := p.Analyze(sp, Options{LineShape: LineShapeVoigt, Conditions: cond, Calibrated: true, CalibratedUnit: c.unit})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -74,7 +74,7 @@ func TestCalibratedSpectrum(t *testing.T) {
 				t.Errorf("T_exc = %.0f ± %.0f K, want %v K", T, s, tExc)
 			}
 
-			plain, err := p.Analyze(sp, Options{Conditions: cond})
+			plain, err := p.Analyze(sp, Options{LineShape: LineShapeVoigt, Conditions: cond})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -87,7 +87,7 @@ func TestCalibratedSpectrum(t *testing.T) {
 	// The declared unit is used: energy densities read as photon rates
 	// give another temperature.
 	sp := calibratedSpectrum(t, tExc, true)
-	res, err := p.Analyze(sp, Options{Conditions: cond, Calibrated: true, CalibratedUnit: diag.PhotonUnits})
+	res, err := p.Analyze(sp, Options{LineShape: LineShapeVoigt, Conditions: cond, Calibrated: true, CalibratedUnit: diag.PhotonUnits})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -87,6 +87,10 @@ type Options struct {
 	// ExcludeFromBoltzmann lists upper levels kept on the Boltzmann plot
 	// but out of its fit.
 	ExcludeFromBoltzmann []int
+	// LineShape is LineShapeStark ("" means it) or LineShapeVoigt: whether
+	// the Voigt window fit's Lorentzian widths and areas are corrected for
+	// the Stark shape of Balmer lines (shape.go).
+	LineShape string
 }
 
 // Defaults of Options.
@@ -500,12 +504,32 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 		f := c.fit
 		ml := diag.MeasuredLine{Upper: c.t.Upper, Intensity: f.Area, IntensityUnc: f.AreaErr,
 			ExcludeFromBoltzmann: slices.Contains(opt.ExcludeFromBoltzmann, c.t.Upper)}
+		// Stark-shape correction (shape.go): the Voigt fit's Lorentzian
+		// (its Stark part, above the instrument's own Lorentzian) and area
+		// divided by the measured fitted/true factors.
+		lor, shape := f.LorentzFWHM, LineShapeVoigt
+		var wFac, aFac, wUnc float64
+		if opt.LineShape != LineShapeVoigt && f.GaussFWHM > 0 {
+			shape = LineShapeStark
+			starkPart := math.Max(f.LorentzFWHM-c.instL, 0)
+			var aUnc float64
+			wFac, aFac, wUnc, aUnc = starkShape(c.t.Upper, starkPart/f.GaussFWHM, continuumToPeak(c))
+			lor = c.instL + starkPart/wFac
+			ml.Intensity = f.Area / aFac
+			ml.IntensityUnc = math.Hypot(f.AreaErr/aFac, aUnc*ml.Intensity)
+			if starkPart > 0 {
+				ml.ShapeUncRel = wUnc
+			}
+		}
 		if c.search.FWHMPixels < MinFWHMPixels {
 			undersampled = append(undersampled, fmt.Sprintf(
 				"%s is undersampled: its fitted FWHM %.3g nm spans %.2g pixels (< %.1f), so its width is unreliable and gives no electron density; its area is kept. Use a finer grating, a narrower slit setting with more pixels per nm, or a higher order",
 				c.t.Name(), f.VoigtFWHM, c.search.FWHMPixels, MinFWHMPixels))
 		} else if !f.LorentzAtBound && f.LorentzFWHM > 0 {
-			ml.LorentzFWHMNM, ml.LorentzFWHMUncNM = f.LorentzFWHM, f.LorentzFWHMErr
+			ml.LorentzFWHMNM, ml.LorentzFWHMUncNM = lor, f.LorentzFWHMErr
+			if wFac > 0 {
+				ml.LorentzFWHMUncNM /= wFac
+			}
 		}
 		ml.InstrumentGaussFWHMNM, ml.InstrumentLorentzFWHMNM = c.instG, c.instL
 		ml.Profile = &diag.ProfileFit{CenterNM: f.Center, CenterUncNM: f.CenterErr,
@@ -513,7 +537,12 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 			LorentzAtBound: f.LorentzAtBound, TotalFWHMNM: f.VoigtFWHM, TotalFWHMUncNM: f.VoigtFWHMErr,
 			FWHANM: diag.FWHAFromVoigt(f.GaussFWHM, f.LorentzFWHM), PeakSNR: f.Peak / noiseAt(sig, c),
 			ReducedChi2: p.groupChi2(cands, c.group), ErrorsScaled: true,
-			WindowNM: [2]float64{x[c.lo], x[c.hi-1]}}
+			WindowNM: [2]float64{x[c.lo], x[c.hi-1]}, LineShape: shape,
+			ContinuumToPeak: continuumToPeak(c)}
+		if shape == LineShapeStark {
+			ml.Profile.StarkShapeWidthFactor, ml.Profile.StarkShapeAreaFactor = wFac, aFac
+			ml.Profile.VoigtLorentzFWHMNM, ml.Profile.VoigtArea = f.LorentzFWHM, f.Area
+		}
 		for j := range cands {
 			if j != i && cands[j].group == c.group && cands[j].fit != nil {
 				ml.Profile.JointWith = append(ml.Profile.JointWith, cands[j].t.Upper)

@@ -69,7 +69,7 @@ func TestScipySpectra(t *testing.T) {
 		t.Run(name, func(t *testing.T) {
 			sp, tr := loadScipy(t, name)
 			p := NewPipeline(4096)
-			res, err := p.Analyze(sp, Options{Conditions: diag.Measurement{InstrumentGaussFWHMNM: tr.Inst, GasTemperatureK: tr.Tg}})
+			res, err := p.Analyze(sp, Options{LineShape: LineShapeVoigt, Conditions: diag.Measurement{InstrumentGaussFWHMNM: tr.Inst, GasTemperatureK: tr.Tg}})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -213,7 +213,7 @@ func TestOwnSynthetic(t *testing.T) {
 			y := synthesize(c.x, lines, 30, noise, rng)
 			p := NewPipeline(4096)
 			res, err := p.Analyze(&Spectrum{Name: c.name, WavelengthNM: c.x, Counts: y},
-				Options{Conditions: diag.Measurement{InstrumentGaussFWHMNM: c.inst, GasTemperatureK: gasT}})
+				Options{LineShape: LineShapeVoigt, Conditions: diag.Measurement{InstrumentGaussFWHMNM: c.inst, GasTemperatureK: gasT}})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -292,7 +292,7 @@ func TestTexcCoverage(t *testing.T) {
 	for range draws {
 		y := synthesize(x, lines, 30, peak/1000, rng)
 		res, err := p.Analyze(&Spectrum{Name: "mc", WavelengthNM: x, Counts: y},
-			Options{Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.3, GasTemperatureK: 1200}})
+			Options{LineShape: LineShapeVoigt, Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.3, GasTemperatureK: 1200}})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -328,7 +328,7 @@ func TestCoverage(t *testing.T) {
 	for range draws {
 		y := synthesize(x, lines, 20, peak/100, rng)
 		res, err := p.Analyze(&Spectrum{Name: "mc", WavelengthNM: x, Counts: y},
-			Options{Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.06, GasTemperatureK: 1200}})
+			Options{LineShape: LineShapeVoigt, Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.06, GasTemperatureK: 1200}})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -469,17 +469,23 @@ func TestUncalibratedWarning(t *testing.T) {
 }
 
 // BenchmarkPipeline2048 is the speed target: one whole 2048-pixel spectrum
-// with Hα–Hδ (and weaker members), from parsed arrays to the final result.
+// with Hα–Hδ (and weaker members), from parsed arrays to the final result,
+// with the Voigt line shape of the spectrum (voigt) and the default
+// Stark-shape correction (stark).
 func BenchmarkPipeline2048(b *testing.B) {
 	sp, tr := loadScipy(b, "bench_2048")
 	p := NewPipeline(4096)
-	// Hα–Hδ, the job of testdata/scipy/fit_bench.py.
-	opt := Options{Conditions: diag.Measurement{InstrumentGaussFWHMNM: tr.Inst, GasTemperatureK: tr.Tg}, MaxUpper: 6}
-	b.ReportAllocs()
-	for b.Loop() {
-		if _, err := p.Analyze(sp, opt); err != nil {
-			b.Fatal(err)
-		}
+	for _, shape := range []string{LineShapeVoigt, LineShapeStark} {
+		b.Run(shape, func(b *testing.B) {
+			// Hα–Hδ, the job of testdata/scipy/fit_bench.py.
+			opt := Options{LineShape: shape, Conditions: diag.Measurement{InstrumentGaussFWHMNM: tr.Inst, GasTemperatureK: tr.Tg}, MaxUpper: 6}
+			b.ReportAllocs()
+			for b.Loop() {
+				if _, err := p.Analyze(sp, opt); err != nil {
+					b.Fatal(err)
+				}
+			}
+		})
 	}
 }
 

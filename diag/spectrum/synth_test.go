@@ -40,7 +40,7 @@ func TestSynthesizeAreaAndRoundTrip(t *testing.T) {
 		t.Errorf("Hα area kept to %.2g, want ≤ %.2g", rel, tail+1e-3)
 	}
 	res, err := NewPipeline(4096).Analyze(&Spectrum{Name: "synth", WavelengthNM: cfg.WavelengthNM, Counts: y},
-		Options{Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.2, GasTemperatureK: 1200}})
+		Options{LineShape: LineShapeVoigt, Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.2, GasTemperatureK: 1200}})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -133,6 +133,8 @@ func logRun(t *testing.T, ctx context.Context, a *app, in runInput) string {
 		chromedp.SetValue(chromedp.CSS(`[data-testid=f-instrument-fwhm]`), in.fwhm),
 		chromedp.SetValue(chromedp.CSS(`[data-testid=f-gas-temperature]`), in.tgas),
 		chromedp.SetValue(chromedp.CSS(`[data-testid=f-perturber]`), "none"),
+		// The scipy spectra's lines are Voigt profiles.
+		chromedp.SetValue(chromedp.CSS(`[data-testid=f-line-shape]`), "voigt"),
 		chromedp.SetUploadFiles(chromedp.CSS(`[data-testid=f-spectra]`), []string{abs(t, spectraDir+in.file)}),
 		chromedp.Click(chromedp.CSS(`[data-testid=f-submit]`)),
 		chromedp.WaitVisible(chromedp.CSS(`[data-testid=run-title]`)),
