@@ -1,0 +1,184 @@
+package server
+
+import (
+	"encoding/json"
+	"html"
+	"net/http"
+	"regexp"
+	"strconv"
+	"strings"
+	"testing"
+
+	"glowlog/diag"
+	"glowlog/views"
+)
+
+// fixtureResult decodes the result the run page shows (version v).
+func fixtureResult(t *testing.T, f *showFixture, v string) diag.Result {
+	t.Helper()
+	code, _, body := f.get(t, f.path("/analysis.json?v="+v))
+	if code != http.StatusOK {
+		t.Fatalf("analysis.json: %d %s", code, body)
+	}
+	var out struct {
+		Result diag.Result `json:"result"`
+	}
+	if err := json.Unmarshal([]byte(body), &out); err != nil {
+		t.Fatal(err)
+	}
+	return out.Result
+}
+
+// checkDisplay asserts the issue-8 display parts on a run page or report
+// body: the split σ of n_e and T_exc, every model per line with the used
+// one marked, and the sources with their status words.
+func checkDisplay(t *testing.T, name, body string, d diag.Result) {
+	t.Helper()
+	// Split σ: total, statistical, systematic and every named part with
+	// its size, listed visibly (a table), not only on hover.
+	ne := testidInner(body, "unc-split-ne")
+	if ne == "" {
+		t.Fatalf("%s: no n_e split table", name)
+	}
+	for _, w := range []string{"total 1σ (statistical ⊕ systematic)", "statistical", "systematic"} {
+		if !strings.Contains(ne, w) {
+			t.Errorf("%s: n_e split lacks %q", name, w)
+		}
+	}
+	if len(d.ElectronDensityUncParts) == 0 {
+		t.Fatalf("%s: fixture result has no systematic parts", name)
+	}
+	for _, p := range d.ElectronDensityUncParts {
+		if !strings.Contains(ne, html.EscapeString("systematic: "+p.Name)) {
+			t.Errorf("%s: n_e split lacks the part %q", name, p.Name)
+		}
+		if !strings.Contains(ne, views.SigFig(p.Sigma, 2)) {
+			t.Errorf("%s: n_e split lacks the size %s of %q", name, views.SigFig(p.Sigma, 2), p.Name)
+		}
+	}
+	if d.ElectronDensityUncStatM3 != nil && !strings.Contains(ne, views.SigFig(*d.ElectronDensityUncStatM3, 2)) {
+		t.Errorf("%s: n_e split lacks σ_stat %s", name, views.SigFig(*d.ElectronDensityUncStatM3, 2))
+	}
+	if !strings.Contains(ne, views.SigFig(*d.ElectronDensityUncM3, 2)) {
+		t.Errorf("%s: n_e split lacks the total σ %s", name, views.SigFig(*d.ElectronDensityUncM3, 2))
+	}
+	tx := testidInner(body, "unc-split-texc")
+	if !strings.Contains(tx, "statistical") || !strings.Contains(tx, views.SigFig(*d.ExcitationTemperatureUncStatK, 2)) {
+		t.Errorf("%s: T_exc split = %q, want the statistical σ %s", name, tx, views.SigFig(*d.ExcitationTemperatureUncStatK, 2))
+	}
+	// The shown value carries the total σ.
+	if want := views.ValueUnc(d.ElectronDensityM3, d.ElectronDensityUncM3); !strings.Contains(testidInner(body, "ne-m3"), want) {
+		t.Errorf("%s: n_e = %q, want %q (total σ)", name, testidInner(body, "ne-m3"), want)
+	}
+
+	// Every model per line, the used one marked in words.
+	models := testidInner(body, "line-models")
+	if models == "" {
+		t.Fatalf("%s: no per-model table", name)
+	}
+	nGGC, nSH := 0, 0
+	for _, l := range d.Lines {
+		for _, e := range l.Densities {
+			cell := regexp.MustCompile(`(?s)data-relation="` + regexp.QuoteMeta(e.Relation) + `"[^>]*>(.*?)</td>`).FindStringSubmatch(models)
+			if cell == nil {
+				t.Errorf("%s: %s has no cell for model %s", name, l.Name, e.Relation)
+				continue
+			}
+			if want := views.ValueUnc(&e.ElectronDensityM3, &e.ElectronDensityUncM3); !strings.Contains(cell[1], want) {
+				t.Errorf("%s: %s by %s = %q, want %q", name, l.Name, e.Relation, cell[1], want)
+			}
+			if e.Preferred != strings.Contains(cell[1], ">used<") {
+				t.Errorf("%s: %s by %s: preferred %v but cell %q", name, l.Name, e.Relation, e.Preferred, cell[1])
+			}
+			if strings.HasPrefix(e.Relation, "ggc2003-") {
+				nGGC++
+			}
+			if strings.HasPrefix(e.Relation, "sh99-") {
+				nSH++
+			}
+		}
+	}
+	if nGGC == 0 || nSH == 0 {
+		t.Errorf("%s: fixture has %d GGC and %d SH99 densities, want both models", name, nGGC, nSH)
+	}
+
+	// Sources with status words.
+	src := testidInner(body, "sources")
+	if src == "" {
+		t.Fatalf("%s: no sources section", name)
+	}
+	for _, r := range d.Relations {
+		if !strings.Contains(src, html.EscapeString(r.Source)) {
+			t.Errorf("%s: sources lack the source of %s", name, r.ID)
+		}
+	}
+	consts := testidInner(body, "constant-sources")
+	if len(d.ConstantSources) == 0 {
+		t.Fatalf("%s: fixture has no constant_sources", name)
+	}
+	for _, c := range d.ConstantSources {
+		re := regexp.MustCompile(`(?s)<th scope="row">` + regexp.QuoteMeta(html.EscapeString(c.Name)) + `</th>\s*<td>.*?</td>\s*<td data-testid="constant-status">([^<]*)</td>`)
+		m := re.FindStringSubmatch(consts)
+		if m == nil {
+			t.Errorf("%s: constant %q missing", name, c.Name)
+			continue
+		}
+		if !strings.HasPrefix(m[1], c.Status) {
+			t.Errorf("%s: constant %q status %q, want the word %q", name, c.Name, m[1], c.Status)
+		}
+	}
+	for _, w := range []string{">sourced<", ">cross-checked<", "open (not verified)"} {
+		if !strings.Contains(src, w) {
+			t.Errorf("%s: sources lack the status word %q", name, w)
+		}
+	}
+}
+
+func TestRunPageShowsSplitModelsSources(t *testing.T) {
+	f := newShowFixture(t)
+	d := fixtureResult(t, f, "1")
+	code, _, body := f.get(t, f.path("?v=1"))
+	if code != http.StatusOK {
+		t.Fatalf("run page: %d", code)
+	}
+	checkDisplay(t, "run page", body, d)
+	// The summary: value ± total with the parts on hover and on demand.
+	sum := testidInner(body, "run-summary")
+	if !regexp.MustCompile(`data-testid="ne-m3" title="[^"]*statistical: [^"]*systematic: `).MatchString(body) {
+		t.Error("summary n_e has no title listing the parts")
+	}
+	if !strings.Contains(body, `<details class="more unc-split" data-testid="unc-split">`) || !strings.Contains(sum, "Where the ± comes from") {
+		t.Error("summary has no on-demand list of the σ parts")
+	}
+	if !strings.Contains(body, `href="#sources"`) {
+		t.Error("no section link to the sources")
+	}
+	// The key table's n_e cell is the line's total σ.
+	for _, l := range d.Lines {
+		if l.ElectronDensityM3 == nil || l.DensityLowerLimit {
+			continue
+		}
+		re := regexp.MustCompile(`(?s)<tr data-line="` + strconv.Itoa(l.UpperLevel) + `">.*?data-testid="line-ne"[^>]*>([^<]*)<`)
+		m := re.FindStringSubmatch(testidInner(body, "lines-key"))
+		if m == nil || m[1] != views.ValueUnc(l.ElectronDensityM3, l.ElectronDensityUncM3) {
+			t.Errorf("key table n_e of %s = %v, want %q", l.Name, m, views.ValueUnc(l.ElectronDensityM3, l.ElectronDensityUncM3))
+		}
+	}
+	if !strings.Contains(testidInner(body, "lines-all"), `data-testid="line-unc"`) {
+		t.Error("the All-columns fold lacks the per-line σ parts")
+	}
+}
+
+func TestReportShowsSplitModelsSources(t *testing.T) {
+	f := newShowFixture(t)
+	d := fixtureResult(t, f, "1")
+	code, _, body := f.get(t, f.path("/report?v=1"))
+	if code != http.StatusOK {
+		t.Fatalf("report: %d", code)
+	}
+	checkDisplay(t, "report", body, d)
+	if !strings.Contains(body, `data-testid="line-unc"`) {
+		t.Error("report lacks the per-line σ parts")
+	}
+}
+
