@@ -181,4 +181,3 @@ func TestReportShowsSplitModelsSources(t *testing.T) {
 		t.Error("report lacks the per-line σ parts")
 	}
 }
-
