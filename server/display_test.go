@@ -1,9 +1,13 @@
 package server
 
 import (
+	"bytes"
+	"encoding/csv"
 	"encoding/json"
 	"html"
+	"math"
 	"net/http"
+	"os"
 	"regexp"
 	"strconv"
 	"strings"
@@ -179,5 +183,103 @@ func TestReportShowsSplitModelsSources(t *testing.T) {
 	checkDisplay(t, "report", body, d)
 	if !strings.Contains(body, `data-testid="line-unc"`) {
 		t.Error("report lacks the per-line σ parts")
+	}
+}
+
+// The run log shows n_e and T_exc ± the total σ and says so; the CSV
+// names its σ columns as total and holds the result's total σ.
+func TestRunLogAndCSVTotalSigma(t *testing.T) {
+	f := newShowFixture(t)
+	d := fixtureResult(t, f, "2") // the run's current version
+	code, _, body := f.get(t, "/runs")
+	if code != http.StatusOK {
+		t.Fatalf("run log: %d", code)
+	}
+	if note := testidInner(body, "runs-unc-note"); !strings.Contains(note, "total 1σ") || !strings.Contains(note, "statistical ⊕ systematic") ||
+		!strings.Contains(note, "run's page") {
+		t.Errorf("run log footnote = %q, want it to say σ is total and where the split is", note)
+	}
+	if !strings.Contains(body, "n_e ± total σ (m⁻³)") || !strings.Contains(body, "T_exc ± total σ (K)") {
+		t.Error("run log headers do not say the σ is total")
+	}
+	if got, want := testidInner(body, "run-ne"), views.ValueUnc(d.ElectronDensityM3, d.ElectronDensityUncM3); got != want {
+		t.Errorf("run log n_e = %q, want %q (total σ)", got, want)
+	}
+	code, _, csvBody := f.get(t, "/runs.csv")
+	if code != http.StatusOK {
+		t.Fatalf("runs.csv: %d", code)
+	}
+	rows, err := csv.NewReader(strings.NewReader(csvBody)).ReadAll()
+	if err != nil || len(rows) != 2 {
+		t.Fatalf("csv: %v, %d rows", err, len(rows))
+	}
+	col := map[string]int{}
+	for i, h := range rows[0] {
+		col[h] = i
+	}
+	for h, want := range map[string]*float64{"ne_m3_unc_total_1sigma": d.ElectronDensityUncM3, "texc_K_unc_total_1sigma": d.ExcitationTemperatureUncK} {
+		i, ok := col[h]
+		if !ok {
+			t.Errorf("CSV header lacks %s: %v", h, rows[0])
+			continue
+		}
+		if got := rows[1][i]; got != strconv.FormatFloat(*want, 'g', -1, 64) {
+			t.Errorf("CSV %s = %s, want the total σ %g", h, got, *want)
+		}
+	}
+	// The fixture's total σ really is more than its statistical part.
+	if d.ElectronDensityUncStatM3 == nil || !(*d.ElectronDensityUncM3 > *d.ElectronDensityUncStatM3*1.01) {
+		t.Errorf("fixture n_e σ total %v vs stat %v: cannot tell them apart", d.ElectronDensityUncM3, d.ElectronDensityUncStatM3)
+	}
+}
+
+// The trend legend calls the error bars the total σ.
+func TestTrendLegendTotalSigma(t *testing.T) {
+	items := trendLegend(trendKeys{}, nil, false, false, false, false, true)
+	found := false
+	for _, it := range items {
+		if it.Shape == "bar" {
+			found = strings.Contains(it.Label, "±1σ total")
+		}
+	}
+	if !found {
+		t.Errorf("legend %v has no error bar labelled ±1σ total", items)
+	}
+}
+
+// The API's run summary names its σ as total and each result carries the
+// split.
+func TestAPIRunSummaryTotalSigma(t *testing.T) {
+	f := newAPIFixture(t)
+	id := f.createRun(runJSON)
+	body, err := os.ReadFile("../testdata/example_hbeta.json")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if code, out := f.do(http.MethodPost, "/api/v1/runs/"+strconv.FormatInt(id, 10)+"/measurements", f.token, "application/json", bytes.NewReader(body)); code != http.StatusCreated {
+		t.Fatalf("%d %v", code, out)
+	}
+	_, run := f.do(http.MethodGet, "/api/v1/runs/"+strconv.FormatInt(id, 10), f.token, "", nil)
+	sum := run["summary"].(map[string]any)
+	for _, k := range []string{"electron_density_unc_m3", "excitation_temperature_unc_K"} {
+		if sum[k] == nil {
+			t.Fatalf("summary lacks %s: %v", k, sum)
+		}
+	}
+	if sum["electron_density_unc_total_m3"] != sum["electron_density_unc_m3"] || sum["excitation_temperature_unc_total_K"] != sum["excitation_temperature_unc_K"] {
+		t.Errorf("summary total fields %v", sum)
+	}
+	if k, _ := sum["uncertainty_kind"].(string); !strings.Contains(k, "total 1σ = statistical ⊕ systematic") {
+		t.Errorf("uncertainty_kind = %q", k)
+	}
+	res := run["analysis"].(map[string]any)["results"].([]any)[0].(map[string]any)
+	tot, _ := res["electron_density_unc_m3"].(float64)
+	st, _ := res["electron_density_unc_stat_m3"].(float64)
+	sy, ok := res["electron_density_unc_sys_m3"].(float64)
+	if !ok || math.Abs(math.Hypot(st, sy)-tot) > 1e-6*tot {
+		t.Errorf("result split stat %v ⊕ sys %v ≠ total %v", res["electron_density_unc_stat_m3"], res["electron_density_unc_sys_m3"], tot)
+	}
+	if _, ok := res["excitation_temperature_unc_stat_K"].(float64); !ok {
+		t.Errorf("result lacks excitation_temperature_unc_stat_K: %v", res)
 	}
 }
