@@ -148,7 +148,7 @@ func TestRunPageShowsSplitModelsSources(t *testing.T) {
 	checkDisplay(t, "run page", body, d)
 	// The summary: value ± total with the parts on hover and on demand.
 	sum := testidInner(body, "run-summary")
-	if !regexp.MustCompile(`data-testid="ne-m3" title="[^"]*statistical: [^"]*systematic: `).MatchString(body) {
+	if !regexp.MustCompile(`data-testid="ne-m3" title="[^"]*statistical \(line widths\): [^"]*systematic: `).MatchString(body) {
 		t.Error("summary n_e has no title listing the parts")
 	}
 	if !strings.Contains(body, `<details class="more unc-split" data-testid="unc-split">`) || !strings.Contains(sum, "Where the ± comes from") {

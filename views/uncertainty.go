@@ -20,6 +20,8 @@ type UncSplit struct {
 	Title string
 	// LowerLimit marks a value that is only a lower limit.
 	LowerLimit bool
+	// Note explains how the parts combine ("" when they add in quadrature).
+	Note string
 }
 
 // sigmaText formats a σ with its unit and its size relative to the value
@@ -35,7 +37,7 @@ func sigmaText(sigma, value float64, unit string) string {
 // splitOf builds the split of value v with total σ total, statistical σ
 // stat, systematic σ sys and the named systematic parts. unit is the
 // unit of the parts' text.
-func splitOf(v, total, stat, sys *float64, parts []diag.UncPart, unit string, lower bool) *UncSplit {
+func splitOf(v, total, stat, sys *float64, parts []diag.UncPart, unit, statWhat string, lower bool) *UncSplit {
 	if v == nil {
 		return nil
 	}
@@ -48,9 +50,9 @@ func splitOf(v, total, stat, sys *float64, parts []diag.UncPart, unit string, lo
 		s.Parts = append(s.Parts, KV{K: "total 1σ (statistical ⊕ systematic)", V: sigmaText(*total, *v, unit)})
 	}
 	if stat != nil {
-		s.Parts = append(s.Parts, KV{K: "statistical", V: sigmaText(*stat, *v, unit)})
+		s.Parts = append(s.Parts, KV{K: "statistical (" + statWhat + ")", V: sigmaText(*stat, *v, unit)})
 	} else if total != nil {
-		s.Parts = append(s.Parts, KV{K: "statistical", V: "not known (no σ of the input)"})
+		s.Parts = append(s.Parts, KV{K: "statistical (" + statWhat + ")", V: "not known (no σ of the input)"})
 	}
 	if sys != nil {
 		s.Parts = append(s.Parts, KV{K: "systematic", V: sigmaText(*sys, *v, unit)})
@@ -73,8 +75,12 @@ func NeSplit(d *diag.Result) *UncSplit {
 	if d == nil {
 		return nil
 	}
-	return splitOf(d.ElectronDensityM3, d.ElectronDensityUncM3, d.ElectronDensityUncStatM3, d.ElectronDensityUncSysM3,
-		d.ElectronDensityUncParts, "m⁻³", NeIsLowerLimit(d))
+	s := splitOf(d.ElectronDensityM3, d.ElectronDensityUncM3, d.ElectronDensityUncStatM3, d.ElectronDensityUncSysM3,
+		d.ElectronDensityUncParts, "m⁻³", "line widths", NeIsLowerLimit(d))
+	if s != nil && strings.HasPrefix(d.ElectronDensitySource, "weighted mean of ") {
+		s.Note = "Several lines: each line's systematic parts add in quadrature; the combined value's systematic σ and each part are the lines' values averaged with the n_e weights (taken as fully correlated between lines), so the parts listed add in quadrature to about, not exactly, the systematic σ. When the lines scatter beyond their σ, the σ are scaled by the Birge ratio (see the warnings)."
+	}
+	return s
 }
 
 // NeIsLowerLimit reports whether a result's best n_e is only a lower
@@ -96,7 +102,7 @@ func TexcSplit(d *diag.Result) *UncSplit {
 		parts = []diag.UncPart{{Name: "response calibration", Sigma: *d.ExcitationTemperatureUncSysK}}
 	}
 	s := splitOf(d.ExcitationTemperatureK, d.ExcitationTemperatureUncK, d.ExcitationTemperatureUncStatK,
-		d.ExcitationTemperatureUncSysK, parts, "K", false)
+		d.ExcitationTemperatureUncSysK, parts, "K", "Boltzmann fit", false)
 	if s != nil && d.ExcitationTemperatureUncSysK != nil && *d.ExcitationTemperatureUncSysK == 0 {
 		for _, f := range d.Flags {
 			if f.Code == diag.FlagTexNoCalibrationUnc {
@@ -112,7 +118,7 @@ func TexcSplit(d *diag.Result) *UncSplit {
 // LineNeSplit is the split of one line's preferred n_e (m⁻³).
 func LineNeSplit(l diag.LineResult) *UncSplit {
 	return splitOf(l.ElectronDensityM3, l.ElectronDensityUncM3, l.ElectronDensityUncStatM3, l.ElectronDensityUncSysM3,
-		l.DensityUncParts, "m⁻³", l.DensityLowerLimit)
+		l.DensityUncParts, "m⁻³", "line width", l.DensityLowerLimit)
 }
 
 // lineNe is a line's n_e cell: "value ± total", or "≥ value" for a lower
