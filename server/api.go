@@ -417,16 +417,22 @@ type apiMeasurementIDs struct {
 	Kind            string `json:"kind"`
 }
 
-// apiSummary is a run's current analysis summary.
+// apiSummary is a run's current analysis summary. The *_unc_* values are
+// the total 1σ (statistical ⊕ systematic); the *_unc_total_* fields repeat
+// them under a name that says so, and UncertaintyKind states it for
+// clients (the split is in each result, ?full=1).
 type apiSummary struct {
-	ExcitationTemperatureK    *float64 `json:"excitation_temperature_K"`
-	ExcitationTemperatureUncK *float64 `json:"excitation_temperature_unc_K"`
-	ElectronDensityM3         *float64 `json:"electron_density_m3"`
-	ElectronDensityUncM3      *float64 `json:"electron_density_unc_m3"`
-	GasTemperatureK           *float64 `json:"gas_temperature_K"`
-	NWarnings                 int      `json:"n_warnings"`
-	WarningsWorst             string   `json:"warnings_worst"`
-	AnalysisVersion           int      `json:"analysis_version"`
+	ExcitationTemperatureK         *float64 `json:"excitation_temperature_K"`
+	ExcitationTemperatureUncK      *float64 `json:"excitation_temperature_unc_K"`
+	ExcitationTemperatureUncTotalK *float64 `json:"excitation_temperature_unc_total_K"`
+	ElectronDensityM3              *float64 `json:"electron_density_m3"`
+	ElectronDensityUncM3           *float64 `json:"electron_density_unc_m3"`
+	ElectronDensityUncTotalM3      *float64 `json:"electron_density_unc_total_m3"`
+	UncertaintyKind                string   `json:"uncertainty_kind"`
+	GasTemperatureK                *float64 `json:"gas_temperature_K"`
+	NWarnings                      int      `json:"n_warnings"`
+	WarningsWorst                  string   `json:"warnings_worst"`
+	AnalysisVersion                int      `json:"analysis_version"`
 }
 
 // apiRun is a run as the API shows it.
@@ -484,17 +490,26 @@ type apiAnalysis struct {
 }
 
 type apiResultEntry struct {
-	AttachmentID              int64           `json:"attachment_id"`
-	Attachment                string          `json:"attachment"`
-	Error                     string          `json:"error,omitempty"`
-	ExcitationTemperatureK    *float64        `json:"excitation_temperature_K"`
-	ExcitationTemperatureUncK *float64        `json:"excitation_temperature_unc_K"`
-	ElectronDensityM3         *float64        `json:"electron_density_m3"`
-	ElectronDensityUncM3      *float64        `json:"electron_density_unc_m3"`
-	NWarnings                 int             `json:"n_warnings"`
-	WarningsWorst             string          `json:"warnings_worst"`
-	Result                    json.RawMessage `json:"result,omitempty"`
+	AttachmentID              int64    `json:"attachment_id"`
+	Attachment                string   `json:"attachment"`
+	Error                     string   `json:"error,omitempty"`
+	ExcitationTemperatureK    *float64 `json:"excitation_temperature_K"`
+	ExcitationTemperatureUncK *float64 `json:"excitation_temperature_unc_K"`
+	ElectronDensityM3         *float64 `json:"electron_density_m3"`
+	ElectronDensityUncM3      *float64 `json:"electron_density_unc_m3"`
+	// The split of the total σ above, read from the result.
+	ExcitationTemperatureUncStatK *float64        `json:"excitation_temperature_unc_stat_K"`
+	ExcitationTemperatureUncSysK  *float64        `json:"excitation_temperature_unc_sys_K"`
+	ElectronDensityUncStatM3      *float64        `json:"electron_density_unc_stat_m3"`
+	ElectronDensityUncSysM3       *float64        `json:"electron_density_unc_sys_m3"`
+	ElectronDensityUncSysParts    []diag.UncPart  `json:"electron_density_unc_sys_parts,omitempty"`
+	NWarnings                     int             `json:"n_warnings"`
+	WarningsWorst                 string          `json:"warnings_worst"`
+	Result                        json.RawMessage `json:"result,omitempty"`
 }
+
+// apiUncertaintyKind says what the summary's σ are.
+const apiUncertaintyKind = "total 1σ = statistical ⊕ systematic; the split (electron_density_unc_stat_m3, _sys_m3, _sys_parts; excitation_temperature_unc_stat_K, _sys_K) is in each analysis result (?full=1)"
 
 func toAPIRun(r store.Run) apiRun {
 	return apiRun{ID: r.ID, Title: r.Title, StartedAt: r.StartedAt, Operator: r.OperatorName, Chamber: r.ChamberName,
@@ -503,7 +518,8 @@ func toAPIRun(r store.Run) apiRun {
 		InstrumentFWHMNM: r.InstrumentFWHMNM, GasTemperatureK: r.GasTemperatureK, Perturber: r.Perturber, Notes: r.Notes,
 		Status: r.Status, SignedOffAt: r.SignedOffAt, ApprovedVersion: r.ApprovedVersion, Tags: r.Tags, CreatedAt: r.CreatedAt, UpdatedAt: r.UpdatedAt,
 		Summary: apiSummary{ExcitationTemperatureK: r.TexcK, ExcitationTemperatureUncK: r.TexcUncK, ElectronDensityM3: r.NeM3,
-			ElectronDensityUncM3: r.NeUncM3, GasTemperatureK: r.TgasK, NWarnings: r.NWarnings, WarningsWorst: r.WarnWorst, AnalysisVersion: r.AnalysisVersion}}
+			ElectronDensityUncM3: r.NeUncM3, ExcitationTemperatureUncTotalK: r.TexcUncK, ElectronDensityUncTotalM3: r.NeUncM3,
+			UncertaintyKind: apiUncertaintyKind, GasTemperatureK: r.TgasK, NWarnings: r.NWarnings, WarningsWorst: r.WarnWorst, AnalysisVersion: r.AnalysisVersion}}
 }
 
 // apiGetRun returns a run with its attachments and latest analysis; the
@@ -539,6 +555,19 @@ func (s *Server) apiGetRun(c echo.Context) error {
 			e := apiResultEntry{AttachmentID: res.AttachmentID, Attachment: res.AttachmentName, Error: res.Error,
 				ExcitationTemperatureK: res.TexcK, ExcitationTemperatureUncK: res.TexcUncK, ElectronDensityM3: res.NeM3,
 				ElectronDensityUncM3: res.NeUncM3, NWarnings: res.NWarnings, WarningsWorst: res.WarnWorst}
+			if res.Result != "" {
+				var split struct {
+					TS *float64       `json:"excitation_temperature_unc_stat_K"`
+					TY *float64       `json:"excitation_temperature_unc_sys_K"`
+					NS *float64       `json:"electron_density_unc_stat_m3"`
+					NY *float64       `json:"electron_density_unc_sys_m3"`
+					NP []diag.UncPart `json:"electron_density_unc_sys_parts"`
+				}
+				if json.Unmarshal([]byte(res.Result), &split) == nil {
+					e.ExcitationTemperatureUncStatK, e.ExcitationTemperatureUncSysK = split.TS, split.TY
+					e.ElectronDensityUncStatM3, e.ElectronDensityUncSysM3, e.ElectronDensityUncSysParts = split.NS, split.NY, split.NP
+				}
+			}
 			if full && res.Result != "" {
 				e.Result = json.RawMessage(res.Result)
 			}

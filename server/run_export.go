@@ -11,11 +11,13 @@ import (
 	"glowlog/store"
 )
 
-// runCSVHeader names the export's columns, with units in the names.
+// runCSVHeader names the export's columns, with units in the names. The
+// σ columns hold the total 1σ (statistical ⊕ systematic) of the run's
+// summary; the split is in each result's JSON.
 var runCSVHeader = []string{"id", "title", "started_at_utc", "chamber", "recipe", "source_type", "operator", "status",
 	"gas_mixture", "pressure_Pa", "power_W", "flows", "electrode_gap_mm", "grating_lines_per_mm", "slit_um",
 	"integration_ms", "instrument_fwhm_nm", "gas_temperature_given_K", "perturber",
-	"texc_K", "texc_unc_K", "ne_m3", "ne_unc_m3", "tgas_solved_K", "n_warnings", "analysis_version", "tags", "notes"}
+	"texc_K", "texc_K_unc_total_1sigma", "ne_m3", "ne_m3_unc_total_1sigma", "tgas_solved_K", "n_warnings", "analysis_version", "tags", "notes"}
 
 // exportRuns is GET /runs.csv: every run matching the run list's filters
 // (all pages), as RFC 4180 CSV.

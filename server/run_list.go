@@ -197,7 +197,7 @@ func (s *Server) listRuns(c echo.Context) error {
 		key, label string
 		num        bool
 	}{{"started", "Start (UTC)", true}, {"title", "Title", false}, {"status", "Status", false},
-		{"texc", "T_exc ± σ (K)", true}, {"ne", "n_e ± σ (m⁻³)", true}} {
+		{"texc", "T_exc ± total σ (K)", true}, {"ne", "n_e ± total σ (m⁻³)", true}} {
 		sh := views.SortHeader{Key: h.key, Label: h.label, Num: h.num, Aria: "none"}
 		next := h.key
 		if h.num {

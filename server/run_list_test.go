@@ -187,7 +187,7 @@ func TestRunExportCSV(t *testing.T) {
 	for i, h := range rows[0] {
 		col[h] = i
 	}
-	for _, h := range []string{"texc_K", "texc_unc_K", "ne_m3", "ne_unc_m3", "pressure_Pa", "power_W", "started_at_utc"} {
+	for _, h := range []string{"texc_K", "texc_K_unc_total_1sigma", "ne_m3", "ne_m3_unc_total_1sigma", "pressure_Pa", "power_W", "started_at_utc"} {
 		if _, ok := col[h]; !ok {
 			t.Errorf("header lacks %s", h)
 		}

@@ -70,7 +70,7 @@ func TestRunPageSummaryAndSections(t *testing.T) {
 	for _, h := range heads {
 		names = append(names, regexp.MustCompile(`<[^>]+>`).ReplaceAllString(h[1], ""))
 	}
-	want := []string{"Line", "λ air (nm)", "Area ± σ (spectrum units · nm)", "Stark FWHM ± σ (nm)", "ne ± σ (m⁻³)", "In fit"}
+	want := []string{"Line", "λ air (nm)", "Area ± σ (spectrum units · nm)", "Stark FWHM ± σ (nm)", "ne ± total σ (m⁻³)", "In fit"}
 	if strings.Join(names, "|") != strings.Join(want, "|") {
 		t.Errorf("key columns %q, want %q", names, want)
 	}

@@ -490,6 +490,13 @@ func runSummary(p *runPage) views.RunSummary {
 	case "given":
 		sum.TgasLabel = "(given)"
 	}
+	sum.TexcSplit, sum.NeSplit = views.TexcSplit(d), views.NeSplit(d)
+	if sum.NeSplit != nil && sum.NeSplit.LowerLimit {
+		sum.Ne = sum.NeSplit.Text + " m⁻³"
+		if d.ElectronDensityCM3 != nil {
+			sum.NeCM3 = "≥ " + views.SigFig(*d.ElectronDensityCM3, 3) + " cm⁻³"
+		}
+	}
 	sum.NeSource = d.ElectronDensitySource
 	sum.Problems = len(d.Flags)
 	if len(p.Results) > 1 {

@@ -1044,7 +1044,7 @@ func trendLegend(k trendKeys, used map[int64]bool, control, band, violations, ev
 		out = append(out, views.LegendItem{Label: k.label(id), Colour: hexColour(st.Colour), Shape: st.Shape})
 	}
 	if bars {
-		out = append(out, views.LegendItem{Label: "error bar ±1σ", Colour: "#5b6673", Shape: "bar"})
+		out = append(out, views.LegendItem{Label: "error bar ±1σ total (statistical ⊕ systematic)", Colour: "#5b6673", Shape: "bar"})
 	}
 	if control {
 		out = append(out, views.LegendItem{Label: "centre line", Colour: hexColour(trendCentreColor), Shape: "line"},

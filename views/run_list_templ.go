@@ -804,7 +804,7 @@ func runListBody(p RunListProps) templ.Component {
 				if templ_7745c5c3_Err != nil {
 					return templ_7745c5c3_Err
 				}
-				templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 65, "</span></td><td class=\"num\" data-label=\"T_exc (K)\" data-testid=\"run-texc\">")
+				templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 65, "</span></td><td class=\"num\" data-label=\"T_exc ± total σ (K)\" data-testid=\"run-texc\">")
 				if templ_7745c5c3_Err != nil {
 					return templ_7745c5c3_Err
 				}
@@ -824,14 +824,14 @@ func runListBody(p RunListProps) templ.Component {
 						return templ_7745c5c3_Err
 					}
 				}
-				templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 67, "</td><td class=\"num\" data-label=\"n_e (m⁻³)\" data-testid=\"run-ne\">")
+				templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 67, "</td><td class=\"num\" data-label=\"n_e ± total σ (m⁻³)\" data-testid=\"run-ne\">")
 				if templ_7745c5c3_Err != nil {
 					return templ_7745c5c3_Err
 				}
 				var templ_7745c5c3_Var38 string
 				templ_7745c5c3_Var38, templ_7745c5c3_Err = templ.JoinStringErrs(ValueUnc(r.NeM3, r.NeUncM3))
 				if templ_7745c5c3_Err != nil {
-					return templ.Error{Err: templ_7745c5c3_Err, FileName: `views/run_list.templ`, Line: 220, Col: 98}
+					return templ.Error{Err: templ_7745c5c3_Err, FileName: `views/run_list.templ`, Line: 220, Col: 110}
 				}
 				_, templ_7745c5c3_Err = templ_7745c5c3_Buffer.WriteString(templ.EscapeString(templ_7745c5c3_Var38))
 				if templ_7745c5c3_Err != nil {
@@ -932,7 +932,7 @@ func runListBody(p RunListProps) templ.Component {
 					return templ_7745c5c3_Err
 				}
 			}
-			templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 77, "</tbody></table><p class=\"muted\">Times are UTC. T<sub>exc</sub> is the excitation temperature from the Boltzmann plot (K); n<sub>e</sub> is the electron density from Stark broadening (m⁻³); both ± 1σ, combined over the run's spectra.</p>")
+			templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 77, "</tbody></table><p class=\"muted\" data-testid=\"runs-unc-note\">Times are UTC. T<sub>exc</sub> is the excitation temperature from the Boltzmann plot (K); n<sub>e</sub> is the electron density from Stark broadening (m⁻³). Both are ± the <strong>total 1σ</strong> (statistical ⊕ systematic), inverse-variance combined over the run's spectra; the split into statistical and systematic parts (and each named systematic part) is on each run's page and report, and in the result JSON (the run page's JSON download, or the API's <code>GET /api/v1/runs/:id?full=1</code>).</p>")
 			if templ_7745c5c3_Err != nil {
 				return templ_7745c5c3_Err
 			}
