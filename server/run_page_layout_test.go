@@ -4,6 +4,7 @@ import (
 	"context"
 	"net/http"
 	"regexp"
+	"strconv"
 	"strings"
 	"testing"
 	"time"
@@ -40,8 +41,15 @@ func TestRunPageSummaryAndSections(t *testing.T) {
 	if got := testidInner(block, "tgas"); !strings.Contains(got, "1500") || !strings.Contains(got, "K") {
 		t.Errorf("summary T_g = %q, want the given 1500 K of version 2", got)
 	}
-	if !regexp.MustCompile(`\d+ validity warnings?`).MatchString(testidInner(block, "summary-problems")) {
-		t.Errorf("summary problems = %q, want a count of warnings", testidInner(block, "summary-problems"))
+	// The summary counts what the Warnings section lists as problems and
+	// cautions (distinct codes), not the method notes.
+	m := regexp.MustCompile(`(\d+) problems? or cautions?`).FindStringSubmatch(testidInner(block, "summary-problems"))
+	codes := map[string]bool{}
+	for _, c := range regexp.MustCompile(`data-code="([a-z_0-9]+)" data-severity="(?:problem|caution)"`).FindAllStringSubmatch(body, -1) {
+		codes[c[1]] = true
+	}
+	if m == nil || m[1] != strconv.Itoa(len(codes)) {
+		t.Errorf("summary problems = %q, want the %d problem and caution codes the Warnings section lists", testidInner(block, "summary-problems"), len(codes))
 	}
 	if !strings.Contains(block, `href="/runs/`+idStr(f.runID)+`/edit"`) {
 		t.Errorf("summary has no edit link to /runs/%d/edit", f.runID)

@@ -498,7 +498,9 @@ func runSummary(p *runPage) views.RunSummary {
 		}
 	}
 	sum.NeSource = d.ElectronDensitySource
-	sum.Problems = len(d.Flags)
+	// Problems and cautions, as the Warnings section and the run log count
+	// them (notes are method caveats, listed apart and not counted).
+	sum.Problems, _ = diag.CountWarnings(d.Flags)
 	if len(p.Results) > 1 {
 		sum.Of = fmt.Sprintf("spectrum %s (%d of %d in this version)", r.AttachmentName, p.Sel+1, len(p.Results))
 		t, tu := meanOf(p.Analysis.Results, func(r store.AnalysisResult) (*float64, *float64) { return r.TexcK, r.TexcUncK })

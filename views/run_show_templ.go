@@ -905,7 +905,7 @@ func summaryBlock(p RunShowProps) templ.Component {
 				return templ_7745c5c3_Err
 			}
 			if s.Problems == 0 {
-				templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 59, "<span class=\"ok-text\">No validity warnings.</span> ")
+				templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 59, "<span class=\"ok-text\">No problems or cautions.</span> ")
 				if templ_7745c5c3_Err != nil {
 					return templ_7745c5c3_Err
 				}
@@ -915,9 +915,9 @@ func summaryBlock(p RunShowProps) templ.Component {
 					return templ_7745c5c3_Err
 				}
 				var templ_7745c5c3_Var27 string
-				templ_7745c5c3_Var27, templ_7745c5c3_Err = templ.JoinStringErrs(plural(s.Problems, "validity warning", "validity warnings"))
+				templ_7745c5c3_Var27, templ_7745c5c3_Err = templ.JoinStringErrs(plural(s.Problems, "problem or caution", "problems or cautions"))
 				if templ_7745c5c3_Err != nil {
-					return templ.Error{Err: templ_7745c5c3_Err, FileName: `views/run_show.templ`, Line: 401, Col: 108}
+					return templ.Error{Err: templ_7745c5c3_Err, FileName: `views/run_show.templ`, Line: 401, Col: 113}
 				}
 				_, templ_7745c5c3_Err = templ_7745c5c3_Buffer.WriteString(templ.EscapeString(templ_7745c5c3_Var27))
 				if templ_7745c5c3_Err != nil {
