@@ -4,9 +4,14 @@ import (
 	"context"
 	"fmt"
 	"net/http"
+	"net/http/httptest"
 	"os"
 	"path/filepath"
+	"runtime"
+	"strconv"
+	"strings"
 	"sync"
+	"sync/atomic"
 	"testing"
 	"time"
 
@@ -210,4 +215,78 @@ func BenchmarkTrendEach1MFirstView(b *testing.B) {
 	for _, u := range trendURLs {
 		b.Run(u, func(b *testing.B) { pageTimesWith(b, s, ck, []string{u}, s.DB.DropTrendCache) })
 	}
+}
+
+// countingWriter is a ResponseWriter that counts and drops the body (a
+// recorder would keep a million rows in memory).
+type countingWriter struct {
+	h http.Header
+	n int64
+}
+
+func (w *countingWriter) Header() http.Header         { return w.h }
+func (w *countingWriter) WriteHeader(int)             {}
+func (w *countingWriter) Write(p []byte) (int, error) { w.n += int64(len(p)); return len(p), nil }
+
+// BenchmarkServeMemory1M: the run list, trend pages and the CSV export of
+// all 1 000 000 runs, with serve's soft heap limit; reports the process's
+// peak resident memory (VmHWM), the peak Go heap sampled during the
+// export, and the export's time and size.
+func BenchmarkServeMemory1M(b *testing.B) {
+	s, ck := bench1MServer(b)
+	setServeMemoryLimit()
+	for b.Loop() {
+		for _, u := range append(append([]string{}, runList1MURLs...), trendURLs...) {
+			req := httptest.NewRequest(http.MethodGet, u, nil)
+			req.AddCookie(ck)
+			rec := httptest.NewRecorder()
+			s.ServeHTTP(rec, req)
+			if rec.Code != http.StatusOK {
+				b.Fatalf("GET %s: %d", u, rec.Code)
+			}
+		}
+		var peak atomic.Uint64
+		done := make(chan struct{})
+		go func() {
+			var ms runtime.MemStats
+			for {
+				runtime.ReadMemStats(&ms)
+				if ms.HeapAlloc > peak.Load() {
+					peak.Store(ms.HeapAlloc)
+				}
+				select {
+				case <-done:
+					return
+				case <-time.After(50 * time.Millisecond):
+				}
+			}
+		}()
+		req := httptest.NewRequest(http.MethodGet, "/runs.csv", nil)
+		req.AddCookie(ck)
+		w := &countingWriter{h: http.Header{}}
+		t := time.Now()
+		s.ServeHTTP(w, req)
+		el := time.Since(t)
+		close(done)
+		b.ReportMetric(el.Seconds(), "csv-s")
+		b.ReportMetric(float64(w.n)/1e6, "csv-MB")
+		b.ReportMetric(float64(peak.Load())/(1<<20), "csv-heap-peak-MB")
+	}
+	b.ReportMetric(vmHWM(), "VmHWM-MB")
+}
+
+// vmHWM reads the peak resident set size of this process from /proc.
+func vmHWM() float64 {
+	b, err := os.ReadFile("/proc/self/status")
+	if err != nil {
+		return 0
+	}
+	for _, line := range strings.Split(string(b), "\n") {
+		if strings.HasPrefix(line, "VmHWM:") {
+			f := strings.Fields(line)
+			kb, _ := strconv.ParseFloat(f[1], 64)
+			return kb / 1024
+		}
+	}
+	return 0
 }

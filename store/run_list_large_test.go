@@ -123,3 +123,25 @@ func TestTagsDistinctSorted(t *testing.T) {
 		t.Fatalf("tags %v (%v)", tags, err)
 	}
 }
+
+// TestEachRunTags: the export's rows carry their tags, sorted, read with
+// each run (no map of every run's tags).
+func TestEachRunTags(t *testing.T) {
+	d, op := openRunsDB(t)
+	ctx := context.Background()
+	a, err := d.CreateRun(ctx, op, RunInput{Title: "a", StartedAt: time.Now(), SourceType: "dc_glow", Tags: []string{"zeta", "alpha;beta", `q"uote`}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	b, err := d.CreateRun(ctx, op, RunInput{Title: "b", StartedAt: time.Now(), SourceType: "dc_glow"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	got := map[int64][]string{}
+	if err := d.EachRun(ctx, RunFilter{}, func(r Run) error { got[r.ID] = r.Tags; return nil }); err != nil {
+		t.Fatal(err)
+	}
+	if !slices.Equal(got[a], []string{"alpha;beta", `q"uote`, "zeta"}) || len(got[b]) != 0 || len(got) != 2 {
+		t.Fatalf("tags %v", got)
+	}
+}

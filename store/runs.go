@@ -3,6 +3,7 @@ package store
 import (
 	"context"
 	"database/sql"
+	"encoding/json"
 	"errors"
 	"fmt"
 	"sort"
@@ -595,19 +596,29 @@ func (d *DB) pageIDs(ctx context.Context, f RunFilter, scan bool, limit, offset 
 	return ids, rows.Err()
 }
 
-// EachRun calls fn for every run matching f (all pages, in f's order), for
-// exports. fn must not use the store.
+// EachRun calls fn for every run matching f (all pages, in f's order),
+// with its tags, for exports. fn must not use the store. Rows are read
+// and handed over one at a time (the tags with their run), so an export
+// of a million runs holds one run in memory, not the log.
 func (d *DB) EachRun(ctx context.Context, f RunFilter, fn func(Run) error) error {
 	where, args := f.where()
-	rows, err := d.db.QueryContext(ctx, `SELECT `+runCols+runFrom+where+f.order(), args...)
+	rows, err := d.db.QueryContext(ctx, `SELECT `+runCols+`,
+		(SELECT json_group_array(tag) FROM (SELECT t.tag FROM run_tags t WHERE t.run_id = r.id ORDER BY t.tag))`+
+		runFrom+where+f.order(), args...)
 	if err != nil {
 		return fmt.Errorf("store: export runs: %w", err)
 	}
 	defer rows.Close()
 	for rows.Next() {
-		r, err := scanRun(rows)
+		var tags string
+		r, err := scanRun(scanWith{rows, &tags})
 		if err != nil {
 			return err
+		}
+		if tags != "[]" {
+			if err := json.Unmarshal([]byte(tags), &r.Tags); err != nil {
+				return fmt.Errorf("store: export runs: tags of run %d: %w", r.ID, err)
+			}
 		}
 		if err := fn(r); err != nil {
 			return err
@@ -615,6 +626,14 @@ func (d *DB) EachRun(ctx context.Context, f RunFilter, fn func(Run) error) error
 	}
 	return rows.Err()
 }
+
+// scanWith scans a row with one more column after the run's.
+type scanWith struct {
+	rows  *sql.Rows
+	extra any
+}
+
+func (s scanWith) Scan(dest ...any) error { return s.rows.Scan(append(dest, s.extra)...) }
 
 // Named is a chamber or recipe.
 type Named struct {

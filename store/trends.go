@@ -339,6 +339,13 @@ type trendEntry struct {
 
 const trendCacheSize = 8
 
+// trendCacheMaxPoints bounds the points held by the cache (a point is
+// about 72 bytes, so about 90 MB): on a log of a million runs the series
+// of all runs alone is a million points, and eight of them would need
+// more memory than the server is meant to use. The newest series is
+// always kept.
+const trendCacheMaxPoints = 1_250_000
+
 func (c *trendCache) get(key string) (trendEntry, bool) {
 	c.mu.Lock()
 	defer c.mu.Unlock()
@@ -363,6 +370,14 @@ func (c *trendCache) put(e trendEntry) {
 	c.entries = append(kept, e)
 	if len(c.entries) > trendCacheSize {
 		c.entries = c.entries[len(c.entries)-trendCacheSize:]
+	}
+	n := 0
+	for i := len(c.entries) - 1; i >= 0; i-- {
+		n += len(c.entries[i].ts.Points) + len(c.entries[i].missing)
+		if n > trendCacheMaxPoints && i < len(c.entries)-1 {
+			c.entries = slices.Clone(c.entries[i+1:]) // drop the older ones (and their memory)
+			break
+		}
 	}
 }
 
