@@ -23,6 +23,11 @@ var runsPerPage = 50
 // one of them; the CSV export has them all).
 var runCountCap = 10000
 
+// runTextCountCap is the bound when the filter searches text (words or
+// gas): such a filter is checked run by run, with no index to count from,
+// so the count stops sooner.
+var runTextCountCap = 1000
+
 // runListForm is the run list's query string (a GET form, so that every
 // filtered view is a shareable URL).
 type runListForm struct {
@@ -161,7 +166,11 @@ func (s *Server) listRuns(c echo.Context) error {
 		}
 	}
 	rf.Limit, rf.Offset = runsPerPage, (page-1)*runsPerPage
-	runs, total, more, err := s.DB.ListRunsCapped(ctx, rf, runCountCap)
+	countCap := runCountCap
+	if rf.Query != "" || rf.Gas != "" {
+		countCap = runTextCountCap
+	}
+	runs, total, more, err := s.DB.ListRunsCapped(ctx, rf, countCap)
 	if err != nil {
 		return err
 	}

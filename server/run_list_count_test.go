@@ -40,6 +40,20 @@ func TestRunListCountCapped(t *testing.T) {
 	if got := listedIDs(body); len(got) != 1 || !strings.Contains(body, "5 runs · showing 5–5") {
 		t.Fatalf("last page: runs %v, %s", got, between(body, `data-testid="run-total"`, "</span>"))
 	}
+	// A text search has its own, smaller bound.
+	runCountCap, runsPerPage = 100, 50
+	oldText := runTextCountCap
+	runTextCountCap = 1
+	t.Cleanup(func() { runTextCountCap = oldText })
+	body = f.get("/runs?gas=H2", sess).Body.String()
+	if !strings.Contains(body, "5 runs") || strings.Contains(body, "more than") {
+		t.Fatalf("text search, page of 50 holds all: %s", between(body, `data-testid="run-total"`, "</span>"))
+	}
+	runsPerPage = 1
+	body = f.get("/runs?gas=H2", sess).Body.String()
+	if !strings.Contains(body, "more than 2 runs") {
+		t.Fatalf("text search over its bound: %s", between(body, `data-testid="run-total"`, "</span>"))
+	}
 }
 
 func between(s, from, to string) string {
