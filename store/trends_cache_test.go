@@ -118,3 +118,24 @@ func TestTrendCacheBoundedByPoints(t *testing.T) {
 		t.Fatalf("after a huge series, a new one replaces it: %d entries", len(c.entries))
 	}
 }
+
+// TestTrendPointCompact: a trend point is 56 bytes without pointers, so
+// that the cache's bound in points is a bound in memory and cached
+// series of a million runs are not scanned by the garbage collector.
+func TestTrendPointCompact(t *testing.T) {
+	typ := reflect.TypeOf(TrendPoint{})
+	if typ.Size() != 56 {
+		t.Fatalf("TrendPoint is %d bytes, want 56", typ.Size())
+	}
+	for i := range typ.NumField() {
+		switch typ.Field(i).Type.Kind() {
+		case reflect.Int64, reflect.Float64:
+		default:
+			t.Fatalf("field %s is a %s: only numbers keep a point pointer-free", typ.Field(i).Name, typ.Field(i).Type)
+		}
+	}
+	p := TrendPoint{Started: 1_780_000_000}
+	if got := p.StartedAt(); !got.Equal(time.Unix(1_780_000_000, 0)) || got.Location() != time.UTC {
+		t.Fatalf("StartedAt %v", got)
+	}
+}
