@@ -722,7 +722,7 @@ func (s *Server) apiTrends(c echo.Context) error {
 	}
 	pts := make([]apiTrendPoint, 0, len(ts.Points))
 	for _, p := range ts.Points {
-		q := apiTrendPoint{RunID: p.RunID, StartedAt: p.StartedAt, X: p.X, Y: p.Y}
+		q := apiTrendPoint{RunID: p.RunID, StartedAt: p.StartedAt(), X: p.X, Y: p.Y}
 		if p.YUnc > 0 {
 			u := p.YUnc
 			q.YUnc = &u

@@ -225,13 +225,13 @@ func boardTile(ch store.BoardChamber, events map[int64]store.ChamberEvent, rules
 			y, u := p.Y, p.YUnc
 			q.Latest = views.ValueUnc(&y, &u) + " " + field.Unit
 			q.LatestHref = "/runs/" + strconv.FormatInt(p.RunID, 10)
-			q.LatestWhen = p.StartedAt.Format("2006-01-02")
+			q.LatestWhen = p.StartedAt().Format("2006-01-02")
 			q.Sparkline = sparkline(st, field, bq.Label)
 		}
 		switch st.state {
 		case boardOut, boardWatch:
 			v := st.latestV
-			d := fmt.Sprintf("%s: %s at run #%d (%s)", bq.Label, v.Rule.String(), st.latestP.RunID, st.latestP.StartedAt.Format("2006-01-02"))
+			d := fmt.Sprintf("%s: %s at run #%d (%s)", bq.Label, v.Rule.String(), st.latestP.RunID, st.latestP.StartedAt().Format("2006-01-02"))
 			if st.nViol > 1 {
 				d += fmt.Sprintf("; %d of the last %d runs flagged", st.nViol, len(st.recent))
 			}
@@ -239,8 +239,8 @@ func boardTile(ch store.BoardChamber, events map[int64]store.ChamberEvent, rules
 				d += fmt.Sprintf("; none of the last %d", boardCurrent)
 			}
 			t.Details = append(t.Details, d)
-			if firing == "" || st.latestP.StartedAt.After(firingAt) {
-				firing, firingAt = bq.Key, st.latestP.StartedAt
+			if firing == "" || st.latestP.StartedAt().After(firingAt) {
+				firing, firingAt = bq.Key, st.latestP.StartedAt()
 			}
 		case boardUnknown:
 			t.Details = append(t.Details, fmt.Sprintf("%s: fewer than 2 baseline runs with a value, so no control limits", bq.Label))

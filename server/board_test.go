@@ -229,7 +229,7 @@ func TestBoardState(t *testing.T) {
 	mk := func(vals ...float64) []store.TrendPoint {
 		var pts []store.TrendPoint
 		for i, v := range vals {
-			pts = append(pts, store.TrendPoint{RunID: int64(i + 1), Y: v, StartedAt: time.Unix(int64(1.78e9+3600*i), 0).UTC()})
+			pts = append(pts, store.TrendPoint{RunID: int64(i + 1), Y: v, Started: int64(1.78e9 + 3600*i)})
 		}
 		return pts
 	}

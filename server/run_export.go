@@ -28,10 +28,6 @@ func (s *Server) exportRuns(c echo.Context) error {
 	if err != nil {
 		return err
 	}
-	tags, err := s.DB.RunTags(ctx)
-	if err != nil {
-		return err
-	}
 	h := c.Response().Header()
 	h.Set(echo.HeaderContentType, "text/csv; charset=utf-8")
 	h.Set(echo.HeaderContentDisposition, `attachment; filename="glowlog-runs.csv"`)
@@ -48,7 +44,7 @@ func (s *Server) exportRuns(c echo.Context) error {
 			csvNum(r.GratingLMM), csvNum(r.SlitUM), csvNum(r.IntegrationMS), csvNum(r.InstrumentFWHMNM),
 			csvNum(r.GasTemperatureK), csvText(r.Perturber), csvNum(r.TexcK), csvNum(r.TexcUncK), csvNum(r.NeM3),
 			csvNum(r.NeUncM3), csvNum(r.TgasK), strconv.Itoa(r.NWarnings), strconv.Itoa(r.AnalysisVersion),
-			csvText(strings.Join(tags[r.ID], ";")), csvText(r.Notes)})
+			csvText(strings.Join(r.Tags, ";")), csvText(r.Notes)})
 	})
 	w.Flush()
 	if err == nil {

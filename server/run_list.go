@@ -15,7 +15,18 @@ import (
 )
 
 // runsPerPage is the run list's page size.
-const runsPerPage = 50
+var runsPerPage = 50
+
+// runCountCap bounds the run list's count: runs are counted up to this
+// many past the page shown, and beyond that the page says "more than N
+// runs" (an exact count of a broad filter over a million runs reads every
+// one of them; the CSV export has them all).
+var runCountCap = 10000
+
+// runTextCountCap is the bound when the filter searches text (words or
+// gas): such a filter is checked run by run, with no index to count from,
+// so the count stops sooner.
+var runTextCountCap = 1000
 
 // runListForm is the run list's query string (a GET form, so that every
 // filtered view is a shareable URL).
@@ -155,17 +166,24 @@ func (s *Server) listRuns(c echo.Context) error {
 		}
 	}
 	rf.Limit, rf.Offset = runsPerPage, (page-1)*runsPerPage
-	runs, total, err := s.DB.ListRuns(ctx, rf)
+	countCap := runCountCap
+	if rf.Query != "" || rf.Gas != "" {
+		countCap = runTextCountCap
+	}
+	runs, total, more, err := s.DB.ListRunsCapped(ctx, rf, countCap)
 	if err != nil {
 		return err
 	}
 	pages := max(1, (total+runsPerPage-1)/runsPerPage)
+	if more {
+		pages = (total + runsPerPage) / runsPerPage // at least total+1 runs
+	}
 	if page > pages && total > 0 {
 		v := f.values()
 		v.Set("page", strconv.Itoa(pages))
 		return c.Redirect(http.StatusSeeOther, hrefWith("/runs", v))
 	}
-	p := views.RunListProps{Layout: s.layout(c, "Run log", "runs"), Sort: f.Sort, Total: total, Page: page, Pages: pages,
+	p := views.RunListProps{Layout: s.layout(c, "Run log", "runs"), Sort: f.Sort, Total: total, More: more, Page: page, Pages: pages,
 		Filter: views.RunListFilter{Query: f.Query, Chamber: f.Chamber, Recipe: f.Recipe, Source: f.Source, Gas: f.Gas,
 			From: f.From, To: f.To, Status: f.Status, Tag: f.Tag, Operator: f.Operator},
 		Filtered: f.filtered(), CSVHref: hrefWith("/runs.csv", f.values()), Headers: map[string]views.SortHeader{}}

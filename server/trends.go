@@ -272,7 +272,7 @@ func (s *Server) trendGroups(c echo.Context, p *trendPlan) ([]trendGroup, error)
 					if i < p.baseN {
 						base = append(base, pt.Y)
 					}
-				} else if !pt.StartedAt.Before(p.baseFrom) && pt.StartedAt.Before(p.baseTo) {
+				} else if !pt.StartedAt().Before(p.baseFrom) && pt.StartedAt().Before(p.baseTo) {
 					base = append(base, pt.Y)
 				}
 			}
@@ -280,7 +280,7 @@ func (s *Server) trendGroups(c echo.Context, p *trendPlan) ([]trendGroup, error)
 			for i, pt := range ts.Points {
 				in := i < p.baseN
 				if !p.baseFrom.IsZero() {
-					in = !pt.StartedAt.Before(p.baseFrom) && pt.StartedAt.Before(p.baseTo)
+					in = !pt.StartedAt().Before(p.baseFrom) && pt.StartedAt().Before(p.baseTo)
 				}
 				if in {
 					if !g.HasBase {
@@ -707,7 +707,7 @@ func (b *trendBuilt) svg(shift vg.Length) (string, error) {
 			if b.in.y.Unit != "" {
 				val += " " + b.in.y.Unit
 			}
-			tip := fmt.Sprintf("Run #%d · %s UTC · %s · %s %s", pt.RunID, pt.StartedAt.Format("2006-01-02 15:04"), b.in.keys.label(k),
+			tip := fmt.Sprintf("Run #%d · %s UTC · %s · %s %s", pt.RunID, pt.StartedAt().Format("2006-01-02 15:04"), b.in.keys.label(k),
 				b.in.y.Label, val)
 			if !b.in.x.Time {
 				tip += " at " + b.in.x.Label + " " + fmtQ(b.in.x, pt.X)
@@ -958,7 +958,7 @@ func (s *Server) showTrends(c echo.Context) error {
 		}
 		g := groups[fr.group]
 		pt := g.Series.Points[fr.index]
-		row := views.ViolationRow{RunID: pt.RunID, Title: titles[pt.RunID], Started: pt.StartedAt.Format("2006-01-02 15:04"),
+		row := views.ViolationRow{RunID: pt.RunID, Title: titles[pt.RunID], Started: pt.StartedAt().Format("2006-01-02 15:04"),
 			Group: g.Label, Value: fmtQ(p.y, pt.Y)}
 		var names, sources []string
 		for _, r := range fr.rules {
@@ -1124,7 +1124,7 @@ func (s *Server) exportTrends(c echo.Context) error {
 			if p.x.Time { // Unix seconds on the axis, RFC 3339 in files
 				x = time.Unix(int64(pt.X), 0).UTC().Format(time.RFC3339)
 			}
-			rec := []string{strconv.FormatInt(pt.RunID, 10), pt.StartedAt.UTC().Format(time.RFC3339), csvText(g.Label), x, num(pt.Y), unc}
+			rec := []string{strconv.FormatInt(pt.RunID, 10), pt.StartedAt().UTC().Format(time.RFC3339), csvText(g.Label), x, num(pt.Y), unc}
 			if p.control {
 				if g.Limits != nil {
 					rec = append(rec, num(g.Limits.Center), num(g.Limits.LCL), num(g.Limits.UCL), strings.Join(byIdx[i], "; "))

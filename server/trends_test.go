@@ -139,7 +139,7 @@ func TestTrendSVGColours(t *testing.T) {
 	var pts []store.TrendPoint
 	for i := range 12 {
 		pts = append(pts, store.TrendPoint{RunID: int64(i + 1), X: float64(1.78e9 + 3600*i), Y: 3000 + 10*float64(i%3), YUnc: 40,
-			ChamberID: int64(1 + i%2), StartedAt: time.Unix(int64(1.78e9+3600*i), 0).UTC()})
+			ChamberID: int64(1 + i%2), Started: int64(1.78e9 + 3600*i)})
 	}
 	keys := trendKeys{by: "chamber", name: map[int64]string{1: "A", 2: "B"}, pos: map[int64]int{1: 0, 2: 1}}
 	svgs, _, err := drawTrendCharts([]trendChartIn{{groups: []trendGroup{{Label: "all", Series: store.TrendSeries{X: x, Y: y, Points: pts}}},

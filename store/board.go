@@ -124,7 +124,7 @@ func (d *DB) boardPoints(ctx context.Context, chamberID int64, f TrendField, tai
 		if err := rows.Scan(&p.RunID, &at, &p.Y, &u); err != nil {
 			return nil, err
 		}
-		p.StartedAt = time.Unix(at, 0).UTC()
+		p.Started = at
 		p.X = float64(at)
 		if u.Valid && u.Float64 > 0 {
 			p.YUnc = u.Float64

@@ -3,6 +3,7 @@ package store
 import (
 	"context"
 	"database/sql"
+	"encoding/json"
 	"errors"
 	"fmt"
 	"sort"
@@ -409,10 +410,31 @@ type RunFilter struct {
 	Offset int
 }
 
+// sortIndexed are the sort keys with an index of their own besides
+// started (runs_texc, runs_ne, runs_title).
+var sortIndexed = map[string]bool{"texc": true, "ne": true, "title": true}
+
+// sortScanMin is the match count above which a page sorted by an indexed
+// column is read in that index's order.
+const sortScanMin = 10000
+
 var sortCols = map[string]string{"started": "r.started_at", "texc": "r.texc_k", "ne": "r.ne_m3", "title": "r.title", "status": "r.status", "id": "r.id"}
 
 // where builds the WHERE clause and arguments of a filter.
-func (f RunFilter) where() (string, []any) {
+func (f RunFilter) where() (string, []any) { return f.whereFor(false) }
+
+// whereFor is where; with scanSort, the conditions on indexed columns are
+// written so that SQLite cannot search those indexes (a unary + on the
+// column, EXISTS for the tag), leaving it to read the runs in the order
+// of the sort column's own index and stop at the page. ListRunsCapped
+// does so when the filter is known to match many runs.
+func (f RunFilter) whereFor(scanSort bool) (string, []any) {
+	col := func(c string) string {
+		if scanSort {
+			return "+" + c
+		}
+		return c
+	}
 	var conds []string
 	var args []any
 	if q := strings.TrimSpace(f.Query); q != "" {
@@ -423,31 +445,35 @@ func (f RunFilter) where() (string, []any) {
 		}
 	}
 	if f.ChamberID != 0 {
-		conds, args = append(conds, "r.chamber_id = ?"), append(args, f.ChamberID)
+		conds, args = append(conds, col("r.chamber_id")+" = ?"), append(args, f.ChamberID)
 	}
 	if f.RecipeID != 0 {
-		conds, args = append(conds, "r.recipe_id = ?"), append(args, f.RecipeID)
+		conds, args = append(conds, col("r.recipe_id")+" = ?"), append(args, f.RecipeID)
 	}
 	if f.SourceType != "" {
-		conds, args = append(conds, "r.source_type = ?"), append(args, f.SourceType)
+		conds, args = append(conds, col("r.source_type")+" = ?"), append(args, f.SourceType)
 	}
 	if g := strings.TrimSpace(f.Gas); g != "" {
 		conds, args = append(conds, `r.gas_mixture LIKE ? ESCAPE '\'`), append(args, "%"+likeEscape(g)+"%")
 	}
 	if !f.From.IsZero() {
-		conds, args = append(conds, "r.started_at >= ?"), append(args, f.From.Unix())
+		conds, args = append(conds, col("r.started_at")+" >= ?"), append(args, f.From.Unix())
 	}
 	if !f.To.IsZero() {
-		conds, args = append(conds, "r.started_at < ?"), append(args, f.To.Unix())
+		conds, args = append(conds, col("r.started_at")+" < ?"), append(args, f.To.Unix())
 	}
 	if f.Status != "" {
-		conds, args = append(conds, "r.status = ?"), append(args, f.Status)
+		conds, args = append(conds, col("r.status")+" = ?"), append(args, f.Status)
 	}
 	if f.Tag != "" {
-		conds, args = append(conds, "EXISTS (SELECT 1 FROM run_tags t WHERE t.run_id = r.id AND t.tag = ?)"), append(args, strings.ToLower(f.Tag))
+		c := "r.id IN (SELECT t.run_id FROM run_tags t WHERE t.tag = ?)" // read from the tag's index
+		if scanSort {
+			c = "EXISTS (SELECT 1 FROM run_tags t WHERE t.run_id = r.id AND t.tag = ?)" // checked per run
+		}
+		conds, args = append(conds, c), append(args, strings.ToLower(f.Tag))
 	}
 	if f.OperatorID != 0 {
-		conds, args = append(conds, "r.operator_id = ?"), append(args, f.OperatorID)
+		conds, args = append(conds, col("r.operator_id")+" = ?"), append(args, f.OperatorID)
 	}
 	if len(conds) == 0 {
 		return "", nil
@@ -477,46 +503,122 @@ func (f RunFilter) order() string {
 
 // ListRuns returns one page of runs matching f and the total count.
 func (d *DB) ListRuns(ctx context.Context, f RunFilter) ([]Run, int, error) {
+	runs, total, _, err := d.ListRunsCapped(ctx, f, 0)
+	return runs, total, err
+}
+
+// ListRunsCapped is ListRuns with a bounded count: matching runs are
+// counted only up to the end of the requested page plus countCap more
+// (countCap 0: no bound). more is true when the count stopped at that
+// bound, and total is then a lower bound ("more than total"). On a large
+// log an exact count of a broad filter reads every matching row, while
+// the page itself needs only the rows up to it.
+//
+// The page is read in two steps: the ids of the page's runs from the runs
+// table alone (so that the sort and the skipped rows of a deep page cost
+// no joins), then those runs with their operator, chamber and recipe
+// names.
+func (d *DB) ListRunsCapped(ctx context.Context, f RunFilter, countCap int) (runs []Run, total int, more bool, err error) {
 	where, args := f.where()
-	var total int
-	if err := d.db.QueryRowContext(ctx, `SELECT count(*) FROM runs r`+where, args...).Scan(&total); err != nil {
-		return nil, 0, fmt.Errorf("store: count runs: %w", err)
-	}
 	limit := f.Limit
 	if limit <= 0 {
 		limit = 50
 	}
 	limit = min(limit, 1000)
-	rows, err := d.db.QueryContext(ctx, `SELECT `+runCols+runFrom+where+f.order()+` LIMIT ? OFFSET ?`,
-		append(args, limit, max(f.Offset, 0))...)
+	offset := max(f.Offset, 0)
+	if countCap > 0 {
+		bound := offset + limit + countCap
+		err = d.db.QueryRowContext(ctx, `SELECT count(*) FROM (SELECT 1 FROM runs r`+where+` LIMIT ?)`,
+			append(append([]any(nil), args...), bound+1)...).Scan(&total)
+		if total > bound {
+			total, more = bound, true
+		}
+	} else {
+		err = d.db.QueryRowContext(ctx, `SELECT count(*) FROM runs r`+where, args...).Scan(&total)
+	}
 	if err != nil {
-		return nil, 0, fmt.Errorf("store: list runs: %w", err)
+		return nil, 0, false, fmt.Errorf("store: count runs: %w", err)
+	}
+	scan := (more || total > sortScanMin) && sortIndexed[strings.TrimPrefix(f.Sort, "-")]
+	ids, err := d.pageIDs(ctx, f, scan, limit, offset)
+	if err != nil {
+		return nil, 0, false, err
+	}
+	if len(ids) == 0 {
+		return nil, total, more, nil
+	}
+	rows, err := d.db.QueryContext(ctx, `SELECT `+runCols+runFrom+` WHERE r.id IN (?`+strings.Repeat(",?", len(ids)-1)+`)`, ids...)
+	if err != nil {
+		return nil, 0, false, fmt.Errorf("store: list runs: %w", err)
 	}
 	defer rows.Close()
-	var out []Run
+	byID := make(map[int64]Run, len(ids))
 	for rows.Next() {
 		r, err := scanRun(rows)
 		if err != nil {
-			return nil, 0, err
+			return nil, 0, false, err
 		}
-		out = append(out, r)
+		byID[r.ID] = r
 	}
-	return out, total, rows.Err()
+	if err := rows.Err(); err != nil {
+		return nil, 0, false, err
+	}
+	runs = make([]Run, 0, len(ids))
+	for _, id := range ids {
+		if r, ok := byID[id.(int64)]; ok { // a run deleted between the two reads is left out
+			runs = append(runs, r)
+		}
+	}
+	return runs, total, more, nil
 }
 
-// EachRun calls fn for every run matching f (all pages, in f's order), for
-// exports. fn must not use the store.
+// pageIDs returns the ids of one page of runs matching f in f's order.
+// With scan, a sort column with its own index (migration 0015) is read in
+// index order (for a filter that matches many runs: the page is found
+// after a few rows per page row); without, a filter is read from its own
+// index and its runs sorted (best when it matches few).
+func (d *DB) pageIDs(ctx context.Context, f RunFilter, scan bool, limit, offset int) ([]any, error) {
+	where, args := f.whereFor(scan)
+	rows, err := d.db.QueryContext(ctx, `SELECT r.id FROM runs r`+where+f.order()+` LIMIT ? OFFSET ?`,
+		append(args, limit, offset)...)
+	if err != nil {
+		return nil, fmt.Errorf("store: list runs: %w", err)
+	}
+	defer rows.Close()
+	var ids []any
+	for rows.Next() {
+		var id int64
+		if err := rows.Scan(&id); err != nil {
+			return nil, err
+		}
+		ids = append(ids, id)
+	}
+	return ids, rows.Err()
+}
+
+// EachRun calls fn for every run matching f (all pages, in f's order),
+// with its tags, for exports. fn must not use the store. Rows are read
+// and handed over one at a time (the tags with their run), so an export
+// of a million runs holds one run in memory, not the log.
 func (d *DB) EachRun(ctx context.Context, f RunFilter, fn func(Run) error) error {
 	where, args := f.where()
-	rows, err := d.db.QueryContext(ctx, `SELECT `+runCols+runFrom+where+f.order(), args...)
+	rows, err := d.db.QueryContext(ctx, `SELECT `+runCols+`,
+		(SELECT json_group_array(tag) FROM (SELECT t.tag FROM run_tags t WHERE t.run_id = r.id ORDER BY t.tag))`+
+		runFrom+where+f.order(), args...)
 	if err != nil {
 		return fmt.Errorf("store: export runs: %w", err)
 	}
 	defer rows.Close()
 	for rows.Next() {
-		r, err := scanRun(rows)
+		var tags string
+		r, err := scanRun(scanWith{rows, &tags})
 		if err != nil {
 			return err
+		}
+		if tags != "[]" {
+			if err := json.Unmarshal([]byte(tags), &r.Tags); err != nil {
+				return fmt.Errorf("store: export runs: tags of run %d: %w", r.ID, err)
+			}
 		}
 		if err := fn(r); err != nil {
 			return err
@@ -524,6 +626,14 @@ func (d *DB) EachRun(ctx context.Context, f RunFilter, fn func(Run) error) error
 	}
 	return rows.Err()
 }
+
+// scanWith scans a row with one more column after the run's.
+type scanWith struct {
+	rows  *sql.Rows
+	extra any
+}
+
+func (s scanWith) Scan(dest ...any) error { return s.rows.Scan(append(dest, s.extra)...) }
 
 // Named is a chamber or recipe.
 type Named struct {

@@ -72,15 +72,21 @@ func (f TrendField) AxisLabel() string {
 
 // TrendPoint is one run in a trend series.
 type TrendPoint struct {
-	RunID     int64
-	StartedAt time.Time
-	X, Y      float64
+	RunID int64
+	// Started is the run's start time in Unix seconds (StartedAt gives
+	// it as a time): a point holds no pointer, so a cached series of a
+	// million runs is 56 MB that the garbage collector need not scan.
+	Started int64
+	X, Y    float64
 	// YUnc is the 1σ uncertainty of Y, 0 when unknown.
 	YUnc float64
 	// ChamberID and RecipeID are the run's chamber and recipe (0: none),
 	// for colouring series.
 	ChamberID, RecipeID int64
 }
+
+// StartedAt is the run's start time (UTC).
+func (p TrendPoint) StartedAt() time.Time { return time.Unix(p.Started, 0).UTC() }
 
 // TrendSeries is the series of one trend: the runs matching a filter that
 // have both values, ordered by X (then run id).
@@ -251,7 +257,7 @@ func (d *DB) trendRead(ctx context.Context, f RunFilter, xField, yField, cond st
 			missing[p.RunID] = true
 			continue
 		}
-		p.StartedAt, p.X, p.Y = time.Unix(started, 0).UTC(), x.Float64, y.Float64
+		p.Started, p.X, p.Y = started, x.Float64, y.Float64
 		if u.Valid && u.Float64 > 0 {
 			p.YUnc = u.Float64
 		}
@@ -339,6 +345,13 @@ type trendEntry struct {
 
 const trendCacheSize = 8
 
+// trendCacheMaxPoints bounds the points held by the cache (a point is 56
+// bytes, so about 120 MB): on a log of a million runs the series of all
+// runs alone is a million points, and eight of them would need more
+// memory than the server is meant to use. The newest series is always
+// kept.
+const trendCacheMaxPoints = 2_250_000
+
 func (c *trendCache) get(key string) (trendEntry, bool) {
 	c.mu.Lock()
 	defer c.mu.Unlock()
@@ -363,6 +376,14 @@ func (c *trendCache) put(e trendEntry) {
 	c.entries = append(kept, e)
 	if len(c.entries) > trendCacheSize {
 		c.entries = c.entries[len(c.entries)-trendCacheSize:]
+	}
+	n := 0
+	for i := len(c.entries) - 1; i >= 0; i-- {
+		n += len(c.entries[i].ts.Points) + len(c.entries[i].missing)
+		if n > trendCacheMaxPoints && i < len(c.entries)-1 {
+			c.entries = slices.Clone(c.entries[i+1:]) // drop the older ones (and their memory)
+			break
+		}
 	}
 }
 

@@ -90,3 +90,52 @@ func mustAttach(t *testing.T, d *DB, runID int64) int64 {
 	}
 	return id
 }
+
+// TestTrendCacheBoundedByPoints: the cache drops older series once the
+// points it holds pass its bound, always keeping the newest.
+func TestTrendCacheBoundedByPoints(t *testing.T) {
+	var c trendCache
+	entry := func(key string, n int) trendEntry {
+		return trendEntry{key: key, ts: TrendSeries{Points: make([]TrendPoint, n)}}
+	}
+	third := trendCacheMaxPoints / 3
+	c.put(entry("a", third))
+	c.put(entry("b", third))
+	c.put(entry("c", third))
+	if len(c.entries) != 3 {
+		t.Fatalf("three thirds of the bound: %d entries kept, want 3", len(c.entries))
+	}
+	c.put(entry("d", third))
+	if _, ok := c.get("a"); ok || len(c.entries) != 3 {
+		t.Fatalf("over the bound: oldest should go, %d entries", len(c.entries))
+	}
+	c.put(entry("huge", trendCacheMaxPoints+1))
+	if len(c.entries) != 1 || c.entries[0].key != "huge" {
+		t.Fatalf("one series over the bound is kept alone: %d entries", len(c.entries))
+	}
+	c.put(entry("small", 10))
+	if len(c.entries) != 1 || c.entries[0].key != "small" {
+		t.Fatalf("after a huge series, a new one replaces it: %d entries", len(c.entries))
+	}
+}
+
+// TestTrendPointCompact: a trend point is 56 bytes without pointers, so
+// that the cache's bound in points is a bound in memory and cached
+// series of a million runs are not scanned by the garbage collector.
+func TestTrendPointCompact(t *testing.T) {
+	typ := reflect.TypeOf(TrendPoint{})
+	if typ.Size() != 56 {
+		t.Fatalf("TrendPoint is %d bytes, want 56", typ.Size())
+	}
+	for i := range typ.NumField() {
+		switch typ.Field(i).Type.Kind() {
+		case reflect.Int64, reflect.Float64:
+		default:
+			t.Fatalf("field %s is a %s: only numbers keep a point pointer-free", typ.Field(i).Name, typ.Field(i).Type)
+		}
+	}
+	p := TrendPoint{Started: 1_780_000_000}
+	if got := p.StartedAt(); !got.Equal(time.Unix(1_780_000_000, 0)) || got.Location() != time.UTC {
+		t.Fatalf("StartedAt %v", got)
+	}
+}

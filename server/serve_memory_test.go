@@ -1,0 +1,22 @@
+package server
+
+import (
+	"runtime/debug"
+	"testing"
+)
+
+// TestServeMemoryLimit: serve sets its soft heap limit, and leaves one
+// given by GOMEMLIMIT alone.
+func TestServeMemoryLimit(t *testing.T) {
+	before := debug.SetMemoryLimit(-1)
+	t.Cleanup(func() { debug.SetMemoryLimit(before) })
+	t.Setenv("GOMEMLIMIT", "")
+	if got := setServeMemoryLimit(); got != serveMemoryLimit {
+		t.Fatalf("limit %d, want %d", got, serveMemoryLimit)
+	}
+	debug.SetMemoryLimit(300 << 20)
+	t.Setenv("GOMEMLIMIT", "300MiB")
+	if got := setServeMemoryLimit(); got != 300<<20 {
+		t.Fatalf("with GOMEMLIMIT set: limit %d, want it untouched (%d)", got, 300<<20)
+	}
+}
