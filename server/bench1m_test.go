@@ -85,16 +85,7 @@ func bench1MServer(b *testing.B) (*Server, *http.Cookie) {
 		}
 		b.Logf("opened %s in %s", path, time.Since(t).Round(time.Millisecond))
 		bench1MSrv = New(db, Options{})
-		u, err := db.UserByName(ctx, "bench-viewer")
-		if err != nil {
-			bench1MErr = err
-			return
-		}
-		tok, h := NewToken()
-		if bench1MErr = db.CreateSession(ctx, h, u.ID, time.Hour); bench1MErr != nil {
-			return
-		}
-		bench1MCookie = &http.Cookie{Name: sessionCookie, Value: tok}
+		bench1MCookie, bench1MErr = benchSession(ctx, db)
 	})
 	if bench1MErr != nil {
 		b.Fatal(bench1MErr)
@@ -108,32 +99,9 @@ func bench1MServer(b *testing.B) (*Server, *http.Cookie) {
 // with deterministic pseudo-random values computed in SQL, a tag on every
 // tenth run and a note on every seventh.
 func fillBenchDBBulk(ctx context.Context, db *store.DB, n int) error {
-	hash, err := HashPassword("bench-password-0")
+	ops, chambers, recipes, err := benchPeople(ctx, db)
 	if err != nil {
 		return err
-	}
-	var ops []int64
-	for _, name := range []string{"bench-viewer", "bench-op-a", "bench-op-b"} {
-		u, err := db.CreateUser(ctx, name, store.RoleOperator, hash)
-		if err != nil {
-			return err
-		}
-		ops = append(ops, u.ID)
-	}
-	var chambers, recipes []int64
-	for i := range 4 {
-		id, err := db.EnsureChamber(ctx, fmt.Sprintf("Bench chamber %d", i+1), "")
-		if err != nil {
-			return err
-		}
-		chambers = append(chambers, id)
-	}
-	for i := range 6 {
-		id, err := db.EnsureRecipe(ctx, fmt.Sprintf("Bench recipe %d", i+1), "")
-		if err != nil {
-			return err
-		}
-		recipes = append(recipes, id)
 	}
 	tx, err := db.Begin(ctx)
 	if err != nil {

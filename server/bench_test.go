@@ -55,16 +55,7 @@ func benchServer(b *testing.B) (*Server, *http.Cookie) {
 			}
 		}
 		benchSrv = New(benchDB, Options{})
-		u, err := benchDB.UserByName(ctx, "bench-viewer")
-		if err != nil {
-			benchErr = err
-			return
-		}
-		tok, h := NewToken()
-		if benchErr = benchDB.CreateSession(ctx, h, u.ID, time.Hour); benchErr != nil {
-			return
-		}
-		benchCookie = &http.Cookie{Name: sessionCookie, Value: tok}
+		benchCookie, benchErr = benchSession(ctx, benchDB)
 	})
 	if benchErr != nil {
 		b.Fatal(benchErr)
@@ -72,35 +63,56 @@ func benchServer(b *testing.B) (*Server, *http.Cookie) {
 	return benchSrv, benchCookie
 }
 
-// fillBenchDB inserts n runs with summaries, spread over two years, four
-// chambers, six recipes and three operators (direct SQL: speed).
-func fillBenchDB(ctx context.Context, db *store.DB, n int) error {
+// benchPeople makes the benchmark databases' three accounts (the first,
+// bench-viewer, signs in), four chambers and six recipes.
+func benchPeople(ctx context.Context, db *store.DB) (ops, chambers, recipes []int64, err error) {
 	hash, err := HashPassword("bench-password-0")
 	if err != nil {
-		return err
+		return nil, nil, nil, err
 	}
-	var ops []int64
 	for _, name := range []string{"bench-viewer", "bench-op-a", "bench-op-b"} {
 		u, err := db.CreateUser(ctx, name, store.RoleOperator, hash)
 		if err != nil {
-			return err
+			return nil, nil, nil, err
 		}
 		ops = append(ops, u.ID)
 	}
-	var chambers, recipes []int64
 	for i := range 4 {
 		id, err := db.EnsureChamber(ctx, fmt.Sprintf("Bench chamber %d", i+1), "")
 		if err != nil {
-			return err
+			return nil, nil, nil, err
 		}
 		chambers = append(chambers, id)
 	}
 	for i := range 6 {
 		id, err := db.EnsureRecipe(ctx, fmt.Sprintf("Bench recipe %d", i+1), "")
 		if err != nil {
-			return err
+			return nil, nil, nil, err
 		}
 		recipes = append(recipes, id)
+	}
+	return ops, chambers, recipes, nil
+}
+
+// benchSession signs bench-viewer in on db and returns its cookie.
+func benchSession(ctx context.Context, db *store.DB) (*http.Cookie, error) {
+	u, err := db.UserByName(ctx, "bench-viewer")
+	if err != nil {
+		return nil, err
+	}
+	tok, h := NewToken()
+	if err := db.CreateSession(ctx, h, u.ID, time.Hour); err != nil {
+		return nil, err
+	}
+	return &http.Cookie{Name: sessionCookie, Value: tok}, nil
+}
+
+// fillBenchDB inserts n runs with summaries, spread over two years, four
+// chambers, six recipes and three operators (direct SQL: speed).
+func fillBenchDB(ctx context.Context, db *store.DB, n int) error {
+	ops, chambers, recipes, err := benchPeople(ctx, db)
+	if err != nil {
+		return err
 	}
 	tx, err := db.Begin(ctx)
 	if err != nil {
