@@ -483,12 +483,30 @@ func (s *Server) ReanalyzeRun(ctx context.Context, runID int64, st AnalysisSetti
 // analysed there, before the version is stored. Every version therefore
 // holds exactly the files committed before it.
 func (s *Server) reanalyzeRunWith(ctx context.Context, runID int64, st AnalysisSettings, userID *int64, reason string, keepApproved bool) (int, error) {
-	if err := st.Validate(); err != nil {
-		return 0, err
-	}
 	before, err := s.DB.Attachments(ctx, runID)
 	if err != nil {
 		return 0, err
+	}
+	return s.reanalyzeRunFiles(ctx, runID, before, st, userID, reason, keepApproved)
+}
+
+// reanalyzeRunFiles is reanalyzeRunWith with the run's files listed
+// already (before, without content: it is read here in one query). The
+// results are encoded before the write transaction too, so that the
+// transaction only checks the file list and inserts.
+func (s *Server) reanalyzeRunFiles(ctx context.Context, runID int64, before []store.Attachment, st AnalysisSettings, userID *int64, reason string, keepApproved bool) (int, error) {
+	if err := st.Validate(); err != nil {
+		return 0, err
+	}
+	contents, err := s.DB.RunContents(ctx, runID)
+	if err != nil {
+		return 0, err
+	}
+	before = slices.Clone(before)
+	for i := range before {
+		if before[i].Content == nil {
+			before[i].Content = contents[before[i].ID]
+		}
 	}
 	given := st
 	if err := s.fillFromLineTables(ctx, before, &st); err != nil {
@@ -501,6 +519,11 @@ func (s *Server) reanalyzeRunWith(ctx context.Context, runID int64, st AnalysisS
 	results, err := s.analyzeAttachments(ctx, before, st)
 	if err != nil {
 		return 0, err
+	}
+	for i := range results {
+		if err := results[i].encode(); err != nil {
+			return 0, err
+		}
 	}
 	tx, err := s.DB.Begin(ctx)
 	if err != nil {

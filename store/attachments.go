@@ -141,6 +141,27 @@ func (d *DB) AttachmentContent(ctx context.Context, id int64) (Attachment, error
 	return a, err
 }
 
+// RunContents returns the content of every attachment of a run, by id,
+// in one query (what a reanalysis of the whole run reads).
+func (d *DB) RunContents(ctx context.Context, runID int64) (map[int64][]byte, error) {
+	rows, err := d.db.QueryContext(ctx, `SELECT a.id, c.content FROM attachments a
+		JOIN attachment_contents c ON c.attachment_id = a.id WHERE a.run_id = ?`, runID)
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	out := map[int64][]byte{}
+	for rows.Next() {
+		var id int64
+		var b []byte
+		if err := rows.Scan(&id, &b); err != nil {
+			return nil, err
+		}
+		out[id] = b
+	}
+	return out, rows.Err()
+}
+
 // Begin starts a transaction for requests that store several things
 // atomically (a run with its attachments and first analysis); the
 // context's actor is recorded for the audit trail.
