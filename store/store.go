@@ -132,9 +132,13 @@ func Open(ctx context.Context, path string, opts ...Options) (*DB, error) {
 		return nil, err
 	}
 	if path != ":memory:" {
-		if d.wdb, err = openSQL(path, sync); err != nil {
+		// Opened without openSQL's EnsurePrivate: closing a descriptor of
+		// the file (as a permission check may) would drop this process's
+		// SQLite locks on it, which tell other processes (restore) that
+		// the database is in use.
+		if d.wdb, err = sql.Open("sqlite", sqlDSN(path, sync)); err != nil {
 			sdb.Close()
-			return nil, err
+			return nil, fmt.Errorf("store: open %s: %w", path, err)
 		}
 		d.wdb.SetMaxOpenConns(1)
 	}
@@ -156,13 +160,21 @@ func Open(ctx context.Context, path string, opts ...Options) (*DB, error) {
 	return d, nil
 }
 
+// sqlDSN is the data source name of path with glowlog's pragmas.
+func sqlDSN(path, sync string) string {
+	if path == ":memory:" {
+		return "file::memory:?_pragma=foreign_keys(1)&_pragma=busy_timeout(5000)&_txlock=immediate"
+	}
+	return "file:" + path + "?_pragma=foreign_keys(1)&_pragma=journal_mode(WAL)&_pragma=busy_timeout(5000)&_pragma=synchronous(" + strings.ToUpper(sync) + ")&_txlock=immediate"
+}
+
 // openSQL opens the pool with glowlog's pragmas, without migrating.
 func openSQL(path, sync string) (*sql.DB, error) {
-	dsn := "file:" + path + "?_pragma=foreign_keys(1)&_pragma=journal_mode(WAL)&_pragma=busy_timeout(5000)&_pragma=synchronous(" + strings.ToUpper(sync) + ")&_txlock=immediate"
-	if path == ":memory:" {
-		dsn = "file::memory:?_pragma=foreign_keys(1)&_pragma=busy_timeout(5000)&_txlock=immediate"
-	} else if err := EnsurePrivate(path); err != nil {
-		return nil, err
+	dsn := sqlDSN(path, sync)
+	if path != ":memory:" {
+		if err := EnsurePrivate(path); err != nil {
+			return nil, err
+		}
 	}
 	sdb, err := sql.Open("sqlite", dsn)
 	if err != nil {
