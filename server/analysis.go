@@ -8,6 +8,7 @@ import (
 	"errors"
 	"fmt"
 	"net/http"
+	"runtime"
 	"slices"
 	"strings"
 	"sync"
@@ -682,24 +683,51 @@ func (s *Server) analyzeBefore(ctx context.Context, runID int64, added []store.A
 		return nil, nil // reported inside, as before
 	}
 	st.CalibrationFiles = calibrationFiles(committed)
-	var atts []store.Attachment
+	var calib []store.Attachment
 	for _, a := range committed {
 		if a.Kind == store.KindDark || a.Kind == store.KindResponse {
-			atts = append(atts, a)
+			calib = append(calib, a)
 		}
 	}
-	atts = append(atts, added...)
-	results, err := s.analyzeAttachments(ctx, atts, st)
-	if err != nil {
-		return nil, nil // a bad dark or response file: reported inside
+	// A batch is analysed by up to GOMAXPROCS goroutines (each with the
+	// run's dark and response files as context), so one client's batch
+	// uses every core.
+	parts := min(runtime.GOMAXPROCS(0), len(added))
+	chunk := (len(added) + parts - 1) / parts
+	out := make([][]RunAnalysis, parts)
+	errs := make([]error, parts)
+	var wg sync.WaitGroup
+	for p := range parts {
+		lo, hi := p*chunk, min((p+1)*chunk, len(added))
+		if lo >= hi {
+			continue
+		}
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			atts := append(slices.Clone(calib), added[lo:hi]...)
+			out[p], errs[p] = s.analyzeAttachments(ctx, atts, st)
+			for i := range out[p] {
+				if errs[p] == nil {
+					errs[p] = out[p][i].encode()
+				}
+			}
+		}()
+	}
+	wg.Wait()
+	var results []RunAnalysis
+	for p := range parts {
+		if errs[p] != nil {
+			var ue *userError
+			if errors.As(errs[p], &ue) {
+				return nil, nil // a bad dark or response file: reported inside
+			}
+			return nil, errs[p]
+		}
+		results = append(results, out[p]...)
 	}
 	if len(results) != len(added) {
 		return nil, fmt.Errorf("server: %d results for %d new files", len(results), len(added))
-	}
-	for i := range results {
-		if err := results[i].encode(); err != nil {
-			return nil, err
-		}
 	}
 	return &preAnalysis{settings: st, results: results}, nil
 }
