@@ -8,6 +8,7 @@ import (
 	"errors"
 	"fmt"
 	"net/http"
+	"runtime"
 	"slices"
 	"strings"
 	"sync"
@@ -146,6 +147,8 @@ type RunAnalysis struct {
 	Spectrum   *spectrum.Result
 	Lines      *diag.Result
 	Err        error
+	// stored is the stored form, when encoded ahead (encode).
+	stored *store.AnalysisResult
 }
 
 // Diag returns the diag part of either kind of result.
@@ -416,35 +419,59 @@ func toNewAnalysis(st AnalysisSettings, results []RunAnalysis, userID *int64, re
 	}
 	na := store.NewAnalysis{Settings: string(sj), EngineVersion: diag.EngineVersion, CreatedBy: userID, Reason: reason}
 	for _, ra := range results {
-		r := store.AnalysisResult{AttachmentID: ra.Attachment.ID}
-		if ra.Err != nil {
-			r.Error = ra.Err.Error()
+		if ra.stored != nil {
+			r := *ra.stored
+			r.AttachmentID = ra.Attachment.ID
 			na.Results = append(na.Results, r)
 			continue
 		}
-		var buf bytes.Buffer
-		enc := json.NewEncoder(&buf)
-		enc.SetEscapeHTML(false)
-		var v any = ra.Lines
-		if ra.Spectrum != nil {
-			v = ra.Spectrum
-		}
-		if err := enc.Encode(v); err != nil {
+		r, err := ra.storedForm()
+		if err != nil {
 			return na, err
 		}
-		r.Result = buf.String()
-		d := ra.Diag()
-		r.TexcK, r.TexcUncK, r.NeM3, r.NeUncM3, r.TgasK = d.ExcitationTemperatureK, d.ExcitationTemperatureUncK,
-			d.ElectronDensityM3, d.ElectronDensityUncM3, d.GasTemperatureK
-		if d.GasTemperatureSource != "two-line" {
-			r.TgasK = nil // only a solved gas temperature is a result
-		}
-		var worst diag.Severity
-		r.NWarnings, worst = diag.CountWarnings(d.Flags)
-		r.WarnWorst = string(worst)
 		na.Results = append(na.Results, r)
 	}
 	return na, nil
+}
+
+// encode computes ra's stored form once (outside the write transaction).
+func (ra *RunAnalysis) encode() error {
+	r, err := ra.storedForm()
+	if err != nil {
+		return err
+	}
+	ra.stored = &r
+	return nil
+}
+
+// storedForm is ra as stored: the result JSON and its summary columns.
+func (ra RunAnalysis) storedForm() (store.AnalysisResult, error) {
+	r := store.AnalysisResult{AttachmentID: ra.Attachment.ID}
+	if ra.Err != nil {
+		r.Error = ra.Err.Error()
+		return r, nil
+	}
+	var buf bytes.Buffer
+	enc := json.NewEncoder(&buf)
+	enc.SetEscapeHTML(false)
+	var v any = ra.Lines
+	if ra.Spectrum != nil {
+		v = ra.Spectrum
+	}
+	if err := enc.Encode(v); err != nil {
+		return r, err
+	}
+	r.Result = buf.String()
+	d := ra.Diag()
+	r.TexcK, r.TexcUncK, r.NeM3, r.NeUncM3, r.TgasK = d.ExcitationTemperatureK, d.ExcitationTemperatureUncK,
+		d.ElectronDensityM3, d.ElectronDensityUncM3, d.GasTemperatureK
+	if d.GasTemperatureSource != "two-line" {
+		r.TgasK = nil // only a solved gas temperature is a result
+	}
+	var worst diag.Severity
+	r.NWarnings, worst = diag.CountWarnings(d.Flags)
+	r.WarnWorst = string(worst)
+	return r, nil
 }
 
 // ReanalyzeRun analyses all of a run's attachments with st and stores the
@@ -466,12 +493,30 @@ func (s *Server) ReanalyzeRun(ctx context.Context, runID int64, st AnalysisSetti
 // analysed there, before the version is stored. Every version therefore
 // holds exactly the files committed before it.
 func (s *Server) reanalyzeRunWith(ctx context.Context, runID int64, st AnalysisSettings, userID *int64, reason string, keepApproved bool) (int, error) {
-	if err := st.Validate(); err != nil {
-		return 0, err
-	}
 	before, err := s.DB.Attachments(ctx, runID)
 	if err != nil {
 		return 0, err
+	}
+	return s.reanalyzeRunFiles(ctx, runID, before, st, userID, reason, keepApproved)
+}
+
+// reanalyzeRunFiles is reanalyzeRunWith with the run's files listed
+// already (before, without content: it is read here in one query). The
+// results are encoded before the write transaction too, so that the
+// transaction only checks the file list and inserts.
+func (s *Server) reanalyzeRunFiles(ctx context.Context, runID int64, before []store.Attachment, st AnalysisSettings, userID *int64, reason string, keepApproved bool) (int, error) {
+	if err := st.Validate(); err != nil {
+		return 0, err
+	}
+	contents, err := s.DB.RunContents(ctx, runID)
+	if err != nil {
+		return 0, err
+	}
+	before = slices.Clone(before)
+	for i := range before {
+		if before[i].Content == nil {
+			before[i].Content = contents[before[i].ID]
+		}
 	}
 	given := st
 	if err := s.fillFromLineTables(ctx, before, &st); err != nil {
@@ -484,6 +529,11 @@ func (s *Server) reanalyzeRunWith(ctx context.Context, runID int64, st AnalysisS
 	results, err := s.analyzeAttachments(ctx, before, st)
 	if err != nil {
 		return 0, err
+	}
+	for i := range results {
+		if err := results[i].encode(); err != nil {
+			return 0, err
+		}
 	}
 	tx, err := s.DB.Begin(ctx)
 	if err != nil {
@@ -608,6 +658,93 @@ func signedOffError(runID int64, approved *int) error {
 // the run's full file list is read inside tx, so files committed by
 // concurrent requests are never left out.
 func (s *Server) ReanalyzeRunTx(ctx context.Context, tx *sql.Tx, runID int64, atts []store.Attachment, st AnalysisSettings, userID *int64, reason string) (int, []RunAnalysis, error) {
+	return s.reanalyzeRunTxPre(ctx, tx, runID, atts, nil, st, userID, reason)
+}
+
+// preAnalysis is the analysis of new files made before their write
+// transaction (outside the write lock): results[i] is that of the i-th
+// added attachment (its ID not known yet), computed with settings, which
+// include the dark and response files then committed.
+type preAnalysis struct {
+	settings AnalysisSettings
+	results  []RunAnalysis
+}
+
+// analyzeBefore analyses new spectra outside the write transaction with
+// the settings their version would have if nothing changed meanwhile: st
+// filled from the run's committed line tables, with its committed dark and
+// response files. Inside the transaction reanalyzeRunTxPre uses these
+// results only if the settings it computes there are the same.
+func (s *Server) analyzeBefore(ctx context.Context, runID int64, added []store.Attachment, st AnalysisSettings) (*preAnalysis, error) {
+	for _, a := range added {
+		if a.Kind != store.KindSpectrum {
+			return nil, nil // a new dark, response or line table changes the settings
+		}
+	}
+	committed, err := s.DB.Attachments(ctx, runID)
+	if err != nil {
+		return nil, err
+	}
+	if err := s.fillFromLineTables(ctx, committed, &st); err != nil {
+		return nil, err
+	}
+	if err := st.Validate(); err != nil {
+		return nil, nil // reported inside, as before
+	}
+	st.CalibrationFiles = calibrationFiles(committed)
+	var calib []store.Attachment
+	for _, a := range committed {
+		if a.Kind == store.KindDark || a.Kind == store.KindResponse {
+			calib = append(calib, a)
+		}
+	}
+	// A batch is analysed by up to GOMAXPROCS goroutines (each with the
+	// run's dark and response files as context), so one client's batch
+	// uses every core.
+	parts := min(runtime.GOMAXPROCS(0), len(added))
+	chunk := (len(added) + parts - 1) / parts
+	out := make([][]RunAnalysis, parts)
+	errs := make([]error, parts)
+	var wg sync.WaitGroup
+	for p := range parts {
+		lo, hi := p*chunk, min((p+1)*chunk, len(added))
+		if lo >= hi {
+			continue
+		}
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			atts := append(slices.Clone(calib), added[lo:hi]...)
+			out[p], errs[p] = s.analyzeAttachments(ctx, atts, st)
+			for i := range out[p] {
+				if errs[p] == nil {
+					errs[p] = out[p][i].encode()
+				}
+			}
+		}()
+	}
+	wg.Wait()
+	var results []RunAnalysis
+	for p := range parts {
+		if errs[p] != nil {
+			var ue *userError
+			if errors.As(errs[p], &ue) {
+				return nil, nil // a bad dark or response file: reported inside
+			}
+			return nil, errs[p]
+		}
+		results = append(results, out[p]...)
+	}
+	if len(results) != len(added) {
+		return nil, fmt.Errorf("server: %d results for %d new files", len(results), len(added))
+	}
+	return &preAnalysis{settings: st, results: results}, nil
+}
+
+// reanalyzeRunTxPre is ReanalyzeRunTx with the new files' results computed
+// beforehand (pre, or nil): they are used when the settings inside tx are
+// those they were computed with; otherwise the files are analysed inside.
+func (s *Server) reanalyzeRunTxPre(ctx context.Context, tx *sql.Tx, runID int64, atts []store.Attachment, pre *preAnalysis, st AnalysisSettings, userID *int64, reason string) (int, []RunAnalysis, error) {
 	if err := st.Validate(); err != nil {
 		return 0, nil, err
 	}
@@ -645,9 +782,37 @@ func (s *Server) ReanalyzeRunTx(ctx context.Context, tx *sql.Tx, runID int64, at
 	if err != nil {
 		return 0, nil, err
 	}
-	results, err := s.analyzeAttachmentsWith(ctx, tx, toAnalyze, st)
-	if err != nil {
-		return 0, nil, err
+	var results []RunAnalysis
+	if pre != nil && len(pre.results) == len(atts) && sameSettings(pre.settings, st) {
+		done := make(map[int64]RunAnalysis, len(atts))
+		for i, a := range atts {
+			ra := pre.results[i]
+			ra.Attachment = a
+			ra.Attachment.Content = nil
+			done[a.ID] = ra
+		}
+		rest := toAnalyze[:0:0]
+		for _, a := range toAnalyze {
+			if ra, ok := done[a.ID]; ok {
+				results = append(results, ra)
+			} else {
+				rest = append(rest, a)
+			}
+		}
+		toAnalyze = rest
+	}
+	if analysable(toAnalyze) {
+		more, err := s.analyzeAttachmentsWith(ctx, tx, toAnalyze, st)
+		if err != nil {
+			return 0, nil, err
+		}
+		results = append(more, results...)
+		// file order, as when all are analysed here
+		pos := make(map[int64]int, len(all))
+		for i, a := range all {
+			pos[a.ID] = i
+		}
+		slices.SortStableFunc(results, func(a, b RunAnalysis) int { return pos[a.Attachment.ID] - pos[b.Attachment.ID] })
 	}
 	na, err := toNewAnalysis(st, results, userID, reason)
 	if err != nil {

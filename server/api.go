@@ -16,7 +16,6 @@ import (
 
 	"glowlog/diag"
 	"glowlog/diag/mset"
-	"glowlog/diag/spectrum"
 	"glowlog/store"
 )
 
@@ -175,16 +174,16 @@ func (s *Server) runFromPath(c echo.Context) (store.Run, error) {
 // latestSettings returns the settings of a run's newest analysis version,
 // or the run's defaults when it has none.
 func (s *Server) latestSettings(c echo.Context, r store.Run) (AnalysisSettings, error) {
-	list, err := s.DB.Analyses(c.Request().Context(), r.ID)
+	sj, err := s.DB.LatestSettings(c.Request().Context(), r.ID)
+	if errors.Is(err, store.ErrNotFound) {
+		return DefaultSettings(r), nil
+	}
 	if err != nil {
 		return AnalysisSettings{}, err
 	}
-	if len(list) == 0 {
-		return DefaultSettings(r), nil
-	}
 	var st AnalysisSettings
-	if err := json.Unmarshal([]byte(list[0].Settings), &st); err != nil {
-		return AnalysisSettings{}, fmt.Errorf("server: settings of run %d v%d: %w", r.ID, list[0].Version, err)
+	if err := json.Unmarshal([]byte(sj), &st); err != nil {
+		return AnalysisSettings{}, fmt.Errorf("server: settings of run %d: %w", r.ID, err)
 	}
 	return st, nil
 }
@@ -257,40 +256,39 @@ type incoming struct {
 	settingFields bool
 }
 
-// readMeasurement reads the attachment of POST /runs/:id/measurements: a
-// measurement set (JSON body) or a file (multipart field "file").
-func readMeasurement(c echo.Context, st *AnalysisSettings) (incoming, error) {
+// maxBatchFiles bounds the files of one POST /runs/:id/measurements.
+const maxBatchFiles = 1000
+
+// readMeasurement reads the attachments of POST /runs/:id/measurements: a
+// measurement set (JSON body) or files (multipart, one or more fields
+// "file": a batch, stored in one transaction with one analysis version).
+func readMeasurement(c echo.Context, st *AnalysisSettings) ([]incoming, error) {
 	ct, _, _ := mime.ParseMediaType(c.Request().Header.Get(echo.HeaderContentType))
 	switch ct {
 	case echo.MIMEApplicationJSON:
 		data, err := io.ReadAll(io.LimitReader(c.Request().Body, mset.MaxBytes+1))
 		if err != nil {
-			return incoming{}, err
+			return nil, err
 		}
 		if len(data) > mset.MaxBytes {
-			return incoming{}, badRequest("measurement set is larger than %d bytes", mset.MaxBytes)
+			return nil, badRequest("measurement set is larger than %d bytes", mset.MaxBytes)
 		}
 		name := strings.TrimSpace(c.QueryParam("name"))
 		if name == "" {
 			name = "measurement-set.json"
 		}
-		return incoming{store.KindLineTable, name, data, false}, nil
+		return []incoming{{store.KindLineTable, name, data, false}}, nil
 	case echo.MIMEMultipartForm:
-		fh, err := c.FormFile("file")
+		form, err := c.MultipartForm()
 		if err != nil {
-			return incoming{}, badRequest("multipart field \"file\" is missing")
+			return nil, badRequest("multipart body: %v", err)
 		}
-		if fh.Size > store.MaxAttachmentBytes {
-			return incoming{}, badRequest("file %s is %d bytes, above the %d-byte limit", fh.Filename, fh.Size, store.MaxAttachmentBytes)
+		files := form.File["file"]
+		if len(files) == 0 {
+			return nil, badRequest("multipart field \"file\" is missing")
 		}
-		f, err := fh.Open()
-		if err != nil {
-			return incoming{}, err
-		}
-		defer f.Close()
-		data, err := io.ReadAll(io.LimitReader(f, store.MaxAttachmentBytes+1))
-		if err != nil {
-			return incoming{}, err
+		if len(files) > maxBatchFiles {
+			return nil, badRequest("%d files in one request, above the limit of %d", len(files), maxBatchFiles)
 		}
 		kind := strings.TrimSpace(c.FormValue("kind"))
 		switch kind {
@@ -298,24 +296,47 @@ func readMeasurement(c echo.Context, st *AnalysisSettings) (incoming, error) {
 			kind = store.KindSpectrum
 		case store.KindSpectrum, store.KindDark, store.KindResponse:
 		default:
-			return incoming{}, badRequest("kind: %q is not spectrum, dark or response", kind)
+			return nil, badRequest("kind: %q is not spectrum, dark or response", kind)
 		}
 		if err := applySettingFields(c, st); err != nil {
-			return incoming{}, err
+			return nil, err
 		}
-		name := strings.TrimSpace(fh.Filename)
-		if name == "" {
-			name = kind + ".csv"
+		out := make([]incoming, 0, len(files))
+		for _, fh := range files {
+			if fh.Size > store.MaxAttachmentBytes {
+				return nil, badRequest("file %s is %d bytes, above the %d-byte limit", fh.Filename, fh.Size, store.MaxAttachmentBytes)
+			}
+			f, err := fh.Open()
+			if err != nil {
+				return nil, err
+			}
+			data, err := io.ReadAll(io.LimitReader(f, store.MaxAttachmentBytes+1))
+			f.Close()
+			if err != nil {
+				return nil, err
+			}
+			name := strings.TrimSpace(fh.Filename)
+			if name == "" {
+				name = kind + ".csv"
+			}
+			if len(name) > 200 {
+				name = name[:200]
+			}
+			out = append(out, incoming{kind, name, data, true})
 		}
-		if len(name) > 200 {
-			name = name[:200]
-		}
-		return incoming{kind, name, data, true}, nil
+		return out, nil
 	}
-	return incoming{}, &userError{http.StatusUnsupportedMediaType,
+	return nil, &userError{http.StatusUnsupportedMediaType,
 		"Content-Type must be application/json (a measurement set) or multipart/form-data (field \"file\")"}
 }
 
+// apiAddMeasurement stores one file (or a batch: several "file" parts)
+// and a new analysis version holding it and every other file of the run.
+// New spectra are analysed before the write transaction, beside other
+// requests; inside it (which holds the write lock) the run's settings and
+// files are read again, and those results are used only if the settings
+// — calibration files included — are still those they were computed
+// with. Otherwise the new files are analysed again inside.
 func (s *Server) apiAddMeasurement(c echo.Context) error {
 	id, err := pathID(c, "id")
 	if err != nil {
@@ -337,12 +358,27 @@ func (s *Server) apiAddMeasurement(c echo.Context) error {
 	if err != nil {
 		return err
 	}
-	in, err := readMeasurement(c, &st)
+	ins, err := readMeasurement(c, &st)
 	if err != nil {
 		return err
 	}
 	if err := st.Validate(); err != nil {
 		return err
+	}
+	added := make([]store.Attachment, len(ins))
+	for i, in := range ins {
+		added[i] = store.Attachment{RunID: id, Kind: in.kind, Name: in.name, Content: in.data, Size: len(in.data)}
+	}
+	pre, err := s.analyzeBefore(ctx, id, added, st)
+	if err != nil {
+		return err
+	}
+	if pre != nil {
+		for i, ra := range pre.results {
+			if ra.Err != nil {
+				return &userError{http.StatusUnprocessableEntity, batchPrefix(ins, i) + strings.TrimPrefix(ra.Err.Error(), "diag: ")}
+			}
+		}
 	}
 	// Everything from here is one write transaction, which holds the
 	// write lock from BEGIN: the settings and the run's file list are
@@ -358,7 +394,7 @@ func (s *Server) apiAddMeasurement(c echo.Context) error {
 	if st, err = s.latestSettingsTx(ctx, tx, run); err != nil {
 		return err
 	}
-	if in.settingFields {
+	if ins[0].settingFields {
 		if err := applySettingFields(c, &st); err != nil {
 			return err
 		}
@@ -366,13 +402,17 @@ func (s *Server) apiAddMeasurement(c echo.Context) error {
 	if err := st.Validate(); err != nil {
 		return err
 	}
-	aid, err := s.DB.AddAttachmentTx(ctx, tx, id, in.kind, in.name, in.data)
-	if err != nil {
-		return err
+	for i, in := range ins {
+		if added[i].ID, err = s.DB.AddAttachmentTx(ctx, tx, id, in.kind, in.name, in.data); err != nil {
+			return err
+		}
 	}
-	added := []store.Attachment{{ID: aid, RunID: id, Kind: in.kind, Name: in.name, Content: in.data, Size: len(in.data)}}
 	uid := u.ID
-	version, results, err := s.ReanalyzeRunTx(ctx, tx, id, added, st, &uid, "added "+in.name+" through the API")
+	reason := "added " + ins[0].name + " through the API"
+	if len(ins) > 1 {
+		reason = fmt.Sprintf("added %d files (%s … %s) through the API", len(ins), ins[0].name, ins[len(ins)-1].name)
+	}
+	version, results, err := s.reanalyzeRunTxPre(ctx, tx, id, added, pre, st, &uid, reason)
 	if err != nil {
 		var ue *userError
 		if errors.As(err, &ue) {
@@ -380,32 +420,78 @@ func (s *Server) apiAddMeasurement(c echo.Context) error {
 		}
 		return err
 	}
-	var mine *RunAnalysis
+	mine := make([]*RunAnalysis, len(added))
 	for i := range results {
-		if results[i].Attachment.ID == aid {
-			mine = &results[i]
+		for k := range added {
+			if results[i].Attachment.ID == added[k].ID {
+				mine[k] = &results[i]
+			}
 		}
 	}
-	if mine != nil && mine.Err != nil {
-		return &userError{http.StatusUnprocessableEntity, strings.TrimPrefix(mine.Err.Error(), "diag: ")}
+	for k, m := range mine {
+		if m != nil && m.Err != nil {
+			return &userError{http.StatusUnprocessableEntity, batchPrefix(ins, k) + strings.TrimPrefix(m.Err.Error(), "diag: ")}
+		}
 	}
 	if err := tx.Commit(); err != nil {
 		return err
 	}
-	ids := apiMeasurementIDs{RunID: id, AttachmentID: aid, AnalysisVersion: version, Kind: in.kind}
-	switch {
-	case mine != nil && mine.Spectrum != nil:
-		return c.JSON(http.StatusCreated, struct {
-			apiMeasurementIDs
-			*spectrum.Result
-		}{ids, mine.Spectrum})
-	case mine != nil && mine.Lines != nil:
-		return c.JSON(http.StatusCreated, struct {
-			apiMeasurementIDs
-			*diag.Result
-		}{ids, mine.Lines})
+	var buf bytes.Buffer
+	if len(ins) > 1 {
+		fmt.Fprintf(&buf, `{"run_id":%d,"analysis_version":%d,"measurements":[`, id, version)
 	}
-	return c.JSON(http.StatusCreated, ids)
+	for k, m := range mine {
+		if k > 0 {
+			buf.WriteByte(',')
+		}
+		ids := apiMeasurementIDs{RunID: id, AttachmentID: added[k].ID, AnalysisVersion: version, Kind: added[k].Kind}
+		if err := writeMeasurementJSON(&buf, ids, m); err != nil {
+			return err
+		}
+	}
+	if len(ins) > 1 {
+		buf.WriteString("]}")
+	}
+	buf.WriteByte('\n')
+	return c.Blob(http.StatusCreated, echo.MIMEApplicationJSONCharsetUTF8, buf.Bytes())
+}
+
+// batchPrefix names the file of an error in a batch.
+func batchPrefix(ins []incoming, i int) string {
+	if len(ins) < 2 {
+		return ""
+	}
+	return ins[i].name + ": "
+}
+
+// writeMeasurementJSON writes the answer for one stored file: its ids, then
+// the fields of its analysis result (the stored JSON when encoded ahead,
+// not encoded a second time).
+func writeMeasurementJSON(buf *bytes.Buffer, ids apiMeasurementIDs, m *RunAnalysis) error {
+	head, err := json.Marshal(ids)
+	if err != nil {
+		return err
+	}
+	var body []byte
+	switch {
+	case m != nil && m.stored != nil && m.stored.Result != "":
+		body = []byte(strings.TrimSpace(m.stored.Result))
+	case m != nil && m.Spectrum != nil:
+		body, err = json.Marshal(m.Spectrum)
+	case m != nil && m.Lines != nil:
+		body, err = json.Marshal(m.Lines)
+	}
+	if err != nil {
+		return err
+	}
+	if len(body) < 2 || body[0] != '{' || string(body) == "{}" {
+		buf.Write(head)
+		return nil
+	}
+	buf.Write(head[:len(head)-1])
+	buf.WriteByte(',')
+	buf.Write(body[1:])
+	return nil
 }
 
 // apiMeasurementIDs identify what POST /api/v1/runs/:id/measurements

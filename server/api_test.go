@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"context"
 	"encoding/json"
+	"fmt"
 	"io"
 	"log/slog"
 	"math"
@@ -336,5 +337,62 @@ func TestAPILineShapeBad(t *testing.T) {
 	atts, err := f.db.Attachments(context.Background(), id)
 	if err != nil || len(atts) != 0 {
 		t.Errorf("attachments after a refused upload: %d (%v)", len(atts), err)
+	}
+}
+
+// TestAPIAddBatch posts three spectra in one request (three "file" parts):
+// they are stored in one transaction with one analysis version holding
+// them and the run's earlier file; the answer lists each with its result;
+// a bad file in a batch stores none of them and is named.
+func TestAPIAddBatch(t *testing.T) {
+	f := newAPIFixture(t)
+	id := f.createRun(runJSON)
+	data, err := os.ReadFile("../testdata/spectra/scipy_hbeta_window_snr100.csv")
+	if err != nil {
+		t.Fatal(err)
+	}
+	path := "/api/v1/runs/" + strconv.FormatInt(id, 10) + "/measurements"
+	// A Voigt-shaped scipy spectrum: the Voigt line model (see line_shape).
+	fields := map[string]string{"instrument_fwhm_nm": "0.05", "gas_temperature_K": "1200", "perturber": "none", "pressure_Pa": "0", "line_shape": "voigt"}
+	ct, mp := multipartBody(t, "first.csv", data, fields)
+	if code, out := f.do(http.MethodPost, path, f.token, ct, mp); code != http.StatusCreated {
+		t.Fatalf("first file: %d %v", code, out)
+	}
+	batch := func(names []string, contents [][]byte) (string, io.Reader) {
+		var b bytes.Buffer
+		w := multipart.NewWriter(&b)
+		for i, n := range names {
+			fw, _ := w.CreateFormFile("file", n)
+			fw.Write(contents[i])
+		}
+		w.Close()
+		return w.FormDataContentType(), &b
+	}
+	ct, mp = batch([]string{"b1.csv", "b2.csv", "b3.csv"}, [][]byte{data, data, data})
+	code, out := f.do(http.MethodPost, path, f.token, ct, mp)
+	if code != http.StatusCreated {
+		t.Fatalf("batch: %d %v", code, out)
+	}
+	ms, _ := out["measurements"].([]any)
+	if out["analysis_version"] != 2.0 || len(ms) != 3 {
+		t.Fatalf("batch answer: %v", out)
+	}
+	for _, m := range ms {
+		m := m.(map[string]any)
+		if ne, _ := m["electron_density_m3"].(float64); m["attachment_id"] == nil || m["analysis_version"] != 2.0 || math.Abs(ne/1e22-1) > 0.05 {
+			t.Errorf("batch item: attachment %v, version %v, n_e %v", m["attachment_id"], m["analysis_version"], m["electron_density_m3"])
+		}
+	}
+	a, err := f.db.AnalysisVersion(context.Background(), id, 0)
+	if err != nil || a.Version != 2 || len(a.Results) != 4 {
+		t.Fatalf("latest version %d with %d results (%v), want v2 with all 4 files", a.Version, len(a.Results), err)
+	}
+	// A file that is not a spectrum: the whole batch is refused, naming it.
+	ct, mp = batch([]string{"b4.csv", "junk.csv"}, [][]byte{data, []byte("not,a\nspectrum\n")})
+	if code, out := f.do(http.MethodPost, path, f.token, ct, mp); code != http.StatusUnprocessableEntity || !strings.Contains(fmt.Sprint(out["error"]), "junk.csv") {
+		t.Errorf("bad batch: %d %v", code, out)
+	}
+	if atts, _ := f.db.Attachments(context.Background(), id); len(atts) != 4 {
+		t.Errorf("%d files after a refused batch, want 4", len(atts))
 	}
 }

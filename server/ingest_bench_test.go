@@ -13,6 +13,7 @@ import (
 	"runtime"
 	"sync"
 	"sync/atomic"
+	"syscall"
 	"testing"
 	"time"
 
@@ -28,16 +29,32 @@ import (
 //
 // One sub-benchmark per durability mode of serve --sync: normal (the
 // default; the WAL is synced at checkpoints) and full (an fsync at every
-// commit).
+// commit); and per request size: files=1 (one spectrum per request) and
+// files=20 (a batch: each request carries a run's whole series as 20
+// "file" parts, stored in one transaction with one analysis version).
 //
-//	go test ./server/ -run '^$' -bench APIIngest -benchtime 2000x
+// Besides spectra/s (wall clock, which on a shared machine depends on its
+// load) it reports cpu-ms/spectrum: the process's user+system CPU time
+// (server and clients) per spectrum, which says what two idle cores can
+// take: 2000 / cpu-ms/spectrum spectra per second.
+//
+//	go test ./server/ -run '^$' -bench APIIngest -benchtime 1000x
 func BenchmarkAPIIngest(b *testing.B) {
 	for _, mode := range []string{store.SyncNormal, store.SyncFull} {
-		b.Run("sync="+mode, func(b *testing.B) { benchAPIIngest(b, mode) })
+		for _, files := range []int{1, 20} {
+			b.Run(fmt.Sprintf("sync=%s/files=%d", mode, files), func(b *testing.B) { benchAPIIngest(b, mode, files) })
+		}
 	}
 }
 
-func benchAPIIngest(b *testing.B, syncMode string) {
+// cpuTime is the process's user+system CPU time so far.
+func cpuTime() time.Duration {
+	var ru syscall.Rusage
+	syscall.Getrusage(syscall.RUSAGE_SELF, &ru)
+	return time.Duration(ru.Utime.Nano() + ru.Stime.Nano())
+}
+
+func benchAPIIngest(b *testing.B, syncMode string, perRequest int) {
 	ctx := context.Background()
 	db, err := store.Open(ctx, filepath.Join(b.TempDir(), "ingest.db"), store.Options{Sync: syncMode})
 	if err != nil {
@@ -86,23 +103,41 @@ func benchAPIIngest(b *testing.B, syncMode string) {
 		json.Unmarshal(out, &r)
 		return r.ID
 	}
-	var mb bytes.Buffer
-	mw := multipart.NewWriter(&mb)
-	fw, _ := mw.CreateFormFile("file", "spectrum.csv")
-	fw.Write(spec)
-	mw.Close()
-	body, ctype := mb.Bytes(), mw.FormDataContentType()
+	multipartBody := func(n int) ([]byte, string) {
+		var mb bytes.Buffer
+		mw := multipart.NewWriter(&mb)
+		for k := range n {
+			fw, _ := mw.CreateFormFile("file", fmt.Sprintf("spectrum-%02d.csv", k))
+			fw.Write(spec)
+		}
+		mw.Close()
+		return mb.Bytes(), mw.FormDataContentType()
+	}
+	body, ctype := multipartBody(1)
+	batch, batchType := multipartBody(perRequest)
 
 	var next atomic.Int64
 	var wg sync.WaitGroup
 	b.ResetTimer()
-	start := time.Now()
+	start, cpu0 := time.Now(), cpuTime()
 	for range workers {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
 			var run int64
 			for k := 0; ; k++ {
+				if perRequest > 1 {
+					i := next.Add(int64(perRequest))
+					if i-int64(perRequest) >= int64(b.N) {
+						return
+					}
+					run = newRun(i)
+					if code, out := post(fmt.Sprintf("/api/v1/runs/%d/measurements", run), batchType, batch); code != http.StatusCreated {
+						b.Errorf("ingest: %d %.300s", code, out)
+						return
+					}
+					continue
+				}
 				i := next.Add(1)
 				if i > int64(b.N) {
 					return
@@ -118,8 +153,13 @@ func benchAPIIngest(b *testing.B, syncMode string) {
 		}()
 	}
 	wg.Wait()
-	el := time.Since(start)
+	el, cpu := time.Since(start), cpuTime()-cpu0
 	b.StopTimer()
-	b.ReportMetric(float64(b.N)/el.Seconds(), "spectra/s")
+	n := float64(next.Load())
+	if n > float64(b.N) {
+		n = float64((b.N + perRequest - 1) / perRequest * perRequest) // whole batches
+	}
+	b.ReportMetric(n/el.Seconds(), "spectra/s")
+	b.ReportMetric(cpu.Seconds()*1000/n, "cpu-ms/spectrum")
 	b.ReportMetric(rssMB(), "RSS-MB")
 }

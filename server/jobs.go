@@ -6,6 +6,7 @@ import (
 	"errors"
 	"fmt"
 	"net/http"
+	"runtime"
 	"slices"
 	"strconv"
 	"strings"
@@ -18,9 +19,11 @@ import (
 	"glowlog/views"
 )
 
-// JobRunner runs background jobs (bulk reanalysis) with one worker
-// goroutine, one job and one run at a time, so that a bulk job never
-// starves the web requests of the two cores.
+// JobRunner runs background jobs (bulk reanalysis), one job at a time.
+// A job analyses its runs with GOMAXPROCS workers: each analyses a run
+// outside the write lock, then stores its version in a short transaction
+// (reanalyzeRunFiles), so the job uses every core while web requests
+// still get the write lock between its transactions.
 type JobRunner struct {
 	s    *Server
 	wake chan struct{}
@@ -119,6 +122,9 @@ func (o settingsOverrides) apply(st *AnalysisSettings) {
 // jobKindReanalyze is the kind of bulk reanalysis jobs.
 const jobKindReanalyze = "reanalyze"
 
+// jobProgressEvery is how often a running job records its progress.
+const jobProgressEvery = 250 * time.Millisecond
+
 func (j *JobRunner) run(ctx context.Context, job store.Job) {
 	ctx = jobActor(ctx, job)
 	db := j.s.DB
@@ -127,80 +133,117 @@ func (j *JobRunner) run(ctx context.Context, job store.Job) {
 		_ = db.FinishJob(ctx, job.ID, store.JobFailed, 0, 0, "unknown job kind or unreadable parameters")
 		return
 	}
-	done, failed := 0, 0
+	done, failed, spectra := 0, 0, 0
 	var msgs []string
 	note := func(id int64, msg string) {
 		if len(msgs) < 20 {
 			msgs = append(msgs, fmt.Sprintf("run %d: %s", id, msg))
 		}
 	}
-	for _, id := range p.RunIDs {
-		if ctx.Err() != nil {
-			// The server is stopping: record how far the job came.
-			_ = db.FinishJob(context.WithoutCancel(ctx), job.ID, store.JobFailed, done, failed,
-				fmt.Sprintf("stopped by a server shutdown after %d of %d runs", done+failed, len(p.RunIDs)))
-			return
+	type outcome struct {
+		id      int64
+		spectra int
+		err     error
+	}
+	ids := make(chan int64)
+	outs := make(chan outcome, 64) // workers never wait for a progress write
+	go func() {
+		defer close(ids)
+		for _, id := range p.RunIDs {
+			select {
+			case ids <- id:
+			case <-ctx.Done():
+				return
+			}
 		}
-		if err := j.reanalyzeOne(ctx, id, p); err != nil {
-			failed++
+	}()
+	var workers sync.WaitGroup
+	for range runtime.GOMAXPROCS(0) {
+		workers.Add(1)
+		go func() {
+			defer workers.Done()
+			for id := range ids {
+				n, err := j.reanalyzeOne(ctx, id, p)
+				outs <- outcome{id, n, err}
+			}
+		}()
+	}
+	go func() { workers.Wait(); close(outs) }()
+	start := time.Now()
+	last := start
+	for o := range outs {
+		if err := o.err; err != nil {
 			var ue *userError
 			switch {
 			case errors.As(err, &ue):
-				note(id, ue.msg)
+				note(o.id, ue.msg)
 			case errors.Is(err, store.ErrNotFound):
-				note(id, "no longer exists")
+				note(o.id, "no longer exists")
 			case errors.Is(err, store.ErrInvalid):
-				note(id, strings.TrimPrefix(err.Error(), "store: invalid: "))
+				note(o.id, strings.TrimPrefix(err.Error(), "store: invalid: "))
 			case ctx.Err() != nil:
-				failed--
 				continue
 			default:
-				j.s.Log.Error("jobs: reanalyse run", "job", job.ID, "run", id, "err", err)
-				note(id, "internal error (see the server log)")
+				j.s.Log.Error("jobs: reanalyse run", "job", job.ID, "run", o.id, "err", err)
+				note(o.id, "internal error (see the server log)")
 			}
+			failed++
 		} else {
 			done++
+			spectra += o.spectra
 		}
-		if err := db.JobProgress(ctx, job.ID, done, failed, strings.Join(msgs, "\n")); err != nil && ctx.Err() == nil {
-			j.s.Log.Error("jobs: progress", "job", job.ID, "err", err)
+		if now := time.Now(); now.Sub(last) >= jobProgressEvery && ctx.Err() == nil {
+			last = now
+			if err := db.JobProgress(ctx, job.ID, done, failed, strings.Join(msgs, "\n")); err != nil && ctx.Err() == nil {
+				j.s.Log.Error("jobs: progress", "job", job.ID, "err", err)
+			}
+			if err := db.JobRate(ctx, job.ID, spectra, now.Sub(start)); err != nil && ctx.Err() == nil {
+				j.s.Log.Error("jobs: progress", "job", job.ID, "err", err)
+			}
 		}
+	}
+	fin := context.WithoutCancel(ctx)
+	if err := db.JobRate(fin, job.ID, spectra, time.Since(start)); err != nil {
+		j.s.Log.Error("jobs: rate", "job", job.ID, "err", err)
+	}
+	if ctx.Err() != nil {
+		// The server is stopping: record how far the job came.
+		_ = db.FinishJob(fin, job.ID, store.JobFailed, done, failed,
+			fmt.Sprintf("stopped by a server shutdown after %d of %d runs", done+failed, len(p.RunIDs)))
+		return
 	}
 	state := store.JobDone
 	if failed > 0 && done == 0 {
 		state = store.JobFailed
 	}
-	if err := db.FinishJob(context.WithoutCancel(ctx), job.ID, state, done, failed, strings.Join(msgs, "\n")); err != nil {
+	if err := db.FinishJob(fin, job.ID, state, done, failed, strings.Join(msgs, "\n")); err != nil {
 		j.s.Log.Error("jobs: finish", "job", job.ID, "err", err)
 	}
 }
 
 // reanalyzeOne reanalyses one run with its latest settings and the job's
-// overrides.
-func (j *JobRunner) reanalyzeOne(ctx context.Context, id int64, p reanalyzeParams) error {
+// overrides, and returns how many spectra it analysed.
+func (j *JobRunner) reanalyzeOne(ctx context.Context, id int64, p reanalyzeParams) (int, error) {
 	s := j.s
 	r, err := s.DB.GetRun(ctx, id)
 	if err != nil {
-		return err
+		return 0, err
 	}
 	atts, err := s.DB.Attachments(ctx, id)
 	if err != nil {
-		return err
+		return 0, err
 	}
-	analysable := false
-	for _, a := range atts {
-		analysable = analysable || a.Kind == store.KindSpectrum || a.Kind == store.KindLineTable
-	}
-	if !analysable {
-		return badRequest("no spectrum or line table to analyse")
+	if !analysable(atts) {
+		return 0, badRequest("no spectrum or line table to analyse")
 	}
 	st := DefaultSettings(r)
-	if a, err := s.DB.AnalysisVersion(ctx, id, 0); err == nil {
+	if sj, err := s.DB.LatestSettings(ctx, id); err == nil {
 		var prev AnalysisSettings
-		if json.Unmarshal([]byte(a.Settings), &prev) == nil {
+		if json.Unmarshal([]byte(sj), &prev) == nil {
 			st = prev
 		}
 	} else if !errors.Is(err, store.ErrNotFound) {
-		return err
+		return 0, err
 	}
 	p.Overrides.apply(&st)
 	uid := p.UserID
@@ -210,8 +253,16 @@ func (j *JobRunner) reanalyzeOne(ctx context.Context, id int64, p reanalyzeParam
 	}
 	// Inside its transaction the reanalysis refuses a run signed off since
 	// the job was queued, unless the reviewer included signed-off runs.
-	_, err = s.reanalyzeRunWith(ctx, id, st, &uid, reason, p.IncludeSignedOff)
-	return err
+	if _, err := s.reanalyzeRunFiles(ctx, id, atts, st, &uid, reason, p.IncludeSignedOff); err != nil {
+		return 0, err
+	}
+	n := 0
+	for _, a := range atts {
+		if a.Kind == store.KindSpectrum {
+			n++
+		}
+	}
+	return n, nil
 }
 
 // startBulkReanalysis handles POST /jobs/reanalyze: the run-list filters
@@ -364,7 +415,7 @@ func (s *Server) showJob(c echo.Context) error {
 	_ = json.Unmarshal([]byte(job.Params), &p)
 	jp := views.JobProgressProps{ID: job.ID, State: job.State, Total: job.Total, Done: job.Done, Failed: job.Failed,
 		Finished: job.Finished(), Message: job.Message, Reason: p.Reason, By: job.CreatedByName,
-		Created: job.CreatedAt.Format(reviewTime)}
+		Created: job.CreatedAt.Format(reviewTime), Spectra: job.Spectra, SpectraPerSecond: job.SpectraPerSecond()}
 	if job.Total > 0 {
 		jp.Percent = 100 * (job.Done + job.Failed) / job.Total
 	}

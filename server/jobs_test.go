@@ -67,6 +67,9 @@ func TestBulkReanalysis(t *testing.T) {
 	}
 	if _, body := f.client(t, f.vie).req(http.MethodGet, "/jobs/1", nil); !strings.Contains(body, `data-testid="job-skipped">1 signed-off`) {
 		t.Errorf("job page does not say that a signed-off run was skipped: %.1500s", body)
+	} else if job.Spectra != 2 || job.Elapsed <= 0 || !strings.Contains(body, `data-testid="job-rate">2 spectra analysed, `) {
+		// the rate: one spectrum in each of the two runs done, over the job's time
+		t.Errorf("job rate: %d spectra in %v; page %.1500s", job.Spectra, job.Elapsed, body)
 	}
 	for _, id := range ids {
 		as, err := f.s.DB.Analyses(ctx, id)

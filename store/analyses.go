@@ -73,24 +73,19 @@ func (d *DB) AddAnalysis(ctx context.Context, runID int64, a NewAnalysis) (int, 
 // reviewer reopens the run.
 func (d *DB) AddAnalysisTx(ctx context.Context, tx *sql.Tx, runID int64, a NewAnalysis) (int, error) {
 	var status string
-	if err := tx.QueryRowContext(ctx, `SELECT status FROM runs WHERE id = ?`, runID).Scan(&status); err != nil {
+	if err := d.txQueryRow(ctx, tx, qRunStatus, []any{runID}, &status); err != nil {
 		return 0, errNoRows(err, fmt.Sprintf("run %d", runID))
 	}
 	var version int
-	if err := tx.QueryRowContext(ctx, `SELECT coalesce(max(version), 0) + 1 FROM analyses WHERE run_id = ?`, runID).Scan(&version); err != nil {
+	if err := d.txQueryRow(ctx, tx, qNextVersion, []any{runID}, &version); err != nil {
 		return 0, err
 	}
-	res, err := tx.ExecContext(ctx, `INSERT INTO analyses (run_id, version, settings, engine_version, created_by, created_at, reason)
-		VALUES (?, ?, ?, ?, ?, ?, ?)`, runID, version, a.Settings, a.EngineVersion, a.CreatedBy, d.now(), a.Reason)
+	res, err := d.txExec(ctx, tx, qAddAnalysis, runID, version, a.Settings, a.EngineVersion, a.CreatedBy, d.now(), a.Reason)
 	if err != nil {
 		return 0, fmt.Errorf("store: add analysis: %w", err)
 	}
 	aid, _ := res.LastInsertId()
-	ins, err := tx.PrepareContext(ctx, `INSERT INTO analysis_results (analysis_id, attachment_id, result, error, texc_k, texc_unc_k,
-		ne_m3, ne_unc_m3, tgas_k, n_warnings, warn_worst, same_as) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`)
-	if err != nil {
-		return 0, err
-	}
+	ins := d.txStmt(ctx, tx, qAddResult)
 	defer ins.Close()
 	for _, r := range a.Results {
 		var result, sameAs any
@@ -124,8 +119,7 @@ func (d *DB) AddAnalysisTx(ctx context.Context, tx *sql.Tx, runID int64, a NewAn
 // its summary columns and analysis_version.
 func (d *DB) setSummaryTx(ctx context.Context, tx *sql.Tx, runID int64, version int, rs []AnalysisResult) error {
 	s := summarize(rs)
-	_, err := tx.ExecContext(ctx, `UPDATE runs SET texc_k = ?, texc_unc_k = ?, ne_m3 = ?, ne_unc_m3 = ?, tgas_k = ?,
-		n_warnings = ?, warn_worst = ?, analysis_version = ?, updated_at = ? WHERE id = ?`,
+	_, err := d.txExec(ctx, tx, qSetSummary,
 		nullF(s.TexcK), nullF(s.TexcUncK), nullF(s.NeM3), nullF(s.NeUncM3), nullF(s.TgasK), s.NWarnings, s.WarnWorst, version, d.now(), runID)
 	return err
 }
@@ -299,7 +293,18 @@ func errNoRows(err error, what string) error {
 // JSON of a run's newest analysis version (ErrNotFound when it has none).
 func (d *DB) LatestSettingsTx(ctx context.Context, tx *sql.Tx, runID int64) (string, error) {
 	var settings string
-	err := tx.QueryRowContext(ctx, `SELECT settings FROM analyses WHERE run_id = ? ORDER BY version DESC LIMIT 1`, runID).Scan(&settings)
+	err := d.txQueryRow(ctx, tx, qLatestSettings, []any{runID}, &settings)
+	if err != nil {
+		return "", errNoRows(err, fmt.Sprintf("run %d analysis", runID))
+	}
+	return settings, nil
+}
+
+// LatestSettings returns the settings of a run's newest analysis version
+// (ErrNotFound when it has none).
+func (d *DB) LatestSettings(ctx context.Context, runID int64) (string, error) {
+	var settings string
+	err := d.db.QueryRowContext(ctx, qLatestSettings, runID).Scan(&settings)
 	if err != nil {
 		return "", errNoRows(err, fmt.Sprintf("run %d analysis", runID))
 	}
@@ -313,13 +318,13 @@ func (d *DB) LatestSettingsTx(ctx context.Context, tx *sql.Tx, runID int64) (str
 // version.
 func (d *DB) LatestResultsTx(ctx context.Context, tx *sql.Tx, runID int64) (settings, engine string, results []AnalysisResult, err error) {
 	var aid int64
-	err = tx.QueryRowContext(ctx, `SELECT id, settings, engine_version FROM analyses WHERE run_id = ? ORDER BY version DESC LIMIT 1`, runID).
-		Scan(&aid, &settings, &engine)
+	err = d.txQueryRow(ctx, tx, qLatestAnalysis, []any{runID}, &aid, &settings, &engine)
 	if err != nil {
 		return "", "", nil, errNoRows(err, fmt.Sprintf("run %d analysis", runID))
 	}
-	rows, err := tx.QueryContext(ctx, `SELECT attachment_id, coalesce(same_as, id), coalesce(error, ''), texc_k, texc_unc_k,
-		ne_m3, ne_unc_m3, tgas_k, n_warnings, warn_worst FROM analysis_results WHERE analysis_id = ?`, aid)
+	lr := d.txStmt(ctx, tx, qLatestResults)
+	defer lr.Close()
+	rows, err := lr.QueryContext(ctx, aid)
 	if err != nil {
 		return "", "", nil, err
 	}

@@ -49,18 +49,17 @@ func (d *DB) AddAttachmentTx(ctx context.Context, tx *sql.Tx, runID int64, kind,
 	// here, inside the write transaction, so that a sign-off committed
 	// after a handler's own check still wins.
 	var status string
-	if err := tx.QueryRowContext(ctx, `SELECT status FROM runs WHERE id = ?`, runID).Scan(&status); err != nil {
+	if err := d.txQueryRow(ctx, tx, qRunStatus, []any{runID}, &status); err != nil {
 		return 0, errNoRows(err, fmt.Sprintf("run %d", runID))
 	}
 	if status == StatusSignedOff {
 		return 0, fmt.Errorf("%w: run %d is signed off: its files are locked until a reviewer reopens it", ErrConflict, runID)
 	}
 	var seq int
-	if err := tx.QueryRowContext(ctx, `SELECT coalesce(max(seq), 0) + 1 FROM attachments WHERE run_id = ? AND kind = ?`, runID, kind).Scan(&seq); err != nil {
+	if err := d.txQueryRow(ctx, tx, qNextSeq, []any{runID, kind}, &seq); err != nil {
 		return 0, err
 	}
-	res, err := tx.ExecContext(ctx, `INSERT INTO attachments (run_id, kind, name, seq, size, created_at) VALUES (?, ?, ?, ?, ?, ?)`,
-		runID, kind, name, seq, len(content), d.now())
+	res, err := d.txExec(ctx, tx, qAddAttachment, runID, kind, name, seq, len(content), d.now())
 	if err != nil {
 		return 0, fmt.Errorf("store: add attachment: %w", err)
 	}
@@ -68,7 +67,7 @@ func (d *DB) AddAttachmentTx(ctx context.Context, tx *sql.Tx, runID int64, kind,
 	if err != nil {
 		return 0, err
 	}
-	if _, err := tx.ExecContext(ctx, `INSERT INTO attachment_contents (attachment_id, content) VALUES (?, ?)`, id, content); err != nil {
+	if _, err := d.txExec(ctx, tx, qAddContent, id, content); err != nil {
 		return 0, fmt.Errorf("store: add attachment content: %w", err)
 	}
 	return id, nil
@@ -86,7 +85,9 @@ func (d *DB) Attachments(ctx context.Context, runID int64) ([]Attachment, error)
 // version built from this list includes exactly the files committed before
 // it.
 func (d *DB) AttachmentsTx(ctx context.Context, tx *sql.Tx, runID int64) ([]Attachment, error) {
-	return listAttachments(ctx, tx, runID)
+	st := d.txStmt(ctx, tx, qListAttachments)
+	defer st.Close()
+	return listAttachments(ctx, stmtQuerier{st}, runID)
 }
 
 // querier is what *sql.DB and *sql.Tx share.
@@ -95,9 +96,20 @@ type querier interface {
 	QueryRowContext(ctx context.Context, query string, args ...any) *sql.Row
 }
 
+// stmtQuerier runs a prepared statement as a querier (the query text
+// given is that of the statement).
+type stmtQuerier struct{ st *sql.Stmt }
+
+func (q stmtQuerier) QueryContext(ctx context.Context, _ string, args ...any) (*sql.Rows, error) {
+	return q.st.QueryContext(ctx, args...)
+}
+
+func (q stmtQuerier) QueryRowContext(ctx context.Context, _ string, args ...any) *sql.Row {
+	return q.st.QueryRowContext(ctx, args...)
+}
+
 func listAttachments(ctx context.Context, q querier, runID int64) ([]Attachment, error) {
-	rows, err := q.QueryContext(ctx, `SELECT id, run_id, kind, name, seq, size, created_at FROM attachments
-		WHERE run_id = ? ORDER BY kind, seq`, runID)
+	rows, err := q.QueryContext(ctx, qListAttachments, runID)
 	if err != nil {
 		return nil, err
 	}
@@ -129,11 +141,32 @@ func (d *DB) AttachmentContent(ctx context.Context, id int64) (Attachment, error
 	return a, err
 }
 
+// RunContents returns the content of every attachment of a run, by id,
+// in one query (what a reanalysis of the whole run reads).
+func (d *DB) RunContents(ctx context.Context, runID int64) (map[int64][]byte, error) {
+	rows, err := d.db.QueryContext(ctx, `SELECT a.id, c.content FROM attachments a
+		JOIN attachment_contents c ON c.attachment_id = a.id WHERE a.run_id = ?`, runID)
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	out := map[int64][]byte{}
+	for rows.Next() {
+		var id int64
+		var b []byte
+		if err := rows.Scan(&id, &b); err != nil {
+			return nil, err
+		}
+		out[id] = b
+	}
+	return out, rows.Err()
+}
+
 // Begin starts a transaction for requests that store several things
 // atomically (a run with its attachments and first analysis); the
 // context's actor is recorded for the audit trail.
 func (d *DB) Begin(ctx context.Context) (*sql.Tx, error) {
-	tx, err := d.db.BeginTx(ctx, nil)
+	tx, err := d.wdb.BeginTx(ctx, nil)
 	if err != nil {
 		return nil, err
 	}

@@ -437,10 +437,10 @@ func recordMigration(ctx context.Context, tx *sql.Tx, name string) error {
 // once (database/sql keeps them prepared on each connection).
 func (d *DB) prepareActor(ctx context.Context) error {
 	var err error
-	if d.actorSet, err = d.db.PrepareContext(ctx, `UPDATE audit_actor SET user_id = ?, name = ?, via = ? WHERE id = 1`); err != nil {
+	if d.actorSet, err = d.wdb.PrepareContext(ctx, `UPDATE audit_actor SET user_id = ?, name = ?, via = ? WHERE id = 1`); err != nil {
 		return fmt.Errorf("store: audit actor: %w", err)
 	}
-	if d.actorClear, err = d.db.PrepareContext(ctx, `UPDATE audit_actor SET user_id = NULL, name = '', via = '' WHERE id = 1`); err != nil {
+	if d.actorClear, err = d.wdb.PrepareContext(ctx, `UPDATE audit_actor SET user_id = NULL, name = '', via = '' WHERE id = 1`); err != nil {
 		return fmt.Errorf("store: audit actor: %w", err)
 	}
 	return nil

@@ -29,6 +29,10 @@ type Job struct {
 	CreatedByName string
 	CreatedAt     time.Time
 	FinishedAt    *time.Time
+	// Spectra counts the spectra analysed so far, in Elapsed (the time
+	// the job has been working): its rate.
+	Spectra int
+	Elapsed time.Duration
 }
 
 // Finished reports whether the job has stopped (done or failed).
@@ -44,15 +48,17 @@ func (d *DB) CreateJob(ctx context.Context, kind, params string, total int, crea
 	return res.LastInsertId()
 }
 
-const jobCols = `j.id, j.kind, j.state, j.params, j.total, j.done, j.failed, j.message, j.created_by, coalesce(u.name, ''), j.created_at, j.finished_at`
+const jobCols = `j.id, j.kind, j.state, j.params, j.total, j.done, j.failed, j.message, j.created_by, coalesce(u.name, ''), j.created_at, j.finished_at, j.spectra, j.elapsed_us`
 
 func scanJob(row interface{ Scan(...any) error }) (Job, error) {
 	var j Job
 	var by, fin sql.NullInt64
-	var created int64
-	if err := row.Scan(&j.ID, &j.Kind, &j.State, &j.Params, &j.Total, &j.Done, &j.Failed, &j.Message, &by, &j.CreatedByName, &created, &fin); err != nil {
+	var created, elapsedUS int64
+	if err := row.Scan(&j.ID, &j.Kind, &j.State, &j.Params, &j.Total, &j.Done, &j.Failed, &j.Message, &by, &j.CreatedByName, &created, &fin,
+		&j.Spectra, &elapsedUS); err != nil {
 		return j, err
 	}
+	j.Elapsed = time.Duration(elapsedUS) * time.Microsecond
 	if by.Valid {
 		v := by.Int64
 		j.CreatedBy = &v
@@ -94,11 +100,30 @@ func (d *DB) ClaimNextJob(ctx context.Context) (Job, error) {
 
 // JobProgress records a running job's counts and message.
 func (d *DB) JobProgress(ctx context.Context, id int64, done, failed int, message string) error {
-	_, err := d.db.ExecContext(ctx, `UPDATE jobs SET done = ?, failed = ?, message = ? WHERE id = ?`, done, failed, message, id)
+	// Through the writer pool: queued behind the job's own transactions
+	// instead of polling SQLite's busy handler.
+	_, err := d.wdb.ExecContext(ctx, `UPDATE jobs SET done = ?, failed = ?, message = ? WHERE id = ?`, done, failed, message, id)
 	if err != nil {
 		return fmt.Errorf("store: job progress: %w", err)
 	}
 	return nil
+}
+
+// JobRate records how many spectra a job has analysed in how much time.
+func (d *DB) JobRate(ctx context.Context, id int64, spectra int, elapsed time.Duration) error {
+	_, err := d.wdb.ExecContext(ctx, `UPDATE jobs SET spectra = ?, elapsed_us = ? WHERE id = ?`, spectra, elapsed.Microseconds(), id)
+	if err != nil {
+		return fmt.Errorf("store: job rate: %w", err)
+	}
+	return nil
+}
+
+// SpectraPerSecond is the job's rate (0 before it has one).
+func (j Job) SpectraPerSecond() float64 {
+	if j.Elapsed <= 0 {
+		return 0
+	}
+	return float64(j.Spectra) / j.Elapsed.Seconds()
 }
 
 // FinishJob ends a job as done or failed with its final counts and message.

@@ -44,6 +44,14 @@ type DB struct {
 	auditReady bool
 	// actorSet and actorClear write audit_actor (prepared once).
 	actorSet, actorClear *sql.Stmt
+	// hot are the ingest path's statements, prepared once (stmts.go).
+	hot map[string]*sql.Stmt
+	// wdb is the pool of write transactions (Begin, inTx): one
+	// connection, so that writers queue in Go and each starts the moment
+	// the previous one ends, instead of polling SQLite's busy handler
+	// (which sleeps up to 100 ms between tries); the statements prepared
+	// on it stay prepared. db serves reads beside it (WAL).
+	wdb *sql.DB
 
 	path string // the file, for Backup
 }
@@ -109,8 +117,12 @@ func Open(ctx context.Context, path string, opts ...Options) (*DB, error) {
 	}
 	if path == ":memory:" {
 		sdb.SetMaxOpenConns(1) // one in-memory database, not one per connection
+	} else {
+		// Concurrent requests keep their connections (and the statements
+		// prepared on them) instead of opening new ones.
+		sdb.SetMaxIdleConns(8)
 	}
-	d := &DB{db: sdb, Now: time.Now, path: path}
+	d := &DB{db: sdb, wdb: sdb, Now: time.Now, path: path}
 	if err := d.migrate(ctx); err != nil {
 		sdb.Close()
 		return nil, err
@@ -119,8 +131,23 @@ func Open(ctx context.Context, path string, opts ...Options) (*DB, error) {
 		sdb.Close()
 		return nil, err
 	}
+	if path != ":memory:" {
+		// Opened without openSQL's EnsurePrivate: closing a descriptor of
+		// the file (as a permission check may) would drop this process's
+		// SQLite locks on it, which tell other processes (restore) that
+		// the database is in use.
+		if d.wdb, err = sql.Open("sqlite", sqlDSN(path, sync)); err != nil {
+			sdb.Close()
+			return nil, fmt.Errorf("store: open %s: %w", path, err)
+		}
+		d.wdb.SetMaxOpenConns(1)
+	}
 	if err := d.prepareActor(ctx); err != nil {
-		sdb.Close()
+		d.Close()
+		return nil, err
+	}
+	if err := d.prepareHot(ctx); err != nil {
+		d.Close()
 		return nil, err
 	}
 	d.auditReady = true
@@ -133,13 +160,21 @@ func Open(ctx context.Context, path string, opts ...Options) (*DB, error) {
 	return d, nil
 }
 
+// sqlDSN is the data source name of path with glowlog's pragmas.
+func sqlDSN(path, sync string) string {
+	if path == ":memory:" {
+		return "file::memory:?_pragma=foreign_keys(1)&_pragma=busy_timeout(5000)&_txlock=immediate"
+	}
+	return "file:" + path + "?_pragma=foreign_keys(1)&_pragma=journal_mode(WAL)&_pragma=busy_timeout(5000)&_pragma=synchronous(" + strings.ToUpper(sync) + ")&_txlock=immediate"
+}
+
 // openSQL opens the pool with glowlog's pragmas, without migrating.
 func openSQL(path, sync string) (*sql.DB, error) {
-	dsn := "file:" + path + "?_pragma=foreign_keys(1)&_pragma=journal_mode(WAL)&_pragma=busy_timeout(5000)&_pragma=synchronous(" + strings.ToUpper(sync) + ")&_txlock=immediate"
-	if path == ":memory:" {
-		dsn = "file::memory:?_pragma=foreign_keys(1)&_pragma=busy_timeout(5000)&_txlock=immediate"
-	} else if err := EnsurePrivate(path); err != nil {
-		return nil, err
+	dsn := sqlDSN(path, sync)
+	if path != ":memory:" {
+		if err := EnsurePrivate(path); err != nil {
+			return nil, err
+		}
 	}
 	sdb, err := sql.Open("sqlite", dsn)
 	if err != nil {
@@ -149,7 +184,12 @@ func openSQL(path, sync string) (*sql.DB, error) {
 }
 
 // Close closes the database.
-func (d *DB) Close() error { return d.db.Close() }
+func (d *DB) Close() error {
+	if d.wdb != nil && d.wdb != d.db {
+		d.wdb.Close()
+	}
+	return d.db.Close()
+}
 
 // Ping checks that the database answers (for /healthz).
 func (d *DB) Ping(ctx context.Context) error {
@@ -234,7 +274,7 @@ func splitSQL(s string) []string {
 // inTx runs fn in a transaction, committing when it returns nil. The
 // context's actor (WithActor) is recorded for the audit trail.
 func (d *DB) inTx(ctx context.Context, fn func(tx *sql.Tx) error) error {
-	tx, err := d.db.BeginTx(ctx, nil)
+	tx, err := d.wdb.BeginTx(ctx, nil)
 	if err != nil {
 		return err
 	}

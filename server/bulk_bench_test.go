@@ -1,0 +1,94 @@
+package server
+
+import (
+	"context"
+	"fmt"
+	"os"
+	"path/filepath"
+	"testing"
+	"time"
+
+	"glowlog/store"
+)
+
+// BenchmarkBulkReanalysis measures a bulk reanalysis job over 10 000
+// spectra: 500 runs of 20 copies of a 2048-pixel spectrum (Hα–Hζ), each
+// run getting a new analysis version. Reported: spectra per second (wall
+// clock) and cpu-ms/spectrum (the process's CPU time per spectrum: two
+// idle cores take 2000 / cpu-ms/spectrum spectra per second).
+//
+//	go test ./server/ -run '^$' -bench BulkReanalysis -benchtime 1x
+func BenchmarkBulkReanalysis(b *testing.B) {
+	const runs, perRun = 500, 20
+	ctx := context.Background()
+	db, err := store.Open(ctx, filepath.Join(b.TempDir(), "bulk.db"))
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer db.Close()
+	s := New(db, Options{})
+	u, err := db.CreateUser(ctx, "reviewer", store.RoleReviewer, "x")
+	if err != nil {
+		b.Fatal(err)
+	}
+	spec, err := os.ReadFile("../testdata/spectra/scipy_bench_2048.csv")
+	if err != nil {
+		b.Fatal(err)
+	}
+	fwhm, tgas := 0.35, 1000.0
+	t0 := time.Date(2026, 11, 1, 8, 0, 0, 0, time.UTC)
+	var ids []int64
+	for i := range runs {
+		id, err := db.CreateRun(ctx, u.ID, store.RunInput{Title: fmt.Sprintf("series %d", i), StartedAt: t0.Add(time.Duration(i) * time.Hour),
+			SourceType: "microwave", InstrumentFWHMNM: &fwhm, GasTemperatureK: &tgas})
+		if err != nil {
+			b.Fatal(err)
+		}
+		tx, err := db.Begin(ctx)
+		if err != nil {
+			b.Fatal(err)
+		}
+		for k := range perRun {
+			if _, err := db.AddAttachmentTx(ctx, tx, id, store.KindSpectrum, fmt.Sprintf("s%02d.csv", k), spec); err != nil {
+				b.Fatal(err)
+			}
+		}
+		if err := tx.Commit(); err != nil {
+			b.Fatal(err)
+		}
+		ids = append(ids, id)
+	}
+	params := fmt.Sprintf(`{"run_ids": %s, "reason": "bench", "user_id": %d}`, jsonInts(ids), u.ID)
+	jr := NewJobRunner(s)
+	b.ResetTimer()
+	var el, cpu time.Duration
+	for range b.N {
+		if _, err := db.CreateJob(ctx, jobKindReanalyze, params, runs, u.ID); err != nil {
+			b.Fatal(err)
+		}
+		job, err := db.ClaimNextJob(ctx)
+		if err != nil {
+			b.Fatal(err)
+		}
+		start, cpu0 := time.Now(), cpuTime()
+		jr.run(ctx, job)
+		el, cpu = el+time.Since(start), cpu+cpuTime()-cpu0
+		if job, err = db.Job(ctx, job.ID); err != nil || job.Done != runs {
+			b.Fatalf("job: %+v %v", job, err)
+		}
+	}
+	n := float64(b.N * runs * perRun)
+	b.ReportMetric(n/el.Seconds(), "spectra/s")
+	b.ReportMetric(cpu.Seconds()*1000/n, "cpu-ms/spectrum")
+}
+
+func jsonInts(v []int64) string {
+	out := "["
+	for i, x := range v {
+		if i > 0 {
+			out += ","
+		}
+		out += fmt.Sprint(x)
+	}
+	return out + "]"
+}

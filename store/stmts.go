@@ -1,0 +1,73 @@
+package store
+
+import (
+	"context"
+	"database/sql"
+	"fmt"
+)
+
+// The statements of the ingest path (a file and its analysis version),
+// prepared once: preparing compiles the audit triggers into every write
+// statement, which cost about as much as running it. database/sql keeps a
+// prepared statement on each pooled connection it has run on.
+const (
+	qRunStatus     = `SELECT status FROM runs WHERE id = ?`
+	qNextSeq       = `SELECT coalesce(max(seq), 0) + 1 FROM attachments WHERE run_id = ? AND kind = ?`
+	qAddAttachment = `INSERT INTO attachments (run_id, kind, name, seq, size, created_at) VALUES (?, ?, ?, ?, ?, ?)`
+	qAddContent    = `INSERT INTO attachment_contents (attachment_id, content) VALUES (?, ?)`
+	qNextVersion   = `SELECT coalesce(max(version), 0) + 1 FROM analyses WHERE run_id = ?`
+	qAddAnalysis   = `INSERT INTO analyses (run_id, version, settings, engine_version, created_by, created_at, reason)
+		VALUES (?, ?, ?, ?, ?, ?, ?)`
+	qAddResult = `INSERT INTO analysis_results (analysis_id, attachment_id, result, error, texc_k, texc_unc_k,
+		ne_m3, ne_unc_m3, tgas_k, n_warnings, warn_worst, same_as) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`
+	qSetSummary = `UPDATE runs SET texc_k = ?, texc_unc_k = ?, ne_m3 = ?, ne_unc_m3 = ?, tgas_k = ?,
+		n_warnings = ?, warn_worst = ?, analysis_version = ?, updated_at = ? WHERE id = ?`
+	qLatestSettings = `SELECT settings FROM analyses WHERE run_id = ? ORDER BY version DESC LIMIT 1`
+	qLatestAnalysis = `SELECT id, settings, engine_version FROM analyses WHERE run_id = ? ORDER BY version DESC LIMIT 1`
+	qLatestResults  = `SELECT attachment_id, coalesce(same_as, id), coalesce(error, ''), texc_k, texc_unc_k,
+		ne_m3, ne_unc_m3, tgas_k, n_warnings, warn_worst FROM analysis_results WHERE analysis_id = ?`
+	qListAttachments = `SELECT id, run_id, kind, name, seq, size, created_at FROM attachments
+		WHERE run_id = ? ORDER BY kind, seq`
+)
+
+var hotQueries = []string{qRunStatus, qNextSeq, qAddAttachment, qAddContent, qNextVersion, qAddAnalysis, qAddResult,
+	qSetSummary, qLatestSettings, qLatestAnalysis, qLatestResults, qListAttachments}
+
+// prepareHot prepares hotQueries (after the migrations and triggers: a
+// later schema change makes SQLite compile a statement again by itself).
+func (d *DB) prepareHot(ctx context.Context) error {
+	d.hot = make(map[string]*sql.Stmt, len(hotQueries))
+	for _, q := range hotQueries {
+		st, err := d.wdb.PrepareContext(ctx, q)
+		if err != nil {
+			return fmt.Errorf("store: prepare %q: %w", q, err)
+		}
+		d.hot[q] = st
+	}
+	return nil
+}
+
+// txStmt returns the prepared statement of query q (one of hotQueries)
+// for use in tx; the caller closes it (which keeps the prepared statement
+// on the connection for the next transaction).
+func (d *DB) txStmt(ctx context.Context, tx *sql.Tx, q string) *sql.Stmt {
+	st, ok := d.hot[q]
+	if !ok {
+		panic("store: statement not prepared: " + q)
+	}
+	return tx.StmtContext(ctx, st)
+}
+
+// txExec runs a prepared hot statement in tx.
+func (d *DB) txExec(ctx context.Context, tx *sql.Tx, q string, args ...any) (sql.Result, error) {
+	st := d.txStmt(ctx, tx, q)
+	defer st.Close()
+	return st.ExecContext(ctx, args...)
+}
+
+// txQueryRow scans one row of a prepared hot statement in tx.
+func (d *DB) txQueryRow(ctx context.Context, tx *sql.Tx, q string, args []any, dest ...any) error {
+	st := d.txStmt(ctx, tx, q)
+	defer st.Close()
+	return st.QueryRowContext(ctx, args...).Scan(dest...)
+}
