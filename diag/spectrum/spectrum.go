@@ -523,8 +523,8 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 		}
 		if c.search.FWHMPixels < MinFWHMPixels {
 			undersampled = append(undersampled, fmt.Sprintf(
-				"%s is undersampled: its fitted FWHM %.3g nm spans %.2g pixels (< %.1f), so its width is unreliable and gives no electron density; its area is kept. Use a finer grating, a narrower slit setting with more pixels per nm, or a higher order",
-				c.t.Name(), f.VoigtFWHM, c.search.FWHMPixels, MinFWHMPixels))
+				"%s is undersampled: its fitted FWHM %.3g nm spans %.3g pixels (< %.1f), so its width is unreliable and gives no electron density; its area is kept. Use more pixels per nm (a finer grating, a longer focal length or a higher order), or a slit wide enough that the instrument FWHM covers at least %.1f pixels",
+				c.t.Name(), f.VoigtFWHM, c.search.FWHMPixels, MinFWHMPixels, MinFWHMPixels))
 		} else if !f.LorentzAtBound && f.LorentzFWHM > 0 {
 			ml.LorentzFWHMNM, ml.LorentzFWHMUncNM = lor, f.LorentzFWHMErr
 			if wFac > 0 {
