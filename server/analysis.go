@@ -829,6 +829,15 @@ func (s *Server) reanalyzeRunTxPre(ctx context.Context, tx *sql.Tx, runID int64,
 // undone by an upload that read them before it).
 func (s *Server) latestSettingsTx(ctx context.Context, tx *sql.Tx, r store.Run) (AnalysisSettings, error) {
 	sj, err := s.DB.LatestSettingsTx(ctx, tx, r.ID)
+	st, err := decodeSettings(r, sj, err)
+	st.CalibrationFiles = nil // recomputed from the files
+	return st, err
+}
+
+// decodeSettings turns a run's stored latest settings (sj, err as the
+// store returns them) into AnalysisSettings: the run's defaults when it has
+// no analysis yet.
+func decodeSettings(r store.Run, sj string, err error) (AnalysisSettings, error) {
 	if errors.Is(err, store.ErrNotFound) {
 		return DefaultSettings(r), nil
 	}
@@ -839,7 +848,6 @@ func (s *Server) latestSettingsTx(ctx context.Context, tx *sql.Tx, r store.Run) 
 	if err := json.Unmarshal([]byte(sj), &st); err != nil {
 		return AnalysisSettings{}, fmt.Errorf("server: settings of run %d: %w", r.ID, err)
 	}
-	st.CalibrationFiles = nil // recomputed from the files
 	return st, nil
 }
 

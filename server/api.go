@@ -175,17 +175,7 @@ func (s *Server) runFromPath(c echo.Context) (store.Run, error) {
 // or the run's defaults when it has none.
 func (s *Server) latestSettings(c echo.Context, r store.Run) (AnalysisSettings, error) {
 	sj, err := s.DB.LatestSettings(c.Request().Context(), r.ID)
-	if errors.Is(err, store.ErrNotFound) {
-		return DefaultSettings(r), nil
-	}
-	if err != nil {
-		return AnalysisSettings{}, err
-	}
-	var st AnalysisSettings
-	if err := json.Unmarshal([]byte(sj), &st); err != nil {
-		return AnalysisSettings{}, fmt.Errorf("server: settings of run %d: %w", r.ID, err)
-	}
-	return st, nil
+	return decodeSettings(r, sj, err)
 }
 
 // applySettingFields overrides analysis settings with the form fields of

@@ -2,7 +2,6 @@ package server
 
 import (
 	"context"
-	"encoding/csv"
 	"errors"
 	"fmt"
 	"net/http"
@@ -287,11 +286,7 @@ func (s *Server) exportAudit(c echo.Context) error {
 	if err != nil {
 		return err
 	}
-	h := c.Response().Header()
-	h.Set(echo.HeaderContentType, "text/csv; charset=utf-8")
-	h.Set(echo.HeaderContentDisposition, `attachment; filename="glowlog-audit.csv"`)
-	c.Response().WriteHeader(http.StatusOK)
-	w := csv.NewWriter(c.Response())
+	w := csvAttachment(c, "glowlog-audit.csv")
 	w.UseCRLF = true
 	if err := w.Write(auditCSVHeader); err != nil {
 		return err

@@ -1,8 +1,6 @@
 package server
 
 import (
-	"encoding/csv"
-	"net/http"
 	"strconv"
 	"strings"
 
@@ -28,11 +26,7 @@ func (s *Server) exportRuns(c echo.Context) error {
 	if err != nil {
 		return err
 	}
-	h := c.Response().Header()
-	h.Set(echo.HeaderContentType, "text/csv; charset=utf-8")
-	h.Set(echo.HeaderContentDisposition, `attachment; filename="glowlog-runs.csv"`)
-	c.Response().WriteHeader(http.StatusOK)
-	w := csv.NewWriter(c.Response())
+	w := csvAttachment(c, "glowlog-runs.csv")
 	w.UseCRLF = true // RFC 4180 line ends
 	if err := w.Write(runCSVHeader); err != nil {
 		return err

@@ -1,7 +1,6 @@
 package server
 
 import (
-	"encoding/csv"
 	"fmt"
 	"image/color"
 	"math"
@@ -1097,11 +1096,7 @@ func (s *Server) exportTrends(c echo.Context) error {
 	if err != nil {
 		return err
 	}
-	h := c.Response().Header()
-	h.Set(echo.HeaderContentType, "text/csv; charset=utf-8")
-	h.Set(echo.HeaderContentDisposition, `attachment; filename="glowlog-trend-`+p.y.Key+`.csv"`)
-	c.Response().WriteHeader(http.StatusOK)
-	w := csv.NewWriter(c.Response())
+	w := csvAttachment(c, "glowlog-trend-"+p.y.Key+".csv")
 	head := []string{"run_id", "started_at_utc", "series", p.x.Key, p.y.Key, p.y.Key + "_unc_1sigma"}
 	if p.control {
 		head = append(head, "centre", "lcl", "ucl", "violations")
