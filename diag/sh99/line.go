@@ -162,26 +162,57 @@ func newLine(upper int, tK, neCM3, x []float64, lambda0 [][]float64, prof [][][]
 // line).
 func (l *Line) starkWidths(kind WidthKind) [][]float64 {
 	l.starkOnce[kind].Do(func() {
-		g := l.lw[kind][1]
-		l.unc[kind] = make([][]float64, len(l.ne))
-		for j := range l.ne {
-			l.unc[kind][j] = make([]float64, len(l.t))
-			for k, tk := range l.t {
-				g[j][k] = math.NaN()
-				np := l.nodes[j][k]
-				if np == nil {
-					continue
-				}
-				wD := l.DopplerFWHMNM(tk)
-				s, u := starkEstimate(kind, np, l.xPerNM[j], math.Exp(l.lw[kind][0][j][k]), wD)
-				if s > 0 && wD <= maxDopplerRatio*s {
-					g[j][k] = math.Log(s)
-					l.unc[kind][j][k] = u
+		if tab, ok := starkTable[starkKey{l.upper, kind}]; ok && len(tab) == len(l.ne) && len(tab[0]) == len(l.t) {
+			// Precomputed by computeStarkWidths (stark_table.go, checked
+			// by TestStarkTableGenerated): the numerical convolutions cost
+			// ~0.1 s per line, paid by every process otherwise.
+			g := l.lw[kind][1]
+			l.unc[kind] = make([][]float64, len(l.ne))
+			for j := range l.ne {
+				l.unc[kind][j] = make([]float64, len(l.t))
+				for k := range l.t {
+					g[j][k], l.unc[kind][j][k] = tab[j][k][0], tab[j][k][1]
 				}
 			}
+			return
 		}
+		lnW, unc := l.computeStarkWidths(kind)
+		copy(l.lw[kind][1], lnW)
+		l.unc[kind] = unc
 	})
 	return l.lw[kind][1]
+}
+
+// starkKey names one line's table of Stark-only widths of one kind.
+type starkKey struct {
+	upper int
+	kind  WidthKind
+}
+
+// computeStarkWidths returns ln of the Stark-only widths of kind at every
+// node (NaN where not available) and the relative σ of their Doppler
+// removal, from the tabulated profiles.
+func (l *Line) computeStarkWidths(kind WidthKind) (lnW, unc [][]float64) {
+	lnW = make([][]float64, len(l.ne))
+	unc = make([][]float64, len(l.ne))
+	for j := range l.ne {
+		lnW[j] = make([]float64, len(l.t))
+		unc[j] = make([]float64, len(l.t))
+		for k, tk := range l.t {
+			lnW[j][k] = math.NaN()
+			np := l.nodes[j][k]
+			if np == nil {
+				continue
+			}
+			wD := l.DopplerFWHMNM(tk)
+			s, u := starkEstimate(kind, np, l.xPerNM[j], math.Exp(l.lw[kind][0][j][k]), wD)
+			if s > 0 && wD <= maxDopplerRatio*s {
+				lnW[j][k] = math.Log(s)
+				unc[j][k] = u
+			}
+		}
+	}
+	return lnW, unc
 }
 
 // Upper returns the upper principal quantum number n_u of the line n_u → 2.
