@@ -91,6 +91,16 @@ type Options struct {
 	// the Voigt window fit's Lorentzian widths and areas are corrected for
 	// the Stark shape of Balmer lines (shape.go).
 	LineShape string
+	// Model is the analysis route: ModelWhole or ModelLines ("" means
+	// ModelLines until the whole-spectrum fit is the default).
+	Model string
+	// WholeAreas is WholeAreasBoltzmann ("" means it) or WholeAreasFree.
+	WholeAreas string
+	// WholeFreeGasTemperature and WholeFreeInstrument free the gas
+	// temperature (Doppler) and the instrument's Gaussian width (with a
+	// linear dependence on λ) in the whole-spectrum fit.
+	WholeFreeGasTemperature bool
+	WholeFreeInstrument     bool
 }
 
 // Defaults of Options.
@@ -190,6 +200,10 @@ type Result struct {
 	Partial        bool     `json:"partial"`
 	PartialReasons []string `json:"partial_reasons,omitempty"`
 	Windows        []Window `json:"windows,omitempty"`
+	// Model is the route whose numbers are at the top level ("lines" or
+	// "whole"); Whole is the whole-spectrum fit when it was run.
+	Model string    `json:"model"`
+	Whole *WholeFit `json:"whole_fit,omitempty"`
 }
 
 // Error is a problem with a spectrum (or its dark, response or instrument

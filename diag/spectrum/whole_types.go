@@ -1,0 +1,112 @@
+package spectrum
+
+// Analysis routes of the pipeline (Options.Model).
+const (
+	// ModelWhole fits one physical model to the whole fitted range: line
+	// areas tied by the Boltzmann distribution (or free), every line's
+	// Stark width and shape tied to one n_e, pixel-integrated, with a
+	// smooth baseline and a wavelength offset (whole.go).
+	ModelWhole = "whole"
+	// ModelLines fits each line's window on its own (Voigt + straight
+	// baseline) and combines the areas on a Boltzmann plot and the widths
+	// into densities.
+	ModelLines = "lines"
+)
+
+// ValidModel reports whether s names an analysis route ("" means the
+// default).
+func ValidModel(s string) bool { return s == "" || s == ModelWhole || s == ModelLines }
+
+// Area modes of the whole-spectrum fit (Options.WholeAreas).
+const (
+	// WholeAreasBoltzmann ties every line area to T_exc and one scale.
+	WholeAreasBoltzmann = "boltzmann"
+	// WholeAreasFree leaves each line's area free (populations that are
+	// not Boltzmann); T_exc then comes from a Boltzmann plot of the
+	// fitted areas.
+	WholeAreasFree = "free"
+)
+
+// FlagWholeDisagrees is raised when the whole-spectrum fit and the
+// line-by-line route disagree beyond their uncertainties.
+const FlagWholeDisagrees = "whole_lines_disagree"
+
+// WholeParam is one parameter of the whole-spectrum model.
+type WholeParam struct {
+	// Name is a stable identifier: "T_exc", "scale", "n_e", "T_gas",
+	// "instrument_fwhm", "instrument_fwhm_slope", "offset", "baseline_0"…,
+	// "area_<upper>".
+	Name  string  `json:"name"`
+	Label string  `json:"label"` // for people: "Excitation temperature"
+	Unit  string  `json:"unit"`  // "K", "m⁻³", "nm", …
+	Value float64 `json:"value"`
+	// Unc is the fit's 1σ (0 when Fixed).
+	Unc   float64 `json:"unc"`
+	Fixed bool    `json:"fixed"`
+}
+
+// WholeLine is one Balmer line inside the whole-spectrum model.
+type WholeLine struct {
+	Upper int    `json:"upper_level"`
+	Name  string `json:"name"`
+	// Shape is "SH99" (the tabulated Stark ⊗ Doppler shape) or "Voigt"
+	// (outside the tables: Lorentzian Stark width of the preferred
+	// relation).
+	Shape string `json:"shape"`
+	// Area and AreaUnc are the line's integrated intensity in the
+	// analysis' intensity unit (from the Boltzmann scale, or free).
+	Area    float64 `json:"area"`
+	AreaUnc float64 `json:"area_unc"`
+	// StarkFWHMNM is the model's Stark FWHM at the fitted n_e.
+	StarkFWHMNM float64 `json:"stark_fwhm_nm"`
+	// ReducedChi2 and ResidualRMS are over the pixels within the line's
+	// window (as the line-by-line route cuts it), RMS in units of σ.
+	ReducedChi2 float64 `json:"reduced_chi2"`
+	ResidualRMS float64 `json:"residual_rms"`
+	// PeakSNR is the model's peak over the noise.
+	PeakSNR float64 `json:"peak_snr"`
+}
+
+// WholeFit is the result of the whole-spectrum model fit.
+type WholeFit struct {
+	// Areas is WholeAreasBoltzmann or WholeAreasFree.
+	Areas string `json:"areas"`
+	// RangeNM is the fitted wavelength range; Pixels the pixels in it.
+	RangeNM [2]float64 `json:"range_nm"`
+	Pixels  int        `json:"pixels"`
+	// Params lists every parameter, fixed ones too; Correlation is the
+	// correlation matrix of the free ones, in their order in Params.
+	Params      []WholeParam `json:"params"`
+	Correlation [][]float64  `json:"correlation"`
+	ReducedChi2 float64      `json:"reduced_chi2"`
+	DOF         int          `json:"dof"`
+	Iterations  int          `json:"iterations"`
+	Converged   bool         `json:"converged"`
+	// DopplerNote says how the tables' own Doppler part was handled.
+	DopplerNote string      `json:"doppler_note"`
+	Lines       []WholeLine `json:"lines"`
+	// Results of the whole fit with the stat/sys/total split of the
+	// line-by-line route (nil where the fit does not determine them).
+	ExcitationTemperatureK        *float64 `json:"excitation_temperature_K"`
+	ExcitationTemperatureUncStatK *float64 `json:"excitation_temperature_unc_stat_K"`
+	ExcitationTemperatureUncSysK  *float64 `json:"excitation_temperature_unc_sys_K"`
+	ExcitationTemperatureUncK     *float64 `json:"excitation_temperature_unc_K"`
+	ElectronDensityM3             *float64 `json:"electron_density_m3"`
+	ElectronDensityUncStatM3      *float64 `json:"electron_density_unc_stat_m3"`
+	ElectronDensityUncSysM3       *float64 `json:"electron_density_unc_sys_m3"`
+	ElectronDensityUncM3          *float64 `json:"electron_density_unc_m3"`
+	GasTemperatureK               *float64 `json:"gas_temperature_K,omitempty"`
+	GasTemperatureUncK            *float64 `json:"gas_temperature_unc_K,omitempty"`
+	// Lines route beside it, and the difference in combined σ.
+	LinesExcitationTemperatureK    *float64 `json:"lines_excitation_temperature_K"`
+	LinesExcitationTemperatureUncK *float64 `json:"lines_excitation_temperature_unc_K"`
+	LinesElectronDensityM3         *float64 `json:"lines_electron_density_m3"`
+	LinesElectronDensityUncM3      *float64 `json:"lines_electron_density_unc_m3"`
+	TexcDiffSigma                  *float64 `json:"texc_difference_sigma"`
+	NeDiffSigma                    *float64 `json:"ne_difference_sigma"`
+	// Plot series over the fitted range (Options.KeepWindows).
+	WavelengthNM PlotFloats `json:"wavelength_nm,omitempty"`
+	Data         PlotFloats `json:"data,omitempty"`
+	Model        PlotFloats `json:"model,omitempty"`
+	Residual     PlotFloats `json:"residual,omitempty"`
+}
