@@ -73,112 +73,123 @@ func continuumToPeak(c *balmerCandidate) float64 {
 // the fitted Lorentzian FWHM over the true Stark width (FWHA for Hα, the
 // peaks' FWHM for the others: the widths the Stark relations take),
 // [1] its scatter (sample standard deviation within the node's bin),
-// [2] the mean of ln(A_fit/A), the fitted over the true area, [3] its
-// scatter. A Stark profile has a flat or dipped core and wings falling as
-// Δλ^(−5/2), steeper than a Lorentzian's Δλ^(−2): the Voigt fit matches
-// the core with too narrow a Lorentzian (Hβ 20 % narrow even where Stark
+// [2] the mean of ln(A_fit/A), the fitted over the true area, [3] the
+// area's scatter beyond the fit's own σ: from the residuals e_i of
+// ln(A_fit/A) about row [2] as interpolated here, σ_k² = Σ w_ik (e_i² −
+// s_i²)/Σ w_ik with s_i the fit's stated relative σ and w_ik node k's
+// interpolation weight (residualScatter; 0 where the fit's σ explains
+// all of it). The corrected area's σ is the fit's ⊕ this ⊕
+// shapeFloorAreaRel. (Until 2026-12 row [3] was the bin's standard
+// deviation like [1]: it counted the fit's noise a second time and the
+// mean's change across a bin two node intervals wide, and overstated the
+// area σ: on fresh generated lines the corrected area was within its
+// stated 1σ in 77–99 % of cases per line class; with this row 86–94 %,
+// and with shapeFloorAreaRel as a rectangular σ 77–87 %.) A Stark
+// profile has a flat or dipped core and wings falling as Δλ^(−5/2),
+// steeper than a Lorentzian's Δλ^(−2): the Voigt fit matches the core
+// with too narrow a Lorentzian (Hβ 20 % narrow even where Stark
 // dominates) and puts area into wings the line does not have (Hβ … Hε
 // 4–9 % too much). Nodes with fewer than three cases (Hα at r = 50) hold
-// their neighbour's value.
+// their neighbour's value (for row [3]: less than 3 in total weight).
 var shapeTable = [5][3][4][]float64{
 	{
-		{ // Hα, continuum/peak bin 0, 51 cases
+		{ // Hα, continuum/peak bin 0, 141 cases
 			{-0.108, -0.108, 0.006, 0.042, 0.074, 0.075, 0.066, 0.046, 0.036, 0.036, 0.036},
 			{0.089, 0.089, 0.027, 0.028, 0.008, 0.007, 0.011, 0.011, 0.004, 0.004, 0.004},
-			{0.019, 0.019, 0.030, 0.036, 0.041, 0.041, 0.039, 0.029, 0.024, 0.024, 0.024},
-			{0.005, 0.005, 0.005, 0.005, 0.005, 0.006, 0.007, 0.006, 0.002, 0.002, 0.002},
+			{0.007, 0.018, 0.026, 0.036, 0.042, 0.042, 0.039, 0.029, 0.024, 0.024, 0.024},
+			{0.003, 0.000, 0.000, 0.000, 0.003, 0.004, 0.000, 0.000, 0.000, 0.000, 0.000},
 		},
-		{ // Hα, continuum/peak bin 1, 79 cases
+		{ // Hα, continuum/peak bin 1, 130 cases
 			{-0.022, -0.022, 0.020, 0.062, 0.078, 0.071, 0.053, 0.036, 0.022, 0.022, 0.022},
 			{0.040, 0.040, 0.026, 0.021, 0.009, 0.013, 0.015, 0.012, 0.008, 0.002, 0.002},
-			{0.026, 0.026, 0.030, 0.038, 0.041, 0.039, 0.032, 0.022, 0.014, 0.013, 0.013},
-			{0.003, 0.003, 0.005, 0.006, 0.006, 0.007, 0.009, 0.008, 0.006, 0.003, 0.003},
+			{0.009, 0.022, 0.030, 0.041, 0.043, 0.040, 0.032, 0.022, 0.014, 0.013, 0.013},
+			{0.005, 0.001, 0.000, 0.000, 0.005, 0.005, 0.004, 0.004, 0.002, 0.002, 0.002},
 		},
-		{ // Hα, continuum/peak bin 2, 80 cases
+		{ // Hα, continuum/peak bin 2, 138 cases
 			{-0.015, -0.015, 0.051, 0.078, 0.077, 0.054, 0.031, 0.011, -0.011, -0.023, -0.023},
 			{0.075, 0.075, 0.033, 0.015, 0.015, 0.029, 0.023, 0.018, 0.013, 0.007, 0.007},
-			{0.029, 0.029, 0.037, 0.041, 0.041, 0.030, 0.019, 0.007, -0.009, -0.016, -0.016},
-			{0.007, 0.007, 0.007, 0.006, 0.009, 0.017, 0.014, 0.013, 0.009, 0.003, 0.003},
+			{0.008, 0.024, 0.036, 0.042, 0.043, 0.031, 0.019, 0.007, -0.009, -0.016, -0.016},
+			{0.005, 0.000, 0.000, 0.005, 0.008, 0.012, 0.012, 0.007, 0.005, 0.005, 0.005},
 		},
 	},
 	{
-		{ // Hβ, continuum/peak bin 0, 80 cases
+		{ // Hβ, continuum/peak bin 0, 111 cases
 			{-0.862, -0.752, -0.618, -0.514, -0.381, -0.331, -0.285, -0.243, -0.226, -0.226, -0.226},
 			{0.078, 0.098, 0.087, 0.072, 0.046, 0.034, 0.029, 0.024, 0.012, 0.012, 0.012},
-			{0.015, 0.021, 0.032, 0.043, 0.058, 0.066, 0.071, 0.072, 0.074, 0.074, 0.074},
-			{0.006, 0.006, 0.010, 0.010, 0.008, 0.009, 0.008, 0.009, 0.009, 0.009, 0.009},
+			{0.008, 0.019, 0.031, 0.043, 0.056, 0.066, 0.071, 0.072, 0.074, 0.074, 0.074},
+			{0.002, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000},
 		},
-		{ // Hβ, continuum/peak bin 1, 87 cases
+		{ // Hβ, continuum/peak bin 1, 108 cases
 			{-0.763, -0.705, -0.549, -0.434, -0.360, -0.289, -0.228, -0.208, -0.193, -0.185, -0.185},
 			{0.051, 0.092, 0.091, 0.067, 0.058, 0.047, 0.025, 0.022, 0.024, 0.027, 0.027},
-			{0.018, 0.025, 0.043, 0.062, 0.077, 0.092, 0.098, 0.096, 0.096, 0.098, 0.098},
-			{0.004, 0.010, 0.012, 0.012, 0.013, 0.011, 0.010, 0.013, 0.018, 0.021, 0.021},
+			{0.014, 0.026, 0.044, 0.062, 0.077, 0.092, 0.098, 0.096, 0.096, 0.098, 0.098},
+			{0.004, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000, 0.004, 0.012, 0.019, 0.019},
 		},
-		{ // Hβ, continuum/peak bin 2, 163 cases
+		{ // Hβ, continuum/peak bin 2, 199 cases
 			{-0.710, -0.661, -0.513, -0.394, -0.286, -0.226, -0.178, -0.150, -0.138, -0.143, -0.149},
 			{0.032, 0.076, 0.066, 0.083, 0.058, 0.042, 0.033, 0.029, 0.038, 0.044, 0.046},
-			{0.024, 0.030, 0.051, 0.075, 0.104, 0.123, 0.137, 0.142, 0.141, 0.136, 0.130},
-			{0.004, 0.010, 0.013, 0.018, 0.018, 0.015, 0.012, 0.018, 0.031, 0.036, 0.038},
+			{0.014, 0.034, 0.053, 0.074, 0.103, 0.123, 0.137, 0.142, 0.141, 0.136, 0.130},
+			{0.006, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000, 0.011, 0.028, 0.034, 0.034},
 		},
 	},
 	{
-		{ // Hγ, continuum/peak bin 0, 96 cases
+		{ // Hγ, continuum/peak bin 0, 109 cases
 			{-0.676, -0.585, -0.436, -0.331, -0.223, -0.160, -0.102, -0.080, -0.058, -0.058, -0.058},
 			{0.106, 0.130, 0.086, 0.086, 0.069, 0.048, 0.025, 0.020, 0.011, 0.011, 0.011},
-			{0.017, 0.022, 0.033, 0.045, 0.061, 0.072, 0.086, 0.093, 0.100, 0.100, 0.100},
-			{0.006, 0.008, 0.007, 0.011, 0.011, 0.010, 0.009, 0.008, 0.006, 0.006, 0.006},
+			{0.010, 0.023, 0.035, 0.045, 0.061, 0.072, 0.086, 0.093, 0.100, 0.100, 0.100},
+			{0.003, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000},
 		},
-		{ // Hγ, continuum/peak bin 1, 111 cases
+		{ // Hγ, continuum/peak bin 1, 121 cases
 			{-0.638, -0.528, -0.408, -0.308, -0.191, -0.116, -0.071, -0.054, -0.046, -0.041, -0.041},
 			{0.053, 0.097, 0.081, 0.061, 0.068, 0.049, 0.027, 0.024, 0.022, 0.017, 0.017},
-			{0.017, 0.027, 0.040, 0.054, 0.077, 0.093, 0.106, 0.113, 0.116, 0.117, 0.117},
-			{0.005, 0.009, 0.009, 0.010, 0.014, 0.011, 0.012, 0.012, 0.011, 0.009, 0.009},
+			{0.015, 0.027, 0.039, 0.054, 0.077, 0.093, 0.106, 0.113, 0.116, 0.117, 0.117},
+			{0.005, 0.000, 0.000, 0.000, 0.000, 0.000, 0.003, 0.008, 0.009, 0.007, 0.007},
 		},
-		{ // Hγ, continuum/peak bin 2, 183 cases
+		{ // Hγ, continuum/peak bin 2, 190 cases
 			{-0.583, -0.514, -0.379, -0.218, -0.142, -0.082, -0.039, -0.012, -0.015, -0.008, 0.005},
 			{0.033, 0.082, 0.089, 0.060, 0.051, 0.045, 0.042, 0.024, 0.027, 0.030, 0.031},
-			{0.024, 0.031, 0.049, 0.080, 0.094, 0.115, 0.133, 0.145, 0.149, 0.161, 0.179},
-			{0.004, 0.009, 0.015, 0.011, 0.012, 0.017, 0.013, 0.012, 0.017, 0.029, 0.035},
+			{0.015, 0.031, 0.051, 0.078, 0.094, 0.115, 0.133, 0.145, 0.149, 0.161, 0.179},
+			{0.006, 0.000, 0.000, 0.000, 0.000, 0.000, 0.003, 0.007, 0.016, 0.024, 0.049},
 		},
 	},
 	{
 		{ // Hδ, continuum/peak bin 0, 99 cases
 			{-0.723, -0.686, -0.504, -0.416, -0.338, -0.275, -0.242, -0.221, -0.211, -0.211, -0.211},
 			{0.058, 0.076, 0.078, 0.054, 0.046, 0.034, 0.021, 0.015, 0.007, 0.007, 0.007},
-			{0.017, 0.020, 0.035, 0.046, 0.059, 0.072, 0.081, 0.089, 0.091, 0.091, 0.091},
-			{0.005, 0.006, 0.008, 0.009, 0.011, 0.011, 0.009, 0.007, 0.004, 0.004, 0.004},
+			{0.015, 0.020, 0.035, 0.046, 0.059, 0.072, 0.081, 0.089, 0.091, 0.091, 0.091},
+			{0.000, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000},
 		},
 		{ // Hδ, continuum/peak bin 1, 100 cases
 			{-0.528, -0.528, -0.442, -0.332, -0.272, -0.241, -0.200, -0.192, -0.191, -0.194, -0.194},
 			{0.094, 0.094, 0.071, 0.070, 0.035, 0.031, 0.019, 0.017, 0.017, 0.016, 0.016},
-			{0.035, 0.035, 0.046, 0.066, 0.081, 0.093, 0.109, 0.111, 0.110, 0.107, 0.107},
-			{0.009, 0.009, 0.009, 0.013, 0.011, 0.013, 0.013, 0.012, 0.011, 0.011, 0.011},
+			{0.013, 0.035, 0.046, 0.066, 0.081, 0.093, 0.109, 0.111, 0.110, 0.107, 0.107},
+			{0.001, 0.000, 0.000, 0.000, 0.000, 0.000, 0.003, 0.009, 0.007, 0.009, 0.009},
 		},
 		{ // Hδ, continuum/peak bin 2, 180 cases
 			{-0.603, -0.541, -0.406, -0.319, -0.219, -0.179, -0.143, -0.128, -0.147, -0.157, -0.155},
 			{0.039, 0.076, 0.079, 0.077, 0.040, 0.032, 0.022, 0.025, 0.096, 0.109, 0.095},
-			{0.024, 0.031, 0.053, 0.073, 0.107, 0.123, 0.141, 0.154, 0.134, 0.105, 0.090},
-			{0.003, 0.009, 0.015, 0.018, 0.015, 0.015, 0.015, 0.017, 0.155, 0.212, 0.225},
+			{0.018, 0.031, 0.053, 0.073, 0.107, 0.123, 0.141, 0.154, 0.134, 0.105, 0.090},
+			{0.005, 0.000, 0.000, 0.000, 0.000, 0.000, 0.007, 0.010, 0.095, 0.212, 0.328},
 		},
 	},
 	{
 		{ // Hε and higher, continuum/peak bin 0, 133 cases
 			{-0.731, -0.638, -0.511, -0.412, -0.326, -0.274, -0.241, -0.223, -0.207, -0.213, -0.213},
 			{0.048, 0.100, 0.059, 0.064, 0.044, 0.035, 0.022, 0.019, 0.010, 0.013, 0.013},
-			{0.017, 0.025, 0.035, 0.048, 0.061, 0.074, 0.083, 0.090, 0.099, 0.098, 0.098},
-			{0.003, 0.008, 0.008, 0.011, 0.009, 0.012, 0.008, 0.009, 0.004, 0.006, 0.006},
+			{0.016, 0.025, 0.035, 0.048, 0.061, 0.074, 0.083, 0.090, 0.099, 0.098, 0.098},
+			{0.000, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000},
 		},
 		{ // Hε and higher, continuum/peak bin 1, 165 cases
 			{-0.630, -0.569, -0.435, -0.341, -0.275, -0.228, -0.199, -0.187, -0.187, -0.188, -0.188},
 			{0.050, 0.079, 0.078, 0.042, 0.046, 0.034, 0.024, 0.023, 0.024, 0.029, 0.029},
-			{0.028, 0.034, 0.051, 0.067, 0.084, 0.099, 0.111, 0.117, 0.119, 0.121, 0.121},
-			{0.003, 0.008, 0.011, 0.011, 0.013, 0.012, 0.011, 0.012, 0.014, 0.023, 0.023},
+			{0.024, 0.034, 0.051, 0.067, 0.084, 0.099, 0.111, 0.117, 0.119, 0.121, 0.121},
+			{0.009, 0.001, 0.000, 0.000, 0.000, 0.000, 0.000, 0.008, 0.012, 0.023, 0.023},
 		},
 		{ // Hε and higher, continuum/peak bin 2, 206 cases
 			{-0.626, -0.544, -0.423, -0.312, -0.223, -0.169, -0.140, -0.128, -0.124, -0.120, -0.114},
 			{0.053, 0.081, 0.078, 0.054, 0.046, 0.029, 0.021, 0.020, 0.023, 0.025, 0.023},
-			{0.023, 0.033, 0.052, 0.077, 0.104, 0.127, 0.146, 0.156, 0.163, 0.173, 0.180},
-			{0.006, 0.010, 0.015, 0.015, 0.017, 0.016, 0.013, 0.013, 0.017, 0.019, 0.018},
+			{0.019, 0.033, 0.052, 0.077, 0.104, 0.127, 0.146, 0.156, 0.163, 0.173, 0.180},
+			{0.005, 0.000, 0.000, 0.000, 0.000, 0.000, 0.000, 0.007, 0.014, 0.018, 0.441},
 		},
 	},
 }
@@ -190,12 +201,19 @@ var shapeTable = [5][3][4][]float64{
 // corrected with this table) finds the mean of ln(corrected/true) of a
 // line class moving from its 1e4 K value by up to 0.041 for the Stark
 // width (Hγ; 0.002–0.035 for the others) and up to 0.013 for the area
-// (Hα; ≤ 0.008 for the others): the floors are those largest shifts,
-// rounded. Other differences between this generator and real spectra
+// (Hα; ≤ 0.008 for the others): the floors come from those largest
+// shifts, rounded. Other differences between this generator and real spectra
 // (blends, curved continua, instrument wings) are not in them.
+// shapeFloorWidthRel is that largest shift taken as a 1σ (conservative).
+// shapeFloorAreaRel treats the area's shift as what it is, an error known
+// only to lie within ±0.013 over the tables' T_e of 5000–20 000 K: a
+// rectangular distribution of half-width a has σ = a/√3 (JCGM 100:2008,
+// GUM, §4.3.7), 0.013/√3 = 0.0075. (Taken as a 1σ, the largest shift
+// made the corrected areas' σ cover the truth in 86–94 % of fresh
+// generated lines with T_e of 5000, 10⁴ and 2×10⁴ K.)
 const (
 	shapeFloorWidthRel = 0.04
-	shapeFloorAreaRel  = 0.013
+	shapeFloorAreaRel  = 0.013 / 1.7320508075688772 // √3
 )
 
 // starkShape returns, for a Balmer line with upper level upper whose Voigt
@@ -204,8 +222,9 @@ const (
 // them to correct) and the relative 1σ of each corrected value (the
 // measured scatter ⊕ shapeFloorWidthRel or shapeFloorAreaRel). Between nodes the table is linear in
 // ln r; above the last node it is held. Below the first node (r < 0.1) the
-// Stark width is lost in the Gaussian: the correction is held and its σ is
-// the whole correction.
+// Stark width is lost in the Gaussian: the corrections are held, the
+// width's σ is at least its whole correction, and the area's correction
+// and σ were measured on lines there (row [2]'s first node takes them).
 func starkShape(upper int, r, q float64) (widthFactor, areaFactor, widthUncRel, areaUncRel float64) {
 	v := shapeTable[shapeClass(upper)][shapeQBin(q)]
 	x := shapeNodes
