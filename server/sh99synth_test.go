@@ -364,8 +364,8 @@ var sh99MedianBound = map[string]float64{
 	"hires n_e":    0.122, // measured 0.094 (Stark-shape-corrected Voigt fit; GGC 2003 preferred for Hβ ≥ 1e21 m⁻³)
 	"mid n_e":      0.186, // measured 0.143
 	"survey n_e":   0.070, // measured 0.054
-	"mid T_exc":    0.033, // measured 0.025 (Hα and Hβ only)
-	"survey T_exc": 0.015, // measured 0.008 (Hα … Hε)
+	"mid T_exc":    0.024, // measured 0.019 (Hα and Hβ only; 0.025 before the Stark-shape area correction was measured below r = 0.1)
+	"survey T_exc": 0.015, // measured 0.007 (Hα … Hε)
 }
 
 // TestSH99SynthCoverage: the targets of issue 8 for honest total
@@ -391,10 +391,17 @@ func TestSH99SynthCoverage(t *testing.T) {
 	// spectra and within 2σ in ≥ 93 %. Measured with the Stark-shape
 	// correction (diag/spectrum/shape.go; its constants come from our own
 	// generator, not this set): n_e 33/51 and 48/51 (met); T_exc 28/36 and
-	// 36/36 — its 1σ over-covers by one case beyond 76 % (the calibration
-	// of the area correction's spread is conservative). Over-coverage is
-	// the safe side, so only for T_exc the 1σ upper bound is relaxed to
-	// 80 % (GLOWLOG_COVERAGE_TARGETS=1 checks the issue's 76 %); all other
+	// 35/36 — its 1σ over-covers by one case beyond 76 %. The area σ
+	// behind it was re-measured on our own generator (2026-12-02: the
+	// scatter beyond the fit's own σ, the T_e floor as a rectangular σ):
+	// there the T_exc 1σ now covers 65–67 % and 2σ 94–95 % of about 500
+	// plasmas (TestTexcCoverageGenerated; 71–72 % and 97–98 % before), so
+	// nothing left in it is overstated on data we may tune to; here the
+	// same change also made T_exc more accurate (median error 2.5 → 1.9 %
+	// mid, 0.8 → 0.7 % survey), which kept the count at 28. With p = 0.68
+	// 28 or more of 36 happens in 14 % of sets. Over-coverage is the safe
+	// side, so only for T_exc the 1σ upper bound is relaxed to 80 %
+	// (GLOWLOG_COVERAGE_TARGETS=1 checks the issue's 76 %); all other
 	// bounds are the issue's.
 	upper1 := map[bool]float64{true: 0.76, false: 0.80}
 	if os.Getenv("GLOWLOG_COVERAGE_TARGETS") != "" {

@@ -63,34 +63,40 @@ func continuumToPeak(c *balmerCandidate) float64 {
 	return c.base / c.peak
 }
 
-// shapeTable[class][qbin] holds, at shapeNodes, the measured ln(fitted/true) of
-// the Voigt window fit on Stark-shaped lines (TestMeasureShapeTable,
-// shape_measure_test.go: Stehlé & Hutcheon 1999 profiles at T_e = 1e4 K
-// and n_e 10^19.75 … 10^23 m⁻³ in steps of 10^0.25, Gaussian instruments
-// 0.05–0.5 nm, 3–12 pixels per FWHM, gas temperature 400–3000 K,
-// pixel-integrated, Poisson-like noise at a 30 000-count peak, analysed
-// by this pipeline with LineShapeVoigt): [0] the mean of ln(L_fit/w_S),
-// the fitted Lorentzian FWHM over the true Stark width (FWHA for Hα, the
-// peaks' FWHM for the others: the widths the Stark relations take),
-// [1] its scatter (sample standard deviation within the node's bin),
-// [2] the mean of ln(A_fit/A), the fitted over the true area, [3] the
-// area's scatter beyond the fit's own σ: from the residuals e_i of
-// ln(A_fit/A) about row [2] as interpolated here, σ_k² = Σ w_ik (e_i² −
-// s_i²)/Σ w_ik with s_i the fit's stated relative σ and w_ik node k's
-// interpolation weight (residualScatter; 0 where the fit's σ explains
-// all of it). The corrected area's σ is the fit's ⊕ this ⊕
+// shapeTable[class][qbin] holds, at shapeNodes, the measured
+// ln(fitted/true) of the Voigt window fit on Stark-shaped lines
+// (TestMeasureShapeTable, shape_measure_test.go: Stehlé & Hutcheon 1999
+// profiles at T_e = 1e4 K and n_e 10^19.75 … 10^23 m⁻³ in steps of
+// 10^0.25, Gaussian instruments 0.05–0.5 nm, 3–12 pixels per FWHM, gas
+// temperature 400–3000 K, pixel-integrated, Poisson-like noise at a
+// 30 000-count peak, analysed by this pipeline with LineShapeVoigt): [0] the
+// mean of ln(L_fit/w_S), the fitted Lorentzian FWHM over the true Stark
+// width (FWHA for Hα, the peaks' FWHM for the others: the widths the Stark
+// relations take), [1] its scatter (sample standard deviation within the
+// node's bin), [2] the mean of ln(A_fit/A), the fitted over the true area
+// (over the same lines and also those without a Stark width of the tables
+// or with the fitted Lorentzian at zero, which the area correction covers
+// too; the first node's bin takes every r below 0.2, since its value is
+// held below it), [3] the area's scatter beyond the fit's own σ: from the
+// residuals e_i of ln(A_fit/A) about row [2] as interpolated here, σ_k² =
+// Σ w_ik (e_i² − s_i²)/Σ w_ik with s_i the fit's stated relative σ and
+// w_ik node k's interpolation weight (residualScatter; 0 where the fit's σ
+// explains all of it). The corrected area's σ is the fit's ⊕ this ⊕
 // shapeFloorAreaRel. (Until 2026-12 row [3] was the bin's standard
 // deviation like [1]: it counted the fit's noise a second time and the
 // mean's change across a bin two node intervals wide, and overstated the
-// area σ: on fresh generated lines the corrected area was within its
-// stated 1σ in 77–99 % of cases per line class; with this row 86–94 %,
-// and with shapeFloorAreaRel as a rectangular σ 77–87 %.) A Stark
-// profile has a flat or dipped core and wings falling as Δλ^(−5/2),
-// steeper than a Lorentzian's Δλ^(−2): the Voigt fit matches the core
-// with too narrow a Lorentzian (Hβ 20 % narrow even where Stark
-// dominates) and puts area into wings the line does not have (Hβ … Hε
-// 4–9 % too much). Nodes with fewer than three cases (Hα at r = 50) hold
-// their neighbour's value (for row [3]: less than 3 in total weight).
+// area σ: on fresh generated lines (TestMeasureAreaPulls, T_e of 5000, 10⁴
+// and 2×10⁴ K) the corrected area was within its stated 1σ in 77–99 % of
+// cases per line class; with this row 86–96 %, and with shapeFloorAreaRel
+// as a rectangular σ 77–87 %. Row [2]'s first node held at r < 0.1 without
+// lines there made Hα's area 1–2 % low at low n_e.) A Stark profile has a
+// flat or dipped core and wings falling as Δλ^(−5/2), steeper than a
+// Lorentzian's Δλ^(−2): the Voigt fit matches the core with too narrow a
+// Lorentzian (Hβ 20 % narrow even where Stark dominates) and puts area
+// into wings the line does not have (Hβ … Hε 4–9 % too much). Nodes with
+// fewer than three cases (Hα at r = 50) hold their neighbour's value (for
+// row [3]: less than 3 in total weight). The case counts below are those
+// of the area rows.
 var shapeTable = [5][3][4][]float64{
 	{
 		{ // Hα, continuum/peak bin 0, 141 cases
@@ -209,7 +215,7 @@ var shapeTable = [5][3][4][]float64{
 // only to lie within ±0.013 over the tables' T_e of 5000–20 000 K: a
 // rectangular distribution of half-width a has σ = a/√3 (JCGM 100:2008,
 // GUM, §4.3.7), 0.013/√3 = 0.0075. (Taken as a 1σ, the largest shift
-// made the corrected areas' σ cover the truth in 86–94 % of fresh
+// made the corrected areas' σ cover the truth in 86–96 % of fresh
 // generated lines with T_e of 5000, 10⁴ and 2×10⁴ K.)
 const (
 	shapeFloorWidthRel = 0.04
