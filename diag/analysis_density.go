@@ -503,7 +503,7 @@ func ConstantSources() []ConstantSource {
 		{"van der Waals constant", "8.18e-12 (convention; Lindholm–Foley with Unsöld C₆: 6.999e-12)", StatusCrossChecked,
 			"literature formula behind the published simplified two-line-method coefficients (Griem 1964; Allard & Kielkopf 1982); the 17 % difference to 6.999e-12 is carried as a systematic σ (physics.md §10 item 7)"},
 		{"Ali–Griem resonance constant", "8.61e-28", StatusOpen,
-			"from memory; independent implementations give 10–16 % larger widths: ±20 % carried as a systematic σ (physics.md §10 item 9)"},
+			"from memory; independent implementations give 10–16 % larger widths, all of it their np-sublevel weight g = 6 against our 2n² (with it matched they agree to 0.13 %): ±20 % carried as a systematic σ (physics.md §10 item 9)"},
 		{"Stehlé–Hutcheon Stark tables", "Hα … H(12→2), MMM, μ = 0.5", StatusSourced, sh99.Citation + "; CDS VI/98A, shipped in diag/sh99/data"},
 		{"line-shape σ of the Voigt inversion", "ShapeBiasRel table", StatusCrossChecked,
 			"measured on SH99 profiles convolved with Gaussian instruments (diag/shapebias_test.go, TestShapeBiasMeasured)"},

@@ -96,8 +96,14 @@ func NaturalFWHMNM(t Transition, iso Isotope) float64 {
 // §5.3 and §10 item 9): from memory; independent stellar-opacity
 // implementations correspond to 10–16 % larger widths (recast, the
 // half-width form Δν/ν = 2.07e-24 f/((1−1/n²)(1/n_l²−1/n_u²)) N_H agrees
-// with it to about 15 %). The analysis carries ±20 % (aliGriemRelUnc) as a
-// systematic σ of the resonance width.
+// with it to about 15 %). That difference is the statistical weight of
+// the resonance level, not the constant: they take the np sublevel's
+// g = 6 for n = 2 where the formula below takes g_n = 2n² = 8, and
+// (8/6)^½ = 1.155; with it matched two such routines agree with 8.61e-28
+// to 0.13 % and 0.02 % (TestResonanceFWHM). Not read in Ali & Griem's
+// paper, so still open; which weight suits an l-degenerate level is the
+// 15 % that the ±20 % (aliGriemRelUnc) carried as a systematic σ of the
+// resonance width covers.
 const aliGriemConst = 8.61e-28
 
 // ResonanceLevelFWHMNM returns the Ali–Griem resonance (self) broadening,

@@ -111,11 +111,23 @@ func TestResonanceFWHM(t *testing.T) {
 	}
 	// Independent form (physics.md §5.3, [S] in a public stellar-opacity
 	// routine): HWHM Δν/ν = 2.07e-24 f/((1−1/n²)(1/n_l²−1/n_u²)) N_H [cgs].
-	// physics.md states agreement to within ~15 %; we allow 17 %.
+	// physics.md states agreement to within ~15 %. The whole difference is
+	// the statistical weight of the resonance level: we take the level's
+	// g_n = 2n² = 8, the routines the 2p sublevel's g = 6 (only 2p is
+	// resonance-coupled to 1s), and (8/6)^½ = 1.1547. With that factor
+	// the constant agrees to 0.13 % here, and to 0.02 % with a second
+	// public routine's Ali–Griem coefficient, FWHM[Å] = 2.516e-27 λ²[Å]
+	// N_H[cm⁻³] for the n = 2 level. Code, not the paper: the constant
+	// stays open (physics.md §10 item 9); which g is right for an
+	// l-degenerate level is the open 15 % that the ±20 % σ_sys covers.
 	hwhm := 2.07e-24 * 0.41620 / ((1 - 0.25) * (0.25 - 1.0/9)) * 1e16
 	indep := 2 * hwhm * ha.WavelengthVacNM
-	if r := broadRel(lower, indep); r > 0.17 {
-		t.Errorf("Ali–Griem %.4g nm vs independent form %.4g nm: rel diff %.3f > 0.17", lower, indep, r)
+	gConv := math.Sqrt(8.0 / 6)
+	if r := broadRel(lower*gConv, indep); r > 0.005 {
+		t.Errorf("Ali–Griem %.4g nm × (8/6)^½ vs independent form %.4g nm: rel diff %.4f > 0.005", lower, indep, r)
+	}
+	if r := broadRel(lower*gConv, 2.516e-27*math.Pow(10*ha.WavelengthVacNM, 2)*1e16/10); r > 0.002 {
+		t.Errorf("Ali–Griem %.4g nm × (8/6)^½ vs 2.516e-27 λ²[Å] N_H: rel diff %.4f > 0.002", lower, r)
 	}
 	// Linear in density; zero density gives zero; ground level adds nothing.
 	if got := ResonanceFWHMNM(ha, 0, Hydrogen); got != 0 {
@@ -432,6 +444,13 @@ func TestLookupPerturber(t *testing.T) {
 	// Ar is the value sourced in physics.md §5.4 (CRC Handbook).
 	if ar, _ := LookupPerturber("Ar"); ar.PolarizabilityCM3 != 1.6411e-24 || !ar.Verified {
 		t.Errorf("Ar = %+v, want 1.6411e-24 cm³, verified", ar)
+	}
+	// H₂: Schmidt, Moldover & May 2009, Mol. Phys. 107, 1577 (NIST),
+	// measured α = (8.9568 ± 0.0008)e-41 F m² at 273 K; as a volume
+	// α/(4πε₀)·1e6 cm³. Tolerance 1e-4 (the value is stored to 5 digits).
+	if h2, _ := LookupPerturber("H2"); broadRel(h2.PolarizabilityCM3, 8.9568e-41/(4*math.Pi*EpsilonZero)*1e6) > 1e-4 ||
+		!h2.Verified || h2.Status != StatusSourced {
+		t.Errorf("H2 = %+v, want 8.9568e-41 F m²/(4πε₀) = 0.80500e-24 cm³ (Schmidt et al. 2009), sourced", h2)
 	}
 	// Unverified entries must say so in their source.
 	for _, p := range Perturbers() {

@@ -82,14 +82,20 @@ var perturberTable = []Perturber{
 		Verified: true, Status: StatusSourced,
 	},
 	{
-		// Open (physics.md §10 item 5): the CRC 100th ed. reproduction
-		// shows 0.842, some tables 0.8045, theory ≈ 0.80 (5.41 a₀³). The
-		// value used is 0.8045; the spread 0.80–0.842 (5 %) changes the van
-		// der Waals width (∝ ᾱ^(2/5)) by ≤ 1.8 %.
-		Name: "H2", PolarizabilityCM3: 0.8045e-24, MassAMU: 2.01588,
-		Source: "0.8045e-24 cm³ used (some tables; from memory); CRC 100th ed. reproduction shows 0.842, theory ≈ 0.80: " +
-			"spread 0.80–0.842 (5 %), ≤ 1.8 % in the van der Waals width (physics.md §10 item 5)",
-		Verified: false, Status: StatusOpen,
+		// Sourced (physics.md §10 item 5, settled 2026-12-02): Schmidt,
+		// Moldover & May 2009, "Reference measurements of hydrogen's
+		// dielectric permittivity", Mol. Phys. 107, 1577–1585 (NIST),
+		// abstract: α_ε,H₂ = (8.9568 ± 0.0008)×10⁻⁴¹ F m² at 273 K,
+		// agreeing with Rychlewski's ab initio value (8.9566 ± 0.0026)×
+		// 10⁻⁴¹ F m². As a polarizability volume α/(4πε₀) that is
+		// 0.80500e-24 cm³ (computed), 0.06 % above the CRC table's 0.8045;
+		// it rules out the 0.842 of a web reproduction of the CRC table
+		// (5 % off, a misreading). Its temperature dependence (1.1e-5 K⁻¹,
+		// same abstract) moves it < 1 % up to 1000 K.
+		Name: "H2", PolarizabilityCM3: 0.80500e-24, MassAMU: 2.01588,
+		Source: "Schmidt, Moldover & May 2009, Mol. Phys. 107, 1577 (NIST): α = (8.9568 ± 0.0008)e-41 F m² at 273 K " +
+			"(measured; ab initio 8.9566e-41), computed as α/(4πε₀) = 0.80500e-24 cm³; CRC table 0.8045e-24 (0.06 % lower)",
+		Verified: true, Status: StatusSourced,
 	},
 	{
 		// Derived here. (1) Mole-fraction average of N₂ 1.7403, O₂ 1.5689
