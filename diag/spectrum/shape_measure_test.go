@@ -462,7 +462,8 @@ func TestStarkShapeCorrection(t *testing.T) {
 // TestMeasureShapeTe measures (GLOWLOG_MEASURE_SHAPE=1) what the
 // correction, made at T_e = 1e4 K, leaves on lines shaped by the tables at
 // T_e = 5000 K and 20 000 K: the rms of ln(corrected/true) of the Stark
-// width and the area, per line class — the basis of shapeFloorWidthRel and shapeFloorAreaRel.
+// width and the area, per line class — the basis of shapeFloorWidthRel
+// (shapeFloorAreaRel is measured paired, by TestMeasureShapeTeShift).
 func TestMeasureShapeTe(t *testing.T) {
 	if os.Getenv("GLOWLOG_MEASURE_SHAPE") == "" {
 		t.Skip("set GLOWLOG_MEASURE_SHAPE=1 to measure the T_e dependence of the Stark-shape correction")
