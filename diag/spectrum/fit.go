@@ -72,8 +72,14 @@ func (p *Pipeline) candidates(x, y []float64, sat []bool, noise float64, sp *Spe
 				ip = i
 			}
 		}
+		// The baseline is the low percentile of ±reach around the line;
+		// a line much wider than that region gets a wider one (reach.go).
 		reach := math.Max(math.Max(15*c.gauss, 40*px), 3)
 		base := percentile(y[index(x, center-reach):min(index(x, center+reach), n)], 0.2, p.work)
+		wide := p.wideLine(x, y, ip, center, reach, px, balmerSpacing(up, cond.Isotope, center))
+		if wide.grown {
+			base = wide.at(x[ip])
+		}
 		c.peak = y[ip] - base
 		s := noise
 		if opt.GainElectronsPerCount > 0 {
@@ -88,14 +94,13 @@ func (p *Pipeline) candidates(x, y []float64, sat []bool, noise float64, sp *Spe
 		}
 		// Rough FWHM: walk out to half maximum.
 		half := base + c.peak/2
-		l, r := ip, ip
-		for l > 0 && y[l] > half {
-			l--
-		}
-		for r < n-1 && y[r] > half {
-			r++
-		}
+		l, r := halfMaxEdges(y, ip, half)
 		c.width = math.Max(x[r]-x[l], c.gauss)
+		if wide.grown {
+			// A wide line: its FWHM from the smoothed data (single noisy
+			// pixels would end the walk early).
+			c.width = math.Max(wide.fwhm, c.gauss)
+		}
 		// Parabolic refinement of the peak position.
 		c.peakX = x[ip]
 		if ip > 0 && ip < n-1 {
@@ -140,6 +145,20 @@ func (p *Pipeline) candidates(x, y []float64, sat []bool, noise float64, sp *Spe
 		prev = i
 	}
 	return out, nil
+}
+
+// halfMaxEdges walks out from the peak index ip to the first pixels at or
+// below half on either side.
+func halfMaxEdges(y []float64, ip int, half float64) (l, r int) {
+	n := len(y)
+	l, r = ip, ip
+	for l > 0 && y[l] > half {
+		l--
+	}
+	for r < n-1 && y[r] > half {
+		r++
+	}
+	return l, r
 }
 
 func overlaps(a, b balmerCandidate) bool { return a.lo < b.hi && b.lo < a.hi }
