@@ -72,14 +72,19 @@ func (p *Pipeline) candidates(x, y []float64, sat []bool, noise float64, sp *Spe
 				ip = i
 			}
 		}
-		// The baseline is the low percentile of ±reach around the line;
-		// a line much wider than that region gets a wider one (reach.go).
+		// The baseline is a straight line through the low percentiles of
+		// the two outer halves of ±reach around the line (a flat low
+		// percentile of the whole region lies below the continuum under
+		// the line when the continuum slopes — in raw counts it follows
+		// the spectrometer's response — and a weak member, or none, then
+		// looks like a line whose half maximum is never reached); a line
+		// much wider than that region gets a wider one (reach.go).
 		reach := math.Max(math.Max(15*c.gauss, 40*px), 3)
-		base := percentile(y[index(x, center-reach):min(index(x, center+reach), n)], 0.2, p.work)
-		wide := p.wideLine(x, y, ip, center, reach, px, balmerSpacing(up, cond.Isotope, center))
-		if wide.grown {
-			base = wide.at(x[ip])
+		bl := p.baseline(x, y, center, reach)
+		if wide := p.wideLine(x, y, ip, center, reach, px, balmerSpacing(up, cond.Isotope, center)); wide.grown {
+			bl = wide
 		}
+		base := bl.at(x[ip])
 		c.peak = y[ip] - base
 		s := noise
 		if opt.GainElectronsPerCount > 0 {
@@ -93,13 +98,12 @@ func (p *Pipeline) candidates(x, y []float64, sat []bool, noise float64, sp *Spe
 			continue
 		}
 		// Rough FWHM: walk out to half maximum.
-		half := base + c.peak/2
-		l, r := halfMaxEdges(y, ip, half)
+		l, r := halfMaxEdges(x, y, ip, bl, c.peak/2)
 		c.width = math.Max(x[r]-x[l], c.gauss)
-		if wide.grown {
+		if bl.grown {
 			// A wide line: its FWHM from the smoothed data (single noisy
 			// pixels would end the walk early).
-			c.width = math.Max(wide.fwhm, c.gauss)
+			c.width = math.Max(bl.fwhm, c.gauss)
 		}
 		// Parabolic refinement of the peak position.
 		c.peakX = x[ip]
@@ -109,7 +113,7 @@ func (p *Pipeline) candidates(x, y []float64, sat []bool, noise float64, sp *Spe
 				c.peakX += 0.5 * (a - d) / den * (x[ip+1] - x[ip-1]) / 2
 			}
 		}
-		c.base = base
+		c.base = bl.at(center)
 		for i := l; i <= r; i++ {
 			if sat[i] {
 				c.sat = true
@@ -148,14 +152,14 @@ func (p *Pipeline) candidates(x, y []float64, sat []bool, noise float64, sp *Spe
 }
 
 // halfMaxEdges walks out from the peak index ip to the first pixels at or
-// below half on either side.
-func halfMaxEdges(y []float64, ip int, half float64) (l, r int) {
+// below half over the baseline bl on either side.
+func halfMaxEdges(x, y []float64, ip int, bl wideFit, half float64) (l, r int) {
 	n := len(y)
 	l, r = ip, ip
-	for l > 0 && y[l] > half {
+	for l > 0 && y[l]-bl.at(x[l]) > half {
 		l--
 	}
-	for r < n-1 && y[r] > half {
+	for r < n-1 && y[r]-bl.at(x[r]) > half {
 		r++
 	}
 	return l, r

@@ -106,11 +106,12 @@ func (p *Pipeline) wideLine(x, y []float64, ip int, center, reach0, px, spacing 
 	return f
 }
 
-// probe measures the FWHM of the line over the straight baseline of
-// ±r around center, on the data smoothed by a box of 2hb+1 pixels.
-func (p *Pipeline) probe(x, y []float64, ip int, center, r float64, hb int) wideFit {
+// baseline is the straight line through the 20th percentiles of the two
+// outer halves of ±r around center (of the one inside the range when the
+// other is cut off; of the whole region when both are too short).
+func (p *Pipeline) baseline(x, y []float64, center, r float64) wideFit {
 	n := len(x)
-	f := wideFit{grown: true, reach: r, center: center}
+	f := wideFit{reach: r, center: center}
 	i0, i1 := index(x, center-r), index(x, center-r/2)
 	i2, i3 := index(x, center+r/2), min(index(x, center+r), n)
 	const minPix = 3
@@ -130,6 +131,14 @@ func (p *Pipeline) probe(x, y []float64, ip int, center, r float64, hb int) wide
 	default:
 		f.mid = percentile(y[i0:i3], 0.2, p.work)
 	}
+	return f
+}
+
+// probe measures the FWHM of the line over the baseline of ±r around
+// center, on the data smoothed by a box of 2hb+1 pixels.
+func (p *Pipeline) probe(x, y []float64, ip int, center, r float64, hb int) wideFit {
+	n := len(x)
+	f := p.baseline(x, y, center, r)
 	// The smoothed maximum within ±r/8: a line this wide may have a
 	// central dip (Hβ, Hδ at high density), where the highest pixel of
 	// the core then sits.

@@ -12,6 +12,7 @@ package spectrum
 // anything here.
 
 import (
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -183,4 +184,77 @@ func TestWideLineDetected(t *testing.T) {
 	if cases != 18 {
 		t.Fatalf("%d cases", cases)
 	}
+}
+
+func TestExploreSurvey(t *testing.T) {
+	p := NewPipeline(8192)
+	rng0 := rand.New(rand.NewPCG(99, 3))
+	for k := 0; k < 16; k++ {
+		ne := math.Pow(10, 22+math.Log10(20)*rng0.Float64())
+		te := 1e4
+		if ne > 1e23 {
+			te = 19950
+		}
+		uppers := []int{3, 4, 5}
+		if ne <= 1e23 {
+			uppers = append(uppers, 6)
+		}
+		if ne <= 3.1e22 {
+			uppers = append(uppers, 7)
+		}
+		if ne <= 1e22 {
+			uppers = append(uppers, 8)
+		}
+		tExc := 3000 + 12000*rng0.Float64()
+		inst := 0.3 + 0.5*rng0.Float64()
+		snr := math.Pow(10, 1.5+2*rng0.Float64())
+		x := linspace(376, 700, 2048)
+		// Hα peak ≈ area/width; set area for the SNR (Poisson): peak counts ≈ snr².
+		haW := 0.5 + ne/1e23*2
+		peakCounts := snr * snr
+		px := x[1] - x[0]
+		haArea := peakCounts / px * haW
+		sc := sh99Scene{x: x, uppers: uppers, tExc: tExc, haArea: haArea, ne: ne, te: te, instG: inst, gasT: te,
+			contPerNM: 0.03 * peakCounts / px, contSlope: 0.3, gain: 2, read: 20,
+			resp: func(l float64) float64 { return 0.05 + math.Exp(-math.Pow((l-600)/120, 2)) }}
+		y := sc.counts(t, rng0)
+		res, err := p.Analyze(&Spectrum{Name: "survey", WavelengthNM: x, Counts: y}, sc.options())
+		if err != nil {
+			t.Logf("%d ne %.3g: %v", k, ne, err)
+			continue
+		}
+		s := ""
+		if res.ExcitationTemperatureK != nil {
+			s = fmtF("T %.0f ± %.0f", *res.ExcitationTemperatureK, *res.ExcitationTemperatureUncK)
+		}
+		var ns string
+		if res.ElectronDensityM3 != nil {
+			ns = fmtF("%.3g ± %.2g", *res.ElectronDensityM3, *res.ElectronDensityUncM3)
+		}
+		t.Logf("%d ne %.3g Texc %.0f inst %.2f snr %.0f: ne %s %s [%s]", k, ne, tExc, inst, snr, ns, s, res.ElectronDensitySource)
+		areas := sc.areas(t)
+		for _, lr := range res.Lines {
+			line := fmtF("   H%d", float64(lr.UpperLevel))
+			for i, u := range uppers {
+				if u == lr.UpperLevel && lr.Intensity != nil {
+					line += fmtF(" area/true %.3g ± %.2g", *lr.Intensity/areas[i], *lr.IntensityUnc/areas[i])
+				}
+			}
+			if lr.ElectronDensityM3 != nil {
+				line += fmtF(" ne %.3g ± %.2g", *lr.ElectronDensityM3, *lr.ElectronDensityUncM3)
+			}
+			if lr.ProfileFit != nil {
+				line += fmtF(" fwhm %.3g win %.4g", lr.ProfileFit.TotalFWHMNM, lr.ProfileFit.WindowNM[1]-lr.ProfileFit.WindowNM[0])
+			}
+			t.Log(line)
+		}
+	}
+}
+
+func fmtF(f string, v ...float64) string {
+	a := make([]any, len(v))
+	for i := range v {
+		a[i] = v[i]
+	}
+	return fmt.Sprintf(f, a...)
 }
