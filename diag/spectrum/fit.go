@@ -123,15 +123,29 @@ func (p *Pipeline) candidates(x, y []float64, sat []bool, noise float64, sp *Spe
 			c.search.Status = "saturated"
 			c.search.Reason = "the line core reaches the detector ceiling"
 		}
-		hw := math.Max(5*c.width, 12*px)
-		c.lo, c.hi = index(x, center-hw), min(index(x, center+hw), n)
-		if c.hi-c.lo > p.maxPix {
-			mid := (c.lo + c.hi) / 2
-			c.lo, c.hi = mid-p.maxPix/2, mid+p.maxPix/2
-		}
+		p.setWindow(&c, x)
 		out = append(out, c)
 	}
-	// Group lines whose windows overlap (fitted jointly).
+	groupCandidates(out)
+	return out, nil
+}
+
+// setWindow sets the fit window of c: ±5 of its FWHM estimate (at least
+// ±12 pixels), cut to the pipeline's window size.
+func (p *Pipeline) setWindow(c *balmerCandidate, x []float64) {
+	n := len(x)
+	px := pixelWidth(x, min(max(index(x, c.center), 0), n-1))
+	hw := math.Max(5*c.width, 12*px)
+	c.lo, c.hi = index(x, c.center-hw), min(index(x, c.center+hw), n)
+	if c.hi-c.lo > p.maxPix {
+		mid := (c.lo + c.hi) / 2
+		c.lo, c.hi = mid-p.maxPix/2, mid+p.maxPix/2
+	}
+}
+
+// groupCandidates groups the detected lines whose windows overlap (they
+// are fitted jointly).
+func groupCandidates(out []balmerCandidate) {
 	g := 0
 	prev := -1
 	for i := range out {
@@ -148,7 +162,46 @@ func (p *Pipeline) candidates(x, y []float64, sat []bool, noise float64, sp *Spe
 		}
 		prev = i
 	}
-	return out, nil
+}
+
+// windowGrowth is how much wider than the FWHM estimate its window was set
+// for a fitted FWHM must be for the window to be set again and the lines
+// refitted: at 1.2 the window still spans ±4.2 fitted FWHM. Common
+// practice, no source.
+const windowGrowth = 1.2
+
+// growWindows widens the window of every fitted line whose fitted FWHM
+// exceeds the estimate its window was made for by more than windowGrowth
+// (a wide weak line on a noisy or sloping continuum is underestimated by
+// the search; in a window of a few FWHM its wings and the baseline trade
+// off, and the fit returns a narrow line with a wrong area). It reports
+// whether any window changed; the candidates are then reset and regrouped
+// for a new fit.
+func (p *Pipeline) growWindows(cands []balmerCandidate, x []float64) bool {
+	changed := false
+	for i := range cands {
+		c := &cands[i]
+		if c.fit == nil || !(c.fit.VoigtFWHM > windowGrowth*c.width) {
+			continue
+		}
+		lo, hi := c.lo, c.hi
+		c.width = c.fit.VoigtFWHM
+		p.setWindow(c, x)
+		changed = changed || c.lo != lo || c.hi != hi
+	}
+	if !changed {
+		return false
+	}
+	for i := range cands {
+		c := &cands[i]
+		c.fit = nil
+		if c.group > 0 && c.search.Status != "saturated" {
+			c.search.Status, c.search.Reason = "", ""
+		}
+	}
+	groupCandidates(cands)
+	p.chi2, p.keep, p.iters = p.chi2[:0], nil, p.iters[:0]
+	return true
 }
 
 // halfMaxEdges walks out from the peak index ip to the first pixels at or
