@@ -36,6 +36,7 @@ func (p *Pipeline) candidates(x, y []float64, sat []bool, noise float64, sp *Spe
 	n := len(x)
 	cond := opt.Conditions
 	var out []balmerCandidate
+	p.setBoxSums(y)
 	for up := 3; up <= opt.MaxUpper; up++ {
 		t, err := diag.Balmer(up, cond.Isotope)
 		if err != nil {

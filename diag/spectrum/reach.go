@@ -124,6 +124,10 @@ func (p *Pipeline) baseline(x, y []float64, center, r float64) wideFit {
 		xl, xr := mean(i0, i1), mean(i2, i3)
 		f.slope = (yr - yl) / (xr - xl)
 		f.mid = yl + f.slope*(center-xl)
+		if !finiteF(f.slope) || !finiteF(f.mid) {
+			// Values near the float range: a flat baseline.
+			f.slope, f.mid = 0, math.Min(yl, yr)
+		}
 	case left:
 		f.mid = percentile(y[i0:i1], 0.2, p.work)
 	case right:
@@ -144,31 +148,40 @@ func (p *Pipeline) probe(x, y []float64, ip int, center, r float64, hb int) wide
 	// the core then sits.
 	jp, mx := ip, math.Inf(-1)
 	for j := max(index(x, center-r/8), 0); j < min(index(x, center+r/8), n); j++ {
-		if v := boxMean(y, j, hb) - f.at(x[j]); v > mx {
+		if v := p.boxMean(j, hb) - f.at(x[j]); v > mx {
 			mx, jp = v, j
 		}
 	}
 	if math.IsInf(mx, -1) {
-		mx = boxMean(y, ip, hb) - f.at(x[ip])
+		mx = p.boxMean(ip, hb) - f.at(x[ip])
 	}
 	half := mx / 2
 	l, rr := jp, jp
-	for l > 0 && boxMean(y, l, hb)-f.at(x[l]) > half {
+	for l > 0 && p.boxMean(l, hb)-f.at(x[l]) > half {
 		l--
 	}
-	for rr < n-1 && boxMean(y, rr, hb)-f.at(x[rr]) > half {
+	for rr < n-1 && p.boxMean(rr, hb)-f.at(x[rr]) > half {
 		rr++
 	}
 	f.fwhm = x[rr] - x[l]
 	return f
 }
 
-// boxMean is the mean of y over [i−hb, i+hb] (cut at the ends).
-func boxMean(y []float64, i, hb int) float64 {
-	lo, hi := max(i-hb, 0), min(i+hb, len(y)-1)
-	s := 0.0
-	for j := lo; j <= hi; j++ {
-		s += y[j]
+// setBoxSums prepares boxMean for y: prefix sums of y/n (each term at most
+// the largest |y|/n, so the sums stay finite for any finite data).
+func (p *Pipeline) setBoxSums(y []float64) {
+	n := len(y)
+	c := grow(&p.cum, n+1)
+	c[0] = 0
+	for i, v := range y {
+		c[i+1] = c[i] + v/float64(n)
 	}
-	return s / float64(hi-lo+1)
+}
+
+// boxMean is the mean of y (given to setBoxSums) over [i−hb, i+hb], cut
+// at the ends.
+func (p *Pipeline) boxMean(i, hb int) float64 {
+	n := len(p.cum) - 1
+	lo, hi := max(i-hb, 0), min(i+hb, n-1)
+	return (p.cum[hi+1] - p.cum[lo]) / float64(hi-lo+1) * float64(n)
 }

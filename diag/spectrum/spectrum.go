@@ -230,6 +230,7 @@ type Pipeline struct {
 	fres    linefit.Result
 	x, y, s []float64
 	work    []float64
+	cum     []float64
 	sat     []bool
 	maxPix  int
 	problem linefit.Problem
