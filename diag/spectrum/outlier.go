@@ -15,7 +15,9 @@ import (
 const outlierSigma = 3
 
 // densityOutlier returns the line (upper level) whose density is furthest
-// from the weighted mean of the others, in units of the combined total σ,
+// from the weighted mean of the others, on a log scale and in units of the
+// combined relative total σ (the line's in quadrature with that of the
+// others' mean),
 // when that exceeds outlierSigma and at least three lines give a density
 // (with two it cannot be told which one is wrong; diag.Analyze flags the
 // pair).
@@ -29,34 +31,58 @@ const outlierSigma = 3
 // analysis's own off-the-line rule judges it) and the result says so.
 func densityOutlier(lines []diag.LineResult) (upper int, z, ne, neOthers, uncOthers float64, ok bool) {
 	type d struct {
-		upper  int
-		ne, su float64
+		upper          int
+		ne, su, st, sy float64
 	}
 	var ds []d
 	for _, lr := range lines {
 		if lr.ElectronDensityM3 == nil || lr.ElectronDensityUncM3 == nil || lr.DensityLowerLimit {
 			continue
 		}
-		if u := *lr.ElectronDensityUncM3; u > 0 && finiteF(u) && finiteF(*lr.ElectronDensityM3) {
-			ds = append(ds, d{lr.UpperLevel, *lr.ElectronDensityM3, u})
+		u := *lr.ElectronDensityUncM3
+		if !(u > 0 && finiteF(u) && finiteF(*lr.ElectronDensityM3)) {
+			continue
 		}
+		e := d{upper: lr.UpperLevel, ne: *lr.ElectronDensityM3, su: u}
+		if lr.ElectronDensityUncStatM3 != nil {
+			e.st = *lr.ElectronDensityUncStatM3
+		}
+		if lr.ElectronDensityUncSysM3 != nil {
+			e.sy = *lr.ElectronDensityUncSysM3
+		}
+		ds = append(ds, e)
 	}
 	if len(ds) < 3 {
 		return 0, 0, 0, 0, 0, false
 	}
+	// On a log scale: the densities' errors come from the widths' (n_e ∝
+	// w^(1/p)), relative and symmetric in ln n_e there, and a low value
+	// does not earn a large weight by its proportionally small σ (which
+	// would let the one wrong line pull the others' mean to itself and
+	// make a right one look like the outlier).
 	best := -1.0
 	for i, a := range ds {
-		var sw, swx float64
+		// The others' mean as the analysis combines them (weights 1/σ²;
+		// statistical parts independent, systematic parts fully
+		// correlated: diag combineDensities), without its Birge scaling.
+		var sw float64
 		for j, b := range ds {
 			if j != i {
-				w := 1 / (b.su * b.su)
-				sw += w
-				swx += w * b.ne
+				sw += 1 / (b.su * b.su / (b.ne * b.ne))
 			}
 		}
-		m, sm := swx/sw, 1/math.Sqrt(sw)
-		if zi := math.Abs(a.ne-m) / math.Hypot(a.su, sm); zi > best {
-			best, upper, ne, neOthers, uncOthers = zi, a.upper, a.ne, m, sm
+		var lm, st2, sy float64
+		for j, b := range ds {
+			if j != i {
+				w := 1 / (b.su * b.su / (b.ne * b.ne)) / sw
+				lm += w * math.Log(b.ne)
+				st2 += w * w * b.st * b.st / (b.ne * b.ne)
+				sy += w * b.sy / b.ne
+			}
+		}
+		rm := math.Hypot(math.Sqrt(st2), sy)
+		if zi := math.Abs(math.Log(a.ne)-lm) / math.Hypot(a.su/a.ne, rm); zi > best {
+			best, upper, ne, neOthers, uncOthers = zi, a.upper, a.ne, math.Exp(lm), math.Exp(lm)*rm
 		}
 	}
 	return upper, best, ne, neOthers, uncOthers, best > outlierSigma

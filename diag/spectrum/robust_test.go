@@ -276,7 +276,7 @@ func TestDenseSurvey(t *testing.T) {
 		} else if fitted := countFitted(res.LineSearch); fitted >= 2 {
 			t.Errorf("%d: %d lines fitted but no T_exc (%v)", k, fitted, res.Warnings)
 		}
-		t.Logf("%2d n_e %.3g inst %.2f SNR %4.0f: n_e %.3g ± %.2g (%+.0f %%), %s; %s", k, sc.ne, sc.instG, snr, ne, neU, 100*e, ts, res.ElectronDensitySource)
+		t.Logf("%2d n_e %.3g inst %.2f SNR %4.0f: n_e %.3g ± %.2g (%+.0f %%), %s; %s %v", k, sc.ne, sc.instG, snr, ne, neU, 100*e, ts, res.ElectronDensitySource, res.PartialReasons)
 		if math.Abs(e) > 0.4 {
 			t.Errorf("%d: n_e %.3g ± %.2g, true %.3g", k, ne, neU, sc.ne)
 		}
