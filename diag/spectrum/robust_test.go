@@ -365,7 +365,7 @@ func TestDensityOutlierWithheld(t *testing.T) {
 // over single noisy pixels stops early and underestimates the FWHM: every
 // fitted line's window spans at least ±4 of its fitted FWHM (or reaches
 // the range's end). On the base pipeline 8 of 21 fitted lines had
-// narrower windows (down to ±1.2 FWHM); with the straight search baseline
+// narrower windows (down to ±0.51 FWHM); with the straight search baseline
 // but without widening to the fitted FWHM and refitting, 4 of 27 (down to
 // ±0.87 FWHM).
 func TestWindowsCoverFittedWidth(t *testing.T) {
