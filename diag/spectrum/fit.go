@@ -36,6 +36,7 @@ func (p *Pipeline) candidates(x, y []float64, sat []bool, noise float64, sp *Spe
 	n := len(x)
 	cond := opt.Conditions
 	var out []balmerCandidate
+	p.setBoxSums(y)
 	for up := 3; up <= opt.MaxUpper; up++ {
 		t, err := diag.Balmer(up, cond.Isotope)
 		if err != nil {
@@ -72,8 +73,19 @@ func (p *Pipeline) candidates(x, y []float64, sat []bool, noise float64, sp *Spe
 				ip = i
 			}
 		}
+		// The baseline is a straight line through the low percentiles of
+		// the two outer halves of ±reach around the line (a flat low
+		// percentile of the whole region lies below the continuum under
+		// the line when the continuum slopes — in raw counts it follows
+		// the spectrometer's response — and a weak member, or none, then
+		// looks like a line whose half maximum is never reached); a line
+		// much wider than that region gets a wider one (reach.go).
 		reach := math.Max(math.Max(15*c.gauss, 40*px), 3)
-		base := percentile(y[index(x, center-reach):min(index(x, center+reach), n)], 0.2, p.work)
+		bl := p.baseline(x, y, center, reach)
+		if wide := p.wideLine(x, y, ip, center, reach, px, balmerSpacing(up, cond.Isotope, center)); wide.grown {
+			bl = wide
+		}
+		base := bl.at(x[ip])
 		c.peak = y[ip] - base
 		s := noise
 		if opt.GainElectronsPerCount > 0 {
@@ -87,15 +99,13 @@ func (p *Pipeline) candidates(x, y []float64, sat []bool, noise float64, sp *Spe
 			continue
 		}
 		// Rough FWHM: walk out to half maximum.
-		half := base + c.peak/2
-		l, r := ip, ip
-		for l > 0 && y[l] > half {
-			l--
-		}
-		for r < n-1 && y[r] > half {
-			r++
-		}
+		l, r := halfMaxEdges(x, y, ip, bl, c.peak/2)
 		c.width = math.Max(x[r]-x[l], c.gauss)
+		if bl.grown {
+			// A wide line: its FWHM from the smoothed data (single noisy
+			// pixels would end the walk early).
+			c.width = math.Max(bl.fwhm, c.gauss)
+		}
 		// Parabolic refinement of the peak position.
 		c.peakX = x[ip]
 		if ip > 0 && ip < n-1 {
@@ -104,7 +114,7 @@ func (p *Pipeline) candidates(x, y []float64, sat []bool, noise float64, sp *Spe
 				c.peakX += 0.5 * (a - d) / den * (x[ip+1] - x[ip-1]) / 2
 			}
 		}
-		c.base = base
+		c.base = bl.at(center)
 		for i := l; i <= r; i++ {
 			if sat[i] {
 				c.sat = true
@@ -114,15 +124,29 @@ func (p *Pipeline) candidates(x, y []float64, sat []bool, noise float64, sp *Spe
 			c.search.Status = "saturated"
 			c.search.Reason = "the line core reaches the detector ceiling"
 		}
-		hw := math.Max(5*c.width, 12*px)
-		c.lo, c.hi = index(x, center-hw), min(index(x, center+hw), n)
-		if c.hi-c.lo > p.maxPix {
-			mid := (c.lo + c.hi) / 2
-			c.lo, c.hi = mid-p.maxPix/2, mid+p.maxPix/2
-		}
+		p.setWindow(&c, x)
 		out = append(out, c)
 	}
-	// Group lines whose windows overlap (fitted jointly).
+	groupCandidates(out)
+	return out, nil
+}
+
+// setWindow sets the fit window of c: ±5 of its FWHM estimate (at least
+// ±12 pixels), cut to the pipeline's window size.
+func (p *Pipeline) setWindow(c *balmerCandidate, x []float64) {
+	n := len(x)
+	px := pixelWidth(x, min(max(index(x, c.center), 0), n-1))
+	hw := math.Max(5*c.width, 12*px)
+	c.lo, c.hi = index(x, c.center-hw), min(index(x, c.center+hw), n)
+	if c.hi-c.lo > p.maxPix {
+		mid := (c.lo + c.hi) / 2
+		c.lo, c.hi = mid-p.maxPix/2, mid+p.maxPix/2
+	}
+}
+
+// groupCandidates groups the detected lines whose windows overlap (they
+// are fitted jointly).
+func groupCandidates(out []balmerCandidate) {
 	g := 0
 	prev := -1
 	for i := range out {
@@ -139,7 +163,60 @@ func (p *Pipeline) candidates(x, y []float64, sat []bool, noise float64, sp *Spe
 		}
 		prev = i
 	}
-	return out, nil
+}
+
+// windowGrowth is how much wider than the FWHM estimate its window was set
+// for a fitted FWHM must be for the window to be set again and the lines
+// refitted: at 1.2 the window still spans ±4.2 fitted FWHM. Common
+// practice, no source.
+const windowGrowth = 1.2
+
+// growWindows widens the window of every fitted line whose fitted FWHM
+// exceeds the estimate its window was made for by more than windowGrowth
+// (a wide weak line on a noisy or sloping continuum is underestimated by
+// the search; in a window of a few FWHM its wings and the baseline trade
+// off, and the fit returns a narrow line with a wrong area). It reports
+// whether any window changed; the candidates are then reset and regrouped
+// for a new fit.
+func (p *Pipeline) growWindows(cands []balmerCandidate, x []float64) bool {
+	changed := false
+	for i := range cands {
+		c := &cands[i]
+		if c.fit == nil || !(c.fit.VoigtFWHM > windowGrowth*c.width) {
+			continue
+		}
+		lo, hi := c.lo, c.hi
+		c.width = c.fit.VoigtFWHM
+		p.setWindow(c, x)
+		changed = changed || c.lo != lo || c.hi != hi
+	}
+	if !changed {
+		return false
+	}
+	for i := range cands {
+		c := &cands[i]
+		c.fit = nil
+		if c.group > 0 && c.search.Status != "saturated" {
+			c.search.Status, c.search.Reason = "", ""
+		}
+	}
+	groupCandidates(cands)
+	p.chi2, p.keep, p.iters = p.chi2[:0], nil, p.iters[:0]
+	return true
+}
+
+// halfMaxEdges walks out from the peak index ip to the first pixels at or
+// below half over the baseline bl on either side.
+func halfMaxEdges(x, y []float64, ip int, bl wideFit, half float64) (l, r int) {
+	n := len(y)
+	l, r = ip, ip
+	for l > 0 && y[l]-bl.at(x[l]) > half {
+		l--
+	}
+	for r < n-1 && y[r]-bl.at(x[r]) > half {
+		r++
+	}
+	return l, r
 }
 
 func overlaps(a, b balmerCandidate) bool { return a.lo < b.hi && b.lo < a.hi }

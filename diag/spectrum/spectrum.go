@@ -230,6 +230,7 @@ type Pipeline struct {
 	fres    linefit.Result
 	x, y, s []float64
 	work    []float64
+	cum     []float64
 	sat     []bool
 	maxPix  int
 	problem linefit.Problem
@@ -241,6 +242,9 @@ type Pipeline struct {
 
 // maxWindowLines bounds the lines fitted jointly in one window.
 const maxWindowLines = 8
+
+// maxWindowRefits bounds the refits with widened windows (growWindows).
+const maxWindowRefits = 2
 
 // NewPipeline returns a pipeline whose fit windows hold up to maxWindowPixels
 // pixels (windows are cut to that size).
@@ -465,6 +469,16 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 	if err != nil {
 		return res, fail(src, "%v", err)
 	}
+	// Windows made for a line narrower than the fit found are widened
+	// and the lines fitted again (fit.go, growWindows).
+	for range maxWindowRefits {
+		if !p.growWindows(cands, x) {
+			break
+		}
+		if offset, offUnc, err = p.fitAll(cands, x, y, sig, opt, noise); err != nil {
+			return res, fail(src, "%v", err)
+		}
+	}
 	res.WavelengthOffsetNM, res.WavelengthOffsetUncNM = offset, offUnc
 	if opt.CorrectOffset && offUnc > 0 {
 		for i := range cands {
@@ -573,6 +587,15 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 	ar, err := diag.Analyze(m)
 	if err != nil {
 		return res, &Error{Source: src, Msg: trimDiag(err.Error()), Err: err}
+	}
+	// A line's density far outside the others' (outlier.go) is withheld.
+	ar, withheld, err := withholdDensityOutliers(m, ar)
+	if err != nil {
+		return res, &Error{Source: src, Msg: trimDiag(err.Error()), Err: err}
+	}
+	if len(withheld) > 0 {
+		res.Partial = true
+		res.PartialReasons = append(res.PartialReasons, withheld...)
 	}
 	res.Result = ar
 	if autoSat && anySaturated(cands) {
