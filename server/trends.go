@@ -1071,8 +1071,13 @@ func trendDesc(groups []trendGroup, p trendPlan) string {
 			continue
 		}
 		lo, hi := pts[0].Y, pts[0].Y
-		for _, pt := range pts {
-			lo, hi = math.Min(lo, pt.Y), math.Max(hi, pt.Y)
+		for _, pt := range pts { // no NaN in a series: plain comparisons (math.Min is slow over a million points)
+			if pt.Y < lo {
+				lo = pt.Y
+			}
+			if pt.Y > hi {
+				hi = pt.Y
+			}
 		}
 		d := fmt.Sprintf("%s: %d runs, %s from %s to %s, %s from %s to %s.", g.Label, len(pts), strings.ToLower(p.x.Label),
 			fmtQ(p.x, pts[0].X), fmtQ(p.x, pts[len(pts)-1].X), strings.ToLower(p.y.Label), fmtQ(p.y, lo), fmtQ(p.y, hi))

@@ -5,6 +5,7 @@ import (
 	"context"
 	"database/sql"
 	"fmt"
+	"math"
 	"slices"
 	"strings"
 	"sync"
@@ -113,6 +114,35 @@ func (f RunFilter) Where() (string, []any) { return f.where() }
 // (the run_changes log of migration 0004). Callers must not modify the
 // returned series.
 func (d *DB) TrendSeries(ctx context.Context, f RunFilter, xField, yField string) (TrendSeries, error) {
+	xf, ok := LookupTrendField(xField)
+	if !ok {
+		return TrendSeries{}, fmt.Errorf("%w: unknown x field %q (known: %s)", ErrInvalid, xField, trendKeys())
+	}
+	yf, ok := LookupTrendField(yField)
+	if !ok {
+		return TrendSeries{}, fmt.Errorf("%w: unknown y field %q (known: %s)", ErrInvalid, yField, trendKeys())
+	}
+	key := fmt.Sprintf("%#v|%s|%s", f, xField, yField)
+	if trendColumnsUsable(f) {
+		// From the column store (trendcols.go), made current first.
+		ok, err := d.colsSync(ctx, colsNeed(xf, yf), strings.TrimSpace(f.Gas) != "")
+		if err != nil {
+			return TrendSeries{}, err
+		}
+		if ok {
+			d.cols.mu.RLock()
+			seq := d.cols.seq
+			d.cols.mu.RUnlock()
+			ckey := "cols|" + key
+			if e, hit := d.trends.get(ckey); hit && e.seq == seq {
+				return e.ts, nil
+			}
+			if ts, seq, ok := d.colsSeries(f, xf, yf); ok {
+				d.trends.put(trendEntry{ckey, seq, ts, nil})
+				return ts, nil
+			}
+		}
+	}
 	// Two queries: SQLite answers a lone max() or min() of the primary key
 	// from the b-tree's end, but scans the table for both at once.
 	var cur, oldest int64
@@ -122,7 +152,6 @@ func (d *DB) TrendSeries(ctx context.Context, f RunFilter, xField, yField string
 	if err := d.db.QueryRowContext(ctx, `SELECT coalesce(min(seq), 0) FROM run_changes`).Scan(&oldest); err != nil {
 		return TrendSeries{}, err
 	}
-	key := fmt.Sprintf("%#v|%s|%s", f, xField, yField)
 	e, ok := d.trends.get(key)
 	switch {
 	case ok && e.seq == cur:
@@ -205,13 +234,23 @@ func sortTrend(pts []TrendPoint) {
 	})
 }
 
-// pruneRunChanges keeps the change log short: entries older than any
+// pruneRunChangesTx keeps the change log short: entries older than any
 // cached series could still need are dropped (a series older than the log
-// is simply read afresh).
-func pruneRunChangesTx(ctx context.Context, tx *sql.Tx) error {
-	_, err := tx.ExecContext(ctx, `DELETE FROM run_changes WHERE seq < (SELECT max(seq) FROM run_changes) - ?`, 2*maxIncremental)
+// is simply read afresh). Entries the trend column store has not read yet
+// are kept, up to maxColsLag of them, so that it catches up run by run
+// instead of reading a million runs again.
+func (d *DB) pruneRunChangesTx(ctx context.Context, tx *sql.Tx) error {
+	keep := d.cols.kept.Load() // 0: no column store
+	if keep == 0 {
+		keep = math.MaxInt64
+	}
+	_, err := tx.ExecContext(ctx, `DELETE FROM run_changes WHERE seq < min(
+		(SELECT max(seq) FROM run_changes) - ?, max(?, (SELECT max(seq) FROM run_changes) - ?))`, 2*maxIncremental, keep, maxColsLag)
 	return err
 }
+
+// maxColsLag bounds the log entries kept for the column store.
+const maxColsLag = 1_000_000
 
 // trendRead reads the series (unsorted) of the runs matching f and the
 // extra condition cond (with its arguments), and the ids of matching runs
