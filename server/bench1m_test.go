@@ -220,6 +220,44 @@ func BenchmarkTrendEach1MFirstView(b *testing.B) {
 	}
 }
 
+// BenchmarkTrendPages1MAfterChange: the trend pages with one run's
+// analysis summary changed before every request (as while spectra are
+// being ingested): the column store catches up from the change log and
+// the series is built again.
+func BenchmarkTrendPages1MAfterChange(b *testing.B) {
+	s, ck := bench1MServer(b)
+	i := 0
+	pageTimesWith(b, s, ck, trendURLs, func() {
+		i++
+		if _, err := s.DB.SQL().Exec(`UPDATE runs SET texc_k = texc_k + 1 WHERE id = ?`, 1+(i*7919)%bench1MRuns); err != nil {
+			b.Fatal(err)
+		}
+	})
+}
+
+// BenchmarkTrendColumnsLoad1M: loading the trend column store of
+// 1 000 000 runs (what serve does in the background at start-up), with
+// the heap it keeps.
+func BenchmarkTrendColumnsLoad1M(b *testing.B) {
+	s, _ := bench1MServer(b)
+	ctx := context.Background()
+	var ms runtime.MemStats
+	for b.Loop() {
+		s.DB.DropTrendColumns()
+		s.DB.DropTrendCache()
+		runtime.GC()
+		runtime.ReadMemStats(&ms)
+		before := ms.HeapAlloc
+		if _, err := s.DB.TrendSeries(ctx, store.RunFilter{ChamberID: 1}, "started_at", "texc_k"); err != nil {
+			b.Fatal(err)
+		}
+		s.DB.DropTrendCache()
+		runtime.GC()
+		runtime.ReadMemStats(&ms)
+		b.ReportMetric(float64(ms.HeapAlloc-before)/(1<<20), "columns-MB")
+	}
+}
+
 // countingWriter is a ResponseWriter that counts and drops the body (a
 // recorder would keep a million rows in memory).
 type countingWriter struct {

@@ -105,88 +105,98 @@ type colsQuerier interface {
 func trendColumnsUsable(f RunFilter) bool { return strings.TrimSpace(f.Query) == "" }
 
 // colsSync makes the column store current with the last committed change
-// and makes sure the value columns named in need are loaded. It loads the
-// store on first use. It returns false when the store cannot serve (the
-// caller reads through SQL).
+// and makes sure the value columns named in need (and the gas mixture,
+// with gas) are loaded. It loads the store on first use. It returns false
+// when the store cannot serve (the caller reads through SQL).
+//
+// The database work is not cancelled with ctx (a visitor leaving the page
+// would otherwise throw away a load others wait for); on an error the
+// store is dropped and read afresh next time, never left half updated.
 func (d *DB) colsSync(ctx context.Context, need []string, gas bool) (bool, error) {
+	ctx = context.WithoutCancel(ctx)
 	c := &d.cols
 	c.mu.RLock()
 	state, seq := c.state, c.seq
 	missing := c.missingLocked(need, gas)
 	c.mu.RUnlock()
-	if state == colsOff {
+	switch state {
+	case colsOff:
 		return false, nil
-	}
-	if state == colsEmpty {
-		c.loadMu.Lock()
-		c.mu.RLock()
-		state = c.state
-		c.mu.RUnlock()
-		if state == colsEmpty {
-			c.mu.Lock()
-			err := d.colsLoadLocked(ctx, need, gas)
-			c.mu.Unlock()
-			c.loadMu.Unlock()
-			if err != nil {
-				return false, err
-			}
-			return d.colsSync(ctx, need, gas)
+	case colsReady:
+		var cur int64
+		if err := d.db.QueryRowContext(ctx, `SELECT coalesce(max(seq), 0) FROM run_changes`).Scan(&cur); err != nil {
+			return false, err
 		}
-		c.loadMu.Unlock()
-		return d.colsSync(ctx, need, gas)
+		if cur == seq && !missing {
+			return true, nil
+		}
 	}
-	var cur int64
-	if err := d.db.QueryRowContext(ctx, `SELECT coalesce(max(seq), 0) FROM run_changes`).Scan(&cur); err != nil {
-		return false, err
-	}
-	if cur == seq && !missing {
-		return true, nil
-	}
+	c.loadMu.Lock() // one loader; the others wait for it here
+	defer c.loadMu.Unlock()
 	c.mu.Lock()
 	defer c.mu.Unlock()
-	if c.state != colsReady {
-		return c.state == colsReady, nil
-	}
-	tx, err := d.db.BeginTx(ctx, &sql.TxOptions{ReadOnly: true}) // a deferred read: one snapshot
-	if err != nil {
+	if err := d.colsSyncLocked(ctx, need, gas); err != nil {
+		c.colsData = colsData{}
+		c.kept.Store(0)
 		return false, err
+	}
+	return c.state == colsReady, nil
+}
+
+// colsSyncLocked is colsSync's work under mu, in one read transaction: one
+// snapshot for the log's end, the columns first needed now and the runs
+// changed since.
+func (d *DB) colsSyncLocked(ctx context.Context, need []string, gas bool) error {
+	c := &d.cols
+	if c.state == colsOff {
+		return nil
+	}
+	tx, err := d.db.BeginTx(ctx, &sql.TxOptions{ReadOnly: true}) // a deferred read
+	if err != nil {
+		return err
 	}
 	defer tx.Rollback()
-	var oldest int64
-	if err := tx.QueryRowContext(ctx, `SELECT coalesce(max(seq), 0), coalesce(min(seq), 0) FROM run_changes`).Scan(&cur, &oldest); err != nil {
-		return false, err
+	if c.state == colsEmpty {
+		if err := d.colsReadLocked(ctx, tx, need, gas); err != nil {
+			return err
+		}
+		return tx.Commit()
+	}
+	// Two subqueries: SQLite answers a lone max() or min() of the primary
+	// key from the b-tree's end, but scans the table for both at once.
+	var cur, oldest int64
+	if err := tx.QueryRowContext(ctx, `SELECT coalesce((SELECT max(seq) FROM run_changes), 0), coalesce((SELECT min(seq) FROM run_changes), 0)`).Scan(&cur, &oldest); err != nil {
+		return err
 	}
 	if cur != c.seq && oldest > c.seq+1 {
 		// The log no longer reaches back to the columns: read afresh.
 		if err := d.colsReadLocked(ctx, tx, need, gas); err != nil {
-			return false, err
+			return err
 		}
-		return c.state == colsReady, tx.Commit()
+		return tx.Commit()
 	}
-	// Columns first needed now are read in the same snapshot as the
-	// changes below, so that every column ends at the same position.
 	for _, col := range need {
 		if _, ok := c.vals[col]; !ok {
 			if err := c.loadValueLocked(ctx, tx, col); err != nil {
-				return false, err
+				return err
 			}
 		}
 	}
 	if gas && c.gas == nil {
 		if err := c.loadGasLocked(ctx, tx); err != nil {
-			return false, err
+			return err
 		}
 	}
 	if cur != c.seq {
 		if err := d.colsCatchUpLocked(ctx, tx, cur, need, gas); err != nil {
-			return false, err
+			return err
 		}
 	}
 	if c.state == colsReady {
 		c.seq = cur
 		c.kept.Store(cur)
 	}
-	return c.state == colsReady, tx.Commit()
+	return tx.Commit()
 }
 
 func (c *trendCols) missingLocked(need []string, gas bool) bool {
@@ -196,19 +206,6 @@ func (c *trendCols) missingLocked(need []string, gas bool) bool {
 		}
 	}
 	return gas && c.gas == nil
-}
-
-// colsLoadLocked reads the store in one read transaction.
-func (d *DB) colsLoadLocked(ctx context.Context, need []string, gas bool) error {
-	tx, err := d.db.BeginTx(ctx, &sql.TxOptions{ReadOnly: true})
-	if err != nil {
-		return err
-	}
-	defer tx.Rollback()
-	if err := d.colsReadLocked(ctx, tx, need, gas); err != nil {
-		return err
-	}
-	return tx.Commit()
 }
 
 // colsReadLocked reads every held column of every run, and the tags, in
@@ -229,10 +226,10 @@ func (d *DB) colsReadLocked(ctx context.Context, tx colsQuerier, need []string, 
 	gas = gas || c.gas != nil
 	var seq, n int64
 	if err := tx.QueryRowContext(ctx, `SELECT coalesce(max(seq), 0) FROM run_changes`).Scan(&seq); err != nil {
-		return fmt.Errorf("store: trend columns: %w", err)
+		return err
 	}
 	if err := tx.QueryRowContext(ctx, `SELECT count(*) FROM runs`).Scan(&n); err != nil {
-		return fmt.Errorf("store: trend columns: %w", err)
+		return err
 	}
 	c.colsData = colsData{state: colsReady, seq: seq, vals: map[string][]float64{}, tags: map[string][]int64{},
 		orders: map[string][]int32{}, statusDict: []string{""}, sourceDict: []string{""}}
@@ -251,20 +248,20 @@ func (d *DB) colsReadLocked(ctx context.Context, tx colsQuerier, need []string, 
 	}
 	rows, err := tx.QueryContext(ctx, `SELECT `+c.selectList(cols)+` FROM runs r ORDER BY r.id`)
 	if err != nil {
-		return fmt.Errorf("store: trend columns: %w", err)
+		return err
 	}
 	defer rows.Close()
 	sc := newColsScanner(len(cols), gas)
 	for rows.Next() {
 		if err := rows.Scan(sc.dest...); err != nil {
-			return fmt.Errorf("store: trend columns: %w", err)
+			return err
 		}
 		if !c.appendRow(sc, cols) {
 			return nil // state is colsOff
 		}
 	}
 	if err := rows.Err(); err != nil {
-		return fmt.Errorf("store: trend columns: %w", err)
+		return err
 	}
 	rows.Close()
 	if err := c.readTags(ctx, tx, nil); err != nil {
@@ -405,7 +402,7 @@ func (c *trendCols) loadValueLocked(ctx context.Context, tx colsQuerier, col str
 	}
 	rows, err := tx.QueryContext(ctx, `SELECT r.id, r.`+col+` FROM runs r ORDER BY r.id`)
 	if err != nil {
-		return fmt.Errorf("store: trend column %s: %w", col, err)
+		return fmt.Errorf("column %s: %w", col, err)
 	}
 	defer rows.Close()
 	i := 0
@@ -435,7 +432,7 @@ func (c *trendCols) loadGasLocked(ctx context.Context, tx colsQuerier) error {
 	c.gasCodeOf(nil) // code 0: ""
 	rows, err := tx.QueryContext(ctx, `SELECT r.id, r.gas_mixture FROM runs r ORDER BY r.id`)
 	if err != nil {
-		return fmt.Errorf("store: trend column gas: %w", err)
+		return fmt.Errorf("gas column: %w", err)
 	}
 	defer rows.Close()
 	i := 0
@@ -477,7 +474,7 @@ func (c *trendCols) readTags(ctx context.Context, tx colsQuerier, ids []int64) e
 	if ids == nil {
 		rows, err := tx.QueryContext(ctx, `SELECT run_id, tag FROM run_tags ORDER BY tag, run_id`)
 		if err != nil {
-			return fmt.Errorf("store: trend columns, tags: %w", err)
+			return fmt.Errorf("tags: %w", err)
 		}
 		return add(rows)
 	}
@@ -485,7 +482,7 @@ func (c *trendCols) readTags(ctx context.Context, tx colsQuerier, ids []int64) e
 		chunk := ids[start:min(start+500, len(ids))]
 		rows, err := tx.QueryContext(ctx, `SELECT run_id, tag FROM run_tags WHERE run_id IN (`+placeholders(len(chunk))+`)`, int64Args(chunk)...)
 		if err != nil {
-			return fmt.Errorf("store: trend columns, tags: %w", err)
+			return fmt.Errorf("tags: %w", err)
 		}
 		if err := add(rows); err != nil {
 			return err
@@ -509,7 +506,7 @@ func (d *DB) colsCatchUpLocked(ctx context.Context, tx colsQuerier, cur int64, n
 	c := &d.cols
 	rows, err := tx.QueryContext(ctx, `SELECT DISTINCT run_id FROM run_changes WHERE seq > ? AND seq <= ? ORDER BY run_id`, c.seq, cur)
 	if err != nil {
-		return fmt.Errorf("store: trend columns, changes: %w", err)
+		return fmt.Errorf("changes: %w", err)
 	}
 	var ids []int64
 	for rows.Next() {
@@ -553,7 +550,7 @@ func (d *DB) colsCatchUpLocked(ctx context.Context, tx colsQuerier, cur int64, n
 		chunk := ids[start:min(start+500, len(ids))]
 		rows, err := tx.QueryContext(ctx, `SELECT `+c.selectList(cols)+` FROM runs r WHERE r.id IN (`+placeholders(len(chunk))+`) ORDER BY r.id`, int64Args(chunk)...)
 		if err != nil {
-			return fmt.Errorf("store: trend columns, changed runs: %w", err)
+			return fmt.Errorf("changed runs: %w", err)
 		}
 		for rows.Next() {
 			if err := rows.Scan(sc.dest...); err != nil {
@@ -668,35 +665,53 @@ func (c *trendCols) order(f TrendField) []int32 {
 	if !slices.IsSortedFunc(o, less) {
 		slices.SortFunc(o, less)
 	}
+	if len(c.orders) >= maxOrders {
+		for k := range c.orders {
+			if k != "started_at" {
+				delete(c.orders, k) // 4 MB a million runs: a few are kept
+				break
+			}
+		}
+	}
 	c.orders[f.Key] = o
 	return o
 }
 
+// maxOrders is the most x orders kept (the start time's and two others).
+const maxOrders = 3
+
 // mergeOrder brings an order up to date after the runs at positions
 // changed were read again: they leave it and come back at their new place.
+// One pass over the order (a map lookup per entry would cost more than
+// the rest of a catch-up).
 func (c *trendCols) mergeOrder(key string, ord []int32, changed map[int32]bool) []int32 {
 	f, _ := LookupTrendField(key)
 	less := c.orderCmp(c.xs(f))
+	isChanged := make([]bool, len(c.id))
 	var fresh []int32
 	for i := range changed {
+		isChanged[i] = true
 		if c.status[i] != 0 {
 			fresh = append(fresh, i)
 		}
 	}
 	slices.SortFunc(fresh, less)
-	out := make([]int32, 0, len(ord)+len(fresh))
-	j := 0
+	kept := make([]int32, 0, len(ord))
 	for _, i := range ord {
-		if changed[i] {
-			continue
+		if int(i) >= len(isChanged) || !isChanged[i] {
+			kept = append(kept, i)
 		}
-		for j < len(fresh) && less(fresh[j], i) < 0 {
-			out = append(out, fresh[j])
-			j++
-		}
-		out = append(out, i)
 	}
-	return append(out, fresh[j:]...)
+	// Each changed run goes where a binary search of the rest puts it
+	// (ids are unique, so no two positions compare equal).
+	out := make([]int32, 0, len(kept)+len(fresh))
+	prev := 0
+	for _, i := range fresh {
+		at, _ := slices.BinarySearchFunc(kept, i, less)
+		out = append(append(out, kept[prev:at]...), i)
+		prev = at
+	}
+	return append(out, kept[prev:]...)
 }
 
 // colsSeries builds the trend of yf against xf over the runs matching f
@@ -915,4 +930,21 @@ func colsNeed(xf, yf TrendField) []string {
 		}
 	}
 	return need
+}
+
+// TrendColumnRuns is the number of runs the trend column store holds (0
+// before it is loaded or when it is not in use).
+func (d *DB) TrendColumnRuns() int {
+	d.cols.mu.RLock()
+	defer d.cols.mu.RUnlock()
+	return len(d.cols.id) - d.cols.holes
+}
+
+// DropTrendColumns forgets the trend column store; the next trend loads
+// it again (for benchmarks of the load).
+func (d *DB) DropTrendColumns() {
+	d.cols.mu.Lock()
+	d.cols.colsData = colsData{}
+	d.cols.kept.Store(0)
+	d.cols.mu.Unlock()
 }

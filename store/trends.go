@@ -105,14 +105,19 @@ func (f RunFilter) Where() (string, []any) { return f.where() }
 
 // TrendSeries returns the trend of yField against xField (keys of
 // TrendFields) over the runs matching f; f's Sort, Limit and Offset are
-// ignored. Only the needed columns of runs are read, so that a series of
-// 100 000 runs takes a few tens of milliseconds. Unknown field keys are
-// ErrInvalid.
+// ignored. Unknown field keys are ErrInvalid.
 //
-// Results are cached per filter and fields. When runs change, a cached
-// series is brought up to date by re-reading only the runs changed since
-// (the run_changes log of migration 0004). Callers must not modify the
-// returned series.
+// Without text search (f.Query) the series comes from the trend column
+// store (trendcols.go): every run's plotted quantities and filtered
+// attributes in memory, made current from the run_changes log (migration
+// 0004) before each answer, so a series of a million runs is built in
+// tens of milliseconds and never lags a committed change. With text
+// search, only the needed columns of runs are read through SQL.
+//
+// Results are cached per filter and fields with the log position they
+// are current at. A cached SQL series is brought up to date by re-reading
+// only the runs changed since; a column-store series is built again.
+// Callers must not modify the returned series.
 func (d *DB) TrendSeries(ctx context.Context, f RunFilter, xField, yField string) (TrendSeries, error) {
 	xf, ok := LookupTrendField(xField)
 	if !ok {
@@ -385,11 +390,12 @@ type trendEntry struct {
 const trendCacheSize = 8
 
 // trendCacheMaxPoints bounds the points held by the cache (a point is 56
-// bytes, so about 120 MB): on a log of a million runs the series of all
-// runs alone is a million points, and eight of them would need more
-// memory than the server is meant to use. The newest series is always
-// kept.
-const trendCacheMaxPoints = 2_250_000
+// bytes, so about 67 MB): on a log of a million runs the series of all
+// runs alone is a million points, and the trend column store beside it
+// holds about 75 MB; series of the store are rebuilt from it in tens of
+// milliseconds, so the cache need not hold many. The newest series is
+// always kept.
+const trendCacheMaxPoints = 1_200_000
 
 func (c *trendCache) get(key string) (trendEntry, bool) {
 	c.mu.Lock()
