@@ -87,6 +87,8 @@ type colsData struct {
 	// kept current.
 	orders map[string][]int32
 	holes  int
+	// lazy lists the value columns loaded beyond colsEager, oldest first.
+	lazy []string
 }
 
 const (
@@ -177,9 +179,11 @@ func (d *DB) colsSyncLocked(ctx context.Context, need []string, gas bool) error 
 	}
 	for _, col := range need {
 		if _, ok := c.vals[col]; !ok {
+			c.dropLazyLocked(need)
 			if err := c.loadValueLocked(ctx, tx, col); err != nil {
 				return err
 			}
+			c.lazy = append(c.lazy, col)
 		}
 	}
 	if gas && c.gas == nil {
@@ -212,17 +216,22 @@ func (c *trendCols) missingLocked(need []string, gas bool) bool {
 // the snapshot of tx; the value columns loaded before stay loaded.
 func (d *DB) colsReadLocked(ctx context.Context, tx colsQuerier, need []string, gas bool) error {
 	c := &d.cols
-	cols := slices.Clone(colsEager)
-	for col := range c.vals {
-		if !slices.Contains(cols, col) {
-			cols = append(cols, col)
-		}
-	}
+	// The value columns: the eager ones, those loaded lazily before
+	// (oldest first) and those needed now, within maxLazyCols.
+	lazy := slices.Clone(c.lazy)
 	for _, col := range need {
-		if !slices.Contains(cols, col) {
-			cols = append(cols, col)
+		if !slices.Contains(colsEager, col) && !slices.Contains(lazy, col) {
+			lazy = append(lazy, col)
 		}
 	}
+	for len(lazy) > maxLazyCols {
+		k := slices.IndexFunc(lazy, func(col string) bool { return !slices.Contains(need, col) })
+		if k < 0 {
+			break
+		}
+		lazy = slices.Delete(lazy, k, k+1)
+	}
+	cols := append(slices.Clone(colsEager), lazy...)
 	gas = gas || c.gas != nil
 	var seq, n int64
 	if err := tx.QueryRowContext(ctx, `SELECT coalesce(max(seq), 0) FROM run_changes`).Scan(&seq); err != nil {
@@ -232,7 +241,7 @@ func (d *DB) colsReadLocked(ctx context.Context, tx colsQuerier, need []string, 
 		return err
 	}
 	c.colsData = colsData{state: colsReady, seq: seq, vals: map[string][]float64{}, tags: map[string][]int64{},
-		orders: map[string][]int32{}, statusDict: []string{""}, sourceDict: []string{""}}
+		orders: map[string][]int32{}, statusDict: []string{""}, sourceDict: []string{""}, lazy: lazy}
 	c.id = make([]int64, 0, n)
 	c.started = make([]int64, 0, n)
 	c.chamber = make([]int32, 0, n)
@@ -391,6 +400,23 @@ func (c *trendCols) setRow(i int, s *colsScanner, cols []string) bool {
 func (c *trendCols) off() {
 	c.colsData = colsData{state: colsOff}
 	c.kept.Store(0)
+}
+
+// maxLazyCols is the most value columns held beyond colsEager (8 MB a
+// million runs each): the one loaded longest ago goes first.
+const maxLazyCols = 2
+
+// dropLazyLocked makes room for one more lazily loaded column, keeping
+// those in need.
+func (c *trendCols) dropLazyLocked(need []string) {
+	for len(c.lazy) >= maxLazyCols {
+		k := slices.IndexFunc(c.lazy, func(col string) bool { return !slices.Contains(need, col) })
+		if k < 0 {
+			return
+		}
+		delete(c.vals, c.lazy[k])
+		c.lazy = slices.Delete(c.lazy, k, k+1)
+	}
 }
 
 // loadValueLocked reads one value column of the held runs (runs not

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math/rand/v2"
 	"reflect"
+	"slices"
 	"testing"
 	"time"
 )
@@ -361,5 +362,68 @@ func TestTrendColumnsCatchUpAfterPrune(t *testing.T) {
 	}
 	if ts, _ := d.TrendSeries(ctx, RunFilter{}, "started_at", "texc_k"); len(ts.Points) != 1 || ts.Points[0].Y != 3600 {
 		t.Fatalf("after a pruned log: %+v, want 3600", ts.Points)
+	}
+}
+
+// TestTrendColumnsConcurrent: trends read while runs change (run with
+// -race): no data race, and once the writes stop the series equals the
+// SQL path's.
+func TestTrendColumnsConcurrent(t *testing.T) {
+	ctx := context.Background()
+	d, _ := openTrendDB(t)
+	chambers, recipes, ops := genTrendDB(t, d, 300)
+	filters := trendFilterSample(chambers, recipes, ops)
+	done := make(chan struct{})
+	errs := make(chan error, 8)
+	go func() {
+		defer close(done)
+		for i := range 60 {
+			if _, err := d.db.Exec(`UPDATE runs SET texc_k = ?, chamber_id = ?, started_at = started_at + 60 WHERE id = ?`,
+				5000+float64(i), chambers[i%len(chambers)], 1+(i*37)%300); err != nil {
+				errs <- err
+				return
+			}
+		}
+	}()
+	for r := range 3 {
+		go func() {
+			for k := 0; ; k++ {
+				select {
+				case <-done:
+					errs <- nil
+					return
+				default:
+				}
+				f := filters[(r+k)%len(filters)]
+				if _, err := d.TrendSeries(ctx, f, "started_at", "texc_k"); err != nil {
+					errs <- err
+					return
+				}
+			}
+		}()
+	}
+	for range 3 {
+		if err := <-errs; err != nil {
+			t.Fatal(err)
+		}
+	}
+	compareTrends(t, d, filters, [][2]string{{"started_at", "texc_k"}, {"pressure_pa", "texc_k"}})
+}
+
+// TestTrendColumnsLazyBound: the value columns loaded on demand stay
+// within maxLazyCols (the oldest goes), and a dropped one is read again
+// when a trend needs it, with the right numbers.
+func TestTrendColumnsLazyBound(t *testing.T) {
+	d, _ := openTrendDB(t)
+	chambers, recipes, ops := genTrendDB(t, d, 200)
+	filters := trendFilterSample(chambers, recipes, ops)[:2]
+	for _, x := range []string{"pressure_pa", "power_w", "electrode_gap_mm", "gas_temperature_k", "pressure_pa"} {
+		compareTrends(t, d, filters, [][2]string{{x, "tgas_k"}})
+		if n := len(d.cols.vals) - len(colsEager); n > maxLazyCols {
+			t.Fatalf("after x = %s: %d lazy columns held (%v), want at most %d", x, n, d.cols.lazy, maxLazyCols)
+		}
+	}
+	if !slices.Equal(d.cols.lazy, []string{"tgas_k", "pressure_pa"}) {
+		t.Errorf("lazy columns %v, want tgas_k (needed throughout) and pressure_pa (loaded last)", d.cols.lazy)
 	}
 }
