@@ -31,7 +31,9 @@ import (
 // the analysis summary (T_exc and n_e with their 1σ, warning count) are
 // loaded with the store, ≈ 70 MB for a million runs; the other plotted
 // quantities (tgas_k and the conditions) and the gas mixture are loaded
-// the first time a trend needs them, and kept from then on. Text search
+// the first time a trend needs them (at most maxLazyCols of them are kept:
+// the one loaded longest ago goes), and each x quantity's order (4 bytes
+// a run, at most maxOrders). Text search
 // (RunFilter.Query) needs titles and notes, which are not held: such
 // trends are read through SQL (trendRead) as before.
 
@@ -45,7 +47,7 @@ const colsReloadFraction = 4
 
 // trendCols is the column store: its data (colsData) are guarded by mu.
 type trendCols struct {
-	// loadMu serialises the first load (others wait on it).
+	// loadMu serialises loads and catch-ups (others wait on it).
 	loadMu sync.Mutex
 	mu     sync.RWMutex
 	// ordersMu guards colsData.orders, which readers fill in.
