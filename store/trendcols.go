@@ -417,6 +417,11 @@ func (c *trendCols) dropLazyLocked(need []string) {
 			return
 		}
 		delete(c.vals, c.lazy[k])
+		for _, f := range TrendFields {
+			if colName(f.col) == c.lazy[k] {
+				delete(c.orders, f.Key) // its order goes with it
+			}
+		}
 		c.lazy = slices.Delete(c.lazy, k, k+1)
 	}
 }
@@ -744,13 +749,14 @@ func (c *trendCols) mergeOrder(key string, ord []int32, changed map[int32]bool) 
 
 // colsSeries builds the trend of yf against xf over the runs matching f
 // from the columns (f.Query must be empty), with the log position it is
-// current at.
+// current at; false when the store is not ready or a column it needs is
+// not held (the caller syncs again).
 func (d *DB) colsSeries(f RunFilter, xf, yf TrendField) (TrendSeries, int64, bool) {
 	c := &d.cols
 	c.mu.RLock()
 	defer c.mu.RUnlock()
-	if c.state != colsReady {
-		return TrendSeries{}, 0, false
+	if c.state != colsReady || c.missingLocked(colsNeed(xf, yf), strings.TrimSpace(f.Gas) != "") {
+		return TrendSeries{}, 0, false // another trend's columns took their place meanwhile
 	}
 	ts := TrendSeries{X: xf, Y: yf}
 	m, ok := c.matcher(f)

@@ -128,24 +128,27 @@ func (d *DB) TrendSeries(ctx context.Context, f RunFilter, xField, yField string
 		return TrendSeries{}, fmt.Errorf("%w: unknown y field %q (known: %s)", ErrInvalid, yField, trendKeys())
 	}
 	key := fmt.Sprintf("%#v|%s|%s", f, xField, yField)
-	if trendColumnsUsable(f) {
-		// From the column store (trendcols.go), made current first.
+	// From the column store (trendcols.go), made current first; a few
+	// tries, as trends of other quantities may drop a column this one
+	// needs between the sync and the build.
+	for try := 0; try < 3 && trendColumnsUsable(f); try++ {
 		ok, err := d.colsSync(ctx, colsNeed(xf, yf), strings.TrimSpace(f.Gas) != "")
 		if err != nil {
 			return TrendSeries{}, err
 		}
-		if ok {
-			d.cols.mu.RLock()
-			seq := d.cols.seq
-			d.cols.mu.RUnlock()
-			ckey := "cols|" + key
-			if e, hit := d.trends.get(ckey); hit && e.seq == seq {
-				return e.ts, nil
-			}
-			if ts, seq, ok := d.colsSeries(f, xf, yf); ok {
-				d.trends.put(trendEntry{ckey, seq, ts, nil})
-				return ts, nil
-			}
+		if !ok {
+			break
+		}
+		d.cols.mu.RLock()
+		seq := d.cols.seq
+		d.cols.mu.RUnlock()
+		ckey := "cols|" + key
+		if e, hit := d.trends.get(ckey); hit && e.seq == seq {
+			return e.ts, nil
+		}
+		if ts, seq, ok := d.colsSeries(f, xf, yf); ok {
+			d.trends.put(trendEntry{ckey, seq, ts, nil})
+			return ts, nil
 		}
 	}
 	// Two queries: SQLite answers a lone max() or min() of the primary key
