@@ -346,6 +346,8 @@ func sparkline(st boardQuantityState, f store.TrendField, label string) string {
 }
 
 // htmlAttr escapes text for an attribute or element content.
-func htmlAttr(s string) string {
-	return strings.NewReplacer("&", "&amp;", "<", "&lt;", ">", "&gt;", `"`, "&quot;", "'", "&#39;").Replace(s)
-}
+func htmlAttr(s string) string { return htmlAttrReplacer.Replace(s) }
+
+// htmlAttrReplacer is built once (a trend chart escapes a thousand
+// tooltips; building a Replacer per call was a tenth of its time).
+var htmlAttrReplacer = strings.NewReplacer("&", "&amp;", "<", "&lt;", ">", "&gt;", `"`, "&quot;", "'", "&#39;")

@@ -129,13 +129,16 @@ func serve(ctx context.Context, addr, dbPath string, demo bool, opt Options, log
 		go func() { defer close(done); runBackups(bctx, db, extra.Backups, log) }()
 		defer func() { stopBackups(); <-done }() // before db.Close
 	}
-	// Read the default trend (all runs, T_exc against time) once in the
-	// background, so that the first visitor of the Trends page gets it
-	// from the cache.
+	// Load the trend column store (and read the default trend: all runs,
+	// T_exc against time) once in the background, so that the first
+	// visitor of the Trends page need not wait for it.
 	go func() {
+		t := time.Now()
 		if _, err := db.TrendSeries(ctx, store.RunFilter{}, "started_at", "texc_k"); err != nil && ctx.Err() == nil {
 			log.Warn("warming the trend cache", "err", err)
+			return
 		}
+		log.Info("trend columns loaded", "runs", db.TrendColumnRuns(), "took", time.Since(t).Round(time.Millisecond))
 	}()
 	ln, err := net.Listen("tcp", addr)
 	if err != nil {

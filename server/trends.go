@@ -760,6 +760,9 @@ func drawTrendCharts(ins []trendChartIn, shareY bool) ([]string, []*trendBuilt, 
 		if err != nil {
 			return nil, nil, err
 		}
+		if b.in.desc == "" {
+			b.in.desc = trendDesc(in.groups, in.x, in.y, b.idx)
+		}
 		built = append(built, b)
 		xmin, xmax = math.Min(xmin, b.p.X.Min), math.Max(xmax, b.p.X.Max)
 		ymin, ymax = math.Min(ymin, b.p.Y.Min), math.Max(ymax, b.p.Y.Max)
@@ -915,7 +918,7 @@ func (s *Server) showTrends(c echo.Context) error {
 					}
 				}
 			}
-			ins = append(ins, trendChartIn{groups: set, x: p.x, y: p.y, keys: keys, events: ev, title: title, desc: trendDesc(set, p),
+			ins = append(ins, trendChartIn{groups: set, x: p.x, y: p.y, keys: keys, events: ev, title: title,
 				oneChamber: p.compare == "chamber" || p.filter.ChamberID != 0})
 		}
 		svgs, built, err := drawTrendCharts(ins, !p.control)
@@ -1061,24 +1064,32 @@ func trendLegend(k trendKeys, used map[int64]bool, control, band, violations, ev
 	return out
 }
 
-// trendDesc describes a chart in words for screen readers.
-func trendDesc(groups []trendGroup, p trendPlan) string {
+// trendDesc describes a chart in words for screen readers. idx are the
+// drawn (decimated) indices of each group's points: they hold every
+// bucket's minimum and maximum, so the y range is found from them without
+// another pass over a million points.
+func trendDesc(groups []trendGroup, x, y store.TrendField, idx [][]int) string {
 	var parts []string
-	for _, g := range groups {
+	for gi, g := range groups {
 		pts := g.Series.Points
 		if len(pts) == 0 {
 			parts = append(parts, g.Label+": no runs with both values.")
 			continue
 		}
 		lo, hi := pts[0].Y, pts[0].Y
-		for _, pt := range pts {
-			lo, hi = math.Min(lo, pt.Y), math.Max(hi, pt.Y)
+		for _, i := range idx[gi] { // no NaN in a series: plain comparisons
+			if pts[i].Y < lo {
+				lo = pts[i].Y
+			}
+			if pts[i].Y > hi {
+				hi = pts[i].Y
+			}
 		}
-		d := fmt.Sprintf("%s: %d runs, %s from %s to %s, %s from %s to %s.", g.Label, len(pts), strings.ToLower(p.x.Label),
-			fmtQ(p.x, pts[0].X), fmtQ(p.x, pts[len(pts)-1].X), strings.ToLower(p.y.Label), fmtQ(p.y, lo), fmtQ(p.y, hi))
+		d := fmt.Sprintf("%s: %d runs, %s from %s to %s, %s from %s to %s.", g.Label, len(pts), strings.ToLower(x.Label),
+			fmtQ(x, pts[0].X), fmtQ(x, pts[len(pts)-1].X), strings.ToLower(y.Label), fmtQ(y, lo), fmtQ(y, hi))
 		if g.Limits != nil {
-			d += fmt.Sprintf(" Centre line %s, control limits %s to %s; %d rule violations.", fmtQ(p.y, g.Limits.Center),
-				fmtQ(p.y, g.Limits.LCL), fmtQ(p.y, g.Limits.UCL), len(g.Viol))
+			d += fmt.Sprintf(" Centre line %s, control limits %s to %s; %d rule violations.", fmtQ(y, g.Limits.Center),
+				fmtQ(y, g.Limits.LCL), fmtQ(y, g.Limits.UCL), len(g.Viol))
 		}
 		parts = append(parts, d)
 	}

@@ -3,6 +3,7 @@ package server
 import (
 	"context"
 	"net/http"
+	"net/url"
 	"regexp"
 	"strconv"
 	"strings"
@@ -299,5 +300,63 @@ func TestTrendsControlMarks(t *testing.T) {
 	}
 	if code, body := v.req(http.MethodGet, "/trends?colour=recipe", nil); code != http.StatusOK || !strings.Contains(body, "no recipe") {
 		t.Errorf("colour=recipe: %d, legend lacks “no recipe”", code)
+	}
+}
+
+// TestTrendsShowChangeAtOnce: the trends page and its CSV (served from
+// the trend column store) show a change of a run in the very next
+// request: a sign-off through the review pages, an edit, a reopen with a
+// newer analysis version.
+func TestTrendsShowChangeAtOnce(t *testing.T) {
+	f := newReviewFixture(t)
+	ctx := context.Background()
+	db := f.s.DB
+	chA, _ := db.EnsureChamber(ctx, "Bell jar B-2", "")
+	chB, _ := db.EnsureChamber(ctx, "Tube T-7", "")
+	run := analysedRun(t, f.s, f.op, "Hβ in B-2", time.Date(2026, 6, 1, 8, 0, 0, 0, time.UTC), &chA)
+	op, rev, vie := f.client(t, f.op), f.client(t, f.rev), f.client(t, f.vie)
+	rows := func(q string) []string {
+		t.Helper()
+		code, body := vie.req(http.MethodGet, "/trends.csv?"+q, nil)
+		if code != http.StatusOK {
+			t.Fatalf("GET /trends.csv?%s: %d", q, code)
+		}
+		return strings.Split(strings.TrimSpace(body), "\n")[1:]
+	}
+	has := func(what, q string, want bool) {
+		t.Helper()
+		r := rows("y=ne_m3&" + q)
+		if got := len(r) == 1 && strings.HasPrefix(r[0], itoa64(run)+","); got != want { // (n_e: one Hβ line gives no T_exc)
+			t.Errorf("%s: /trends.csv?%s rows %q, want the run: %v", what, q, r, want)
+		}
+	}
+	has("analysed", "chamber="+itoa64(chA), true)
+	has("not signed off yet", "status=signed_off", false)
+	for _, p := range []struct {
+		h    *htmlClient
+		path string
+	}{{op, "submit"}, {rev, "signoff"}} {
+		if code, body := p.h.req(http.MethodPost, "/runs/"+itoa64(run)+"/"+p.path, url.Values{}); code != http.StatusSeeOther {
+			t.Fatalf("POST %s: %d %.300s", p.path, code, body)
+		}
+	}
+	has("signed off", "status=signed_off", true)
+	if _, err := db.SQL().Exec(`UPDATE runs SET chamber_id = ? WHERE id = ?`, chB, run); err != nil {
+		t.Fatal(err)
+	}
+	has("moved away", "chamber="+itoa64(chA), false)
+	has("moved in", "chamber="+itoa64(chB), true)
+	// Reopen with a changed summary: the page's number follows.
+	if _, err := db.Review(ctx, run, f.rev, store.ActionReopen, "wrong lamp file"); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := db.SQL().Exec(`UPDATE runs SET texc_k = 4321.5 WHERE id = ?`, run); err != nil {
+		t.Fatal(err)
+	}
+	if got := rows("y=texc_k&status=returned"); len(got) != 1 || !strings.Contains(got[0], ",4321.5,") {
+		t.Errorf("after reopen and a new value: %q", got)
+	}
+	if n := db.TrendColumnRuns(); n != 1 {
+		t.Errorf("the trend column store holds %d runs, want 1 (it answered these)", n)
 	}
 }

@@ -37,6 +37,8 @@ type DB struct {
 	Now func() time.Time
 
 	trends trendCache
+	// cols is the trend column store (trendcols.go).
+	cols trendCols
 
 	// auditReady is set once the audit tables and triggers are in place
 	// (after the migrations); from then on every write transaction

@@ -1,0 +1,984 @@
+package store
+
+import (
+	"cmp"
+	"context"
+	"database/sql"
+	"fmt"
+	"math"
+	"slices"
+	"strings"
+	"sync"
+	"sync/atomic"
+)
+
+// The trend column store: the plotted quantities and the filtered
+// attributes of every run, held in memory as columns (one slice per
+// attribute, runs in id order), so that a trend of a million runs is one
+// pass over a few slices instead of a million rows read through SQL
+// (≈ 1–2 µs a row: 0.9–3 s for the first view of a filter).
+//
+// It is kept current from the run_changes log (migration 0004): triggers
+// on runs and run_tags log every insert, update and delete, whatever code
+// path made it (analysis service, uploads, sign-off and reopen, edits,
+// deletes, direct SQL). Before answering, TrendSeries reads the log's
+// end; when it is ahead of the columns, the runs changed since are read
+// again in one read transaction (the same snapshot as the log's end), so
+// a trend never shows a number older than the last committed change.
+//
+// Memory: per run 8 (id) + 8 (start) + 3×4 (chamber, recipe, operator) +
+// 2 (status, source) bytes and 8 per loaded value column. The columns of
+// the analysis summary (T_exc and n_e with their 1σ, warning count) are
+// loaded with the store, ≈ 70 MB for a million runs; the other plotted
+// quantities (tgas_k and the conditions) and the gas mixture are loaded
+// the first time a trend needs them (at most maxLazyCols of them are kept:
+// the one loaded longest ago goes), and each x quantity's order (4 bytes
+// a run, at most maxOrders). Text search
+// (RunFilter.Query) needs titles and notes, which are not held: such
+// trends are read through SQL (trendRead) as before.
+
+// colsEager are the value columns loaded with the store.
+var colsEager = []string{"texc_k", "texc_unc_k", "ne_m3", "ne_unc_m3", "n_warnings"}
+
+// colsReloadFraction: when more runs changed than this fraction of the
+// held runs (or the log no longer reaches back to the columns' position),
+// the store is read afresh instead of run by run.
+const colsReloadFraction = 4
+
+// trendCols is the column store: its data (colsData) are guarded by mu.
+type trendCols struct {
+	// loadMu serialises loads and catch-ups (others wait on it).
+	loadMu sync.Mutex
+	mu     sync.RWMutex
+	// ordersMu guards colsData.orders, which readers fill in.
+	ordersMu sync.Mutex
+	// kept is the columns' log position, readable without mu: the log is
+	// not pruned past it (pruneRunChangesTx), so that the columns can
+	// catch up run by run. 0: no constraint.
+	kept atomic.Int64
+	colsData
+}
+
+type colsData struct {
+	// state: colsEmpty until loaded; colsReady; colsOff when the data do
+	// not fit the columns (an id beyond int32 where int32 is used, more
+	// than 255 statuses or source types): SQL answers then.
+	state int
+	// seq is the run_changes position the columns are current at.
+	seq int64
+
+	id      []int64 // ascending
+	started []int64 // Unix seconds
+	chamber []int32 // 0: none
+	recipe  []int32 // 0: none
+	oper    []int32
+	status  []uint8 // code in statusDict; 0: deleted run (a hole)
+	source  []uint8 // code in sourceDict
+	// vals holds the loaded value columns by runs column name; NaN is
+	// NULL (SQLite stores no NaN: it reads back as NULL).
+	vals map[string][]float64
+	// gas is the gas mixture as a code in gasDict (nil: not loaded).
+	gas     []int32
+	gasDict []string
+	gasCode map[string]int32
+
+	statusDict, sourceDict []string           // code 0 is ""
+	tags                   map[string][]int64 // sorted run ids per tag
+	// orders holds, per x field key, the positions of the held runs
+	// (holes excluded) sorted by (x, id), built when first needed and
+	// kept current.
+	orders map[string][]int32
+	holes  int
+	// lazy lists the value columns loaded beyond colsEager, oldest first.
+	lazy []string
+}
+
+const (
+	colsEmpty = iota
+	colsReady
+	colsOff
+)
+
+// colsQuerier is what the store is read through: a read transaction.
+type colsQuerier interface {
+	QueryContext(ctx context.Context, query string, args ...any) (*sql.Rows, error)
+	QueryRowContext(ctx context.Context, query string, args ...any) *sql.Row
+}
+
+// trendColumnsUsable reports whether f can be answered from the columns.
+func trendColumnsUsable(f RunFilter) bool { return strings.TrimSpace(f.Query) == "" }
+
+// colsSync makes the column store current with the last committed change
+// and makes sure the value columns named in need (and the gas mixture,
+// with gas) are loaded. It loads the store on first use. It returns false
+// when the store cannot serve (the caller reads through SQL).
+//
+// The database work is not cancelled with ctx (a visitor leaving the page
+// would otherwise throw away a load others wait for); on an error the
+// store is dropped and read afresh next time, never left half updated.
+func (d *DB) colsSync(ctx context.Context, need []string, gas bool) (bool, error) {
+	ctx = context.WithoutCancel(ctx)
+	c := &d.cols
+	c.mu.RLock()
+	state, seq := c.state, c.seq
+	missing := c.missingLocked(need, gas)
+	c.mu.RUnlock()
+	switch state {
+	case colsOff:
+		return false, nil
+	case colsReady:
+		var cur int64
+		if err := d.db.QueryRowContext(ctx, `SELECT coalesce(max(seq), 0) FROM run_changes`).Scan(&cur); err != nil {
+			return false, err
+		}
+		if cur == seq && !missing {
+			return true, nil
+		}
+	}
+	c.loadMu.Lock() // one loader; the others wait for it here
+	defer c.loadMu.Unlock()
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if err := d.colsSyncLocked(ctx, need, gas); err != nil {
+		c.colsData = colsData{}
+		c.kept.Store(0)
+		return false, err
+	}
+	return c.state == colsReady, nil
+}
+
+// colsSyncLocked is colsSync's work under mu, in one read transaction: one
+// snapshot for the log's end, the columns first needed now and the runs
+// changed since.
+func (d *DB) colsSyncLocked(ctx context.Context, need []string, gas bool) error {
+	c := &d.cols
+	if c.state == colsOff {
+		return nil
+	}
+	tx, err := d.db.BeginTx(ctx, &sql.TxOptions{ReadOnly: true}) // a deferred read
+	if err != nil {
+		return err
+	}
+	defer tx.Rollback()
+	if c.state == colsEmpty {
+		if err := d.colsReadLocked(ctx, tx, need, gas); err != nil {
+			return err
+		}
+		return tx.Commit()
+	}
+	// Two subqueries: SQLite answers a lone max() or min() of the primary
+	// key from the b-tree's end, but scans the table for both at once.
+	var cur, oldest int64
+	if err := tx.QueryRowContext(ctx, `SELECT coalesce((SELECT max(seq) FROM run_changes), 0), coalesce((SELECT min(seq) FROM run_changes), 0)`).Scan(&cur, &oldest); err != nil {
+		return err
+	}
+	if cur != c.seq && oldest > c.seq+1 {
+		// The log no longer reaches back to the columns: read afresh.
+		if err := d.colsReadLocked(ctx, tx, need, gas); err != nil {
+			return err
+		}
+		return tx.Commit()
+	}
+	for _, col := range need {
+		if _, ok := c.vals[col]; !ok {
+			c.dropLazyLocked(need)
+			if err := c.loadValueLocked(ctx, tx, col); err != nil {
+				return err
+			}
+			c.lazy = append(c.lazy, col)
+		}
+	}
+	if gas && c.gas == nil {
+		if err := c.loadGasLocked(ctx, tx); err != nil {
+			return err
+		}
+	}
+	if cur != c.seq {
+		if err := d.colsCatchUpLocked(ctx, tx, cur, need, gas); err != nil {
+			return err
+		}
+	}
+	if c.state == colsReady {
+		c.seq = cur
+		c.kept.Store(cur)
+	}
+	return tx.Commit()
+}
+
+func (c *trendCols) missingLocked(need []string, gas bool) bool {
+	for _, col := range need {
+		if _, ok := c.vals[col]; !ok {
+			return true
+		}
+	}
+	return gas && c.gas == nil
+}
+
+// colsReadLocked reads every held column of every run, and the tags, in
+// the snapshot of tx; the value columns loaded before stay loaded.
+func (d *DB) colsReadLocked(ctx context.Context, tx colsQuerier, need []string, gas bool) error {
+	c := &d.cols
+	// The value columns: the eager ones, those loaded lazily before
+	// (oldest first) and those needed now, within maxLazyCols.
+	lazy := slices.Clone(c.lazy)
+	for _, col := range need {
+		if !slices.Contains(colsEager, col) && !slices.Contains(lazy, col) {
+			lazy = append(lazy, col)
+		}
+	}
+	for len(lazy) > maxLazyCols {
+		k := slices.IndexFunc(lazy, func(col string) bool { return !slices.Contains(need, col) })
+		if k < 0 {
+			break
+		}
+		lazy = slices.Delete(lazy, k, k+1)
+	}
+	cols := append(slices.Clone(colsEager), lazy...)
+	gas = gas || c.gas != nil
+	var seq, n int64
+	if err := tx.QueryRowContext(ctx, `SELECT coalesce(max(seq), 0) FROM run_changes`).Scan(&seq); err != nil {
+		return err
+	}
+	if err := tx.QueryRowContext(ctx, `SELECT count(*) FROM runs`).Scan(&n); err != nil {
+		return err
+	}
+	c.colsData = colsData{state: colsReady, seq: seq, vals: map[string][]float64{}, tags: map[string][]int64{},
+		orders: map[string][]int32{}, statusDict: []string{""}, sourceDict: []string{""}, lazy: lazy}
+	c.id = make([]int64, 0, n)
+	c.started = make([]int64, 0, n)
+	c.chamber = make([]int32, 0, n)
+	c.recipe = make([]int32, 0, n)
+	c.oper = make([]int32, 0, n)
+	c.status = make([]uint8, 0, n)
+	c.source = make([]uint8, 0, n)
+	for _, col := range cols {
+		c.vals[col] = make([]float64, 0, n)
+	}
+	if gas {
+		c.gas, c.gasCode = make([]int32, 0, n), map[string]int32{}
+	}
+	rows, err := tx.QueryContext(ctx, `SELECT `+c.selectList(cols)+` FROM runs r ORDER BY r.id`)
+	if err != nil {
+		return err
+	}
+	defer rows.Close()
+	sc := newColsScanner(len(cols), gas)
+	for rows.Next() {
+		if err := rows.Scan(sc.dest...); err != nil {
+			return err
+		}
+		if !c.appendRow(sc, cols) {
+			return nil // state is colsOff
+		}
+	}
+	if err := rows.Err(); err != nil {
+		return err
+	}
+	rows.Close()
+	if err := c.readTags(ctx, tx, nil); err != nil {
+		return err
+	}
+	c.kept.Store(seq)
+	return nil
+}
+
+// selectList is the column list of a runs row in the store (id first).
+func (c *trendCols) selectList(cols []string) string {
+	var b strings.Builder
+	b.WriteString(`r.id, r.started_at, coalesce(r.chamber_id, 0), coalesce(r.recipe_id, 0), r.operator_id, r.status, r.source_type`)
+	for _, col := range cols {
+		b.WriteString(", r.")
+		b.WriteString(col)
+	}
+	if c.gas != nil {
+		b.WriteString(", r.gas_mixture")
+	}
+	return b.String()
+}
+
+// colsScanner holds the scan destinations of one row.
+type colsScanner struct {
+	id, started, chamber, recipe, oper int64
+	status, source, gas                sql.RawBytes
+	vals                               []sql.NullFloat64
+	dest                               []any
+}
+
+func newColsScanner(nVals int, gas bool) *colsScanner {
+	s := &colsScanner{vals: make([]sql.NullFloat64, nVals)}
+	s.dest = []any{&s.id, &s.started, &s.chamber, &s.recipe, &s.oper, &s.status, &s.source}
+	for i := range s.vals {
+		s.dest = append(s.dest, &s.vals[i])
+	}
+	if gas {
+		s.dest = append(s.dest, &s.gas)
+	}
+	return s
+}
+
+func fitsInt32(v int64) bool { return v >= 0 && v <= math.MaxInt32 }
+
+// code returns the code of v in a dictionary, adding it (false when a
+// byte-sized dictionary is full).
+func code(dict *[]string, v []byte) (uint8, bool) {
+	for i, s := range *dict {
+		if i > 0 && s == string(v) {
+			return uint8(i), true
+		}
+	}
+	if len(*dict) > math.MaxUint8 {
+		return 0, false
+	}
+	*dict = append(*dict, string(v))
+	return uint8(len(*dict) - 1), true
+}
+
+func (c *trendCols) gasCodeOf(v []byte) int32 {
+	if k, ok := c.gasCode[string(v)]; ok {
+		return k
+	}
+	c.gasDict = append(c.gasDict, string(v))
+	k := int32(len(c.gasDict) - 1)
+	c.gasCode[string(v)] = k
+	return k
+}
+
+// appendRow adds a scanned run at the end (ids arrive ascending); false
+// turns the store off (a value that does not fit).
+func (c *trendCols) appendRow(s *colsScanner, cols []string) bool {
+	st, ok1 := code(&c.statusDict, s.status)
+	so, ok2 := code(&c.sourceDict, s.source)
+	if !fitsInt32(s.chamber) || !fitsInt32(s.recipe) || !fitsInt32(s.oper) || !ok1 || !ok2 {
+		c.off()
+		return false
+	}
+	c.id = append(c.id, s.id)
+	c.started = append(c.started, s.started)
+	c.chamber = append(c.chamber, int32(s.chamber))
+	c.recipe = append(c.recipe, int32(s.recipe))
+	c.oper = append(c.oper, int32(s.oper))
+	c.status = append(c.status, st)
+	c.source = append(c.source, so)
+	for i, col := range cols {
+		v := math.NaN()
+		if s.vals[i].Valid {
+			v = s.vals[i].Float64
+		}
+		c.vals[col] = append(c.vals[col], v)
+	}
+	if c.gas != nil {
+		c.gas = append(c.gas, c.gasCodeOf(s.gas))
+	}
+	return true
+}
+
+// setRow overwrites the run at position i with a scanned row.
+func (c *trendCols) setRow(i int, s *colsScanner, cols []string) bool {
+	st, ok1 := code(&c.statusDict, s.status)
+	so, ok2 := code(&c.sourceDict, s.source)
+	if !fitsInt32(s.chamber) || !fitsInt32(s.recipe) || !fitsInt32(s.oper) || !ok1 || !ok2 {
+		c.off()
+		return false
+	}
+	if c.status[i] == 0 {
+		c.holes--
+	}
+	c.started[i], c.chamber[i], c.recipe[i], c.oper[i], c.status[i], c.source[i] =
+		s.started, int32(s.chamber), int32(s.recipe), int32(s.oper), st, so
+	for k, col := range cols {
+		v := math.NaN()
+		if s.vals[k].Valid {
+			v = s.vals[k].Float64
+		}
+		c.vals[col][i] = v
+	}
+	if c.gas != nil {
+		c.gas[i] = c.gasCodeOf(s.gas)
+	}
+	return true
+}
+
+// off drops the columns: trends are read through SQL from now on.
+func (c *trendCols) off() {
+	c.colsData = colsData{state: colsOff}
+	c.kept.Store(0)
+}
+
+// maxLazyCols is the most value columns held beyond colsEager (8 MB a
+// million runs each): the one loaded longest ago goes first.
+const maxLazyCols = 2
+
+// dropLazyLocked makes room for one more lazily loaded column, keeping
+// those in need.
+func (c *trendCols) dropLazyLocked(need []string) {
+	for len(c.lazy) >= maxLazyCols {
+		k := slices.IndexFunc(c.lazy, func(col string) bool { return !slices.Contains(need, col) })
+		if k < 0 {
+			return
+		}
+		delete(c.vals, c.lazy[k])
+		for _, f := range TrendFields {
+			if colName(f.col) == c.lazy[k] {
+				delete(c.orders, f.Key) // its order goes with it
+			}
+		}
+		c.lazy = slices.Delete(c.lazy, k, k+1)
+	}
+}
+
+// loadValueLocked reads one value column of the held runs (runs not
+// held are left to the catch-up that follows in the same snapshot).
+func (c *trendCols) loadValueLocked(ctx context.Context, tx colsQuerier, col string) error {
+	vs := make([]float64, len(c.id))
+	for i := range vs {
+		vs[i] = math.NaN()
+	}
+	rows, err := tx.QueryContext(ctx, `SELECT r.id, r.`+col+` FROM runs r ORDER BY r.id`)
+	if err != nil {
+		return fmt.Errorf("column %s: %w", col, err)
+	}
+	defer rows.Close()
+	i := 0
+	for rows.Next() {
+		var id int64
+		var v sql.NullFloat64
+		if err := rows.Scan(&id, &v); err != nil {
+			return err
+		}
+		for i < len(c.id) && c.id[i] < id {
+			i++
+		}
+		if i < len(c.id) && c.id[i] == id && v.Valid {
+			vs[i] = v.Float64
+		}
+	}
+	if err := rows.Err(); err != nil {
+		return err
+	}
+	c.vals[col] = vs
+	return nil
+}
+
+// loadGasLocked reads the gas mixture of the held runs.
+func (c *trendCols) loadGasLocked(ctx context.Context, tx colsQuerier) error {
+	c.gas, c.gasDict, c.gasCode = make([]int32, len(c.id)), nil, map[string]int32{}
+	c.gasCodeOf(nil) // code 0: ""
+	rows, err := tx.QueryContext(ctx, `SELECT r.id, r.gas_mixture FROM runs r ORDER BY r.id`)
+	if err != nil {
+		return fmt.Errorf("gas column: %w", err)
+	}
+	defer rows.Close()
+	i := 0
+	for rows.Next() {
+		var id int64
+		var g sql.RawBytes
+		if err := rows.Scan(&id, &g); err != nil {
+			return err
+		}
+		for i < len(c.id) && c.id[i] < id {
+			i++
+		}
+		if i < len(c.id) && c.id[i] == id {
+			c.gas[i] = c.gasCodeOf(g)
+		}
+	}
+	return rows.Err()
+}
+
+// readTags reads the tags of the runs ids (all runs when ids is nil) into
+// c.tags; the caller has removed those runs' old tags.
+func (c *trendCols) readTags(ctx context.Context, tx colsQuerier, ids []int64) error {
+	add := func(rows *sql.Rows) error {
+		defer rows.Close()
+		for rows.Next() {
+			var id int64
+			var tag string
+			if err := rows.Scan(&id, &tag); err != nil {
+				return err
+			}
+			l := c.tags[tag]
+			k, found := slices.BinarySearch(l, id)
+			if !found {
+				c.tags[tag] = slices.Insert(l, k, id)
+			}
+		}
+		return rows.Err()
+	}
+	if ids == nil {
+		rows, err := tx.QueryContext(ctx, `SELECT run_id, tag FROM run_tags ORDER BY tag, run_id`)
+		if err != nil {
+			return fmt.Errorf("tags: %w", err)
+		}
+		return add(rows)
+	}
+	for start := 0; start < len(ids); start += 500 {
+		chunk := ids[start:min(start+500, len(ids))]
+		rows, err := tx.QueryContext(ctx, `SELECT run_id, tag FROM run_tags WHERE run_id IN (`+placeholders(len(chunk))+`)`, int64Args(chunk)...)
+		if err != nil {
+			return fmt.Errorf("tags: %w", err)
+		}
+		if err := add(rows); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+func placeholders(n int) string { return "?" + strings.Repeat(",?", n-1) }
+
+func int64Args(ids []int64) []any {
+	out := make([]any, len(ids))
+	for i, id := range ids {
+		out[i] = id
+	}
+	return out
+}
+
+// colsCatchUpLocked reads again the runs changed after c.seq up to cur.
+func (d *DB) colsCatchUpLocked(ctx context.Context, tx colsQuerier, cur int64, need []string, gas bool) error {
+	c := &d.cols
+	rows, err := tx.QueryContext(ctx, `SELECT DISTINCT run_id FROM run_changes WHERE seq > ? AND seq <= ? ORDER BY run_id`, c.seq, cur)
+	if err != nil {
+		return fmt.Errorf("changes: %w", err)
+	}
+	var ids []int64
+	for rows.Next() {
+		var id int64
+		if err := rows.Scan(&id); err != nil {
+			rows.Close()
+			return err
+		}
+		ids = append(ids, id)
+	}
+	rows.Close()
+	if err := rows.Err(); err != nil {
+		return err
+	}
+	if len(ids) > len(c.id)/colsReloadFraction+1000 {
+		return d.colsReadLocked(ctx, tx, need, gas)
+	}
+	cols := make([]string, 0, len(c.vals))
+	for col := range c.vals {
+		cols = append(cols, col)
+	}
+	// Old tags of the changed runs go; their current ones are read below.
+	for tag, l := range c.tags {
+		kept := l[:0]
+		for _, id := range l {
+			if _, found := slices.BinarySearch(ids, id); !found {
+				kept = append(kept, id)
+			}
+		}
+		if len(kept) == 0 {
+			delete(c.tags, tag)
+		} else {
+			c.tags[tag] = kept
+		}
+	}
+	seen := make(map[int64]bool, len(ids))
+	changedPos := map[int32]bool{}
+	shifted := false
+	sc := newColsScanner(len(cols), c.gas != nil)
+	for start := 0; start < len(ids); start += 500 {
+		chunk := ids[start:min(start+500, len(ids))]
+		rows, err := tx.QueryContext(ctx, `SELECT `+c.selectList(cols)+` FROM runs r WHERE r.id IN (`+placeholders(len(chunk))+`) ORDER BY r.id`, int64Args(chunk)...)
+		if err != nil {
+			return fmt.Errorf("changed runs: %w", err)
+		}
+		for rows.Next() {
+			if err := rows.Scan(sc.dest...); err != nil {
+				rows.Close()
+				return err
+			}
+			seen[sc.id] = true
+			i, found := slices.BinarySearch(c.id, sc.id)
+			if !found {
+				if i < len(c.id) {
+					shifted = true // a run id below the highest held: positions move
+				}
+				c.insertAt(i, cols)
+				c.id[i] = sc.id
+				c.status[i] = 0
+				c.holes++
+			}
+			if !c.setRow(i, sc, cols) {
+				rows.Close()
+				return nil
+			}
+			changedPos[int32(i)] = true
+		}
+		rows.Close()
+		if err := rows.Err(); err != nil {
+			return err
+		}
+	}
+	for _, id := range ids {
+		if seen[id] {
+			continue
+		}
+		if i, found := slices.BinarySearch(c.id, id); found && c.status[i] != 0 {
+			c.status[i] = 0 // deleted: a hole
+			c.holes++
+			changedPos[int32(i)] = true
+		}
+	}
+	if err := c.readTags(ctx, tx, ids); err != nil {
+		return err
+	}
+	if shifted {
+		clear(c.orders) // rebuilt when next needed
+	} else {
+		for key, ord := range c.orders {
+			c.orders[key] = c.mergeOrder(key, ord, changedPos)
+		}
+	}
+	if c.holes > len(c.id)/colsReloadFraction {
+		return d.colsReadLocked(ctx, tx, need, gas)
+	}
+	return nil
+}
+
+// insertAt opens an empty slot at position i in every column.
+func (c *trendCols) insertAt(i int, cols []string) {
+	c.id = slices.Insert(c.id, i, 0)
+	c.started = slices.Insert(c.started, i, 0)
+	c.chamber = slices.Insert(c.chamber, i, 0)
+	c.recipe = slices.Insert(c.recipe, i, 0)
+	c.oper = slices.Insert(c.oper, i, 0)
+	c.status = slices.Insert(c.status, i, 0)
+	c.source = slices.Insert(c.source, i, 0)
+	for _, col := range cols {
+		c.vals[col] = slices.Insert(c.vals[col], i, math.NaN())
+	}
+	if c.gas != nil {
+		c.gas = slices.Insert(c.gas, i, 0)
+	}
+}
+
+// xs returns the value of field f at a position.
+func (c *trendCols) xs(f TrendField) func(i int32) float64 {
+	if f.Time {
+		st := c.started
+		return func(i int32) float64 { return float64(st[i]) }
+	}
+	vs := c.vals[colName(f.col)]
+	return func(i int32) float64 { return vs[i] }
+}
+
+func colName(col string) string { return strings.TrimPrefix(col, "r.") }
+
+// orderCmp orders positions by (x, id) as sortTrend orders points
+// (cmp.Compare: NaN first).
+func (c *trendCols) orderCmp(x func(int32) float64) func(a, b int32) int {
+	return func(a, b int32) int {
+		if r := cmp.Compare(x(a), x(b)); r != 0 {
+			return r
+		}
+		return cmp.Compare(c.id[a], c.id[b])
+	}
+}
+
+// order returns the positions of the held runs sorted by (x, id); the
+// caller holds mu (a read lock suffices: a missing order is built under
+// ordersMu).
+func (c *trendCols) order(f TrendField) []int32 {
+	c.ordersMu.Lock()
+	defer c.ordersMu.Unlock()
+	if o, ok := c.orders[f.Key]; ok {
+		return o
+	}
+	o := make([]int32, 0, len(c.id)-c.holes)
+	for i := range c.id {
+		if c.status[i] != 0 {
+			o = append(o, int32(i))
+		}
+	}
+	x := c.xs(f)
+	less := c.orderCmp(x)
+	if !slices.IsSortedFunc(o, less) {
+		slices.SortFunc(o, less)
+	}
+	if len(c.orders) >= maxOrders {
+		for k := range c.orders {
+			if k != "started_at" {
+				delete(c.orders, k) // 4 MB a million runs: a few are kept
+				break
+			}
+		}
+	}
+	c.orders[f.Key] = o
+	return o
+}
+
+// maxOrders is the most x orders kept (the start time's and two others).
+const maxOrders = 3
+
+// mergeOrder brings an order up to date after the runs at positions
+// changed were read again: they leave it and come back at their new place.
+// One pass over the order (a map lookup per entry would cost more than
+// the rest of a catch-up).
+func (c *trendCols) mergeOrder(key string, ord []int32, changed map[int32]bool) []int32 {
+	f, _ := LookupTrendField(key)
+	less := c.orderCmp(c.xs(f))
+	isChanged := make([]bool, len(c.id))
+	var fresh []int32
+	for i := range changed {
+		isChanged[i] = true
+		if c.status[i] != 0 {
+			fresh = append(fresh, i)
+		}
+	}
+	slices.SortFunc(fresh, less)
+	kept := make([]int32, 0, len(ord))
+	for _, i := range ord {
+		if int(i) >= len(isChanged) || !isChanged[i] {
+			kept = append(kept, i)
+		}
+	}
+	// Each changed run goes where a binary search of the rest puts it
+	// (ids are unique, so no two positions compare equal).
+	out := make([]int32, 0, len(kept)+len(fresh))
+	prev := 0
+	for _, i := range fresh {
+		at, _ := slices.BinarySearchFunc(kept, i, less)
+		out = append(append(out, kept[prev:at]...), i)
+		prev = at
+	}
+	return append(out, kept[prev:]...)
+}
+
+// colsSeries builds the trend of yf against xf over the runs matching f
+// from the columns (f.Query must be empty), with the log position it is
+// current at; false when the store is not ready or a column it needs is
+// not held (the caller syncs again).
+func (d *DB) colsSeries(f RunFilter, xf, yf TrendField) (TrendSeries, int64, bool) {
+	c := &d.cols
+	c.mu.RLock()
+	defer c.mu.RUnlock()
+	if c.state != colsReady || c.missingLocked(colsNeed(xf, yf), strings.TrimSpace(f.Gas) != "") {
+		return TrendSeries{}, 0, false // another trend's columns took their place meanwhile
+	}
+	ts := TrendSeries{X: xf, Y: yf}
+	m, ok := c.matcher(f)
+	if !ok {
+		return ts, c.seq, true // the filter names a status, source or tag no run has
+	}
+	// The matching runs with both values, in x order (a plain loop: this
+	// is the whole cost of a first view).
+	ord := c.order(xf)
+	xv, yv := c.vals[colName(xf.col)], c.vals[colName(yf.col)]
+	if xf.Time {
+		xv = nil
+	}
+	if yf.Time {
+		yv = nil
+	}
+	mask := m.mask(c)
+	sel := ord
+	if mask != nil || xv != nil || yv != nil {
+		sel = make([]int32, 0, len(ord))
+		for _, i := range ord {
+			if mask != nil && !mask[i] {
+				continue
+			}
+			if (xv != nil && xv[i] != xv[i]) || (yv != nil && yv[i] != yv[i]) { // NaN: NULL
+				ts.Missing++
+				continue
+			}
+			sel = append(sel, i)
+		}
+	}
+	if len(sel) == 0 {
+		return ts, c.seq, true
+	}
+	var us []float64
+	if yf.uncCol != "" {
+		us = c.vals[colName(yf.uncCol)]
+	}
+	ts.Points = make([]TrendPoint, len(sel))
+	for k, i := range sel {
+		p := &ts.Points[k]
+		p.RunID, p.Started = c.id[i], c.started[i]
+		p.ChamberID, p.RecipeID = int64(c.chamber[i]), int64(c.recipe[i])
+		if xv != nil {
+			p.X = xv[i]
+		} else {
+			p.X = float64(c.started[i])
+		}
+		if yv != nil {
+			p.Y = yv[i]
+		} else {
+			p.Y = float64(c.started[i])
+		}
+		if us != nil && us[i] > 0 { // NaN > 0 is false
+			p.YUnc = us[i]
+		}
+	}
+	return ts, c.seq, true
+}
+
+// colsMatch is a RunFilter (without text search) on the columns: every
+// condition is the one RunFilter.where writes in SQL.
+type colsMatch struct {
+	chamber, recipe, oper int32 // 0: any
+	source, status        uint8 // 0: any
+	from, to              int64
+	hasFrom, hasTo        bool
+	gasIn                 []bool // by gas code; nil: any
+	tagIn                 []bool // by position; nil: any
+}
+
+// mask evaluates m on every position, one condition at a time (a tight
+// loop over one column each); nil when m has no condition.
+func (m *colsMatch) mask(c *trendCols) []bool {
+	var mask []bool
+	cond := func(test func(i int) bool) {
+		if mask == nil {
+			mask = make([]bool, len(c.id))
+			for i := range mask {
+				mask[i] = test(i)
+			}
+			return
+		}
+		for i, ok := range mask {
+			if ok && !test(i) {
+				mask[i] = false
+			}
+		}
+	}
+	if v := m.chamber; v != 0 {
+		cond(func(i int) bool { return c.chamber[i] == v })
+	}
+	if v := m.recipe; v != 0 {
+		cond(func(i int) bool { return c.recipe[i] == v })
+	}
+	if v := m.oper; v != 0 {
+		cond(func(i int) bool { return c.oper[i] == v })
+	}
+	if v := m.source; v != 0 {
+		cond(func(i int) bool { return c.source[i] == v })
+	}
+	if v := m.status; v != 0 {
+		cond(func(i int) bool { return c.status[i] == v })
+	}
+	if m.hasFrom {
+		v := m.from
+		cond(func(i int) bool { return c.started[i] >= v })
+	}
+	if m.hasTo {
+		v := m.to
+		cond(func(i int) bool { return c.started[i] < v })
+	}
+	if in := m.gasIn; in != nil {
+		cond(func(i int) bool { return in[c.gas[i]] })
+	}
+	if in := m.tagIn; in != nil {
+		cond(func(i int) bool { return in[i] })
+	}
+	return mask
+}
+
+// matcher compiles f; false when f matches no run at all.
+func (c *trendCols) matcher(f RunFilter) (*colsMatch, bool) {
+	m := &colsMatch{}
+	for _, v := range []struct {
+		id  int64
+		dst *int32
+	}{{f.ChamberID, &m.chamber}, {f.RecipeID, &m.recipe}, {f.OperatorID, &m.oper}} {
+		if v.id != 0 {
+			if !fitsInt32(v.id) || v.id == 0 {
+				return nil, false
+			}
+			*v.dst = int32(v.id)
+		}
+	}
+	for _, v := range []struct {
+		key  string
+		dict []string
+		dst  *uint8
+	}{{f.SourceType, c.sourceDict, &m.source}, {f.Status, c.statusDict, &m.status}} {
+		if v.key != "" {
+			k := slices.Index(v.dict[1:], v.key)
+			if k < 0 {
+				return nil, false
+			}
+			*v.dst = uint8(k + 1)
+		}
+	}
+	if !f.From.IsZero() {
+		m.from, m.hasFrom = f.From.Unix(), true
+	}
+	if !f.To.IsZero() {
+		m.to, m.hasTo = f.To.Unix(), true
+	}
+	if g := strings.TrimSpace(f.Gas); g != "" {
+		// LIKE '%g%' (escaped): a substring, ASCII letters in either case.
+		m.gasIn = make([]bool, len(c.gasDict))
+		for k, s := range c.gasDict {
+			m.gasIn[k] = containsFoldASCII(s, g)
+		}
+	}
+	if f.Tag != "" {
+		ids := c.tags[strings.ToLower(f.Tag)]
+		if len(ids) == 0 {
+			return nil, false
+		}
+		m.tagIn = make([]bool, len(c.id))
+		for _, id := range ids {
+			if k, found := slices.BinarySearch(c.id, id); found {
+				m.tagIn[k] = true
+			}
+		}
+	}
+	return m, true
+}
+
+// containsFoldASCII reports whether sub occurs in s with ASCII letters
+// compared without case, as SQLite's LIKE does by default.
+func containsFoldASCII(s, sub string) bool {
+	lower := func(b byte) byte {
+		if 'A' <= b && b <= 'Z' {
+			return b + 'a' - 'A'
+		}
+		return b
+	}
+	n := len(sub)
+	for i := 0; i+n <= len(s); i++ {
+		j := 0
+		for j < n && lower(s[i+j]) == lower(sub[j]) {
+			j++
+		}
+		if j == n {
+			return true
+		}
+	}
+	return false
+}
+
+// colsNeed lists the value columns a trend of xf and yf reads.
+func colsNeed(xf, yf TrendField) []string {
+	var need []string
+	for _, col := range []string{xf.col, yf.col, yf.uncCol} {
+		if col != "" && col != "r.started_at" {
+			need = append(need, colName(col))
+		}
+	}
+	return need
+}
+
+// TrendColumnRuns is the number of runs the trend column store holds (0
+// before it is loaded or when it is not in use).
+func (d *DB) TrendColumnRuns() int {
+	d.cols.mu.RLock()
+	defer d.cols.mu.RUnlock()
+	return len(d.cols.id) - d.cols.holes
+}
+
+// DropTrendColumns forgets the trend column store; the next trend loads
+// it again (for benchmarks of the load).
+func (d *DB) DropTrendColumns() {
+	d.cols.mu.Lock()
+	d.cols.colsData = colsData{}
+	d.cols.kept.Store(0)
+	d.cols.mu.Unlock()
+}
