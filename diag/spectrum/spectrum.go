@@ -575,6 +575,10 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 		return res, &Error{Source: src, Msg: trimDiag(err.Error()), Err: err}
 	}
 	res.Result = ar
+	res.Model = ModelLines
+	if opt.Model == ModelWhole {
+		p.whole(&res, wholeInput{cands: cands, x: x, y: y, sig: sig, sat: sat, m: m, lines: ar, off: res.WavelengthOffsetNM}, opt)
+	}
 	if autoSat && anySaturated(cands) {
 		res.Flags = append(res.Flags, diag.Flag{Code: FlagSaturationAuto, Message: fmt.Sprintf(
 			"no detector ceiling was given; a flat top at %.6g counts was taken as saturation", satLevel)})

@@ -1,5 +1,7 @@
 package spectrum
 
+import "glowlog/diag"
+
 // Analysis routes of the pipeline (Options.Model).
 const (
 	// ModelWhole fits one physical model to the whole fitted range: line
@@ -95,8 +97,11 @@ type WholeFit struct {
 	ElectronDensityUncStatM3      *float64 `json:"electron_density_unc_stat_m3"`
 	ElectronDensityUncSysM3       *float64 `json:"electron_density_unc_sys_m3"`
 	ElectronDensityUncM3          *float64 `json:"electron_density_unc_m3"`
-	GasTemperatureK               *float64 `json:"gas_temperature_K,omitempty"`
-	GasTemperatureUncK            *float64 `json:"gas_temperature_unc_K,omitempty"`
+	// ElectronDensityUncParts are the parts of the systematic σ of n_e,
+	// m⁻³ (added by the whole-fit work).
+	ElectronDensityUncParts []diag.UncPart `json:"electron_density_unc_sys_parts,omitempty"`
+	GasTemperatureK         *float64       `json:"gas_temperature_K,omitempty"`
+	GasTemperatureUncK      *float64       `json:"gas_temperature_unc_K,omitempty"`
 	// Lines route beside it, and the difference in combined σ.
 	LinesExcitationTemperatureK    *float64 `json:"lines_excitation_temperature_K"`
 	LinesExcitationTemperatureUncK *float64 `json:"lines_excitation_temperature_unc_K"`

@@ -1,0 +1,792 @@
+package spectrum
+
+// The whole-spectrum model fit (Options.Model == ModelWhole): one physical
+// model of every Balmer line in the fitted range, fitted to all its pixels
+// at once.
+//
+//	m(pixel i) = B(λ_i) + Σ_k a_k · ⟨P_k(λ − λ_k − δ; n_e, T_e, G_k, L_k)⟩_i
+//
+//   - a_k: the line areas, tied by the Boltzmann distribution (a_k = S ·
+//     f_k(T_exc), f_k = g_k A_k e^(−E_k/kT) in photon units, with a
+//     further 1/λ_k in energy units: the convention of diag.FitBoltzmann)
+//     or free (WholeAreasFree).
+//   - P_k: the Stehlé & Hutcheon (1999) Stark ⊗ Doppler(T_e) profile of
+//     the line at (n_e, T_e) (diag/sh99 Shape: the tables' interpolation,
+//     Hβ's central dip kept), convolved with the Gaussian still missing,
+//     G_extra² = G_instr² + D_gas² − D_table(T_e)², and with the
+//     non-Stark Lorentzian of the lines route's budget (instrument,
+//     natural, resonance, van der Waals). Where G_extra² < 0 (an
+//     instrument narrower than the tables' own Doppler width) it is
+//     clamped at 0: the model line is then slightly too wide, said in
+//     WholeFit.DopplerNote and carried as a systematic σ of n_e. Outside
+//     the tables a line is a Voigt profile whose Lorentzian is the Stark
+//     FWHM of the line's default relation plus the same non-Stark
+//     Lorentzians (Shape "Voigt"); a line with neither is left out.
+//   - ⟨⟩_i: the mean over pixel i between its edge midpoints, exact for
+//     the model on its fine grid (below).
+//   - δ: one wavelength offset; B: a Legendre polynomial in scaled λ over
+//     the fitted range (wholeBaselineOrder).
+//
+// Each line is built on its own uniform fine grid (step ≪ pixel and ≪
+// the line width): the exact bin masses of the SH99 shape from its
+// cumulative integral (sh99.Shape), as densities convolved with the
+// sampled Gaussian ⊗ Lorentzian kernel, summed into the cumulative of the
+// broadened profile; a pixel's mean is the difference of that cumulative
+// at its edges over the pixel width. Beyond the grid (far wings, where
+// the kernel no longer matters) the shape's own cumulative is used, to
+// wholeWingReach grid half-widths; what lies beyond that (below 1e-4 of
+// the peak for every line) is a smooth slope the baseline takes.
+//
+// The fit is Levenberg–Marquardt on all parameters with analytic
+// derivatives for the areas, T_exc (as β = 1/kT), baseline and offset
+// (from the broadened density on the grid) and for ln n_e (exact
+// derivative of the tables' interpolation, sh99.Shape.CumulativeDeriv,
+// carried through the same convolution); the gas temperature and the
+// instrument width, when free, by one-sided differences of the kernel
+// only (the bin masses do not depend on them).
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"strings"
+
+	"glowlog/diag"
+	"glowlog/diag/sh99"
+	"glowlog/diag/voigt"
+)
+
+// Flag codes of the whole-spectrum fit.
+const (
+	// FlagWholeFailed: the whole-spectrum fit was asked for and did not
+	// give a result; the line-by-line numbers are reported.
+	FlagWholeFailed = "whole_fit_failed"
+)
+
+// Tunables of the whole-spectrum model.
+const (
+	// wholeSignalSigma is the significance (fitted area over its 1σ with
+	// every line's area free, at the fitted shapes) from which a line
+	// counts as carrying signal; T_exc is reported when at least two do.
+	// Common practice, no source (the 3σ detection rule).
+	wholeSignalSigma = 3.0
+	// wholeDisagreeSigma is the difference between the routes, in
+	// combined σ, beyond which FlagWholeDisagrees is raised. Common
+	// practice, no source.
+	wholeDisagreeSigma = 2.0
+	// wholeSH99WidthRel is the relative 1σ of the SH99 widths carried as
+	// the tables' accuracy: the tables' widths agree with the published
+	// check values within 4 %, and two interpolations of the same nodes
+	// differ by up to 5 % for Hβ (diag/sh99 package doc, physics.md
+	// §4.5). Through n_e ∝ w^(1/p) it becomes σ(n_e)/n_e = 0.05/p.
+	wholeSH99WidthRel = 0.05
+	// wholeTeRelDefault and wholeTeRelGiven are the relative 1σ of the
+	// electron temperature of the tables: a factor of 2 when the default
+	// 1e4 K is used, 20 % when T_e was given. Common practice, no
+	// source.
+	wholeTeRelDefault = 0.69 // ln 2
+	wholeTeRelGiven   = 0.2
+	// wholeGridPerWidth and wholeGridPerPixel set the fine-grid step: at
+	// most 1/8 of the line's total FWHM and 1/3 of a pixel.
+	wholeGridPerWidth = 8
+	wholeGridPerPixel = 3
+	// wholeCoreWidths is the grid's half span in total FWHM (at least
+	// wholeCorePixels pixels); wholeWingReach the reach of the wings
+	// evaluated beyond it, in grid half spans.
+	wholeCoreWidths = 12
+	wholeCorePixels = 8
+	wholeWingReach  = 4
+	// wholeMaxBins bounds a line's fine grid (its step grows beyond).
+	wholeMaxBins = 1200
+	// wholeRangeMargin: a line is given its SH99 shape when the tables
+	// cover the starting density within this factor either way (else the
+	// Voigt of its default relation, or it is left out).
+	wholeRangeMargin = 3
+	// wholeMaxIter bounds the Levenberg–Marquardt iterations.
+	wholeMaxIter = 60
+)
+
+// wholeBaselineOrder returns the Legendre order of the baseline: 1 over a
+// fitted range up to 25 nm (a window around one or two lines: a straight
+// continuum, nothing that can take a line wing), 2 up to 120 nm, 3 beyond
+// (a survey: the response-corrected continuum curves over hundreds of nm,
+// but a cubic over ≥ 120 nm has no feature narrower than ~40 nm, far
+// wider than any line wing it must not eat).
+func wholeBaselineOrder(spanNM float64) int {
+	switch {
+	case spanNM <= 25:
+		return 1
+	case spanNM <= 120:
+		return 2
+	}
+	return 3
+}
+
+// wline is one Balmer line of the whole model.
+type wline struct {
+	t        diag.Transition
+	center   float64 // catalogue centre on the working axis, nm
+	shapeSH  bool
+	sh       *sh99.Line
+	rel      diag.StarkRelation // Voigt fallback
+	instG    float64            // instrument Gaussian FWHM at the line (fixed value)
+	lorOther float64            // non-Stark Lorentzian FWHM (instrument, natural, resonance, vdW)
+	lnF      float64            // ln of g A (/λ) relative to the first line
+	dE       float64            // E_k − E_first, eV
+	px       float64            // pixel width at the line
+	win      [2]float64         // line window for its statistics, nm
+	// Grid.
+	h     float64
+	m     int // bins 2m+1
+	plo   int // first fitted pixel evaluated
+	phi   int // one past the last
+	reach float64
+	// Per evaluation (over [plo, phi)).
+	u, du, dn, dg []float64
+	lastCF        cumFunc
+	kL            float64 // kernel Lorentzian FWHM of the last evaluation
+	// Grid scratch.
+	cum, dcum, mass, dmass, q, dq, kern []float64
+	// State of the last evaluation.
+	starkFWHM float64
+	extra2    float64 // G_extra² used
+	clampGap2 float64 // D_table² − (G² + D²) when clamped, else 0
+	sig       float64 // significance (area/σ, free areas)
+	dropped   string
+}
+
+// wparams locates the parameters in the vector.
+type wparams struct {
+	free    bool
+	nLines  int
+	iS, iB  int // Boltzmann: scale and β
+	iA      int // free: first area
+	iNe     int
+	iOff    int
+	iTg     int // -1 when fixed
+	iIa     int // instrument FWHM at the range's middle; -1 when fixed
+	iIb     int // its slope per nm
+	iBase   int
+	nBase   int
+	n       int
+	lamMid  float64
+	lamHalf float64
+}
+
+// wholeFitter holds the state of one whole fit.
+type wholeFitter struct {
+	opt    Options
+	m      diag.Measurement
+	te     float64
+	gasT   float64
+	mass   float64
+	lines  []*wline
+	x      []float64 // fitted pixel centres
+	a, b   []float64 // pixel edges
+	y, s   []float64 // data and σ (scaled by 2^-scaleExp)
+	leg    [][]float64
+	scale  int
+	par    wparams
+	th     []float64
+	model  []float64
+	jac    []float64 // row-major n×npar
+	lnLo   float64
+	lnHi   float64
+	linSol []float64
+	notes  []string
+}
+
+// wholeInput is what the whole fit needs from the lines route.
+type wholeInput struct {
+	cands []balmerCandidate
+	x     []float64 // working axis (air), all pixels
+	y     []float64 // per nm, corrected
+	sig   []float64
+	sat   []bool
+	m     diag.Measurement
+	lines diag.Result
+	off   float64
+}
+
+// whole runs the whole-spectrum fit and fills res.Whole (and, when
+// opt.Model is ModelWhole and the fit succeeds, the top-level numbers).
+func (p *Pipeline) whole(res *Result, in wholeInput, opt Options) {
+	wf, err := p.wholeFit(in, opt)
+	if err != nil {
+		res.Flags = append(res.Flags, diag.Flag{Code: FlagWholeFailed, Message: "the whole-spectrum fit gave no result (" + err.Error() + "): the line-by-line results are reported"})
+		return
+	}
+	res.Whole = wf
+	lr := in.lines
+	wf.LinesExcitationTemperatureK = lr.ExcitationTemperatureK
+	wf.LinesExcitationTemperatureUncK = lr.ExcitationTemperatureUncK
+	wf.LinesElectronDensityM3 = lr.ElectronDensityM3
+	wf.LinesElectronDensityUncM3 = lr.ElectronDensityUncM3
+	var why []string
+	if d, ok := diffSigma(wf.ExcitationTemperatureK, wf.ExcitationTemperatureUncK, lr.ExcitationTemperatureK, lr.ExcitationTemperatureUncK); ok {
+		wf.TexcDiffSigma = &d
+		if math.Abs(d) > wholeDisagreeSigma {
+			why = append(why, fmt.Sprintf("T_exc %s K (whole) against %s K (lines), %.1f combined σ apart",
+				fmtG(*wf.ExcitationTemperatureK), fmtG(*lr.ExcitationTemperatureK), math.Abs(d)))
+		}
+	}
+	if d, ok := diffSigma(wf.ElectronDensityM3, wf.ElectronDensityUncM3, lr.ElectronDensityM3, lr.ElectronDensityUncM3); ok {
+		wf.NeDiffSigma = &d
+		if math.Abs(d) > wholeDisagreeSigma {
+			why = append(why, fmt.Sprintf("n_e %s m⁻³ (whole) against %s m⁻³ (lines), %.1f combined σ apart",
+				fmtG(*wf.ElectronDensityM3), fmtG(*lr.ElectronDensityM3), math.Abs(d)))
+		}
+	}
+	if len(why) > 0 {
+		res.Flags = append(res.Flags, diag.Flag{Code: FlagWholeDisagrees, Message: "the whole-spectrum fit and the line-by-line analysis disagree: " +
+			strings.Join(why, "; ") + " (more than 2σ: common practice, no source). Likely causes: upper levels not in a Boltzmann distribution, self-absorption of Hα, a wrong spectral response, or a blend with another species' line; compare the whole fit's free-area mode and the Boltzmann plot"})
+	}
+	if opt.Model != ModelWhole {
+		return
+	}
+	res.Model = ModelWhole
+	r := &res.Result
+	r.ExcitationTemperatureK = wf.ExcitationTemperatureK
+	r.ExcitationTemperatureUncK = wf.ExcitationTemperatureUncK
+	r.ExcitationTemperatureUncStatK = wf.ExcitationTemperatureUncStatK
+	r.ExcitationTemperatureUncSysK = wf.ExcitationTemperatureUncSysK
+	r.ElectronDensityM3 = wf.ElectronDensityM3
+	r.ElectronDensityUncM3 = wf.ElectronDensityUncM3
+	r.ElectronDensityUncStatM3 = wf.ElectronDensityUncStatM3
+	r.ElectronDensityUncSysM3 = wf.ElectronDensityUncSysM3
+	r.ElectronDensityUncParts = wf.ElectronDensityUncParts
+	r.ElectronDensityCM3, r.ElectronDensityUncCM3 = nil, nil
+	if wf.ElectronDensityM3 != nil {
+		r.ElectronDensityCM3 = fptr(*wf.ElectronDensityM3 * 1e-6)
+		r.ElectronDensitySource = "whole-spectrum fit, " + wf.shapeSummary()
+	} else {
+		r.ElectronDensitySource = ""
+	}
+	if wf.ElectronDensityUncM3 != nil {
+		r.ElectronDensityUncCM3 = fptr(*wf.ElectronDensityUncM3 * 1e-6)
+	}
+}
+
+func (wf *WholeFit) shapeSummary() string {
+	sh, vo := 0, 0
+	for _, l := range wf.Lines {
+		if l.Shape == "SH99" {
+			sh++
+		} else {
+			vo++
+		}
+	}
+	switch {
+	case vo == 0:
+		return "SH99 shapes"
+	case sh == 0:
+		return "Voigt shapes (outside the SH99 tables)"
+	}
+	return "SH99 shapes (Voigt outside the tables)"
+}
+
+func diffSigma(a, ua, b, ub *float64) (float64, bool) {
+	if a == nil || b == nil || ua == nil || ub == nil {
+		return 0, false
+	}
+	s := math.Hypot(*ua, *ub)
+	if !(s > 0) || math.IsInf(s, 0) {
+		return 0, false
+	}
+	d := (*a - *b) / s
+	return d, finite(d)
+}
+
+func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
+
+func fptr(v float64) *float64 { return &v }
+
+func fmtG(v float64) string { return fmt.Sprintf("%.4g", v) }
+
+// wholeFit builds and fits the model.
+func (p *Pipeline) wholeFit(in wholeInput, opt Options) (*WholeFit, error) {
+	f := &wholeFitter{opt: opt, m: in.m}
+	f.te = in.m.ElectronTemperatureK
+	teGiven := f.te > 0
+	if !teGiven {
+		f.te = diag.DefaultElectronTemperatureK
+	}
+	f.gasT = in.m.GasTemperatureK
+	if in.lines.GasTemperatureK != nil && *in.lines.GasTemperatureK > 0 {
+		f.gasT = *in.lines.GasTemperatureK
+	}
+	if !(f.gasT > 0) {
+		// Unknown gas temperature: the Doppler part is left to the
+		// instrument (as the lines route does); a room-temperature
+		// Doppler width stands in for the kernel.
+		f.gasT = 300
+		f.notes = append(f.notes, "no gas temperature was given: 300 K was used for the Doppler width")
+	}
+	f.mass = diag.EmitterMassAMU(in.m.Isotope)
+	pert, err := diag.LookupPerturber(in.m.Perturber)
+	if err != nil || in.m.PressurePa == 0 {
+		pert = diag.NoPerturber
+	}
+
+	// Starting density.
+	ne0 := 0.0
+	if in.lines.ElectronDensityM3 != nil && *in.lines.ElectronDensityM3 > 0 {
+		ne0 = *in.lines.ElectronDensityM3
+	}
+
+	x := in.x
+	n := len(x)
+	// Lines: every member the search found inside the range, up to the
+	// merging of the series, that a shape model covers.
+	var lines []*wline
+	for i := range in.cands {
+		c := &in.cands[i]
+		if c.search.Status == "saturated" {
+			continue
+		}
+		ic := min(max(index(x, c.center), 0), n-1)
+		l := &wline{t: c.t, center: c.t.WavelengthAirNM, instG: c.instG, px: pixelWidth(x, ic)}
+		b, err := diag.NewBudget(diag.BudgetInput{Transition: c.t, InstrumentGaussNM: c.instG, InstrumentLorentzNM: c.instL,
+			GasTempK: f.gasT, Perturber: pert, PressurePa: in.m.PressurePa, GroundDensityM3: in.m.GroundStateDensityM3})
+		if err != nil {
+			return nil, err
+		}
+		l.lorOther = b.LorentzNonStarkNM
+		if s, err := sh99.Balmer(c.t.Upper); err == nil {
+			l.sh = s
+		}
+		if r, err := diag.DefaultStarkRelation(c.t.Upper); err == nil {
+			l.rel = r
+		}
+		l.dE = c.t.UpperEnergyEV
+		l.lnF = math.Log(float64(c.t.GUpper) * c.t.EinsteinA)
+		if in.m.Unit == diag.EnergyUnits {
+			l.lnF -= math.Log(c.t.WavelengthVacNM)
+		}
+		if c.fit != nil {
+			l.win = [2]float64{x[c.lo], x[c.hi-1]}
+		}
+		lines = append(lines, l)
+	}
+	if len(lines) == 0 {
+		return nil, errors.New("no Balmer line to model")
+	}
+	if ne0 == 0 {
+		ne0 = p.scanDensity(lines, f)
+	}
+	// Shapes at the start, the series' merging limit, and the n_e bounds.
+	f.lnLo, f.lnHi = math.Log(1e15), math.Log(1e26)
+	var keep []*wline
+	for i, l := range lines {
+		if l.sh != nil {
+			// The tables must cover the start within a factor
+			// wholeRangeMargin either way, so that the fit can move.
+			if lo, hi, ok := l.sh.ProfileRange(f.te); ok && ne0 >= lo*wholeRangeMargin && ne0 <= hi/wholeRangeMargin {
+				l.shapeSH = true
+			}
+		}
+		if !l.shapeSH && l.rel.ID == "" {
+			f.notes = append(f.notes, fmt.Sprintf("%s is left out: no Stark shape covers it at n_e ≈ %.3g m⁻³", l.t.Name(), ne0))
+			continue
+		}
+		// Merging: stop where the line is wider than the distance to the
+		// next member.
+		if i+1 < len(lines) {
+			w := f.totalWidth(l, ne0, l.instG)
+			if gap := l.center - lines[i+1].center; w > gap {
+				f.notes = append(f.notes, fmt.Sprintf("members from %s up are merged (FWHM %.3g nm over a spacing of %.3g nm) and left to the baseline", lines[i+1].t.Name(), w, gap))
+				keep = append(keep, l)
+				break
+			}
+		}
+		keep = append(keep, l)
+	}
+	lines = keep
+	if len(lines) == 0 {
+		return nil, errors.New("no Balmer line has a Stark shape model at this density")
+	}
+	for _, l := range lines {
+		if l.shapeSH {
+			if lo, hi, ok := l.sh.ProfileRange(f.te); ok {
+				f.lnLo = math.Max(f.lnLo, math.Log(lo)+1e-9)
+				f.lnHi = math.Min(f.lnHi, math.Log(hi)-1e-9)
+			}
+		}
+	}
+	if !(f.lnHi > f.lnLo) {
+		return nil, errors.New("the SH99 tables of the lines have no common density range")
+	}
+	ne0 = math.Min(math.Max(ne0, math.Exp(f.lnLo)), math.Exp(f.lnHi))
+	f.lines = lines
+
+	// Fitted pixels: the union of the lines' core windows, widened.
+	lo, hi := n, 0
+	for _, l := range lines {
+		w := f.totalWidth(l, ne0, l.instG)
+		half := math.Max(8*w, 15*l.px)
+		a, b := index(x, l.center-half), min(index(x, l.center+half), n)
+		lo, hi = min(lo, a), max(hi, b)
+		if l.win[1] == 0 {
+			hw := math.Max(5*w, 12*l.px)
+			l.win = [2]float64{l.center - hw, l.center + hw}
+		}
+	}
+	lo = max(lo, 0)
+	for i := lo; i < hi; i++ {
+		if in.sat[i] || math.IsNaN(in.y[i]) || !(in.sig[i] > 0) {
+			continue
+		}
+		ea, eb := pixelEdgesAt(x, i)
+		f.x = append(f.x, x[i])
+		f.a = append(f.a, ea)
+		f.b = append(f.b, eb)
+		f.y = append(f.y, in.y[i])
+		f.s = append(f.s, in.sig[i])
+	}
+	np := len(f.x)
+	if np < 10 {
+		return nil, errors.New("too few usable pixels")
+	}
+	f.scale = windowScaleExp(f.y)
+	if f.scale != 0 {
+		for i := range f.y {
+			f.y[i] = math.Ldexp(f.y[i], -f.scale)
+			f.s[i] = math.Ldexp(f.s[i], -f.scale)
+		}
+	}
+	if !validSigma(f.s) {
+		return nil, errors.New("the pixel uncertainties are zero or beyond the range of the fit")
+	}
+	span := f.x[np-1] - f.x[0]
+	order := wholeBaselineOrder(span)
+
+	// Parameters.
+	pr := wparams{free: opt.WholeAreas == WholeAreasFree, nLines: len(lines), iTg: -1, iIa: -1, iIb: -1}
+	k := 0
+	if pr.free {
+		pr.iA = 0
+		k = len(lines)
+	} else {
+		pr.iS, pr.iB = 0, 1
+		k = 2
+	}
+	pr.iNe, pr.iOff = k, k+1
+	k += 2
+	if opt.WholeFreeGasTemperature {
+		pr.iTg = k
+		k++
+	}
+	if opt.WholeFreeInstrument {
+		pr.iIa, pr.iIb = k, k+1
+		k += 2
+	}
+	pr.iBase, pr.nBase = k, order+1
+	k += order + 1
+	pr.n = k
+	pr.lamMid, pr.lamHalf = 0.5*(f.x[0]+f.x[np-1]), math.Max(0.5*span, 1e-9)
+	f.par = pr
+	f.leg = make([][]float64, pr.nBase)
+	for j := range f.leg {
+		f.leg[j] = make([]float64, np)
+	}
+	for i, v := range f.x {
+		t := (v - pr.lamMid) / pr.lamHalf
+		f.leg[0][i] = 1
+		if pr.nBase > 1 {
+			f.leg[1][i] = t
+		}
+		for j := 2; j < pr.nBase; j++ {
+			f.leg[j][i] = (float64(2*j-1)*t*f.leg[j-1][i] - float64(j-1)*f.leg[j-2][i]) / float64(j)
+		}
+	}
+	e0, f0 := lines[0].dE, lines[0].lnF
+	for _, l := range lines {
+		l.dE -= e0
+		l.lnF -= f0
+	}
+
+	f.th = make([]float64, pr.n)
+	f.model = make([]float64, np)
+	f.jac = make([]float64, np*pr.n)
+	th := f.th
+	th[pr.iNe] = math.Log(ne0)
+	th[pr.iOff] = in.off
+	if pr.iTg >= 0 {
+		th[pr.iTg] = f.gasT
+	}
+	if pr.iIa >= 0 {
+		th[pr.iIa] = f.instAt(pr.lamMid)
+		if !(th[pr.iIa] > 0) {
+			th[pr.iIa] = 2 * f.lines[0].px
+		}
+		th[pr.iIb] = 0
+	}
+	for _, l := range lines {
+		f.setupGrid(l, ne0, np)
+	}
+	// Linear start: free areas and baseline at the starting shapes.
+	if err := f.evalLines(th, false); err != nil {
+		return nil, err
+	}
+	areas, areaSig, _, ok := f.linearAreas()
+	if !ok {
+		return nil, errors.New("the starting linear fit is singular")
+	}
+	if pr.free {
+		for k := range lines {
+			th[pr.iA+k] = areas[k]
+		}
+	} else {
+		beta := 1 / (diag.BoltzmannEVPerK * 8000)
+		if in.lines.ExcitationTemperatureK != nil && *in.lines.ExcitationTemperatureK > 0 {
+			beta = 1 / (diag.BoltzmannEVPerK * *in.lines.ExcitationTemperatureK)
+		} else if b, ok := boltzmannBeta(lines, areas, areaSig); ok {
+			beta = b
+		}
+		th[pr.iB] = beta
+		th[pr.iS] = math.Max(areas[0], 0)
+		if !(th[pr.iS] > 0) {
+			th[pr.iS] = math.Abs(areas[0]) + areaSig[0]
+		}
+	}
+	f.linearBaseline()
+
+	it, conv, chi2, err := f.levmar()
+	if err != nil {
+		return nil, err
+	}
+	// A density at the edge of a line's table range: that line is refitted
+	// as a Voigt (once).
+	return f.result(it, conv, chi2, teGiven, in)
+}
+
+// instAt is the fixed instrument Gaussian FWHM at λ (interpolated between
+// the lines' values, or the conditions' constant).
+func (f *wholeFitter) instAt(lam float64) float64 {
+	if f.opt.Instrument != nil {
+		g, _, _ := f.opt.Instrument.At(lam)
+		return g
+	}
+	return f.m.InstrumentGaussFWHMNM
+}
+
+// totalWidth estimates a line's total FWHM at n_e.
+func (f *wholeFitter) totalWidth(l *wline, ne, instG float64) float64 {
+	d := diag.DopplerFWHMNM(l.center, f.gasT, f.mass)
+	g := math.Hypot(instG, d)
+	var base float64
+	if l.sh != nil {
+		if w, err := l.sh.TableWidthNM(sh99.FWHM, ne, f.te); err == nil {
+			base = w
+			g = math.Sqrt(math.Max(g*g-math.Pow(l.sh.DopplerFWHMNM(f.te), 2), 0))
+		}
+	}
+	if base == 0 && l.rel.ID != "" {
+		base = l.rel.WidthFromDensity(ne)
+	}
+	if base == 0 {
+		base = 2 * l.px
+	}
+	return diag.VoigtFWHM(g, base+l.lorOther)
+}
+
+// setupGrid fixes a line's fine grid and its pixel range.
+func (f *wholeFitter) setupGrid(l *wline, ne float64, np int) {
+	w := f.totalWidth(l, ne, l.instG)
+	l.h = math.Min(l.px/wholeGridPerPixel, w/wholeGridPerWidth)
+	half := math.Max(wholeCoreWidths*w, wholeCorePixels*l.px)
+	l.m = int(math.Ceil(half / l.h))
+	if l.m > wholeMaxBins/2 {
+		l.m = wholeMaxBins / 2
+		l.h = half / float64(l.m)
+	}
+	l.reach = wholeWingReach * float64(l.m) * l.h
+	l.plo = max(index(f.x, l.center-l.reach), 0)
+	l.phi = min(index(f.x, l.center+l.reach), len(f.x))
+	nb := 2*l.m + 1
+	l.cum = grow(&l.cum, nb+1)
+	l.dcum = grow(&l.dcum, nb+1)
+	l.mass = grow(&l.mass, nb)
+	l.dmass = grow(&l.dmass, nb)
+	l.q = grow(&l.q, nb)
+	l.dq = grow(&l.dq, nb)
+	k := l.phi - l.plo
+	l.u = grow(&l.u, k)
+	l.du = grow(&l.du, k)
+	l.dn = grow(&l.dn, k)
+}
+
+// kernL is the kernel Lorentzian FWHM of the last evaluation.
+func (l *wline) kernL() float64 { return l.kL }
+
+// lineShape returns the cumulative-evaluation function of a line at
+// ln n_e and the Gaussian and Lorentzian FWHM of its kernel.
+type cumFunc func(d float64) (c, dc float64)
+
+func (f *wholeFitter) lineShape(l *wline, lnNe, instG, gasT float64) (cumFunc, float64, float64, error) {
+	ne := math.Exp(lnNe)
+	dg := diag.DopplerFWHMNM(l.center, gasT, f.mass)
+	g2 := instG*instG + dg*dg
+	l.clampGap2 = 0
+	if l.shapeSH {
+		s, err := l.sh.Shape(ne, f.te)
+		if err != nil {
+			return nil, 0, 0, err
+		}
+		dt := l.sh.DopplerFWHMNM(f.te)
+		e2 := g2 - dt*dt
+		if e2 < 0 {
+			l.clampGap2 = -e2
+			e2 = 0
+		}
+		l.extra2 = e2
+		if w, err := l.sh.StarkWidthNM(sh99.FWHM, ne, f.te); err == nil {
+			l.starkFWHM = w
+		} else {
+			l.starkFWHM = 0
+		}
+		return s.CumulativeDeriv, math.Sqrt(e2), l.lorOther, nil
+	}
+	w := l.rel.LorentzianWidthNM(l.rel.WidthFromDensity(ne))
+	p := l.rel.Exponent
+	l.starkFWHM = w
+	l.extra2 = g2
+	lw := w + l.lorOther
+	gamma := lw / 2
+	return func(d float64) (float64, float64) {
+		c := 0.5 + math.Atan(d/gamma)/math.Pi
+		// dC/dγ = −d/(π(γ² + d²)); dγ/dln n_e = p·w/2.
+		dc := -d / (math.Pi * (gamma*gamma + d*d)) * p * w / 2
+		return c, dc
+	}, math.Sqrt(g2), 0, nil
+}
+
+// evalLine computes the line's unit profile's pixel means (u), their
+// derivative in λ (du, for the offset) and in ln n_e (dn) over its pixel
+// range, for line centre λ_k + off.
+func (f *wholeFitter) evalLine(l *wline, lnNe, off, instG, gasT float64) error {
+	cf, gF, lF, err := f.lineShape(l, lnNe, instG, gasT)
+	if err != nil {
+		return err
+	}
+	l.lastCF, l.kL = cf, lF
+	nb := 2*l.m + 1
+	h := l.h
+	e0 := -(float64(l.m) + 0.5) * h
+	for j := 0; j <= nb; j++ {
+		l.cum[j], l.dcum[j] = cf(e0 + float64(j)*h)
+	}
+	for j := range nb {
+		l.mass[j] = l.cum[j+1] - l.cum[j]
+		l.dmass[j] = l.dcum[j+1] - l.dcum[j]
+	}
+	f.convolve(l, gF, lF)
+	return f.pixels(l, cf, off)
+}
+
+// convolve convolves the bin masses with the kernel of Gaussian FWHM gF
+// and Lorentzian FWHM lF into l.q, l.dq (masses per bin).
+func (f *wholeFitter) convolve(l *wline, gF, lF float64) {
+	h := l.h
+	nb := 2*l.m + 1
+	// The bins' box (variance h²/12) is part of the broadening.
+	sigma := voigt.SigmaFromFWHM(gF)
+	s2 := sigma*sigma - h*h/12
+	gamma := lF / 2
+	if s2 <= 0 && gamma < 0.05*h {
+		copy(l.q, l.mass)
+		copy(l.dq, l.dmass)
+		return
+	}
+	sigma = math.Sqrt(math.Max(s2, 0))
+	reach := 5*sigma + 20*gamma
+	r := min(int(math.Ceil(reach/h)), nb)
+	kern := grow(&l.kern, 2*r+1)
+	var ks float64
+	for i := -r; i <= r; i++ {
+		var v float64
+		d := float64(i) * h
+		switch {
+		case gamma == 0:
+			v = math.Exp(-d * d / (2 * sigma * sigma))
+		case sigma < 1e-3*h:
+			v = 1 / (gamma*gamma + d*d)
+		default:
+			v = voigt.Profile(d, sigma, gamma)
+		}
+		kern[i+r] = v
+		ks += v
+	}
+	if !(ks > 0) {
+		copy(l.q, l.mass)
+		copy(l.dq, l.dmass)
+		return
+	}
+	for i := range kern {
+		kern[i] /= ks
+	}
+	for j := range nb {
+		var s, ds float64
+		lo, hi := max(j-r, 0), min(j+r, nb-1)
+		for i := lo; i <= hi; i++ {
+			kv := kern[j-i+r]
+			s += kv * l.mass[i]
+			ds += kv * l.dmass[i]
+		}
+		l.q[j], l.dq[j] = s, ds
+	}
+}
+
+// pixels turns the broadened bin masses into pixel means.
+func (f *wholeFitter) pixels(l *wline, cf cumFunc, off float64) error {
+	h := l.h
+	nb := 2*l.m + 1
+	e0 := -(float64(l.m) + 0.5) * h
+	eEnd := e0 + float64(nb)*h
+	// Cumulative of the broadened line on the bin edges: from the left
+	// wing value at the first edge.
+	c0, dc0 := l.cum[0], l.dcum[0]
+	// F(t) inside the grid.
+	cq := l.cum // reuse: broadened cumulative on the edges
+	dcq := l.dcum
+	cq[0], dcq[0] = c0, dc0
+	for j := range nb {
+		cq[j+1] = cq[j] + l.q[j]
+		dcq[j+1] = dcq[j] + l.dq[j]
+	}
+	cEnd, dcEnd := cf(eEnd)
+	shiftR, dshiftR := cq[nb]-cEnd, dcq[nb]-dcEnd
+	at := func(t float64) (c, dc, dens float64) {
+		switch {
+		case t <= e0:
+			c, dc = cf(t)
+			return c, dc, 0
+		case t >= eEnd:
+			c, dc = cf(t)
+			return c + shiftR, dc + dshiftR, 0
+		}
+		fj := (t - e0) / h
+		j := min(int(fj), nb-1)
+		u := fj - float64(j)
+		return cq[j] + u*l.q[j], dcq[j] + u*l.dq[j], l.q[j] / h
+	}
+	ctr := l.center + off
+	pa, pda, pdens := at(f.a[l.plo] - ctr)
+	for i := l.plo; i < l.phi; i++ {
+		var cb, dcb, densb float64
+		if i > l.plo && f.a[i] == f.b[i-1] {
+			// shared edge: already computed as the previous pixel's b
+		} else if i > l.plo {
+			pa, pda, pdens = at(f.a[i] - ctr)
+		}
+		cb, dcb, densb = at(f.b[i] - ctr)
+		w := f.b[i] - f.a[i]
+		k := i - l.plo
+		l.u[k] = (cb - pa) / w
+		l.dn[k] = (dcb - pda) / w
+		// d/dδ of the mean = −(density(b) − density(a))/w.
+		l.du[k] = -(densb - pdens) / w
+		pa, pda, pdens = cb, dcb, densb
+	}
+	return nil
+}

@@ -1,0 +1,828 @@
+package spectrum
+
+import (
+	"errors"
+	"fmt"
+	"math"
+
+	"glowlog/diag"
+	"glowlog/diag/sh99"
+)
+
+// lineInst returns a line's instrument Gaussian FWHM and gas temperature
+// under the parameters th.
+func (f *wholeFitter) lineInst(l *wline, th []float64) (float64, float64) {
+	g, tg := l.instG, f.gasT
+	if f.par.iIa >= 0 {
+		g = th[f.par.iIa] + th[f.par.iIb]*(l.center-f.par.lamMid)
+	}
+	if f.par.iTg >= 0 {
+		tg = th[f.par.iTg]
+	}
+	return math.Max(g, 0), math.Max(tg, diag.MinGasTemperatureK)
+}
+
+// areaOf returns line k's area under th.
+func (f *wholeFitter) areaOf(k int, th []float64) float64 {
+	if f.par.free {
+		return th[f.par.iA+k]
+	}
+	l := f.lines[k]
+	return th[f.par.iS] * math.Exp(l.lnF-th[f.par.iB]*l.dE)
+}
+
+// evalLines evaluates every line's unit profile at th (and the kernel
+// derivative l.dg when the gas temperature or the instrument is free).
+func (f *wholeFitter) evalLines(th []float64, _ bool) error {
+	for _, l := range f.lines {
+		g, tg := f.lineInst(l, th)
+		if f.par.iTg >= 0 || f.par.iIa >= 0 {
+			// Derivative in G_extra² by a one-sided difference of the
+			// kernel alone.
+			if err := f.evalLine(l, th[f.par.iNe], th[f.par.iOff], g, tg); err != nil {
+				return err
+			}
+			e2 := l.extra2
+			de := math.Max(0.02*e2, math.Pow(0.3*l.h, 2))
+			f.convolve(l, math.Sqrt(e2+de), l.kernL())
+			if err := f.pixels(l, l.lastCF, th[f.par.iOff]); err != nil {
+				return err
+			}
+			l.dg = grow(&l.dg, len(l.u))
+			copy(l.dg, l.u)
+			f.convolve(l, math.Sqrt(e2), l.kernL())
+			if err := f.pixels(l, l.lastCF, th[f.par.iOff]); err != nil {
+				return err
+			}
+			for i := range l.dg {
+				l.dg[i] = (l.dg[i] - l.u[i]) / de
+			}
+			if l.clampGap2 > 0 {
+				// Clamped: the model does not change with a small G.
+				for i := range l.dg {
+					l.dg[i] = 0
+				}
+			}
+			continue
+		}
+		if err := f.evalLine(l, th[f.par.iNe], th[f.par.iOff], g, tg); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// eval computes the model and the Jacobian at th and returns χ².
+func (f *wholeFitter) eval(th []float64) (float64, error) {
+	if err := f.evalLines(th, true); err != nil {
+		return 0, err
+	}
+	pr := f.par
+	n := len(f.x)
+	np := pr.n
+	mod := f.model
+	jac := f.jac
+	for i := range jac {
+		jac[i] = 0
+	}
+	for i := range mod {
+		var s float64
+		for b := range pr.nBase {
+			v := f.leg[b][i]
+			s += th[pr.iBase+b] * v
+			jac[i*np+pr.iBase+b] = v
+		}
+		mod[i] = s
+	}
+	for k, l := range f.lines {
+		a := f.areaOf(k, th)
+		g, tg := f.lineInst(l, th)
+		var dE2dTg, dE2dG float64
+		if pr.iTg >= 0 {
+			dd := diag.DopplerFWHMNM(l.center, tg, f.mass)
+			dE2dTg = dd * dd / tg
+		}
+		if pr.iIa >= 0 {
+			dE2dG = 2 * g
+		}
+		for i := l.plo; i < l.phi; i++ {
+			j := i - l.plo
+			u := l.u[j]
+			mod[i] += a * u
+			row := jac[i*np : (i+1)*np]
+			if pr.free {
+				row[pr.iA+k] = u
+			} else {
+				e := a / math.Max(th[pr.iS], math.SmallestNonzeroFloat64)
+				if th[pr.iS] != 0 {
+					row[pr.iS] += e * u
+				} else {
+					row[pr.iS] += math.Exp(l.lnF-th[pr.iB]*l.dE) * u
+				}
+				row[pr.iB] += -l.dE * a * u
+			}
+			row[pr.iNe] += a * l.dn[j]
+			row[pr.iOff] += a * l.du[j]
+			if pr.iTg >= 0 {
+				row[pr.iTg] += a * l.dg[j] * dE2dTg
+			}
+			if pr.iIa >= 0 {
+				row[pr.iIa] += a * l.dg[j] * dE2dG
+				row[pr.iIb] += a * l.dg[j] * dE2dG * (l.center - pr.lamMid)
+			}
+		}
+	}
+	var chi2 float64
+	for i := range n {
+		r := (f.y[i] - mod[i]) / f.s[i]
+		chi2 += r * r
+	}
+	if !finite(chi2) {
+		return 0, errors.New("the model is not finite")
+	}
+	return chi2, nil
+}
+
+// normal builds JᵀWJ and JᵀW r at the current state.
+func (f *wholeFitter) normal(A, g []float64) {
+	np := f.par.n
+	for i := range A {
+		A[i] = 0
+	}
+	for i := range g {
+		g[i] = 0
+	}
+	for i := range f.x {
+		w := 1 / (f.s[i] * f.s[i])
+		r := (f.y[i] - f.model[i]) * w
+		row := f.jac[i*np : (i+1)*np]
+		for a, va := range row {
+			if va == 0 {
+				continue
+			}
+			g[a] += va * r
+			wa := va * w
+			for b := a; b < np; b++ {
+				A[a*np+b] += wa * row[b]
+			}
+		}
+	}
+	for a := range np {
+		for b := range a {
+			A[a*np+b] = A[b*np+a]
+		}
+	}
+}
+
+// clampParams keeps the parameters in their domain.
+func (f *wholeFitter) clampParams(th []float64) {
+	pr := f.par
+	th[pr.iNe] = math.Min(math.Max(th[pr.iNe], f.lnLo), f.lnHi)
+	if pr.iTg >= 0 {
+		th[pr.iTg] = math.Min(math.Max(th[pr.iTg], 10), 1e5)
+	}
+	if pr.iIa >= 0 {
+		th[pr.iIa] = math.Max(th[pr.iIa], 0)
+	}
+	// One offset bounded by a few pixels: beyond that the line search
+	// would have found other centres.
+	lim := 5 * f.lines[0].px
+	th[pr.iOff] = math.Min(math.Max(th[pr.iOff], -lim), lim)
+}
+
+// levmar runs Levenberg–Marquardt from f.th.
+func (f *wholeFitter) levmar() (iters int, converged bool, chi2 float64, err error) {
+	np := f.par.n
+	A := make([]float64, np*np)
+	M := make([]float64, np*np)
+	g := make([]float64, np)
+	d := make([]float64, np)
+	trial := make([]float64, np)
+	chi2, err = f.eval(f.th)
+	if err != nil {
+		return 0, false, 0, err
+	}
+	lam := 1e-3
+	for iters = 1; iters <= wholeMaxIter; iters++ {
+		f.normal(A, g)
+		accepted := false
+		var newChi2 float64
+		for lam < 1e12 {
+			copy(M, A)
+			for a := range np {
+				dv := A[a*np+a]
+				if !(dv > 0) {
+					dv = 1e-300
+					M[a*np+a] = dv
+				}
+				M[a*np+a] += lam * dv
+			}
+			copy(d, g)
+			if !cholesky(M, np, 1e-14) {
+				lam *= 10
+				continue
+			}
+			cholSolve(M, np, d)
+			for a := range np {
+				trial[a] = f.th[a] + d[a]
+			}
+			f.clampParams(trial)
+			c2, e := f.eval(trial)
+			if e == nil && c2 <= chi2 {
+				newChi2 = c2
+				accepted = true
+				break
+			}
+			lam *= 10
+		}
+		if !accepted {
+			// No step lowers χ²: at the minimum within rounding.
+			_, err = f.eval(f.th)
+			return iters, true, chi2, err
+		}
+		copy(f.th, trial)
+		drop := chi2 - newChi2
+		chi2 = newChi2
+		lam = math.Max(lam/10, 1e-12)
+		if drop <= 1e-7*chi2+1e-12 {
+			return iters, true, chi2, nil
+		}
+	}
+	return wholeMaxIter, false, chi2, nil
+}
+
+// linearAreas solves the linear least-squares problem of free line
+// areas and baseline at the current shapes; it returns the areas, their
+// 1σ (scaled by the residuals when there is no noise model) and χ².
+func (f *wholeFitter) linearAreas() (areas, sig []float64, chi2 float64, ok bool) {
+	nl := len(f.lines)
+	nb := f.par.nBase
+	np := nl + nb
+	A := make([]float64, np*np)
+	g := make([]float64, np)
+	col := func(c, i int) float64 {
+		if c < nl {
+			l := f.lines[c]
+			if i < l.plo || i >= l.phi {
+				return 0
+			}
+			return l.u[i-l.plo]
+		}
+		return f.leg[c-nl][i]
+	}
+	row := make([]float64, np)
+	for i := range f.x {
+		w := 1 / (f.s[i] * f.s[i])
+		for c := range np {
+			row[c] = col(c, i)
+		}
+		for a := range np {
+			if row[a] == 0 {
+				continue
+			}
+			g[a] += row[a] * f.y[i] * w
+			for b := a; b < np; b++ {
+				A[a*np+b] += row[a] * row[b] * w
+			}
+		}
+	}
+	for a := range np {
+		for b := range a {
+			A[a*np+b] = A[b*np+a]
+		}
+		if !(A[a*np+a] > 0) {
+			A[a*np+a] = 1 // a line without pixels: area 0
+		}
+	}
+	if !cholesky(A, np, 1e-14) {
+		return nil, nil, 0, false
+	}
+	sol := append([]float64(nil), g...)
+	cholSolve(A, np, sol)
+	inv := make([]float64, np*np)
+	cholInverse(A, np, inv, make([]float64, np))
+	for i := range f.x {
+		var m float64
+		for c := range np {
+			m += sol[c] * col(c, i)
+		}
+		r := (f.y[i] - m) / f.s[i]
+		chi2 += r * r
+	}
+	scale := 1.0
+	if dof := len(f.x) - np; dof > 0 && f.opt.GainElectronsPerCount <= 0 {
+		scale = math.Sqrt(chi2 / float64(dof))
+	}
+	areas = sol[:nl]
+	sig = make([]float64, nl)
+	for k := range nl {
+		sig[k] = math.Sqrt(math.Max(inv[k*np+k], 0)) * scale
+	}
+	f.linSol = sol
+	return areas, sig, chi2, true
+}
+
+// linearBaseline sets the baseline parameters from the last linear solve.
+func (f *wholeFitter) linearBaseline() {
+	nl := len(f.lines)
+	for b := range f.par.nBase {
+		f.th[f.par.iBase+b] = f.linSol[nl+b]
+	}
+}
+
+// boltzmannBeta fits ln(a_k/F_k) against E_k for the positive areas and
+// returns β = 1/kT when the slope is negative.
+func boltzmannBeta(lines []*wline, areas, sig []float64) (float64, bool) {
+	var sw, sx, sy, sxx, sxy float64
+	n := 0
+	for k, l := range lines {
+		if !(areas[k] > 0) || !(sig[k] > 0) || areas[k] < 2*sig[k] {
+			continue
+		}
+		y := math.Log(areas[k]) - l.lnF
+		w := math.Pow(areas[k]/sig[k], 2)
+		sw += w
+		sx += w * l.dE
+		sy += w * y
+		sxx += w * l.dE * l.dE
+		sxy += w * l.dE * y
+		n++
+	}
+	if n < 2 {
+		return 0, false
+	}
+	den := sw*sxx - sx*sx
+	if !(den > 0) {
+		return 0, false
+	}
+	slope := (sw*sxy - sx*sy) / den
+	if !(slope < 0) {
+		return 0, false
+	}
+	return -slope, true
+}
+
+// scanDensity picks a starting n_e when the lines route has none: the
+// lowest χ² of the linear fit over a coarse grid in the tables' range.
+func (p *Pipeline) scanDensity(lines []*wline, f *wholeFitter) float64 {
+	_ = p
+	_ = lines
+	_ = f
+	return 1e21
+}
+
+// result assembles the WholeFit from the converged state.
+func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, in wholeInput) (*WholeFit, error) {
+	pr := f.par
+	np := pr.n
+	n := len(f.x)
+	dof := n - np
+	if dof <= 0 {
+		return nil, errors.New("more parameters than pixels")
+	}
+	A := make([]float64, np*np)
+	g := make([]float64, np)
+	f.normal(A, g)
+	// Parameters the data do not touch (a line without pixels) are held.
+	R := append([]float64(nil), A...)
+	if !cholesky(R, np, 1e-15) {
+		return nil, errors.New("the fit's curvature matrix is singular (a parameter is not determined by the data)")
+	}
+	cov0 := make([]float64, np*np)
+	cholInverse(R, np, cov0, make([]float64, np))
+	red := chi2 / float64(dof)
+	scale := 1.0
+	if f.opt.GainElectronsPerCount <= 0 || red > 1+3*math.Sqrt(2/float64(dof)) {
+		scale = red
+	}
+	cov := make([]float64, np*np)
+	for i := range cov {
+		cov[i] = cov0[i] * scale
+	}
+	sd := func(i int) float64 { return math.Sqrt(math.Max(cov[i*np+i], 0)) }
+	th := f.th
+	unsc := func(v float64) float64 { return math.Ldexp(v, f.scale) }
+
+	wf := &WholeFit{Areas: WholeAreasBoltzmann, RangeNM: [2]float64{f.x[0], f.x[n-1]}, Pixels: n,
+		ReducedChi2: red, DOF: dof, Iterations: iters, Converged: conv}
+	if pr.free {
+		wf.Areas = WholeAreasFree
+	}
+	// Significance of each line: its area over σ with every area free.
+	linAreas, linSig, _, ok := f.linearAreas()
+	if !ok {
+		return nil, errors.New("the free-area check fit is singular")
+	}
+	nSignal := 0
+	for k, l := range f.lines {
+		l.sig = 0
+		if linSig[k] > 0 {
+			l.sig = linAreas[k] / linSig[k]
+		}
+		if l.sig >= wholeSignalSigma {
+			nSignal++
+		}
+	}
+	if nSignal == 0 {
+		return nil, errors.New("no line carries a significant signal in the whole model")
+	}
+	ne := math.Exp(th[pr.iNe])
+
+	// Parameters list.
+	free := []WholeParam{}
+	add := func(name, label, unit string, v, u float64, fixed bool) {
+		free = append(free, WholeParam{Name: name, Label: label, Unit: unit, Value: v, Unc: u, Fixed: fixed})
+	}
+	var areaCov func(k int) float64
+	if pr.free {
+		for k, l := range f.lines {
+			add(fmt.Sprintf("area_%d", l.t.Upper), "Area of "+l.t.Name(), "intensity·nm", unsc(th[pr.iA+k]), unsc(sd(pr.iA+k)), false)
+		}
+		areaCov = func(k int) float64 { return sd(pr.iA + k) }
+	} else {
+		beta := th[pr.iB]
+		add("scale", "Area of "+f.lines[0].t.Name()+" (Boltzmann scale)", "intensity·nm", unsc(th[pr.iS]), unsc(sd(pr.iS)), false)
+		tK, tU := math.Inf(1), 0.0
+		if beta > 0 {
+			tK = 1 / (diag.BoltzmannEVPerK * beta)
+			tU = sd(pr.iB) / (diag.BoltzmannEVPerK * beta * beta)
+		}
+		if finite(tK) {
+			add("T_exc", "Excitation temperature", "K", tK, tU, false)
+		} else {
+			add("T_exc", "Excitation temperature (slope not negative)", "K", 0, 0, false)
+		}
+		areaCov = func(k int) float64 {
+			l := f.lines[k]
+			a := f.areaOf(k, th)
+			dS := a / th[pr.iS]
+			dB := -l.dE * a
+			v := dS*dS*cov[pr.iS*np+pr.iS] + dB*dB*cov[pr.iB*np+pr.iB] + 2*dS*dB*cov[pr.iS*np+pr.iB]
+			return math.Sqrt(math.Max(v, 0))
+		}
+	}
+	add("n_e", "Electron density", "m⁻³", ne, ne*sd(pr.iNe), false)
+	add("offset", "Wavelength offset", "nm", th[pr.iOff], sd(pr.iOff), false)
+	if pr.iTg >= 0 {
+		add("T_gas", "Gas temperature", "K", th[pr.iTg], sd(pr.iTg), false)
+	}
+	if pr.iIa >= 0 {
+		add("instrument_fwhm", "Instrument Gaussian FWHM at the range's middle", "nm", th[pr.iIa], sd(pr.iIa), false)
+		add("instrument_fwhm_slope", "Instrument FWHM slope", "nm/nm", th[pr.iIb], sd(pr.iIb), false)
+	}
+	for b := range pr.nBase {
+		add(fmt.Sprintf("baseline_%d", b), fmt.Sprintf("Baseline Legendre coefficient %d", b), "intensity/nm", unsc(th[pr.iBase+b]), unsc(sd(pr.iBase+b)), false)
+	}
+	// Fixed ones.
+	fixed := []WholeParam{{Name: "T_e", Label: "Electron temperature of the Stark tables", Unit: "K", Value: f.te, Fixed: true}}
+	if pr.iTg < 0 {
+		fixed = append(fixed, WholeParam{Name: "T_gas", Label: "Gas temperature", Unit: "K", Value: f.gasT, Fixed: true})
+	}
+	if pr.iIa < 0 {
+		fixed = append(fixed, WholeParam{Name: "instrument_fwhm", Label: "Instrument Gaussian FWHM at the range's middle", Unit: "nm", Value: f.instAt(pr.lamMid), Fixed: true})
+	}
+	// The free parameters in vector order for the correlation matrix.
+	order := f.paramOrder()
+	wf.Params = make([]WholeParam, 0, len(free)+len(fixed))
+	byName := map[string]WholeParam{}
+	for _, p := range free {
+		byName[p.Name] = p
+	}
+	for _, name := range order {
+		wf.Params = append(wf.Params, byName[name])
+	}
+	wf.Params = append(wf.Params, fixed...)
+	wf.Correlation = make([][]float64, np)
+	for a := range np {
+		wf.Correlation[a] = make([]float64, np)
+		for b := range np {
+			den := math.Sqrt(cov0[a*np+a] * cov0[b*np+b])
+			if den > 0 {
+				wf.Correlation[a][b] = cov0[a*np+b] / den
+			}
+		}
+	}
+
+	// Lines.
+	anyClamp := false
+	var maxGap float64
+	for k, l := range f.lines {
+		wl := WholeLine{Upper: l.t.Upper, Name: l.t.Name(), Shape: "Voigt", Area: unsc(f.areaOf(k, th)), AreaUnc: unsc(areaCov(k)), StarkFWHMNM: l.starkFWHM}
+		if l.shapeSH {
+			wl.Shape = "SH99"
+		}
+		if l.clampGap2 > 0 {
+			anyClamp = true
+			maxGap = math.Max(maxGap, math.Sqrt(l.clampGap2))
+		}
+		a := f.areaOf(k, th)
+		var c2 float64
+		var cnt int
+		var peak float64
+		for i := l.plo; i < l.phi; i++ {
+			if f.x[i] < l.win[0] || f.x[i] > l.win[1] {
+				continue
+			}
+			r := (f.y[i] - f.model[i]) / f.s[i]
+			c2 += r * r
+			cnt++
+			peak = math.Max(peak, a*l.u[i-l.plo]/f.s[i])
+		}
+		if cnt > 0 {
+			wl.ReducedChi2 = c2 / float64(cnt)
+			wl.ResidualRMS = math.Sqrt(c2 / float64(cnt))
+		}
+		wl.PeakSNR = peak
+		wf.Lines = append(wf.Lines, wl)
+	}
+	wf.DopplerNote = "the SH99 profiles include Doppler broadening at the tables' temperature T_e; each line was convolved with the Gaussian still missing, √(instrument² + Doppler(T_gas)² − Doppler(T_e)²)"
+	if anyClamp {
+		wf.DopplerNote += fmt.Sprintf("; for some lines the instrument ⊕ gas Doppler width is narrower than the tables' own Doppler width (by up to %.3g nm in quadrature): no Gaussian was added there and the model is slightly too wide, carried as a systematic σ of n_e (\"Doppler handling\")", maxGap)
+	}
+	for _, s := range f.notes {
+		wf.DopplerNote += "; " + s
+	}
+
+	// T_exc.
+	kB := diag.BoltzmannEVPerK
+	var tExc, tStat float64
+	tOK := false
+	if pr.free {
+		var pts []diag.BoltzmannPoint
+		for k, l := range f.lines {
+			a := th[pr.iA+k]
+			if l.sig >= wholeSignalSigma && a > 0 {
+				pts = append(pts, diag.BoltzmannPoint{Upper: l.t.Upper, EnergyEV: l.t.UpperEnergyEV, G: float64(l.t.GUpper), A: l.t.EinsteinA,
+					WavelengthNM: l.t.WavelengthVacNM, Intensity: unsc(a), IntensityUnc: unsc(sd(pr.iA + k))})
+			}
+		}
+		if len(pts) >= 2 {
+			if bz, err := diag.FitBoltzmann(pts, diag.BoltzmannOptions{Unit: f.m.Unit}); err == nil && bz.Defined {
+				tExc, tStat, tOK = bz.TemperatureK, bz.TemperatureUncK, true
+			}
+		}
+	} else if beta := th[pr.iB]; beta > 0 && nSignal >= 2 {
+		tExc = 1 / (kB * beta)
+		tStat = sd(pr.iB) / (kB * beta * beta)
+		tOK = finite(tExc) && finite(tStat)
+	}
+	if tOK {
+		wf.ExcitationTemperatureK = fptr(tExc)
+		wf.ExcitationTemperatureUncStatK = fptr(tStat)
+		sys := f.texcResponseSys(th, areaCov, unsc)
+		wf.ExcitationTemperatureUncSysK = fptr(sys)
+		wf.ExcitationTemperatureUncK = fptr(math.Hypot(tStat, sys))
+	}
+
+	// n_e.
+	neStat := ne * sd(pr.iNe)
+	if finite(neStat) && neStat > 0 {
+		parts := f.densitySys(ne, cov0, teGiven)
+		var sys float64
+		for _, pt := range parts {
+			sys = math.Hypot(sys, pt.Sigma)
+		}
+		wf.ElectronDensityM3 = fptr(ne)
+		wf.ElectronDensityUncStatM3 = fptr(neStat)
+		wf.ElectronDensityUncSysM3 = fptr(sys)
+		wf.ElectronDensityUncM3 = fptr(math.Hypot(neStat, sys))
+		wf.ElectronDensityUncParts = parts
+	}
+	if pr.iTg >= 0 {
+		wf.GasTemperatureK = fptr(th[pr.iTg])
+		wf.GasTemperatureUncK = fptr(sd(pr.iTg))
+	}
+	if f.opt.KeepWindows {
+		wf.WavelengthNM = append(PlotFloats(nil), f.x...)
+		wf.Data = make(PlotFloats, n)
+		wf.Model = make(PlotFloats, n)
+		wf.Residual = make(PlotFloats, n)
+		for i := range n {
+			wf.Data[i] = unsc(f.y[i])
+			wf.Model[i] = unsc(f.model[i])
+			wf.Residual[i] = unsc(f.y[i] - f.model[i])
+		}
+	}
+	return wf, nil
+}
+
+// paramOrder names the free parameters in vector order.
+func (f *wholeFitter) paramOrder() []string {
+	pr := f.par
+	out := make([]string, pr.n)
+	if pr.free {
+		for k, l := range f.lines {
+			out[pr.iA+k] = fmt.Sprintf("area_%d", l.t.Upper)
+		}
+	} else {
+		out[pr.iS], out[pr.iB] = "scale", "T_exc"
+	}
+	out[pr.iNe], out[pr.iOff] = "n_e", "offset"
+	if pr.iTg >= 0 {
+		out[pr.iTg] = "T_gas"
+	}
+	if pr.iIa >= 0 {
+		out[pr.iIa], out[pr.iIb] = "instrument_fwhm", "instrument_fwhm_slope"
+	}
+	for b := range pr.nBase {
+		out[pr.iBase+b] = fmt.Sprintf("baseline_%d", b)
+	}
+	return out
+}
+
+// texcResponseSys is the systematic σ of T_exc from the response
+// calibration (Conditions.ResponseUncRel = ε): the fitted areas tilted by
+// (1 ± ε)^s, s from 0 at the shortest to 1 at the longest line, through
+// a Boltzmann plot (diag.FitBoltzmann, the lines route's convention):
+// σ_sys = |T(+ε) − T(−ε)|/2. Without ε it is 0 (and the analysis flags
+// that the σ excludes the calibration).
+func (f *wholeFitter) texcResponseSys(th []float64, areaSig func(int) float64, unsc func(float64) float64) float64 {
+	eps := f.m.ResponseUncRel
+	if !(eps > 0) || len(f.lines) < 2 {
+		return 0
+	}
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for _, l := range f.lines {
+		lo, hi = math.Min(lo, l.t.WavelengthVacNM), math.Max(hi, l.t.WavelengthVacNM)
+	}
+	tAt := func(e float64) (float64, bool) {
+		var pts []diag.BoltzmannPoint
+		for k, l := range f.lines {
+			a := unsc(f.areaOf(k, th))
+			s := unsc(areaSig(k))
+			if !(a > 0) || !(s > 0) || l.sig < wholeSignalSigma {
+				continue
+			}
+			fac := math.Pow(1+e, (l.t.WavelengthVacNM-lo)/(hi-lo))
+			pts = append(pts, diag.BoltzmannPoint{Upper: l.t.Upper, EnergyEV: l.t.UpperEnergyEV, G: float64(l.t.GUpper), A: l.t.EinsteinA,
+				WavelengthNM: l.t.WavelengthVacNM, Intensity: a * fac, IntensityUnc: math.Max(s*fac, 1e-9*a*fac)})
+		}
+		b, err := diag.FitBoltzmann(pts, diag.BoltzmannOptions{Unit: f.m.Unit})
+		if err != nil || !b.Defined {
+			return 0, false
+		}
+		return b.TemperatureK, true
+	}
+	tp, ok1 := tAt(eps)
+	tm, ok2 := tAt(-math.Min(eps, 0.99))
+	if ok1 && ok2 {
+		return math.Abs(tp-tm) / 2
+	}
+	return 0
+}
+
+// densitySys returns the systematic parts of n_e: the response of the
+// fit to each fixed input moved by its 1σ, δθ = (JᵀWJ)⁻¹JᵀW·∂m/∂input·σ
+// (first order), and the SH99 tables' accuracy.
+func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) []diag.UncPart {
+	pr := f.par
+	np := pr.n
+	th := f.th
+	base := append([]float64(nil), f.model...)
+	jac := append([]float64(nil), f.jac...)
+	var parts []diag.UncPart
+	add := func(name string, v float64) {
+		if v > 0 && finite(v) {
+			parts = append(parts, diag.UncPart{Name: name, Sigma: v})
+		}
+	}
+	// shift returns |δ ln n_e| for a model change dm.
+	shift := func(dm []float64) float64 {
+		g := make([]float64, np)
+		for i := range f.x {
+			w := 1 / (f.s[i] * f.s[i])
+			for a := range np {
+				g[a] += jac[i*np+a] * dm[i] * w
+			}
+		}
+		var d float64
+		for b := range np {
+			d += cov0[pr.iNe*np+b] * g[b]
+		}
+		return math.Abs(d)
+	}
+	// model change when the lines are re-evaluated with a modified
+	// fitter state (restored after).
+	delta := func(mod func()) []float64 {
+		saveTe, saveGas := f.te, f.gasT
+		saveInst := make([]float64, len(f.lines))
+		for k, l := range f.lines {
+			saveInst[k] = l.instG
+		}
+		mod()
+		_, err := f.eval(th)
+		f.te, f.gasT = saveTe, saveGas
+		for k, l := range f.lines {
+			l.instG = saveInst[k]
+		}
+		if err != nil {
+			return nil
+		}
+		dm := make([]float64, len(base))
+		for i := range dm {
+			dm[i] = f.model[i] - base[i]
+		}
+		return dm
+	}
+	if s := f.m.InstrumentFWHMUncNM; s > 0 && pr.iIa < 0 {
+		if dm := delta(func() {
+			for _, l := range f.lines {
+				l.instG += s
+			}
+		}); dm != nil {
+			add("instrument width", ne*shift(dm))
+		}
+	}
+	if s := f.m.GasTemperatureUncK; s > 0 && pr.iTg < 0 {
+		if dm := delta(func() { f.gasT += s }); dm != nil {
+			add("gas temperature", ne*shift(dm))
+		}
+	}
+	rel := wholeTeRelDefault
+	if teGiven {
+		rel = wholeTeRelGiven
+	}
+	if dm := delta(func() { f.te *= 1 + rel }); dm != nil {
+		d1 := shift(dm)
+		if dm2 := delta(func() { f.te /= 1 + rel }); dm2 != nil {
+			d1 = 0.5 * (d1 + shift(dm2))
+		}
+		add("electron temperature of the tables", ne*d1)
+	} else if dm2 := delta(func() { f.te /= 1 + rel }); dm2 != nil {
+		add("electron temperature of the tables", ne*shift(dm2))
+	}
+	// Doppler handling: the clamped lines are too wide by the variance
+	// gap; the model change that would remove it, extrapolated linearly
+	// in the Gaussian variance.
+	var clamp []float64
+	for k, l := range f.lines {
+		if l.clampGap2 <= 0 || !l.shapeSH {
+			continue
+		}
+		g, tg := f.lineInst(l, th)
+		if err := f.evalLine(l, th[pr.iNe], th[pr.iOff], g, tg); err != nil {
+			continue
+		}
+		gap := l.clampGap2
+		u0 := append([]float64(nil), l.u...)
+		f.convolve(l, math.Sqrt(gap), l.kernL())
+		if err := f.pixels(l, l.lastCF, th[pr.iOff]); err != nil {
+			continue
+		}
+		if clamp == nil {
+			clamp = make([]float64, len(base))
+		}
+		a := f.areaOf(k, th)
+		for i := l.plo; i < l.phi; i++ {
+			clamp[i] -= a * (l.u[i-l.plo] - u0[i-l.plo])
+		}
+	}
+	if clamp != nil {
+		add("Doppler handling (tables' Doppler wider than instrument ⊕ gas Doppler)", ne*shift(clamp))
+	}
+	// Tables' accuracy through the local exponent of the width.
+	p := f.widthExponent(ne)
+	if p > 0 {
+		name := "SH99 table accuracy (widths ±5 %)"
+		if !f.anySH() {
+			name = "Stark relation accuracy (widths ±5 %)"
+		}
+		add(name, ne*wholeSH99WidthRel/p)
+	}
+	// Restore the state at the solution.
+	_, _ = f.eval(th)
+	return parts
+}
+
+func (f *wholeFitter) anySH() bool {
+	for _, l := range f.lines {
+		if l.shapeSH {
+			return true
+		}
+	}
+	return false
+}
+
+// widthExponent is d ln w / d ln n_e of the first line's Stark width.
+func (f *wholeFitter) widthExponent(ne float64) float64 {
+	for _, l := range f.lines {
+		if l.shapeSH {
+			w1, e1 := l.sh.TableWidthNM(sh99.FWHM, ne*1.05, f.te)
+			w0, e0 := l.sh.TableWidthNM(sh99.FWHM, ne/1.05, f.te)
+			if e1 == nil && e0 == nil && w1 > w0 {
+				// Table widths include the Doppler part; the Stark part's
+				// exponent is at least this. Use the Stark-only width where
+				// available.
+				s1, e2 := l.sh.StarkWidthNM(sh99.FWHM, ne*1.05, f.te)
+				s0, e3 := l.sh.StarkWidthNM(sh99.FWHM, ne/1.05, f.te)
+				if e2 == nil && e3 == nil && s1 > s0 {
+					return math.Log(s1/s0) / math.Log(1.05*1.05)
+				}
+				return 2.0 / 3.0
+			}
+			continue
+		}
+		return l.rel.Exponent
+	}
+	return 2.0 / 3.0
+}
