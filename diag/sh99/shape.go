@@ -118,6 +118,25 @@ func (s *Shape) CumulativeDeriv(dlNM float64) (c, dcdLnNe float64) {
 	return s.cum(dlNM, true)
 }
 
+// Eval returns Cumulative(dlNM), the profile p(dlNM) (its derivative in
+// Δλ, nm⁻¹, from the same Hermite interpolant) and the derivative of the
+// cumulative with respect to ln n_e, in one pass.
+func (s *Shape) Eval(dlNM float64) (c, p, dcdLnNe float64) {
+	d := math.Abs(dlNM)
+	var v, dv float64
+	for i := range s.n {
+		x := d * s.scale[i]
+		cc, pp := s.tab[i].eval(s.node[i], x)
+		v += s.wgt[i] * s.norm[i] * cc
+		p += s.wgt[i] * s.norm[i] * pp * s.scale[i]
+		dv += s.norm[i] * (s.dwgt[i]*cc - s.wgt[i]*pp*x*s.dlnW)
+	}
+	if dlNM < 0 {
+		return 0.5 - v, p, -dv
+	}
+	return 0.5 + v, p, dv
+}
+
 func (s *Shape) cum(dl float64, deriv bool) (float64, float64) {
 	d := math.Abs(dl)
 	var v, dv float64

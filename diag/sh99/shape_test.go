@@ -59,6 +59,12 @@ func TestShapeCumulative(t *testing.T) {
 			num := (s.Cumulative(d+hh) - s.Cumulative(d-hh)) / (2 * hh)
 			p := prof(d)
 			worstP = math.Max(worstP, math.Abs(num/p-1))
+			c1, p1, dc1 := s.Eval(d)
+			c2, dc2 := s.CumulativeDeriv(d)
+			worstP = math.Max(worstP, math.Abs(p1/p-1))
+			if c1 != c2 || dc1 != dc2 {
+				t.Errorf("n=%d: Eval and CumulativeDeriv differ at %g", c.upper, d)
+			}
 		}
 		if worstP > 1e-4 {
 			t.Errorf("n=%d n_e=%g: d(cumulative)/dλ off Profile by %.2g relative", c.upper, c.ne, worstP)

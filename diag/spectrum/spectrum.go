@@ -237,6 +237,10 @@ type Pipeline struct {
 	chi2    []groupChi2
 	keep    []Window
 	iters   []int
+	// lastWhole is the input of the last whole-spectrum fit (its slices
+	// are the buffers above): BenchmarkWhole2048 times the fit alone.
+	lastWhole  wholeInput
+	lastWholeF *wholeFitter
 }
 
 // maxWindowLines bounds the lines fitted jointly in one window.
@@ -577,7 +581,8 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 	res.Result = ar
 	res.Model = ModelLines
 	if opt.Model == ModelWhole {
-		p.whole(&res, wholeInput{cands: cands, x: x, y: y, sig: sig, sat: sat, m: m, lines: ar, off: res.WavelengthOffsetNM}, opt)
+		p.lastWhole = wholeInput{cands: cands, x: x, y: y, sig: sig, sat: sat, m: m, lines: ar, off: res.WavelengthOffsetNM}
+		p.whole(&res, p.lastWhole, opt)
 	}
 	if autoSat && anySaturated(cands) {
 		res.Flags = append(res.Flags, diag.Flag{Code: FlagSaturationAuto, Message: fmt.Sprintf(

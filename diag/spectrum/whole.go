@@ -87,17 +87,22 @@ const (
 	wholeTeRelDefault = 0.69 // ln 2
 	wholeTeRelGiven   = 0.2
 	// wholeGridPerWidth and wholeGridPerPixel set the fine-grid step: at
-	// most 1/8 of the line's total FWHM and 1/3 of a pixel.
+	// 1/8 of the line's total FWHM (pixel edges fall anywhere on it: the
+	// broadened cumulative is interpolated by cubic Hermite).
 	wholeGridPerWidth = 8
-	wholeGridPerPixel = 3
+	// wholeGridPerBase: and at most this fraction of the base shape's own
+	// FWHM, on which the kernel's trapezoidal rule needs the shape smooth.
+	wholeGridPerBase = 3
 	// wholeCoreWidths is the grid's half span in total FWHM (at least
 	// wholeCorePixels pixels); wholeWingReach the reach of the wings
 	// evaluated beyond it, in grid half spans.
-	wholeCoreWidths = 12
-	wholeCorePixels = 8
+	wholeCoreWidths = 8
+	wholeCorePixels = 6
 	wholeWingReach  = 4
 	// wholeMaxBins bounds a line's fine grid (its step grows beyond).
 	wholeMaxBins = 1200
+	// wholeWingStep is the ratio of successive wing nodes.
+	wholeWingStep = 1.15
 	// wholeRangeMargin: a line is given its SH99 shape when the tables
 	// cover the starting density within this factor either way (else the
 	// Voigt of its default relation, or it is left out).
@@ -143,15 +148,23 @@ type wline struct {
 	reach float64
 	// Per evaluation (over [plo, phi)).
 	u, du, dn, dg []float64
-	lastCF        cumFunc
+	lastSF        shapeFunc
+	shp           sh99.Shape
 	kL            float64 // kernel Lorentzian FWHM of the last evaluation
+	// Wing nodes (distances from the centre, nm) and the shape's
+	// cumulative, density and ln n_e derivative there (left half, then
+	// right half).
+	wing, wc, wp, wd []float64
 	// Grid scratch.
-	cum, dcum, mass, dmass, q, dq, kern []float64
+	cum, dcum, fq, dfq, mass, dmass, q, dq, kern []float64
 	// State of the last evaluation.
 	starkFWHM float64
 	extra2    float64 // G_extra² used
 	clampGap2 float64 // D_table² − (G² + D²) when clamped, else 0
 	sig       float64 // significance (area/σ, free areas)
+	neLo      float64 // the SH99 tables' density range at T_e, m⁻³
+	neHi      float64
+	held      bool // the last evaluation held the shape at a table edge
 	dropped   string
 }
 
@@ -193,6 +206,9 @@ type wholeFitter struct {
 	lnLo   float64
 	lnHi   float64
 	linSol []float64
+	sens   []float64
+	wbuf   []float64
+	mbuf   []float64
 	notes  []string
 }
 
@@ -374,15 +390,20 @@ func (p *Pipeline) wholeFit(in wholeInput, opt Options) (*WholeFit, error) {
 	if ne0 == 0 {
 		ne0 = p.scanDensity(lines, f)
 	}
-	// Shapes at the start, the series' merging limit, and the n_e bounds.
-	f.lnLo, f.lnHi = math.Log(1e15), math.Log(1e26)
+	// Shapes at the start, the series' merging limit, and the n_e bounds:
+	// a line the tables cover at the starting density gets its SH99
+	// shape; one they do not cover gets the Voigt of its default Stark
+	// relation (Hα, Hβ) or, for a weak high member without one, the SH99
+	// shape held at the tables' nearest edge (wline.neLo/neHi). During the
+	// fit each SH99 line's shape is held at its own table range; n_e
+	// itself is bounded by the widest range of the lines.
+	f.lnLo, f.lnHi = math.Inf(1), math.Inf(-1)
 	var keep []*wline
 	for i, l := range lines {
 		if l.sh != nil {
-			// The tables must cover the start within a factor
-			// wholeRangeMargin either way, so that the fit can move.
-			if lo, hi, ok := l.sh.ProfileRange(f.te); ok && ne0 >= lo*wholeRangeMargin && ne0 <= hi/wholeRangeMargin {
-				l.shapeSH = true
+			if lo, hi, ok := l.sh.ProfileRange(f.te); ok {
+				l.neLo, l.neHi = lo, hi
+				l.shapeSH = ne0 >= lo && ne0 <= hi || l.rel.ID == ""
 			}
 		}
 		if !l.shapeSH && l.rel.ID == "" {
@@ -407,14 +428,12 @@ func (p *Pipeline) wholeFit(in wholeInput, opt Options) (*WholeFit, error) {
 	}
 	for _, l := range lines {
 		if l.shapeSH {
-			if lo, hi, ok := l.sh.ProfileRange(f.te); ok {
-				f.lnLo = math.Max(f.lnLo, math.Log(lo)+1e-9)
-				f.lnHi = math.Min(f.lnHi, math.Log(hi)-1e-9)
-			}
+			f.lnLo = math.Min(f.lnLo, math.Log(l.neLo))
+			f.lnHi = math.Max(f.lnHi, math.Log(l.neHi))
+		} else {
+			f.lnLo = math.Min(f.lnLo, math.Log(1e18))
+			f.lnHi = math.Max(f.lnHi, math.Log(1e26))
 		}
-	}
-	if !(f.lnHi > f.lnLo) {
-		return nil, errors.New("the SH99 tables of the lines have no common density range")
 	}
 	ne0 = math.Min(math.Max(ne0, math.Exp(f.lnLo)), math.Exp(f.lnHi))
 	f.lines = lines
@@ -522,7 +541,7 @@ func (p *Pipeline) wholeFit(in wholeInput, opt Options) (*WholeFit, error) {
 		th[pr.iIb] = 0
 	}
 	for _, l := range lines {
-		f.setupGrid(l, ne0, np)
+		f.setupGrid(l, ne0)
 	}
 	// Linear start: free areas and baseline at the starting shapes.
 	if err := f.evalLines(th, false); err != nil {
@@ -551,6 +570,7 @@ func (p *Pipeline) wholeFit(in wholeInput, opt Options) (*WholeFit, error) {
 	}
 	f.linearBaseline()
 
+	p.lastWholeF = f
 	it, conv, chi2, err := f.levmar()
 	if err != nil {
 		return nil, err
@@ -572,9 +592,16 @@ func (f *wholeFitter) instAt(lam float64) float64 {
 
 // totalWidth estimates a line's total FWHM at n_e.
 func (f *wholeFitter) totalWidth(l *wline, ne, instG float64) float64 {
+	w, _ := f.widths(l, ne, instG)
+	return w
+}
+
+// widths returns a line's estimated total FWHM and the FWHM of its base
+// shape (the SH99 table profile, or the Lorentzian of the fallback).
+func (f *wholeFitter) widths(l *wline, ne, instG float64) (total, base float64) {
 	d := diag.DopplerFWHMNM(l.center, f.gasT, f.mass)
 	g := math.Hypot(instG, d)
-	var base float64
+
 	if l.sh != nil {
 		if w, err := l.sh.TableWidthNM(sh99.FWHM, ne, f.te); err == nil {
 			base = w
@@ -587,25 +614,40 @@ func (f *wholeFitter) totalWidth(l *wline, ne, instG float64) float64 {
 	if base == 0 {
 		base = 2 * l.px
 	}
-	return diag.VoigtFWHM(g, base+l.lorOther)
+	return diag.VoigtFWHM(g, base+l.lorOther), base
 }
 
-// setupGrid fixes a line's fine grid and its pixel range.
-func (f *wholeFitter) setupGrid(l *wline, ne float64, np int) {
-	w := f.totalWidth(l, ne, l.instG)
-	l.h = math.Min(l.px/wholeGridPerPixel, w/wholeGridPerWidth)
+// setupGrid fixes a line's fine grid, its wing nodes and its pixel range.
+func (f *wholeFitter) setupGrid(l *wline, ne float64) {
+	w, wb := f.widths(l, ne, l.instG)
+	l.h = math.Min(w/wholeGridPerWidth, wb/wholeGridPerBase)
 	half := math.Max(wholeCoreWidths*w, wholeCorePixels*l.px)
 	l.m = int(math.Ceil(half / l.h))
 	if l.m > wholeMaxBins/2 {
 		l.m = wholeMaxBins / 2
 		l.h = half / float64(l.m)
 	}
-	l.reach = wholeWingReach * float64(l.m) * l.h
+	edge := (float64(l.m) + 0.5) * l.h
+	l.reach = wholeWingReach * edge
+	// Wing nodes: geometric from the grid's edge to the reach.
+	l.wing = l.wing[:0]
+	for d := edge; ; d *= wholeWingStep {
+		l.wing = append(l.wing, d)
+		if d >= l.reach {
+			break
+		}
+	}
+	nw := len(l.wing)
+	l.wc = grow(&l.wc, 2*nw)
+	l.wp = grow(&l.wp, 2*nw)
+	l.wd = grow(&l.wd, 2*nw)
 	l.plo = max(index(f.x, l.center-l.reach), 0)
 	l.phi = min(index(f.x, l.center+l.reach), len(f.x))
 	nb := 2*l.m + 1
 	l.cum = grow(&l.cum, nb+1)
 	l.dcum = grow(&l.dcum, nb+1)
+	l.fq = grow(&l.fq, nb+1)
+	l.dfq = grow(&l.dfq, nb+1)
 	l.mass = grow(&l.mass, nb)
 	l.dmass = grow(&l.dmass, nb)
 	l.q = grow(&l.q, nb)
@@ -619,20 +661,27 @@ func (f *wholeFitter) setupGrid(l *wline, ne float64, np int) {
 // kernL is the kernel Lorentzian FWHM of the last evaluation.
 func (l *wline) kernL() float64 { return l.kL }
 
-// lineShape returns the cumulative-evaluation function of a line at
-// ln n_e and the Gaussian and Lorentzian FWHM of its kernel.
-type cumFunc func(d float64) (c, dc float64)
+// shapeFunc evaluates a line's base shape at detuning d (nm): its
+// cumulative integral, its density and the cumulative's derivative in
+// ln n_e.
+type shapeFunc func(d float64) (c, p, dc float64)
 
-func (f *wholeFitter) lineShape(l *wline, lnNe, instG, gasT float64) (cumFunc, float64, float64, error) {
+// lineShape prepares a line's base shape at ln n_e and returns it with
+// the Gaussian and Lorentzian FWHM of the kernel still to be applied.
+func (f *wholeFitter) lineShape(l *wline, lnNe, instG, gasT float64) (shapeFunc, float64, float64, error) {
 	ne := math.Exp(lnNe)
 	dg := diag.DopplerFWHMNM(l.center, gasT, f.mass)
 	g2 := instG*instG + dg*dg
 	l.clampGap2 = 0
 	if l.shapeSH {
+		held := ne < l.neLo || ne > l.neHi
+		ne = math.Min(math.Max(ne, l.neLo), l.neHi)
 		s, err := l.sh.Shape(ne, f.te)
 		if err != nil {
 			return nil, 0, 0, err
 		}
+		l.shp = s
+		l.held = held
 		dt := l.sh.DopplerFWHMNM(f.te)
 		e2 := g2 - dt*dt
 		if e2 < 0 {
@@ -645,71 +694,96 @@ func (f *wholeFitter) lineShape(l *wline, lnNe, instG, gasT float64) (cumFunc, f
 		} else {
 			l.starkFWHM = 0
 		}
-		return s.CumulativeDeriv, math.Sqrt(e2), l.lorOther, nil
+		if held {
+			// The shape does not follow n_e beyond the tables.
+			return func(d float64) (float64, float64, float64) {
+				c, p, _ := l.shp.Eval(d)
+				return c, p, 0
+			}, math.Sqrt(e2), l.lorOther, nil
+		}
+		return l.shp.Eval, math.Sqrt(e2), l.lorOther, nil
 	}
+	// Voigt fallback: a Lorentzian of the Stark FWHM of the default
+	// relation plus the other Lorentzians, convolved with the Gaussian.
 	w := l.rel.LorentzianWidthNM(l.rel.WidthFromDensity(ne))
 	p := l.rel.Exponent
 	l.starkFWHM = w
 	l.extra2 = g2
-	lw := w + l.lorOther
-	gamma := lw / 2
-	return func(d float64) (float64, float64) {
+	gamma := (w + l.lorOther) / 2
+	dGamma := p * w / 2 // dγ/dln n_e
+	return func(d float64) (float64, float64, float64) {
+		den := gamma*gamma + d*d
 		c := 0.5 + math.Atan(d/gamma)/math.Pi
-		// dC/dγ = −d/(π(γ² + d²)); dγ/dln n_e = p·w/2.
-		dc := -d / (math.Pi * (gamma*gamma + d*d)) * p * w / 2
-		return c, dc
+		return c, gamma / (math.Pi * den), -d / (math.Pi * den) * dGamma
 	}, math.Sqrt(g2), 0, nil
 }
 
 // evalLine computes the line's unit profile's pixel means (u), their
-// derivative in λ (du, for the offset) and in ln n_e (dn) over its pixel
-// range, for line centre λ_k + off.
+// derivative in the offset (du) and in ln n_e (dn) over its pixel range,
+// for line centre λ_k + off.
 func (f *wholeFitter) evalLine(l *wline, lnNe, off, instG, gasT float64) error {
-	cf, gF, lF, err := f.lineShape(l, lnNe, instG, gasT)
+	sf, gF, lF, err := f.lineShape(l, lnNe, instG, gasT)
 	if err != nil {
 		return err
 	}
-	l.lastCF, l.kL = cf, lF
+	l.lastSF, l.kL = sf, lF
 	nb := 2*l.m + 1
 	h := l.h
 	e0 := -(float64(l.m) + 0.5) * h
 	for j := 0; j <= nb; j++ {
-		l.cum[j], l.dcum[j] = cf(e0 + float64(j)*h)
+		l.cum[j], _, l.dcum[j] = sf(e0 + float64(j)*h)
 	}
 	for j := range nb {
 		l.mass[j] = l.cum[j+1] - l.cum[j]
 		l.dmass[j] = l.dcum[j+1] - l.dcum[j]
 	}
+	// Wing nodes, left (index i) and right (nw + i).
+	nw := len(l.wing)
+	for i, d := range l.wing {
+		l.wc[i], l.wp[i], l.wd[i] = sf(-d)
+		l.wc[nw+i], l.wp[nw+i], l.wd[nw+i] = sf(d)
+	}
 	f.convolve(l, gF, lF)
-	return f.pixels(l, cf, off)
+	f.pixels(l, off)
+	return nil
 }
 
 // convolve convolves the bin masses with the kernel of Gaussian FWHM gF
-// and Lorentzian FWHM lF into l.q, l.dq (masses per bin).
+// and Lorentzian FWHM lF into l.q, l.dq (masses per bin). The broadened
+// cumulative at a bin edge is F(e_j) = ∫ C(e_j − y) K(y) dy; on the grid
+// the trapezoidal rule over y = kh gives F_j = Σ_k K(kh)h·C_{j−k}, and by
+// linearity the same weights move the bin masses. The trapezoidal rule
+// converges exponentially for a Gaussian kernel and a shape smooth on
+// the grid step (h = 1/8 of the line's FWHM), so no variance correction
+// is made; a kernel much narrower than h is the identity to within its
+// own (negligible) width. The weights are normalised to sum to 1 (the
+// area is kept).
 func (f *wholeFitter) convolve(l *wline, gF, lF float64) {
 	h := l.h
 	nb := 2*l.m + 1
-	// The bins' box (variance h²/12) is part of the broadening.
 	sigma := voigt.SigmaFromFWHM(gF)
-	s2 := sigma*sigma - h*h/12
 	gamma := lF / 2
-	if s2 <= 0 && gamma < 0.05*h {
+	if sigma < 0.05*h && gamma < 0.02*h {
 		copy(l.q, l.mass)
 		copy(l.dq, l.dmass)
 		return
 	}
-	sigma = math.Sqrt(math.Max(s2, 0))
-	reach := 5*sigma + 20*gamma
+	reach := 5 * sigma
+	if gamma >= 0.02*h {
+		reach += 20 * gamma
+	} else {
+		gamma = 0
+	}
 	r := min(int(math.Ceil(reach/h)), nb)
 	kern := grow(&l.kern, 2*r+1)
 	var ks float64
 	for i := -r; i <= r; i++ {
-		var v float64
 		d := float64(i) * h
+		var v float64
 		switch {
 		case gamma == 0:
 			v = math.Exp(-d * d / (2 * sigma * sigma))
-		case sigma < 1e-3*h:
+		case sigma < 0.05*h:
 			v = 1 / (gamma*gamma + d*d)
 		default:
 			v = voigt.Profile(d, sigma, gamma)
@@ -728,58 +802,101 @@ func (f *wholeFitter) convolve(l *wline, gF, lF float64) {
 	for j := range nb {
 		var s, ds float64
 		lo, hi := max(j-r, 0), min(j+r, nb-1)
-		for i := lo; i <= hi; i++ {
-			kv := kern[j-i+r]
-			s += kv * l.mass[i]
-			ds += kv * l.dmass[i]
+		k := kern[lo-j+r : hi-j+r+1]
+		ms, dms := l.mass[lo:hi+1], l.dmass[lo:hi+1]
+		for i, kv := range k {
+			// the kernel is symmetric: kern[j−i+r] = kern[i−j+r]
+			s += kv * ms[i]
+			ds += kv * dms[i]
 		}
 		l.q[j], l.dq[j] = s, ds
 	}
 }
 
-// pixels turns the broadened bin masses into pixel means.
-func (f *wholeFitter) pixels(l *wline, cf cumFunc, off float64) error {
+// pixels turns the broadened bin masses into pixel means: the
+// broadened cumulative F on the bin edges, cubic Hermite between them
+// (slopes: the densities of the neighbouring bins), the shape's own
+// cumulative in the wings (Hermite between the geometric wing nodes,
+// with the profile as slope; the far wing is not changed by the kernel),
+// shifted on the right by what the kernel moved across the grid's end.
+func (f *wholeFitter) pixels(l *wline, off float64) {
 	h := l.h
 	nb := 2*l.m + 1
 	e0 := -(float64(l.m) + 0.5) * h
-	eEnd := e0 + float64(nb)*h
-	// Cumulative of the broadened line on the bin edges: from the left
-	// wing value at the first edge.
-	c0, dc0 := l.cum[0], l.dcum[0]
-	// F(t) inside the grid.
-	cq := l.cum // reuse: broadened cumulative on the edges
-	dcq := l.dcum
-	cq[0], dcq[0] = c0, dc0
+	eEnd := -e0
+	F, dF := l.fq, l.dfq
+	F[0], dF[0] = l.cum[0], l.dcum[0]
 	for j := range nb {
-		cq[j+1] = cq[j] + l.q[j]
-		dcq[j+1] = dcq[j] + l.dq[j]
+		F[j+1] = F[j] + l.q[j]
+		dF[j+1] = dF[j] + l.dq[j]
 	}
-	cEnd, dcEnd := cf(eEnd)
-	shiftR, dshiftR := cq[nb]-cEnd, dcq[nb]-dcEnd
+	nw := len(l.wing)
+	shR, dshR := F[nb]-l.wc[nw], dF[nb]-l.wd[nw]
+	// rho returns the slope (mass per bin) of F at edge j.
+	rho := func(j int, q []float64) float64 {
+		switch j {
+		case 0:
+			return q[0]
+		case nb:
+			return q[nb-1]
+		}
+		return 0.5 * (q[j-1] + q[j])
+	}
+	wl := 0 // left wing walking pointer: node interval [wing[wl+1], wing[wl]]
+	wr := 0
 	at := func(t float64) (c, dc, dens float64) {
 		switch {
-		case t <= e0:
-			c, dc = cf(t)
-			return c, dc, 0
-		case t >= eEnd:
-			c, dc = cf(t)
-			return c + shiftR, dc + dshiftR, 0
+		case t < e0:
+			d := -t
+			if d >= l.wing[nw-1] {
+				return l.wc[nw-1], l.wd[nw-1], 0
+			}
+			for wl > 0 && d < l.wing[wl] {
+				wl--
+			}
+			for wl < nw-2 && d >= l.wing[wl+1] {
+				wl++
+			}
+			// Nodes at −wing[wl] (right end) and −wing[wl+1] (left end).
+			a, b := -l.wing[wl+1], -l.wing[wl]
+			hh := b - a
+			u := (t - a) / hh
+			c, dens = hermite(l.wc[wl+1], l.wc[wl], l.wp[wl+1]*hh, l.wp[wl]*hh, u, hh)
+			dc = l.wd[wl+1] + u*(l.wd[wl]-l.wd[wl+1])
+			return c, dc, dens
+		case t > eEnd:
+			if t >= l.wing[nw-1] {
+				return l.wc[2*nw-1] + shR, l.wd[2*nw-1] + dshR, 0
+			}
+			for wr > 0 && t < l.wing[wr] {
+				wr--
+			}
+			for wr < nw-2 && t >= l.wing[wr+1] {
+				wr++
+			}
+			a, b := l.wing[wr], l.wing[wr+1]
+			hh := b - a
+			u := (t - a) / hh
+			c, dens = hermite(l.wc[nw+wr], l.wc[nw+wr+1], l.wp[nw+wr]*hh, l.wp[nw+wr+1]*hh, u, hh)
+			dc = l.wd[nw+wr] + u*(l.wd[nw+wr+1]-l.wd[nw+wr])
+			// The shift fades with the wing (the kernel's leak is a
+			// near-grid effect); keep it constant: it is below 1e-6.
+			return c + shR, dc + dshR, dens
 		}
 		fj := (t - e0) / h
 		j := min(int(fj), nb-1)
 		u := fj - float64(j)
-		return cq[j] + u*l.q[j], dcq[j] + u*l.dq[j], l.q[j] / h
+		c, dens = hermite(F[j], F[j+1], rho(j, l.q), rho(j+1, l.q), u, h)
+		dc, _ = hermite(dF[j], dF[j+1], rho(j, l.dq), rho(j+1, l.dq), u, h)
+		return c, dc, dens
 	}
 	ctr := l.center + off
 	pa, pda, pdens := at(f.a[l.plo] - ctr)
 	for i := l.plo; i < l.phi; i++ {
-		var cb, dcb, densb float64
-		if i > l.plo && f.a[i] == f.b[i-1] {
-			// shared edge: already computed as the previous pixel's b
-		} else if i > l.plo {
+		if i > l.plo && f.a[i] != f.b[i-1] {
 			pa, pda, pdens = at(f.a[i] - ctr)
 		}
-		cb, dcb, densb = at(f.b[i] - ctr)
+		cb, dcb, densb := at(f.b[i] - ctr)
 		w := f.b[i] - f.a[i]
 		k := i - l.plo
 		l.u[k] = (cb - pa) / w
@@ -788,5 +905,15 @@ func (f *wholeFitter) pixels(l *wline, cf cumFunc, off float64) error {
 		l.du[k] = -(densb - pdens) / w
 		pa, pda, pdens = cb, dcb, densb
 	}
-	return nil
+}
+
+// hermite interpolates between (0, c0) and (1, c1) with slopes d0, d1
+// (per unit u) and returns the value and its derivative per unit of the
+// original axis (interval length hh).
+func hermite(c0, c1, d0, d1, u, hh float64) (float64, float64) {
+	u2 := u * u
+	u3 := u2 * u
+	v := (2*u3-3*u2+1)*c0 + (u3-2*u2+u)*d0 + (-2*u3+3*u2)*c1 + (u3-u2)*d1
+	dv := (6*u2-6*u)*c0 + (3*u2-4*u+1)*d0 + (-6*u2+6*u)*c1 + (3*u2-2*u)*d1
+	return v, dv / hh
 }

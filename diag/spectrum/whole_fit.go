@@ -45,15 +45,11 @@ func (f *wholeFitter) evalLines(th []float64, _ bool) error {
 			e2 := l.extra2
 			de := math.Max(0.02*e2, math.Pow(0.3*l.h, 2))
 			f.convolve(l, math.Sqrt(e2+de), l.kernL())
-			if err := f.pixels(l, l.lastCF, th[f.par.iOff]); err != nil {
-				return err
-			}
+			f.pixels(l, th[f.par.iOff])
 			l.dg = grow(&l.dg, len(l.u))
 			copy(l.dg, l.u)
 			f.convolve(l, math.Sqrt(e2), l.kernL())
-			if err := f.pixels(l, l.lastCF, th[f.par.iOff]); err != nil {
-				return err
-			}
+			f.pixels(l, th[f.par.iOff])
 			for i := range l.dg {
 				l.dg[i] = (l.dg[i] - l.u[i]) / de
 			}
@@ -260,30 +256,41 @@ func (f *wholeFitter) linearAreas() (areas, sig []float64, chi2 float64, ok bool
 	np := nl + nb
 	A := make([]float64, np*np)
 	g := make([]float64, np)
-	col := func(c, i int) float64 {
-		if c < nl {
-			l := f.lines[c]
-			if i < l.plo || i >= l.phi {
-				return 0
-			}
-			return l.u[i-l.plo]
-		}
-		return f.leg[c-nl][i]
+	w := grow(&f.wbuf, len(f.x))
+	for i, s := range f.s {
+		w[i] = 1 / (s * s)
 	}
-	row := make([]float64, np)
-	for i := range f.x {
-		w := 1 / (f.s[i] * f.s[i])
-		for c := range np {
-			row[c] = col(c, i)
+	// Line–line, line–baseline and line–data blocks over each line's
+	// pixel range.
+	for a, la := range f.lines {
+		for i := la.plo; i < la.phi; i++ {
+			v := la.u[i-la.plo] * w[i]
+			g[a] += v * f.y[i]
+			for b := range nb {
+				A[a*np+nl+b] += v * f.leg[b][i]
+			}
 		}
-		for a := range np {
-			if row[a] == 0 {
-				continue
+		for b := a; b < nl; b++ {
+			lb := f.lines[b]
+			lo, hi := max(la.plo, lb.plo), min(la.phi, lb.phi)
+			var s float64
+			for i := lo; i < hi; i++ {
+				s += la.u[i-la.plo] * lb.u[i-lb.plo] * w[i]
 			}
-			g[a] += row[a] * f.y[i] * w
-			for b := a; b < np; b++ {
-				A[a*np+b] += row[a] * row[b] * w
+			A[a*np+b] = s
+		}
+	}
+	for b := range nb {
+		for i, v := range f.leg[b] {
+			g[nl+b] += v * f.y[i] * w[i]
+		}
+		for c := b; c < nb; c++ {
+			var s float64
+			lb, lc := f.leg[b], f.leg[c]
+			for i := range lb {
+				s += lb[i] * lc[i] * w[i]
 			}
+			A[(nl+b)*np+nl+c] = s
 		}
 	}
 	for a := range np {
@@ -297,23 +304,32 @@ func (f *wholeFitter) linearAreas() (areas, sig []float64, chi2 float64, ok bool
 	if !cholesky(A, np, 1e-14) {
 		return nil, nil, 0, false
 	}
-	sol := append([]float64(nil), g...)
+	sol := append(f.linSol[:0], g...)
 	cholSolve(A, np, sol)
 	inv := make([]float64, np*np)
 	cholInverse(A, np, inv, make([]float64, np))
-	for i := range f.x {
+	mod := grow(&f.mbuf, len(f.x))
+	for i := range mod {
 		var m float64
-		for c := range np {
-			m += sol[c] * col(c, i)
+		for b := range nb {
+			m += sol[nl+b] * f.leg[b][i]
 		}
-		r := (f.y[i] - m) / f.s[i]
+		mod[i] = m
+	}
+	for a, l := range f.lines {
+		for i := l.plo; i < l.phi; i++ {
+			mod[i] += sol[a] * l.u[i-l.plo]
+		}
+	}
+	for i := range mod {
+		r := (f.y[i] - mod[i]) / f.s[i]
 		chi2 += r * r
 	}
 	scale := 1.0
 	if dof := len(f.x) - np; dof > 0 && f.opt.GainElectronsPerCount <= 0 {
 		scale = math.Sqrt(chi2 / float64(dof))
 	}
-	areas = sol[:nl]
+	areas = append([]float64(nil), sol[:nl]...)
 	sig = make([]float64, nl)
 	for k := range nl {
 		sig[k] = math.Sqrt(math.Max(inv[k*np+k], 0)) * scale
@@ -673,112 +689,133 @@ func (f *wholeFitter) texcResponseSys(th []float64, areaSig func(int) float64, u
 
 // densitySys returns the systematic parts of n_e: the response of the
 // fit to each fixed input moved by its 1σ, δθ = (JᵀWJ)⁻¹JᵀW·∂m/∂input·σ
-// (first order), and the SH99 tables' accuracy.
+// (first order; the model change ∂m is computed by re-evaluating the
+// lines: the kernel alone for the instrument width, the gas temperature
+// and the Doppler handling, the tables at the other T_e for the
+// electron temperature), and the SH99 tables' accuracy. The state at the
+// solution (the lines' pixel means, the model and the Jacobian) is left
+// as it was.
 func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) []diag.UncPart {
 	pr := f.par
 	np := pr.n
 	th := f.th
-	base := append([]float64(nil), f.model...)
-	jac := append([]float64(nil), f.jac...)
 	var parts []diag.UncPart
 	add := func(name string, v float64) {
 		if v > 0 && finite(v) {
 			parts = append(parts, diag.UncPart{Name: name, Sigma: v})
 		}
 	}
-	// shift returns |δ ln n_e| for a model change dm.
-	shift := func(dm []float64) float64 {
-		g := make([]float64, np)
-		for i := range f.x {
-			w := 1 / (f.s[i] * f.s[i])
-			for a := range np {
-				g[a] += jac[i*np+a] * dm[i] * w
-			}
+	// Row of (JᵀWJ)⁻¹ of ln n_e, times JᵀW: the sensitivity of ln n_e to
+	// a model change at each pixel.
+	sens := grow(&f.sens, len(f.x))
+	for i := range f.x {
+		row := f.jac[i*np : (i+1)*np]
+		var v float64
+		for b, j := range row {
+			v += cov0[pr.iNe*np+b] * j
 		}
+		sens[i] = v / (f.s[i] * f.s[i])
+	}
+	// Saved pixel means of every line at the solution.
+	saved := make([][]float64, len(f.lines))
+	savedDu := make([][]float64, len(f.lines))
+	savedDn := make([][]float64, len(f.lines))
+	for k, l := range f.lines {
+		saved[k] = append([]float64(nil), l.u...)
+		savedDu[k] = append([]float64(nil), l.du...)
+		savedDn[k] = append([]float64(nil), l.dn...)
+	}
+	// shiftFor returns |δ ln n_e| from the lines' current u (changed by
+	// the caller) against the saved ones, and restores nothing.
+	shiftFor := func() float64 {
 		var d float64
-		for b := range np {
-			d += cov0[pr.iNe*np+b] * g[b]
+		for k, l := range f.lines {
+			a := f.areaOf(k, th)
+			for i := l.plo; i < l.phi; i++ {
+				d += sens[i] * a * (l.u[i-l.plo] - saved[k][i-l.plo])
+			}
 		}
 		return math.Abs(d)
 	}
-	// model change when the lines are re-evaluated with a modified
-	// fitter state (restored after).
-	delta := func(mod func()) []float64 {
-		saveTe, saveGas := f.te, f.gasT
-		saveInst := make([]float64, len(f.lines))
+	restore := func() {
 		for k, l := range f.lines {
-			saveInst[k] = l.instG
+			copy(l.u, saved[k])
 		}
-		mod()
-		_, err := f.eval(th)
-		f.te, f.gasT = saveTe, saveGas
-		for k, l := range f.lines {
-			l.instG = saveInst[k]
+	}
+	// Kernel-only changes: the masses at the solution are kept.
+	kernel := func(dInst, dGas float64) float64 {
+		for _, l := range f.lines {
+			g, tg := f.lineInst(l, th)
+			g += dInst
+			tg += dGas
+			dg := diag.DopplerFWHMNM(l.center, tg, f.mass)
+			e2 := g*g + dg*dg
+			if l.shapeSH {
+				e2 -= math.Pow(l.sh.DopplerFWHMNM(f.te), 2)
+			}
+			f.convolve(l, math.Sqrt(math.Max(e2, 0)), l.kernL())
+			f.pixels(l, th[pr.iOff])
 		}
-		if err != nil {
-			return nil
-		}
-		dm := make([]float64, len(base))
-		for i := range dm {
-			dm[i] = f.model[i] - base[i]
-		}
-		return dm
+		d := shiftFor()
+		restore()
+		return d
 	}
 	if s := f.m.InstrumentFWHMUncNM; s > 0 && pr.iIa < 0 {
-		if dm := delta(func() {
-			for _, l := range f.lines {
-				l.instG += s
-			}
-		}); dm != nil {
-			add("instrument width", ne*shift(dm))
-		}
+		add("instrument width", ne*0.5*(kernel(s, 0)+kernel(-math.Min(s, f.minInst()), 0)))
 	}
 	if s := f.m.GasTemperatureUncK; s > 0 && pr.iTg < 0 {
-		if dm := delta(func() { f.gasT += s }); dm != nil {
-			add("gas temperature", ne*shift(dm))
+		add("gas temperature", ne*0.5*(kernel(0, s)+kernel(0, -math.Min(s, f.gasT-diag.MinGasTemperatureK))))
+	}
+	// Doppler handling: a clamped line is too wide by the variance gap;
+	// the model change that would remove it, extrapolated linearly in
+	// the Gaussian variance from adding the same variance.
+	clamped := false
+	for _, l := range f.lines {
+		if l.clampGap2 > 0 && l.shapeSH {
+			clamped = true
+			f.convolve(l, math.Sqrt(l.clampGap2), l.kernL())
+			f.pixels(l, th[pr.iOff])
 		}
 	}
+	if clamped {
+		add("Doppler handling (tables' Doppler wider than instrument ⊕ gas Doppler)", ne*shiftFor())
+		restore()
+	}
+	// Electron temperature of the tables (the lines re-evaluated).
 	rel := wholeTeRelDefault
 	if teGiven {
 		rel = wholeTeRelGiven
 	}
-	if dm := delta(func() { f.te *= 1 + rel }); dm != nil {
-		d1 := shift(dm)
-		if dm2 := delta(func() { f.te /= 1 + rel }); dm2 != nil {
-			d1 = 0.5 * (d1 + shift(dm2))
+	teShift := func(fac float64) (float64, bool) {
+		save := f.te
+		f.te *= fac
+		defer func() { f.te = save }()
+		for _, l := range f.lines {
+			g, tg := f.lineInst(l, th)
+			if err := f.evalLine(l, th[pr.iNe], th[pr.iOff], g, tg); err != nil {
+				return 0, false
+			}
 		}
+		return shiftFor(), true
+	}
+	d1, ok1 := teShift(math.Exp(rel))
+	d2, ok2 := teShift(math.Exp(-rel))
+	switch {
+	case ok1 && ok2:
+		add("electron temperature of the tables", ne*0.5*(d1+d2))
+	case ok1:
 		add("electron temperature of the tables", ne*d1)
-	} else if dm2 := delta(func() { f.te /= 1 + rel }); dm2 != nil {
-		add("electron temperature of the tables", ne*shift(dm2))
+	case ok2:
+		add("electron temperature of the tables", ne*d2)
 	}
-	// Doppler handling: the clamped lines are too wide by the variance
-	// gap; the model change that would remove it, extrapolated linearly
-	// in the Gaussian variance.
-	var clamp []float64
+	// Back to the solution: the pixel means and their derivatives (the
+	// grid's masses are rebuilt by the next evaluation).
 	for k, l := range f.lines {
-		if l.clampGap2 <= 0 || !l.shapeSH {
-			continue
-		}
+		copy(l.u, saved[k])
+		copy(l.du, savedDu[k])
+		copy(l.dn, savedDn[k])
 		g, tg := f.lineInst(l, th)
-		if err := f.evalLine(l, th[pr.iNe], th[pr.iOff], g, tg); err != nil {
-			continue
-		}
-		gap := l.clampGap2
-		u0 := append([]float64(nil), l.u...)
-		f.convolve(l, math.Sqrt(gap), l.kernL())
-		if err := f.pixels(l, l.lastCF, th[pr.iOff]); err != nil {
-			continue
-		}
-		if clamp == nil {
-			clamp = make([]float64, len(base))
-		}
-		a := f.areaOf(k, th)
-		for i := l.plo; i < l.phi; i++ {
-			clamp[i] -= a * (l.u[i-l.plo] - u0[i-l.plo])
-		}
-	}
-	if clamp != nil {
-		add("Doppler handling (tables' Doppler wider than instrument ⊕ gas Doppler)", ne*shift(clamp))
+		_, _, _, _ = f.lineShape(l, th[pr.iNe], g, tg)
 	}
 	// Tables' accuracy through the local exponent of the width.
 	p := f.widthExponent(ne)
@@ -789,9 +826,17 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) []dia
 		}
 		add(name, ne*wholeSH99WidthRel/p)
 	}
-	// Restore the state at the solution.
-	_, _ = f.eval(th)
 	return parts
+}
+
+// minInst is the smallest instrument FWHM of the lines.
+func (f *wholeFitter) minInst() float64 {
+	m := math.Inf(1)
+	for _, l := range f.lines {
+		g, _ := f.lineInst(l, f.th)
+		m = math.Min(m, g)
+	}
+	return m
 }
 
 func (f *wholeFitter) anySH() bool {
