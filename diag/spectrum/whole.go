@@ -89,10 +89,10 @@ const (
 	// wholeGridPerWidth and wholeGridPerPixel set the fine-grid step: at
 	// 1/8 of the line's total FWHM (pixel edges fall anywhere on it: the
 	// broadened cumulative is interpolated by cubic Hermite).
-	wholeGridPerWidth = 8
+	wholeGridPerWidth = 12
 	// wholeGridPerBase: and at most this fraction of the base shape's own
 	// FWHM, on which the kernel's trapezoidal rule needs the shape smooth.
-	wholeGridPerBase = 3
+	wholeGridPerBase = 4
 	// wholeCoreWidths is the grid's half span in total FWHM (at least
 	// wholeCorePixels pixels); wholeWingReach the reach of the wings
 	// evaluated beyond it, in grid half spans.
@@ -157,6 +157,9 @@ type wline struct {
 	wing, wc, wp, wd []float64
 	// Grid scratch.
 	cum, dcum, fq, dfq, mass, dmass, q, dq, kern []float64
+	// pe and pq are the base shape's density at the bin edges and the
+	// same broadened (the Hermite slopes of the broadened cumulative).
+	pe, pq []float64
 	// State of the last evaluation.
 	starkFWHM float64
 	extra2    float64 // G_extra² used
@@ -481,6 +484,11 @@ func (p *Pipeline) wholeFit(in wholeInput, opt Options) (*WholeFit, error) {
 
 	// Parameters.
 	pr := wparams{free: opt.WholeAreas == WholeAreasFree, nLines: len(lines), iTg: -1, iIa: -1, iIb: -1}
+	if !pr.free && len(lines) < 2 {
+		// One line: no Boltzmann slope to fit; its area is free.
+		pr.free = true
+		f.notes = append(f.notes, "one line in the model: its area is fitted on its own and no excitation temperature follows")
+	}
 	k := 0
 	if pr.free {
 		pr.iA = 0
@@ -645,6 +653,8 @@ func (f *wholeFitter) setupGrid(l *wline, ne float64) {
 	l.phi = min(index(f.x, l.center+l.reach), len(f.x))
 	nb := 2*l.m + 1
 	l.cum = grow(&l.cum, nb+1)
+	l.pe = grow(&l.pe, nb+1)
+	l.pq = grow(&l.pq, nb+1)
 	l.dcum = grow(&l.dcum, nb+1)
 	l.fq = grow(&l.fq, nb+1)
 	l.dfq = grow(&l.dfq, nb+1)
@@ -731,7 +741,7 @@ func (f *wholeFitter) evalLine(l *wline, lnNe, off, instG, gasT float64) error {
 	h := l.h
 	e0 := -(float64(l.m) + 0.5) * h
 	for j := 0; j <= nb; j++ {
-		l.cum[j], _, l.dcum[j] = sf(e0 + float64(j)*h)
+		l.cum[j], l.pe[j], l.dcum[j] = sf(e0 + float64(j)*h)
 	}
 	for j := range nb {
 		l.mass[j] = l.cum[j+1] - l.cum[j]
@@ -756,8 +766,9 @@ func (f *wholeFitter) evalLine(l *wline, lnNe, off, instG, gasT float64) error {
 // converges exponentially for a Gaussian kernel and a shape smooth on
 // the grid step (h = 1/8 of the line's FWHM), so no variance correction
 // is made; a kernel much narrower than h is the identity to within its
-// own (negligible) width. The weights are normalised to sum to 1 (the
-// area is kept).
+// own (negligible) width. A Gaussian narrower than the step is given
+// three weights with its exact variance instead of samples. The weights
+// are normalised to sum to 1 (the area is kept).
 func (f *wholeFitter) convolve(l *wline, gF, lF float64) {
 	h := l.h
 	nb := 2*l.m + 1
@@ -766,6 +777,7 @@ func (f *wholeFitter) convolve(l *wline, gF, lF float64) {
 	if sigma < 0.05*h && gamma < 0.02*h {
 		copy(l.q, l.mass)
 		copy(l.dq, l.dmass)
+		copy(l.pq, l.pe)
 		return
 	}
 	reach := 5 * sigma
@@ -777,7 +789,16 @@ func (f *wholeFitter) convolve(l *wline, gF, lF float64) {
 	r := min(int(math.Ceil(reach/h)), nb)
 	kern := grow(&l.kern, 2*r+1)
 	var ks float64
-	for i := -r; i <= r; i++ {
+	if gamma == 0 && sigma < h {
+		// A Gaussian narrower than the step is not sampled well: three
+		// weights with its variance, 2a·h² = σ² (exact to second order).
+		r = 1
+		kern = grow(&l.kern, 3)
+		a := sigma * sigma / (2 * h * h)
+		kern[0], kern[1], kern[2] = a, 1-2*a, a
+		ks = 1
+	}
+	for i := -r; i <= r && !(gamma == 0 && sigma < h); i++ {
 		d := float64(i) * h
 		var v float64
 		switch {
@@ -794,6 +815,7 @@ func (f *wholeFitter) convolve(l *wline, gF, lF float64) {
 	if !(ks > 0) {
 		copy(l.q, l.mass)
 		copy(l.dq, l.dmass)
+		copy(l.pq, l.pe)
 		return
 	}
 	for i := range kern {
@@ -810,6 +832,16 @@ func (f *wholeFitter) convolve(l *wline, gF, lF float64) {
 			ds += kv * dms[i]
 		}
 		l.q[j], l.dq[j] = s, ds
+	}
+	for j := 0; j <= nb; j++ {
+		var s float64
+		lo, hi := max(j-r, 0), min(j+r, nb)
+		k := kern[lo-j+r : hi-j+r+1]
+		ps := l.pe[lo : hi+1]
+		for i, kv := range k {
+			s += kv * ps[i]
+		}
+		l.pq[j] = s
 	}
 }
 
@@ -886,7 +918,7 @@ func (f *wholeFitter) pixels(l *wline, off float64) {
 		fj := (t - e0) / h
 		j := min(int(fj), nb-1)
 		u := fj - float64(j)
-		c, dens = hermite(F[j], F[j+1], rho(j, l.q), rho(j+1, l.q), u, h)
+		c, dens = hermite(F[j], F[j+1], l.pq[j]*h, l.pq[j+1]*h, u, h)
 		dc, _ = hermite(dF[j], dF[j+1], rho(j, l.dq), rho(j+1, l.dq), u, h)
 		return c, dc, dens
 	}

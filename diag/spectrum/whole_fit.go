@@ -240,7 +240,10 @@ func (f *wholeFitter) levmar() (iters int, converged bool, chi2 float64, err err
 		drop := chi2 - newChi2
 		chi2 = newChi2
 		lam = math.Max(lam/10, 1e-12)
-		if drop <= 1e-7*chi2+1e-12 {
+		// χ² is in units of the pixel σ: a drop below 1e-4 moves no
+		// parameter by a noticeable fraction of its σ (a 1σ change is a
+		// drop of 1).
+		if drop <= 1e-4+1e-12*chi2 {
 			return iters, true, chi2, nil
 		}
 	}
