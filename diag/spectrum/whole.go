@@ -70,6 +70,10 @@ const (
 	// counts as carrying signal; T_exc is reported when at least two do.
 	// Common practice, no source (the 3σ detection rule).
 	wholeSignalSigma = 3.0
+	// wholeTieP is the χ² tail probability below which the Boltzmann tie
+	// of the areas is rejected: 0.0455, two-sided 2σ. Common practice, no
+	// source.
+	wholeTieP = 0.0455
 	// wholeDisagreeSigma is the difference between the routes, in
 	// combined σ, beyond which FlagWholeDisagrees is raised. Common
 	// practice, no source.
@@ -209,6 +213,7 @@ type wholeFitter struct {
 	lnLo   float64
 	lnHi   float64
 	linSol []float64
+	pert   diag.Perturber
 	sens   []float64
 	wbuf   []float64
 	mbuf   []float64
@@ -231,6 +236,13 @@ type wholeInput struct {
 // opt.Model is ModelWhole and the fit succeeds, the top-level numbers).
 func (p *Pipeline) whole(res *Result, in wholeInput, opt Options) {
 	wf, err := p.wholeFit(in, opt)
+	if err == nil {
+		// Everything the fit reports must be finite (it is stored and
+		// written as JSON); a fit that is not is a failed fit.
+		if e := diag.CheckFinite(*wf); e != nil {
+			wf, err = nil, fmt.Errorf("its result is not finite (%v)", e)
+		}
+	}
 	if err != nil {
 		res.Flags = append(res.Flags, diag.Flag{Code: FlagWholeFailed, Message: "the whole-spectrum fit gave no result (" + err.Error() + "): the line-by-line results are reported"})
 		return
@@ -245,19 +257,22 @@ func (p *Pipeline) whole(res *Result, in wholeInput, opt Options) {
 	if d, ok := diffSigma(wf.ExcitationTemperatureK, wf.ExcitationTemperatureUncK, lr.ExcitationTemperatureK, lr.ExcitationTemperatureUncK); ok {
 		wf.TexcDiffSigma = &d
 		if math.Abs(d) > wholeDisagreeSigma {
-			why = append(why, fmt.Sprintf("T_exc %s K (whole) against %s K (lines), %.1f combined σ apart",
+			why = append(why, fmt.Sprintf("T_exc %s K against %s K from the line-by-line analysis, %.1f combined σ apart",
 				fmtG(*wf.ExcitationTemperatureK), fmtG(*lr.ExcitationTemperatureK), math.Abs(d)))
 		}
 	}
 	if d, ok := diffSigma(wf.ElectronDensityM3, wf.ElectronDensityUncM3, lr.ElectronDensityM3, lr.ElectronDensityUncM3); ok {
 		wf.NeDiffSigma = &d
 		if math.Abs(d) > wholeDisagreeSigma {
-			why = append(why, fmt.Sprintf("n_e %s m⁻³ (whole) against %s m⁻³ (lines), %.1f combined σ apart",
+			why = append(why, fmt.Sprintf("n_e %s m⁻³ against %s m⁻³ from the line-by-line analysis, %.1f combined σ apart",
 				fmtG(*wf.ElectronDensityM3), fmtG(*lr.ElectronDensityM3), math.Abs(d)))
 		}
 	}
+	if wf.offTie != "" {
+		why = append(why, wf.offTie)
+	}
 	if len(why) > 0 {
-		res.Flags = append(res.Flags, diag.Flag{Code: FlagWholeDisagrees, Message: "the whole-spectrum fit and the line-by-line analysis disagree: " +
+		res.Flags = append(res.Flags, diag.Flag{Code: FlagWholeDisagrees, Message: "whole-spectrum fit: " +
 			strings.Join(why, "; ") + " (more than 2σ: common practice, no source). Likely causes: upper levels not in a Boltzmann distribution, self-absorption of Hα, a wrong spectral response, or a blend with another species' line; compare the whole fit's free-area mode and the Boltzmann plot"})
 	}
 	if opt.Model != ModelWhole {
@@ -353,6 +368,26 @@ func (p *Pipeline) wholeFit(in wholeInput, opt Options) (*WholeFit, error) {
 		ne0 = *in.lines.ElectronDensityM3
 	}
 
+	f.pert = pert
+	if ne0 == 0 {
+		ne0 = f.scanDensity(in)
+	}
+	if err := f.setup(in, ne0); err != nil {
+		return nil, err
+	}
+	p.lastWholeF = f
+	it, conv, chi2, err := f.levmar()
+	if err != nil {
+		return nil, err
+	}
+	return f.result(it, conv, chi2, teGiven, in)
+}
+
+// setup builds the model at the starting density ne0: the lines and
+// their shapes, the fitted pixels, the parameters, the fine grids, and
+// the linear start (free areas and baseline at the starting shapes,
+// then T_exc from them or from the lines route).
+func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
 	x := in.x
 	n := len(x)
 	// Lines: every member the search found inside the range, up to the
@@ -366,9 +401,9 @@ func (p *Pipeline) wholeFit(in wholeInput, opt Options) (*WholeFit, error) {
 		ic := min(max(index(x, c.center), 0), n-1)
 		l := &wline{t: c.t, center: c.t.WavelengthAirNM, instG: c.instG, px: pixelWidth(x, ic)}
 		b, err := diag.NewBudget(diag.BudgetInput{Transition: c.t, InstrumentGaussNM: c.instG, InstrumentLorentzNM: c.instL,
-			GasTempK: f.gasT, Perturber: pert, PressurePa: in.m.PressurePa, GroundDensityM3: in.m.GroundStateDensityM3})
+			GasTempK: f.gasT, PressurePa: in.m.PressurePa, GroundDensityM3: in.m.GroundStateDensityM3, Perturber: f.pert})
 		if err != nil {
-			return nil, err
+			return err
 		}
 		l.lorOther = b.LorentzNonStarkNM
 		if s, err := sh99.Balmer(c.t.Upper); err == nil {
@@ -388,10 +423,7 @@ func (p *Pipeline) wholeFit(in wholeInput, opt Options) (*WholeFit, error) {
 		lines = append(lines, l)
 	}
 	if len(lines) == 0 {
-		return nil, errors.New("no Balmer line to model")
-	}
-	if ne0 == 0 {
-		ne0 = p.scanDensity(lines, f)
+		return errors.New("no Balmer line to model")
 	}
 	// Shapes at the start, the series' merging limit, and the n_e bounds:
 	// a line the tables cover at the starting density gets its SH99
@@ -427,7 +459,7 @@ func (p *Pipeline) wholeFit(in wholeInput, opt Options) (*WholeFit, error) {
 	}
 	lines = keep
 	if len(lines) == 0 {
-		return nil, errors.New("no Balmer line has a Stark shape model at this density")
+		return errors.New("no Balmer line has a Stark shape model at this density")
 	}
 	for _, l := range lines {
 		if l.shapeSH {
@@ -467,7 +499,7 @@ func (p *Pipeline) wholeFit(in wholeInput, opt Options) (*WholeFit, error) {
 	}
 	np := len(f.x)
 	if np < 10 {
-		return nil, errors.New("too few usable pixels")
+		return errors.New("too few usable pixels")
 	}
 	f.scale = windowScaleExp(f.y)
 	if f.scale != 0 {
@@ -477,13 +509,13 @@ func (p *Pipeline) wholeFit(in wholeInput, opt Options) (*WholeFit, error) {
 		}
 	}
 	if !validSigma(f.s) {
-		return nil, errors.New("the pixel uncertainties are zero or beyond the range of the fit")
+		return errors.New("the pixel uncertainties are zero or beyond the range of the fit")
 	}
 	span := f.x[np-1] - f.x[0]
 	order := wholeBaselineOrder(span)
 
 	// Parameters.
-	pr := wparams{free: opt.WholeAreas == WholeAreasFree, nLines: len(lines), iTg: -1, iIa: -1, iIb: -1}
+	pr := wparams{free: f.opt.WholeAreas == WholeAreasFree, nLines: len(lines), iTg: -1, iIa: -1, iIb: -1}
 	if !pr.free && len(lines) < 2 {
 		// One line: no Boltzmann slope to fit; its area is free.
 		pr.free = true
@@ -499,11 +531,11 @@ func (p *Pipeline) wholeFit(in wholeInput, opt Options) (*WholeFit, error) {
 	}
 	pr.iNe, pr.iOff = k, k+1
 	k += 2
-	if opt.WholeFreeGasTemperature {
+	if f.opt.WholeFreeGasTemperature {
 		pr.iTg = k
 		k++
 	}
-	if opt.WholeFreeInstrument {
+	if f.opt.WholeFreeInstrument {
 		pr.iIa, pr.iIb = k, k+1
 		k += 2
 	}
@@ -549,15 +581,17 @@ func (p *Pipeline) wholeFit(in wholeInput, opt Options) (*WholeFit, error) {
 		th[pr.iIb] = 0
 	}
 	for _, l := range lines {
-		f.setupGrid(l, ne0)
+		if err := f.setupGrid(l, ne0); err != nil {
+			return err
+		}
 	}
 	// Linear start: free areas and baseline at the starting shapes.
 	if err := f.evalLines(th, false); err != nil {
-		return nil, err
+		return err
 	}
 	areas, areaSig, _, ok := f.linearAreas()
 	if !ok {
-		return nil, errors.New("the starting linear fit is singular")
+		return errors.New("the starting linear fit is singular")
 	}
 	if pr.free {
 		for k := range lines {
@@ -578,14 +612,7 @@ func (p *Pipeline) wholeFit(in wholeInput, opt Options) (*WholeFit, error) {
 	}
 	f.linearBaseline()
 
-	p.lastWholeF = f
-	it, conv, chi2, err := f.levmar()
-	if err != nil {
-		return nil, err
-	}
-	// A density at the edge of a line's table range: that line is refitted
-	// as a Voigt (once).
-	return f.result(it, conv, chi2, teGiven, in)
+	return nil
 }
 
 // instAt is the fixed instrument Gaussian FWHM at λ (interpolated between
@@ -626,9 +653,12 @@ func (f *wholeFitter) widths(l *wline, ne, instG float64) (total, base float64) 
 }
 
 // setupGrid fixes a line's fine grid, its wing nodes and its pixel range.
-func (f *wholeFitter) setupGrid(l *wline, ne float64) {
+func (f *wholeFitter) setupGrid(l *wline, ne float64) error {
 	w, wb := f.widths(l, ne, l.instG)
 	l.h = math.Min(w/wholeGridPerWidth, wb/wholeGridPerBase)
+	if !(l.h > 0) || math.IsInf(l.h, 0) {
+		return fmt.Errorf("%s: no usable line width at n_e = %.3g m⁻³", l.t.Name(), ne)
+	}
 	half := math.Max(wholeCoreWidths*w, wholeCorePixels*l.px)
 	l.m = int(math.Ceil(half / l.h))
 	if l.m > wholeMaxBins/2 {
@@ -639,11 +669,14 @@ func (f *wholeFitter) setupGrid(l *wline, ne float64) {
 	l.reach = wholeWingReach * edge
 	// Wing nodes: geometric from the grid's edge to the reach.
 	l.wing = l.wing[:0]
-	for d := edge; ; d *= wholeWingStep {
+	for d := edge; len(l.wing) < 64; d *= wholeWingStep {
 		l.wing = append(l.wing, d)
-		if d >= l.reach {
+		if !(d < l.reach) {
 			break
 		}
+	}
+	if len(l.wing) < 2 {
+		l.wing = append(l.wing, 2*edge)
 	}
 	nw := len(l.wing)
 	l.wc = grow(&l.wc, 2*nw)
@@ -666,6 +699,7 @@ func (f *wholeFitter) setupGrid(l *wline, ne float64) {
 	l.u = grow(&l.u, k)
 	l.du = grow(&l.du, k)
 	l.dn = grow(&l.dn, k)
+	return nil
 }
 
 // kernL is the kernel Lorentzian FWHM of the last evaluation.

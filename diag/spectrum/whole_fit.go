@@ -5,9 +5,18 @@ import (
 	"fmt"
 	"math"
 
+	"gonum.org/v1/gonum/stat/distuv"
+
 	"glowlog/diag"
 	"glowlog/diag/sh99"
 )
+
+func aboveBelow(d float64) string {
+	if d > 0 {
+		return "above"
+	}
+	return "below"
+}
 
 // lineInst returns a line's instrument Gaussian FWHM and gas temperature
 // under the parameters th.
@@ -381,13 +390,22 @@ func boltzmannBeta(lines []*wline, areas, sig []float64) (float64, bool) {
 	return -slope, true
 }
 
-// scanDensity picks a starting n_e when the lines route has none: the
-// lowest χ² of the linear fit over a coarse grid in the tables' range.
-func (p *Pipeline) scanDensity(lines []*wline, f *wholeFitter) float64 {
-	_ = p
-	_ = lines
-	_ = f
-	return 1e21
+// scanDensity picks a starting n_e when the lines route gives none: the
+// lowest χ² of the linear fit (free areas and baseline at the shapes of
+// that density) over half-decade steps from 1e18 to 3.16e23 m⁻³.
+func (f *wholeFitter) scanDensity(in wholeInput) float64 {
+	best, bestChi := 1e21, math.Inf(1)
+	for e := 18.0; e <= 23.5; e += 0.5 {
+		ne := math.Pow(10, e)
+		g := &wholeFitter{opt: f.opt, m: f.m, te: f.te, gasT: f.gasT, mass: f.mass, pert: f.pert}
+		if err := g.setup(in, ne); err != nil {
+			continue
+		}
+		if _, _, chi, ok := g.linearAreas(); ok && chi < bestChi {
+			best, bestChi = ne, chi
+		}
+	}
+	return best
 }
 
 // result assembles the WholeFit from the converged state.
@@ -444,6 +462,35 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 	}
 	if nSignal == 0 {
 		return nil, errors.New("no line carries a significant signal in the whole model")
+	}
+	// Boltzmann test: the tied areas against free areas at the same
+	// shapes (χ² of the free-area solve is at the fitted n_e and offset,
+	// so Δχ² is conservative), k − 2 degrees of freedom for k lines.
+	var birge float64 = 1
+	var offTie string
+	if !pr.free && len(f.lines) >= 3 {
+		_, _, chiFree, _ := f.linearAreas()
+		dchi := math.Max(chi2-chiFree, 0)
+		kdof := len(f.lines) - 2
+		wf.BoltzmannDeltaChi2, wf.BoltzmannDOF = dchi, kdof
+		wf.BoltzmannP = distuv.ChiSquared{K: float64(kdof)}.Survival(dchi)
+		if wf.BoltzmannP < wholeTieP {
+			birge = math.Sqrt(dchi / float64(kdof))
+			// The line farthest from the tie.
+			worst, wz := -1, 0.0
+			for k := range f.lines {
+				if linSig[k] > 0 {
+					if z := math.Abs(linAreas[k]-f.areaOf(k, th)) / linSig[k]; z > wz {
+						worst, wz = k, z
+					}
+				}
+			}
+			if worst >= 0 {
+				a := f.areaOf(worst, th)
+				offTie = fmt.Sprintf("the line areas do not follow one Boltzmann distribution (Δχ² = %.1f for %d degrees of freedom, p = %.2g): %s's own area is %.0f %% %s the tied value (%.1fσ)",
+					dchi, kdof, wf.BoltzmannP, f.lines[worst].t.Name(), 100*math.Abs(linAreas[worst]/a-1), aboveBelow(linAreas[worst]-a), wz)
+			}
+		}
 	}
 	ne := math.Exp(th[pr.iNe])
 
@@ -582,7 +629,9 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 		}
 	} else if beta := th[pr.iB]; beta > 0 && nSignal >= 2 {
 		tExc = 1 / (kB * beta)
-		tStat = sd(pr.iB) / (kB * beta * beta)
+		// Scaled by the Birge ratio of the Boltzmann test when the tie is
+		// rejected (as the lines route scales a scattered Boltzmann plot).
+		tStat = sd(pr.iB) / (kB * beta * beta) * birge
 		tOK = finite(tExc) && finite(tStat)
 	}
 	if tOK {
@@ -611,6 +660,7 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 		wf.GasTemperatureK = fptr(th[pr.iTg])
 		wf.GasTemperatureUncK = fptr(sd(pr.iTg))
 	}
+	wf.offTie = offTie
 	if f.opt.KeepWindows {
 		wf.WavelengthNM = append(PlotFloats(nil), f.x...)
 		wf.Data = make(PlotFloats, n)

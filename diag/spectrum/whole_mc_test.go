@@ -25,6 +25,7 @@ type mcStats struct {
 	nT                            int
 	failed                        int
 	zNe                           []float64
+	flagged                       int
 }
 
 var mcVerbose = false
@@ -58,6 +59,11 @@ func runFamily(t testing.TB, fam mcFamily, n int, seed uint64) mcStats {
 		}
 		w := res.Whole
 		st.n++
+		for _, fl := range res.Flags {
+			if fl.Code == FlagWholeDisagrees {
+				st.flagged++
+			}
+		}
 		ne := *w.ElectronDensityM3
 		st.neWhole = append(st.neWhole, math.Abs(ne/g.ne-1))
 		if w.LinesElectronDensityM3 != nil {
@@ -97,7 +103,7 @@ func runFamily(t testing.TB, fam mcFamily, n int, seed uint64) mcStats {
 	for _, z := range st.zNe {
 		mz += z / float64(len(st.zNe))
 	}
-	t.Logf("%s: n_e error/σ_stat mean %.2f, median |z| %.2f (0.67 for a normal)", fam.name, mz, median(absAll(st.zNe)))
+	t.Logf("%s: n_e error/σ_stat mean %.2f, median |z| %.2f (0.67 for a normal); disagreement flag on %d", fam.name, mz, median(absAll(st.zNe)), st.flagged)
 	return st
 }
 

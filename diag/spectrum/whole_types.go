@@ -84,6 +84,17 @@ type WholeFit struct {
 	DOF         int          `json:"dof"`
 	Iterations  int          `json:"iterations"`
 	Converged   bool         `json:"converged"`
+	// BoltzmannDeltaChi2 is χ²(areas tied by T_exc) − χ²(areas free) at
+	// the fitted shapes, with BoltzmannDOF = lines − 2 degrees of freedom
+	// and its χ² tail probability BoltzmannP (Boltzmann mode with three
+	// or more lines; 0 otherwise). Below p = 0.0455 (2σ) the tie is
+	// rejected: T_exc's σ is scaled by √(Δχ²/dof) and FlagWholeDisagrees
+	// is raised. (Added by the whole-fit work.)
+	BoltzmannDeltaChi2 float64 `json:"boltzmann_delta_chi2"`
+	BoltzmannDOF       int     `json:"boltzmann_dof"`
+	BoltzmannP         float64 `json:"boltzmann_p"`
+	// offTie describes the rejected tie for the flag ("" when accepted).
+	offTie string
 	// DopplerNote says how the tables' own Doppler part was handled.
 	DopplerNote string      `json:"doppler_note"`
 	Lines       []WholeLine `json:"lines"`
