@@ -62,12 +62,9 @@ func (f *wholeFitter) evalLines(th []float64, _ bool) error {
 			for i := range l.dg {
 				l.dg[i] = (l.dg[i] - l.u[i]) / de
 			}
-			if l.clampGap2 > 0 {
-				// Clamped: the model does not change with a small G.
-				for i := range l.dg {
-					l.dg[i] = 0
-				}
-			}
+			// Where G_extra² is clamped at 0 the model is flat in G; the
+			// one-sided difference above 0 still points the fit out of
+			// the clamp (a flat column would leave it singular).
 			continue
 		}
 		if err := f.evalLine(l, th[f.par.iNe], th[f.par.iOff], g, tg); err != nil {
