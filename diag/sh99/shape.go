@@ -19,12 +19,11 @@ import "math"
 //
 // with Ĉ_c the one-sided area of node profile c from the centre. Each
 // node's Ĉ is tabulated once (on first use, then shared) on a dense grid
-// in v = ln(1 + x/x_c) (x the reduced detuning, x_c about the node's half
-// width: uniform in the core, logarithmic in the wings) together with its
-// derivative, the node profile itself, and evaluated by cubic Hermite
-// interpolation; beyond the dense grid the node's power-law wing is
-// integrated analytically, so no area is lost however far the evaluation
-// goes. Measured against Profile and its numerical integral in
+// in the reduced detuning x (uniform in the core, logarithmic in the
+// wings: cumTable) together with its derivative, the node profile
+// itself, and evaluated by cubic Hermite interpolation; beyond the dense
+// grid the node's power-law wing is integrated analytically, so no area
+// is lost however far the evaluation goes. Measured against Profile and its numerical integral in
 // TestShapeCumulative.
 //
 // A Shape is a plain value; its methods do not allocate and are safe for
@@ -157,19 +156,24 @@ func (s *Shape) cum(dl float64, deriv bool) (float64, float64) {
 }
 
 // cumTable is a node profile's one-sided cumulative area Ĉ(x) = ∫₀^x P
-// on a dense grid uniform in v = ln(1 + x/x_c), with dĈ/dv = P·(x_c + x),
-// for cubic Hermite interpolation.
+// on a dense grid for cubic Hermite interpolation with the profile P =
+// dĈ/dx as slopes. The grid is one cell [0, x₀] (x₀ = x_c/64, where the
+// profile is flat) followed by octaves [x₀2^o, x₀2^(o+1)), each cut into
+// cumTabPerOctave equal cells: uniform near the centre, logarithmic in
+// the wings, and located from the bits of x/x₀ without a logarithm.
 type cumTable struct {
-	dvInv float64
-	vMax  float64
-	xMax  float64
-	c, d  []float64 // Ĉ and dĈ/dv at v_i = i/dvInv
+	x0, inv0 float64 // x₀ and 1/x₀
+	xMax     float64
+	c, p     []float64 // Ĉ and P at the nodes
 }
 
-// cumTabPerUnit is the number of grid points per unit of v (per e-fold
-// in the wings): the Hermite interpolant's density is then within 1e-4
-// of the profile (TestShapeCumulative).
-const cumTabPerUnit = 64
+// cumTabPerOctave is the number of cells per octave (a power of two):
+// the Hermite interpolant's density is then within 1e-4 of the profile
+// (TestShapeCumulative).
+const (
+	cumTabShift     = 5
+	cumTabPerOctave = 1 << cumTabShift
+)
 
 // cumTabSpan is how far beyond the last tabulated detuning the dense
 // table reaches (factor in x); beyond it the power-law wing is
@@ -179,16 +183,20 @@ const cumTabSpan = 100
 // cumTab returns the node's dense cumulative table, built on first use.
 func (np *nodeProfile) cumTab() *cumTable {
 	np.tabOnce.Do(func() {
-		xMax := np.x[len(np.x)-1] * cumTabSpan
-		vMax := math.Log1p(xMax / np.xc)
-		n := int(math.Ceil(vMax*cumTabPerUnit)) + 1
-		t := &cumTable{dvInv: cumTabPerUnit, c: make([]float64, n), d: make([]float64, n)}
-		t.vMax = float64(n-1) / cumTabPerUnit
-		t.xMax = np.xc * math.Expm1(t.vMax)
+		x0 := np.xc / 64
+		octaves := int(math.Ceil(math.Log2(np.x[len(np.x)-1] * cumTabSpan / x0)))
+		n := 2 + octaves*cumTabPerOctave
+		t := &cumTable{x0: x0, inv0: 1 / x0, c: make([]float64, n), p: make([]float64, n)}
+		t.xMax = x0 * math.Ldexp(1, octaves)
 		for i := range n {
-			x := np.xc * math.Expm1(float64(i)/cumTabPerUnit)
+			var x float64
+			if i > 0 {
+				k := i - 1
+				o, sub := k>>cumTabShift, k&(cumTabPerOctave-1)
+				x = x0 * math.Ldexp(1+float64(sub)/cumTabPerOctave, o)
+			}
 			t.c[i] = np.cumAt(x)
-			t.d[i] = np.at(x) * (np.xc + x)
+			t.p[i] = np.at(x)
 		}
 		np.tab = t
 	})
@@ -200,20 +208,30 @@ func (t *cumTable) eval(np *nodeProfile, x float64) (c, p float64) {
 	if x >= t.xMax {
 		return np.cumAt(x), np.at(x)
 	}
-	v := math.Log1p(x / np.xc)
-	f := v * t.dvInv
-	i := int(f)
-	if i >= len(t.c)-1 {
-		i = len(t.c) - 2
+	s := x * t.inv0
+	var i int
+	var hh, u float64
+	if s < 1 {
+		i, hh, u = 0, t.x0, s
+	} else {
+		// s = 2^o · (1 + m/2⁵²): octave o, cell from the top mantissa
+		// bits, position in the cell from the rest.
+		b := math.Float64bits(s)
+		o := int(b>>52&0x7ff) - 1023
+		m := b & (1<<52 - 1)
+		sub := int(m >> (52 - cumTabShift))
+		rest := m & (1<<(52-cumTabShift) - 1)
+		i = 1 + o<<cumTabShift + sub
+		oct := math.Float64frombits(uint64(o+1023) << 52) // 2^o
+		hh = t.x0 * oct / cumTabPerOctave
+		u = float64(rest) / (1 << (52 - cumTabShift))
 	}
-	u := f - float64(i)
-	h := 1 / t.dvInv
-	c0, c1, d0, d1 := t.c[i], t.c[i+1], t.d[i]*h, t.d[i+1]*h
+	c0, c1 := t.c[i], t.c[i+1]
+	d0, d1 := t.p[i]*hh, t.p[i+1]*hh
 	u2 := u * u
 	u3 := u2 * u
 	c = (2*u3-3*u2+1)*c0 + (u3-2*u2+u)*d0 + (-2*u3+3*u2)*c1 + (u3-u2)*d1
-	// dĈ/du of the Hermite cubic, then dĈ/dx = dĈ/du · du/dv · dv/dx.
 	dc := (6*u2-6*u)*c0 + (3*u2-4*u+1)*d0 + (-6*u2+6*u)*c1 + (3*u2-2*u)*d1
-	p = dc * t.dvInv / (np.xc + x)
+	p = dc / hh
 	return c, p
 }

@@ -814,7 +814,8 @@ func (f *wholeFitter) convolve(l *wline, gF, lF float64) {
 		copy(l.pq, l.pe)
 		return
 	}
-	reach := 5 * sigma
+	// 4.5σ: the Gaussian's mass beyond is 7e-6 (renormalised below).
+	reach := 4.5 * sigma
 	if gamma >= 0.02*h {
 		reach += 20 * gamma
 	} else {
@@ -855,27 +856,37 @@ func (f *wholeFitter) convolve(l *wline, gF, lF float64) {
 	for i := range kern {
 		kern[i] /= ks
 	}
-	for j := range nb {
-		var s, ds float64
-		lo, hi := max(j-r, 0), min(j+r, nb-1)
-		k := kern[lo-j+r : hi-j+r+1]
-		ms, dms := l.mass[lo:hi+1], l.dmass[lo:hi+1]
-		for i, kv := range k {
-			// the kernel is symmetric: kern[j−i+r] = kern[i−j+r]
-			s += kv * ms[i]
-			ds += kv * dms[i]
-		}
-		l.q[j], l.dq[j] = s, ds
-	}
+	// Bin masses (q, dq, nb values) and edge densities (pq, nb+1 values)
+	// in one pass; the kernel is symmetric (kern[j−i+r] = kern[i−j+r]).
 	for j := 0; j <= nb; j++ {
-		var s float64
 		lo, hi := max(j-r, 0), min(j+r, nb)
 		k := kern[lo-j+r : hi-j+r+1]
 		ps := l.pe[lo : hi+1]
-		for i, kv := range k {
-			s += kv * ps[i]
+		var s, ds, sp float64
+		if hi == nb {
+			// The last edge has no bin: masses up to nb−1.
+			ms, dms := l.mass[lo:nb], l.dmass[lo:nb]
+			for i := range ms {
+				s += k[i] * ms[i]
+				ds += k[i] * dms[i]
+			}
+			for i, kv := range k {
+				sp += kv * ps[i]
+			}
+		} else {
+			ms, dms := l.mass[lo:hi+1], l.dmass[lo:hi+1]
+			ps = ps[:len(k)]
+			ms, dms = ms[:len(k)], dms[:len(k)]
+			for i, kv := range k {
+				s += kv * ms[i]
+				ds += kv * dms[i]
+				sp += kv * ps[i]
+			}
 		}
-		l.pq[j] = s
+		if j < nb {
+			l.q[j], l.dq[j] = s, ds
+		}
+		l.pq[j] = sp
 	}
 }
 
