@@ -239,8 +239,9 @@ type Pipeline struct {
 	iters   []int
 	// lastWhole is the input of the last whole-spectrum fit (its slices
 	// are the buffers above): BenchmarkWhole2048 times the fit alone.
-	lastWhole  wholeInput
-	lastWholeF *wholeFitter
+	lastWhole wholeInput
+	// wfit is the whole-spectrum fitter, kept for its buffers.
+	wfit *wholeFitter
 }
 
 // maxWindowLines bounds the lines fitted jointly in one window.

@@ -214,10 +214,16 @@ type wholeFitter struct {
 	lnHi   float64
 	linSol []float64
 	pert   diag.Perturber
-	sens   []float64
-	wbuf   []float64
-	mbuf   []float64
-	notes  []string
+	// pool holds the lines' structs (and buffers) for reuse; nPool of
+	// them are in use.
+	pool  []*wline
+	nPool int
+	// ws is scratch for the Levenberg–Marquardt and covariance matrices.
+	ws    []float64
+	sens  []float64
+	wbuf  []float64
+	mbuf  []float64
+	notes []string
 }
 
 // wholeInput is what the whole fit needs from the lines route.
@@ -339,7 +345,13 @@ func fmtG(v float64) string { return fmt.Sprintf("%.4g", v) }
 
 // wholeFit builds and fits the model.
 func (p *Pipeline) wholeFit(in wholeInput, opt Options) (*WholeFit, error) {
-	f := &wholeFitter{opt: opt, m: in.m}
+	// The fitter and its lines are kept in the pipeline and their buffers
+	// reused from call to call.
+	if p.wfit == nil {
+		p.wfit = &wholeFitter{}
+	}
+	f := p.wfit
+	f.reset(opt, in.m)
 	f.te = in.m.ElectronTemperatureK
 	teGiven := f.te > 0
 	if !teGiven {
@@ -375,12 +387,35 @@ func (p *Pipeline) wholeFit(in wholeInput, opt Options) (*WholeFit, error) {
 	if err := f.setup(in, ne0); err != nil {
 		return nil, err
 	}
-	p.lastWholeF = f
 	it, conv, chi2, err := f.levmar()
 	if err != nil {
 		return nil, err
 	}
 	return f.result(it, conv, chi2, teGiven, in)
+}
+
+// reset prepares a (reused) fitter for a new fit, keeping its buffers.
+func (f *wholeFitter) reset(opt Options, m diag.Measurement) {
+	*f = wholeFitter{opt: opt, m: m,
+		x: f.x[:0], a: f.a[:0], b: f.b[:0], y: f.y[:0], s: f.s[:0], leg: f.leg[:0],
+		th: f.th, model: f.model, jac: f.jac, linSol: f.linSol, sens: f.sens, wbuf: f.wbuf, mbuf: f.mbuf,
+		pool: f.pool, lines: f.lines[:0], ws: f.ws}
+}
+
+// newLine returns a line from the pool, cleared, with its buffers kept.
+func (f *wholeFitter) newLine() *wline {
+	if f.nPool < len(f.pool) {
+		l := f.pool[f.nPool]
+		f.nPool++
+		*l = wline{u: l.u, du: l.du, dn: l.dn, dg: l.dg, wing: l.wing[:0], wc: l.wc, wp: l.wp, wd: l.wd,
+			cum: l.cum, dcum: l.dcum, fq: l.fq, dfq: l.dfq, mass: l.mass, dmass: l.dmass, q: l.q, dq: l.dq,
+			kern: l.kern, pe: l.pe, pq: l.pq}
+		return l
+	}
+	l := &wline{}
+	f.pool = append(f.pool, l)
+	f.nPool++
+	return l
 }
 
 // setup builds the model at the starting density ne0: the lines and
@@ -392,14 +427,15 @@ func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
 	n := len(x)
 	// Lines: every member the search found inside the range, up to the
 	// merging of the series, that a shape model covers.
-	var lines []*wline
+	lines := f.lines[:0]
 	for i := range in.cands {
 		c := &in.cands[i]
 		if c.search.Status == "saturated" {
 			continue
 		}
 		ic := min(max(index(x, c.center), 0), n-1)
-		l := &wline{t: c.t, center: c.t.WavelengthAirNM, instG: c.instG, px: pixelWidth(x, ic)}
+		l := f.newLine()
+		l.t, l.center, l.instG, l.px = c.t, c.t.WavelengthAirNM, c.instG, pixelWidth(x, ic)
 		b, err := diag.NewBudget(diag.BudgetInput{Transition: c.t, InstrumentGaussNM: c.instG, InstrumentLorentzNM: c.instL,
 			GasTempK: f.gasT, PressurePa: in.m.PressurePa, GroundDensityM3: in.m.GroundStateDensityM3, Perturber: f.pert})
 		if err != nil {
@@ -544,9 +580,12 @@ func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
 	pr.n = k
 	pr.lamMid, pr.lamHalf = 0.5*(f.x[0]+f.x[np-1]), math.Max(0.5*span, 1e-9)
 	f.par = pr
-	f.leg = make([][]float64, pr.nBase)
+	for len(f.leg) < pr.nBase {
+		f.leg = append(f.leg, nil)
+	}
+	f.leg = f.leg[:pr.nBase]
 	for j := range f.leg {
-		f.leg[j] = make([]float64, np)
+		f.leg[j] = grow(&f.leg[j], np)
 	}
 	for i, v := range f.x {
 		t := (v - pr.lamMid) / pr.lamHalf
@@ -564,9 +603,12 @@ func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
 		l.lnF -= f0
 	}
 
-	f.th = make([]float64, pr.n)
-	f.model = make([]float64, np)
-	f.jac = make([]float64, np*pr.n)
+	f.th = grow(&f.th, pr.n)
+	for i := range f.th {
+		f.th[i] = 0
+	}
+	f.model = grow(&f.model, np)
+	f.jac = grow(&f.jac, np*pr.n)
 	th := f.th
 	th[pr.iNe] = math.Log(ne0)
 	th[pr.iOff] = in.off

@@ -79,6 +79,13 @@ func (f *wholeFitter) eval(th []float64) (float64, error) {
 	if err := f.evalLines(th, true); err != nil {
 		return 0, err
 	}
+	return f.assemble(th)
+}
+
+// assemble builds the model and the Jacobian at th from the lines' unit
+// profiles as last evaluated (at th's n_e, offset and widths) and
+// returns χ².
+func (f *wholeFitter) assemble(th []float64) (float64, error) {
 	pr := f.par
 	n := len(f.x)
 	np := pr.n
@@ -195,12 +202,11 @@ func (f *wholeFitter) clampParams(th []float64) {
 // levmar runs Levenberg–Marquardt from f.th.
 func (f *wholeFitter) levmar() (iters int, converged bool, chi2 float64, err error) {
 	np := f.par.n
-	A := make([]float64, np*np)
-	M := make([]float64, np*np)
-	g := make([]float64, np)
-	d := make([]float64, np)
-	trial := make([]float64, np)
-	chi2, err = f.eval(f.th)
+	ws := grow(&f.ws, 2*np*np+3*np)
+	A, M := ws[:np*np], ws[np*np:2*np*np]
+	g, d, trial := ws[2*np*np:2*np*np+np], ws[2*np*np+np:2*np*np+2*np], ws[2*np*np+2*np:]
+	// The lines were evaluated at f.th's shape parameters by setup.
+	chi2, err = f.assemble(f.th)
 	if err != nil {
 		return 0, false, 0, err
 	}
@@ -443,7 +449,7 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 		wf.Areas = WholeAreasFree
 	}
 	// Significance of each line: its area over σ with every area free.
-	linAreas, linSig, _, ok := f.linearAreas()
+	linAreas, linSig, chiFree, ok := f.linearAreas()
 	if !ok {
 		return nil, errors.New("the free-area check fit is singular")
 	}
@@ -466,7 +472,6 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 	var birge float64 = 1
 	var offTie string
 	if !pr.free && len(f.lines) >= 3 {
-		_, _, chiFree, _ := f.linearAreas()
 		dchi := math.Max(chi2-chiFree, 0)
 		kdof := len(f.lines) - 2
 		wf.BoltzmannDeltaChi2, wf.BoltzmannDOF = dchi, kdof
