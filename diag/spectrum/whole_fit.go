@@ -431,8 +431,13 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 	cov0 := make([]float64, np*np)
 	cholInverse(R, np, cov0, make([]float64, np))
 	red := chi2 / float64(dof)
-	scale := 1.0
-	if f.opt.GainElectronsPerCount <= 0 || red > 1+3*math.Sqrt(2/float64(dof)) {
+	// Without a noise model the σ come from the residuals (χ²ᵣ scales
+	// the covariance); with one, a fit worse than its noise (χ²ᵣ > 1: the
+	// model's own small inaccuracies show at high signal) widens the σ
+	// the same way, never narrows them (the Birge ratio, common practice,
+	// no source).
+	scale := math.Max(red, 1)
+	if f.opt.GainElectronsPerCount <= 0 {
 		scale = red
 	}
 	cov := make([]float64, np*np)
