@@ -385,3 +385,78 @@ func TestWholeFreeInstrumentAndGas(t *testing.T) {
 		t.Errorf("T_gas %.0f ± %.0f K (true %.0f)", tg.Value, tg.Unc, h.gasT)
 	}
 }
+
+// TestWholeScaleInvariant: the whole fit is invariant under a common
+// scale of the data (values near 1e±300 are fitted in power-of-two
+// normalised units): n_e and T_exc equal, areas and plot series scaled.
+func TestWholeScaleInvariant(t *testing.T) {
+	g := wgen{lo: 420, hi: 670, npx: 1200, uppers: []int{3, 4, 5}, texc: 6000, ne: 4.1e21, instG: 0.4, gasT: 800,
+		peakCounts: 20000, baseFrac: 0.02, gain: 2, read: 10}
+	sp, _, err := g.gen(rand.New(rand.NewPCG(71, 72)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	opt := Options{Model: ModelWhole, KeepWindows: true, Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.4, GasTemperatureK: 800}}
+	p := NewPipeline(4096)
+	run := func(scale float64) Result {
+		s := &Spectrum{Name: "s", WavelengthNM: sp.WavelengthNM, Counts: make([]float64, len(sp.Counts))}
+		for i, v := range sp.Counts {
+			s.Counts[i] = v * scale
+		}
+		r, err := p.Analyze(s, opt)
+		if err != nil {
+			t.Fatalf("scale %g: %v", scale, err)
+		}
+		if r.Whole == nil || r.Model != ModelWhole {
+			t.Fatalf("scale %g: no whole fit: %v", scale, r.Warnings)
+		}
+		if err := diag.CheckFinite(r); err != nil {
+			t.Fatalf("scale %g: %v", scale, err)
+		}
+		return r
+	}
+	ref := run(1)
+	for _, scale := range []float64{1e-300, 1e300} {
+		r := run(scale)
+		if math.Abs(*r.ElectronDensityM3 / *ref.ElectronDensityM3 - 1) > 1e-9 || math.Abs(*r.ExcitationTemperatureK / *ref.ExcitationTemperatureK - 1) > 1e-9 {
+			t.Errorf("scale %g: n_e %v T %v, unscaled %v %v", scale, *r.ElectronDensityM3, *r.ExcitationTemperatureK, *ref.ElectronDensityM3, *ref.ExcitationTemperatureK)
+		}
+		if got, want := r.Whole.Lines[0].Area/scale, ref.Whole.Lines[0].Area; math.Abs(got/want-1) > 1e-9 {
+			t.Errorf("scale %g: area/scale %v, unscaled %v", scale, got, want)
+		}
+		if got, want := r.Whole.Model[100]/scale, ref.Whole.Model[100]; math.Abs(got/want-1) > 1e-9 {
+			t.Errorf("scale %g: model/scale %v, unscaled %v", scale, got, want)
+		}
+	}
+}
+
+// TestWholeDensityScan: when the lines route gives no density (e.g. its
+// lines are undersampled), the whole fit starts from a scan in n_e (the
+// lines route's density is removed from the fit's input here) and still
+// recovers it within 3σ, as from the lines route's start.
+func TestWholeDensityScan(t *testing.T) {
+	g := wgen{lo: 375, hi: 700, npx: 2048, uppers: []int{3, 4, 5, 6, 7}, texc: 5800, ne: 8.3e21, instG: 0.3, gasT: 700,
+		peakCounts: 30000, baseFrac: 0.02, gain: 2, read: 10}
+	sp, _, err := g.gen(rand.New(rand.NewPCG(81, 82)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	opt := g.wopt(ModelWhole)
+	opt.MaxUpper = 7
+	p := NewPipeline(4096)
+	res, err := p.Analyze(sp, opt)
+	if err != nil || res.Whole == nil {
+		t.Fatalf("%v %v", err, res.Warnings)
+	}
+	in := p.lastWhole
+	in.lines.ElectronDensityM3 = nil
+	w, err := p.wholeFit(in, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ne, st := deref(w.ElectronDensityM3), deref(w.ElectronDensityUncStatM3)
+	t.Logf("n_e from the scan %.4g ± %.2g (stat), from the lines start %.4g, true %.4g", ne, st, *res.Whole.ElectronDensityM3, g.ne)
+	if !(math.Abs(ne-g.ne) <= 3*st) || math.Abs(ne / *res.Whole.ElectronDensityM3 - 1) > 1e-3 {
+		t.Errorf("n_e %.4g ± %.2g, true %.4g, from the lines start %.4g", ne, st, g.ne, *res.Whole.ElectronDensityM3)
+	}
+}
