@@ -628,7 +628,7 @@ func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
 		}
 	}
 	// Linear start: free areas and baseline at the starting shapes.
-	if err := f.evalLines(th, false); err != nil {
+	if err := f.evalLines(th); err != nil {
 		return err
 	}
 	areas, areaSig, _, ok := f.linearAreas()

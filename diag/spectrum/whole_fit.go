@@ -42,7 +42,7 @@ func (f *wholeFitter) areaOf(k int, th []float64) float64 {
 
 // evalLines evaluates every line's unit profile at th (and the kernel
 // derivative l.dg when the gas temperature or the instrument is free).
-func (f *wholeFitter) evalLines(th []float64, _ bool) error {
+func (f *wholeFitter) evalLines(th []float64) error {
 	for _, l := range f.lines {
 		g, tg := f.lineInst(l, th)
 		if f.par.iTg >= 0 || f.par.iIa >= 0 {
@@ -76,7 +76,7 @@ func (f *wholeFitter) evalLines(th []float64, _ bool) error {
 
 // eval computes the model and the Jacobian at th and returns χ².
 func (f *wholeFitter) eval(th []float64) (float64, error) {
-	if err := f.evalLines(th, true); err != nil {
+	if err := f.evalLines(th); err != nil {
 		return 0, err
 	}
 	return f.assemble(th)

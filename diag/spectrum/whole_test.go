@@ -460,3 +460,37 @@ func TestWholeDensityScan(t *testing.T) {
 		t.Errorf("n_e %.4g ± %.2g, true %.4g, from the lines start %.4g", ne, st, g.ne, *res.Whole.ElectronDensityM3)
 	}
 }
+
+// TestWholeEnergyUnits: in energy units the Boltzmann areas carry the
+// photon energy, I ∝ gA/λ·e^(−E/kT) (the convention of diag.FitBoltzmann).
+// A calibrated spectrum in energy units made that way gives T_exc within
+// 3σ; read as photon units it gives a different, wrong T_exc.
+func TestWholeEnergyUnits(t *testing.T) {
+	ha, _ := diag.Balmer(3, diag.Hydrogen)
+	scale := map[int]float64{}
+	for _, up := range []int{3, 4, 5, 6, 7} {
+		tr, _ := diag.Balmer(up, diag.Hydrogen)
+		scale[up] = ha.WavelengthVacNM / tr.WavelengthVacNM
+	}
+	g := wgen{lo: 375, hi: 700, npx: 2048, uppers: []int{3, 4, 5, 6, 7}, texc: 6100, ne: 3.9e21, instG: 0.5, gasT: 700,
+		peakCounts: 30000, baseFrac: 0.02, gain: 2, read: 10, areaScale: scale}
+	sp, _, err := g.gen(rand.New(rand.NewPCG(91, 92)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	temp := func(unit diag.IntensityUnit) (float64, float64) {
+		opt := Options{Model: ModelWhole, MaxUpper: 7, Calibrated: true, CalibratedUnit: unit,
+			Conditions: diag.Measurement{InstrumentGaussFWHMNM: g.instG, GasTemperatureK: g.gasT}}
+		res, err := NewPipeline(4096).Analyze(sp, opt)
+		if err != nil || res.Whole == nil || res.Whole.ExcitationTemperatureK == nil {
+			t.Fatalf("%v: %v %v", unit, err, res.Warnings)
+		}
+		return *res.Whole.ExcitationTemperatureK, *res.Whole.ExcitationTemperatureUncK
+	}
+	te, tu := temp(diag.EnergyUnits)
+	tp, _ := temp(diag.PhotonUnits)
+	t.Logf("energy units: T_exc %.0f ± %.0f K (true %.0f); read as photon units %.0f K", te, tu, g.texc, tp)
+	if !(math.Abs(te-g.texc) <= 3*tu) || !(math.Abs(tp-g.texc) > 3*tu) {
+		t.Errorf("energy units T_exc %.0f ± %.0f, photon units %.0f, true %.0f", te, tu, tp, g.texc)
+	}
+}
