@@ -328,6 +328,12 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 		opt.MaxUpper = diag.MaxLevel
 	}
 
+	if !ValidModel(opt.Model) {
+		return res, fail(src, "unknown analysis route %q (want %q or %q)", opt.Model, ModelLines, ModelWhole)
+	}
+	if !ValidWholeAreas(opt.WholeAreas) {
+		return res, fail(src, "unknown area mode %q of the whole-spectrum fit (want %q or %q)", opt.WholeAreas, WholeAreasBoltzmann, WholeAreasFree)
+	}
 	if opt.Calibrated && opt.Response != nil {
 		return res, fail(src, "the spectrum is declared response-corrected and a response calibration is given too: give one or the other")
 	}

@@ -494,3 +494,20 @@ func TestWholeEnergyUnits(t *testing.T) {
 		t.Errorf("energy units T_exc %.0f ± %.0f, photon units %.0f, true %.0f", te, tu, tp, g.texc)
 	}
 }
+
+// TestWholeOptionsChecked: an unknown route or area mode is an error
+// naming it, not a silent default.
+func TestWholeOptionsChecked(t *testing.T) {
+	x := linspace(480, 492, 600)
+	y := make([]float64, len(x))
+	for i := range y {
+		y[i] = 100
+	}
+	sp := &Spectrum{Name: "o", WavelengthNM: x, Counts: y}
+	for _, opt := range []Options{{Model: "everything"}, {Model: ModelWhole, WholeAreas: "tied"}} {
+		_, err := NewPipeline(1024).Analyze(sp, opt)
+		if err == nil || !(strings.Contains(err.Error(), "everything") || strings.Contains(err.Error(), "tied")) {
+			t.Errorf("%+v: error %v", opt, err)
+		}
+	}
+}

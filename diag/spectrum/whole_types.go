@@ -29,6 +29,12 @@ const (
 	WholeAreasFree = "free"
 )
 
+// ValidWholeAreas reports whether s names an area mode of the
+// whole-spectrum fit ("" means WholeAreasBoltzmann).
+func ValidWholeAreas(s string) bool {
+	return s == "" || s == WholeAreasBoltzmann || s == WholeAreasFree
+}
+
 // FlagWholeDisagrees is raised when the whole-spectrum fit and the
 // line-by-line route disagree beyond their uncertainties.
 const FlagWholeDisagrees = "whole_lines_disagree"
