@@ -224,6 +224,17 @@ type wholeFitter struct {
 	wbuf  []float64
 	mbuf  []float64
 	notes []string
+	// masked are wavelength intervals left out (saturated lines).
+	masked [][2]float64
+}
+
+func (f *wholeFitter) isMasked(lam float64) bool {
+	for _, m := range f.masked {
+		if lam >= m[0] && lam <= m[1] {
+			return true
+		}
+	}
+	return false
 }
 
 // wholeInput is what the whole fit needs from the lines route.
@@ -431,6 +442,11 @@ func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
 	for i := range in.cands {
 		c := &in.cands[i]
 		if c.search.Status == "saturated" {
+			// Its unsaturated wings are not modelled: their pixels are
+			// left out (the line's window, at least ±10 of its widths).
+			hw := math.Max(10*c.width, float64(c.hi-c.lo)/2*pixelWidth(x, min(max(index(x, c.center), 0), n-1)))
+			f.masked = append(f.masked, [2]float64{c.center - hw, c.center + hw})
+			f.notes = append(f.notes, fmt.Sprintf("%s is saturated: its window %.2f–%.2f nm is left out of the fit", c.t.Name(), c.center-hw, c.center+hw))
 			continue
 		}
 		ic := min(max(index(x, c.center), 0), n-1)
@@ -523,7 +539,7 @@ func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
 	}
 	lo = max(lo, 0)
 	for i := lo; i < hi; i++ {
-		if in.sat[i] || math.IsNaN(in.y[i]) || !(in.sig[i] > 0) {
+		if in.sat[i] || math.IsNaN(in.y[i]) || !(in.sig[i] > 0) || f.isMasked(x[i]) {
 			continue
 		}
 		ea, eb := pixelEdgesAt(x, i)

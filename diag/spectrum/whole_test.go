@@ -511,3 +511,44 @@ func TestWholeOptionsChecked(t *testing.T) {
 		}
 	}
 }
+
+// TestWholeSaturatedLine: a saturated Hα is left out with its wings (not
+// modelled, so not fitted either); the other lines still give n_e and
+// T_exc within 3σ.
+func TestWholeSaturatedLine(t *testing.T) {
+	g := wgen{lo: 375, hi: 700, npx: 2048, uppers: []int{3, 4, 5, 6, 7}, texc: 5600, ne: 4.7e21, instG: 0.5, gasT: 700,
+		peakCounts: 60000, baseFrac: 0.01, gain: 2, read: 10}
+	sp, _, err := g.gen(rand.New(rand.NewPCG(101, 102)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	const ceiling = 30000
+	for i, v := range sp.Counts {
+		sp.Counts[i] = math.Min(v, ceiling)
+	}
+	opt := g.wopt(ModelWhole)
+	opt.MaxUpper = 7
+	opt.SaturationCounts = ceiling
+	res, err := NewPipeline(4096).Analyze(sp, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	w := res.Whole
+	if w == nil {
+		t.Fatalf("no whole fit: %v", res.Warnings)
+	}
+	for _, l := range w.Lines {
+		if l.Upper == 3 {
+			t.Error("saturated Hα is in the model")
+		}
+	}
+	if !strings.Contains(w.DopplerNote, "saturated") || w.RangeNM[1] > 640 {
+		t.Errorf("range %v, note %q", w.RangeNM, w.DopplerNote)
+	}
+	ne, neU := deref(w.ElectronDensityM3), deref(w.ElectronDensityUncStatM3)
+	te, teU := deref(w.ExcitationTemperatureK), deref(w.ExcitationTemperatureUncStatK)
+	t.Logf("n_e %.4g ± %.2g (true %.4g), T_exc %.0f ± %.0f (true %.0f)", ne, neU, g.ne, te, teU, g.texc)
+	if !(math.Abs(ne-g.ne) <= 3*neU) || !(math.Abs(te-g.texc) <= 3*teU) {
+		t.Errorf("n_e %.4g ± %.2g (true %.4g), T_exc %.0f ± %.0f (true %.0f)", ne, neU, g.ne, te, teU, g.texc)
+	}
+}
