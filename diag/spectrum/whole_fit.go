@@ -471,6 +471,32 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 	if nSignal == 0 {
 		return nil, errors.New("no line carries a significant signal in the whole model")
 	}
+	// "Two or more members carry signal jointly": two lines at ≥ 3σ each,
+	// or the strongest at ≥ 3σ and the others together at ≥ 3σ — their
+	// joint amplitude along the fitted Boltzmann areas t_k, from the
+	// free areas A_k ± σ_k (correlations between the free areas left
+	// out): z = Σ t_k A_k/σ_k² / √(Σ t_k²/σ_k²).
+	jointTexc := nSignal >= 2
+	if !jointTexc && !pr.free {
+		strong := 0
+		for k := range f.lines {
+			if f.lines[k].sig > f.lines[strong].sig {
+				strong = k
+			}
+		}
+		var num, den float64
+		for k := range f.lines {
+			if k == strong || !(linSig[k] > 0) {
+				continue
+			}
+			tk := f.areaOf(k, th)
+			num += tk * linAreas[k] / (linSig[k] * linSig[k])
+			den += tk * tk / (linSig[k] * linSig[k])
+		}
+		if den > 0 && num/math.Sqrt(den) >= wholeSignalSigma {
+			jointTexc = true
+		}
+	}
 	// Boltzmann test: the tied areas against free areas at the same
 	// shapes (χ² of the free-area solve is at the fitted n_e and offset,
 	// so Δχ² is conservative), k − 2 degrees of freedom for k lines.
@@ -634,7 +660,7 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 				tExc, tStat, tOK = bz.TemperatureK, bz.TemperatureUncK, true
 			}
 		}
-	} else if beta := th[pr.iB]; beta > 0 && nSignal >= 2 {
+	} else if beta := th[pr.iB]; beta > 0 && jointTexc {
 		tExc = 1 / (kB * beta)
 		// Scaled by the Birge ratio of the Boltzmann test when the tie is
 		// rejected (as the lines route scales a scattered Boltzmann plot).

@@ -552,3 +552,47 @@ func TestWholeSaturatedLine(t *testing.T) {
 		t.Errorf("n_e %.4g ± %.2g (true %.4g), T_exc %.0f ± %.0f (true %.0f)", ne, neU, g.ne, te, teU, g.texc)
 	}
 }
+
+// TestWholeWeakLinesGiveTexc: at a low signal where the line search
+// detects only Hα (Hβ's peak is under 5× the noise, so the lines route
+// has no T_exc), the whole fit finds Hβ at ≥ 3σ in its own area and
+// reports T_exc (within 3σ of the truth); at a quarter of that signal
+// Hβ carries none and no T_exc is given.
+func TestWholeWeakLinesGiveTexc(t *testing.T) {
+	for _, tc := range []struct {
+		peak float64
+		want bool
+	}{{400, true}, {100, false}} {
+		g := wgen{lo: 375, hi: 700, npx: 2048, uppers: []int{3, 4, 5, 6, 7}, texc: 4000, ne: 2.1e21, instG: 0.5, gasT: 700,
+			peakCounts: tc.peak, baseFrac: 0.05, gain: 2, read: 10}
+		sp, _, err := g.gen(rand.New(rand.NewPCG(5, 5)))
+		if err != nil {
+			t.Fatal(err)
+		}
+		opt := g.wopt(ModelWhole)
+		opt.MaxUpper = 7
+		res, err := NewPipeline(4096).Analyze(sp, opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		w := res.Whole
+		if w == nil {
+			t.Fatalf("peak %g: no whole fit: %v", tc.peak, res.Warnings)
+		}
+		if w.LinesExcitationTemperatureK != nil {
+			t.Errorf("peak %g: the lines route has T_exc %.0f (the case needs it without)", tc.peak, *w.LinesExcitationTemperatureK)
+		}
+		got := w.ExcitationTemperatureK != nil
+		if got != tc.want {
+			t.Errorf("peak %g: T_exc given %v, want %v", tc.peak, got, tc.want)
+			continue
+		}
+		if got {
+			te, u := *w.ExcitationTemperatureK, *w.ExcitationTemperatureUncK
+			t.Logf("peak %g: T_exc %.0f ± %.0f (true %.0f)", tc.peak, te, u, g.texc)
+			if !(math.Abs(te-g.texc) <= 3*u) {
+				t.Errorf("peak %g: T_exc %.0f ± %.0f, true %.0f", tc.peak, te, u, g.texc)
+			}
+		}
+	}
+}
