@@ -423,7 +423,16 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 	A := make([]float64, np*np)
 	g := make([]float64, np)
 	f.normal(A, g)
-	// Parameters the data do not touch (a line without pixels) are held.
+	th := f.th
+	// At the end of the shapes' density range n_e is a limit: it is held
+	// (its row and column taken out) and not reported.
+	atBound := th[pr.iNe] <= f.lnLo+1e-6 || th[pr.iNe] >= f.lnHi-1e-6
+	if atBound {
+		for a := range np {
+			A[a*np+pr.iNe], A[pr.iNe*np+a] = 0, 0
+		}
+		A[pr.iNe*np+pr.iNe] = 1
+	}
 	R := append([]float64(nil), A...)
 	if !cholesky(R, np, 1e-15) {
 		return nil, errors.New("the fit's curvature matrix is singular (a parameter is not determined by the data)")
@@ -445,7 +454,6 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 		cov[i] = cov0[i] * scale
 	}
 	sd := func(i int) float64 { return math.Sqrt(math.Max(cov[i*np+i], 0)) }
-	th := f.th
 	unsc := func(v float64) float64 { return math.Ldexp(v, f.scale) }
 
 	wf := &WholeFit{Areas: WholeAreasBoltzmann, RangeNM: [2]float64{f.x[0], f.x[n-1]}, Pixels: n,
@@ -560,7 +568,11 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 			return math.Sqrt(math.Max(v, 0))
 		}
 	}
-	add("n_e", "Electron density", "m⁻³", ne, ne*sd(pr.iNe), false)
+	if atBound {
+		add("n_e", "Electron density (a limit: the end of the line shapes' range)", "m⁻³", ne, 0, false)
+	} else {
+		add("n_e", "Electron density", "m⁻³", ne, ne*sd(pr.iNe), false)
+	}
 	add("offset", "Wavelength offset", "nm", th[pr.iOff], sd(pr.iOff), false)
 	if pr.iTg >= 0 {
 		add("T_gas", "Gas temperature", "K", th[pr.iTg], sd(pr.iTg), false)
@@ -677,7 +689,12 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 
 	// n_e.
 	neStat := ne * sd(pr.iNe)
-	if finite(neStat) && neStat > 0 {
+	if atBound {
+		// The fit ran into the end of the shapes' density range: its n_e
+		// is a limit, not a measurement, and is not reported.
+		wf.DopplerNote += fmt.Sprintf("; n_e ran to the end of the line shapes' range (%.3g m⁻³) and is not reported", ne)
+	}
+	if finite(neStat) && neStat > 0 && !atBound {
 		parts := f.densitySys(ne, cov0, teGiven)
 		var sys float64
 		for _, pt := range parts {

@@ -596,3 +596,31 @@ func TestWholeWeakLinesGiveTexc(t *testing.T) {
 		}
 	}
 }
+
+// TestWholeDensityAtRangeEnd: a Hγ line (no default relation, so no
+// Voigt fallback) wider than the SH99 tables reach at the electron
+// temperature given (1e22 m⁻³ at 5000 K; the line is a Voigt with the
+// SH99 Hγ width at 3e22 m⁻³ and 1e4 K, from Synthesize) drives the fit to
+// the end of the shapes' range: n_e is then a limit and not reported,
+// and the note says so.
+func TestWholeDensityAtRangeEnd(t *testing.T) {
+	x := linspace(410, 460, 1500)
+	y, _, err := Synthesize(SynthConfig{WavelengthNM: x, Uppers: []int{5}, ExcitationTemperatureK: 7000,
+		ElectronDensityM3: 3e22, GasTemperatureK: 800, InstrumentFWHMNM: 0.1, HalphaArea: 2e6, BaselinePerNM: 100,
+		NoisePerNM: 20, Rand: rand.New(rand.NewPCG(111, 112))})
+	if err != nil {
+		t.Fatal(err)
+	}
+	opt := Options{Model: ModelWhole, Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.1, GasTemperatureK: 800, ElectronTemperatureK: 5000}}
+	res, err := NewPipeline(4096).Analyze(&Spectrum{Name: "r", WavelengthNM: x, Counts: y}, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	w := res.Whole
+	if w == nil {
+		t.Fatalf("no whole fit: %v", res.Warnings)
+	}
+	if w.ElectronDensityM3 != nil || res.ElectronDensityM3 != nil || !strings.Contains(w.DopplerNote, "end of the line shapes' range") {
+		t.Errorf("n_e %v (top level %v), note %q", deref(w.ElectronDensityM3), deref(res.ElectronDensityM3), w.DopplerNote)
+	}
+}
