@@ -654,6 +654,10 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 		wf.DopplerNote += "; " + s
 	}
 
+	// Systematic parts (first-order responses of the fit; also when n_e
+	// is at its range end, for T_exc).
+	neParts, tParts := f.densitySys(ne, cov0, teGiven)
+
 	// T_exc.
 	kB := diag.BoltzmannEVPerK
 	var tExc, tStat float64
@@ -682,9 +686,23 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 	if tOK {
 		wf.ExcitationTemperatureK = fptr(tExc)
 		wf.ExcitationTemperatureUncStatK = fptr(tStat)
-		sys := f.texcResponseSys(th, areaCov, unsc)
+		resp := f.texcResponseSys(th, areaCov, unsc)
+		if resp > 0 {
+			tParts = append(tParts, diag.UncPart{Name: "response calibration", Sigma: resp})
+		}
+		if pr.free {
+			tParts = tParts[:0] // the first-order responses are of β
+			if resp > 0 {
+				tParts = append(tParts, diag.UncPart{Name: "response calibration", Sigma: resp})
+			}
+		}
+		var sys float64
+		for _, pt := range tParts {
+			sys = math.Hypot(sys, pt.Sigma)
+		}
 		wf.ExcitationTemperatureUncSysK = fptr(sys)
 		wf.ExcitationTemperatureUncK = fptr(math.Hypot(tStat, sys))
+		wf.ExcitationTemperatureUncParts = tParts
 	}
 
 	// n_e.
@@ -695,7 +713,7 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 		wf.DopplerNote += fmt.Sprintf("; n_e ran to the end of the line shapes' range (%.3g m⁻³) and is not reported", ne)
 	}
 	if finite(neStat) && neStat > 0 && !atBound {
-		parts := f.densitySys(ne, cov0, teGiven)
+		parts := neParts
 		var sys float64
 		for _, pt := range parts {
 			sys = math.Hypot(sys, pt.Sigma)
@@ -798,26 +816,46 @@ func (f *wholeFitter) texcResponseSys(th []float64, areaSig func(int) float64, u
 // electron temperature), and the SH99 tables' accuracy. The state at the
 // solution (the lines' pixel means, the model and the Jacobian) is left
 // as it was.
-func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) []diag.UncPart {
+//
+// The same responses of β (Boltzmann mode) give the parts of T_exc,
+// tParts (K): the brief's minimum for T_exc is the response calibration
+// (texcResponseSys), but a wrong instrument width or T_e moves the areas
+// too, and leaving that out made T_exc's total σ cover 33 % instead of
+// 68 % on spectra whose instrument width was off by its stated σ.
+func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) (parts, tParts []diag.UncPart) {
 	pr := f.par
 	np := pr.n
 	th := f.th
-	var parts []diag.UncPart
-	add := func(name string, v float64) {
-		if v > 0 && finite(v) {
-			parts = append(parts, diag.UncPart{Name: name, Sigma: v})
+	boltz := !pr.free && th[pr.iB] > 0
+	tPer := 0.0 // K per unit β
+	if boltz {
+		tPer = 1 / (diag.BoltzmannEVPerK * th[pr.iB] * th[pr.iB])
+	}
+	add := func(name string, v [2]float64) {
+		if n := ne * v[0]; n > 0 && finite(n) {
+			parts = append(parts, diag.UncPart{Name: name, Sigma: n})
+		}
+		if t := tPer * v[1]; boltz && t > 0 && finite(t) {
+			tParts = append(tParts, diag.UncPart{Name: name, Sigma: t})
 		}
 	}
-	// Row of (JᵀWJ)⁻¹ of ln n_e, times JᵀW: the sensitivity of ln n_e to
-	// a model change at each pixel.
-	sens := grow(&f.sens, len(f.x))
+	half := func(a, b [2]float64) [2]float64 { return [2]float64{0.5 * (a[0] + b[0]), 0.5 * (a[1] + b[1])} }
+	// Rows of (JᵀWJ)⁻¹ of ln n_e and β, times JᵀW: the sensitivity of
+	// each to a model change at each pixel.
+	sens := grow(&f.sens, 2*len(f.x))
+	sensB := sens[len(f.x):]
+	sens = sens[:len(f.x)]
 	for i := range f.x {
 		row := f.jac[i*np : (i+1)*np]
-		var v float64
+		var v, vb float64
 		for b, j := range row {
 			v += cov0[pr.iNe*np+b] * j
+			if boltz {
+				vb += cov0[pr.iB*np+b] * j
+			}
 		}
-		sens[i] = v / (f.s[i] * f.s[i])
+		w := 1 / (f.s[i] * f.s[i])
+		sens[i], sensB[i] = v*w, vb*w
 	}
 	// Saved pixel means of every line at the solution.
 	saved := make([][]float64, len(f.lines))
@@ -828,17 +866,20 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) []dia
 		savedDu[k] = append([]float64(nil), l.du...)
 		savedDn[k] = append([]float64(nil), l.dn...)
 	}
-	// shiftFor returns |δ ln n_e| from the lines' current u (changed by
-	// the caller) against the saved ones, and restores nothing.
-	shiftFor := func() float64 {
-		var d float64
+	// shiftFor returns |δ ln n_e| and |δβ| from the lines' current u
+	// (changed by the caller) against the saved ones, and restores
+	// nothing.
+	shiftFor := func() [2]float64 {
+		var d, db float64
 		for k, l := range f.lines {
 			a := f.areaOf(k, th)
 			for i := l.plo; i < l.phi; i++ {
-				d += sens[i] * a * (l.u[i-l.plo] - saved[k][i-l.plo])
+				dm := a * (l.u[i-l.plo] - saved[k][i-l.plo])
+				d += sens[i] * dm
+				db += sensB[i] * dm
 			}
 		}
-		return math.Abs(d)
+		return [2]float64{math.Abs(d), math.Abs(db)}
 	}
 	restore := func() {
 		for k, l := range f.lines {
@@ -846,7 +887,7 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) []dia
 		}
 	}
 	// Kernel-only changes: the masses at the solution are kept.
-	kernel := func(dInst, dGas float64) float64 {
+	kernel := func(dInst, dGas float64) [2]float64 {
 		for _, l := range f.lines {
 			g, tg := f.lineInst(l, th)
 			g += dInst
@@ -864,10 +905,10 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) []dia
 		return d
 	}
 	if s := f.m.InstrumentFWHMUncNM; s > 0 && pr.iIa < 0 {
-		add("instrument width", ne*0.5*(kernel(s, 0)+kernel(-math.Min(s, f.minInst()), 0)))
+		add("instrument width", half(kernel(s, 0), kernel(-math.Min(s, f.minInst()), 0)))
 	}
 	if s := f.m.GasTemperatureUncK; s > 0 && pr.iTg < 0 {
-		add("gas temperature", ne*0.5*(kernel(0, s)+kernel(0, -math.Min(s, f.gasT-diag.MinGasTemperatureK))))
+		add("gas temperature", half(kernel(0, s), kernel(0, -math.Min(s, f.gasT-diag.MinGasTemperatureK))))
 	}
 	// Doppler handling: a clamped line is too wide by the variance gap;
 	// the model change that would remove it, extrapolated linearly in
@@ -881,7 +922,7 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) []dia
 		}
 	}
 	if clamped {
-		add("Doppler handling (tables' Doppler wider than instrument ⊕ gas Doppler)", ne*shiftFor())
+		add("Doppler handling (tables' Doppler wider than instrument ⊕ gas Doppler)", shiftFor())
 		restore()
 	}
 	// Electron temperature of the tables (the lines re-evaluated).
@@ -889,14 +930,14 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) []dia
 	if teGiven {
 		rel = wholeTeRelGiven
 	}
-	teShift := func(fac float64) (float64, bool) {
+	teShift := func(fac float64) ([2]float64, bool) {
 		save := f.te
 		f.te *= fac
 		defer func() { f.te = save }()
 		for _, l := range f.lines {
 			g, tg := f.lineInst(l, th)
 			if err := f.evalLine(l, th[pr.iNe], th[pr.iOff], g, tg); err != nil {
-				return 0, false
+				return [2]float64{}, false
 			}
 		}
 		return shiftFor(), true
@@ -905,11 +946,11 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) []dia
 	d2, ok2 := teShift(math.Exp(-rel))
 	switch {
 	case ok1 && ok2:
-		add("electron temperature of the tables", ne*0.5*(d1+d2))
+		add("electron temperature of the tables", half(d1, d2))
 	case ok1:
-		add("electron temperature of the tables", ne*d1)
+		add("electron temperature of the tables", d1)
 	case ok2:
-		add("electron temperature of the tables", ne*d2)
+		add("electron temperature of the tables", d2)
 	}
 	// Back to the solution: the pixel means and their derivatives (the
 	// grid's masses are rebuilt by the next evaluation).
@@ -927,9 +968,9 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) []dia
 		if !f.anySH() {
 			name = "Stark relation accuracy (widths ±5 %)"
 		}
-		add(name, ne*wholeSH99WidthRel/p)
+		add(name, [2]float64{wholeSH99WidthRel / p, 0})
 	}
-	return parts
+	return parts, tParts
 }
 
 // minInst is the smallest instrument FWHM of the lines.

@@ -110,10 +110,15 @@ type WholeFit struct {
 	ExcitationTemperatureUncStatK *float64 `json:"excitation_temperature_unc_stat_K"`
 	ExcitationTemperatureUncSysK  *float64 `json:"excitation_temperature_unc_sys_K"`
 	ExcitationTemperatureUncK     *float64 `json:"excitation_temperature_unc_K"`
-	ElectronDensityM3             *float64 `json:"electron_density_m3"`
-	ElectronDensityUncStatM3      *float64 `json:"electron_density_unc_stat_m3"`
-	ElectronDensityUncSysM3       *float64 `json:"electron_density_unc_sys_m3"`
-	ElectronDensityUncM3          *float64 `json:"electron_density_unc_m3"`
+	// ExcitationTemperatureUncParts are the parts of the systematic σ of
+	// T_exc, K: the response calibration, and in Boltzmann mode the same
+	// inputs as for n_e (instrument width, gas temperature, T_e of the
+	// tables, Doppler handling). (Added by the whole-fit work.)
+	ExcitationTemperatureUncParts []diag.UncPart `json:"excitation_temperature_unc_sys_parts,omitempty"`
+	ElectronDensityM3             *float64       `json:"electron_density_m3"`
+	ElectronDensityUncStatM3      *float64       `json:"electron_density_unc_stat_m3"`
+	ElectronDensityUncSysM3       *float64       `json:"electron_density_unc_sys_m3"`
+	ElectronDensityUncM3          *float64       `json:"electron_density_unc_m3"`
 	// ElectronDensityUncParts are the parts of the systematic σ of n_e,
 	// m⁻³ (added by the whole-fit work).
 	ElectronDensityUncParts []diag.UncPart `json:"electron_density_unc_sys_parts,omitempty"`
