@@ -21,21 +21,25 @@ package spectrum
 //     WholeFit.DopplerNote and carried as a systematic σ of n_e. Outside
 //     the tables a line is a Voigt profile whose Lorentzian is the Stark
 //     FWHM of the line's default relation plus the same non-Stark
-//     Lorentzians (Shape "Voigt"); a line with neither is left out.
+//     Lorentzians (Shape "Voigt"); a weak high member with no relation
+//     keeps its SH99 shape held at the tables' edge, and a line the
+//     tables do not cover at T_e at all is left out.
 //   - ⟨⟩_i: the mean over pixel i between its edge midpoints, exact for
 //     the model on its fine grid (below).
 //   - δ: one wavelength offset; B: a Legendre polynomial in scaled λ over
 //     the fitted range (wholeBaselineOrder).
 //
-// Each line is built on its own uniform fine grid (step ≪ pixel and ≪
-// the line width): the exact bin masses of the SH99 shape from its
-// cumulative integral (sh99.Shape), as densities convolved with the
-// sampled Gaussian ⊗ Lorentzian kernel, summed into the cumulative of the
-// broadened profile; a pixel's mean is the difference of that cumulative
-// at its edges over the pixel width. Beyond the grid (far wings, where
-// the kernel no longer matters) the shape's own cumulative is used, to
-// wholeWingReach grid half-widths; what lies beyond that (below 1e-4 of
-// the peak for every line) is a smooth slope the baseline takes.
+// Each line is built on its own uniform fine grid (step 1/12 of the
+// line's FWHM and 1/4 of its base shape's): the exact bin masses of the
+// SH99 shape from its cumulative integral (sh99.Shape) convolved with
+// the sampled Gaussian ⊗ Lorentzian kernel and summed into the
+// cumulative of the broadened profile (cubic Hermite between the bin
+// edges, with the broadened densities as slopes); a pixel's mean is the
+// difference of that cumulative at its edges over the pixel width, so
+// pixels may be finer or coarser than the grid. Beyond the grid (far
+// wings, where the kernel no longer matters) the shape's own cumulative
+// is used, to wholeWingReach grid half-widths; what lies beyond that
+// (about 1e-4 of the peak) is a smooth slope the baseline takes.
 //
 // The fit is Levenberg–Marquardt on all parameters with analytic
 // derivatives for the areas, T_exc (as β = 1/kT), baseline and offset
@@ -107,10 +111,6 @@ const (
 	wholeMaxBins = 1200
 	// wholeWingStep is the ratio of successive wing nodes.
 	wholeWingStep = 1.15
-	// wholeRangeMargin: a line is given its SH99 shape when the tables
-	// cover the starting density within this factor either way (else the
-	// Voigt of its default relation, or it is left out).
-	wholeRangeMargin = 3
 	// wholeMaxIter bounds the Levenberg–Marquardt iterations.
 	wholeMaxIter = 60
 )
