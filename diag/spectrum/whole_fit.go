@@ -729,6 +729,9 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 		wf.GasTemperatureUncK = fptr(sd(pr.iTg))
 	}
 	wf.offTie = offTie
+	if !conv {
+		wf.DopplerNote += fmt.Sprintf("; the fit stopped after %d iterations without meeting its convergence test (χ² still falling by more than 1e-4 per step)", iters)
+	}
 	if f.opt.KeepWindows {
 		wf.WavelengthNM = append(PlotFloats(nil), f.x...)
 		wf.Data = make(PlotFloats, n)
