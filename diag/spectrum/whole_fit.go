@@ -729,6 +729,9 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 		wf.GasTemperatureUncK = fptr(sd(pr.iTg))
 	}
 	wf.offTie = offTie
+	if pr.iTg >= 0 && pr.iIa >= 0 {
+		wf.DopplerNote += "; the gas temperature and the instrument width were both free: both are Gaussian widths and nearly degenerate (see their correlation), so fix one of them for a usable value of the other"
+	}
 	if !conv {
 		wf.DopplerNote += fmt.Sprintf("; the fit stopped after %d iterations without meeting its convergence test (χ² still falling by more than 1e-4 per step)", iters)
 	}
