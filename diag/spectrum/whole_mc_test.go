@@ -30,7 +30,7 @@ type mcStats struct {
 
 var mcVerbose = false
 
-func median(v []float64) float64 {
+func medianOrNaN(v []float64) float64 {
 	if len(v) == 0 {
 		return math.NaN()
 	}
@@ -96,14 +96,14 @@ func runFamily(t testing.TB, fam mcFamily, n int, seed uint64) mcStats {
 		}
 	}
 	t.Logf("%s: %d fitted, %d failed; median |Δn_e|/n_e whole %.4f lines %.4f; median |ΔT|/T whole %.4f lines %.4f (%d with T); 1σ coverage n_e stat %.2f total %.2f, T_exc stat %.2f total %.2f",
-		fam.name, st.n, st.failed, median(st.neWhole), median(st.neLines), median(st.tWhole), median(st.tLn), st.nT,
+		fam.name, st.n, st.failed, medianOrNaN(st.neWhole), medianOrNaN(st.neLines), medianOrNaN(st.tWhole), medianOrNaN(st.tLn), st.nT,
 		float64(st.covNeStat)/float64(st.n), float64(st.covNeTot)/float64(st.n),
 		float64(st.covTStat)/float64(max(st.nT, 1)), float64(st.covTTot)/float64(max(st.nT, 1)))
 	var mz float64
 	for _, z := range st.zNe {
 		mz += z / float64(len(st.zNe))
 	}
-	t.Logf("%s: n_e error/σ_stat mean %.2f, median |z| %.2f (0.67 for a normal); disagreement flag on %d", fam.name, mz, median(absAll(st.zNe)), st.flagged)
+	t.Logf("%s: n_e error/σ_stat mean %.2f, median |z| %.2f (0.67 for a normal); disagreement flag on %d", fam.name, mz, medianOrNaN(absAll(st.zNe)), st.flagged)
 	return st
 }
 
@@ -183,7 +183,7 @@ func TestWholeMonteCarlo(t *testing.T) {
 		if st.covNeTot < st.covNeStat {
 			t.Errorf("%s: total coverage below statistical", fam.name)
 		}
-		if mw, ml := median(st.neWhole), median(st.neLines); !(mw < ml) {
+		if mw, ml := medianOrNaN(st.neWhole), medianOrNaN(st.neLines); !(mw < ml) {
 			t.Errorf("%s: median n_e error whole %.3f not below lines %.3f", fam.name, mw, ml)
 		}
 		if fam.wantTexc {
