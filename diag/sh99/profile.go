@@ -54,15 +54,19 @@ func (l *Line) prepare(neM3, tK float64) (prepared, error) {
 	if err != nil {
 		return prepared{}, err
 	}
+	nodes, err := l.profiles()
+	if err != nil {
+		return prepared{}, err
+	}
 	var lW float64
 	c.each(func(j, k int, w float64) { lW += w * g[j][k] })
 	var p prepared
 	c.each(func(j, k int, w float64) {
-		p.node[p.n] = l.nodes[j][k]
+		p.node[p.n] = nodes[j][k]
 		p.wgt[p.n] = w
 		p.scale[p.n] = math.Exp(g[j][k] - lW)
 		p.xnm[p.n] = l.xPerNM[j]
-		p.norm[p.n] = 0.5 / l.nodes[j][k].half
+		p.norm[p.n] = 0.5 / nodes[j][k].half
 		p.n++
 	})
 	return p, nil
