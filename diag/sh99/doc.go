@@ -10,8 +10,8 @@
 // The package is pure: the tables are embedded (data/, see
 // data/PROVENANCE.md) in a generated form checked bit for bit against the
 // provenance JSON (line_table.go, data/sh99-profiles.bin, stark_table.go);
-// node profiles are prepared on first use; nothing is read from disk at
-// run time. It imports nothing of glowlog's.
+// each node profile is prepared on its first use; nothing is read from
+// disk at run time. It imports nothing of glowlog's.
 //
 // # The tables
 //

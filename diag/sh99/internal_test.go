@@ -403,3 +403,75 @@ func TestInterpolationLeaveOneOut(t *testing.T) {
 	}
 	t.Logf("leave-one-out: widths within %.2f %%, profiles within %.2f %% of the peak", 100*worstW, 100*worstP)
 }
+
+// TestNodesPreparedOnDemand: a profile evaluation prepares only the nodes
+// around it; concurrent first uses give the sequential values.
+func TestNodesPreparedOnDemand(t *testing.T) {
+	s, err := decode()
+	if err != nil {
+		t.Fatal(err)
+	}
+	l := mustLine(t, s, 4)
+	prepared := func() int {
+		n := 0
+		for j := range l.nodeAt {
+			for k := range l.nodeAt[j] {
+				if l.nodeAt[j][k].Load() != nil {
+					n++
+				}
+			}
+		}
+		return n
+	}
+	if n := prepared(); n != 0 {
+		t.Fatalf("%d nodes prepared before any profile", n)
+	}
+	const ne, tk = 1e22, 1e4
+	done := make(chan float64)
+	for range 8 {
+		go func() {
+			v, err := l.Profile(0.01, ne, tk)
+			if err != nil {
+				t.Error(err)
+			}
+			done <- v
+		}()
+	}
+	var vs []float64
+	for range 8 {
+		vs = append(vs, <-done)
+	}
+	if n := prepared(); n < 1 || n > 4 {
+		t.Errorf("%d nodes prepared for one (n_e, T), want the ≤ 4 corners", n)
+	}
+	ref, err := Balmer(4)
+	if err != nil {
+		t.Fatal(err)
+	}
+	want, err := ref.Profile(0.01, ne, tk)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, v := range vs {
+		if math.Float64bits(v) != math.Float64bits(want) {
+			t.Fatalf("concurrent first use gave %v, want %v", v, want)
+		}
+	}
+}
+
+// BenchmarkFirstProfileHbeta measures the first profile evaluation of Hβ
+// in a process: the corner nodes are unpacked and prepared.
+func BenchmarkFirstProfileHbeta(b *testing.B) {
+	for b.Loop() {
+		b.StopTimer()
+		s, err := decode()
+		if err != nil {
+			b.Fatal(err)
+		}
+		l := mustLine(b, s, 4)
+		b.StartTimer()
+		if _, err := l.Profile(0.01, 1e22, 1e4); err != nil {
+			b.Fatal(err)
+		}
+	}
+}

@@ -6,6 +6,7 @@ import (
 	"math"
 	"sort"
 	"sync"
+	"sync/atomic"
 )
 
 // WidthKind names a width of a line profile.
@@ -57,12 +58,14 @@ type Line struct {
 	ne, t     []float64 // grid values
 	// tab[j][k] is true where the tables hold a profile at ne[j], t[k].
 	tab [][]bool
-	// nodes[j][k] is the profile at ne[j], t[k]; nil where not tabulated.
-	// Prepared on first use by nodesFn (see profiles).
-	nodes     [][]*nodeProfile
-	nodesErr  error
-	nodesFn   func() ([][]*nodeProfile, error)
-	nodesOnce sync.Once
+	// nodeAt[j][k] holds the profile at ne[j], t[k] once prepared (see
+	// node): each is unpacked from packed (its values at nodeOff[j][k])
+	// on its first use, so that a profile evaluation prepares only the
+	// nodes around it.
+	nodeAt  [][]atomic.Pointer[nodeProfile]
+	nodeOff [][]int
+	packed  string
+	x       []float64 // reduced detuning grid of the node profiles
 	// xPerNM[j] converts Δλ in nm to x at ne[j].
 	xPerNM []float64
 	// lw[kind][stark][j][k] is ln of the width in nm at node (j, k): table

@@ -10,6 +10,7 @@ import (
 	"os"
 	"strconv"
 	"strings"
+	"sync/atomic"
 	"testing"
 )
 
@@ -47,9 +48,10 @@ func referenceLine(fl fileLine) (*Line, error) {
 	if nx < 4 || nne < 2 || nt < 2 || len(prof) != nx || len(lambda0) != nne {
 		return nil, fmt.Errorf("sh99: line n=%d→2: malformed grid", upper)
 	}
-	l := &Line{upper: upper, ne: neCM3, t: tK,
+	l := &Line{upper: upper, ne: neCM3, t: tK, x: x,
 		lne: make([]float64, nne), lt: make([]float64, nt),
-		nodes: make([][]*nodeProfile, nne), xPerNM: make([]float64, nne), tab: make([][]bool, nne)}
+		xPerNM: make([]float64, nne), tab: make([][]bool, nne)}
+	nodes := make([][]*nodeProfile, nne)
 	for j, v := range neCM3 {
 		l.lne[j] = math.Log(v)
 		if j > 0 && !(l.lne[j] > l.lne[j-1]) {
@@ -68,7 +70,7 @@ func referenceLine(fl fileLine) (*Line, error) {
 		}
 	}
 	for j := range neCM3 {
-		l.nodes[j] = make([]*nodeProfile, nt)
+		nodes[j] = make([]*nodeProfile, nt)
 		l.tab[j] = make([]bool, nt)
 		for k := range tK {
 			if len(prof[0][j]) != nt || len(lambda0[j]) != nt {
@@ -92,7 +94,7 @@ func referenceLine(fl fileLine) (*Line, error) {
 			if err != nil {
 				return nil, fmt.Errorf("sh99: line n=%d→2, n_e=%g cm⁻³, T=%g K: %w", upper, neCM3[j], tK[k], err)
 			}
-			l.nodes[j][k] = np
+			nodes[j][k] = np
 			l.tab[j][k] = true
 		}
 	}
@@ -110,7 +112,7 @@ func referenceLine(fl fileLine) (*Line, error) {
 	}
 	for j := range nne {
 		for k := range nt {
-			np := l.nodes[j][k]
+			np := nodes[j][k]
 			for kind := range numKinds {
 				l.lw[kind][0][j][k] = math.NaN()
 				l.lw[kind][1][j][k] = math.NaN()
@@ -122,8 +124,16 @@ func referenceLine(fl fileLine) (*Line, error) {
 			l.lw[FWHA][0][j][k] = math.Log(np.fwha() / l.xPerNM[j])
 		}
 	}
-	nodes := l.nodes
-	l.nodesFn = func() ([][]*nodeProfile, error) { return nodes, nil }
+	l.nodeAt = make([][]atomic.Pointer[nodeProfile], nne)
+	l.nodeOff = make([][]int, nne)
+	for j := range nne {
+		l.nodeAt[j] = make([]atomic.Pointer[nodeProfile], nt)
+		l.nodeOff[j] = make([]int, nt)
+		for k := range nt {
+			l.nodeOff[j][k] = -1 // all prepared here
+			l.nodeAt[j][k].Store(nodes[j][k])
+		}
+	}
 	return l, nil
 }
 
@@ -206,7 +216,7 @@ func TestLineTableGenerated(t *testing.T) {
 				row[k] = '0'
 				if l.tab[j][k] {
 					row[k] = '1'
-					for _, v := range l.nodes[j][k].p {
+					for _, v := range mustNodes(t, l)[j][k].p {
 						var ok bool
 						if packed, ok = pack(packed, v); !ok {
 							t.Fatalf("n=%d: profile value %v does not pack", l.upper, v)
@@ -285,7 +295,7 @@ func TestLineTableGenerated(t *testing.T) {
 				}
 			}
 			for k := range ref.t {
-				a, r := got[j][k], ref.nodes[j][k]
+				a, r := got[j][k], mustNodes(t, ref)[j][k]
 				if (a == nil) != (r == nil) || l.tab[j][k] != ref.tab[j][k] {
 					t.Fatalf("n=%d node (%d,%d): tabulated %v, JSON %v", u, j, k, a != nil, r != nil)
 				}

@@ -8,6 +8,7 @@ import (
 	"strconv"
 	"strings"
 	"sync"
+	"sync/atomic"
 
 	"gonum.org/v1/gonum/integrate/quad"
 )
@@ -175,29 +176,20 @@ func lineFromData(d lineData, packed string) (*Line, error) {
 			}
 		}
 	}
-	x := d.x
-	l.nodesFn = func() ([][]*nodeProfile, error) {
-		nodes := make([][]*nodeProfile, nne)
-		off := 0
-		for j := range nne {
-			nodes[j] = make([]*nodeProfile, nt)
-			for k := range nt {
-				if !l.tab[j][k] {
-					continue
-				}
-				p := make([]float64, nx)
-				for i := range p {
-					p[i] = unpack(packed[off : off+packedSize])
-					off += packedSize
-				}
-				np, err := newNodeProfile(x, p)
-				if err != nil {
-					return nil, fmt.Errorf("sh99: line n=%d→2, n_e=%g cm⁻³, T=%g K: %w", l.upper, l.ne[j], l.t[k], err)
-				}
-				nodes[j][k] = np
+	l.x, l.packed = d.x, packed
+	l.nodeAt = make([][]atomic.Pointer[nodeProfile], nne)
+	l.nodeOff = make([][]int, nne)
+	off := 0
+	for j := range nne {
+		l.nodeAt[j] = make([]atomic.Pointer[nodeProfile], nt)
+		l.nodeOff[j] = make([]int, nt)
+		for k := range nt {
+			l.nodeOff[j][k] = -1
+			if l.tab[j][k] {
+				l.nodeOff[j][k] = off
+				off += nx * packedSize
 			}
 		}
-		return nodes, nil
 	}
 	return l, nil
 }
@@ -212,11 +204,46 @@ func (l *Line) setXPerNM() {
 	}
 }
 
-// profiles returns the node profiles (nodes[j][k] at ne[j], t[k]; nil
-// where not tabulated), prepared on first use.
+// node returns the profile at ne[j], t[k] (nil where not tabulated),
+// unpacked and prepared on its first use.
+func (l *Line) node(j, k int) (*nodeProfile, error) {
+	if np := l.nodeAt[j][k].Load(); np != nil {
+		return np, nil
+	}
+	off := l.nodeOff[j][k]
+	if off < 0 {
+		return nil, nil
+	}
+	p := make([]float64, len(l.x))
+	for i := range p {
+		p[i] = unpack(l.packed[off : off+packedSize])
+		off += packedSize
+	}
+	np, err := newNodeProfile(l.x, p)
+	if err != nil {
+		return nil, fmt.Errorf("sh99: line n=%d→2, n_e=%g cm⁻³, T=%g K: %w", l.upper, l.ne[j], l.t[k], err)
+	}
+	// Concurrent first uses prepare equal profiles; the first stored is
+	// kept.
+	l.nodeAt[j][k].CompareAndSwap(nil, np)
+	return l.nodeAt[j][k].Load(), nil
+}
+
+// profiles returns every node profile of the line (nodes[j][k] at ne[j],
+// t[k]; nil where not tabulated), preparing those not yet used.
 func (l *Line) profiles() ([][]*nodeProfile, error) {
-	l.nodesOnce.Do(func() { l.nodes, l.nodesErr = l.nodesFn() })
-	return l.nodes, l.nodesErr
+	nodes := make([][]*nodeProfile, len(l.ne))
+	for j := range l.ne {
+		nodes[j] = make([]*nodeProfile, len(l.t))
+		for k := range l.t {
+			np, err := l.node(j, k)
+			if err != nil {
+				return nil, err
+			}
+			nodes[j][k] = np
+		}
+	}
+	return nodes, nil
 }
 
 // glNodes are 8-point Gauss–Legendre nodes and weights on [0, 1] used to
