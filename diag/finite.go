@@ -8,6 +8,7 @@ import (
 	"strconv"
 	"strings"
 	"sync"
+	"sync/atomic"
 )
 
 // NumericError reports an input value that the analysis cannot turn into
@@ -76,14 +77,30 @@ var marshalerType = reflect.TypeFor[json.Marshaler]()
 // (not through a MarshalJSON method), and for a struct the fields that
 // can, with their JSON names.
 type typePlan struct {
+	t      reflect.Type
 	holds  bool
 	fields []fieldPlan
+	// elem is the plan of the element type of a pointer, slice, array or
+	// map type, looked up on first use (a type may contain itself through
+	// a pointer), so that the walk below a value needs no further
+	// look-ups.
+	elem atomic.Pointer[typePlan]
+}
+
+func (p *typePlan) elemPlan() *typePlan {
+	if e := p.elem.Load(); e != nil {
+		return e
+	}
+	e := planOf(p.t.Elem())
+	p.elem.Store(e)
+	return e
 }
 
 type fieldPlan struct {
 	index  int
 	name   string // JSON name; "" for an embedded struct written inline
 	inline bool
+	plan   *typePlan // the field type's
 }
 
 var plans sync.Map // reflect.Type → *typePlan
@@ -92,19 +109,23 @@ func planOf(t reflect.Type) *typePlan {
 	if p, ok := plans.Load(t); ok {
 		return p.(*typePlan)
 	}
-	p := &typePlan{holds: computeHoldsFloat(t, map[reflect.Type]bool{})}
+	p := &typePlan{t: t, holds: computeHoldsFloat(t, map[reflect.Type]bool{})}
 	if p.holds && t.Kind() == reflect.Struct {
 		for i := range t.NumField() {
 			sf := t.Field(i)
 			tag := sf.Tag.Get("json")
 			name, _, _ := strings.Cut(tag, ",")
+			if (!sf.IsExported() && !sf.Anonymous) || tag == "-" {
+				continue
+			}
 			// planOf(sf.Type).holds is computeHoldsFloat(sf.Type, {}),
 			// cached: nested result types are decided once, not again for
 			// every type that contains them.
-			if (!sf.IsExported() && !sf.Anonymous) || tag == "-" || !planOf(sf.Type).holds {
+			fpl := planOf(sf.Type)
+			if !fpl.holds {
 				continue
 			}
-			fp := fieldPlan{index: i, name: name}
+			fp := fieldPlan{index: i, name: name, plan: fpl}
 			if sf.Anonymous && name == "" {
 				fp.inline = true
 			} else if name == "" {
@@ -157,7 +178,11 @@ func walkFinite(v reflect.Value, path *[]string) (float64, bool) {
 	if !v.IsValid() {
 		return 0, true
 	}
-	p := planOf(v.Type())
+	return walkPlan(v, planOf(v.Type()), path)
+}
+
+// walkPlan is walkFinite of v, whose type's plan is p.
+func walkPlan(v reflect.Value, p *typePlan, path *[]string) (float64, bool) {
 	if !p.holds {
 		return 0, true
 	}
@@ -166,29 +191,36 @@ func walkFinite(v reflect.Value, path *[]string) (float64, bool) {
 		if f := v.Float(); !finite(f) {
 			return f, false
 		}
-	case reflect.Pointer, reflect.Interface:
+	case reflect.Interface:
 		if v.IsNil() {
 			return 0, true
 		}
 		return walkFinite(v.Elem(), path)
+	case reflect.Pointer:
+		if v.IsNil() {
+			return 0, true
+		}
+		return walkPlan(v.Elem(), p.elemPlan(), path)
 	case reflect.Slice, reflect.Array:
+		ep := p.elemPlan()
 		for i := range v.Len() {
-			if f, ok := walkFinite(v.Index(i), path); !ok {
+			if f, ok := walkPlan(v.Index(i), ep, path); !ok {
 				*path = append(*path, "["+strconv.Itoa(i)+"]")
 				return f, false
 			}
 		}
 	case reflect.Map:
+		ep := p.elemPlan()
 		it := v.MapRange()
 		for it.Next() {
-			if f, ok := walkFinite(it.Value(), path); !ok {
+			if f, ok := walkPlan(it.Value(), ep, path); !ok {
 				*path = append(*path, fmt.Sprintf("[%v]", it.Key()))
 				return f, false
 			}
 		}
 	case reflect.Struct:
 		for _, fp := range p.fields {
-			if f, ok := walkFinite(v.Field(fp.index), path); !ok {
+			if f, ok := walkPlan(v.Field(fp.index), fp.plan, path); !ok {
 				if !fp.inline {
 					*path = append(*path, fp.name)
 				}

@@ -244,6 +244,26 @@ func AnalyzeCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) in
 // next use of buf.
 func encodeRecord(buf *bytes.Buffer, v any, indent bool) ([]byte, error) {
 	buf.Reset()
+	if r, ok := v.(spectrum.Result); ok {
+		// The spectrum result's own encoder writes encoding/json's bytes
+		// without reflection; a value it refuses (NaN, ±Inf) goes the
+		// encoding/json way below, for its error.
+		if b, err := spectrum.AppendJSON(buf.AvailableBuffer(), &r); err == nil {
+			if !indent {
+				buf.Write(b)
+				buf.WriteByte('\n')
+				return buf.Bytes(), nil
+			}
+			var ib bytes.Buffer
+			if err := json.Indent(&ib, b, "", "  "); err == nil {
+				buf.Reset()
+				buf.Write(ib.Bytes())
+				buf.WriteByte('\n')
+				return buf.Bytes(), nil
+			}
+			buf.Reset()
+		}
+	}
 	enc := json.NewEncoder(buf)
 	enc.SetEscapeHTML(false)
 	if indent {

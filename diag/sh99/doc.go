@@ -8,8 +8,10 @@
 // inverse (width → n_e at a given T).
 //
 // The package is pure: the tables are embedded (data/, see
-// data/PROVENANCE.md) and decoded once, on first use; nothing is read
-// from disk at run time. It imports nothing of glowlog's.
+// data/PROVENANCE.md) in a generated form checked bit for bit against the
+// provenance JSON (line_table.go, data/sh99-profiles.bin, stark_table.go);
+// each node profile is prepared on its first use; nothing is read from
+// disk at run time. It imports nothing of glowlog's.
 //
 // # The tables
 //

@@ -32,6 +32,16 @@ func mustLine(t testing.TB, s *set, upper int) *Line {
 	return l
 }
 
+// mustNodes returns the line's node profiles.
+func mustNodes(t testing.TB, l *Line) [][]*nodeProfile {
+	t.Helper()
+	nodes, err := l.profiles()
+	if err != nil {
+		t.Fatal(err)
+	}
+	return nodes
+}
+
 func mustLoad(t testing.TB) *set {
 	t.Helper()
 	s, err := load()
@@ -55,7 +65,7 @@ func TestProfileReproducesNodes(t *testing.T) {
 				if fl.Profile[0][j][k] == 0 {
 					continue
 				}
-				want := l.xPerNM[j] * 0.5 / l.nodes[j][k].half // per-nm factor
+				want := l.xPerNM[j] * 0.5 / mustNodes(t, l)[j][k].half // per-nm factor
 				for i, x := range fl.X {
 					dl := x / l.xPerNM[j]
 					got, err := l.Profile(dl, ne*1e6, tk)
@@ -73,7 +83,7 @@ func TestProfileReproducesNodes(t *testing.T) {
 				// detuning nodes it depends on the interpolation
 				// (trapezoidal rule and power-law segments differ by
 				// up to 50 % there), and the profile is renormalised.
-				a := 2 * l.nodes[j][k].half * holtsmarkCGS * math.Pow(ne, 2.0/3.0)
+				a := 2 * mustNodes(t, l)[j][k].half * holtsmarkCGS * math.Pow(ne, 2.0/3.0)
 				lo, hi := 0.8, 1.2
 				if !math.IsNaN(l.lw[FWHM][1][j][k]) {
 					lo, hi = 0.85, 1.07
@@ -94,7 +104,7 @@ func TestProfileReproducesNodes(t *testing.T) {
 // where the grid is dense (≈ 5 points per decade) and where it is sparse.
 func TestNodeInterpolationOnKnownShapes(t *testing.T) {
 	s := mustLoad(t)
-	x := mustLine(t, s, 4).nodes[0][0].x
+	x := mustNodes(t, mustLine(t, s, 4))[0][0].x
 	for _, c := range []struct {
 		gMin, gMax float64
 		tolFWHM    float64
@@ -180,7 +190,7 @@ func TestVoigtFWHA(t *testing.T) {
 // removal is exact for a Lorentzian Stark part.
 func TestDopplerRemovalOnVoigtNode(t *testing.T) {
 	s := mustLoad(t)
-	x := mustLine(t, s, 4).nodes[0][0].x
+	x := mustNodes(t, mustLine(t, s, 4))[0][0].x
 	const xnm = 1e10 // detuning units per nm
 	for _, c := range []struct{ L, wD float64 }{{1, 0.3}, {1, 0.8}, {0.5, 0.5}, {2, 0.1}} {
 		g := c.L / 2 * xnm
@@ -255,7 +265,16 @@ func TestDopplerRemovalUncertainty(t *testing.T) {
 	}
 }
 
-// BenchmarkDecode measures the one-time decoding of the embedded tables.
+// BenchmarkDecodeJSON measures decoding the provenance JSON, which every
+// process paid before the tables were generated (line_table.go).
+func BenchmarkDecodeJSON(b *testing.B) {
+	for b.Loop() {
+		rawFile(b)
+	}
+}
+
+// BenchmarkDecode measures the one-time building of the lines from the
+// generated tables (node profiles not yet unpacked).
 func BenchmarkDecode(b *testing.B) {
 	for b.Loop() {
 		if _, err := decode(); err != nil {
@@ -265,7 +284,7 @@ func BenchmarkDecode(b *testing.B) {
 }
 
 // BenchmarkPrepareHbeta measures the one-time preparation of Hβ's node
-// profiles and table widths (on its first use).
+// profiles (on the first use of its profile).
 func BenchmarkPrepareHbeta(b *testing.B) {
 	for b.Loop() {
 		b.StopTimer()
@@ -274,7 +293,7 @@ func BenchmarkPrepareHbeta(b *testing.B) {
 			b.Fatal(err)
 		}
 		b.StartTimer()
-		mustLine(b, s, 4)
+		mustNodes(b, mustLine(b, s, 4))
 	}
 }
 
@@ -313,6 +332,7 @@ func TestInterpolationLeaveOneOut(t *testing.T) {
 	worstW, worstP := 0.0, 0.0
 	for _, u := range []int{3, 4, 5, 6} {
 		l := mustLine(t, s, u)
+		nodes := mustNodes(t, l)
 		for j := 1; j < len(l.ne)-1; j++ {
 			if l.ne[j] < 3e14 {
 				continue
@@ -323,7 +343,7 @@ func TestInterpolationLeaveOneOut(t *testing.T) {
 				}
 				for _, dir := range [][2][2]int{{{j - 1, k}, {j + 1, k}}, {{j, k - 1}, {j, k + 1}}} {
 					a, b := dir[0], dir[1]
-					na, nb, nc := l.nodes[a[0]][a[1]], l.nodes[b[0]][b[1]], l.nodes[j][k]
+					na, nb, nc := nodes[a[0]][a[1]], nodes[b[0]][b[1]], nodes[j][k]
 					if na == nil || nb == nil || nc == nil {
 						continue
 					}
@@ -367,7 +387,7 @@ func TestInterpolationLeaveOneOut(t *testing.T) {
 						}{{a[0], a[1], 1 - f}, {b[0], b[1], f}} {
 							sc := math.Exp(g[c.jj][c.kk] - lW)
 							xn := l.xPerNM[c.jj]
-							v += c.w * sc * xn * 0.5 / l.nodes[c.jj][c.kk].half * l.nodes[c.jj][c.kk].at(d*sc*xn)
+							v += c.w * sc * xn * 0.5 / nodes[c.jj][c.kk].half * nodes[c.jj][c.kk].at(d*sc*xn)
 						}
 						node := l.xPerNM[j] * 0.5 / nc.half * nc.at(d*l.xPerNM[j])
 						peak = math.Max(peak, node)
@@ -382,4 +402,76 @@ func TestInterpolationLeaveOneOut(t *testing.T) {
 		}
 	}
 	t.Logf("leave-one-out: widths within %.2f %%, profiles within %.2f %% of the peak", 100*worstW, 100*worstP)
+}
+
+// TestNodesPreparedOnDemand: a profile evaluation prepares only the nodes
+// around it; concurrent first uses give the sequential values.
+func TestNodesPreparedOnDemand(t *testing.T) {
+	s, err := decode()
+	if err != nil {
+		t.Fatal(err)
+	}
+	l := mustLine(t, s, 4)
+	prepared := func() int {
+		n := 0
+		for j := range l.nodeAt {
+			for k := range l.nodeAt[j] {
+				if l.nodeAt[j][k].Load() != nil {
+					n++
+				}
+			}
+		}
+		return n
+	}
+	if n := prepared(); n != 0 {
+		t.Fatalf("%d nodes prepared before any profile", n)
+	}
+	const ne, tk = 1e22, 1e4
+	done := make(chan float64)
+	for range 8 {
+		go func() {
+			v, err := l.Profile(0.01, ne, tk)
+			if err != nil {
+				t.Error(err)
+			}
+			done <- v
+		}()
+	}
+	var vs []float64
+	for range 8 {
+		vs = append(vs, <-done)
+	}
+	if n := prepared(); n < 1 || n > 4 {
+		t.Errorf("%d nodes prepared for one (n_e, T), want the ≤ 4 corners", n)
+	}
+	ref, err := Balmer(4)
+	if err != nil {
+		t.Fatal(err)
+	}
+	want, err := ref.Profile(0.01, ne, tk)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, v := range vs {
+		if math.Float64bits(v) != math.Float64bits(want) {
+			t.Fatalf("concurrent first use gave %v, want %v", v, want)
+		}
+	}
+}
+
+// BenchmarkFirstProfileHbeta measures the first profile evaluation of Hβ
+// in a process: the corner nodes are unpacked and prepared.
+func BenchmarkFirstProfileHbeta(b *testing.B) {
+	for b.Loop() {
+		b.StopTimer()
+		s, err := decode()
+		if err != nil {
+			b.Fatal(err)
+		}
+		l := mustLine(b, s, 4)
+		b.StartTimer()
+		if _, err := l.Profile(0.01, 1e22, 1e4); err != nil {
+			b.Fatal(err)
+		}
+	}
 }

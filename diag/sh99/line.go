@@ -6,6 +6,7 @@ import (
 	"math"
 	"sort"
 	"sync"
+	"sync/atomic"
 )
 
 // WidthKind names a width of a line profile.
@@ -55,8 +56,16 @@ type Line struct {
 	lambda0NM float64   // vacuum wavelength of the tables, nm
 	lne, lt   []float64 // ln n_e (cm⁻³) and ln T (K) of the grid
 	ne, t     []float64 // grid values
-	// nodes[j][k] is the profile at ne[j], t[k]; nil where not tabulated.
-	nodes [][]*nodeProfile
+	// tab[j][k] is true where the tables hold a profile at ne[j], t[k].
+	tab [][]bool
+	// nodeAt[j][k] holds the profile at ne[j], t[k] once prepared (see
+	// node): each is unpacked from packed (its values at nodeOff[j][k])
+	// on its first use, so that a profile evaluation prepares only the
+	// nodes around it.
+	nodeAt  [][]atomic.Pointer[nodeProfile]
+	nodeOff [][]int
+	packed  string
+	x       []float64 // reduced detuning grid of the node profiles
 	// xPerNM[j] converts Δλ in nm to x at ne[j].
 	xPerNM []float64
 	// lw[kind][stark][j][k] is ln of the width in nm at node (j, k): table
@@ -68,92 +77,6 @@ type Line struct {
 	unc [numKinds][][]float64
 	// starkOnce guards the lazy computation of lw[kind][1] and unc.
 	starkOnce [numKinds]sync.Once
-}
-
-func newLine(upper int, tK, neCM3, x []float64, lambda0 [][]float64, prof [][][]float64) (*Line, error) {
-	nx, nne, nt := len(x), len(neCM3), len(tK)
-	if nx < 4 || nne < 2 || nt < 2 || len(prof) != nx || len(lambda0) != nne {
-		return nil, fmt.Errorf("sh99: line n=%d→2: malformed grid", upper)
-	}
-	l := &Line{upper: upper, ne: neCM3, t: tK,
-		lne: make([]float64, nne), lt: make([]float64, nt),
-		nodes: make([][]*nodeProfile, nne), xPerNM: make([]float64, nne)}
-	for j, v := range neCM3 {
-		l.lne[j] = math.Log(v)
-		if j > 0 && !(l.lne[j] > l.lne[j-1]) {
-			return nil, fmt.Errorf("sh99: line n=%d→2: n_e grid not increasing", upper)
-		}
-	}
-	for k, v := range tK {
-		l.lt[k] = math.Log(v)
-		if k > 0 && !(l.lt[k] > l.lt[k-1]) {
-			return nil, fmt.Errorf("sh99: line n=%d→2: T grid not increasing", upper)
-		}
-	}
-	for i := 1; i < nx; i++ {
-		if !(x[i] > x[i-1]) {
-			return nil, fmt.Errorf("sh99: line n=%d→2: detuning grid not increasing", upper)
-		}
-	}
-	for j := range neCM3 {
-		l.nodes[j] = make([]*nodeProfile, nt)
-		for k := range tK {
-			if len(prof[0][j]) != nt || len(lambda0[j]) != nt {
-				return nil, fmt.Errorf("sh99: line n=%d→2: malformed grid", upper)
-			}
-			if prof[0][j][k] == 0 {
-				continue // not tabulated
-			}
-			if lam := lambda0[j][k] / 10; lam > 0 {
-				if l.lambda0NM == 0 {
-					l.lambda0NM = lam
-				} else if lam != l.lambda0NM {
-					return nil, fmt.Errorf("sh99: line n=%d→2: λ₀ varies across the grid", upper)
-				}
-			}
-			p := make([]float64, nx)
-			for i := range x {
-				p[i] = prof[i][j][k]
-			}
-			np, err := newNodeProfile(x, p)
-			if err != nil {
-				return nil, fmt.Errorf("sh99: line n=%d→2, n_e=%g cm⁻³, T=%g K: %w", upper, neCM3[j], tK[k], err)
-			}
-			l.nodes[j][k] = np
-		}
-	}
-	if !(l.lambda0NM > 0) {
-		return nil, fmt.Errorf("sh99: line n=%d→2: no wavelength", upper)
-	}
-	lam := l.lambda0NM * 1e-9
-	for j, v := range neCM3 {
-		f0 := holtsmarkCGS * math.Pow(v, 2.0/3.0)
-		// x = Δν/F₀, Δν = c Δλ/λ₀² (Δλ in m = 1e-9 Δλ[nm]).
-		l.xPerNM[j] = speedOfLight / (lam * lam) * 1e-9 / f0
-	}
-	for kind := range numKinds {
-		for s := range 2 {
-			l.lw[kind][s] = make([][]float64, nne)
-			for j := range nne {
-				l.lw[kind][s][j] = make([]float64, nt)
-			}
-		}
-	}
-	for j := range nne {
-		for k := range nt {
-			np := l.nodes[j][k]
-			for kind := range numKinds {
-				l.lw[kind][0][j][k] = math.NaN()
-				l.lw[kind][1][j][k] = math.NaN()
-			}
-			if np == nil {
-				continue
-			}
-			l.lw[FWHM][0][j][k] = math.Log(np.fwhm() / l.xPerNM[j])
-			l.lw[FWHA][0][j][k] = math.Log(np.fwha() / l.xPerNM[j])
-		}
-	}
-	return l, nil
 }
 
 // starkWidths returns ln of the Stark-only widths of kind at every node
@@ -193,6 +116,10 @@ type starkKey struct {
 // node (NaN where not available) and the relative σ of their Doppler
 // removal, from the tabulated profiles.
 func (l *Line) computeStarkWidths(kind WidthKind) (lnW, unc [][]float64) {
+	nodes, err := l.profiles()
+	if err != nil {
+		panic(err) // the embedded tables are checked by TestLineTableGenerated
+	}
 	lnW = make([][]float64, len(l.ne))
 	unc = make([][]float64, len(l.ne))
 	for j := range l.ne {
@@ -200,7 +127,7 @@ func (l *Line) computeStarkWidths(kind WidthKind) (lnW, unc [][]float64) {
 		unc[j] = make([]float64, len(l.t))
 		for k, tk := range l.t {
 			lnW[j][k] = math.NaN()
-			np := l.nodes[j][k]
+			np := nodes[j][k]
 			if np == nil {
 				continue
 			}
@@ -256,7 +183,7 @@ func (l *Line) Tabulated(neM3, tK float64) bool {
 		return -1
 	}
 	j, k := find(l.ne, neM3*1e-6), find(l.t, tK)
-	return j >= 0 && k >= 0 && l.nodes[j][k] != nil
+	return j >= 0 && k >= 0 && l.tab[j][k]
 }
 
 // name returns "Hα", "Hβ", … or "H(n→2)".
@@ -326,7 +253,7 @@ func (l *Line) locate(neM3, tK float64, g [][]float64, what string) (corners, er
 	ok := okj && okk
 	if ok {
 		c.each(func(j, k int, _ float64) {
-			if g == nil && l.nodes[j][k] == nil || g != nil && math.IsNaN(g[j][k]) {
+			if g == nil && !l.tab[j][k] || g != nil && math.IsNaN(g[j][k]) {
 				ok = false
 			}
 		})
@@ -362,7 +289,7 @@ func (l *Line) neRangeIdx(tK float64, g [][]float64) (jlo, jhi int, ok bool) {
 			if dk == 1 && tk == 0 || dk == 0 && tk == 1 {
 				continue
 			}
-			if g == nil && l.nodes[j][k+dk] == nil || g != nil && math.IsNaN(g[j][k+dk]) {
+			if g == nil && !l.tab[j][k+dk] || g != nil && math.IsNaN(g[j][k+dk]) {
 				return false
 			}
 		}

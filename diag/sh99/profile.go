@@ -58,13 +58,26 @@ func (l *Line) prepare(neM3, tK float64) (prepared, error) {
 	c.each(func(j, k int, w float64) { lW += w * g[j][k] })
 	var p prepared
 	c.each(func(j, k int, w float64) {
-		p.node[p.n] = l.nodes[j][k]
+		np, nerr := l.node(j, k)
+		if nerr == nil && np == nil {
+			nerr = fmt.Errorf("sh99: %s: node (%d, %d) has a width but no profile", l.name(), j, k)
+		}
+		if nerr != nil {
+			if err == nil {
+				err = nerr
+			}
+			return
+		}
+		p.node[p.n] = np
 		p.wgt[p.n] = w
 		p.scale[p.n] = math.Exp(g[j][k] - lW)
 		p.xnm[p.n] = l.xPerNM[j]
-		p.norm[p.n] = 0.5 / l.nodes[j][k].half
+		p.norm[p.n] = 0.5 / np.half
 		p.n++
 	})
+	if err != nil {
+		return prepared{}, err
+	}
 	return p, nil
 }
 

@@ -1,23 +1,29 @@
 package sh99
 
 import (
-	"bytes"
-	"compress/gzip"
 	_ "embed"
-	"encoding/json"
 	"fmt"
 	"math"
 	"sort"
+	"strconv"
+	"strings"
 	"sync"
+	"sync/atomic"
 
 	"gonum.org/v1/gonum/integrate/quad"
 )
 
-// rawTables is the Stehlé & Hutcheon (1999) Balmer data set, unchanged
-// (see data/PROVENANCE.md).
+// profileValues holds every tabulated profile value of the Stehlé &
+// Hutcheon (1999) Balmer tables, packed by TestLineTableGenerated from
+// the provenance copy data/stehle-hutcheon-1999-balmer.json.gz (see
+// data/PROVENANCE.md), which it checks value for value, bit for bit. The
+// tables print three significant digits, so each value is stored as its
+// shortest decimal form: a 16-bit mantissa m and an 8-bit exponent e
+// (m·10^e; 3 bytes, little-endian), line by line in lineTable's order,
+// node by node (n_e, then T) where tabulated, detuning by detuning.
 //
-//go:embed data/stehle-hutcheon-1999-balmer.json.gz
-var rawTables []byte
+//go:embed data/sh99-profiles.bin
+var profileValues string
 
 // Physical constants.
 const (
@@ -36,72 +42,208 @@ const (
 	hydrogenMassAMU = 1.00794
 )
 
-// fileTables mirrors the JSON layout of the data file.
-type fileTables struct {
-	Lines []struct {
-		Lower   int         `json:"lower"`
-		Upper   int         `json:"upper"`
-		TK      []float64   `json:"T_K"`
-		NeCM3   []float64   `json:"ne_cm3"`
-		X       []float64   `json:"delta_nu_over_F0"`
-		Lambda0 [][]float64 `json:"lambda0_vac_angstrom"`
-		// Profile[i][j][k] at X[i], NeCM3[j], TK[k]; 0 where not
-		// tabulated.
-		Profile [][][]float64 `json:"profile"`
-	} `json:"lines"`
+// lineData is one Balmer line of the tables as generated into
+// line_table.go (TestLineTableGenerated): the grid, where profiles are
+// tabulated, and the table widths measured on every node profile.
+type lineData struct {
+	upper     int
+	lambda0NM float64   // vacuum wavelength of the tables, nm
+	neCM3, tK []float64 // grid (cm⁻³, K)
+	x         []float64 // reduced detuning grid Δν/F₀
+	// tab[j][k] is '1' where a profile is tabulated at neCM3[j], tK[k].
+	tab []string
+	// lnW[kind][j][k] is ln of the table width (nm) of the node profile,
+	// NaN where not tabulated or not measurable.
+	lnW [numKinds][][]float64
 }
 
-// set holds every line of the tables. The file is decoded once; each
-// line's node profiles and widths are prepared on its first use.
+// set holds every line of the tables.
 type set struct {
-	prep  map[int]func() (*Line, error)
+	lines map[int]*Line
 	order []int
 }
 
-// line returns the prepared line with upper level upper; ok is false if
-// the tables do not cover it.
+// line returns the line with upper level upper; ok is false if the
+// tables do not cover it.
 func (s *set) line(upper int) (l *Line, ok bool, err error) {
-	p, ok := s.prep[upper]
-	if !ok {
-		return nil, false, nil
-	}
-	l, err = p()
-	return l, true, err
+	l, ok = s.lines[upper]
+	return l, ok, nil
 }
 
-// load decodes the embedded tables once; later calls return the same
-// result.
+// load builds the set once; later calls return the same result.
 var load = sync.OnceValues(decode)
 
-// decode unpacks the embedded file; each line's node profiles, areas and
-// widths are prepared on first use (set.line).
+// decode builds every line from the generated lineTable; each line's node
+// profiles are unpacked from profileValues and prepared on first use
+// (Line.profiles). Nothing here is slow: the widths are precomputed.
 func decode() (*set, error) {
-	zr, err := gzip.NewReader(bytes.NewReader(rawTables))
-	if err != nil {
-		return nil, fmt.Errorf("sh99: embedded tables: %w", err)
-	}
-	var f fileTables
-	if err := json.NewDecoder(zr).Decode(&f); err != nil {
-		return nil, fmt.Errorf("sh99: embedded tables: %w", err)
-	}
-	s := &set{prep: make(map[int]func() (*Line, error))}
-	for _, fl := range f.Lines {
-		if fl.Lower != 2 {
-			continue
+	s := &set{lines: make(map[int]*Line, len(lineTable))}
+	off := 0
+	for _, d := range lineTable {
+		if _, dup := s.lines[d.upper]; dup {
+			return nil, fmt.Errorf("sh99: embedded tables: line n=%d→2 twice", d.upper)
 		}
-		if _, dup := s.prep[fl.Upper]; dup {
-			return nil, fmt.Errorf("sh99: embedded tables: line n=%d→2 twice", fl.Upper)
+		n := 0
+		for _, row := range d.tab {
+			n += strings.Count(row, "1")
 		}
-		s.prep[fl.Upper] = sync.OnceValues(func() (*Line, error) {
-			return newLine(fl.Upper, fl.TK, fl.NeCM3, fl.X, fl.Lambda0, fl.Profile)
-		})
-		s.order = append(s.order, fl.Upper)
+		size := n * len(d.x) * packedSize
+		if off+size > len(profileValues) {
+			return nil, fmt.Errorf("sh99: embedded tables: profile values end before line n=%d→2", d.upper)
+		}
+		l, err := lineFromData(d, profileValues[off:off+size])
+		if err != nil {
+			return nil, err
+		}
+		off += size
+		s.lines[d.upper] = l
+		s.order = append(s.order, d.upper)
+	}
+	if off != len(profileValues) {
+		return nil, fmt.Errorf("sh99: embedded tables: %d bytes of profile values left over", len(profileValues)-off)
 	}
 	sort.Ints(s.order)
 	if len(s.order) == 0 {
 		return nil, fmt.Errorf("sh99: embedded tables hold no Balmer line")
 	}
 	return s, nil
+}
+
+// packedSize is the size of one packed profile value in profileValues.
+const packedSize = 3
+
+// unpack returns the profile value packed at b[0:3]: m·10^e, correctly
+// rounded (the value ParseFloat gives for the decimal text).
+func unpack(b string) float64 {
+	m := int16(uint16(b[0]) | uint16(b[1])<<8)
+	e := int(int8(b[2]))
+	// m and 10^|e| ≤ 10²² are exact in float64, and one multiplication
+	// or division of exact values is correctly rounded (Clinger's fast
+	// path, as in strconv).
+	switch {
+	case e >= 0 && e < len(pow10):
+		return float64(m) * pow10[e]
+	case e < 0 && -e < len(pow10):
+		return float64(m) / pow10[-e]
+	}
+	v, _ := strconv.ParseFloat(strconv.Itoa(int(m))+"e"+strconv.Itoa(e), 64)
+	return v
+}
+
+// pow10 holds the powers of ten that are exact in float64.
+var pow10 = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10,
+	1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
+
+// lineFromData builds a line from its generated data; packed holds its
+// profile values, unpacked on the first use of the node profiles.
+func lineFromData(d lineData, packed string) (*Line, error) {
+	nx, nne, nt := len(d.x), len(d.neCM3), len(d.tK)
+	if nx < 4 || nne < 2 || nt < 2 || len(d.tab) != nne || !(d.lambda0NM > 0) {
+		return nil, fmt.Errorf("sh99: line n=%d→2: malformed grid", d.upper)
+	}
+	l := &Line{upper: d.upper, lambda0NM: d.lambda0NM, ne: d.neCM3, t: d.tK,
+		lne: make([]float64, nne), lt: make([]float64, nt), xPerNM: make([]float64, nne),
+		tab: make([][]bool, nne)}
+	for j, v := range d.neCM3 {
+		l.lne[j] = math.Log(v)
+	}
+	for k, v := range d.tK {
+		l.lt[k] = math.Log(v)
+	}
+	for j, row := range d.tab {
+		if len(row) != nt {
+			return nil, fmt.Errorf("sh99: line n=%d→2: malformed grid", d.upper)
+		}
+		l.tab[j] = make([]bool, nt)
+		for k := range nt {
+			l.tab[j][k] = row[k] == '1'
+		}
+	}
+	l.setXPerNM()
+	for kind := range numKinds {
+		if len(d.lnW[kind]) != nne {
+			return nil, fmt.Errorf("sh99: line n=%d→2: malformed grid", d.upper)
+		}
+		l.lw[kind][0] = d.lnW[kind]
+		l.lw[kind][1] = make([][]float64, nne)
+		for j := range nne {
+			if len(d.lnW[kind][j]) != nt {
+				return nil, fmt.Errorf("sh99: line n=%d→2: malformed grid", d.upper)
+			}
+			l.lw[kind][1][j] = make([]float64, nt)
+			for k := range nt {
+				l.lw[kind][1][j][k] = math.NaN()
+			}
+		}
+	}
+	l.x, l.packed = d.x, packed
+	l.nodeAt = make([][]atomic.Pointer[nodeProfile], nne)
+	l.nodeOff = make([][]int, nne)
+	off := 0
+	for j := range nne {
+		l.nodeAt[j] = make([]atomic.Pointer[nodeProfile], nt)
+		l.nodeOff[j] = make([]int, nt)
+		for k := range nt {
+			l.nodeOff[j][k] = -1
+			if l.tab[j][k] {
+				l.nodeOff[j][k] = off
+				off += nx * packedSize
+			}
+		}
+	}
+	return l, nil
+}
+
+// setXPerNM sets the conversion of Δλ in nm to x at every n_e of the grid.
+func (l *Line) setXPerNM() {
+	lam := l.lambda0NM * 1e-9
+	for j, v := range l.ne {
+		f0 := holtsmarkCGS * math.Pow(v, 2.0/3.0)
+		// x = Δν/F₀, Δν = c Δλ/λ₀² (Δλ in m = 1e-9 Δλ[nm]).
+		l.xPerNM[j] = speedOfLight / (lam * lam) * 1e-9 / f0
+	}
+}
+
+// node returns the profile at ne[j], t[k] (nil where not tabulated),
+// unpacked and prepared on its first use.
+func (l *Line) node(j, k int) (*nodeProfile, error) {
+	if np := l.nodeAt[j][k].Load(); np != nil {
+		return np, nil
+	}
+	off := l.nodeOff[j][k]
+	if off < 0 {
+		return nil, nil
+	}
+	p := make([]float64, len(l.x))
+	for i := range p {
+		p[i] = unpack(l.packed[off : off+packedSize])
+		off += packedSize
+	}
+	np, err := newNodeProfile(l.x, p)
+	if err != nil {
+		return nil, fmt.Errorf("sh99: line n=%d→2, n_e=%g cm⁻³, T=%g K: %w", l.upper, l.ne[j], l.t[k], err)
+	}
+	// Concurrent first uses prepare equal profiles; the first stored is
+	// kept.
+	l.nodeAt[j][k].CompareAndSwap(nil, np)
+	return l.nodeAt[j][k].Load(), nil
+}
+
+// profiles returns every node profile of the line (nodes[j][k] at ne[j],
+// t[k]; nil where not tabulated), preparing those not yet used.
+func (l *Line) profiles() ([][]*nodeProfile, error) {
+	nodes := make([][]*nodeProfile, len(l.ne))
+	for j := range l.ne {
+		nodes[j] = make([]*nodeProfile, len(l.t))
+		for k := range l.t {
+			np, err := l.node(j, k)
+			if err != nil {
+				return nil, err
+			}
+			nodes[j][k] = np
+		}
+	}
+	return nodes, nil
 }
 
 // glNodes are 8-point Gauss–Legendre nodes and weights on [0, 1] used to

@@ -2,6 +2,7 @@ package specfile
 
 import (
 	"bytes"
+	"os"
 	"testing"
 )
 
@@ -37,6 +38,22 @@ func BenchmarkWriteJCAMP(b *testing.B) {
 	for b.Loop() {
 		buf.Reset()
 		if err := WriteJCAMP(&buf, sp); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+// BenchmarkReadTextScipy2048 reads the file of .ci/bench (2048 lines of
+// "380.156326,8.40393": six-decimal wavelengths, five-digit counts).
+func BenchmarkReadTextScipy2048(b *testing.B) {
+	data, err := os.ReadFile("../../testdata/spectra/scipy_bench_2048.csv")
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.SetBytes(int64(len(data)))
+	b.ReportAllocs()
+	for b.Loop() {
+		if _, err := ReadText("scipy_bench_2048.csv", bytes.NewReader(data), TextOptions{}); err != nil {
 			b.Fatal(err)
 		}
 	}

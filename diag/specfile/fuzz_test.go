@@ -138,6 +138,10 @@ func FuzzReadText(f *testing.F) {
 		}
 		sp, err := ReadText("fuzz.csv", bytes.NewReader(data), opt)
 		checkInvariants(t, sp, err, Limits{})
+		// The one-pass reader gives what the two-pass reference gives,
+		// also with limits small enough to be hit.
+		checkMatchesReference(t, data, opt, Limits{})
+		checkMatchesReference(t, data, opt, Limits{MaxLineLen: 16, MaxPoints: 6, MinPoints: 3})
 		// CRLF line ends must not change the outcome.
 		crlf := bytes.ReplaceAll(data, []byte("\n"), []byte("\r\n"))
 		if !bytes.Contains(data, []byte("\r")) {

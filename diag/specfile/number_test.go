@@ -48,6 +48,20 @@ func checkNumber(t *testing.T, s string) {
 				t.Fatalf("parseNumber(%q) = %v, strconv.ParseFloat = %v", in, got, sv)
 			}
 		}
+		// The data loop's plain decimals (also followed by a delimiter,
+		// so that eight-byte steps have room): where they answer, the
+		// same value and end as scanNumber.
+		for _, tail := range []string{"", ";", ";2.5\n", ",0000000000"} {
+			txt := in + tail
+			pv, pe, pok := plainNumber(txt, 0, byte(dec))
+			sv, se, sok := scanNumber(txt, 0, byte(dec))
+			if pe < len(txt) && txt[pe] != ';' && txt[pe] != ',' {
+				continue // plainPair declines: the field goes on
+			}
+			if pok && (!sok || pe != se || math.Float64bits(pv) != math.Float64bits(sv)) {
+				t.Fatalf("plainNumber(%q, %q) = %v, %d; scanNumber %v, %d, %v", txt, dec, pv, pe, sv, se, sok)
+			}
+		}
 	}
 }
 

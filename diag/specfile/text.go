@@ -1,8 +1,10 @@
 package specfile
 
 import (
+	"errors"
 	"fmt"
 	"io"
+	"math/bits"
 	"strings"
 	"unicode"
 )
@@ -92,15 +94,50 @@ func checkTextOptions(opt TextOptions) {
 	}
 }
 
+// headLines bounds the content lines read before the delimiter, header,
+// decimal separator and columns must be decided for the one-pass reading
+// of the rest; a file that decides later is read with everything in
+// memory first (the same result, more slowly).
+const headLines = 8
+
 func parseText(name string, data []byte, opt TextOptions, lim Limits) (*Spectrum, error) {
 	checkTextOptions(opt)
-	sp := &Spectrum{Meta: map[string]string{}, Format: FormatText}
 	sc := newLineScanner(name, data, lim)
+	sp, err := parseTextLines(sc, opt, lim)
+	if err != nil {
+		// Every line's length is checked before anything else, as a first
+		// pass over the file would: an over-long line after the one at
+		// fault wins.
+		if errors.Is(err, ErrLineTooLong) {
+			return nil, err
+		}
+		for {
+			_, ok, lerr := sc.next()
+			if lerr != nil {
+				return nil, lerr
+			}
+			if !ok {
+				return nil, err
+			}
+		}
+	}
+	return sp, nil
+}
+
+// parseTextLines reads the head of the file (comments and the content
+// lines up to the first data row that decides the format), then the rest
+// line by line, data rows of the usual two-column form without slicing
+// them into lines first.
+func parseTextLines(sc *lineScanner, opt TextOptions, lim Limits) (*Spectrum, error) {
+	name := sc.name
+	sp := &Spectrum{Meta: map[string]string{}, Format: FormatText}
 	src := sc.data
 
-	// Pass 1: separate comments from content. ';'-prefixed lines are kept
-	// aside until the delimiter is known.
-	content := make([]contentLine, 0, sc.lineCountHint())
+	// The head: separate comments from content. ';'-prefixed lines are
+	// kept aside until the delimiter is known. The head ends with the
+	// content line that decides the format (or at the end of the file).
+	content := make([]contentLine, 0, headLines)
+	checking := true
 	for {
 		line, ok, err := sc.next()
 		if err != nil {
@@ -121,34 +158,32 @@ func parseText(name string, data []byte, opt TextOptions, lim Limits) (*Spectrum
 				start += strings.Index(line, t)
 			}
 			content = append(content, contentLine{num: sc.num, start: start, end: start + len(t), semi: t[0] == ';'})
+			if checking {
+				if len(content) > headLines {
+					checking = false
+				} else if headDecided(src, content, opt) {
+					goto decided
+				}
+			}
 		}
 	}
+decided:
 
 	// Find the header candidate and the first data line among the
 	// unambiguous lines, and detect the delimiter from the latter.
 	delim := opt.Delimiter
 	if delim == 0 {
-		delim = ' '
-		seenFirst := false
-		for _, l := range content {
-			if l.semi {
-				continue
-			}
-			if !seenFirst {
-				seenFirst = true
-				if isHeaderLine(l.str(src)) {
-					continue
-				}
-			}
-			delim = detectDelimiter(l.str(src))
-			break
-		}
+		delim = detectDelimiterOf(src, content)
 	}
+	// ';' lines are comments unless ';' is the delimiter. Their text goes
+	// into Meta after every '#' comment's, as in a reader that sorts the
+	// lines first.
+	var semiMeta []string
 	if delim != ';' {
 		kept := content[:0]
 		for _, l := range content {
 			if l.semi {
-				addCommentMeta(sp, strings.TrimLeft(l.str(src), ";"))
+				semiMeta = append(semiMeta, strings.TrimLeft(l.str(src), ";"))
 			} else {
 				kept = append(kept, l)
 			}
@@ -212,15 +247,16 @@ func parseText(name string, data []byte, opt TextOptions, lim Limits) (*Spectrum
 		}
 	}
 
-	// Units from the header, if its columns line up with the data.
+	// Units from the header, if its columns line up with the data. The
+	// header's Meta entries are set last, over any comment's.
 	var headerUnit AxisUnit
+	var headerMeta []string // header, x column, y column
 	if header != nil {
-		sp.Meta["header"] = header.str(src)
+		headerMeta = []string{header.str(src)}
 		names := splitHeader(header.str(src), delim, ncols)
 		switch {
 		case len(names) == ncols:
-			sp.Meta["x_column"] = names[xc]
-			sp.Meta["y_column"] = names[yc]
+			headerMeta = append(headerMeta, names[xc], names[yc])
 			headerUnit = unitFromName(names[xc])
 			sp.YUnit = yUnitFromName(names[yc])
 		case delim != ' ':
@@ -235,38 +271,294 @@ func parseText(name string, data []byte, opt TextOptions, lim Limits) (*Spectrum
 		sp.XUnit = opt.XUnit
 	}
 
-	sink.x = make([]float64, 0, min(len(content), lim.MaxPoints))
-	sink.y = make([]float64, 0, min(len(content), lim.MaxPoints))
-	for _, l := range content {
+	size := min(len(content)+sc.lineCountHint(), lim.MaxPoints)
+	sink.x = make([]float64, 0, size)
+	sink.y = make([]float64, 0, size)
+	row := func(l contentLine) error {
 		if x, y, ok := fastRow(l.str(src), byte(delim), byte(dec), ncols, xc, yc); ok {
-			if err := sink.add(x, y, l.num); err != nil {
-				return nil, err
-			}
-			continue
+			return sink.add(x, y, l.num)
 		}
 		// The general path, which also words every error.
-		fields = splitFields(l.str(src), delim)
+		fields := splitFields(l.str(src), delim)
 		if len(fields) != ncols {
-			return nil, errf(name, l.num, ErrSyntax, "line has %d columns, expected %d as on line %d", len(fields), ncols, first.num)
+			return errf(name, l.num, ErrSyntax, "line has %d columns, expected %d as on line %d", len(fields), ncols, first.num)
 		}
 		x, err := fieldValue(name, l.num, fields[xc], dec, "x value")
 		if err != nil {
-			return nil, err
+			return err
 		}
 		y, err := fieldValue(name, l.num, fields[yc], dec, "intensity")
 		if err != nil {
+			return err
+		}
+		return sink.add(x, y, l.num)
+	}
+	for _, l := range content {
+		if err := row(l); err != nil {
 			return nil, err
 		}
-		if err := sink.add(x, y, l.num); err != nil {
+	}
+
+	// The rest of the file, line by line. A line of exactly "number,
+	// delimiter, number" (the usual two-column row) is read in place;
+	// every other line takes the head's path.
+	two := ncols == 2 && delim != ' '
+	d, pt := byte(delim), byte(dec)
+	for sc.pos < len(src) {
+		if two {
+			if a, b, end, next, ok := plainPair(src, sc.pos, d, pt); ok && end-sc.pos <= sc.maxLen {
+				x, y := a, b
+				if xc != 0 {
+					x, y = b, a
+				}
+				sc.num++
+				sc.start, sc.pos = sc.pos, next
+				if n := len(sink.x); n > 0 && n < lim.MaxPoints && (sink.dir > 0 && x > sink.x[n-1] || sink.dir < 0 && x < sink.x[n-1]) {
+					sink.x = append(sink.x, x)
+					sink.y = append(sink.y, y)
+					sink.lastLine = sc.num
+				} else if err := sink.add(x, y, sc.num); err != nil {
+					return nil, err
+				}
+				continue
+			}
+		}
+		line, ok, err := sc.next()
+		if err != nil {
 			return nil, err
+		}
+		if !ok {
+			break
+		}
+		t := strings.TrimSpace(line)
+		switch {
+		case onlyDelimiters(t):
+		case t[0] == '#' || t[0] == '%' || strings.HasPrefix(t, "//"):
+			addCommentMeta(sp, strings.TrimLeft(t, "#%/"))
+		case t[0] == ';' && delim != ';':
+			semiMeta = append(semiMeta, strings.TrimLeft(t, ";"))
+		default:
+			start := sc.start
+			if len(t) != len(line) {
+				start += strings.Index(line, t)
+			}
+			if err := row(contentLine{num: sc.num, start: start, end: start + len(t), semi: t[0] == ';'}); err != nil {
+				return nil, err
+			}
 		}
 	}
 	if err := sink.finish(sc.lastLine()); err != nil {
 		return nil, err
 	}
+	for _, m := range semiMeta {
+		addCommentMeta(sp, m)
+	}
+	if len(headerMeta) > 0 {
+		sp.Meta["header"] = headerMeta[0]
+		if len(headerMeta) == 3 {
+			sp.Meta["x_column"] = headerMeta[1]
+			sp.Meta["y_column"] = headerMeta[2]
+		}
+	}
 	sp.X, sp.Y = sink.x, sink.y
 	return sp, nil
 }
+
+// detectDelimiterOf picks the delimiter from the content lines: from the
+// first line that is not ';'-prefixed, or the second if the first is a
+// header; ' ' if there is none.
+func detectDelimiterOf(src string, content []contentLine) rune {
+	seenFirst := false
+	for _, l := range content {
+		if l.semi {
+			continue
+		}
+		if !seenFirst {
+			seenFirst = true
+			if isHeaderLine(l.str(src)) {
+				continue
+			}
+		}
+		return detectDelimiter(l.str(src))
+	}
+	return ' '
+}
+
+// headDecided reports whether the content lines so far decide everything
+// the rest of the file cannot change: the delimiter, the header, the
+// first data row and the decimal separator.
+func headDecided(src string, content []contentLine, opt TextOptions) bool {
+	delim := opt.Delimiter
+	var rest []contentLine // content lines after ';' comments are set aside
+	if delim == 0 {
+		seenFirst, found := false, false
+		for _, l := range content {
+			if l.semi {
+				continue
+			}
+			if !seenFirst {
+				seenFirst = true
+				if isHeaderLine(l.str(src)) {
+					continue
+				}
+			}
+			found = true
+			delim = detectDelimiter(l.str(src))
+			break
+		}
+		if !found {
+			return false
+		}
+	}
+	for _, l := range content {
+		if delim == ';' || !l.semi {
+			rest = append(rest, l)
+		}
+	}
+	if len(rest) > 0 && isHeaderLine(rest[0].str(src)) {
+		rest = rest[1:]
+	}
+	if len(rest) == 0 {
+		return false
+	}
+	if opt.Decimal != 0 || delim == ',' {
+		return true
+	}
+	for _, l := range rest {
+		if strings.ContainsAny(l.str(src), ".,") {
+			return true
+		}
+	}
+	return false
+}
+
+// plainPair reads a line at s[i:] of exactly "a<delim>b" followed by
+// "\n", "\r\n", "\r" at the end of s, or the end of s, where a and b are
+// plain decimals (sign, digits, point; no exponent) of at most 19 digits
+// whose values are exact products or quotients of a mantissa up to 2⁵³
+// and a power of ten up to 10²²: the values scanNumber gives, bit for
+// bit, always finite. end is the end of the line's text and next the
+// start of the next line. ok is false for any other line.
+func plainPair(s string, i int, delim, point byte) (a, b float64, end, next int, ok bool) {
+	a, i, ok = plainNumber(s, i, point)
+	if !ok || i >= len(s) || s[i] != delim {
+		return 0, 0, 0, 0, false
+	}
+	b, i, ok = plainNumber(s, i+1, point)
+	if !ok {
+		return 0, 0, 0, 0, false
+	}
+	switch {
+	case i == len(s):
+		return a, b, i, i, true
+	case s[i] == '\n':
+		return a, b, i, i + 1, true
+	case s[i] == '\r' && (i+1 == len(s) || s[i+1] == '\n'):
+		return a, b, i, min(i+2, len(s)), true
+	}
+	return 0, 0, 0, 0, false
+}
+
+// plainNumber scans a plain decimal for plainPair; ok is false if there
+// is none or it is beyond the fast path.
+func plainNumber(s string, i int, point byte) (v float64, end int, ok bool) {
+	neg := false
+	if i < len(s) && (s[i] == '-' || s[i] == '+') {
+		neg = s[i] == '-'
+		i++
+	}
+	// Up to seven integer and seven fraction digits, eight bytes at a
+	// time (the SWAR method of fast_float: Lemire, "Number parsing at a
+	// gigabyte per second", Software: Practice and Experience 51, 2021).
+	if i+8 <= len(s) {
+		w := load8(s, i)
+		d := digitsIn(w)
+		j := i + d
+		switch {
+		case d == 8:
+		case s[j] == point:
+			if j+9 <= len(s) {
+				w2 := load8(s, j+1)
+				if f := digitsIn(w2); f < 8 && d+f > 0 {
+					v = float64(swarValue(w, d)*pow10u[f]+swarValue(w2, f)) / pow10tab[f]
+					if neg {
+						v = -v
+					}
+					return v, j + 1 + f, true
+				}
+			}
+		case d > 0:
+			v = float64(swarValue(w, d))
+			if neg {
+				v = -v
+			}
+			return v, j, true
+		}
+	}
+	var mant uint64
+	d0 := i
+	for ; i < len(s); i++ {
+		c := s[i] - '0'
+		if c > 9 {
+			break
+		}
+		mant = mant*10 + uint64(c)
+	}
+	nd, frac := i-d0, 0
+	if i < len(s) && s[i] == point {
+		i++
+		f0 := i
+		for ; i < len(s); i++ {
+			c := s[i] - '0'
+			if c > 9 {
+				break
+			}
+			mant = mant*10 + uint64(c)
+		}
+		frac = i - f0
+		nd += frac
+	}
+	if nd == 0 || nd > 19 || mant > 1<<53 || frac > 22 {
+		return 0, i, false
+	}
+	v = float64(mant) / pow10tab[frac]
+	if neg {
+		v = -v
+	}
+	return v, i, true
+}
+
+// load8 returns s[i:i+8] as a little-endian word.
+func load8(s string, i int) uint64 {
+	b := s[i : i+8]
+	return uint64(b[0]) | uint64(b[1])<<8 | uint64(b[2])<<16 | uint64(b[3])<<24 |
+		uint64(b[4])<<32 | uint64(b[5])<<40 | uint64(b[6])<<48 | uint64(b[7])<<56
+}
+
+// digitsIn returns the number of leading decimal digits (0–8) of the
+// little-endian word w.
+func digitsIn(w uint64) int {
+	// A byte is a digit iff its high nibble is 3 and stays 3 when 6 is
+	// added (0x30–0x39); carries only leave non-digit bytes, upwards.
+	const hi, three = 0xF0F0F0F0F0F0F0F0, 0x3030303030303030
+	t := (w&hi ^ three) | ((w+0x0606060606060606)&hi ^ three)
+	return bits.TrailingZeros64(t) >> 3
+}
+
+// swarValue returns the value of the d leading digits (0–7) of w.
+func swarValue(w uint64, d int) uint64 {
+	if d == 0 {
+		return 0
+	}
+	// Digit values shifted up so that the unused high bytes become
+	// leading zeros (d ≥ 1: the shift is below 64).
+	x := (w - 0x3030303030303030) << ((64 - 8*uint(d)) & 63)
+	x = x*10 + x>>8
+	return ((x&0x000000FF000000FF)*(100+1000000<<32) + (x>>16&0x000000FF000000FF)*(1+10000<<32)) >> 32
+}
+
+// pow10u[d] is 10^d.
+var pow10u = [...]uint64{1, 10, 100, 1000, 10000, 100000, 1000000, 10000000, 100000000}
 
 // addCommentMeta stores "key: value" or "key = value" comment text.
 func addCommentMeta(sp *Spectrum, text string) {

@@ -16,12 +16,11 @@ var _ = [1]struct{}{}[weidemanN%8]
 // Weideman (1994) eq. (38).
 var weidemanL = math.Sqrt(weidemanN / math.Sqrt2)
 
-// weidemanA holds the expansion coefficients a_1 … a_N of Weideman (1994)
-// eq. (34): weidemanA[n-1] = a_n.
-var weidemanA = func() (a [weidemanN]float64) {
-	copy(a[:], weidemanCoefficients(weidemanN))
-	return a
-}()
+// weidemanA (faddeeva_table.go) holds the expansion coefficients a_1 …
+// a_N of Weideman (1994) eq. (34): weidemanA[n-1] = a_n, as
+// weidemanCoefficients(weidemanN) computes them (generated, checked bit
+// for bit by TestFaddeevaTablesGenerated: every process computed them at
+// start).
 
 // weidemanCoefficients returns the coefficients a_1 … a_n of Weideman's
 // expansion
@@ -302,15 +301,11 @@ var asymC = func() (c [82]float64) {
 	return c
 }()
 
-// asymTable[i] is the number K of terms beyond the first that the
-// asymptotic series needs for |z|² ≥ i (64 ≤ i < 4096): the smallest K with
-// Π_{k<K} (2k+1)/(2|z|²) < 1e-18.
-var asymTable = func() (t [4096]uint8) {
-	for i := int(asymR2); i < len(t); i++ {
-		t[i] = uint8(asymTermsSlow(float64(i)))
-	}
-	return t
-}()
+// asymTable (faddeeva_table.go) gives in asymTable[i] the number K of
+// terms beyond the first that the asymptotic series needs for |z|² ≥ i
+// (64 ≤ i < 4096): the smallest K with Π_{k<K} (2k+1)/(2|z|²) < 1e-18, as
+// asymTermsSlow(i) computes it (0 below 64; generated, checked by
+// TestFaddeevaTablesGenerated).
 
 func asymTermsSlow(r2 float64) int {
 	mag := 1.0

@@ -1,0 +1,165 @@
+package spectrum
+
+import (
+	"bytes"
+	"encoding/json"
+	"fmt"
+	"math"
+	"slices"
+	"strconv"
+	"strings"
+	"unicode/utf8"
+)
+
+// AppendJSON appends the JSON encoding of r to b: byte for byte what
+// encoding/json's Encoder with SetEscapeHTML(false) writes (without its
+// newline), without reflection. The per-type code is generated from the
+// types (result_json.go; TestResultJSONGenerated keeps it current, and
+// TestAppendJSONMatchesEncodingJSON compares the output). A NaN or ±Inf
+// anywhere gives an error, as encoding/json's does (the text differs:
+// callers that report it re-encode with encoding/json).
+func AppendJSON(b []byte, r *Result) ([]byte, error) {
+	return appendJSONResult(b, r)
+}
+
+// jsonSafe[c] is true for the ASCII bytes that encoding/json writes
+// unescaped in a string when HTML escaping is off.
+var jsonSafe = func() (t [utf8.RuneSelf]bool) {
+	for c := 0x20; c < utf8.RuneSelf; c++ {
+		t[c] = c != '"' && c != '\\'
+	}
+	return t
+}()
+
+const jsonHex = "0123456789abcdef"
+
+// appendJSONString is encoding/json's string encoding with HTML escaping
+// off: control characters escaped, invalid UTF-8 as \ufffd, U+2028 and
+// U+2029 escaped.
+func appendJSONString(dst []byte, src string) []byte {
+	dst = append(dst, '"')
+	start := 0
+	for i := 0; i < len(src); {
+		// Eight safe ASCII bytes at a time (no control character, quote,
+		// backslash or byte ≥ 0x80; the zero-byte test of Hacker's Delight
+		// §6-1 on the word).
+		for i+8 <= len(src) {
+			w := uint64(src[i]) | uint64(src[i+1])<<8 | uint64(src[i+2])<<16 | uint64(src[i+3])<<24 |
+				uint64(src[i+4])<<32 | uint64(src[i+5])<<40 | uint64(src[i+6])<<48 | uint64(src[i+7])<<56
+			const lo, hi = 0x0101010101010101, 0x8080808080808080
+			q, bs := w^(0x22*lo), w^(0x5C*lo)
+			if ((w-0x20*lo)|(q-lo)|(bs-lo)|w)&hi != 0 {
+				break
+			}
+			i += 8
+		}
+		if i >= len(src) {
+			break
+		}
+		if c := src[i]; c < utf8.RuneSelf {
+			if jsonSafe[c] {
+				i++
+				continue
+			}
+			dst = append(dst, src[start:i]...)
+			switch c {
+			case '\\', '"':
+				dst = append(dst, '\\', c)
+			case '\b':
+				dst = append(dst, '\\', 'b')
+			case '\f':
+				dst = append(dst, '\\', 'f')
+			case '\n':
+				dst = append(dst, '\\', 'n')
+			case '\r':
+				dst = append(dst, '\\', 'r')
+			case '\t':
+				dst = append(dst, '\\', 't')
+			default:
+				dst = append(dst, '\\', 'u', '0', '0', jsonHex[c>>4], jsonHex[c&0xF])
+			}
+			i++
+			start = i
+			continue
+		}
+		r, size := utf8.DecodeRuneInString(src[i:])
+		if r == utf8.RuneError && size == 1 {
+			dst = append(dst, src[start:i]...)
+			dst = append(dst, `\ufffd`...)
+			i += size
+			start = i
+			continue
+		}
+		if r == '\u2028' || r == '\u2029' {
+			dst = append(dst, src[start:i]...)
+			dst = append(dst, '\\', 'u', '2', '0', '2', jsonHex[r&0xF])
+			i += size
+			start = i
+			continue
+		}
+		i += size
+	}
+	dst = append(dst, src[start:]...)
+	return append(dst, '"')
+}
+
+// appendJSONFloat is encoding/json's float64 encoding (ES6 number form);
+// NaN and ±Inf are an error.
+func appendJSONFloat(b []byte, f float64) ([]byte, error) {
+	if math.IsInf(f, 0) || math.IsNaN(f) {
+		return b, fmt.Errorf("json: unsupported value: %s", strconv.FormatFloat(f, 'g', -1, 64))
+	}
+	abs := math.Abs(f)
+	format := byte('f')
+	if abs != 0 && (abs < 1e-6 || abs >= 1e21) {
+		format = 'e'
+	}
+	b = strconv.AppendFloat(b, f, format, -1, 64)
+	if format == 'e' {
+		// e-09 → e-9
+		if n := len(b); n >= 4 && b[n-4] == 'e' && b[n-3] == '-' && b[n-2] == '0' {
+			b[n-2] = b[n-1]
+			b = b[:n-1]
+		}
+	}
+	return b, nil
+}
+
+// appendJSONMapIntFloat is encoding/json's encoding of a map[int]float64:
+// keys as strings, sorted as strings.
+func appendJSONMapIntFloat(b []byte, m map[int]float64) ([]byte, error) {
+	if m == nil {
+		return append(b, "null"...), nil
+	}
+	keys := make([]int, 0, len(m))
+	for k := range m {
+		keys = append(keys, k)
+	}
+	slices.SortFunc(keys, func(x, y int) int { return strings.Compare(strconv.Itoa(x), strconv.Itoa(y)) })
+	b = append(b, '{')
+	for i, k := range keys {
+		if i > 0 {
+			b = append(b, ',')
+		}
+		b = append(b, '"')
+		b = strconv.AppendInt(b, int64(k), 10)
+		b = append(b, '"', ':')
+		var err error
+		if b, err = appendJSONFloat(b, m[k]); err != nil {
+			return b, err
+		}
+	}
+	return append(b, '}'), nil
+}
+
+// appendJSONMarshaler encodes v, which has its own MarshalJSON, through
+// encoding/json (rare: window data).
+func appendJSONMarshaler(b []byte, v json.Marshaler) ([]byte, error) {
+	var buf bytes.Buffer
+	enc := json.NewEncoder(&buf)
+	enc.SetEscapeHTML(false)
+	if err := enc.Encode(v); err != nil {
+		return b, err
+	}
+	return append(b, bytes.TrimSuffix(buf.Bytes(), []byte{'\n'})...), nil
+}
