@@ -71,7 +71,10 @@ func (l *Line) Shape(neM3, tK float64) (Shape, error) {
 				continue
 			}
 			j, k := c.j+dj, c.k+dk
-			np := l.nodes[j][k]
+			np, err := l.node(j, k)
+			if err != nil {
+				return Shape{}, err
+			}
 			if np == nil {
 				// locate checked the corners of non-zero weight; a missing
 				// corner of zero weight only loses the derivative there.

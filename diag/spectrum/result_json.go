@@ -1596,6 +1596,25 @@ func appendJSONWholeFit(b []byte, v *WholeFit) ([]byte, error) {
 	if len(b) > n0 {
 		b = append(b, ',')
 	}
+	b = append(b, "\"boltzmann_delta_chi2\":"...)
+	if b, err = appendJSONFloat(b, float64(v.BoltzmannDeltaChi2)); err != nil {
+		return b, err
+	}
+	if len(b) > n0 {
+		b = append(b, ',')
+	}
+	b = append(b, "\"boltzmann_dof\":"...)
+	b = strconv.AppendInt(b, int64(v.BoltzmannDOF), 10)
+	if len(b) > n0 {
+		b = append(b, ',')
+	}
+	b = append(b, "\"boltzmann_p\":"...)
+	if b, err = appendJSONFloat(b, float64(v.BoltzmannP)); err != nil {
+		return b, err
+	}
+	if len(b) > n0 {
+		b = append(b, ',')
+	}
 	b = append(b, "\"doppler_note\":"...)
 	b = appendJSONString(b, string(v.DopplerNote))
 	if len(b) > n0 {
@@ -1660,6 +1679,26 @@ func appendJSONWholeFit(b []byte, v *WholeFit) ([]byte, error) {
 			return b, err
 		}
 	}
+	if len(v.ExcitationTemperatureUncParts) != 0 {
+		if len(b) > n0 {
+			b = append(b, ',')
+		}
+		b = append(b, "\"excitation_temperature_unc_sys_parts\":"...)
+		if v.ExcitationTemperatureUncParts == nil {
+			b = append(b, "null"...)
+		} else {
+			b = append(b, '[')
+			for i2 := range v.ExcitationTemperatureUncParts {
+				if i2 > 0 {
+					b = append(b, ',')
+				}
+				if b, err = appendJSONDiagUncPart(b, &v.ExcitationTemperatureUncParts[i2]); err != nil {
+					return b, err
+				}
+			}
+			b = append(b, ']')
+		}
+	}
 	if len(b) > n0 {
 		b = append(b, ',')
 	}
@@ -1702,6 +1741,26 @@ func appendJSONWholeFit(b []byte, v *WholeFit) ([]byte, error) {
 	} else {
 		if b, err = appendJSONFloat(b, float64((*v.ElectronDensityUncM3))); err != nil {
 			return b, err
+		}
+	}
+	if len(v.ElectronDensityUncParts) != 0 {
+		if len(b) > n0 {
+			b = append(b, ',')
+		}
+		b = append(b, "\"electron_density_unc_sys_parts\":"...)
+		if v.ElectronDensityUncParts == nil {
+			b = append(b, "null"...)
+		} else {
+			b = append(b, '[')
+			for i2 := range v.ElectronDensityUncParts {
+				if i2 > 0 {
+					b = append(b, ',')
+				}
+				if b, err = appendJSONDiagUncPart(b, &v.ElectronDensityUncParts[i2]); err != nil {
+					return b, err
+				}
+			}
+			b = append(b, ']')
 		}
 	}
 	if v.GasTemperatureK != nil {
