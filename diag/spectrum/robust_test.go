@@ -15,6 +15,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"os"
 	"slices"
 	"strings"
 	"testing"
@@ -399,4 +400,42 @@ func TestWindowsCoverFittedWidth(t *testing.T) {
 		t.Fatalf("only %d of 30 spectra fitted", fitted)
 	}
 	t.Logf("%d fitted, %d with windows narrower than ±4 fitted FWHM", fitted, narrow)
+}
+
+// TestMeasureSurveyAreas (GLOWLOG_MEASURE_SHAPE=1) prints, per line
+// class, the corrected and raw areas of dense survey spectra
+// (surveyScene, a seed of its own) against the truth, with the fit's r and
+// q and whether the line was fitted jointly.
+func TestMeasureSurveyAreas(t *testing.T) {
+	if os.Getenv("GLOWLOG_MEASURE_SHAPE") == "" {
+		t.Skip("set GLOWLOG_MEASURE_SHAPE=1 to measure the corrected areas of dense survey spectra")
+	}
+	p := NewPipeline(8192)
+	rng := rand.New(rand.NewPCG(4711, 9))
+	var b strings.Builder
+	for k := 0; k < 120; k++ {
+		sc, snr := surveyScene(rng)
+		y := sc.counts(t, rng)
+		res, err := p.Analyze(&Spectrum{Name: "survey", WavelengthNM: sc.x, Counts: y}, sc.options())
+		if err != nil {
+			continue
+		}
+		areas := sc.areas(t)
+		for _, lr := range res.Lines {
+			if lr.Intensity == nil || lr.ProfileFit == nil {
+				continue
+			}
+			k := slices.Index(sc.uppers, lr.UpperLevel)
+			if k < 0 {
+				continue
+			}
+			f := lr.ProfileFit
+			r := math.Max(f.VoigtLorentzFWHMNM, 0) / f.GaussFWHMNM
+			hw := math.Min(f.CenterNM-f.WindowNM[0], f.WindowNM[1]-f.CenterNM) / f.TotalFWHMNM
+			fmt.Fprintf(&b, "SURV n=%d ne=%.3g inst=%.2f snr=%.0f r=%.3f q=%.3f joint=%d hw=%.2f chi2=%.2f raw=%+.4f cor=%+.4f sig=%.4f\n",
+				lr.UpperLevel, sc.ne, sc.instG, snr, r, f.ContinuumToPeak, len(f.JointWith), hw, f.ReducedChi2,
+				math.Log(f.VoigtArea/areas[k]), math.Log(*lr.Intensity/areas[k]), *lr.IntensityUnc / *lr.Intensity)
+		}
+	}
+	t.Log("\n" + b.String())
 }
