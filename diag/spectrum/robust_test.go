@@ -413,6 +413,12 @@ func TestMeasureSurveyAreas(t *testing.T) {
 	p := NewPipeline(8192)
 	rng := rand.New(rand.NewPCG(4711, 9))
 	var b strings.Builder
+	type row struct {
+		upper         int
+		snr, raw, cor float64
+		pull, lnQ     float64
+	}
+	var rows []row
 	for k := 0; k < 120; k++ {
 		sc, snr := surveyScene(rng)
 		y := sc.counts(t, rng)
@@ -421,6 +427,16 @@ func TestMeasureSurveyAreas(t *testing.T) {
 			continue
 		}
 		areas := sc.areas(t)
+		// The same scene without noise: the search's continuum/peak
+		// without the noise's bias.
+		q0 := map[int]float64{}
+		if r0, err := p.Analyze(&Spectrum{Name: "survey", WavelengthNM: sc.x, Counts: sc.counts(t, nil)}, sc.options()); err == nil {
+			for _, lr := range r0.Lines {
+				if lr.ProfileFit != nil {
+					q0[lr.UpperLevel] = lr.ContinuumToPeak
+				}
+			}
+		}
 		for _, lr := range res.Lines {
 			if lr.Intensity == nil || lr.ProfileFit == nil {
 				continue
@@ -432,9 +448,45 @@ func TestMeasureSurveyAreas(t *testing.T) {
 			f := lr.ProfileFit
 			r := math.Max(f.VoigtLorentzFWHMNM, 0) / f.GaussFWHMNM
 			hw := math.Min(f.CenterNM-f.WindowNM[0], f.WindowNM[1]-f.CenterNM) / f.TotalFWHMNM
-			fmt.Fprintf(&b, "SURV n=%d ne=%.3g inst=%.2f snr=%.0f r=%.3f q=%.3f joint=%d hw=%.2f chi2=%.2f raw=%+.4f cor=%+.4f sig=%.4f\n",
-				lr.UpperLevel, sc.ne, sc.instG, snr, r, f.ContinuumToPeak, len(f.JointWith), hw, f.ReducedChi2,
+			q0v := math.NaN()
+			if v, ok := q0[lr.UpperLevel]; ok {
+				q0v = v
+			}
+			fmt.Fprintf(&b, "SURV n=%d ne=%.3g inst=%.2f snr=%.0f r=%.3f q0=%.3f q=%.3f joint=%d hw=%.2f chi2=%.2f raw=%+.4f cor=%+.4f sig=%.4f\n",
+				lr.UpperLevel, sc.ne, sc.instG, snr, r, q0v, f.ContinuumToPeak, len(f.JointWith), hw, f.ReducedChi2,
 				math.Log(f.VoigtArea/areas[k]), math.Log(*lr.Intensity/areas[k]), *lr.IntensityUnc / *lr.Intensity)
+			cor := math.Log(*lr.Intensity / areas[k])
+			rows = append(rows, row{lr.UpperLevel, snr, math.Log(f.VoigtArea / areas[k]), cor,
+				cor / (*lr.IntensityUnc / *lr.Intensity), math.Log(f.ContinuumToPeak / q0v)})
+		}
+	}
+	// Per line and Hα peak SNR: means of ln(A/A_true) raw and corrected,
+	// of the pull, the fraction within 1σ, and the mean ln(q/q₀) of the
+	// search's continuum/peak against the noise-free spectrum's.
+	for u := 3; u <= 8; u++ {
+		for _, band := range [][2]float64{{0, 150}, {150, 600}, {600, math.Inf(1)}} {
+			var n, in1, nq int
+			var raw, cor, pull, lq float64
+			for _, r := range rows {
+				if r.upper != u || r.snr < band[0] || r.snr >= band[1] {
+					continue
+				}
+				n++
+				raw, cor, pull = raw+r.raw, cor+r.cor, pull+r.pull
+				if math.Abs(r.pull) <= 1 {
+					in1++
+				}
+				if !math.IsNaN(r.lnQ) && !math.IsInf(r.lnQ, 0) {
+					lq += r.lnQ
+					nq++
+				}
+			}
+			if n < 3 {
+				continue
+			}
+			fn := float64(n)
+			fmt.Fprintf(&b, "n=%d Hα SNR %4.0f–%-4.0f %3d: ln(A/A_true) raw %+.4f corrected %+.4f, mean pull %+.2f, within 1σ %.0f %%, ln(q/q₀) %+.3f (%d)\n",
+				u, band[0], band[1], n, raw/fn, cor/fn, pull/fn, 100*float64(in1)/fn, lq/math.Max(float64(nq), 1), nq)
 		}
 	}
 	t.Log("\n" + b.String())
