@@ -287,7 +287,7 @@ func TestMeasureShapeTable(t *testing.T) {
 		}
 	}
 	t.Logf("%d lines measured, %d fits astray left out", len(all), astray)
-	var b strings.Builder
+	var b, counted strings.Builder
 	for class := range shapeClasses {
 		b.WriteString("\t{\n")
 		for qb := range shapeQEdges {
@@ -299,6 +299,7 @@ func TestMeasureShapeTable(t *testing.T) {
 			}
 			fmt.Fprintf(&b, "\t\t{ // %s, continuum/peak bin %d, %d cases\n", shapeClasses[class], qb, len(cs))
 			var rows [4][]float64
+			var counts []int
 			for _, q := range []string{"width", "area"} {
 				var mean, rms []float64
 				for k := range shapeNodes {
@@ -319,6 +320,9 @@ func TestMeasureShapeTable(t *testing.T) {
 								v = append(v, math.Log(x))
 							}
 						}
+					}
+					if q == "area" {
+						counts = append(counts, len(v))
 					}
 					if len(v) < 3 {
 						mean = append(mean, math.NaN())
@@ -349,11 +353,13 @@ func TestMeasureShapeTable(t *testing.T) {
 			for _, row := range rows {
 				fmt.Fprintf(&b, "\t\t\t%s,\n", goSlice(holdNearest(row)))
 			}
+			fmt.Fprintf(&counted, "%s, q bin %d: area cases per node %v\n", shapeClasses[class], qb, counts)
 			b.WriteString("\t\t},\n")
 		}
 		b.WriteString("\t},\n")
 	}
 	t.Log("\n" + b.String())
+	t.Log("\n" + counted.String())
 }
 
 // holdNearest returns v with every NaN replaced by its nearest non-NaN
