@@ -420,7 +420,11 @@ func TestWindowsCoverFittedWidth(t *testing.T) {
 // Hγ +2.9 % (+0.52, 59 %), Hδ −2.0 % (−0.01, 55 %); with the three-bin
 // table Hβ +3.7 % (+1.23, 38 %), Hγ +4.4 % (+1.14, 37 %), Hδ +2.0 %.
 // T_exc (114 spectra): within 1σ 90, within 2σ 114, median pull +0.45
-// (three-bin table: 39, 74, +1.53).
+// (three-bin table: 39, 74, +1.53). The corrected Stark widths (width
+// rows of 2026-12-01, kept) against the tables' (T_e 10⁴ K spectra):
+// Hα +0.5 %, Hβ +5.2 %, Hγ +1.4 %, Hδ +0.7 %, H7 +4.0 %; with the width
+// rows re-measured in six q bins (not taken, see shapeTable) +0.2, +2.8,
+// −1.8, −4.3, −0.5 %.
 func TestMeasureSurveyAreas(t *testing.T) {
 	if os.Getenv("GLOWLOG_MEASURE_SHAPE") == "" {
 		t.Skip("set GLOWLOG_MEASURE_SHAPE=1 to measure the corrected areas of dense survey spectra")
@@ -436,6 +440,7 @@ func TestMeasureSurveyAreas(t *testing.T) {
 	var rows []row
 	var nT, t1, t2 int
 	var tz []float64
+	widthErr := map[int][]float64{}
 	for k := 0; k < 120; k++ {
 		sc, snr := surveyScene(rng)
 		y := sc.counts(t, rng)
@@ -483,6 +488,13 @@ func TestMeasureSurveyAreas(t *testing.T) {
 			fmt.Fprintf(&b, "SURV n=%d ne=%.3g inst=%.2f snr=%.0f r=%.3f q0=%.3f q=%.3f joint=%d hw=%.2f chi2=%.2f raw=%+.4f cor=%+.4f sig=%.4f\n",
 				lr.UpperLevel, sc.ne, sc.instG, snr, r, q0v, f.ContinuumToPeak, len(f.JointWith), hw, f.ReducedChi2,
 				math.Log(f.VoigtArea/areas[k]), math.Log(*lr.Intensity/areas[k]), *lr.IntensityUnc / *lr.Intensity)
+			// The corrected Stark width against the tables' (T_e = 10⁴ K
+			// spectra only: the tables' widths are taken at shapeTe).
+			if lr.LorentzFWHMNM != nil && sc.te == shapeTe {
+				if wS, err := starkWidth(lr.UpperLevel, sc.ne); err == nil {
+					widthErr[lr.UpperLevel] = append(widthErr[lr.UpperLevel], math.Log(*lr.LorentzFWHMNM/wS))
+				}
+			}
 			cor := math.Log(*lr.Intensity / areas[k])
 			rows = append(rows, row{lr.UpperLevel, snr, math.Log(f.VoigtArea / areas[k]), cor,
 				cor / (*lr.IntensityUnc / *lr.Intensity), math.Log(f.ContinuumToPeak / q0v)})
@@ -516,6 +528,15 @@ func TestMeasureSurveyAreas(t *testing.T) {
 			fn := float64(n)
 			fmt.Fprintf(&b, "n=%d Hα SNR %4.0f–%-4.0f %3d: ln(A/A_true) raw %+.4f corrected %+.4f, mean pull %+.2f, within 1σ %.0f %%, ln(q/q₀) %+.3f (%d)\n",
 				u, band[0], band[1], n, raw/fn, cor/fn, pull/fn, 100*float64(in1)/fn, lq/math.Max(float64(nq), 1), nq)
+		}
+	}
+	for u := 3; u <= 8; u++ {
+		if v := widthErr[u]; len(v) >= 3 {
+			m, q := 0.0, 0.0
+			for _, e := range v {
+				m, q = m+e, q+e*e
+			}
+			fmt.Fprintf(&b, "n=%d corrected Stark width (T_e 10⁴ K spectra) %3d: mean ln(w/w_true) %+.4f, rms %.4f\n", u, len(v), m/float64(len(v)), math.Sqrt(q/float64(len(v))))
 		}
 	}
 	t.Log("\n" + b.String())
