@@ -15,6 +15,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"os"
 	"slices"
 	"strings"
 	"testing"
@@ -238,7 +239,11 @@ func surveyScene(rng *rand.Rand) (sh99Scene, float64) {
 // with windows over the whole range, and their areas and narrow widths
 // made n_e 5–100× too low and the Boltzmann slope positive); T_exc's
 // median error is below 5 %; the truth lies within 2σ of n_e in at least
-// 80 % of the spectra and of T_exc in at least 70 %.
+// 80 % of the spectra and of T_exc in at least 70 %. Measured 2026-12-02:
+// n_e median 3.6 %, 24/24 within 2σ; T_exc (23 spectra) median 1.2 %,
+// 19 within 2σ. With the Stark-shape table of three continuum/peak bins
+// (measured to q ≈ 0.6, held above) T_exc was 2.8 % and 11: the weak
+// members' corrected areas 3–7 % high (TestMeasureSurveyAreas).
 func TestDenseSurvey(t *testing.T) {
 	p := NewPipeline(8192)
 	rng := rand.New(rand.NewPCG(99, 3))
@@ -399,4 +404,140 @@ func TestWindowsCoverFittedWidth(t *testing.T) {
 		t.Fatalf("only %d of 30 spectra fitted", fitted)
 	}
 	t.Logf("%d fitted, %d with windows narrower than ±4 fitted FWHM", fitted, narrow)
+}
+
+// TestMeasureSurveyAreas (GLOWLOG_MEASURE_SHAPE=1) prints, per line, the
+// corrected and raw areas of 120 dense survey spectra (surveyScene, a seed
+// of its own) against the truth, with the fit's r and q (and q₀, the
+// search's q on the same spectrum without noise) and whether the line was
+// fitted jointly, then means per line and Hα peak SNR. Measured
+// 2026-12-02 (six-bin table): Hα −0.3 … −0.5 % (pull −0.5); Hβ +0.3 %
+// at Hα SNR ≥ 150 but +4.1 % (pull +0.7) below it, where the search's
+// continuum/peak is 23 % low (ln(q/q₀) −0.26: the low-percentile baseline
+// sits below the continuum and the highest core pixel above the peak by
+// a noise σ or more), which picks too small a correction; Hγ +1.8 … +2.4 %
+// at Hα SNR ≥ 150. All SNR: Hβ +1.7 % (mean pull +0.45, 77 % within 1σ),
+// Hγ +2.9 % (+0.52, 59 %), Hδ −2.0 % (−0.01, 55 %); with the three-bin
+// table Hβ +3.7 % (+1.23, 38 %), Hγ +4.4 % (+1.14, 37 %), Hδ +2.0 %.
+// T_exc (114 spectra): within 1σ 90, within 2σ 114, median pull +0.45
+// (three-bin table: 39, 74, +1.53). The corrected Stark widths (width
+// rows of 2026-12-01, kept) against the tables' (T_e 10⁴ K spectra):
+// Hα +0.5 %, Hβ +5.2 %, Hγ +1.4 %, Hδ +0.7 %, H7 +4.0 %; with the width
+// rows re-measured in six q bins (not taken, see shapeTable) +0.2, +2.8,
+// −1.8, −4.3, −0.5 %.
+func TestMeasureSurveyAreas(t *testing.T) {
+	if os.Getenv("GLOWLOG_MEASURE_SHAPE") == "" {
+		t.Skip("set GLOWLOG_MEASURE_SHAPE=1 to measure the corrected areas of dense survey spectra")
+	}
+	p := NewPipeline(8192)
+	rng := rand.New(rand.NewPCG(4711, 9))
+	var b strings.Builder
+	type row struct {
+		upper         int
+		snr, raw, cor float64
+		pull, lnQ     float64
+	}
+	var rows []row
+	var nT, t1, t2 int
+	var tz []float64
+	widthErr := map[int][]float64{}
+	for k := 0; k < 120; k++ {
+		sc, snr := surveyScene(rng)
+		y := sc.counts(t, rng)
+		res, err := p.Analyze(&Spectrum{Name: "survey", WavelengthNM: sc.x, Counts: y}, sc.options())
+		if err != nil {
+			continue
+		}
+		if res.ExcitationTemperatureK != nil && res.ExcitationTemperatureUncK != nil {
+			d := math.Abs(*res.ExcitationTemperatureK-sc.tExc) / *res.ExcitationTemperatureUncK
+			nT++
+			if d <= 1 {
+				t1++
+			}
+			if d <= 2 {
+				t2++
+			}
+			tz = append(tz, (*res.ExcitationTemperatureK-sc.tExc) / *res.ExcitationTemperatureUncK)
+		}
+		areas := sc.areas(t)
+		// The same scene without noise: the search's continuum/peak
+		// without the noise's bias.
+		q0 := map[int]float64{}
+		if r0, err := p.Analyze(&Spectrum{Name: "survey", WavelengthNM: sc.x, Counts: sc.counts(t, nil)}, sc.options()); err == nil {
+			for _, lr := range r0.Lines {
+				if lr.ProfileFit != nil {
+					q0[lr.UpperLevel] = lr.ContinuumToPeak
+				}
+			}
+		}
+		for _, lr := range res.Lines {
+			if lr.Intensity == nil || lr.ProfileFit == nil {
+				continue
+			}
+			k := slices.Index(sc.uppers, lr.UpperLevel)
+			if k < 0 {
+				continue
+			}
+			f := lr.ProfileFit
+			r := math.Max(f.VoigtLorentzFWHMNM, 0) / f.GaussFWHMNM
+			hw := math.Min(f.CenterNM-f.WindowNM[0], f.WindowNM[1]-f.CenterNM) / f.TotalFWHMNM
+			q0v := math.NaN()
+			if v, ok := q0[lr.UpperLevel]; ok {
+				q0v = v
+			}
+			fmt.Fprintf(&b, "SURV n=%d ne=%.3g inst=%.2f snr=%.0f r=%.3f q0=%.3f q=%.3f joint=%d hw=%.2f chi2=%.2f raw=%+.4f cor=%+.4f sig=%.4f\n",
+				lr.UpperLevel, sc.ne, sc.instG, snr, r, q0v, f.ContinuumToPeak, len(f.JointWith), hw, f.ReducedChi2,
+				math.Log(f.VoigtArea/areas[k]), math.Log(*lr.Intensity/areas[k]), *lr.IntensityUnc / *lr.Intensity)
+			// The corrected Stark width against the tables' (T_e = 10⁴ K
+			// spectra only: the tables' widths are taken at shapeTe).
+			if lr.LorentzFWHMNM != nil && sc.te == shapeTe {
+				if wS, err := starkWidth(lr.UpperLevel, sc.ne); err == nil {
+					widthErr[lr.UpperLevel] = append(widthErr[lr.UpperLevel], math.Log(*lr.LorentzFWHMNM/wS))
+				}
+			}
+			cor := math.Log(*lr.Intensity / areas[k])
+			rows = append(rows, row{lr.UpperLevel, snr, math.Log(f.VoigtArea / areas[k]), cor,
+				cor / (*lr.IntensityUnc / *lr.Intensity), math.Log(f.ContinuumToPeak / q0v)})
+		}
+	}
+	fmt.Fprintf(&b, "T_exc: %d spectra, within 1σ %d, within 2σ %d, median (T − T_true)/σ %+.2f\n", nT, t1, t2, median(tz))
+	// Per line and Hα peak SNR: means of ln(A/A_true) raw and corrected,
+	// of the pull, the fraction within 1σ, and the mean ln(q/q₀) of the
+	// search's continuum/peak against the noise-free spectrum's.
+	for u := 3; u <= 8; u++ {
+		for _, band := range [][2]float64{{0, 150}, {150, 600}, {600, math.Inf(1)}} {
+			var n, in1, nq int
+			var raw, cor, pull, lq float64
+			for _, r := range rows {
+				if r.upper != u || r.snr < band[0] || r.snr >= band[1] {
+					continue
+				}
+				n++
+				raw, cor, pull = raw+r.raw, cor+r.cor, pull+r.pull
+				if math.Abs(r.pull) <= 1 {
+					in1++
+				}
+				if !math.IsNaN(r.lnQ) && !math.IsInf(r.lnQ, 0) {
+					lq += r.lnQ
+					nq++
+				}
+			}
+			if n < 3 {
+				continue
+			}
+			fn := float64(n)
+			fmt.Fprintf(&b, "n=%d Hα SNR %4.0f–%-4.0f %3d: ln(A/A_true) raw %+.4f corrected %+.4f, mean pull %+.2f, within 1σ %.0f %%, ln(q/q₀) %+.3f (%d)\n",
+				u, band[0], band[1], n, raw/fn, cor/fn, pull/fn, 100*float64(in1)/fn, lq/math.Max(float64(nq), 1), nq)
+		}
+	}
+	for u := 3; u <= 8; u++ {
+		if v := widthErr[u]; len(v) >= 3 {
+			m, q := 0.0, 0.0
+			for _, e := range v {
+				m, q = m+e, q+e*e
+			}
+			fmt.Fprintf(&b, "n=%d corrected Stark width (T_e 10⁴ K spectra) %3d: mean ln(w/w_true) %+.4f, rms %.4f\n", u, len(v), m/float64(len(v)), math.Sqrt(q/float64(len(v))))
+		}
+	}
+	t.Log("\n" + b.String())
 }
