@@ -204,10 +204,22 @@ func applySettingFields(c echo.Context, st *AnalysisSettings) error {
 	if v := strings.TrimSpace(c.FormValue("line_shape")); v != "" {
 		st.LineShape = v
 	}
+	// The route and the whole-fit options: given ones replace the run's;
+	// whole-fit options carried over are dropped when the route is lines
+	// (route.go).
+	if v := strings.TrimSpace(c.FormValue("model")); v != "" {
+		st.Model = v
+	}
+	givenWhole := false
+	if v := strings.TrimSpace(c.FormValue("whole_areas")); v != "" {
+		st.WholeAreas, givenWhole = v, true
+	}
 	bools := []struct {
-		name string
-		p    *bool
-	}{{"solve_gas_temperature", &st.SolveGasTemperature}, {"correct_offset", &st.CorrectOffset}}
+		name  string
+		p     *bool
+		whole bool
+	}{{"solve_gas_temperature", &st.SolveGasTemperature, false}, {"correct_offset", &st.CorrectOffset, false},
+		{"whole_free_gas_temperature", &st.WholeFreeGasTemperature, true}, {"whole_free_instrument", &st.WholeFreeInstrument, true}}
 	for _, f := range bools {
 		v := strings.TrimSpace(c.FormValue(f.name))
 		if v == "" {
@@ -218,7 +230,9 @@ func applySettingFields(c echo.Context, st *AnalysisSettings) error {
 			return badRequest("%s: %q is not true or false", f.name, v)
 		}
 		*f.p = x
+		givenWhole = givenWhole || (f.whole && x)
 	}
+	st.dropWholeOptions(givenWhole)
 	if v := strings.TrimSpace(c.FormValue("max_upper")); v != "" {
 		n, err := strconv.Atoi(v)
 		if err != nil {

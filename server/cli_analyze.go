@@ -73,7 +73,7 @@ var conditionFlags = []string{"isotope", "instrument-fwhm-nm", "instrument-loren
 	"electron-temperature-K", "response-unc-rel", "pressure-Pa", "perturber",
 	"ground-state-density-m3", "intensity-unit", "dark", "response", "lamp", "lamp-irradiance", "grey-body-K",
 	"saturation-counts", "gain-e-per-count", "read-noise-e", "correct-offset", "min-snr", "max-upper", "windows",
-	"x-unit", "vacuum-axis", "calibrated", "line-shape"}
+	"x-unit", "vacuum-axis", "calibrated", "line-shape", "areas", "free-gas-temperature", "free-instrument"}
 
 func analyzeFlags(stderr io.Writer) (*flag.FlagSet, *analyzeConfig) {
 	c := &analyzeConfig{}
@@ -99,6 +99,10 @@ flags (spectra only):
 	fs.Float64Var(&c.instGUnc, "instrument-fwhm-unc-nm", 0, "1σ of the instrument's Gaussian FWHM, nm (enters the systematic σ of n_e)")
 	fs.Float64Var(&c.electronT, "electron-temperature-K", 0, fmt.Sprintf("electron temperature of the Stark tables, K (default %g)", diag.DefaultElectronTemperatureK))
 	fs.StringVar(&c.opt.LineShape, "line-shape", "stark", "line shape of the spectrum fits: stark (Voigt fits corrected for the Stark shape of Balmer lines) or voigt (as fitted, for Voigt-shaped synthetic spectra)")
+	fs.StringVar(&c.opt.Model, "model", "", "analysis route of spectra: whole (one physical model fitted over the whole range: areas tied by T_exc, every Stark width by one n_e) or lines (each line's window on its own, then the Boltzmann plot and the widths); default: "+defaultModel+". Measurement sets are always analysed line by line")
+	fs.StringVar(&c.opt.WholeAreas, "areas", "", "whole route only: boltzmann (line areas tied by T_exc, the default) or free (each line its own area; T_exc from a Boltzmann plot of them)")
+	fs.BoolVar(&c.opt.WholeFreeGasTemperature, "free-gas-temperature", false, "whole route only: fit the gas temperature (the Doppler width) instead of taking it as given")
+	fs.BoolVar(&c.opt.WholeFreeInstrument, "free-instrument", false, "whole route only: fit the instrument's Gaussian width and its slope with wavelength instead of taking them as given")
 	fs.Float64Var(&c.responseUnc, "response-unc-rel", 0, "relative 1σ of the response calibration between the extreme lines (e.g. 0.05)")
 	fs.BoolVar(&c.solveGas, "solve-gas-temperature", false, "solve n_e and gas temperature together from Hα and Hβ")
 	fs.Float64Var(&c.pressure, "pressure-Pa", 0, "pressure of the perturber gas, Pa")
@@ -283,6 +287,9 @@ func (c *analyzeConfig) analyzeOne(p *spectrum.Pipeline, buf *[]byte, name strin
 		*buf, data = b, b
 	}
 	if c.isMeasurementSet(data) {
+		if c.opt.Model == spectrum.ModelWhole {
+			return nil, fmt.Errorf("%s: --model whole needs a spectrum: a measurement set (line table) is always analysed line by line", src)
+		}
 		for _, f := range conditionFlags {
 			if c.set[f] {
 				return nil, fmt.Errorf("%s: --%s applies to spectrum files; a measurement set carries its own conditions", src, f)
@@ -481,6 +488,9 @@ func (c *analyzeConfig) load() error {
 	if !spectrum.ValidLineShape(c.opt.LineShape) {
 		return fmt.Errorf("--line-shape must be %s or %s, got %q", spectrum.LineShapeStark, spectrum.LineShapeVoigt, c.opt.LineShape)
 	}
+	if err := checkRouteFlags(c.opt); err != nil {
+		return err
+	}
 	if c.maxUpper != 0 && (c.maxUpper < 3 || c.maxUpper > diag.MaxLevel) {
 		return fmt.Errorf("--max-upper must be 3…%d, got %d", diag.MaxLevel, c.maxUpper)
 	}
@@ -595,6 +605,31 @@ func (c *analyzeConfig) load() error {
 		o.Response, o.ResponseUnit = r, unit
 	case c.irradianceFile != "" || c.greyBodyK > 0:
 		return fmt.Errorf("--lamp-irradiance and --grey-body-K need --lamp")
+	}
+	return nil
+}
+
+// checkRouteFlags checks --model and the whole-fit flags.
+func checkRouteFlags(o spectrum.Options) error {
+	if !spectrum.ValidModel(o.Model) {
+		return fmt.Errorf("--model must be %s or %s, got %q", spectrum.ModelWhole, spectrum.ModelLines, o.Model)
+	}
+	if o.WholeAreas != "" && o.WholeAreas != spectrum.WholeAreasBoltzmann && o.WholeAreas != spectrum.WholeAreasFree {
+		return fmt.Errorf("--areas must be %s or %s, got %q", spectrum.WholeAreasBoltzmann, spectrum.WholeAreasFree, o.WholeAreas)
+	}
+	var given []string
+	if o.WholeAreas != "" {
+		given = append(given, "--areas")
+	}
+	if o.WholeFreeGasTemperature {
+		given = append(given, "--free-gas-temperature")
+	}
+	if o.WholeFreeInstrument {
+		given = append(given, "--free-instrument")
+	}
+	st := AnalysisSettings{Model: o.Model}
+	if len(given) > 0 && st.effectiveModel() != spectrum.ModelWhole {
+		return fmt.Errorf("%s: only the whole-spectrum fit uses it; give --model whole (the route is %s)", strings.Join(given, ", "), st.effectiveModel())
 	}
 	return nil
 }

@@ -301,7 +301,14 @@ func computedWith(settings string) string {
 	if pert == "" {
 		pert = "none"
 	}
-	return strings.Join([]string{instr, gas, "pressure " + num(st.PressurePa, "Pa"), "perturber " + pert}, ", ")
+	route := "route: " + modelLabel(st.effectiveModel())
+	if st.Model == "" {
+		route += " (the default)"
+	}
+	if st.effectiveModel() == spectrum.ModelWhole {
+		route += wholeOptionsText(st)
+	}
+	return strings.Join([]string{instr, gas, "pressure " + num(st.PressurePa, "Pa"), "perturber " + pert, route}, ", ")
 }
 
 // versionRows lists every analysis version with its summary values (one
