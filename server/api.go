@@ -16,6 +16,7 @@ import (
 
 	"glowlog/diag"
 	"glowlog/diag/mset"
+	"glowlog/diag/spectrum"
 	"glowlog/store"
 )
 
@@ -580,9 +581,12 @@ type apiAnalysis struct {
 }
 
 type apiResultEntry struct {
-	AttachmentID              int64    `json:"attachment_id"`
-	Attachment                string   `json:"attachment"`
-	Error                     string   `json:"error,omitempty"`
+	AttachmentID int64  `json:"attachment_id"`
+	Attachment   string `json:"attachment"`
+	Error        string `json:"error,omitempty"`
+	// Model is the route that produced the numbers: "whole" or "lines"
+	// (line tables and results from before the route existed: "lines").
+	Model                     string   `json:"model,omitempty"`
 	ExcitationTemperatureK    *float64 `json:"excitation_temperature_K"`
 	ExcitationTemperatureUncK *float64 `json:"excitation_temperature_unc_K"`
 	ElectronDensityM3         *float64 `json:"electron_density_m3"`
@@ -652,8 +656,13 @@ func (s *Server) apiGetRun(c echo.Context) error {
 					NS *float64       `json:"electron_density_unc_stat_m3"`
 					NY *float64       `json:"electron_density_unc_sys_m3"`
 					NP []diag.UncPart `json:"electron_density_unc_sys_parts"`
+					M  string         `json:"model"`
 				}
 				if json.Unmarshal([]byte(res.Result), &split) == nil {
+					e.Model = split.M
+					if e.Model == "" {
+						e.Model = spectrum.ModelLines
+					}
 					e.ExcitationTemperatureUncStatK, e.ExcitationTemperatureUncSysK = split.TS, split.TY
 					e.ElectronDensityUncStatM3, e.ElectronDensityUncSysM3, e.ElectronDensityUncSysParts = split.NS, split.NY, split.NP
 				}

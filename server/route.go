@@ -139,7 +139,7 @@ func resultModel(sr *spectrum.Result) string {
 
 // routeValues are the route fields of the forms.
 func routeValues(model, areas string, freeGas, freeIn bool) views.RouteValues {
-	return views.RouteValues{Model: model, Default: modelLabel(defaultModel), WholeAreas: areas,
+	return views.RouteValues{Model: model, Default: modelLabel(defaultModel), DefaultModel: defaultModel, WholeAreas: areas,
 		WholeFreeGas: freeGas, WholeFreeIn: freeIn}
 }
 
@@ -159,4 +159,16 @@ func wholeOptionsText(st AnalysisSettings) string {
 		parts = append(parts, "instrument width fitted")
 	}
 	return " (" + strings.Join(parts, ", ") + ")"
+}
+
+// routeWords says which route produced a stored result, for the pages.
+func routeWords(r *decodedResult) string {
+	if r.Spectrum == nil {
+		return "line by line (a line table always is)"
+	}
+	m := resultModel(r.Spectrum)
+	if m == spectrum.ModelWhole {
+		return modelLabel(m) + " (the whole fitted range at once)"
+	}
+	return modelLabel(m) + " (each line's window on its own)"
 }

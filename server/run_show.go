@@ -178,6 +178,11 @@ func (s *Server) showRun(c echo.Context) error {
 			if r.Spectrum != nil {
 				props.Result.Spectrum = s.spectrumFigure(c, base, p, r)
 			}
+			lo, hi, err := zoomRange(c)
+			if err != nil {
+				return err
+			}
+			props.Result.Whole = wholeFitView(base, p, r, lo, hi, true)
 		}
 	}
 	props.Summary = runSummary(p)
@@ -398,7 +403,8 @@ func seriesRows(base string, p *runPage) []views.SeriesRow {
 // whether to embed the figures.
 func resultView(base string, p *runPage, r *decodedResult, inline bool) *views.ResultView {
 	rv := &views.ResultView{AttachmentName: r.AttachmentName, Error: r.Error, D: r.Diag,
-		JSONHref: base + "/analysis.json" + p.query(), CSVHref: base + "/lines.csv" + p.query()}
+		JSONHref: base + "/analysis.json" + p.query(), CSVHref: base + "/lines.csv" + p.query(),
+		Route: routeWords(r)}
 	if r.Diag == nil {
 		return rv
 	}
