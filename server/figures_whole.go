@@ -129,9 +129,11 @@ func WholeFitSVG(w *spectrum.WholeFit, marks []wholeMark, lo, hi float64, yLabel
 	top.Legend.Add("data", sc)
 	top.Legend.Add("model", ln)
 	top.Legend.Top = true
-	top.Legend.Left = true
 	top.Legend.TextStyle.Font.Size = vg.Points(10)
 	top.Y.Min, top.Y.Max = math.Min(y0, 0), y1+0.2*span
+	if hi > lo {
+		top.Y.Min = y0 - 0.05*span // a zoom shows the detail, not the zero
+	}
 
 	bot := newFigure()
 	bot.X.Label.Text = "wavelength (nm, air)"

@@ -127,7 +127,7 @@ func wholeFitView(base string, p *runPage, r *decodedResult, lo, hi float64, inl
 		}
 		row := views.RouteCompareRow{Quantity: q, Unit: unit, Whole: views.ValueUnc(wv, wu), Lines: views.ValueUnc(lv, lu), DiffSigma: "—"}
 		if diff != nil && !math.IsNaN(*diff) && !math.IsInf(*diff, 0) {
-			row.DiffSigma = views.SigFig(*diff, 2)
+			row.DiffSigma = strings.Replace(views.SigFig(*diff, 2), "-", "−", 1)
 			// 2 combined σ: common practice, no source.
 			row.Far = math.Abs(*diff) > 2
 		}
@@ -149,7 +149,7 @@ func wholeFitView(base string, p *runPage, r *decodedResult, lo, hi float64, inl
 			row.Label = p.Name
 		}
 		if p.Fixed || !(p.Unc > 0) {
-			row.Value = views.SigFig(p.Value, 5)
+			row.Value = strings.Replace(strconv.FormatFloat(p.Value, 'g', 6, 64), "-", "−", 1)
 		} else {
 			val, unc := p.Value, p.Unc
 			row.Value = views.ValueUnc(&val, &unc)
