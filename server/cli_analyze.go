@@ -60,6 +60,7 @@ type analyzeConfig struct {
 	windows        bool
 	calibrated     string
 	progress       string
+	text           bool
 	set            map[string]bool // flags given on the command line
 
 	// Loaded once for all files.
@@ -122,6 +123,7 @@ flags (spectra only):
 	fs.IntVar(&c.maxUpper, "max-upper", 0, fmt.Sprintf("highest Balmer member searched (default %d)", spectrum.DefaultMaxUpper))
 	fs.BoolVar(&c.windows, "windows", false, "include each fitted window's data, model and residuals")
 	fs.StringVar(&c.calibrated, "calibrated", "", "the spectra are already response-corrected (calibrated irradiance or radiance, per nm), in photon or energy units")
+	fs.BoolVar(&c.text, "text", false, "print a short summary for people instead of JSON: the route, T_exc, n_e and T_g with their σ, the warnings, and the whole-spectrum fit's parameters, χ² and distance from the line-by-line route")
 	fs.StringVar(&c.progress, "progress", "auto", "progress line on standard error for several files: auto (when it is a terminal), always or never")
 	return fs, c
 }
@@ -205,6 +207,26 @@ func AnalyzeCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) in
 	var out bytes.Buffer // one encoding buffer, reused record after record
 	for i, r := range results {
 		src := sourceName(files[i])
+		if c.text {
+			out.Reset()
+			if errs[i] != nil {
+				fmt.Fprintf(stderr, "glowlog analyze: %v\n", errs[i])
+				if status == ExitOK {
+					status = ExitInput
+				}
+				if single {
+					return status
+				}
+				fmt.Fprintf(&out, "%s\n  not analysed: %v\n\n", src, errs[i])
+			} else {
+				writeTextSummary(&out, src, r)
+			}
+			if _, err := stdout.Write(out.Bytes()); err != nil {
+				fmt.Fprintf(stderr, "glowlog analyze: writing output: %v\n", err)
+				return ExitError
+			}
+			continue
+		}
 		var buf []byte
 		var encErr error
 		if errs[i] == nil {

@@ -13,8 +13,10 @@ import (
 	"strings"
 	"testing"
 
+	"glowlog/diag"
 	"glowlog/diag/spectrum"
 	"glowlog/store"
+	"glowlog/views"
 )
 
 // storedSettings are the settings stored with a run's analysis version.
@@ -314,5 +316,38 @@ func TestDefaultModelIsPipelines(t *testing.T) {
 	}
 	if r.Model != defaultModel {
 		t.Errorf("the pipeline's default route is %q; the forms and checks say %q (server/route.go defaultModel)", r.Model, defaultModel)
+	}
+}
+
+// TestAnalyzeText: --text prints a summary for people; with a whole-
+// spectrum fit (hand-built here) its parameters with σ, χ², the two
+// routes and their disagreement; a bad file in a batch gets its line and
+// exit 2.
+func TestAnalyzeText(t *testing.T) {
+	var buf bytes.Buffer
+	sr := spectrum.Result{Model: spectrum.ModelWhole, Whole: handWholeFit()}
+	sr.Flags = []diag.Flag{{Code: spectrum.FlagWholeDisagrees, Severity: diag.SeverityCaution, Message: "n_e differs by 2.7σ"}}
+	writeTextSummary(&buf, "hand.csv", sr)
+	text := regexp.MustCompile(` {2,}`).ReplaceAllString(buf.String(), " ")
+	for _, want := range []string{"hand.csv\n route: whole-spectrum fit\n",
+		"whole-spectrum fit: line areas tied by T_exc; reduced χ² 1.07 with 593 degrees of freedom, 600 pixels 480–492 nm, 14 iterations, converged",
+		"Electron density " + views.ValueUnc(fp(2.01e21), fp(5e19)) + " m⁻³",
+		"Gas temperature 1200 (fixed) K",
+		"n_e: whole " + views.ValueUnc(fp(2.01e21), fp(5e19)) + " m⁻³, line by line " + views.ValueUnc(fp(1.8e21), fp(6e19)) + " m⁻³, difference 2.7 σ",
+		"routes disagree beyond their σ: YES — n_e differs by 2.7σ",
+		"warnings: 1 (worst: caution)\n caution: n_e differs by 2.7σ"} {
+		if !strings.Contains(text, want) {
+			t.Errorf("summary lacks %q:\n%s", want, text)
+		}
+	}
+
+	var out, errb bytes.Buffer
+	code := AnalyzeCommand([]string{"--text", "../testdata/example_hbeta.json", "../testdata/nonexistent.json"}, nil, &out, &errb)
+	if code != ExitInput || !strings.Contains(out.String(), "route: line by line (a measurement set always is)") ||
+		!strings.Contains(out.String(), "../testdata/nonexistent.json\n  not analysed: ") || !regexp.MustCompile(`T_exc +[0-9]+ ± [0-9]+ K`).MatchString(out.String()) {
+		t.Errorf("--text batch: exit %d\n%s\n%s", code, out.String(), errb.String())
+	}
+	if strings.Contains(out.String(), "{") {
+		t.Errorf("--text printed JSON:\n%s", out.String())
 	}
 }

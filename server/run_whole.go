@@ -149,7 +149,7 @@ func wholeFitView(base string, p *runPage, r *decodedResult, lo, hi float64, inl
 			row.Label = p.Name
 		}
 		if p.Fixed || !(p.Unc > 0) {
-			row.Value = strings.Replace(strconv.FormatFloat(p.Value, 'g', 6, 64), "-", "−", 1)
+			row.Value = plainNum(p.Value)
 		} else {
 			val, unc := p.Value, p.Unc
 			row.Value = views.ValueUnc(&val, &unc)
@@ -292,4 +292,10 @@ func (s *Server) figureWhole(c echo.Context) error {
 	}
 	svg, _, err := WholeFitSVG(r.Spectrum.Whole, wholeMarks(r.Diag, r.Spectrum.Whole), lo, hi, windowYLabel(r.Diag))
 	return svgBlob(c, fileStem(p, r)+"-whole.svg", svg, err)
+}
+
+// plainNum writes a given (not fitted) value as it is, to 6 figures, with
+// a minus sign.
+func plainNum(v float64) string {
+	return strings.Replace(strconv.FormatFloat(v, 'g', 6, 64), "-", "−", 1)
 }
