@@ -137,7 +137,7 @@ func WholeFitSVG(w *spectrum.WholeFit, marks []wholeMark, lo, hi float64, yLabel
 
 	bot := newFigure()
 	bot.X.Label.Text = "wavelength (nm, air)"
-	bot.Y.Label.Text = "residual"
+	bot.Y.Label.Text = "data − model"
 	bot.Add(plotter.NewGrid())
 	zero := plotter.NewFunction(func(float64) float64 { return 0 })
 	zero.LineStyle.Color, zero.LineStyle.Width = figZero, vg.Points(1)
@@ -173,7 +173,7 @@ func WholeFitSVG(w *spectrum.WholeFit, marks []wholeMark, lo, hi float64, yLabel
 	if err != nil {
 		return nil, area, err
 	}
-	desc := fmt.Sprintf("Whole-spectrum fit from %s to %s nm, %d pixels: measured data as points and the fitted model as a line (%s); the lower panel shows the residuals, largest |residual| %s.",
+	desc := fmt.Sprintf("Whole-spectrum fit from %s to %s nm, %d pixels: measured data as points and the fitted model as a line (%s); the lower panel shows data minus model, largest |residual| %s.",
 		shortNM(x0), shortNM(x1), len(wl), yLabel, views.SigFig(rmax, 3))
 	if w.ReducedChi2 > 0 {
 		desc += " Reduced χ² of the fit over its whole range: " + views.SigFig(w.ReducedChi2, 3) + "."

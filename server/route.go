@@ -127,6 +127,10 @@ func checkRouteFiles(st AnalysisSettings, atts []store.Attachment) error {
 		spectrum.ModelWhole, spectrum.ModelLines)
 }
 
+// flagWholeFailed is the pipeline's flag for a whole-spectrum fit that
+// gave no result (the line-by-line numbers are reported instead).
+const flagWholeFailed = "whole_fit_failed"
+
 // resultModel is the route that produced a stored result: a spectrum
 // result says it (results stored before the route existed are "lines");
 // a line table is always "lines".
@@ -169,6 +173,11 @@ func routeWords(r *decodedResult) string {
 	m := resultModel(r.Spectrum)
 	if m == spectrum.ModelWhole {
 		return modelLabel(m) + " (the whole fitted range at once)"
+	}
+	for _, f := range r.Spectrum.Flags {
+		if f.Code == flagWholeFailed {
+			return modelLabel(m) + " (each line's window on its own): the whole-spectrum fit asked for gave no result, see the warnings"
+		}
 	}
 	return modelLabel(m) + " (each line's window on its own)"
 }

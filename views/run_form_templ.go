@@ -1566,14 +1566,14 @@ func routeInputs(prefix string, v RouteValues) templ.Component {
 				return templ_7745c5c3_Err
 			}
 		}
-		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 142, ">line by line</option></select> <span class=\"muted\">whole-spectrum fit: one physical model over the whole fitted range (areas tied by T<sub>exc</sub>, every Stark width by one n<sub>e</sub>); line by line: each line's window on its own, then the Boltzmann plot and the widths. Line tables (typed or uploaded intensities and widths) are always analysed line by line.</span></label><fieldset class=\"whole-options\" data-whole-options><legend>Whole-spectrum fit options</legend> <label>Line areas <select name=\"whole_areas\" data-testid=\"")
+		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 142, ">line by line</option></select> <span class=\"muted\">whole-spectrum fit: one physical model over the whole fitted range (areas tied by T<sub>exc</sub>, every Stark width by one n<sub>e</sub>); line by line: each line's window on its own, then the Boltzmann plot and the widths. Line tables (typed or uploaded intensities and widths) are always analysed line by line.</span></label><fieldset class=\"whole-options\" data-whole-options><legend>Whole-spectrum fit options</legend><p class=\"muted small whole-only\">Used only when the route is the whole-spectrum fit.</p><label>Line areas <select name=\"whole_areas\" data-testid=\"")
 		if templ_7745c5c3_Err != nil {
 			return templ_7745c5c3_Err
 		}
 		var templ_7745c5c3_Var71 string
 		templ_7745c5c3_Var71, templ_7745c5c3_Err = templruntime.NewAttributeExpression(prefix + "-whole-areas").Resolve(ctx)
 		if templ_7745c5c3_Err != nil {
-			return templ.Error{Err: templ_7745c5c3_Err, FileName: `views/run_form.templ`, Line: 427, Col: 68}
+			return templ.Error{Err: templ_7745c5c3_Err, FileName: `views/run_form.templ`, Line: 428, Col: 68}
 		}
 		_, templ_7745c5c3_Err = templ_7745c5c3_Buffer.WriteString(templ_7745c5c3_Var71)
 		if templ_7745c5c3_Err != nil {
@@ -1626,7 +1626,7 @@ func routeInputs(prefix string, v RouteValues) templ.Component {
 		var templ_7745c5c3_Var72 string
 		templ_7745c5c3_Var72, templ_7745c5c3_Err = templruntime.NewAttributeExpression(prefix + "-whole-free-gas").Resolve(ctx)
 		if templ_7745c5c3_Err != nil {
-			return templ.Error{Err: templ_7745c5c3_Err, FileName: `views/run_form.templ`, Line: 433, Col: 165}
+			return templ.Error{Err: templ_7745c5c3_Err, FileName: `views/run_form.templ`, Line: 434, Col: 165}
 		}
 		_, templ_7745c5c3_Err = templ_7745c5c3_Buffer.WriteString(templ_7745c5c3_Var72)
 		if templ_7745c5c3_Err != nil {
@@ -1649,7 +1649,7 @@ func routeInputs(prefix string, v RouteValues) templ.Component {
 		var templ_7745c5c3_Var73 string
 		templ_7745c5c3_Var73, templ_7745c5c3_Err = templruntime.NewAttributeExpression(prefix + "-whole-free-instrument").Resolve(ctx)
 		if templ_7745c5c3_Err != nil {
-			return templ.Error{Err: templ_7745c5c3_Err, FileName: `views/run_form.templ`, Line: 434, Col: 166}
+			return templ.Error{Err: templ_7745c5c3_Err, FileName: `views/run_form.templ`, Line: 435, Col: 166}
 		}
 		_, templ_7745c5c3_Err = templ_7745c5c3_Buffer.WriteString(templ_7745c5c3_Var73)
 		if templ_7745c5c3_Err != nil {

@@ -204,3 +204,38 @@ func titleRange(s string) (lo, hi float64, err error) {
 	}
 	return lo, hi, err
 }
+
+// TestRouteChoiceForm: on Log a run the whole-fit options are disabled
+// while the route is the default (line by line) and enabled when the
+// whole-spectrum fit is chosen; the reanalysis form does the same.
+func TestRouteChoiceForm(t *testing.T) {
+	a := startApp(t)
+	ctx := tab(t)
+	checkCSP := cspWatch(t, ctx)
+	signIn(t, ctx, a, "olwen")
+	disabled := func() bool {
+		return run(t, ctx, chromedp.Evaluate[bool](`document.querySelector('[data-testid=f-route] [data-whole-options]').disabled`))
+	}
+	do(t, ctx, chromedp.EmulateViewport(1280, 900), chromedp.Navigate(a.url+"/runs/new"), chromedp.WaitVisible(chromedp.CSS(`[data-testid=f-route]`)))
+	if !disabled() {
+		t.Errorf("whole-fit options enabled with the default route (line by line)")
+	}
+	do(t, ctx, chromedp.SetValue(chromedp.CSS(`[data-testid=f-model]`), "whole"))
+	run(t, ctx, chromedp.Evaluate[bool](`document.querySelector('[data-testid=f-model]').dispatchEvent(new Event('change', {bubbles: true}))`))
+	if disabled() {
+		t.Errorf("whole-fit options still disabled after choosing the whole-spectrum fit")
+	}
+	do(t, ctx, chromedp.SetValue(chromedp.CSS(`[data-testid=f-whole-areas]`), "free"))
+	shotOf(t, ctx, `[data-testid=f-route]`, "route-choice-1280")
+	do(t, ctx, chromedp.SetValue(chromedp.CSS(`[data-testid=f-model]`), "lines"))
+	run(t, ctx, chromedp.Evaluate[bool](`document.querySelector('[data-testid=f-model]').dispatchEvent(new Event('change', {bubbles: true}))`))
+	if !disabled() {
+		t.Errorf("whole-fit options enabled with the lines route")
+	}
+	do(t, ctx, chromedp.EmulateViewport(390, 844), chromedp.Navigate(a.url+"/runs/new"), chromedp.WaitVisible(chromedp.CSS(`[data-testid=f-route]`)))
+	if side := run(t, ctx, chromedp.Evaluate[bool](`document.documentElement.scrollWidth > document.documentElement.clientWidth`)); side {
+		t.Errorf("390 px: Log a run scrolls sideways")
+	}
+	shotOf(t, ctx, `[data-testid=f-route]`, "route-choice-390")
+	checkCSP()
+}
