@@ -511,6 +511,12 @@ func runSummary(p *runPage) views.RunSummary {
 		}
 	}
 	sum.NeSource = d.ElectronDensitySource
+	if r.Spectrum != nil {
+		sum.Route = modelLabel(resultModel(r.Spectrum))
+		if r.Spectrum.Whole != nil {
+			sum.Route += " (see the whole-spectrum fit below)"
+		}
+	}
 	// Problems and cautions, as the Warnings section and the run log count
 	// them (notes are method caveats, listed apart and not counted).
 	sum.Problems, _ = diag.CountWarnings(d.Flags)

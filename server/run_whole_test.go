@@ -123,6 +123,7 @@ func TestRunPageWholeFit(t *testing.T) {
 	}
 	checks := map[string]string{
 		"result-route":        "Route: whole-spectrum fit (the whole fitted range at once)",
+		"summary-route":       "Route: whole-spectrum fit (see the whole-spectrum fit below)",
 		"whole-param-T_exc":   views.ValueUnc(fp(11000), fp(600)),
 		"whole-param-n_e":     views.ValueUnc(fp(2.01e21), fp(5e19)),
 		"whole-param-T_gas":   "1200",
