@@ -3,6 +3,7 @@ package server
 import (
 	"bytes"
 	"fmt"
+	"strings"
 	"text/tabwriter"
 
 	"glowlog/diag"
@@ -106,7 +107,7 @@ func writeWholeText(buf *bytes.Buffer, w *spectrum.WholeFit, d *diag.Result) {
 		}
 		line := fmt.Sprintf("  %s: whole %s %s, line by line %s %s", q, views.ValueUnc(wv, wu), unit, views.ValueUnc(lv, lu), unit)
 		if diff != nil {
-			line += ", difference " + views.SigFig(*diff, 2) + " σ"
+			line += ", difference " + strings.Replace(views.SigFig(*diff, 2), "-", "−", 1) + " σ"
 		}
 		buf.WriteString(line + "\n")
 	}

@@ -63,10 +63,13 @@ func WholeFitSVG(w *spectrum.WholeFit, marks []wholeMark, lo, hi float64, yLabel
 	ptsRes := decimate(wl, res, maxPlotPoints/2)
 
 	top := newFigure()
-	top.Title.Text = "Whole-spectrum fit"
+	title := "Whole-spectrum fit"
 	if hi > lo {
-		top.Title.Text += fmt.Sprintf(", %s–%s nm", shortNM(x0), shortNM(x1))
+		title += fmt.Sprintf(", %s–%s nm", shortNM(x0), shortNM(x1))
 	}
+	// The key is in the title: a legend box would sit on the line names
+	// (Hα is near an edge of most ranges).
+	top.Title.Text = title + "   (points: data, line: model)"
 	top.Y.Label.Text = yLabel
 	top.Add(plotter.NewGrid())
 	y0, y1 := math.Inf(1), math.Inf(-1)
@@ -126,10 +129,6 @@ func WholeFitSVG(w *spectrum.WholeFit, marks []wholeMark, lo, hi float64, yLabel
 		}
 		top.Add(lb)
 	}
-	top.Legend.Add("data", sc)
-	top.Legend.Add("model", ln)
-	top.Legend.Top = true
-	top.Legend.TextStyle.Font.Size = vg.Points(10)
 	top.Y.Min, top.Y.Max = math.Min(y0, 0), y1+0.2*span
 	if hi > lo {
 		top.Y.Min = y0 - 0.05*span // a zoom shows the detail, not the zero
@@ -178,7 +177,7 @@ func WholeFitSVG(w *spectrum.WholeFit, marks []wholeMark, lo, hi float64, yLabel
 	if w.ReducedChi2 > 0 {
 		desc += " Reduced χ² of the fit over its whole range: " + views.SigFig(w.ReducedChi2, 3) + "."
 	}
-	svg = withAccessibility(svg, top.Title.Text, desc)
+	svg = withAccessibility(svg, title, desc)
 	// The data area and range ride on the root element, for the page's
 	// drag-to-zoom script.
 	if i := bytes.Index(svg, []byte("<svg")); i >= 0 {

@@ -265,6 +265,9 @@ func corrCell(r float64, diagonal bool) views.CorrCell {
 		return views.CorrCell{Text: "—", Band: 0}
 	}
 	a := math.Abs(r)
+	if a < 0.005 {
+		r = 0 // no "−0.00"
+	}
 	band := 0
 	switch {
 	case a >= 0.95:

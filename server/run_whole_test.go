@@ -225,6 +225,15 @@ func TestWholeFitFigureEdges(t *testing.T) {
 	if v == nil || v.Figure != nil || len(v.Params) != 6 || len(v.Corr) != 5 {
 		t.Fatalf("view without series: %+v", v)
 	}
+	for _, c := range []struct {
+		r    float64
+		text string
+		band int
+	}{{-0.003, "0.00", 0}, {-0.5, "−0.50", 1}, {0.949, "0.95", 2}, {-0.95, "−0.95", 3}, {math.NaN(), "—", 0}} {
+		if got := corrCell(c.r, false); got.Text != c.text || got.Band != c.band {
+			t.Errorf("corrCell(%g) = %+v, want %q band %d", c.r, got, c.text, c.band)
+		}
+	}
 	// A correlation matrix of the wrong size is left out, not misread.
 	w.Correlation = w.Correlation[:3]
 	if v := wholeFitView("/runs/1", p, r, 0, 0, true); len(v.Corr) != 0 {
