@@ -195,6 +195,18 @@ func TestRouteSettingsReanalyze(t *testing.T) {
 	if code, body := post(map[string]string{"model": "both"}); code != http.StatusBadRequest || !strings.Contains(body, "&#34;both&#34;") {
 		t.Errorf("model both: %d, want 400 naming it", code)
 	}
+	// A run with only a line table: "whole" is refused on reanalysis too.
+	v := newRunValues()
+	v.Set("line_table", tinySet(0))
+	rec := f.postForm("/runs", sess, v)
+	m := runLocation.FindStringSubmatch(rec.Header().Get("Location"))
+	if rec.Code != http.StatusSeeOther || m == nil {
+		t.Fatalf("line-table run: %d", rec.Code)
+	}
+	rec = f.postForm("/runs/"+m[1]+"/reanalyze", sess, map[string][]string{"reason": {"try whole"}, "model": {"whole"}, "perturber": {"none"}})
+	if rec.Code != http.StatusUnprocessableEntity || !strings.Contains(rec.Body.String(), "always analysed line by line") {
+		t.Errorf("whole for a line-table run on reanalysis: %d, want 422 saying line tables are analysed line by line", rec.Code)
+	}
 	// The default: "" stored.
 	if code, body := post(map[string]string{"model": ""}); code != http.StatusSeeOther {
 		t.Fatalf("default: %d %.300s", code, body)
