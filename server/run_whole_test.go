@@ -240,3 +240,22 @@ func TestWholeFitFigureEdges(t *testing.T) {
 		t.Errorf("a 3×5 correlation matrix for 5 free parameters was shown")
 	}
 }
+
+// TestRouteWords: each result says its route; a whole fit that gave no
+// result (the pipeline reports the line-by-line numbers) says so.
+func TestRouteWords(t *testing.T) {
+	for _, c := range []struct {
+		r    *decodedResult
+		want string
+	}{
+		{&decodedResult{}, "line by line (a line table always is)"},
+		{&decodedResult{Spectrum: &spectrum.Result{}}, "line by line (each line's window on its own)"},
+		{&decodedResult{Spectrum: &spectrum.Result{Model: spectrum.ModelWhole}}, "whole-spectrum fit (the whole fitted range at once)"},
+		{&decodedResult{Spectrum: &spectrum.Result{Model: spectrum.ModelLines, Result: diag.Result{Flags: []diag.Flag{{Code: flagWholeFailed}}}}},
+			"line by line (each line's window on its own): the whole-spectrum fit asked for gave no result, see the warnings"},
+	} {
+		if got := routeWords(c.r); got != c.want {
+			t.Errorf("routeWords = %q, want %q", got, c.want)
+		}
+	}
+}
