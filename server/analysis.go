@@ -59,6 +59,16 @@ type AnalysisSettings struct {
 	// lines) or "voigt" (Voigt fits as they are, for Voigt-shaped
 	// synthetic spectra).
 	LineShape string `json:"line_shape,omitempty"`
+	// Model is the analysis route of spectra: "whole" (one model fitted
+	// to the whole range), "lines" (each line's window on its own) or ""
+	// (the pipeline's default, defaultModel). Line tables are always
+	// analysed line by line (route.go).
+	Model string `json:"model,omitempty"`
+	// WholeAreas ("boltzmann", the default "", or "free") and the two
+	// freedoms are options of the whole-spectrum fit only.
+	WholeAreas              string `json:"whole_areas,omitempty"`
+	WholeFreeGasTemperature bool   `json:"whole_free_gas_temperature,omitempty"`
+	WholeFreeInstrument     bool   `json:"whole_free_instrument,omitempty"`
 	// CalibrationFiles records the dark and response attachments a version
 	// was computed with (set by the analysis service, not by users).
 	CalibrationFiles []int64 `json:"calibration_files,omitempty"`
@@ -113,6 +123,9 @@ func (st *AnalysisSettings) Validate() error {
 	}
 	if !spectrum.ValidLineShape(st.LineShape) {
 		return badRequest("line shape must be %q or %q, got %q", spectrum.LineShapeStark, spectrum.LineShapeVoigt, st.LineShape)
+	}
+	if err := st.validateRoute(); err != nil {
+		return err
 	}
 	if st.MaxUpper != 0 && (st.MaxUpper < 3 || st.MaxUpper > diag.MaxLevel) {
 		return badRequest("highest Balmer member must be 3…%d, got %d", diag.MaxLevel, st.MaxUpper)
@@ -172,7 +185,8 @@ func (s *Server) analyzeAttachments(ctx context.Context, atts []store.Attachment
 		SaturationCounts: st.SaturationCounts, GainElectronsPerCount: st.GainElectronsPerCount,
 		ReadNoiseElectrons: st.ReadNoiseElectrons, CorrectOffset: st.CorrectOffset, MinSNR: st.MinSNR,
 		MaxUpper: st.MaxUpper, KeepWindows: true, ExcludeFromBoltzmann: st.ExcludeFromBoltzmann,
-		LineShape: st.LineShape,
+		LineShape: st.LineShape, Model: st.Model, WholeAreas: st.WholeAreas,
+		WholeFreeGasTemperature: st.WholeFreeGasTemperature, WholeFreeInstrument: st.WholeFreeInstrument,
 	}
 	if st.InstrumentID != 0 {
 		in, err := s.DB.Instrument(ctx, st.InstrumentID)
@@ -525,6 +539,9 @@ func (s *Server) reanalyzeRunFiles(ctx context.Context, runID int64, before []st
 	if err := st.Validate(); err != nil {
 		return 0, err
 	}
+	if err := checkRouteFiles(st, before); err != nil {
+		return 0, err
+	}
 	st.CalibrationFiles = calibrationFiles(before)
 	results, err := s.analyzeAttachments(ctx, before, st)
 	if err != nil {
@@ -555,6 +572,9 @@ func (s *Server) reanalyzeRunFiles(ctx context.Context, runID int64, before []st
 		return 0, err
 	}
 	if err := final.Validate(); err != nil {
+		return 0, err
+	}
+	if err := checkRouteFiles(final, now); err != nil {
 		return 0, err
 	}
 	final.CalibrationFiles = calibrationFiles(now)
@@ -772,6 +792,9 @@ func (s *Server) reanalyzeRunTxPre(ctx context.Context, tx *sql.Tx, runID int64,
 		return 0, nil, err
 	}
 	if err := st.Validate(); err != nil {
+		return 0, nil, err
+	}
+	if err := checkRouteFiles(st, all); err != nil {
 		return 0, nil, err
 	}
 	st.CalibrationFiles = calibrationFiles(all)

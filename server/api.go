@@ -16,6 +16,7 @@ import (
 
 	"glowlog/diag"
 	"glowlog/diag/mset"
+	"glowlog/diag/spectrum"
 	"glowlog/store"
 )
 
@@ -204,10 +205,22 @@ func applySettingFields(c echo.Context, st *AnalysisSettings) error {
 	if v := strings.TrimSpace(c.FormValue("line_shape")); v != "" {
 		st.LineShape = v
 	}
+	// The route and the whole-fit options: given ones replace the run's;
+	// whole-fit options carried over are dropped when the route is lines
+	// (route.go).
+	if v := strings.TrimSpace(c.FormValue("model")); v != "" {
+		st.Model = v
+	}
+	givenWhole := false
+	if v := strings.TrimSpace(c.FormValue("whole_areas")); v != "" {
+		st.WholeAreas, givenWhole = v, true
+	}
 	bools := []struct {
-		name string
-		p    *bool
-	}{{"solve_gas_temperature", &st.SolveGasTemperature}, {"correct_offset", &st.CorrectOffset}}
+		name  string
+		p     *bool
+		whole bool
+	}{{"solve_gas_temperature", &st.SolveGasTemperature, false}, {"correct_offset", &st.CorrectOffset, false},
+		{"whole_free_gas_temperature", &st.WholeFreeGasTemperature, true}, {"whole_free_instrument", &st.WholeFreeInstrument, true}}
 	for _, f := range bools {
 		v := strings.TrimSpace(c.FormValue(f.name))
 		if v == "" {
@@ -218,7 +231,9 @@ func applySettingFields(c echo.Context, st *AnalysisSettings) error {
 			return badRequest("%s: %q is not true or false", f.name, v)
 		}
 		*f.p = x
+		givenWhole = givenWhole || (f.whole && x)
 	}
+	st.dropWholeOptions(givenWhole)
 	if v := strings.TrimSpace(c.FormValue("max_upper")); v != "" {
 		n, err := strconv.Atoi(v)
 		if err != nil {
@@ -566,9 +581,12 @@ type apiAnalysis struct {
 }
 
 type apiResultEntry struct {
-	AttachmentID              int64    `json:"attachment_id"`
-	Attachment                string   `json:"attachment"`
-	Error                     string   `json:"error,omitempty"`
+	AttachmentID int64  `json:"attachment_id"`
+	Attachment   string `json:"attachment"`
+	Error        string `json:"error,omitempty"`
+	// Model is the route that produced the numbers: "whole" or "lines"
+	// (line tables and results from before the route existed: "lines").
+	Model                     string   `json:"model,omitempty"`
 	ExcitationTemperatureK    *float64 `json:"excitation_temperature_K"`
 	ExcitationTemperatureUncK *float64 `json:"excitation_temperature_unc_K"`
 	ElectronDensityM3         *float64 `json:"electron_density_m3"`
@@ -638,8 +656,13 @@ func (s *Server) apiGetRun(c echo.Context) error {
 					NS *float64       `json:"electron_density_unc_stat_m3"`
 					NY *float64       `json:"electron_density_unc_sys_m3"`
 					NP []diag.UncPart `json:"electron_density_unc_sys_parts"`
+					M  string         `json:"model"`
 				}
 				if json.Unmarshal([]byte(res.Result), &split) == nil {
+					e.Model = split.M
+					if e.Model == "" {
+						e.Model = spectrum.ModelLines
+					}
 					e.ExcitationTemperatureUncStatK, e.ExcitationTemperatureUncSysK = split.TS, split.TY
 					e.ElectronDensityUncStatM3, e.ElectronDensityUncSysM3, e.ElectronDensityUncSysParts = split.NS, split.NY, split.NP
 				}

@@ -60,6 +60,7 @@ type analyzeConfig struct {
 	windows        bool
 	calibrated     string
 	progress       string
+	text           bool
 	set            map[string]bool // flags given on the command line
 
 	// Loaded once for all files.
@@ -73,7 +74,7 @@ var conditionFlags = []string{"isotope", "instrument-fwhm-nm", "instrument-loren
 	"electron-temperature-K", "response-unc-rel", "pressure-Pa", "perturber",
 	"ground-state-density-m3", "intensity-unit", "dark", "response", "lamp", "lamp-irradiance", "grey-body-K",
 	"saturation-counts", "gain-e-per-count", "read-noise-e", "correct-offset", "min-snr", "max-upper", "windows",
-	"x-unit", "vacuum-axis", "calibrated", "line-shape"}
+	"x-unit", "vacuum-axis", "calibrated", "line-shape", "areas", "free-gas-temperature", "free-instrument"}
 
 func analyzeFlags(stderr io.Writer) (*flag.FlagSet, *analyzeConfig) {
 	c := &analyzeConfig{}
@@ -99,6 +100,10 @@ flags (spectra only):
 	fs.Float64Var(&c.instGUnc, "instrument-fwhm-unc-nm", 0, "1σ of the instrument's Gaussian FWHM, nm (enters the systematic σ of n_e)")
 	fs.Float64Var(&c.electronT, "electron-temperature-K", 0, fmt.Sprintf("electron temperature of the Stark tables, K (default %g)", diag.DefaultElectronTemperatureK))
 	fs.StringVar(&c.opt.LineShape, "line-shape", "stark", "line shape of the spectrum fits: stark (Voigt fits corrected for the Stark shape of Balmer lines) or voigt (as fitted, for Voigt-shaped synthetic spectra)")
+	fs.StringVar(&c.opt.Model, "model", "", "analysis route of spectra: whole (one physical model fitted over the whole range: areas tied by T_exc, every Stark width by one n_e) or lines (each line's window on its own, then the Boltzmann plot and the widths); default: "+defaultModel+". Measurement sets are always analysed line by line")
+	fs.StringVar(&c.opt.WholeAreas, "areas", "", "whole route only: boltzmann (line areas tied by T_exc, the default) or free (each line its own area; T_exc from a Boltzmann plot of them)")
+	fs.BoolVar(&c.opt.WholeFreeGasTemperature, "free-gas-temperature", false, "whole route only: fit the gas temperature (the Doppler width) instead of taking it as given")
+	fs.BoolVar(&c.opt.WholeFreeInstrument, "free-instrument", false, "whole route only: fit the instrument's Gaussian width and its slope with wavelength instead of taking them as given")
 	fs.Float64Var(&c.responseUnc, "response-unc-rel", 0, "relative 1σ of the response calibration between the extreme lines (e.g. 0.05)")
 	fs.BoolVar(&c.solveGas, "solve-gas-temperature", false, "solve n_e and gas temperature together from Hα and Hβ")
 	fs.Float64Var(&c.pressure, "pressure-Pa", 0, "pressure of the perturber gas, Pa")
@@ -118,6 +123,7 @@ flags (spectra only):
 	fs.IntVar(&c.maxUpper, "max-upper", 0, fmt.Sprintf("highest Balmer member searched (default %d)", spectrum.DefaultMaxUpper))
 	fs.BoolVar(&c.windows, "windows", false, "include each fitted window's data, model and residuals")
 	fs.StringVar(&c.calibrated, "calibrated", "", "the spectra are already response-corrected (calibrated irradiance or radiance, per nm), in photon or energy units")
+	fs.BoolVar(&c.text, "text", false, "print a short summary for people instead of JSON: the route, T_exc, n_e and T_g with their σ, the warnings, and the whole-spectrum fit's parameters, χ² and distance from the line-by-line route")
 	fs.StringVar(&c.progress, "progress", "auto", "progress line on standard error for several files: auto (when it is a terminal), always or never")
 	return fs, c
 }
@@ -201,6 +207,26 @@ func AnalyzeCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) in
 	var out bytes.Buffer // one encoding buffer, reused record after record
 	for i, r := range results {
 		src := sourceName(files[i])
+		if c.text {
+			out.Reset()
+			if errs[i] != nil {
+				fmt.Fprintf(stderr, "glowlog analyze: %v\n", errs[i])
+				if status == ExitOK {
+					status = ExitInput
+				}
+				if single {
+					return status
+				}
+				fmt.Fprintf(&out, "%s\n  not analysed: %v\n\n", src, errs[i])
+			} else {
+				writeTextSummary(&out, src, r)
+			}
+			if _, err := stdout.Write(out.Bytes()); err != nil {
+				fmt.Fprintf(stderr, "glowlog analyze: writing output: %v\n", err)
+				return ExitError
+			}
+			continue
+		}
 		var buf []byte
 		var encErr error
 		if errs[i] == nil {
@@ -303,6 +329,9 @@ func (c *analyzeConfig) analyzeOne(p *spectrum.Pipeline, buf *[]byte, name strin
 		*buf, data = b, b
 	}
 	if c.isMeasurementSet(data) {
+		if c.opt.Model == spectrum.ModelWhole {
+			return nil, fmt.Errorf("%s: --model whole needs a spectrum: a measurement set (line table) is always analysed line by line", src)
+		}
 		for _, f := range conditionFlags {
 			if c.set[f] {
 				return nil, fmt.Errorf("%s: --%s applies to spectrum files; a measurement set carries its own conditions", src, f)
@@ -501,6 +530,9 @@ func (c *analyzeConfig) load() error {
 	if !spectrum.ValidLineShape(c.opt.LineShape) {
 		return fmt.Errorf("--line-shape must be %s or %s, got %q", spectrum.LineShapeStark, spectrum.LineShapeVoigt, c.opt.LineShape)
 	}
+	if err := checkRouteFlags(c.opt); err != nil {
+		return err
+	}
 	if c.maxUpper != 0 && (c.maxUpper < 3 || c.maxUpper > diag.MaxLevel) {
 		return fmt.Errorf("--max-upper must be 3…%d, got %d", diag.MaxLevel, c.maxUpper)
 	}
@@ -615,6 +647,31 @@ func (c *analyzeConfig) load() error {
 		o.Response, o.ResponseUnit = r, unit
 	case c.irradianceFile != "" || c.greyBodyK > 0:
 		return fmt.Errorf("--lamp-irradiance and --grey-body-K need --lamp")
+	}
+	return nil
+}
+
+// checkRouteFlags checks --model and the whole-fit flags.
+func checkRouteFlags(o spectrum.Options) error {
+	if !spectrum.ValidModel(o.Model) {
+		return fmt.Errorf("--model must be %s or %s, got %q", spectrum.ModelWhole, spectrum.ModelLines, o.Model)
+	}
+	if o.WholeAreas != "" && o.WholeAreas != spectrum.WholeAreasBoltzmann && o.WholeAreas != spectrum.WholeAreasFree {
+		return fmt.Errorf("--areas must be %s or %s, got %q", spectrum.WholeAreasBoltzmann, spectrum.WholeAreasFree, o.WholeAreas)
+	}
+	var given []string
+	if o.WholeAreas != "" {
+		given = append(given, "--areas")
+	}
+	if o.WholeFreeGasTemperature {
+		given = append(given, "--free-gas-temperature")
+	}
+	if o.WholeFreeInstrument {
+		given = append(given, "--free-instrument")
+	}
+	st := AnalysisSettings{Model: o.Model}
+	if len(given) > 0 && st.effectiveModel() != spectrum.ModelWhole {
+		return fmt.Errorf("%s: only the whole-spectrum fit uses it; give --model whole (the route is %s)", strings.Join(given, ", "), st.effectiveModel())
 	}
 	return nil
 }

@@ -377,6 +377,10 @@ func SeedDemo(ctx context.Context, s *Server, adminID int64, opt DemoOptions) er
 			// The demo's lines are Voigt profiles (spectrum.Synthesize):
 			// analysed with the Voigt shape they were made with.
 			st.LineShape = spectrum.LineShapeVoigt
+			// …and line by line: the whole-spectrum model ties every
+			// line's shape to the Stark tables, which these Voigt lines
+			// do not follow.
+			st.Model = spectrum.ModelLines
 			uid := op.ID
 			if _, _, err := s.ReanalyzeRunTx(ctx, tx, id, atts, st, &uid, "first analysis"); err != nil {
 				tx.Rollback()

@@ -41,6 +41,7 @@ func (s *Server) routes() {
 	v.GET("/runs/:id/boltzmann.svg", s.figureBoltzmann)
 	v.GET("/runs/:id/window.svg", s.figureWindow)
 	v.GET("/runs/:id/spectrum.svg", s.figureSpectrum)
+	v.GET("/runs/:id/whole.svg", s.figureWhole)
 	v.GET("/trends", s.showTrends)
 	v.GET("/trends.csv", s.exportTrends)
 	v.GET("/planner", s.showPlanner)

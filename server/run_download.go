@@ -57,11 +57,12 @@ func (s *Server) downloadAnalysisJSON(c echo.Context) error {
 		AttachmentID   int64           `json:"attachment_id"`
 		AttachmentName string          `json:"attachment_name"`
 		Error          string          `json:"error,omitempty"`
+		Model          string          `json:"model,omitempty"`
 		Result         json.RawMessage `json:"result"`
 	}{RunID: p.Run.ID, RunTitle: p.Run.Title, Version: p.Analysis.Version,
 		CreatedAt: p.Analysis.CreatedAt.UTC().Format("2006-01-02T15:04:05Z"), CreatedBy: p.Analysis.CreatedByName,
 		Reason: p.Analysis.Reason, EngineVersion: p.Analysis.EngineVersion, Settings: rawOrNull(p.Analysis.Settings),
-		AttachmentID: r.AttachmentID, AttachmentName: r.AttachmentName, Error: r.Error, Result: rawOrNull(r.Result)}
+		AttachmentID: r.AttachmentID, AttachmentName: r.AttachmentName, Error: r.Error, Model: downloadModel(r), Result: rawOrNull(r.Result)}
 	var buf bytes.Buffer
 	enc := json.NewEncoder(&buf)
 	enc.SetEscapeHTML(false)
@@ -87,7 +88,16 @@ var linesCSVHeader = []string{"upper_level", "name", "wavelength_air_nm", "wavel
 	"stark_fwhm_nm", "stark_fwhm_unc_nm", "stark_relation", "electron_density_m3", "electron_density_unc_m3",
 	"peak_snr", "fit_reduced_chi2", "budget_instrument_gauss_nm", "budget_instrument_lorentz_nm", "budget_doppler_nm",
 	"budget_natural_nm", "budget_resonance_nm", "budget_van_der_waals_nm", "budget_gauss_total_nm",
-	"budget_lorentz_non_stark_nm"}
+	"budget_lorentz_non_stark_nm", "model"}
+
+// downloadModel is the route that produced a result's numbers ("" for a
+// failed analysis).
+func downloadModel(r *decodedResult) string {
+	if r.Diag == nil {
+		return ""
+	}
+	return resultModel(r.Spectrum)
+}
 
 // downloadLinesCSV handles GET /runs/:id/lines.csv: the per-line table of
 // the selected result.
@@ -100,14 +110,16 @@ func (s *Server) downloadLinesCSV(c echo.Context) error {
 		return echo.NewHTTPError(http.StatusNotFound, "this attachment's analysis failed: no line table")
 	}
 	var buf bytes.Buffer
-	if err := writeLinesCSV(&buf, r.Diag); err != nil {
+	if err := writeLinesCSV(&buf, r.Diag, downloadModel(r)); err != nil {
 		return err
 	}
 	attachmentHeader(c, fileStem(p, r)+"-lines.csv")
 	return c.Blob(http.StatusOK, "text/csv; charset=utf-8", buf.Bytes())
 }
 
-func writeLinesCSV(buf *bytes.Buffer, d *diag.Result) error {
+// writeLinesCSV writes the per-line table; model (the route that
+// produced the numbers) fills the last column of every row.
+func writeLinesCSV(buf *bytes.Buffer, d *diag.Result, model string) error {
 	w := csv.NewWriter(buf)
 	if err := w.Write(linesCSVHeader); err != nil {
 		return err
@@ -153,6 +165,7 @@ func writeLinesCSV(buf *bytes.Buffer, d *diag.Result) error {
 		} else {
 			row = append(row, "", "", "", "", "", "", "", "")
 		}
+		row = append(row, model)
 		if err := w.Write(row); err != nil {
 			return err
 		}

@@ -34,6 +34,10 @@ type runForm struct {
 	PressureUnit string
 	// LineShape is the window fit's line model: "", "stark" or "voigt".
 	LineShape string
+	// Model is the analysis route ("", "whole" or "lines"); WholeAreas,
+	// WholeFreeGas and WholeFreeInstrument the whole-fit options.
+	Model, WholeAreas         string
+	WholeFreeGas, WholeFreeIn bool
 }
 
 // newLineRows is the number of empty rows the line table starts with.
@@ -150,7 +154,8 @@ func bindRunForm(c echo.Context) runForm {
 		InstrumentFWHMNM: v("instrument_fwhm_nm"), InstrumentID: v("instrument_id"), GasTemperatureK: v("gas_temperature_k"),
 		Perturber: v("perturber"), Notes: c.FormValue("notes"), Tags: v("tags"), ResponseUnit: v("response_unit"),
 		LineTable: c.FormValue("line_table"), Lines: bindLineRows(c), LineUnit: v("lt_unit"), PressureUnit: v("pressure_unit"),
-		LineShape: v("line_shape")}
+		LineShape: v("line_shape"), Model: v("model"), WholeAreas: v("whole_areas"),
+		WholeFreeGas: v("whole_free_gas_temperature") != "", WholeFreeIn: v("whole_free_instrument") != ""}
 	// The pressure is typed with its unit; a form that sends pressure_pa
 	// (as before the unit choice) gives it in Pa.
 	if form, err := c.FormParams(); err == nil && form.Has("pressure") {
@@ -355,7 +360,7 @@ func (f runForm) view() views.RunFormValues {
 		SlitUM: f.SlitUM, IntegrationMS: f.IntegrationMS, InstrumentFWHMNM: f.InstrumentFWHMNM,
 		InstrumentID: f.InstrumentID, GasTemperatureK: f.GasTemperatureK, Perturber: f.Perturber, Notes: f.Notes,
 		Tags: f.Tags, ResponseUnit: f.ResponseUnit, LineTable: f.LineTable, Lines: f.Lines, LineUnit: f.LineUnit,
-		PressureUnit: f.PressureUnit, LineShape: f.LineShape}
+		PressureUnit: f.PressureUnit, LineShape: f.LineShape, Route: routeValues(f.Model, f.WholeAreas, f.WholeFreeGas, f.WholeFreeIn)}
 }
 
 func runFormFromRun(r store.Run) runForm {
@@ -516,6 +521,8 @@ func (s *Server) createRun(c echo.Context) error {
 		GasTemperatureK: in.GasTemperatureK, PressurePa: in.PressurePa, Perturber: in.Perturber})
 	st.ResponseUnit = f.ResponseUnit
 	st.LineShape = f.LineShape
+	st.Model, st.WholeAreas = f.Model, f.WholeAreas
+	st.WholeFreeGasTemperature, st.WholeFreeInstrument = f.WholeFreeGas, f.WholeFreeIn
 	if err := st.Validate(); err != nil {
 		return fail(err)
 	}

@@ -85,7 +85,8 @@ func (s *Server) reanalyzeFormProps(c echo.Context, r store.Run, st AnalysisSett
 		SaturationCounts: fmtZero(st.SaturationCounts), Gain: fmtZero(st.GainElectronsPerCount),
 		ReadNoise: fmtZero(st.ReadNoiseElectrons), CorrectOffset: st.CorrectOffset, MinSNR: fmtZero(st.MinSNR),
 		Exclude: strings.Join(ex, ", "), InstrumentFWHMUncNM: fmtZero(st.InstrumentFWHMUncNM),
-		ElectronTemperatureK: fmtZero(st.ElectronTemperatureK), ResponseUncRel: fmtZero(st.ResponseUncRel), LineShape: st.LineShape}
+		ElectronTemperatureK: fmtZero(st.ElectronTemperatureK), ResponseUncRel: fmtZero(st.ResponseUncRel), LineShape: st.LineShape,
+		Route: routeValues(st.Model, st.WholeAreas, st.WholeFreeGasTemperature, st.WholeFreeInstrument)}
 	if st.InstrumentID != 0 {
 		p.Values.InstrumentID = strconv.FormatInt(st.InstrumentID, 10)
 	}
@@ -187,6 +188,23 @@ func bindReanalyze(c echo.Context, base AnalysisSettings) (AnalysisSettings, str
 	if v := strings.TrimSpace(c.FormValue("line_shape")); v != "" {
 		st.LineShape = v // absent: the version's line shape is kept
 	}
+	// The route: absent keeps the version's, "" is the pipeline's
+	// default. The whole-fit options: an unticked box is off; an absent
+	// area choice (a disabled field) keeps the version's. Options carried
+	// over are dropped when the route is lines; given ones are refused
+	// then (route.go).
+	form, _ := c.FormParams()
+	if form.Has("model") {
+		st.Model = strings.TrimSpace(form.Get("model"))
+	}
+	if form.Has("whole_areas") {
+		st.WholeAreas = strings.TrimSpace(form.Get("whole_areas"))
+	}
+	givenWhole := form.Has("whole_areas") && st.WholeAreas != ""
+	st.WholeFreeGasTemperature = c.FormValue("whole_free_gas_temperature") != ""
+	st.WholeFreeInstrument = c.FormValue("whole_free_instrument") != ""
+	givenWhole = givenWhole || st.WholeFreeGasTemperature || st.WholeFreeInstrument
+	st.dropWholeOptions(givenWhole)
 	st.ResponseUnit = strings.TrimSpace(c.FormValue("response_unit"))
 	st.ResponseCorrectedUnit = strings.TrimSpace(c.FormValue("response_corrected_unit"))
 	st.MaxUpper = 0

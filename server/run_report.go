@@ -29,6 +29,10 @@ func (s *Server) showReport(c echo.Context) error {
 		props.Series = seriesRows(base, p)
 		if r := p.selected(); r != nil {
 			props.Result = resultView(base, p, r, true)
+			if props.Result.Whole = wholeFitView(base, p, r, 0, 0, true); props.Result.Whole != nil {
+				props.Result.Whole.Open = true
+				props.Result.Whole.Zoom = nil
+			}
 		}
 	}
 	if p.Run.SignedOffBy != nil {

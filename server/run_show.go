@@ -178,6 +178,11 @@ func (s *Server) showRun(c echo.Context) error {
 			if r.Spectrum != nil {
 				props.Result.Spectrum = s.spectrumFigure(c, base, p, r)
 			}
+			lo, hi, err := zoomRange(c)
+			if err != nil {
+				return err
+			}
+			props.Result.Whole = wholeFitView(base, p, r, lo, hi, true)
 		}
 	}
 	props.Summary = runSummary(p)
@@ -301,7 +306,14 @@ func computedWith(settings string) string {
 	if pert == "" {
 		pert = "none"
 	}
-	return strings.Join([]string{instr, gas, "pressure " + num(st.PressurePa, "Pa"), "perturber " + pert}, ", ")
+	route := "route: " + modelLabel(st.effectiveModel())
+	if st.Model == "" {
+		route += " (the default)"
+	}
+	if st.effectiveModel() == spectrum.ModelWhole {
+		route += wholeOptionsText(st)
+	}
+	return strings.Join([]string{instr, gas, "pressure " + num(st.PressurePa, "Pa"), "perturber " + pert, route}, ", ")
 }
 
 // versionRows lists every analysis version with its summary values (one
@@ -391,7 +403,8 @@ func seriesRows(base string, p *runPage) []views.SeriesRow {
 // whether to embed the figures.
 func resultView(base string, p *runPage, r *decodedResult, inline bool) *views.ResultView {
 	rv := &views.ResultView{AttachmentName: r.AttachmentName, Error: r.Error, D: r.Diag,
-		JSONHref: base + "/analysis.json" + p.query(), CSVHref: base + "/lines.csv" + p.query()}
+		JSONHref: base + "/analysis.json" + p.query(), CSVHref: base + "/lines.csv" + p.query(),
+		Route: routeWords(r)}
 	if r.Diag == nil {
 		return rv
 	}
@@ -498,6 +511,12 @@ func runSummary(p *runPage) views.RunSummary {
 		}
 	}
 	sum.NeSource = d.ElectronDensitySource
+	if r.Spectrum != nil {
+		sum.Route = modelLabel(resultModel(r.Spectrum))
+		if r.Spectrum.Whole != nil {
+			sum.Route += " (see the whole-spectrum fit below)"
+		}
+	}
 	// Problems and cautions, as the Warnings section and the run log count
 	// them (notes are method caveats, listed apart and not counted).
 	sum.Problems, _ = diag.CountWarnings(d.Flags)

@@ -172,6 +172,13 @@ var textPairs = []struct{ what, fgSel, fgProp, bgSel, bgProp string }{
 	{"badge, signed off", ":root", "color", ".badge.signed_off", "background"},
 	{"settings block", ":root", "color", "pre.settings", "background"},
 	{"input text", "input, select, textarea", "color", "input, select, textarea", "background"},
+	{"correlation |r| < 0.5", "table.corr-matrix td.r0", "color", "table.corr-matrix td.r0", "background"},
+	{"correlation |r| 0.5–0.8", "table.corr-matrix td.r1", "color", "table.corr-matrix td.r1", "background"},
+	{"correlation |r| 0.8–0.95", "table.corr-matrix td.r2", "color", "table.corr-matrix td.r2", "background"},
+	{"correlation |r| ≥ 0.95", "table.corr-matrix td.r3", "color", "table.corr-matrix td.r3", "background"},
+	{"correlation diagonal", "table.corr-matrix td.diag", "color", "table.corr-matrix td.diag", "background"},
+	{"routes far apart", "table.route-compare .far-word", "color", ".card", "background"},
+	{"whole-fit warning", ":root", "color", ".whole-warn", "background"},
 }
 
 // TestTextContrast: every listed text colour of glowlog-1.css has a
