@@ -452,13 +452,13 @@ func (ra RunAnalysis) storedForm() (store.AnalysisResult, error) {
 		return r, nil
 	}
 	var buf bytes.Buffer
-	enc := json.NewEncoder(&buf)
-	enc.SetEscapeHTML(false)
-	var v any = ra.Lines
+	var err error
 	if ra.Spectrum != nil {
-		v = ra.Spectrum
+		err = encodeSpectrumResult(&buf, ra.Spectrum)
+	} else {
+		err = encodePlain(&buf, ra.Lines)
 	}
-	if err := enc.Encode(v); err != nil {
+	if err != nil {
 		return r, err
 	}
 	r.Result = buf.String()

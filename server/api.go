@@ -427,6 +427,14 @@ func (s *Server) apiAddMeasurement(c echo.Context) error {
 		return err
 	}
 	var buf bytes.Buffer
+	size := 64
+	for _, m := range mine {
+		size += 160
+		if m != nil && m.stored != nil {
+			size += len(m.stored.Result)
+		}
+	}
+	buf.Grow(size) // a batch's answer is about 50 kB per spectrum: grown once
 	if len(ins) > 1 {
 		fmt.Fprintf(&buf, `{"run_id":%d,"analysis_version":%d,"measurements":[`, id, version)
 	}

@@ -1,0 +1,125 @@
+package server
+
+import (
+	"bytes"
+	"encoding/json"
+	"math"
+	"strconv"
+
+	"glowlog/diag/spectrum"
+)
+
+// The stored JSON of a spectrum result is about 48 kB, a third of it the
+// fitted windows' plot series (spectrum.PlotFloats). encoding/json passes
+// the output of every MarshalJSON through its compactor, which scans those
+// bytes a second time; together the series took about 60 % of the
+// encoding (profile of BenchmarkAPIIngest). encodeSpectrumResult writes the
+// windows directly and lets encoding/json write the rest: the bytes are
+// the same as json.Encoder's (TestEncodeSpectrumResultSameBytes).
+
+// windowsMarker stands in for a result's windows while encoding/json
+// writes the rest; markerJSON is how it is written. The upper level is one
+// no Balmer line has, so the bytes occur nowhere else.
+var (
+	windowsMarker = []spectrum.Window{{Uppers: []int{-987654321}}}
+	markerJSON    = func() []byte {
+		b, err := json.Marshal(windowsMarker)
+		if err != nil {
+			panic(err)
+		}
+		return append([]byte(`"windows":`), b...)
+	}()
+)
+
+// encodeSpectrumResult appends r as json.Encoder (SetEscapeHTML(false))
+// writes it, with its trailing newline.
+func encodeSpectrumResult(buf *bytes.Buffer, r *spectrum.Result) error {
+	if len(r.Windows) == 0 {
+		return encodePlain(buf, r)
+	}
+	cp := *r
+	cp.Windows = windowsMarker
+	var rest bytes.Buffer
+	if err := encodePlain(&rest, &cp); err != nil {
+		return err
+	}
+	b := rest.Bytes()
+	i := bytes.Index(b, markerJSON)
+	if i < 0 || bytes.Index(b[i+len(markerJSON):], markerJSON) >= 0 {
+		return encodePlain(buf, r) // not where expected: the slow way
+	}
+	buf.Grow(len(b) + 16*windowPoints(r.Windows))
+	buf.Write(b[:i])
+	out := buf.AvailableBuffer()
+	out = append(out, `"windows":`...)
+	out = appendWindows(out, r.Windows)
+	buf.Write(out)
+	buf.Write(b[i+len(markerJSON):])
+	return nil
+}
+
+// encodePlain is json.Encoder without HTML escaping.
+func encodePlain(buf *bytes.Buffer, v any) error {
+	enc := json.NewEncoder(buf)
+	enc.SetEscapeHTML(false)
+	return enc.Encode(v)
+}
+
+func windowPoints(ws []spectrum.Window) int {
+	n := 0
+	for _, w := range ws {
+		n += len(w.WavelengthNM) + len(w.Data) + len(w.Model) + len(w.Residual)
+	}
+	return n
+}
+
+// appendWindows writes ws as encoding/json does: the field names of
+// spectrum.Window in order, each series as PlotFloats.MarshalJSON writes it
+// (8 significant digits, null for NaN and ±Inf).
+func appendWindows(b []byte, ws []spectrum.Window) []byte {
+	b = append(b, '[')
+	for k, w := range ws {
+		if k > 0 {
+			b = append(b, ',')
+		}
+		b = append(b, `{"upper_levels":`...)
+		if w.Uppers == nil {
+			b = append(b, "null"...)
+		} else {
+			b = append(b, '[')
+			for i, u := range w.Uppers {
+				if i > 0 {
+					b = append(b, ',')
+				}
+				b = strconv.AppendInt(b, int64(u), 10)
+			}
+			b = append(b, ']')
+		}
+		b = append(b, `,"wavelength_nm":`...)
+		b = appendPlotFloats(b, w.WavelengthNM)
+		b = append(b, `,"data":`...)
+		b = appendPlotFloats(b, w.Data)
+		b = append(b, `,"model":`...)
+		b = appendPlotFloats(b, w.Model)
+		b = append(b, `,"residual":`...)
+		b = appendPlotFloats(b, w.Residual)
+		b = append(b, '}')
+	}
+	return append(b, ']')
+}
+
+// appendPlotFloats is spectrum.PlotFloats.MarshalJSON appending to b.
+func appendPlotFloats(b []byte, p spectrum.PlotFloats) []byte {
+	b = append(b, '[')
+	for i, v := range p {
+		if i > 0 {
+			b = append(b, ',')
+		}
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			b = append(b, "null"...)
+			continue
+		}
+		b = strconv.AppendFloat(b, v, 'g', 8, 64)
+	}
+	return append(b, ']')
+}
