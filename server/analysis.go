@@ -763,7 +763,7 @@ func (s *Server) reanalyzeRunTxPre(ctx context.Context, tx *sql.Tx, runID int64,
 		if all[i].Content == nil && all[i].Kind == store.KindLineTable {
 			// Line tables are small and always analysed again (below);
 			// their content also fills unset settings.
-			if all[i].Content, err = s.content(ctx, all[i]); err != nil {
+			if all[i].Content, err = s.DB.AttachmentContentTx(ctx, tx, all[i].ID); err != nil {
 				return 0, nil, err
 			}
 		}
@@ -904,9 +904,20 @@ func calibrationFiles(atts []store.Attachment) []int64 {
 }
 
 // analyzeAttachmentsWith analyses attachments inside a transaction: new
-// ones come with their content, stored ones are loaded (committed data,
-// readable beside the open write transaction in WAL mode).
-func (s *Server) analyzeAttachmentsWith(ctx context.Context, _ *sql.Tx, atts []store.Attachment, st AnalysisSettings) ([]RunAnalysis, error) {
+// ones come with their content, stored ones are loaded through tx (which
+// sees the files of the writes grouped before it in the same transaction,
+// not committed yet).
+func (s *Server) analyzeAttachmentsWith(ctx context.Context, tx *sql.Tx, atts []store.Attachment, st AnalysisSettings) ([]RunAnalysis, error) {
+	atts = slices.Clone(atts)
+	for i := range atts {
+		if atts[i].Content != nil {
+			continue
+		}
+		var err error
+		if atts[i].Content, err = s.DB.AttachmentContentTx(ctx, tx, atts[i].ID); err != nil {
+			return nil, err
+		}
+	}
 	return s.analyzeAttachments(ctx, atts, st)
 }
 

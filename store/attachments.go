@@ -141,6 +141,18 @@ func (d *DB) AttachmentContent(ctx context.Context, id int64) (Attachment, error
 	return a, err
 }
 
+// AttachmentContentTx returns an attachment's content inside the
+// caller's write transaction: it sees the files the transaction added
+// itself, and in a group commit (InGroupTx) those of the writes before
+// it, which are not committed yet.
+func (d *DB) AttachmentContentTx(ctx context.Context, tx *sql.Tx, id int64) ([]byte, error) {
+	var b []byte
+	if err := d.txQueryRow(ctx, tx, qContent, []any{id}, &b); err != nil {
+		return nil, errNoRows(err, fmt.Sprintf("attachment %d", id))
+	}
+	return b, nil
+}
+
 // RunContents returns the content of every attachment of a run, by id,
 // in one query (what a reanalysis of the whole run reads).
 func (d *DB) RunContents(ctx context.Context, runID int64) (map[int64][]byte, error) {

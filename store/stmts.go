@@ -28,10 +28,16 @@ const (
 		ne_m3, ne_unc_m3, tgas_k, n_warnings, warn_worst FROM analysis_results WHERE analysis_id = ?`
 	qListAttachments = `SELECT id, run_id, kind, name, seq, size, created_at FROM attachments
 		WHERE run_id = ? ORDER BY kind, seq`
+	qContent = `SELECT content FROM attachment_contents WHERE attachment_id = ?`
+	// a group commit's savepoints (group.go)
+	qSavepoint  = `SAVEPOINT group_write`
+	qRelease    = `RELEASE group_write`
+	qRollbackTo = `ROLLBACK TO group_write`
 )
 
 var hotQueries = []string{qRunStatus, qNextSeq, qAddAttachment, qAddContent, qNextVersion, qAddAnalysis, qAddResult,
-	qSetSummary, qLatestSettings, qLatestAnalysis, qLatestResults, qListAttachments}
+	qSetSummary, qLatestSettings, qLatestAnalysis, qLatestResults, qListAttachments, qContent,
+	qSavepoint, qRelease, qRollbackTo}
 
 // prepareHot prepares hotQueries (after the migrations and triggers: a
 // later schema change makes SQLite compile a statement again by itself).

@@ -54,6 +54,9 @@ type DB struct {
 	wdb *sql.DB
 
 	path string // the file, for Backup
+
+	// group is the group committer of InGroupTx (group.go).
+	group groupCommitter
 }
 
 // Sync modes of Options.Sync (SQLite's PRAGMA synchronous in WAL mode).
@@ -185,6 +188,7 @@ func openSQL(path, sync string) (*sql.DB, error) {
 
 // Close closes the database.
 func (d *DB) Close() error {
+	d.closeGroup()
 	if d.wdb != nil && d.wdb != d.db {
 		d.wdb.Close()
 	}
