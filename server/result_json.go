@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"math"
 	"strconv"
+	"sync"
 
 	"glowlog/diag/spectrum"
 )
@@ -29,24 +30,42 @@ var (
 		}
 		return append([]byte(`"windows":`), b...)
 	}()
+	markerHead = markerJSON[:min(len(markerJSON), 48)]
+	// scratch holds the encoding without the windows.
+	scratch = sync.Pool{New: func() any { return bytes.NewBuffer(make([]byte, 0, 64<<10)) }}
 )
 
 // encodeSpectrumResult appends r as json.Encoder (SetEscapeHTML(false))
 // writes it, with its trailing newline.
 func encodeSpectrumResult(buf *bytes.Buffer, r *spectrum.Result) error {
+	ok, err := encodeWindowsFast(buf, r)
+	if err != nil || ok {
+		return err
+	}
+	return encodePlain(buf, r)
+}
+
+// encodeWindowsFast is encodeSpectrumResult's fast path; false (and
+// nothing written) when it does not apply.
+func encodeWindowsFast(buf *bytes.Buffer, r *spectrum.Result) (bool, error) {
 	if len(r.Windows) == 0 {
-		return encodePlain(buf, r)
+		return false, nil
 	}
 	cp := *r
 	cp.Windows = windowsMarker
-	var rest bytes.Buffer
-	if err := encodePlain(&rest, &cp); err != nil {
-		return err
+	rest := scratch.Get().(*bytes.Buffer)
+	defer scratch.Put(rest)
+	rest.Reset()
+	if err := encodePlain(rest, &cp); err != nil {
+		return false, err
 	}
+	// The marker holds quotes, which a JSON string escapes: the bytes can
+	// only be the marker itself. Its head (with the odd upper level) is
+	// searched for: a long pattern is searched for much more slowly.
 	b := rest.Bytes()
-	i := bytes.Index(b, markerJSON)
-	if i < 0 || bytes.Index(b[i+len(markerJSON):], markerJSON) >= 0 {
-		return encodePlain(buf, r) // not where expected: the slow way
+	i := bytes.Index(b, markerHead)
+	if i < 0 || !bytes.HasPrefix(b[i:], markerJSON) {
+		return false, nil // not where expected: the slow way
 	}
 	buf.Grow(len(b) + 16*windowPoints(r.Windows))
 	buf.Write(b[:i])
@@ -55,7 +74,7 @@ func encodeSpectrumResult(buf *bytes.Buffer, r *spectrum.Result) error {
 	out = appendWindows(out, r.Windows)
 	buf.Write(out)
 	buf.Write(b[i+len(markerJSON):])
-	return nil
+	return true, nil
 }
 
 // encodePlain is json.Encoder without HTML escaping.

@@ -69,6 +69,12 @@ func sameEncoding(t *testing.T, name string, r *spectrum.Result) {
 	if err := encodeSpectrumResult(&got, r); err != nil {
 		t.Fatal(err)
 	}
+	if len(r.Windows) > 0 {
+		var fast bytes.Buffer
+		if ok, err := encodeWindowsFast(&fast, r); err != nil || !ok {
+			t.Errorf("%s: the fast path was not taken (%v)", name, err)
+		}
+	}
 	if !bytes.Equal(want.Bytes(), got.Bytes()) {
 		i := 0
 		for i < min(want.Len(), got.Len()) && want.Bytes()[i] == got.Bytes()[i] {
