@@ -36,7 +36,11 @@ import (
 // Besides spectra/s (wall clock, which on a shared machine depends on its
 // load) it reports cpu-ms/spectrum: the process's user+system CPU time
 // (server and clients) per spectrum, which says what two idle cores can
-// take: 2000 / cpu-ms/spectrum spectra per second.
+// take: 2000 / cpu-ms/spectrum spectra per second. uploads/commit is how
+// many requests the group committer stored per transaction, and
+// write-ms/spectrum the time per spectrum it held the write lock (work no
+// second core can share: 1000 / write-ms/spectrum bounds spectra/s
+// whatever the cores).
 //
 //	go test ./server/ -run '^$' -bench APIIngest -benchtime 1000x
 func BenchmarkAPIIngest(b *testing.B) {
@@ -118,6 +122,7 @@ func benchAPIIngest(b *testing.B, syncMode string, perRequest int) {
 
 	var next atomic.Int64
 	var wg sync.WaitGroup
+	w0, c0, busy0 := db.GroupStats()
 	b.ResetTimer()
 	start, cpu0 := time.Now(), cpuTime()
 	for range workers {
@@ -162,4 +167,8 @@ func benchAPIIngest(b *testing.B, syncMode string, perRequest int) {
 	b.ReportMetric(n/el.Seconds(), "spectra/s")
 	b.ReportMetric(cpu.Seconds()*1000/n, "cpu-ms/spectrum")
 	b.ReportMetric(rssMB(), "RSS-MB")
+	if w1, c1, busy1 := db.GroupStats(); c1 > c0 {
+		b.ReportMetric(float64(w1-w0)/float64(c1-c0), "uploads/commit")
+		b.ReportMetric((busy1-busy0).Seconds()*1000/n, "write-ms/spectrum")
+	}
 }

@@ -106,7 +106,7 @@ func (d *DB) AddAnalysisTx(ctx context.Context, tx *sql.Tx, runID int64, a NewAn
 	if status == StatusSignedOff {
 		return version, nil
 	}
-	if err := pruneRunChangesTx(ctx, tx); err != nil {
+	if err := d.pruneRunChangesTx(ctx, tx); err != nil {
 		return 0, err
 	}
 	if err := d.setSummaryTx(ctx, tx, runID, version, a.Results); err != nil {

@@ -28,7 +28,8 @@ const (
 		ne_m3, ne_unc_m3, tgas_k, n_warnings, warn_worst FROM analysis_results WHERE analysis_id = ?`
 	qListAttachments = `SELECT id, run_id, kind, name, seq, size, created_at FROM attachments
 		WHERE run_id = ? ORDER BY kind, seq`
-	qContent = `SELECT content FROM attachment_contents WHERE attachment_id = ?`
+	qContent      = `SELECT content FROM attachment_contents WHERE attachment_id = ?`
+	qPruneChanges = `DELETE FROM run_changes WHERE seq < (SELECT max(seq) FROM run_changes) - ?`
 	// a group commit's savepoints (group.go)
 	qSavepoint  = `SAVEPOINT group_write`
 	qRelease    = `RELEASE group_write`
@@ -37,7 +38,15 @@ const (
 
 var hotQueries = []string{qRunStatus, qNextSeq, qAddAttachment, qAddContent, qNextVersion, qAddAnalysis, qAddResult,
 	qSetSummary, qLatestSettings, qLatestAnalysis, qLatestResults, qListAttachments, qContent,
-	qSavepoint, qRelease, qRollbackTo}
+	qSavepoint, qRelease, qRollbackTo, qPruneChanges}
+
+// Reads of the ingest path on the read pool, prepared once (database/sql
+// prepares them again on each pooled connection the first time it is used
+// there).
+var (
+	qGetRun  = `SELECT ` + runCols + runFrom + ` WHERE r.id = ?`
+	qRunTags = `SELECT tag FROM run_tags WHERE run_id = ? ORDER BY tag`
+)
 
 // prepareHot prepares hotQueries (after the migrations and triggers: a
 // later schema change makes SQLite compile a statement again by itself).
@@ -49,6 +58,13 @@ func (d *DB) prepareHot(ctx context.Context) error {
 			return fmt.Errorf("store: prepare %q: %w", q, err)
 		}
 		d.hot[q] = st
+	}
+	var err error
+	if d.getRun, err = d.db.PrepareContext(ctx, qGetRun); err != nil {
+		return fmt.Errorf("store: prepare %q: %w", qGetRun, err)
+	}
+	if d.runTags, err = d.db.PrepareContext(ctx, qRunTags); err != nil {
+		return fmt.Errorf("store: prepare %q: %w", qRunTags, err)
 	}
 	return nil
 }

@@ -44,8 +44,10 @@ type DB struct {
 	auditReady bool
 	// actorSet and actorClear write audit_actor (prepared once).
 	actorSet, actorClear *sql.Stmt
-	// hot are the ingest path's statements, prepared once (stmts.go).
-	hot map[string]*sql.Stmt
+	// hot are the ingest path's statements, prepared once (stmts.go);
+	// getRun and runTags are GetRun's, on the read pool.
+	hot             map[string]*sql.Stmt
+	getRun, runTags *sql.Stmt
 	// wdb is the pool of write transactions (Begin, inTx): one
 	// connection, so that writers queue in Go and each starts the moment
 	// the previous one ends, instead of polling SQLite's busy handler

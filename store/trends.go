@@ -208,8 +208,8 @@ func sortTrend(pts []TrendPoint) {
 // pruneRunChanges keeps the change log short: entries older than any
 // cached series could still need are dropped (a series older than the log
 // is simply read afresh).
-func pruneRunChangesTx(ctx context.Context, tx *sql.Tx) error {
-	_, err := tx.ExecContext(ctx, `DELETE FROM run_changes WHERE seq < (SELECT max(seq) FROM run_changes) - ?`, 2*maxIncremental)
+func (d *DB) pruneRunChangesTx(ctx context.Context, tx *sql.Tx) error {
+	_, err := d.txExec(ctx, tx, qPruneChanges, 2*maxIncremental)
 	return err
 }
 
