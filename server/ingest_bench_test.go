@@ -36,7 +36,8 @@ import (
 // Besides spectra/s (wall clock, which on a shared machine depends on its
 // load) it reports cpu-ms/spectrum: the process's user+system CPU time
 // (server and clients) per spectrum, which says what two idle cores can
-// take: 2000 / cpu-ms/spectrum spectra per second. uploads/commit is how
+// take: 2000 / cpu-ms/spectrum spectra per second; cores is CPU time over
+// wall time (how many cores the process got). uploads/commit is how
 // many requests the group committer stored per transaction, and
 // write-ms/spectrum the time per spectrum it held the write lock (work no
 // second core can share: 1000 / write-ms/spectrum bounds spectra/s
@@ -166,6 +167,7 @@ func benchAPIIngest(b *testing.B, syncMode string, perRequest int) {
 	}
 	b.ReportMetric(n/el.Seconds(), "spectra/s")
 	b.ReportMetric(cpu.Seconds()*1000/n, "cpu-ms/spectrum")
+	b.ReportMetric(cpu.Seconds()/el.Seconds(), "cores")
 	b.ReportMetric(rssMB(), "RSS-MB")
 	if w1, c1, busy1 := db.GroupStats(); c1 > c0 {
 		b.ReportMetric(float64(w1-w0)/float64(c1-c0), "uploads/commit")

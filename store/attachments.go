@@ -75,7 +75,7 @@ func (d *DB) AddAttachmentTx(ctx context.Context, tx *sql.Tx, runID int64, kind,
 
 // Attachments lists a run's attachments (without content) by kind and seq.
 func (d *DB) Attachments(ctx context.Context, runID int64) ([]Attachment, error) {
-	return listAttachments(ctx, d.db, runID)
+	return listAttachments(ctx, stmtQuerier{d.readStmt(qListAttachments)}, runID)
 }
 
 // AttachmentsTx is Attachments inside the caller's transaction. Write

@@ -372,11 +372,11 @@ func (d *DB) RunStatusTx(ctx context.Context, tx *sql.Tx, runID int64) (string, 
 
 // GetRun returns one run with its tags.
 func (d *DB) GetRun(ctx context.Context, id int64) (Run, error) {
-	r, err := scanRun(d.getRun.QueryRowContext(ctx, id))
+	r, err := scanRun(d.readStmt(qGetRun).QueryRowContext(ctx, id))
 	if err != nil {
 		return r, fmt.Errorf("run %d: %w", id, err)
 	}
-	rows, err := d.runTags.QueryContext(ctx, id)
+	rows, err := d.readStmt(qRunTags).QueryContext(ctx, id)
 	if err != nil {
 		return r, err
 	}

@@ -46,6 +46,8 @@ var hotQueries = []string{qRunStatus, qNextSeq, qAddAttachment, qAddContent, qNe
 var (
 	qGetRun  = `SELECT ` + runCols + runFrom + ` WHERE r.id = ?`
 	qRunTags = `SELECT tag FROM run_tags WHERE run_id = ? ORDER BY tag`
+
+	readQueries = []string{qGetRun, qRunTags, qLatestSettings, qListAttachments}
 )
 
 // prepareHot prepares hotQueries (after the migrations and triggers: a
@@ -59,14 +61,25 @@ func (d *DB) prepareHot(ctx context.Context) error {
 		}
 		d.hot[q] = st
 	}
-	var err error
-	if d.getRun, err = d.db.PrepareContext(ctx, qGetRun); err != nil {
-		return fmt.Errorf("store: prepare %q: %w", qGetRun, err)
-	}
-	if d.runTags, err = d.db.PrepareContext(ctx, qRunTags); err != nil {
-		return fmt.Errorf("store: prepare %q: %w", qRunTags, err)
+	d.rhot = make(map[string]*sql.Stmt, len(readQueries))
+	for _, q := range readQueries {
+		st, err := d.db.PrepareContext(ctx, q)
+		if err != nil {
+			return fmt.Errorf("store: prepare %q: %w", q, err)
+		}
+		d.rhot[q] = st
 	}
 	return nil
+}
+
+// readStmt returns the read pool's prepared statement of query q (one of
+// readQueries).
+func (d *DB) readStmt(q string) *sql.Stmt {
+	st, ok := d.rhot[q]
+	if !ok {
+		panic("store: statement not prepared: " + q)
+	}
+	return st
 }
 
 // txStmt returns the prepared statement of query q (one of hotQueries)

@@ -45,9 +45,8 @@ type DB struct {
 	// actorSet and actorClear write audit_actor (prepared once).
 	actorSet, actorClear *sql.Stmt
 	// hot are the ingest path's statements, prepared once (stmts.go);
-	// getRun and runTags are GetRun's, on the read pool.
-	hot             map[string]*sql.Stmt
-	getRun, runTags *sql.Stmt
+	// rhot its reads on the read pool.
+	hot, rhot map[string]*sql.Stmt
 	// wdb is the pool of write transactions (Begin, inTx): one
 	// connection, so that writers queue in Go and each starts the moment
 	// the previous one ends, instead of polling SQLite's busy handler
