@@ -301,7 +301,10 @@ func readMeasurement(c echo.Context, st *AnalysisSettings) ([]incoming, error) {
 			if err != nil {
 				return nil, err
 			}
-			data, err := io.ReadAll(io.LimitReader(f, store.MaxAttachmentBytes+1))
+			// The part's size is known: one buffer of that size (io.ReadAll
+			// would grow one from 512 bytes, copying it each time).
+			data := make([]byte, fh.Size)
+			_, err = io.ReadFull(f, data)
 			f.Close()
 			if err != nil {
 				return nil, err
