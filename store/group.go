@@ -157,7 +157,20 @@ func (d *DB) commitGroup(batch []*groupWrite) {
 		}
 		// A write alone needs no savepoint: if it fails, the whole
 		// transaction is rolled back.
-		if errs[i] = d.runSavepoint(w.ctx, tx, w.fn, len(batch) > 1); errs[i] == nil {
+		var broken error
+		if errs[i], broken = d.runSavepoint(w.ctx, tx, w.fn, len(batch) > 1); broken != nil {
+			// A failed write could not be undone alone: nothing of the
+			// group is committed, and every write hears so.
+			tx.Rollback()
+			for k := range errs {
+				if k != i {
+					errs[k] = fmt.Errorf("store: write not stored: another write of its group failed and could not be undone: %w", broken)
+				}
+			}
+			fail(nil)
+			return
+		}
+		if errs[i] == nil {
 			ok++
 		}
 	}
@@ -181,11 +194,13 @@ func (d *DB) commitGroup(batch []*groupWrite) {
 }
 
 // runSavepoint runs fn (in a savepoint of tx when savepoint is set) with
-// ctx's actor recorded, undoing fn's writes when it fails.
-func (d *DB) runSavepoint(ctx context.Context, tx *sql.Tx, fn func(tx *sql.Tx) error, savepoint bool) (err error) {
+// ctx's actor recorded, undoing fn's writes when it fails. broken is set
+// when the savepoint could not be undone or released: tx then holds
+// writes of fn that must not be committed.
+func (d *DB) runSavepoint(ctx context.Context, tx *sql.Tx, fn func(tx *sql.Tx) error, savepoint bool) (err, broken error) {
 	if savepoint {
 		if _, err := d.txExec(ctx, tx, qSavepoint); err != nil {
-			return err
+			return err, nil // nothing written yet
 		}
 	}
 	defer func() {
@@ -200,20 +215,20 @@ func (d *DB) runSavepoint(ctx context.Context, tx *sql.Tx, fn func(tx *sql.Tx) e
 		bg := context.Background()
 		if err != nil {
 			if _, rerr := d.txExec(bg, tx, qRollbackTo); rerr != nil {
-				err = errors.Join(err, rerr)
+				err, broken = errors.Join(err, rerr), rerr
 			}
 		}
-		if _, rerr := d.txExec(bg, tx, qRelease); rerr != nil && err == nil {
-			err = rerr
+		if _, rerr := d.txExec(bg, tx, qRelease); rerr != nil {
+			err, broken = errors.Join(err, rerr), rerr
 		}
 	}()
 	if err := d.setActor(ctx, tx); err != nil {
-		return err
+		return err, nil
 	}
 	if err := fn(tx); err != nil {
-		return err
+		return err, nil
 	}
-	return d.clearActor(ctx, tx)
+	return d.clearActor(ctx, tx), nil
 }
 
 // closeGroup stops the committer (Close): writes queued after this fail

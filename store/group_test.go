@@ -117,3 +117,60 @@ func TestGroupTx(t *testing.T) {
 		})
 	}
 }
+
+// TestGroupTxUndoFails: a write that breaks its savepoint (here it
+// releases it itself, so that it cannot be rolled back to) takes its whole
+// group down: none of the group's writes is stored, and each hears so;
+// writes of earlier groups stay.
+func TestGroupTxUndoFails(t *testing.T) {
+	ctx := context.Background()
+	d, err := Open(ctx, filepath.Join(t.TempDir(), "g.db"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer d.Close()
+	insert := func(name string) func(tx *sql.Tx) error {
+		return func(tx *sql.Tx) error {
+			_, err := tx.ExecContext(ctx, `INSERT INTO chambers (name) VALUES (?)`, name)
+			return err
+		}
+	}
+	started, hold := make(chan struct{}), make(chan struct{})
+	first := d.GroupTx(ctx, func(tx *sql.Tx) error { close(started); <-hold; return insert("first")(tx) })
+	<-started
+	// queued while the committer is busy with the first: one group
+	second := d.GroupTx(ctx, insert("second"))
+	bad := d.GroupTx(ctx, func(tx *sql.Tx) error {
+		if err := insert("bad")(tx); err != nil {
+			return err
+		}
+		if _, err := tx.ExecContext(ctx, `RELEASE group_write`); err != nil {
+			return err
+		}
+		return errors.New("bad write")
+	})
+	third := d.GroupTx(ctx, insert("third"))
+	close(hold)
+	if err := <-first; err != nil {
+		t.Fatalf("first: %v", err)
+	}
+	for name, ch := range map[string]<-chan error{"second": second, "bad": bad, "third": third} {
+		if err := <-ch; err == nil {
+			t.Errorf("%s: nil error, but its group could not be committed", name)
+		}
+	}
+	var names []string
+	rows, err := d.SQL().QueryContext(ctx, `SELECT name FROM chambers ORDER BY name`)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for rows.Next() {
+		var s string
+		rows.Scan(&s)
+		names = append(names, s)
+	}
+	rows.Close()
+	if fmt.Sprint(names) != "[first]" {
+		t.Errorf("stored %v, want [first]", names)
+	}
+}
