@@ -24,7 +24,8 @@ import (
 func BenchmarkBulkReanalysis(b *testing.B) {
 	const runs, perRun = 500, 20
 	ctx := context.Background()
-	db, err := store.Open(ctx, filepath.Join(b.TempDir(), "bulk.db"))
+	dbPath := filepath.Join(b.TempDir(), "bulk.db")
+	db, err := store.Open(ctx, dbPath)
 	if err != nil {
 		b.Fatal(err)
 	}
@@ -88,6 +89,9 @@ func BenchmarkBulkReanalysis(b *testing.B) {
 	if w1, c1, busy1 := db.GroupStats(); c1 > c0 {
 		b.ReportMetric(float64(w1-w0)/float64(c1-c0), "runs/commit")
 		b.ReportMetric((busy1-busy0).Seconds()*1000/n, "write-ms/spectrum")
+	}
+	if fi, err := os.Stat(dbPath + "-wal"); err == nil {
+		b.ReportMetric(float64(fi.Size())/(1<<20), "WAL-MB")
 	}
 }
 

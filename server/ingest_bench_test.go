@@ -61,7 +61,8 @@ func cpuTime() time.Duration {
 
 func benchAPIIngest(b *testing.B, syncMode string, perRequest int) {
 	ctx := context.Background()
-	db, err := store.Open(ctx, filepath.Join(b.TempDir(), "ingest.db"), store.Options{Sync: syncMode})
+	dbPath := filepath.Join(b.TempDir(), "ingest.db")
+	db, err := store.Open(ctx, dbPath, store.Options{Sync: syncMode})
 	if err != nil {
 		b.Fatal(err)
 	}
@@ -172,5 +173,8 @@ func benchAPIIngest(b *testing.B, syncMode string, perRequest int) {
 	if w1, c1, busy1 := db.GroupStats(); c1 > c0 {
 		b.ReportMetric(float64(w1-w0)/float64(c1-c0), "uploads/commit")
 		b.ReportMetric((busy1-busy0).Seconds()*1000/n, "write-ms/spectrum")
+	}
+	if fi, err := os.Stat(dbPath + "-wal"); err == nil {
+		b.ReportMetric(float64(fi.Size())/(1<<20), "WAL-MB")
 	}
 }
