@@ -189,7 +189,6 @@ func (d *DB) commitGroup(batch []*groupWrite) {
 	} else {
 		d.group.commits.Add(1)
 		d.group.writes.Add(int64(ok))
-		d.wakeCheckpointer()
 	}
 	fail(nil)
 }

@@ -56,10 +56,8 @@ type DB struct {
 
 	path string // the file, for Backup
 
-	// group is the group committer of InGroupTx (group.go), ckpt the
-	// checkpointer it wakes (checkpoint.go).
+	// group is the group committer of InGroupTx (group.go).
 	group groupCommitter
-	ckpt  checkpointer
 }
 
 // Sync modes of Options.Sync (SQLite's PRAGMA synchronous in WAL mode).
@@ -142,10 +140,7 @@ func Open(ctx context.Context, path string, opts ...Options) (*DB, error) {
 		// the file (as a permission check may) would drop this process's
 		// SQLite locks on it, which tell other processes (restore) that
 		// the database is in use.
-		// The writer checkpoints by itself only at walWriterPages; the
-		// checkpointer goroutine does the rest beside it (checkpoint.go).
-		wdsn := sqlDSN(path, sync) + fmt.Sprintf("&_pragma=wal_autocheckpoint(%d)", walWriterPages)
-		if d.wdb, err = sql.Open("sqlite", wdsn); err != nil {
+		if d.wdb, err = sql.Open("sqlite", sqlDSN(path, sync)); err != nil {
 			sdb.Close()
 			return nil, fmt.Errorf("store: open %s: %w", path, err)
 		}
@@ -165,7 +160,6 @@ func Open(ctx context.Context, path string, opts ...Options) (*DB, error) {
 			sdb.Close()
 			return nil, err
 		}
-		d.startCheckpointer()
 	}
 	return d, nil
 }
@@ -196,7 +190,6 @@ func openSQL(path, sync string) (*sql.DB, error) {
 // Close closes the database.
 func (d *DB) Close() error {
 	d.closeGroup()
-	d.stopCheckpointer()
 	if d.wdb != nil && d.wdb != d.db {
 		d.wdb.Close()
 	}
