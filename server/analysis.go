@@ -466,13 +466,13 @@ func (ra RunAnalysis) storedForm() (store.AnalysisResult, error) {
 		return r, nil
 	}
 	var buf bytes.Buffer
-	enc := json.NewEncoder(&buf)
-	enc.SetEscapeHTML(false)
-	var v any = ra.Lines
+	var err error
 	if ra.Spectrum != nil {
-		v = ra.Spectrum
+		err = encodeSpectrumResult(&buf, ra.Spectrum)
+	} else {
+		err = encodePlain(&buf, ra.Lines)
 	}
-	if err := enc.Encode(v); err != nil {
+	if err != nil {
 		return r, err
 	}
 	r.Result = buf.String()
@@ -516,15 +516,42 @@ func (s *Server) reanalyzeRunWith(ctx context.Context, runID int64, st AnalysisS
 
 // reanalyzeRunFiles is reanalyzeRunWith with the run's files listed
 // already (before, without content: it is read here in one query). The
-// results are encoded before the write transaction too, so that the
-// transaction only checks the file list and inserts.
+// results are encoded before the write too, so that the write only
+// checks the file list and inserts.
 func (s *Server) reanalyzeRunFiles(ctx context.Context, runID int64, before []store.Attachment, st AnalysisSettings, userID *int64, reason string, keepApproved bool) (int, error) {
-	if err := st.Validate(); err != nil {
+	w, err := s.prepareReanalysis(ctx, runID, before, st, userID, reason, keepApproved)
+	if err != nil {
 		return 0, err
+	}
+	if err := s.DB.InGroupTx(ctx, w.write(ctx)); err != nil {
+		return 0, err
+	}
+	return w.version, nil
+}
+
+// reanalysisWrite is a reanalysis of one run analysed outside the write
+// lock, ready to be stored by store (inside a write transaction, e.g. a
+// group commit), which sets version.
+type reanalysisWrite struct {
+	s            *Server
+	runID        int64
+	given, st    AnalysisSettings
+	results      []RunAnalysis
+	userID       *int64
+	reason       string
+	keepApproved bool
+	version      int
+}
+
+// prepareReanalysis analyses a run's files (listed in before) outside the
+// write transaction.
+func (s *Server) prepareReanalysis(ctx context.Context, runID int64, before []store.Attachment, st AnalysisSettings, userID *int64, reason string, keepApproved bool) (*reanalysisWrite, error) {
+	if err := st.Validate(); err != nil {
+		return nil, err
 	}
 	contents, err := s.DB.RunContents(ctx, runID)
 	if err != nil {
-		return 0, err
+		return nil, err
 	}
 	before = slices.Clone(before)
 	for i := range before {
@@ -534,48 +561,68 @@ func (s *Server) reanalyzeRunFiles(ctx context.Context, runID int64, before []st
 	}
 	given := st
 	if err := s.fillFromLineTables(ctx, before, &st); err != nil {
-		return 0, err
+		return nil, err
 	}
 	if err := st.Validate(); err != nil {
-		return 0, err
+		return nil, err
 	}
 	if err := checkRouteFiles(st, before); err != nil {
-		return 0, err
+		return nil, err
 	}
 	st.CalibrationFiles = calibrationFiles(before)
 	results, err := s.analyzeAttachments(ctx, before, st)
 	if err != nil {
-		return 0, err
+		return nil, err
 	}
 	for i := range results {
 		if err := results[i].encode(); err != nil {
-			return 0, err
+			return nil, err
 		}
 	}
-	tx, err := s.DB.Begin(ctx)
-	if err != nil {
-		return 0, err
-	}
-	defer tx.Rollback()
-	if err := s.checkNotSignedOffTx(ctx, tx, runID, keepApproved); err != nil {
-		return 0, err
+	return &reanalysisWrite{s: s, runID: runID, given: given, st: st, results: results, userID: userID,
+		reason: reason, keepApproved: keepApproved}, nil
+}
+
+// write returns the function that stores the version inside a write
+// transaction (InGroupTx, GroupTx), which holds the write lock: the run's
+// files are listed again there — that list is final — and any file
+// committed in the meantime (or added by a write grouped before this one)
+// is analysed there, before the version is stored. Every version
+// therefore holds exactly the files committed before it.
+func (w *reanalysisWrite) write(ctx context.Context) func(tx *sql.Tx) error {
+	return func(tx *sql.Tx) error { return w.store(ctx, tx) }
+}
+
+func (w *reanalysisWrite) store(ctx context.Context, tx *sql.Tx) error {
+	s, runID, st, results := w.s, w.runID, w.st, w.results
+	if err := s.checkNotSignedOffTx(ctx, tx, runID, w.keepApproved); err != nil {
+		return err
 	}
 	now, err := s.DB.AttachmentsTx(ctx, tx, runID)
 	if err != nil {
-		return 0, err
+		return err
 	}
 	if !analysable(now) {
-		return 0, badRequest("no spectrum or line table to analyse")
+		return badRequest("no spectrum or line table to analyse")
 	}
-	final := given
+	// Line tables fill unset settings: their content is read through tx
+	// (a line table of a write grouped before this one is not committed).
+	for i := range now {
+		if now[i].Kind == store.KindLineTable {
+			if now[i].Content, err = s.DB.AttachmentContentTx(ctx, tx, now[i].ID); err != nil {
+				return err
+			}
+		}
+	}
+	final := w.given
 	if err := s.fillFromLineTables(ctx, now, &final); err != nil {
-		return 0, err
+		return err
 	}
 	if err := final.Validate(); err != nil {
-		return 0, err
+		return err
 	}
 	if err := checkRouteFiles(final, now); err != nil {
-		return 0, err
+		return err
 	}
 	final.CalibrationFiles = calibrationFiles(now)
 	if !sameSettings(final, st) {
@@ -583,24 +630,21 @@ func (s *Server) reanalyzeRunFiles(ctx context.Context, runID int64, before []st
 		// line table that fills a setting arrived meanwhile: all files are
 		// analysed again, with the settings the version will store.
 		st = final
-		if results, err = s.analyzeAttachments(ctx, now, st); err != nil {
-			return 0, err
+		if results, err = s.analyzeAttachmentsWith(ctx, tx, now, st); err != nil {
+			return err
 		}
 	} else {
-		results, err = s.completeResults(ctx, results, now, st)
+		results, err = s.completeResults(ctx, tx, results, now, st)
 		if err != nil {
-			return 0, err
+			return err
 		}
 	}
-	na, err := toNewAnalysis(st, results, userID, reason)
+	na, err := toNewAnalysis(st, results, w.userID, w.reason)
 	if err != nil {
-		return 0, err
+		return err
 	}
-	v, err := s.DB.AddAnalysisTx(ctx, tx, runID, na)
-	if err != nil {
-		return 0, err
-	}
-	return v, tx.Commit()
+	w.version, err = s.DB.AddAnalysisTx(ctx, tx, runID, na)
+	return err
 }
 
 // sameSettings reports whether two settings are the same (as stored).
@@ -614,7 +658,7 @@ func sameSettings(a, b AnalysisSettings) bool {
 // the list now: results of files no longer there are dropped, files not
 // yet analysed are analysed (with now's dark and response files as their
 // context).
-func (s *Server) completeResults(ctx context.Context, results []RunAnalysis, now []store.Attachment, st AnalysisSettings) ([]RunAnalysis, error) {
+func (s *Server) completeResults(ctx context.Context, tx *sql.Tx, results []RunAnalysis, now []store.Attachment, st AnalysisSettings) ([]RunAnalysis, error) {
 	present := map[int64]bool{}
 	for _, a := range now {
 		present[a.ID] = true
@@ -641,7 +685,7 @@ func (s *Server) completeResults(ctx context.Context, results []RunAnalysis, now
 	if !analysable(missing) {
 		return kept, nil
 	}
-	more, err := s.analyzeAttachments(ctx, missing, st)
+	more, err := s.analyzeAttachmentsWith(ctx, tx, missing, st)
 	if err != nil {
 		return nil, err
 	}
@@ -783,7 +827,7 @@ func (s *Server) reanalyzeRunTxPre(ctx context.Context, tx *sql.Tx, runID int64,
 		if all[i].Content == nil && all[i].Kind == store.KindLineTable {
 			// Line tables are small and always analysed again (below);
 			// their content also fills unset settings.
-			if all[i].Content, err = s.content(ctx, all[i]); err != nil {
+			if all[i].Content, err = s.DB.AttachmentContentTx(ctx, tx, all[i].ID); err != nil {
 				return 0, nil, err
 			}
 		}
@@ -927,9 +971,20 @@ func calibrationFiles(atts []store.Attachment) []int64 {
 }
 
 // analyzeAttachmentsWith analyses attachments inside a transaction: new
-// ones come with their content, stored ones are loaded (committed data,
-// readable beside the open write transaction in WAL mode).
-func (s *Server) analyzeAttachmentsWith(ctx context.Context, _ *sql.Tx, atts []store.Attachment, st AnalysisSettings) ([]RunAnalysis, error) {
+// ones come with their content, stored ones are loaded through tx (which
+// sees the files of the writes grouped before it in the same transaction,
+// not committed yet).
+func (s *Server) analyzeAttachmentsWith(ctx context.Context, tx *sql.Tx, atts []store.Attachment, st AnalysisSettings) ([]RunAnalysis, error) {
+	atts = slices.Clone(atts)
+	for i := range atts {
+		if atts[i].Content != nil {
+			continue
+		}
+		var err error
+		if atts[i].Content, err = s.DB.AttachmentContentTx(ctx, tx, atts[i].ID); err != nil {
+			return nil, err
+		}
+	}
 	return s.analyzeAttachments(ctx, atts, st)
 }
 

@@ -2,6 +2,7 @@ package server
 
 import (
 	"bytes"
+	"database/sql"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -315,7 +316,10 @@ func readMeasurement(c echo.Context, st *AnalysisSettings) ([]incoming, error) {
 			if err != nil {
 				return nil, err
 			}
-			data, err := io.ReadAll(io.LimitReader(f, store.MaxAttachmentBytes+1))
+			// The part's size is known: one buffer of that size (io.ReadAll
+			// would grow one from 512 bytes, copying it each time).
+			data := make([]byte, fh.Size)
+			_, err = io.ReadFull(f, data)
 			f.Close()
 			if err != nil {
 				return nil, err
@@ -385,63 +389,74 @@ func (s *Server) apiAddMeasurement(c echo.Context) error {
 			}
 		}
 	}
-	// Everything from here is one write transaction, which holds the
-	// write lock from BEGIN: the settings and the run's file list are
-	// read inside it, so the new version includes every file committed
-	// before it (concurrent uploads included) and keeps any settings a
-	// concurrent reanalysis stored. The store refuses the file if the run
-	// was signed off meanwhile.
-	tx, err := s.DB.Begin(ctx)
-	if err != nil {
-		return err
-	}
-	defer tx.Rollback()
-	if st, err = s.latestSettingsTx(ctx, tx, run); err != nil {
-		return err
-	}
-	if ins[0].settingFields {
-		if err := applySettingFields(c, &st); err != nil {
-			return err
-		}
-	}
-	if err := st.Validate(); err != nil {
-		return err
-	}
-	for i, in := range ins {
-		if added[i].ID, err = s.DB.AddAttachmentTx(ctx, tx, id, in.kind, in.name, in.data); err != nil {
-			return err
-		}
-	}
+	// Everything from here is one write, which holds the write lock: the
+	// settings and the run's file list are read inside it, so the new
+	// version includes every file committed before it (concurrent uploads
+	// included) and keeps any settings a concurrent reanalysis stored. The
+	// store refuses the file if the run was signed off meanwhile. Uploads
+	// arriving together share one transaction (group commit), each in a
+	// savepoint of its own; the answer goes out after the commit.
 	uid := u.ID
 	reason := "added " + ins[0].name + " through the API"
 	if len(ins) > 1 {
 		reason = fmt.Sprintf("added %d files (%s … %s) through the API", len(ins), ins[0].name, ins[len(ins)-1].name)
 	}
-	version, results, err := s.reanalyzeRunTxPre(ctx, tx, id, added, pre, st, &uid, reason)
-	if err != nil {
-		var ue *userError
-		if errors.As(err, &ue) {
-			return &userError{http.StatusUnprocessableEntity, ue.msg}
+	var version int
+	var mine []*RunAnalysis
+	err = s.DB.InGroupTx(ctx, func(tx *sql.Tx) error {
+		st, err := s.latestSettingsTx(ctx, tx, run)
+		if err != nil {
+			return err
 		}
-		return err
-	}
-	mine := make([]*RunAnalysis, len(added))
-	for i := range results {
-		for k := range added {
-			if results[i].Attachment.ID == added[k].ID {
-				mine[k] = &results[i]
+		if ins[0].settingFields {
+			if err := applySettingFields(c, &st); err != nil {
+				return err
 			}
 		}
-	}
-	for k, m := range mine {
-		if m != nil && m.Err != nil {
-			return &userError{http.StatusUnprocessableEntity, batchPrefix(ins, k) + strings.TrimPrefix(m.Err.Error(), "diag: ")}
+		if err := st.Validate(); err != nil {
+			return err
 		}
-	}
-	if err := tx.Commit(); err != nil {
+		for i, in := range ins {
+			if added[i].ID, err = s.DB.AddAttachmentTx(ctx, tx, id, in.kind, in.name, in.data); err != nil {
+				return err
+			}
+		}
+		var results []RunAnalysis
+		version, results, err = s.reanalyzeRunTxPre(ctx, tx, id, added, pre, st, &uid, reason)
+		if err != nil {
+			var ue *userError
+			if errors.As(err, &ue) {
+				return &userError{http.StatusUnprocessableEntity, ue.msg}
+			}
+			return err
+		}
+		mine = make([]*RunAnalysis, len(added))
+		for i := range results {
+			for k := range added {
+				if results[i].Attachment.ID == added[k].ID {
+					mine[k] = &results[i]
+				}
+			}
+		}
+		for k, m := range mine {
+			if m != nil && m.Err != nil {
+				return &userError{http.StatusUnprocessableEntity, batchPrefix(ins, k) + strings.TrimPrefix(m.Err.Error(), "diag: ")}
+			}
+		}
+		return nil
+	})
+	if err != nil {
 		return err
 	}
 	var buf bytes.Buffer
+	size := 64
+	for _, m := range mine {
+		size += 160
+		if m != nil && m.stored != nil {
+			size += len(m.stored.Result)
+		}
+	}
+	buf.Grow(size) // a batch's answer is about 50 kB per spectrum: grown once
 	if len(ins) > 1 {
 		fmt.Fprintf(&buf, `{"run_id":%d,"analysis_version":%d,"measurements":[`, id, version)
 	}

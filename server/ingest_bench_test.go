@@ -36,7 +36,12 @@ import (
 // Besides spectra/s (wall clock, which on a shared machine depends on its
 // load) it reports cpu-ms/spectrum: the process's user+system CPU time
 // (server and clients) per spectrum, which says what two idle cores can
-// take: 2000 / cpu-ms/spectrum spectra per second.
+// take: 2000 / cpu-ms/spectrum spectra per second; cores is CPU time over
+// wall time (how many cores the process got). uploads/commit is how
+// many requests the group committer stored per transaction, and
+// write-ms/spectrum the time per spectrum it held the write lock (work no
+// second core can share: 1000 / write-ms/spectrum bounds spectra/s
+// whatever the cores).
 //
 //	go test ./server/ -run '^$' -bench APIIngest -benchtime 1000x
 func BenchmarkAPIIngest(b *testing.B) {
@@ -56,7 +61,8 @@ func cpuTime() time.Duration {
 
 func benchAPIIngest(b *testing.B, syncMode string, perRequest int) {
 	ctx := context.Background()
-	db, err := store.Open(ctx, filepath.Join(b.TempDir(), "ingest.db"), store.Options{Sync: syncMode})
+	dbPath := filepath.Join(b.TempDir(), "ingest.db")
+	db, err := store.Open(ctx, dbPath, store.Options{Sync: syncMode})
 	if err != nil {
 		b.Fatal(err)
 	}
@@ -118,6 +124,7 @@ func benchAPIIngest(b *testing.B, syncMode string, perRequest int) {
 
 	var next atomic.Int64
 	var wg sync.WaitGroup
+	w0, c0, busy0 := db.GroupStats()
 	b.ResetTimer()
 	start, cpu0 := time.Now(), cpuTime()
 	for range workers {
@@ -161,5 +168,13 @@ func benchAPIIngest(b *testing.B, syncMode string, perRequest int) {
 	}
 	b.ReportMetric(n/el.Seconds(), "spectra/s")
 	b.ReportMetric(cpu.Seconds()*1000/n, "cpu-ms/spectrum")
+	b.ReportMetric(cpu.Seconds()/el.Seconds(), "cores")
 	b.ReportMetric(rssMB(), "RSS-MB")
+	if w1, c1, busy1 := db.GroupStats(); c1 > c0 {
+		b.ReportMetric(float64(w1-w0)/float64(c1-c0), "uploads/commit")
+		b.ReportMetric((busy1-busy0).Seconds()*1000/n, "write-ms/spectrum")
+	}
+	if fi, err := os.Stat(dbPath + "-wal"); err == nil {
+		b.ReportMetric(float64(fi.Size())/(1<<20), "WAL-MB")
+	}
 }

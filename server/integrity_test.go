@@ -44,6 +44,7 @@ func TestConcurrentUploadsKeepEveryFile(t *testing.T) {
 		run := f.createRun(`{"title": "race", "started_at": "2026-03-04T09:30:00Z", "source_type": "dc_glow",
 			"instrument_fwhm_nm": 0.05, "gas_temperature_K": 1200}`)
 		codes := make([]int, uploads)
+		bodies := make([]string, uploads)
 		var wg sync.WaitGroup
 		for i := range uploads {
 			wg.Add(1)
@@ -56,7 +57,7 @@ func TestConcurrentUploadsKeepEveryFile(t *testing.T) {
 					req.Header.Set("Content-Type", "application/json")
 					rec := httptest.NewRecorder()
 					f.s.ServeHTTP(rec, req)
-					codes[i] = rec.Code
+					codes[i], bodies[i] = rec.Code, rec.Body.String()
 					return
 				}
 				codes[i], _ = htmls[i/2].req(http.MethodPost, fmt.Sprintf("/runs/%d/attachments", run), url.Values{"line_table": {tinySet(i)}})
@@ -73,7 +74,7 @@ func TestConcurrentUploadsKeepEveryFile(t *testing.T) {
 		wg.Wait()
 		for i, c := range codes {
 			if want := map[bool]int{true: http.StatusCreated, false: http.StatusSeeOther}[i%2 == 0]; c != want {
-				t.Fatalf("trial %d upload %d: status %d, want %d", trial, i, c, want)
+				t.Fatalf("trial %d upload %d: status %d, want %d: %s", trial, i, c, want, bodies[i])
 			}
 		}
 		atts, err := f.db.Attachments(ctx, run)

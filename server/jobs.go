@@ -20,10 +20,12 @@ import (
 )
 
 // JobRunner runs background jobs (bulk reanalysis), one job at a time.
-// A job analyses its runs with GOMAXPROCS workers: each analyses a run
-// outside the write lock, then stores its version in a short transaction
-// (reanalyzeRunFiles), so the job uses every core while web requests
-// still get the write lock between its transactions.
+// A job analyses its runs with GOMAXPROCS workers outside the write lock
+// (prepareReanalysis) and queues each run's version for the group
+// committer (store.DB.GroupTx) without waiting: versions queued while
+// another commits are stored together, one transaction for many runs,
+// each in its own savepoint, while the workers go on analysing. Web
+// requests' writes join the same groups.
 type JobRunner struct {
 	s    *Server
 	wake chan struct{}
@@ -144,9 +146,14 @@ func (j *JobRunner) run(ctx context.Context, job store.Job) {
 		id      int64
 		spectra int
 		err     error
+		stored  <-chan error // the commit of its version (GroupTx)
 	}
 	ids := make(chan int64)
-	outs := make(chan outcome, 64) // workers never wait for a progress write
+	// Workers analyse runs and queue their versions for the group
+	// committer without waiting for the commit; the loop below waits for
+	// each commit in turn. The buffer bounds the versions analysed but not
+	// yet stored (each holds its results' JSON, ~50 kB per spectrum).
+	outs := make(chan outcome, 16)
 	go func() {
 		defer close(ids)
 		for _, id := range p.RunIDs {
@@ -163,8 +170,12 @@ func (j *JobRunner) run(ctx context.Context, job store.Job) {
 		go func() {
 			defer workers.Done()
 			for id := range ids {
-				n, err := j.reanalyzeOne(ctx, id, p)
-				outs <- outcome{id, n, err}
+				n, w, err := j.prepareOne(ctx, id, p)
+				var stored <-chan error
+				if err == nil {
+					stored = db.GroupTx(ctx, w.write(ctx))
+				}
+				outs <- outcome{id, n, err, stored}
 			}
 		}()
 	}
@@ -172,6 +183,9 @@ func (j *JobRunner) run(ctx context.Context, job store.Job) {
 	start := time.Now()
 	last := start
 	for o := range outs {
+		if o.stored != nil {
+			o.err = <-o.stored
+		}
 		if err := o.err; err != nil {
 			var ue *userError
 			switch {
@@ -221,20 +235,21 @@ func (j *JobRunner) run(ctx context.Context, job store.Job) {
 	}
 }
 
-// reanalyzeOne reanalyses one run with its latest settings and the job's
-// overrides, and returns how many spectra it analysed.
-func (j *JobRunner) reanalyzeOne(ctx context.Context, id int64, p reanalyzeParams) (int, error) {
+// prepareOne analyses one run with its latest settings and the job's
+// overrides (outside the write lock), and returns how many spectra it
+// analysed and the version to store.
+func (j *JobRunner) prepareOne(ctx context.Context, id int64, p reanalyzeParams) (int, *reanalysisWrite, error) {
 	s := j.s
 	r, err := s.DB.GetRun(ctx, id)
 	if err != nil {
-		return 0, err
+		return 0, nil, err
 	}
 	atts, err := s.DB.Attachments(ctx, id)
 	if err != nil {
-		return 0, err
+		return 0, nil, err
 	}
 	if !analysable(atts) {
-		return 0, badRequest("no spectrum or line table to analyse")
+		return 0, nil, badRequest("no spectrum or line table to analyse")
 	}
 	st := DefaultSettings(r)
 	if sj, err := s.DB.LatestSettings(ctx, id); err == nil {
@@ -243,7 +258,7 @@ func (j *JobRunner) reanalyzeOne(ctx context.Context, id int64, p reanalyzeParam
 			st = prev
 		}
 	} else if !errors.Is(err, store.ErrNotFound) {
-		return 0, err
+		return 0, nil, err
 	}
 	p.Overrides.apply(&st)
 	uid := p.UserID
@@ -253,8 +268,9 @@ func (j *JobRunner) reanalyzeOne(ctx context.Context, id int64, p reanalyzeParam
 	}
 	// Inside its transaction the reanalysis refuses a run signed off since
 	// the job was queued, unless the reviewer included signed-off runs.
-	if _, err := s.reanalyzeRunFiles(ctx, id, atts, st, &uid, reason, p.IncludeSignedOff); err != nil {
-		return 0, err
+	w, err := s.prepareReanalysis(ctx, id, atts, st, &uid, reason, p.IncludeSignedOff)
+	if err != nil {
+		return 0, nil, err
 	}
 	n := 0
 	for _, a := range atts {
@@ -262,7 +278,7 @@ func (j *JobRunner) reanalyzeOne(ctx context.Context, id int64, p reanalyzeParam
 			n++
 		}
 	}
-	return n, nil
+	return n, w, nil
 }
 
 // startBulkReanalysis handles POST /jobs/reanalyze: the run-list filters

@@ -304,7 +304,7 @@ func (d *DB) LatestSettingsTx(ctx context.Context, tx *sql.Tx, runID int64) (str
 // (ErrNotFound when it has none).
 func (d *DB) LatestSettings(ctx context.Context, runID int64) (string, error) {
 	var settings string
-	err := d.db.QueryRowContext(ctx, qLatestSettings, runID).Scan(&settings)
+	err := d.readStmt(qLatestSettings).QueryRowContext(ctx, runID).Scan(&settings)
 	if err != nil {
 		return "", errNoRows(err, fmt.Sprintf("run %d analysis", runID))
 	}

@@ -75,7 +75,7 @@ func (d *DB) AddAttachmentTx(ctx context.Context, tx *sql.Tx, runID int64, kind,
 
 // Attachments lists a run's attachments (without content) by kind and seq.
 func (d *DB) Attachments(ctx context.Context, runID int64) ([]Attachment, error) {
-	return listAttachments(ctx, d.db, runID)
+	return listAttachments(ctx, stmtQuerier{d.readStmt(qListAttachments)}, runID)
 }
 
 // AttachmentsTx is Attachments inside the caller's transaction. Write
@@ -139,6 +139,18 @@ func (d *DB) AttachmentContent(ctx context.Context, id int64) (Attachment, error
 	}
 	a.Size, a.CreatedAt = len(a.Content), time.Unix(created, 0).UTC()
 	return a, err
+}
+
+// AttachmentContentTx returns an attachment's content inside the
+// caller's write transaction: it sees the files the transaction added
+// itself, and in a group commit (InGroupTx) those of the writes before
+// it, which are not committed yet.
+func (d *DB) AttachmentContentTx(ctx context.Context, tx *sql.Tx, id int64) ([]byte, error) {
+	var b []byte
+	if err := d.txQueryRow(ctx, tx, qContent, []any{id}, &b); err != nil {
+		return nil, errNoRows(err, fmt.Sprintf("attachment %d", id))
+	}
+	return b, nil
 }
 
 // RunContents returns the content of every attachment of a run, by id,

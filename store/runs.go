@@ -372,11 +372,11 @@ func (d *DB) RunStatusTx(ctx context.Context, tx *sql.Tx, runID int64) (string, 
 
 // GetRun returns one run with its tags.
 func (d *DB) GetRun(ctx context.Context, id int64) (Run, error) {
-	r, err := scanRun(d.db.QueryRowContext(ctx, `SELECT `+runCols+runFrom+` WHERE r.id = ?`, id))
+	r, err := scanRun(d.readStmt(qGetRun).QueryRowContext(ctx, id))
 	if err != nil {
 		return r, fmt.Errorf("run %d: %w", id, err)
 	}
-	rows, err := d.db.QueryContext(ctx, `SELECT tag FROM run_tags WHERE run_id = ? ORDER BY tag`, id)
+	rows, err := d.readStmt(qRunTags).QueryContext(ctx, id)
 	if err != nil {
 		return r, err
 	}

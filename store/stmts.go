@@ -28,10 +28,27 @@ const (
 		ne_m3, ne_unc_m3, tgas_k, n_warnings, warn_worst FROM analysis_results WHERE analysis_id = ?`
 	qListAttachments = `SELECT id, run_id, kind, name, seq, size, created_at FROM attachments
 		WHERE run_id = ? ORDER BY kind, seq`
+	qContent      = `SELECT content FROM attachment_contents WHERE attachment_id = ?`
+	qPruneChanges = `DELETE FROM run_changes WHERE seq < (SELECT max(seq) FROM run_changes) - ?`
+	// a group commit's savepoints (group.go)
+	qSavepoint  = `SAVEPOINT group_write`
+	qRelease    = `RELEASE group_write`
+	qRollbackTo = `ROLLBACK TO group_write`
 )
 
 var hotQueries = []string{qRunStatus, qNextSeq, qAddAttachment, qAddContent, qNextVersion, qAddAnalysis, qAddResult,
-	qSetSummary, qLatestSettings, qLatestAnalysis, qLatestResults, qListAttachments}
+	qSetSummary, qLatestSettings, qLatestAnalysis, qLatestResults, qListAttachments, qContent,
+	qSavepoint, qRelease, qRollbackTo, qPruneChanges}
+
+// Reads of the ingest path on the read pool, prepared once (database/sql
+// prepares them again on each pooled connection the first time it is used
+// there).
+var (
+	qGetRun  = `SELECT ` + runCols + runFrom + ` WHERE r.id = ?`
+	qRunTags = `SELECT tag FROM run_tags WHERE run_id = ? ORDER BY tag`
+
+	readQueries = []string{qGetRun, qRunTags, qLatestSettings, qListAttachments}
+)
 
 // prepareHot prepares hotQueries (after the migrations and triggers: a
 // later schema change makes SQLite compile a statement again by itself).
@@ -44,7 +61,25 @@ func (d *DB) prepareHot(ctx context.Context) error {
 		}
 		d.hot[q] = st
 	}
+	d.rhot = make(map[string]*sql.Stmt, len(readQueries))
+	for _, q := range readQueries {
+		st, err := d.db.PrepareContext(ctx, q)
+		if err != nil {
+			return fmt.Errorf("store: prepare %q: %w", q, err)
+		}
+		d.rhot[q] = st
+	}
 	return nil
+}
+
+// readStmt returns the read pool's prepared statement of query q (one of
+// readQueries).
+func (d *DB) readStmt(q string) *sql.Stmt {
+	st, ok := d.rhot[q]
+	if !ok {
+		panic("store: statement not prepared: " + q)
+	}
+	return st
 }
 
 // txStmt returns the prepared statement of query q (one of hotQueries)

@@ -46,8 +46,9 @@ type DB struct {
 	auditReady bool
 	// actorSet and actorClear write audit_actor (prepared once).
 	actorSet, actorClear *sql.Stmt
-	// hot are the ingest path's statements, prepared once (stmts.go).
-	hot map[string]*sql.Stmt
+	// hot are the ingest path's statements, prepared once (stmts.go);
+	// rhot its reads on the read pool.
+	hot, rhot map[string]*sql.Stmt
 	// wdb is the pool of write transactions (Begin, inTx): one
 	// connection, so that writers queue in Go and each starts the moment
 	// the previous one ends, instead of polling SQLite's busy handler
@@ -56,6 +57,9 @@ type DB struct {
 	wdb *sql.DB
 
 	path string // the file, for Backup
+
+	// group is the group committer of InGroupTx (group.go).
+	group groupCommitter
 }
 
 // Sync modes of Options.Sync (SQLite's PRAGMA synchronous in WAL mode).
@@ -187,6 +191,7 @@ func openSQL(path, sync string) (*sql.DB, error) {
 
 // Close closes the database.
 func (d *DB) Close() error {
+	d.closeGroup()
 	if d.wdb != nil && d.wdb != d.db {
 		d.wdb.Close()
 	}
