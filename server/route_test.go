@@ -33,9 +33,10 @@ func storedSettings(t *testing.T, db *store.DB, runID int64, version int) Analys
 	return st
 }
 
-// checkRouteUsed: every spectrum result of a version that names its route
-// took the route its settings say (results of a pipeline that does not
-// name it yet are skipped: they are "lines" by resultModel).
+// checkRouteUsed: every spectrum result of a version took the route its
+// settings say (or fell back to lines with the pipeline's warning). Line
+// tables name no route and are skipped; at least one result must have
+// been checked.
 func checkRouteUsed(t *testing.T, db *store.DB, runID int64, version int) {
 	t.Helper()
 	a, err := db.AnalysisVersion(context.Background(), runID, version)
@@ -46,6 +47,12 @@ func checkRouteUsed(t *testing.T, db *store.DB, runID int64, version int) {
 	if err := json.Unmarshal([]byte(a.Settings), &st); err != nil {
 		t.Fatal(err)
 	}
+	checked := 0
+	defer func() {
+		if checked == 0 {
+			t.Errorf("v%d: no result names its route: nothing checked", version)
+		}
+	}()
 	for _, r := range a.Results {
 		var m struct {
 			Model string      `json:"model"`
@@ -57,6 +64,9 @@ func checkRouteUsed(t *testing.T, db *store.DB, runID int64, version int) {
 		failed := false // a whole fit that gave no result falls back to lines, flagged
 		for _, f := range m.Flags {
 			failed = failed || f.Code == flagWholeFailed
+		}
+		if m.Model != "" {
+			checked++
 		}
 		if failed && st.effectiveModel() == spectrum.ModelWhole && m.Model == spectrum.ModelLines {
 			continue
@@ -91,6 +101,9 @@ func TestRouteSettingsRunForm(t *testing.T) {
 	}
 	checkRouteUsed(t, f.db, id, 1)
 	page := f.get(fmt.Sprintf("/runs/%d", id), sess).Body.String()
+	if got := cell(page, "summary-route"); !strings.HasPrefix(got, "Route: whole-spectrum fit") {
+		t.Errorf("summary route %q: the spectrum was not analysed by the whole-spectrum fit", got)
+	}
 	if !strings.Contains(page, "route: whole-spectrum fit (free line areas, gas temperature fitted)") {
 		t.Errorf("run page does not show the route used: %s", regexp.MustCompile(`data-testid="computed-with">[^<]*`).FindString(page))
 	}

@@ -486,7 +486,7 @@ func wholeFitSection(w WholeFitView) templ.Component {
 				return templ_7745c5c3_Err
 			}
 		}
-		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 39, "<div class=\"scroll\"><table class=\"data whole-params\" data-testid=\"whole-params\"><caption>Parameters of the model (± 1σ of the fit; “fixed” ones were given, not fitted)</caption> <thead><tr><th scope=\"col\">Parameter</th><th scope=\"col\" class=\"num\">Value ± σ</th><th scope=\"col\">Unit</th></tr></thead> <tbody>")
+		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 39, "<div class=\"scroll\"><table class=\"data whole-params\" data-testid=\"whole-params\"><caption>Parameters of the model (± 1σ of the fit alone: the totals in the table above add the systematic parts; “fixed” ones were given, not fitted)</caption> <thead><tr><th scope=\"col\">Parameter</th><th scope=\"col\" class=\"num\">Value ± σ</th><th scope=\"col\">Unit</th></tr></thead> <tbody>")
 		if templ_7745c5c3_Err != nil {
 			return templ_7745c5c3_Err
 		}

@@ -239,3 +239,41 @@ func TestRouteChoiceForm(t *testing.T) {
 	shotOf(t, ctx, `[data-testid=f-route]`, "route-choice-390")
 	checkCSP()
 }
+
+// TestWholeRouteLogged: a run logged with the whole-spectrum fit chosen
+// on the form is analysed by it (the pipeline's own fit), and its page
+// shows the section with the route named in the summary; kept as PNGs.
+func TestWholeRouteLogged(t *testing.T) {
+	a := startApp(t)
+	ctx := tab(t)
+	checkCSP := cspWatch(t, ctx)
+	signIn(t, ctx, a, "olwen")
+	do(t, ctx,
+		chromedp.EmulateViewport(1280, 900),
+		chromedp.Navigate(a.url+"/runs/new"),
+		chromedp.WaitVisible(chromedp.CSS(`[data-testid=run-form]`)),
+		chromedp.SetValue(chromedp.CSS(`[data-testid=f-title]`), "Jet nozzle 7, whole route"),
+		chromedp.SetValue(chromedp.CSS(`[data-testid=f-started]`), "2026-11-30T12:40"),
+		chromedp.SetValue(chromedp.CSS(`[data-testid=f-source]`), "plasma_jet"),
+		chromedp.SetValue(chromedp.CSS(`[data-testid=f-new-chamber]`), "Jet bench West"),
+		chromedp.SetValue(chromedp.CSS(`[data-testid=f-pressure]`), "101325"),
+		chromedp.SetValue(chromedp.CSS(`[data-testid=f-instrument-fwhm]`), "0.35"),
+		chromedp.SetValue(chromedp.CSS(`[data-testid=f-gas-temperature]`), "1000"),
+		chromedp.SetValue(chromedp.CSS(`[data-testid=f-perturber]`), "none"),
+		chromedp.SetValue(chromedp.CSS(`[data-testid=f-model]`), "whole"),
+		chromedp.SetUploadFiles(chromedp.CSS(`[data-testid=f-spectra]`), []string{abs(t, spectraDir+"scipy_bench_2048.csv")}),
+		chromedp.Click(chromedp.CSS(`[data-testid=f-submit]`)),
+		chromedp.WaitVisible(chromedp.CSS(`[data-testid=run-title]`)),
+		chromedp.WaitVisible(chromedp.CSS(`[data-testid=whole-fit]`)),
+	)
+	route := run(t, ctx, chromedp.Evaluate[string](`document.querySelector('[data-testid=summary-route]').textContent`))
+	if !strings.Contains(route, "whole-spectrum fit") {
+		t.Errorf("summary route %q", route)
+	}
+	if n := run(t, ctx, chromedp.Evaluate[int](`document.querySelectorAll('[data-testid=whole-params] tbody tr').length`)); n < 4 {
+		t.Errorf("%d parameter rows", n)
+	}
+	do(t, ctx, chromedp.Click(chromedp.CSS(`[data-testid=whole-corr-details] > summary`)), chromedp.Click(chromedp.CSS(`[data-testid=whole-lines-details] > summary`)))
+	shotOf(t, ctx, `[data-testid=whole-fit]`, "whole-fit-real-1280")
+	checkCSP()
+}
