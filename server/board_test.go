@@ -267,7 +267,7 @@ func TestBoardState(t *testing.T) {
 // trends keep a contrast of at least 4.5:1 (WCAG 2.1, 1.4.3) against the
 // tile backgrounds set in the stylesheet.
 func TestBoardContrast(t *testing.T) {
-	css, err := os.ReadFile("../static/glowlog-1.css")
+	css, err := os.ReadFile("../static/glowlog-2.css")
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -593,12 +593,12 @@ func TestSmallHardening(t *testing.T) {
 		if w.Code != http.StatusNotFound && w.Code != http.StatusMovedPermanently {
 			t.Errorf("GET %s: %d", p, w.Code)
 		}
-		if strings.Contains(w.Body.String(), `href="glowlog-1.css"`) {
+		if strings.Contains(w.Body.String(), `href="glowlog-2.css"`) {
 			t.Errorf("GET %s lists files", p)
 		}
 	}
 	w := httptest.NewRecorder()
-	s.ServeHTTP(w, httptest.NewRequest(http.MethodGet, "/static/glowlog-1.css", nil))
+	s.ServeHTTP(w, httptest.NewRequest(http.MethodGet, "/static/glowlog-2.css", nil))
 	if w.Code != 200 {
 		t.Errorf("asset: %d", w.Code)
 	}

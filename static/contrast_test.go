@@ -181,11 +181,11 @@ var textPairs = []struct{ what, fgSel, fgProp, bgSel, bgProp string }{
 	{"whole-fit warning", ":root", "color", ".whole-warn", "background"},
 }
 
-// TestTextContrast: every listed text colour of glowlog-1.css has a
+// TestTextContrast: every listed text colour of glowlog-2.css has a
 // contrast ratio of at least 4.5:1 on its background (WCAG 2.1 AA for
 // normal text). The figures are logged for the notes.
 func TestTextContrast(t *testing.T) {
-	b, err := os.ReadFile("glowlog-1.css")
+	b, err := os.ReadFile("glowlog-2.css")
 	if err != nil {
 		t.Fatal(err)
 	}

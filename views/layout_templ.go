@@ -83,7 +83,7 @@ func Layout(p LayoutProps, content templ.Component) templ.Component {
 		if templ_7745c5c3_Err != nil {
 			return templ_7745c5c3_Err
 		}
-		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 2, " · glowlog</title><link rel=\"icon\" type=\"image/svg+xml\" href=\"/static/glowlog-icon-1.svg\"><link rel=\"stylesheet\" href=\"/static/glowlog-1.css\"><script src=\"/static/htmx-4.0.1.min.js\" defer></script><script src=\"/static/glowlog-1.js\" defer></script></head><body><a class=\"skip-link\" href=\"#main\" data-testid=\"skip-link\">Skip to the content</a><header class=\"top\"><a class=\"brand\" href=\"/board\">glowlog</a> ")
+		templ_7745c5c3_Err = templruntime.WriteString(templ_7745c5c3_Buffer, 2, " · glowlog</title><link rel=\"icon\" type=\"image/svg+xml\" href=\"/static/glowlog-icon-1.svg\"><link rel=\"stylesheet\" href=\"/static/glowlog-2.css\"><script src=\"/static/htmx-4.0.1.min.js\" defer></script><script src=\"/static/glowlog-2.js\" defer></script></head><body><a class=\"skip-link\" href=\"#main\" data-testid=\"skip-link\">Skip to the content</a><header class=\"top\"><a class=\"brand\" href=\"/board\">glowlog</a> ")
 		if templ_7745c5c3_Err != nil {
 			return templ_7745c5c3_Err
 		}

@@ -628,7 +628,7 @@ func dataInputs(responseUnit string, lt LineTableProps, maxMB int) templ.Compone
 // lineTableInputs is the typed line table: one row per line with its
 // integrated intensity and measured FWHM, each with an optional σ. Empty
 // rows are ignored. Buttons add and remove rows by re-rendering the form
-// (no script needed); glowlog-1.js does the same in place.
+// (no script needed); glowlog-2.js does the same in place.
 func lineTableInputs(lt LineTableProps) templ.Component {
 	return templruntime.GeneratedTemplate(func(templ_7745c5c3_Input templruntime.GeneratedComponentInput) (templ_7745c5c3_Err error) {
 		templ_7745c5c3_W, ctx := templ_7745c5c3_Input.Writer, templ_7745c5c3_Input.Context
@@ -1465,7 +1465,7 @@ func lineShapeSelect(testID, value string) templ.Component {
 
 // routeInputs chooses the analysis route of spectra and the options of
 // the whole-spectrum fit (prefix "f" or "r" for the test ids).
-// glowlog-1.js disables the options while the route is line by line;
+// glowlog-2.js disables the options while the route is line by line;
 // without a script they are refused then, with a message.
 func routeInputs(prefix string, v RouteValues) templ.Component {
 	return templruntime.GeneratedTemplate(func(templ_7745c5c3_Input templruntime.GeneratedComponentInput) (templ_7745c5c3_Err error) {
