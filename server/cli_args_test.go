@@ -83,7 +83,7 @@ func TestAnalyzeCalibrated(t *testing.T) {
 	run := func(extra ...string) (float64, float64, []string, string) {
 		t.Helper()
 		var out, errb bytes.Buffer
-		args := append([]string{file, "--instrument-fwhm-nm", "0.35", "--gas-temperature-K", "1000"}, extra...)
+		args := append([]string{file, "--line-shape", "voigt", "--instrument-fwhm-nm", "0.35", "--gas-temperature-K", "1000"}, extra...) // Voigt-shaped scipy lines
 		if code := AnalyzeCommand(args, nil, &out, &errb); code != ExitOK {
 			t.Fatalf("%q: exit %d: %s", extra, code, errb.String())
 		}

@@ -28,11 +28,10 @@ import (
 //     must have at least one spectrum (checkRouteFiles), and each result
 //     says which route produced it (resultModel).
 
-// defaultModel is the route the pipeline takes for Model "" (the contract
-// in diag/spectrum/whole_types.go: "" means ModelLines until the
-// whole-spectrum fit becomes the default). TestDefaultModelIsPipelines
-// checks it against the pipeline's own answer (Result.Model).
-var defaultModel = spectrum.ModelLines
+// defaultModel is the route the pipeline takes for Model ""
+// (spectrum.DefaultModel). TestDefaultModelIsPipelines checks it against
+// the pipeline's own answer (Result.Model).
+var defaultModel = spectrum.DefaultModel
 
 // modelLabel names a route for people.
 func modelLabel(m string) string {
@@ -48,7 +47,7 @@ func modelLabel(m string) string {
 // effectiveModel is the route settings st take ("" resolved).
 func (st AnalysisSettings) effectiveModel() string {
 	if st.Model == "" {
-		return defaultModel
+		return spectrum.DefaultRoute(st.LineShape)
 	}
 	return st.Model
 }
@@ -85,7 +84,7 @@ func (st AnalysisSettings) validateRoute() error {
 	if set := st.wholeOptionsSet(); len(set) > 0 && st.effectiveModel() != spectrum.ModelWhole {
 		route := "model " + st.Model
 		if st.Model == "" {
-			route = "the default route, " + defaultModel
+			route = "the default route, " + st.effectiveModel()
 		}
 		return badRequest("%s: only the whole-spectrum fit (model %q) uses it, and %s analyses line by line",
 			strings.Join(set, ", "), spectrum.ModelWhole, route)
@@ -143,7 +142,7 @@ func resultModel(sr *spectrum.Result) string {
 
 // routeValues are the route fields of the forms.
 func routeValues(model, areas string, freeGas, freeIn bool) views.RouteValues {
-	return views.RouteValues{Model: model, Default: modelLabel(defaultModel), DefaultModel: defaultModel, WholeAreas: areas,
+	return views.RouteValues{Model: model, Default: modelLabel(defaultModel) + "; line by line for Voigt-shaped lines", DefaultModel: defaultModel, WholeAreas: areas,
 		WholeFreeGas: freeGas, WholeFreeIn: freeIn}
 }
 

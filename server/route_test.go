@@ -181,7 +181,7 @@ func TestRouteSettingsReanalyze(t *testing.T) {
 	// The form shows them back.
 	page := f.get(fmt.Sprintf("/runs/%d", r.ID), sess).Body.String()
 	for _, want := range []string{`<option value="whole" selected`, `<option value="free" selected`,
-		`name="whole_free_instrument" value="1" checked`, `<option value="">default (line by line)</option>`} {
+		`name="whole_free_instrument" value="1" checked`, `<option value="">default (whole-spectrum fit; line by line for Voigt-shaped lines)</option>`} {
 		if !strings.Contains(page, want) {
 			t.Errorf("reanalysis form lacks %s", want)
 		}
@@ -300,7 +300,7 @@ func TestAnalyzeModelFlags(t *testing.T) {
 	}{
 		{[]string{spec, "--model", "global"}, `--model must be whole or lines, got "global"`},
 		{[]string{"--model", "whole", "--areas", "some", spec}, `--areas must be boltzmann or free, got "some"`},
-		{[]string{spec, "--areas", "free"}, "--areas: only the whole-spectrum fit uses it; give --model whole (the route is lines)"},
+		{[]string{spec, "--model", "lines", "--areas", "free"}, "--areas: only the whole-spectrum fit uses it; give --model whole (the route is lines)"},
 		{[]string{"--model", "lines", "--free-gas-temperature", "--free-instrument", spec}, "--free-gas-temperature, --free-instrument: only the whole-spectrum fit"},
 		{[]string{set, "--model", "whole"}, "--model whole needs a spectrum: a measurement set (line table) is always analysed line by line"},
 	} {

@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/csv"
 	"encoding/json"
+	"glowlog/diag/spectrum"
 	"io"
 	"net/http"
 	"net/http/httptest"
@@ -54,7 +55,7 @@ func newShowFixture(t *testing.T) *showFixture {
 		t.Fatal(err)
 	}
 	atts := []store.Attachment{{ID: attID, RunID: runID, Kind: store.KindSpectrum, Name: "scipy_bench_2048.csv", Seq: 1, Content: content}}
-	st := AnalysisSettings{InstrumentFWHMNM: 0.35, GasTemperatureK: 1000}
+	st := AnalysisSettings{InstrumentFWHMNM: 0.35, GasTemperatureK: 1000, LineShape: spectrum.LineShapeVoigt} // Voigt-shaped scipy lines
 	if _, _, err := s.ReanalyzeRunTx(ctx, tx, runID, atts, st, &u.ID, "first analysis"); err != nil {
 		t.Fatal(err)
 	}

@@ -88,7 +88,11 @@ var sh99Results = sync.OnceValues(func() ([]sh99Case, error) {
 			return nil, fmt.Errorf("%s: %v", f, err)
 		}
 		tr := cases[i].truth
+		// The line-by-line route (its σ is what issue "numbers a physicist
+		// can sign" measured here); the whole route is measured on
+		// testdata/wholesynth (wholesynth_test.go).
 		args := []string{
+			"--model", "lines",
 			"--instrument-fwhm-nm", fmt.Sprint(tr.InstrumentNM),
 			"--gas-temperature-K", fmt.Sprint(tr.GasK),
 			"--gain-e-per-count", fmt.Sprint(tr.Gain),

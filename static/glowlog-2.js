@@ -60,6 +60,11 @@
       return;
     }
     var route = sel.value || fs.getAttribute('data-route-default');
+    // The default route is line by line for Voigt-shaped lines.
+    var shape = fs.form && fs.form.querySelector('select[name=line_shape]');
+    if (!sel.value && shape && shape.value === 'voigt') {
+      route = 'lines';
+    }
     opts.disabled = route !== 'whole';
   }
   function all() {
@@ -69,6 +74,8 @@
     var fs = ev.target.closest && ev.target.closest('fieldset.route');
     if (fs && ev.target.hasAttribute('data-route-model')) {
       sync(fs);
+    } else if (ev.target.name === 'line_shape') {
+      all();
     }
   });
   if (document.readyState === 'loading') {

@@ -92,7 +92,7 @@ type Options struct {
 	// the Stark shape of Balmer lines (shape.go).
 	LineShape string
 	// Model is the analysis route: ModelWhole or ModelLines ("" means
-	// ModelLines until the whole-spectrum fit is the default).
+	// DefaultRoute(LineShape)).
 	Model string
 	// WholeAreas is WholeAreasBoltzmann ("" means it) or WholeAreasFree.
 	WholeAreas string
@@ -334,6 +334,9 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 
 	if !ValidModel(opt.Model) {
 		return res, fail(src, "unknown analysis route %q (want %q or %q)", opt.Model, ModelLines, ModelWhole)
+	}
+	if opt.Model == "" {
+		opt.Model = DefaultRoute(opt.LineShape)
 	}
 	if !ValidWholeAreas(opt.WholeAreas) {
 		return res, fail(src, "unknown area mode %q of the whole-spectrum fit (want %q or %q)", opt.WholeAreas, WholeAreasBoltzmann, WholeAreasFree)

@@ -15,6 +15,23 @@ const (
 	ModelLines = "lines"
 )
 
+// DefaultModel is the route of Options.Model "" for Balmer lines of the
+// Stark shape (LineShape "" or LineShapeStark): the whole-spectrum fit.
+// On independent SH99-shaped spectra (testdata/wholesynth) its median n_e
+// error is 0.03–0.21× and its T_exc error 0.27× the line-by-line route's.
+const DefaultModel = ModelWhole
+
+// DefaultRoute is the route taken for Options.Model "" with the given
+// line shape: DefaultModel for Stark-shaped lines; ModelLines when the
+// lines are declared Voigt profiles (LineShapeVoigt), since the whole
+// model's shapes are the tabulated Stark shapes.
+func DefaultRoute(lineShape string) string {
+	if lineShape == LineShapeVoigt {
+		return ModelLines
+	}
+	return DefaultModel
+}
+
 // ValidModel reports whether s names an analysis route ("" means the
 // default).
 func ValidModel(s string) bool { return s == "" || s == ModelWhole || s == ModelLines }

@@ -205,9 +205,10 @@ func titleRange(s string) (lo, hi float64, err error) {
 	return lo, hi, err
 }
 
-// TestRouteChoiceForm: on Log a run the whole-fit options are disabled
-// while the route is the default (line by line) and enabled when the
-// whole-spectrum fit is chosen; the reanalysis form does the same.
+// TestRouteChoiceForm: on Log a run the whole-fit options are enabled
+// while the route is the default (the whole-spectrum fit, for Stark-shaped
+// lines), disabled when the lines route is chosen, and enabled again for
+// the whole-spectrum fit.
 func TestRouteChoiceForm(t *testing.T) {
 	a := startApp(t)
 	ctx := tab(t)
@@ -217,8 +218,13 @@ func TestRouteChoiceForm(t *testing.T) {
 		return run(t, ctx, chromedp.Evaluate[bool](`document.querySelector('[data-testid=f-route] [data-whole-options]').disabled`))
 	}
 	do(t, ctx, chromedp.EmulateViewport(1280, 900), chromedp.Navigate(a.url+"/runs/new"), chromedp.WaitVisible(chromedp.CSS(`[data-testid=f-route]`)))
+	if disabled() {
+		t.Errorf("whole-fit options disabled with the default route (the whole-spectrum fit)")
+	}
+	do(t, ctx, chromedp.SetValue(chromedp.CSS(`[data-testid=f-model]`), "lines"))
+	run(t, ctx, chromedp.Evaluate[bool](`document.querySelector('[data-testid=f-model]').dispatchEvent(new Event('change', {bubbles: true}))`))
 	if !disabled() {
-		t.Errorf("whole-fit options enabled with the default route (line by line)")
+		t.Errorf("whole-fit options enabled with the lines route")
 	}
 	do(t, ctx, chromedp.SetValue(chromedp.CSS(`[data-testid=f-model]`), "whole"))
 	run(t, ctx, chromedp.Evaluate[bool](`document.querySelector('[data-testid=f-model]').dispatchEvent(new Event('change', {bubbles: true}))`))
