@@ -67,6 +67,20 @@ type wsTruth struct {
 	} `json:"lines"`
 }
 
+// in reports whether the spectrum belongs to group: "" (all), a group
+// of gen.py, or "hires/Hα" and "hires/Hβ" (the windows).
+func (t wsTruth) in(group string) bool {
+	switch group {
+	case "":
+		return true
+	case "hires/Hα":
+		return t.Group == "hires" && t.Window == "Halpha"
+	case "hires/Hβ":
+		return t.Group == "hires" && t.Window == "Hbeta"
+	}
+	return t.Group == group
+}
+
 // signalMembers counts the members whose centre is inside the range and
 // whose peak stands above the noise by the pipeline's detection threshold
 // (spectrum.DefaultMinSNR): the members that carry signal.
@@ -87,6 +101,11 @@ type wsValue struct {
 	internal                 bool   // err is not a problem with the data (*spectrum.Error)
 	model                    string // Result.Model
 	wholeRan                 bool   // Result.Whole present
+	// areas are the fitted line intensities by upper level (lines route:
+	// the top-level lines; whole route: whole_fit.lines).
+	areas map[int]float64
+	// source is electron_density_source (which line and relation).
+	source string
 }
 
 type wsCase struct {
@@ -148,11 +167,28 @@ func wsAnalyze(tr wsTruth, model string) (wsValue, error) {
 	if err := json.Unmarshal(b, &m); err != nil {
 		return wsValue{}, err
 	}
-	return wsValue{
+	v := wsValue{
 		ne: jsonNumber(m, "electron_density_m3"), neUnc: jsonNumber(m, "electron_density_unc_m3"),
 		texc: jsonNumber(m, "excitation_temperature_K"), texcUnc: jsonNumber(m, "excitation_temperature_unc_K"),
-		model: res.Model, wholeRan: res.Whole != nil,
-	}, nil
+		model: res.Model, wholeRan: res.Whole != nil, areas: map[int]float64{},
+	}
+	v.source, _ = m["electron_density_source"].(string)
+	lines, _ := m["lines"].([]any)
+	key := "intensity"
+	if res.Model == spectrum.ModelWhole {
+		w, _ := m["whole_fit"].(map[string]any)
+		lines, _ = w["lines"].([]any)
+		key = "area"
+	}
+	for _, l := range lines {
+		lm, _ := l.(map[string]any)
+		u, ok1 := lm["upper_level"].(float64)
+		a, ok2 := lm[key].(float64)
+		if ok1 && ok2 {
+			v.areas[int(u)] = a
+		}
+	}
+	return v, nil
 }
 
 // wsScipy is scipy_lines_results.json.
@@ -271,7 +307,7 @@ func wsMeasure(cases []wsCase, group, route string, ne bool) wsStats {
 	var errs []float64
 	for i := range cases {
 		c := &cases[i]
-		if group != "" && c.truth.Group != group {
+		if !c.truth.in(group) {
 			continue
 		}
 		v := *c.route(route)
@@ -340,31 +376,80 @@ func wsTable(cases []wsCase) string {
 	if !whole {
 		b.WriteString("whole route: not implemented in this build (Result.Model never \"whole\"): its rows are empty\n")
 	}
-	fmt.Fprintf(&b, "%-7s %-6s  %-46s  %-46s\n", "group", "route", "n_e", "T_exc")
-	for _, g := range append(slices.Clone(wsGroups), "") {
+	fmt.Fprintf(&b, "%-8s %-6s  %-46s  %-46s\n", "group", "route", "n_e", "T_exc")
+	for _, g := range append(slices.Clone(wsGroups), "hires/Hα", "hires/Hβ", "") {
 		name := g
 		if g == "" {
 			name = "all"
 		}
 		for _, r := range wsRoutes {
-			fmt.Fprintf(&b, "%-7s %-6s  %-46s  %-46s\n", name, r, wsMeasure(cases, g, r, true), wsMeasure(cases, g, r, false))
+			fmt.Fprintf(&b, "%-8s %-6s  %-46s  %-46s\n", name, r, wsMeasure(cases, g, r, true), wsMeasure(cases, g, r, false))
 		}
 		if whole {
 			ln, wn := wsMeasure(cases, g, "lines", true), wsMeasure(cases, g, "whole", true)
 			lt, wt := wsMeasure(cases, g, "lines", false), wsMeasure(cases, g, "whole", false)
-			fmt.Fprintf(&b, "%-7s whole/lines median: n_e %.2f (target ≤ 0.5), T_exc %.2f (target ≤ 0.7)\n", name, wn.median/ln.median, wt.median/lt.median)
+			fmt.Fprintf(&b, "%-8s whole/lines median: n_e %.2f (target ≤ 0.5), T_exc %.2f (target ≤ 0.7)\n", name, wn.median/ln.median, wt.median/lt.median)
 		}
 	}
+	b.WriteString(wsAreaTable(cases))
 	b.WriteString("\nper spectrum: truth, then lines | whole | scipy (value ± total 1σ)\n")
-	fmt.Fprintf(&b, "%-18s %9s %6s %3s | %-20s %-20s %-20s | %-14s %-14s %-14s\n", "spectrum", "n_e", "T_exc", "sig",
-		"n_e lines", "n_e whole", "n_e scipy", "T lines", "T whole", "T scipy")
+	fmt.Fprintf(&b, "%-18s %9s %6s %3s | %-20s %-20s %-20s | %-14s %-14s %-14s | %s\n", "spectrum", "n_e", "T_exc", "sig",
+		"n_e lines", "n_e whole", "n_e scipy", "T lines", "T whole", "T scipy", "lines route's n_e source")
 	for i := range cases {
 		c := &cases[i]
 		w := c.wholeValue()
-		fmt.Fprintf(&b, "%-18s %9.3g %6.0f %3d | %-20s %-20s %-20s | %-14s %-14s %-14s\n", strings.TrimSuffix(c.truth.Spectrum, ".csv"),
+		fmt.Fprintf(&b, "%-18s %9.3g %6.0f %3d | %-20s %-20s %-20s | %-14s %-14s %-14s | %s\n", strings.TrimSuffix(c.truth.Spectrum, ".csv"),
 			c.truth.NeM3, c.truth.TexcK, c.truth.signalMembers(),
 			sh99PlusMinus(c.lines.ne, c.lines.neUnc, "%.3g"), sh99PlusMinus(w.ne, w.neUnc, "%.3g"), sh99PlusMinus(c.scipy.ne, c.scipy.neUnc, "%.3g"),
-			sh99PlusMinus(c.lines.texc, c.lines.texcUnc, "%.0f"), sh99PlusMinus(w.texc, w.texcUnc, "%.0f"), sh99PlusMinus(c.scipy.texc, c.scipy.texcUnc, "%.0f"))
+			sh99PlusMinus(c.lines.texc, c.lines.texcUnc, "%.0f"), sh99PlusMinus(w.texc, w.texcUnc, "%.0f"), sh99PlusMinus(c.scipy.texc, c.scipy.texcUnc, "%.0f"),
+			c.lines.source)
+	}
+	return b.String()
+}
+
+// wsAreaTable gives per group, route and member the median of fitted area
+// / true area − 1 and how many were fitted of those carrying signal (a
+// diagnostic of the line shapes behind T_exc).
+func wsAreaTable(cases []wsCase) string {
+	var b strings.Builder
+	b.WriteString("\nfitted line area / truth − 1: median (fitted/members with signal)\n")
+	for _, g := range wsGroups {
+		for _, r := range []string{"lines", "whole"} {
+			fmt.Fprintf(&b, "%-8s %-6s", g, r)
+			for u := 3; u <= 12; u++ {
+				var d []float64
+				present := 0
+				for i := range cases {
+					c := &cases[i]
+					if c.truth.Group != g {
+						continue
+					}
+					v := c.lines
+					if r == "whole" {
+						v = c.wholeValue()
+					}
+					for _, tl := range c.truth.Lines {
+						if tl.Upper != u || !tl.CenterInRange || tl.PeakSNR < spectrum.DefaultMinSNR {
+							continue
+						}
+						present++
+						if a, ok := v.areas[u]; ok {
+							d = append(d, a/tl.Area-1)
+						}
+					}
+				}
+				if present == 0 {
+					continue
+				}
+				med := math.NaN()
+				if len(d) > 0 {
+					slices.Sort(d)
+					med = (d[(len(d)-1)/2] + d[len(d)/2]) / 2
+				}
+				fmt.Fprintf(&b, "  n=%d %+5.1f%% (%d/%d)", u, 100*med, len(d), present)
+			}
+			b.WriteString("\n")
+		}
 	}
 	return b.String()
 }
