@@ -106,6 +106,22 @@ type wsValue struct {
 	areas map[int]float64
 	// source is electron_density_source (which line and relation).
 	source string
+	// wholeNotes are the messages of the whole-spectrum fit's flags
+	// (codes starting "whole_"), e.g. why it gave no result.
+	wholeNotes []string
+}
+
+// wholeStatus says for the per-spectrum table what the whole route did.
+func (v wsValue) wholeStatus() string {
+	switch {
+	case v.err != "":
+		return "error: " + v.err
+	case v.model == spectrum.ModelWhole:
+		return "whole"
+	case v.wholeRan:
+		return "fell back to lines (whole_fit present) " + strings.Join(v.wholeNotes, "; ")
+	}
+	return "fell back to lines " + strings.Join(v.wholeNotes, "; ")
 }
 
 type wsCase struct {
@@ -173,6 +189,11 @@ func wsAnalyze(tr wsTruth, model string) (wsValue, error) {
 		model: res.Model, wholeRan: res.Whole != nil, areas: map[int]float64{},
 	}
 	v.source, _ = m["electron_density_source"].(string)
+	for _, f := range res.Flags {
+		if strings.HasPrefix(f.Code, "whole_") {
+			v.wholeNotes = append(v.wholeNotes, f.Code+": "+f.Message)
+		}
+	}
 	lines, _ := m["lines"].([]any)
 	key := "intensity"
 	if res.Model == spectrum.ModelWhole {
@@ -394,7 +415,7 @@ func wsTable(cases []wsCase) string {
 	b.WriteString(wsAreaTable(cases))
 	b.WriteString("\nper spectrum: truth, then lines | whole | scipy (value ± total 1σ)\n")
 	fmt.Fprintf(&b, "%-18s %9s %6s %3s | %-20s %-20s %-20s | %-14s %-14s %-14s | %s\n", "spectrum", "n_e", "T_exc", "sig",
-		"n_e lines", "n_e whole", "n_e scipy", "T lines", "T whole", "T scipy", "lines route's n_e source")
+		"n_e lines", "n_e whole", "n_e scipy", "T lines", "T whole", "T scipy", "lines route's n_e source; whole route")
 	for i := range cases {
 		c := &cases[i]
 		w := c.wholeValue()
@@ -402,7 +423,7 @@ func wsTable(cases []wsCase) string {
 			c.truth.NeM3, c.truth.TexcK, c.truth.signalMembers(),
 			sh99PlusMinus(c.lines.ne, c.lines.neUnc, "%.3g"), sh99PlusMinus(w.ne, w.neUnc, "%.3g"), sh99PlusMinus(c.scipy.ne, c.scipy.neUnc, "%.3g"),
 			sh99PlusMinus(c.lines.texc, c.lines.texcUnc, "%.0f"), sh99PlusMinus(w.texc, w.texcUnc, "%.0f"), sh99PlusMinus(c.scipy.texc, c.scipy.texcUnc, "%.0f"),
-			c.lines.source)
+			c.lines.source+"; "+c.whole.wholeStatus())
 	}
 	return b.String()
 }
