@@ -511,6 +511,9 @@ func TestWholeSynthHarness(t *testing.T) {
 				t.Logf("%s: %s route: no result: %s", c.truth.Spectrum, r, v.err)
 			}
 		}
+		if c.whole.model == spectrum.ModelWhole && !c.whole.wholeRan {
+			t.Errorf("%s: whole route answered as \"whole\" without a whole_fit", c.truth.Spectrum)
+		}
 		// "" is the lines route of builds before the route setting was
 		// reported.
 		if c.lines.err == "" && c.lines.model != spectrum.ModelLines && c.lines.model != "" {
