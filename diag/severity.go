@@ -58,6 +58,9 @@ var flagSeverity = map[string]Severity{
 	"line_saturated":    SeverityProblem,
 	"partial_result":    SeverityProblem,
 	"line_undersampled": SeverityCaution, // width withheld from n_e
+	// Whole-spectrum fit (diag/spectrum whole.go).
+	"whole_lines_disagree": SeverityProblem, // the two routes differ beyond 2σ
+	"whole_fit_failed":     SeverityCaution, // lines result reported instead
 }
 
 // SeverityOf returns the severity of a flag code (caution when the code

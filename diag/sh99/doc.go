@@ -97,6 +97,17 @@
 // Doppler width: Profile ⊗ Gaussian(√(w_G² − w_D(T)²)) is then exactly
 // Stark ⊗ Gaussian(w_G).
 //
+// # Fast cumulative integrals (Shape)
+//
+// Line.Shape prepares the interpolated profile at one (n_e, T) for a
+// whole-profile fit: its cumulative integral (exact for the width-scaled
+// interpolation: a weighted sum of the corner nodes' own cumulatives at
+// scaled detunings), the profile, and the cumulative's derivative in
+// ln n_e, from a dense table per node profile (built once, cubic
+// Hermite, the power-law wing integrated analytically beyond it).
+// Differences of the cumulative at pixel or grid edges give exact
+// pixel-integrated values with no area lost in the far wings.
+//
 // # Inverse
 //
 // At fixed T the interpolated width is piecewise linear in ln n_e between

@@ -138,6 +138,9 @@ type nodeProfile struct {
 	half      float64 // ∫₀^∞ P dx (one side)
 	// dip is true when the largest tabulated value is off the centre.
 	dip bool
+	// tab is the dense cumulative table of Shape, built on first use.
+	tabOnce sync.Once
+	tab     *cumTable
 }
 
 func newNodeProfile(x, p []float64) (*nodeProfile, error) {

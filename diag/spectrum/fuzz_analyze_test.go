@@ -43,6 +43,7 @@ func fuzzSpectrumText(tb testing.TB, scale float64) []byte {
 // panic (by not recovering), on a result with a NaN or ±Inf, on a JSON
 // encoding error, and on an error without a message.
 func fuzzAnalyzeOne(t *testing.T, p *Pipeline, data []byte) {
+	tt := t
 	var v any
 	var err error
 	if t := bytes.TrimLeft(data, " \t\r\n"); len(t) > 0 && t[0] == '{' {
@@ -62,10 +63,26 @@ func fuzzAnalyzeOne(t *testing.T, p *Pipeline, data []byte) {
 			wl, y, err = sp.WavelengthNM()
 			if err == nil {
 				var r Result
-				r, err = p.Analyze(&Spectrum{Name: "fuzz.csv", WavelengthNM: wl, Counts: y},
-					Options{Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.1, GasTemperatureK: 1000, PressurePa: 1e3, Perturber: "Ar"},
-						KeepWindows: true, MaxUpper: 6})
+				opt := Options{Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.1, GasTemperatureK: 1000, PressurePa: 1e3, Perturber: "Ar"},
+					KeepWindows: true, MaxUpper: 6}
+				r, err = p.Analyze(&Spectrum{Name: "fuzz.csv", WavelengthNM: wl, Counts: y}, opt)
 				v = r
+				if err == nil {
+					// The whole-spectrum route on the same spectrum: the same
+					// promises (it falls back to the lines result with a
+					// flag when it cannot fit).
+					opt.Model = ModelWhole
+					var rw Result
+					rw, err = p.Analyze(&Spectrum{Name: "fuzz.csv", WavelengthNM: wl, Counts: y}, opt)
+					if err == nil {
+						if err := diag.CheckFinite(rw); err != nil {
+							tt.Fatalf("whole route: result accepted with a non-finite number: %v", err)
+						}
+						if _, err := json.Marshal(rw); err != nil {
+							tt.Fatalf("whole route: JSON encoding failed: %v", err)
+						}
+					}
+				}
 			}
 		}
 	}

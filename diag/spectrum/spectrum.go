@@ -237,6 +237,11 @@ type Pipeline struct {
 	chi2    []groupChi2
 	keep    []Window
 	iters   []int
+	// lastWhole is the input of the last whole-spectrum fit (its slices
+	// are the buffers above): BenchmarkWhole2048 times the fit alone.
+	lastWhole wholeInput
+	// wfit is the whole-spectrum fitter, kept for its buffers.
+	wfit *wholeFitter
 }
 
 // maxWindowLines bounds the lines fitted jointly in one window.
@@ -323,6 +328,12 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 		opt.MaxUpper = diag.MaxLevel
 	}
 
+	if !ValidModel(opt.Model) {
+		return res, fail(src, "unknown analysis route %q (want %q or %q)", opt.Model, ModelLines, ModelWhole)
+	}
+	if !ValidWholeAreas(opt.WholeAreas) {
+		return res, fail(src, "unknown area mode %q of the whole-spectrum fit (want %q or %q)", opt.WholeAreas, WholeAreasBoltzmann, WholeAreasFree)
+	}
 	if opt.Calibrated && opt.Response != nil {
 		return res, fail(src, "the spectrum is declared response-corrected and a response calibration is given too: give one or the other")
 	}
@@ -575,6 +586,11 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 		return res, &Error{Source: src, Msg: trimDiag(err.Error()), Err: err}
 	}
 	res.Result = ar
+	res.Model = ModelLines
+	if opt.Model == ModelWhole {
+		p.lastWhole = wholeInput{cands: cands, x: x, y: y, sig: sig, sat: sat, m: m, lines: ar, off: res.WavelengthOffsetNM}
+		p.whole(&res, p.lastWhole, opt)
+	}
 	if autoSat && anySaturated(cands) {
 		res.Flags = append(res.Flags, diag.Flag{Code: FlagSaturationAuto, Message: fmt.Sprintf(
 			"no detector ceiling was given; a flat top at %.6g counts was taken as saturation", satLevel)})

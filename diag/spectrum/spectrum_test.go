@@ -489,6 +489,63 @@ func BenchmarkPipeline2048(b *testing.B) {
 	}
 }
 
+// BenchmarkWhole2048 is the speed target of the whole-spectrum fit: a
+// 2048-pixel survey spectrum (375–700 nm, 0.5 nm instrument) with Hα–Hε
+// from our SH99 generator. "whole" times the whole fit alone (from the
+// prepared data and the lines route's result), "pipeline+whole" the
+// pipeline with the whole fit, "pipeline" the lines route alone, side by
+// side. Besides the wall time each reports cpu-ns/op, the process's CPU
+// time per operation (GC included), which a shared machine inflates
+// less.
+func BenchmarkWhole2048(b *testing.B) {
+	g := wgen{lo: 375, hi: 700, npx: 2048, uppers: []int{3, 4, 5, 6, 7}, texc: 5200, ne: 2.2e21, instG: 0.5, gasT: 600,
+		peakCounts: 20000, baseFrac: 0.02, gain: 2, read: 10}
+	sp, _, err := g.gen(rand.New(rand.NewPCG(5, 6)))
+	if err != nil {
+		b.Fatal(err)
+	}
+	p := NewPipeline(4096)
+	opt := g.wopt(ModelWhole)
+	opt.MaxUpper = 7
+	if _, err := p.Analyze(sp, opt); err != nil {
+		b.Fatal(err)
+	}
+	cpu := func(b *testing.B, f func()) {
+		b.ReportAllocs()
+		c0 := processCPU()
+		for b.Loop() {
+			f()
+		}
+		if c := processCPU() - c0; c > 0 {
+			b.ReportMetric(float64(c.Nanoseconds())/float64(b.N), "cpu-ns/op")
+		}
+	}
+	b.Run("whole", func(b *testing.B) {
+		in := p.lastWhole
+		cpu(b, func() {
+			if _, err := p.wholeFit(in, opt); err != nil {
+				b.Fatal(err)
+			}
+		})
+	})
+	b.Run("pipeline+whole", func(b *testing.B) {
+		cpu(b, func() {
+			if _, err := p.Analyze(sp, opt); err != nil {
+				b.Fatal(err)
+			}
+		})
+	})
+	b.Run("pipeline", func(b *testing.B) {
+		o := opt
+		o.Model = ModelLines
+		cpu(b, func() {
+			if _, err := p.Analyze(sp, o); err != nil {
+				b.Fatal(err)
+			}
+		})
+	})
+}
+
 // TestExcludeFromBoltzmann: an excluded line stays on the plot, out of
 // the fit.
 func TestExcludeFromBoltzmann(t *testing.T) {

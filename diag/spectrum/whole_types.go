@@ -1,5 +1,7 @@
 package spectrum
 
+import "glowlog/diag"
+
 // Analysis routes of the pipeline (Options.Model).
 const (
 	// ModelWhole fits one physical model to the whole fitted range: line
@@ -26,6 +28,12 @@ const (
 	// fitted areas.
 	WholeAreasFree = "free"
 )
+
+// ValidWholeAreas reports whether s names an area mode of the
+// whole-spectrum fit ("" means WholeAreasBoltzmann).
+func ValidWholeAreas(s string) bool {
+	return s == "" || s == WholeAreasBoltzmann || s == WholeAreasFree
+}
 
 // FlagWholeDisagrees is raised when the whole-spectrum fit and the
 // line-by-line route disagree beyond their uncertainties.
@@ -82,6 +90,17 @@ type WholeFit struct {
 	DOF         int          `json:"dof"`
 	Iterations  int          `json:"iterations"`
 	Converged   bool         `json:"converged"`
+	// BoltzmannDeltaChi2 is χ²(areas tied by T_exc) − χ²(areas free) at
+	// the fitted shapes, with BoltzmannDOF = lines − 2 degrees of freedom
+	// and its χ² tail probability BoltzmannP (Boltzmann mode with three
+	// or more lines; 0 otherwise). Below p = 0.0455 (2σ) the tie is
+	// rejected: T_exc's σ is scaled by √(Δχ²/dof) and FlagWholeDisagrees
+	// is raised. (Added by the whole-fit work.)
+	BoltzmannDeltaChi2 float64 `json:"boltzmann_delta_chi2"`
+	BoltzmannDOF       int     `json:"boltzmann_dof"`
+	BoltzmannP         float64 `json:"boltzmann_p"`
+	// offTie describes the rejected tie for the flag ("" when accepted).
+	offTie string
 	// DopplerNote says how the tables' own Doppler part was handled.
 	DopplerNote string      `json:"doppler_note"`
 	Lines       []WholeLine `json:"lines"`
@@ -91,12 +110,20 @@ type WholeFit struct {
 	ExcitationTemperatureUncStatK *float64 `json:"excitation_temperature_unc_stat_K"`
 	ExcitationTemperatureUncSysK  *float64 `json:"excitation_temperature_unc_sys_K"`
 	ExcitationTemperatureUncK     *float64 `json:"excitation_temperature_unc_K"`
-	ElectronDensityM3             *float64 `json:"electron_density_m3"`
-	ElectronDensityUncStatM3      *float64 `json:"electron_density_unc_stat_m3"`
-	ElectronDensityUncSysM3       *float64 `json:"electron_density_unc_sys_m3"`
-	ElectronDensityUncM3          *float64 `json:"electron_density_unc_m3"`
-	GasTemperatureK               *float64 `json:"gas_temperature_K,omitempty"`
-	GasTemperatureUncK            *float64 `json:"gas_temperature_unc_K,omitempty"`
+	// ExcitationTemperatureUncParts are the parts of the systematic σ of
+	// T_exc, K: the response calibration, and in Boltzmann mode the same
+	// inputs as for n_e (instrument width, gas temperature, T_e of the
+	// tables, Doppler handling). (Added by the whole-fit work.)
+	ExcitationTemperatureUncParts []diag.UncPart `json:"excitation_temperature_unc_sys_parts,omitempty"`
+	ElectronDensityM3             *float64       `json:"electron_density_m3"`
+	ElectronDensityUncStatM3      *float64       `json:"electron_density_unc_stat_m3"`
+	ElectronDensityUncSysM3       *float64       `json:"electron_density_unc_sys_m3"`
+	ElectronDensityUncM3          *float64       `json:"electron_density_unc_m3"`
+	// ElectronDensityUncParts are the parts of the systematic σ of n_e,
+	// m⁻³ (added by the whole-fit work).
+	ElectronDensityUncParts []diag.UncPart `json:"electron_density_unc_sys_parts,omitempty"`
+	GasTemperatureK         *float64       `json:"gas_temperature_K,omitempty"`
+	GasTemperatureUncK      *float64       `json:"gas_temperature_unc_K,omitempty"`
 	// Lines route beside it, and the difference in combined σ.
 	LinesExcitationTemperatureK    *float64 `json:"lines_excitation_temperature_K"`
 	LinesExcitationTemperatureUncK *float64 `json:"lines_excitation_temperature_unc_K"`

@@ -1,0 +1,118 @@
+package sh99
+
+import (
+	"math"
+	"testing"
+
+	"gonum.org/v1/gonum/integrate/quad"
+)
+
+// TestShapeCumulative checks Shape against Profile, computed
+// independently of it: the cumulative integral against adaptive-free
+// Gauss–Legendre quadrature of Profile between off-node detunings
+// (gonum's fixed-order rule on many sub-intervals), the density (the
+// Hermite derivative) against Profile itself, the total area, and the ln
+// n_e derivative against a central difference of Cumulative.
+func TestShapeCumulative(t *testing.T) {
+	cases := []struct {
+		upper  int
+		ne, tk float64
+	}{
+		{3, 3.7e21, 1e4}, {4, 2.3e20, 1e4}, {4, 6.1e22, 1.3e4}, {5, 1.7e21, 8000}, {6, 4.4e21, 1e4},
+		{7, 9.1e20, 1e4}, {4, 1e21, 1e4}, // on a density node
+	}
+	for _, c := range cases {
+		l, err := Balmer(c.upper)
+		if err != nil {
+			t.Fatal(err)
+		}
+		s, err := l.Shape(c.ne, c.tk)
+		if err != nil {
+			t.Fatalf("n=%d: %v", c.upper, err)
+		}
+		w := s.FWHMNM()
+		if tw, _ := l.TableWidthNM(FWHM, c.ne, c.tk); math.Abs(tw/w-1) > 1e-12 {
+			t.Errorf("n=%d: FWHM %g, TableWidthNM %g", c.upper, w, tw)
+		}
+		prof := func(d float64) float64 { v, _ := l.Profile(d, c.ne, c.tk); return v }
+		// Integral from −w/3 outwards in sub-intervals of w/20 up to 8w.
+		a := -w / 3
+		acc := s.Cumulative(a)
+		var worst, worstP float64
+		for k := 1; k <= 160; k++ {
+			b := a + w/20
+			acc += quad.Fixed(prof, a, b, 12, quad.Legendre{}, 0)
+			worst = math.Max(worst, math.Abs(acc-s.Cumulative(b)))
+			a = b
+		}
+		// 1e-5 of the area: the nodes' own cumulative (8-point
+		// Gauss–Legendre per tabulated segment, nodeProfile.cumAt) agrees
+		// with the fine quadrature of Profile to a few 1e-6.
+		if worst > 1e-5 {
+			t.Errorf("n=%d n_e=%g: cumulative off the integral of Profile by %.2g", c.upper, c.ne, worst)
+		}
+		// Density: the derivative of the cumulative (by a small central
+		// difference) against Profile.
+		for _, f := range []float64{0, 0.13, 0.37, 0.5, 0.9, 2.3, 7.7, 40} {
+			d := f * w
+			hh := w * 1e-4
+			num := (s.Cumulative(d+hh) - s.Cumulative(d-hh)) / (2 * hh)
+			p := prof(d)
+			worstP = math.Max(worstP, math.Abs(num/p-1))
+			c1, p1, dc1 := s.Eval(d)
+			c2, dc2 := s.CumulativeDeriv(d)
+			worstP = math.Max(worstP, math.Abs(p1/p-1))
+			if c1 != c2 || dc1 != dc2 {
+				t.Errorf("n=%d: Eval and CumulativeDeriv differ at %g", c.upper, d)
+			}
+		}
+		if worstP > 1e-4 {
+			t.Errorf("n=%d n_e=%g: d(cumulative)/dλ off Profile by %.2g relative", c.upper, c.ne, worstP)
+		}
+		if v := s.Cumulative(1e6 * w); math.Abs(v-1) > 1e-6 {
+			t.Errorf("n=%d: total area %v", c.upper, v)
+		}
+		if v := s.Cumulative(0); v != 0.5 {
+			t.Errorf("n=%d: C(0) = %v", c.upper, v)
+		}
+		// ln n_e derivative (off-node cases only: at a node the central
+		// difference straddles a kink).
+		if c.ne == 1e21 {
+			continue
+		}
+		const e = 1e-5
+		sp, _ := l.Shape(c.ne*math.Exp(e), c.tk)
+		sm, _ := l.Shape(c.ne*math.Exp(-e), c.tk)
+		for _, f := range []float64{-3, -0.6, -0.2, 0.1, 0.45, 1.5, 12} {
+			d := f * w
+			_, an := s.CumulativeDeriv(d)
+			num := (sp.Cumulative(d) - sm.Cumulative(d)) / (2 * e)
+			if math.Abs(an-num) > 1e-5+1e-3*math.Abs(num) {
+				t.Errorf("n=%d n_e=%g Δλ=%g: dC/dln n_e %g, central difference %g", c.upper, c.ne, d, an, num)
+			}
+		}
+	}
+}
+
+// TestShapeOutOfRange: the same errors as Profile.
+func TestShapeOutOfRange(t *testing.T) {
+	l, _ := Balmer(4)
+	if _, err := l.Shape(1e27, 1e4); err == nil {
+		t.Error("no error above the tables")
+	}
+	if _, err := l.Shape(-1, 1e4); err == nil {
+		t.Error("no error for n_e < 0")
+	}
+}
+
+func BenchmarkShapeCumulativeDeriv(b *testing.B) {
+	l, _ := Balmer(4)
+	s, _ := l.Shape(2.3e21, 1e4)
+	w := s.FWHMNM()
+	var sink float64
+	for i := 0; b.Loop(); i++ {
+		c, d := s.CumulativeDeriv(w * float64(i%200-100) / 17)
+		sink += c + d
+	}
+	_ = sink
+}

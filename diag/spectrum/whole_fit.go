@@ -1,0 +1,1023 @@
+package spectrum
+
+import (
+	"errors"
+	"fmt"
+	"math"
+
+	"gonum.org/v1/gonum/stat/distuv"
+
+	"glowlog/diag"
+	"glowlog/diag/sh99"
+)
+
+func aboveBelow(d float64) string {
+	if d > 0 {
+		return "above"
+	}
+	return "below"
+}
+
+// lineInst returns a line's instrument Gaussian FWHM and gas temperature
+// under the parameters th.
+func (f *wholeFitter) lineInst(l *wline, th []float64) (float64, float64) {
+	g, tg := l.instG, f.gasT
+	if f.par.iIa >= 0 {
+		g = th[f.par.iIa] + th[f.par.iIb]*(l.center-f.par.lamMid)
+	}
+	if f.par.iTg >= 0 {
+		tg = th[f.par.iTg]
+	}
+	return math.Max(g, 0), math.Max(tg, diag.MinGasTemperatureK)
+}
+
+// areaOf returns line k's area under th.
+func (f *wholeFitter) areaOf(k int, th []float64) float64 {
+	if f.par.free {
+		return th[f.par.iA+k]
+	}
+	l := f.lines[k]
+	return th[f.par.iS] * math.Exp(l.lnF-th[f.par.iB]*l.dE)
+}
+
+// evalLines evaluates every line's unit profile at th (and the kernel
+// derivative l.dg when the gas temperature or the instrument is free).
+func (f *wholeFitter) evalLines(th []float64) error {
+	for _, l := range f.lines {
+		g, tg := f.lineInst(l, th)
+		if f.par.iTg >= 0 || f.par.iIa >= 0 {
+			// Derivative in G_extra² by a one-sided difference of the
+			// kernel alone.
+			if err := f.evalLine(l, th[f.par.iNe], th[f.par.iOff], g, tg); err != nil {
+				return err
+			}
+			e2 := l.extra2
+			de := math.Max(0.02*e2, math.Pow(0.3*l.h, 2))
+			f.convolve(l, math.Sqrt(e2+de), l.kernL())
+			f.pixels(l, th[f.par.iOff])
+			l.dg = grow(&l.dg, len(l.u))
+			copy(l.dg, l.u)
+			f.convolve(l, math.Sqrt(e2), l.kernL())
+			f.pixels(l, th[f.par.iOff])
+			for i := range l.dg {
+				l.dg[i] = (l.dg[i] - l.u[i]) / de
+			}
+			// Where G_extra² is clamped at 0 the model is flat in G; the
+			// one-sided difference above 0 still points the fit out of
+			// the clamp (a flat column would leave it singular).
+			continue
+		}
+		if err := f.evalLine(l, th[f.par.iNe], th[f.par.iOff], g, tg); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// eval computes the model and the Jacobian at th and returns χ².
+func (f *wholeFitter) eval(th []float64) (float64, error) {
+	if err := f.evalLines(th); err != nil {
+		return 0, err
+	}
+	return f.assemble(th)
+}
+
+// assemble builds the model and the Jacobian at th from the lines' unit
+// profiles as last evaluated (at th's n_e, offset and widths) and
+// returns χ².
+func (f *wholeFitter) assemble(th []float64) (float64, error) {
+	pr := f.par
+	n := len(f.x)
+	np := pr.n
+	mod := f.model
+	jac := f.jac
+	for i := range jac {
+		jac[i] = 0
+	}
+	for i := range mod {
+		var s float64
+		for b := range pr.nBase {
+			v := f.leg[b][i]
+			s += th[pr.iBase+b] * v
+			jac[i*np+pr.iBase+b] = v
+		}
+		mod[i] = s
+	}
+	for k, l := range f.lines {
+		a := f.areaOf(k, th)
+		g, tg := f.lineInst(l, th)
+		var dE2dTg, dE2dG float64
+		if pr.iTg >= 0 {
+			dd := diag.DopplerFWHMNM(l.center, tg, f.mass)
+			dE2dTg = dd * dd / tg
+		}
+		if pr.iIa >= 0 {
+			dE2dG = 2 * g
+		}
+		for i := l.plo; i < l.phi; i++ {
+			j := i - l.plo
+			u := l.u[j]
+			mod[i] += a * u
+			row := jac[i*np : (i+1)*np]
+			if pr.free {
+				row[pr.iA+k] = u
+			} else {
+				e := a / math.Max(th[pr.iS], math.SmallestNonzeroFloat64)
+				if th[pr.iS] != 0 {
+					row[pr.iS] += e * u
+				} else {
+					row[pr.iS] += math.Exp(l.lnF-th[pr.iB]*l.dE) * u
+				}
+				row[pr.iB] += -l.dE * a * u
+			}
+			row[pr.iNe] += a * l.dn[j]
+			row[pr.iOff] += a * l.du[j]
+			if pr.iTg >= 0 {
+				row[pr.iTg] += a * l.dg[j] * dE2dTg
+			}
+			if pr.iIa >= 0 {
+				row[pr.iIa] += a * l.dg[j] * dE2dG
+				row[pr.iIb] += a * l.dg[j] * dE2dG * (l.center - pr.lamMid)
+			}
+		}
+	}
+	var chi2 float64
+	for i := range n {
+		r := (f.y[i] - mod[i]) / f.s[i]
+		chi2 += r * r
+	}
+	if !finite(chi2) {
+		return 0, errors.New("the model is not finite")
+	}
+	return chi2, nil
+}
+
+// normal builds JᵀWJ and JᵀW r at the current state.
+func (f *wholeFitter) normal(A, g []float64) {
+	np := f.par.n
+	for i := range A {
+		A[i] = 0
+	}
+	for i := range g {
+		g[i] = 0
+	}
+	for i := range f.x {
+		w := 1 / (f.s[i] * f.s[i])
+		r := (f.y[i] - f.model[i]) * w
+		row := f.jac[i*np : (i+1)*np]
+		for a, va := range row {
+			if va == 0 {
+				continue
+			}
+			g[a] += va * r
+			wa := va * w
+			for b := a; b < np; b++ {
+				A[a*np+b] += wa * row[b]
+			}
+		}
+	}
+	for a := range np {
+		for b := range a {
+			A[a*np+b] = A[b*np+a]
+		}
+	}
+}
+
+// clampParams keeps the parameters in their domain.
+func (f *wholeFitter) clampParams(th []float64) {
+	pr := f.par
+	th[pr.iNe] = math.Min(math.Max(th[pr.iNe], f.lnLo), f.lnHi)
+	if pr.iTg >= 0 {
+		th[pr.iTg] = math.Min(math.Max(th[pr.iTg], 10), 1e5)
+	}
+	if pr.iIa >= 0 {
+		th[pr.iIa] = math.Max(th[pr.iIa], 0)
+	}
+	// One offset bounded by a few pixels: beyond that the line search
+	// would have found other centres.
+	lim := 5 * f.lines[0].px
+	th[pr.iOff] = math.Min(math.Max(th[pr.iOff], -lim), lim)
+}
+
+// levmar runs Levenberg–Marquardt from f.th.
+func (f *wholeFitter) levmar() (iters int, converged bool, chi2 float64, err error) {
+	np := f.par.n
+	ws := grow(&f.ws, 2*np*np+3*np)
+	A, M := ws[:np*np], ws[np*np:2*np*np]
+	g, d, trial := ws[2*np*np:2*np*np+np], ws[2*np*np+np:2*np*np+2*np], ws[2*np*np+2*np:]
+	// The lines were evaluated at f.th's shape parameters by setup.
+	chi2, err = f.assemble(f.th)
+	if err != nil {
+		return 0, false, 0, err
+	}
+	lam := 1e-3
+	for iters = 1; iters <= wholeMaxIter; iters++ {
+		f.normal(A, g)
+		accepted := false
+		var newChi2 float64
+		for lam < 1e12 {
+			copy(M, A)
+			for a := range np {
+				dv := A[a*np+a]
+				if !(dv > 0) {
+					dv = 1e-300
+					M[a*np+a] = dv
+				}
+				M[a*np+a] += lam * dv
+			}
+			copy(d, g)
+			if !cholesky(M, np, 1e-14) {
+				lam *= 10
+				continue
+			}
+			cholSolve(M, np, d)
+			for a := range np {
+				trial[a] = f.th[a] + d[a]
+			}
+			f.clampParams(trial)
+			c2, e := f.eval(trial)
+			if e == nil && c2 <= chi2 {
+				newChi2 = c2
+				accepted = true
+				break
+			}
+			lam *= 10
+		}
+		if !accepted {
+			// No step lowers χ²: at the minimum within rounding.
+			_, err = f.eval(f.th)
+			return iters, true, chi2, err
+		}
+		copy(f.th, trial)
+		drop := chi2 - newChi2
+		chi2 = newChi2
+		lam = math.Max(lam/10, 1e-12)
+		// χ² is in units of the pixel σ: a drop below 1e-4 moves no
+		// parameter by a noticeable fraction of its σ (a 1σ change is a
+		// drop of 1).
+		if drop <= 1e-4+1e-12*chi2 {
+			return iters, true, chi2, nil
+		}
+	}
+	return wholeMaxIter, false, chi2, nil
+}
+
+// linearAreas solves the linear least-squares problem of free line
+// areas and baseline at the current shapes; it returns the areas, their
+// 1σ (scaled by the residuals when there is no noise model) and χ².
+func (f *wholeFitter) linearAreas() (areas, sig []float64, chi2 float64, ok bool) {
+	nl := len(f.lines)
+	nb := f.par.nBase
+	np := nl + nb
+	A := make([]float64, np*np)
+	g := make([]float64, np)
+	w := grow(&f.wbuf, len(f.x))
+	for i, s := range f.s {
+		w[i] = 1 / (s * s)
+	}
+	// Line–line, line–baseline and line–data blocks over each line's
+	// pixel range.
+	for a, la := range f.lines {
+		for i := la.plo; i < la.phi; i++ {
+			v := la.u[i-la.plo] * w[i]
+			g[a] += v * f.y[i]
+			for b := range nb {
+				A[a*np+nl+b] += v * f.leg[b][i]
+			}
+		}
+		for b := a; b < nl; b++ {
+			lb := f.lines[b]
+			lo, hi := max(la.plo, lb.plo), min(la.phi, lb.phi)
+			var s float64
+			for i := lo; i < hi; i++ {
+				s += la.u[i-la.plo] * lb.u[i-lb.plo] * w[i]
+			}
+			A[a*np+b] = s
+		}
+	}
+	for b := range nb {
+		for i, v := range f.leg[b] {
+			g[nl+b] += v * f.y[i] * w[i]
+		}
+		for c := b; c < nb; c++ {
+			var s float64
+			lb, lc := f.leg[b], f.leg[c]
+			for i := range lb {
+				s += lb[i] * lc[i] * w[i]
+			}
+			A[(nl+b)*np+nl+c] = s
+		}
+	}
+	for a := range np {
+		for b := range a {
+			A[a*np+b] = A[b*np+a]
+		}
+		if !(A[a*np+a] > 0) {
+			A[a*np+a] = 1 // a line without pixels: area 0
+		}
+	}
+	if !cholesky(A, np, 1e-14) {
+		return nil, nil, 0, false
+	}
+	sol := append(f.linSol[:0], g...)
+	cholSolve(A, np, sol)
+	inv := make([]float64, np*np)
+	cholInverse(A, np, inv, make([]float64, np))
+	mod := grow(&f.mbuf, len(f.x))
+	for i := range mod {
+		var m float64
+		for b := range nb {
+			m += sol[nl+b] * f.leg[b][i]
+		}
+		mod[i] = m
+	}
+	for a, l := range f.lines {
+		for i := l.plo; i < l.phi; i++ {
+			mod[i] += sol[a] * l.u[i-l.plo]
+		}
+	}
+	for i := range mod {
+		r := (f.y[i] - mod[i]) / f.s[i]
+		chi2 += r * r
+	}
+	scale := 1.0
+	if dof := len(f.x) - np; dof > 0 && f.opt.GainElectronsPerCount <= 0 {
+		scale = math.Sqrt(chi2 / float64(dof))
+	}
+	areas = append([]float64(nil), sol[:nl]...)
+	sig = make([]float64, nl)
+	for k := range nl {
+		sig[k] = math.Sqrt(math.Max(inv[k*np+k], 0)) * scale
+	}
+	f.linSol = sol
+	return areas, sig, chi2, true
+}
+
+// linearBaseline sets the baseline parameters from the last linear solve.
+func (f *wholeFitter) linearBaseline() {
+	nl := len(f.lines)
+	for b := range f.par.nBase {
+		f.th[f.par.iBase+b] = f.linSol[nl+b]
+	}
+}
+
+// boltzmannBeta fits ln(a_k/F_k) against E_k for the positive areas and
+// returns β = 1/kT when the slope is negative.
+func boltzmannBeta(lines []*wline, areas, sig []float64) (float64, bool) {
+	var sw, sx, sy, sxx, sxy float64
+	n := 0
+	for k, l := range lines {
+		if !(areas[k] > 0) || !(sig[k] > 0) || areas[k] < 2*sig[k] {
+			continue
+		}
+		y := math.Log(areas[k]) - l.lnF
+		w := math.Pow(areas[k]/sig[k], 2)
+		sw += w
+		sx += w * l.dE
+		sy += w * y
+		sxx += w * l.dE * l.dE
+		sxy += w * l.dE * y
+		n++
+	}
+	if n < 2 {
+		return 0, false
+	}
+	den := sw*sxx - sx*sx
+	if !(den > 0) {
+		return 0, false
+	}
+	slope := (sw*sxy - sx*sy) / den
+	if !(slope < 0) {
+		return 0, false
+	}
+	return -slope, true
+}
+
+// scanDensity picks a starting n_e when the lines route gives none: the
+// lowest χ² of the linear fit (free areas and baseline at the shapes of
+// that density) over half-decade steps from 1e18 to 3.16e23 m⁻³.
+func (f *wholeFitter) scanDensity(in wholeInput) float64 {
+	best, bestChi := 1e21, math.Inf(1)
+	for e := 18.0; e <= 23.5; e += 0.5 {
+		ne := math.Pow(10, e)
+		g := &wholeFitter{opt: f.opt, m: f.m, te: f.te, gasT: f.gasT, mass: f.mass, pert: f.pert}
+		if err := g.setup(in, ne); err != nil {
+			continue
+		}
+		if _, _, chi, ok := g.linearAreas(); ok && chi < bestChi {
+			best, bestChi = ne, chi
+		}
+	}
+	return best
+}
+
+// result assembles the WholeFit from the converged state.
+func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, in wholeInput) (*WholeFit, error) {
+	pr := f.par
+	np := pr.n
+	n := len(f.x)
+	dof := n - np
+	if dof <= 0 {
+		return nil, errors.New("more parameters than pixels")
+	}
+	A := make([]float64, np*np)
+	g := make([]float64, np)
+	f.normal(A, g)
+	th := f.th
+	// At the end of the shapes' density range n_e is a limit: it is held
+	// (its row and column taken out) and not reported.
+	atBound := th[pr.iNe] <= f.lnLo+1e-6 || th[pr.iNe] >= f.lnHi-1e-6
+	if atBound {
+		for a := range np {
+			A[a*np+pr.iNe], A[pr.iNe*np+a] = 0, 0
+		}
+		A[pr.iNe*np+pr.iNe] = 1
+	}
+	R := append([]float64(nil), A...)
+	if !cholesky(R, np, 1e-15) {
+		return nil, errors.New("the fit's curvature matrix is singular (a parameter is not determined by the data)")
+	}
+	cov0 := make([]float64, np*np)
+	cholInverse(R, np, cov0, make([]float64, np))
+	red := chi2 / float64(dof)
+	// Without a noise model the σ come from the residuals (χ²ᵣ scales
+	// the covariance); with one, a fit worse than its noise (χ²ᵣ > 1: the
+	// model's own small inaccuracies show at high signal) widens the σ
+	// the same way, never narrows them (the Birge ratio, common practice,
+	// no source).
+	scale := math.Max(red, 1)
+	if f.opt.GainElectronsPerCount <= 0 {
+		scale = red
+	}
+	cov := make([]float64, np*np)
+	for i := range cov {
+		cov[i] = cov0[i] * scale
+	}
+	sd := func(i int) float64 { return math.Sqrt(math.Max(cov[i*np+i], 0)) }
+	unsc := func(v float64) float64 { return math.Ldexp(v, f.scale) }
+
+	wf := &WholeFit{Areas: WholeAreasBoltzmann, RangeNM: [2]float64{f.x[0], f.x[n-1]}, Pixels: n,
+		ReducedChi2: red, DOF: dof, Iterations: iters, Converged: conv}
+	if pr.free {
+		wf.Areas = WholeAreasFree
+	}
+	// Significance of each line: its area over σ with every area free.
+	linAreas, linSig, chiFree, ok := f.linearAreas()
+	if !ok {
+		return nil, errors.New("the free-area check fit is singular")
+	}
+	nSignal := 0
+	for k, l := range f.lines {
+		l.sig = 0
+		if linSig[k] > 0 {
+			l.sig = linAreas[k] / linSig[k]
+		}
+		if l.sig >= wholeSignalSigma {
+			nSignal++
+		}
+	}
+	if nSignal == 0 {
+		return nil, errors.New("no line carries a significant signal in the whole model")
+	}
+	// "Two or more members carry signal jointly": two lines at ≥ 3σ each,
+	// or the strongest at ≥ 3σ and the others together at ≥ 3σ — their
+	// joint amplitude along the fitted Boltzmann areas t_k, from the
+	// free areas A_k ± σ_k (correlations between the free areas left
+	// out): z = Σ t_k A_k/σ_k² / √(Σ t_k²/σ_k²).
+	jointTexc := nSignal >= 2
+	if !jointTexc && !pr.free {
+		strong := 0
+		for k := range f.lines {
+			if f.lines[k].sig > f.lines[strong].sig {
+				strong = k
+			}
+		}
+		var num, den float64
+		for k := range f.lines {
+			if k == strong || !(linSig[k] > 0) {
+				continue
+			}
+			tk := f.areaOf(k, th)
+			num += tk * linAreas[k] / (linSig[k] * linSig[k])
+			den += tk * tk / (linSig[k] * linSig[k])
+		}
+		if den > 0 && num/math.Sqrt(den) >= wholeSignalSigma {
+			jointTexc = true
+		}
+	}
+	// Boltzmann test: the tied areas against free areas at the same
+	// shapes (χ² of the free-area solve is at the fitted n_e and offset,
+	// so Δχ² is conservative), k − 2 degrees of freedom for k lines.
+	var birge float64 = 1
+	var offTie string
+	if !pr.free && len(f.lines) >= 3 {
+		dchi := math.Max(chi2-chiFree, 0)
+		kdof := len(f.lines) - 2
+		wf.BoltzmannDeltaChi2, wf.BoltzmannDOF = dchi, kdof
+		wf.BoltzmannP = distuv.ChiSquared{K: float64(kdof)}.Survival(dchi)
+		if wf.BoltzmannP < wholeTieP {
+			birge = math.Sqrt(dchi / float64(kdof))
+			// The line farthest from the tie.
+			worst, wz := -1, 0.0
+			for k := range f.lines {
+				if linSig[k] > 0 {
+					if z := math.Abs(linAreas[k]-f.areaOf(k, th)) / linSig[k]; z > wz {
+						worst, wz = k, z
+					}
+				}
+			}
+			if worst >= 0 {
+				a := f.areaOf(worst, th)
+				offTie = fmt.Sprintf("the line areas do not follow one Boltzmann distribution (Δχ² = %.1f for %d degrees of freedom, p = %.2g): %s's own area is %.0f %% %s the tied value (%.1fσ)",
+					dchi, kdof, wf.BoltzmannP, f.lines[worst].t.Name(), 100*math.Abs(linAreas[worst]/a-1), aboveBelow(linAreas[worst]-a), wz)
+			}
+		}
+	}
+	ne := math.Exp(th[pr.iNe])
+
+	// Parameters list.
+	free := []WholeParam{}
+	add := func(name, label, unit string, v, u float64, fixed bool) {
+		free = append(free, WholeParam{Name: name, Label: label, Unit: unit, Value: v, Unc: u, Fixed: fixed})
+	}
+	var areaCov func(k int) float64
+	if pr.free {
+		for k, l := range f.lines {
+			add(fmt.Sprintf("area_%d", l.t.Upper), "Area of "+l.t.Name(), "intensity·nm", unsc(th[pr.iA+k]), unsc(sd(pr.iA+k)), false)
+		}
+		areaCov = func(k int) float64 { return sd(pr.iA + k) }
+	} else {
+		beta := th[pr.iB]
+		add("scale", "Area of "+f.lines[0].t.Name()+" (Boltzmann scale)", "intensity·nm", unsc(th[pr.iS]), unsc(sd(pr.iS)), false)
+		tK, tU := math.Inf(1), 0.0
+		if beta > 0 {
+			tK = 1 / (diag.BoltzmannEVPerK * beta)
+			tU = sd(pr.iB) / (diag.BoltzmannEVPerK * beta * beta)
+		}
+		if finite(tK) {
+			add("T_exc", "Excitation temperature", "K", tK, tU, false)
+		} else {
+			add("T_exc", "Excitation temperature (slope not negative)", "K", 0, 0, false)
+		}
+		areaCov = func(k int) float64 {
+			l := f.lines[k]
+			a := f.areaOf(k, th)
+			dS := a / th[pr.iS]
+			dB := -l.dE * a
+			v := dS*dS*cov[pr.iS*np+pr.iS] + dB*dB*cov[pr.iB*np+pr.iB] + 2*dS*dB*cov[pr.iS*np+pr.iB]
+			return math.Sqrt(math.Max(v, 0))
+		}
+	}
+	if atBound {
+		add("n_e", "Electron density (a limit: the end of the line shapes' range)", "m⁻³", ne, 0, false)
+	} else {
+		add("n_e", "Electron density", "m⁻³", ne, ne*sd(pr.iNe), false)
+	}
+	add("offset", "Wavelength offset", "nm", th[pr.iOff], sd(pr.iOff), false)
+	if pr.iTg >= 0 {
+		add("T_gas", "Gas temperature", "K", th[pr.iTg], sd(pr.iTg), false)
+	}
+	if pr.iIa >= 0 {
+		add("instrument_fwhm", "Instrument Gaussian FWHM at the range's middle", "nm", th[pr.iIa], sd(pr.iIa), false)
+		add("instrument_fwhm_slope", "Instrument FWHM slope", "nm/nm", th[pr.iIb], sd(pr.iIb), false)
+	}
+	for b := range pr.nBase {
+		add(fmt.Sprintf("baseline_%d", b), fmt.Sprintf("Baseline Legendre coefficient %d", b), "intensity/nm", unsc(th[pr.iBase+b]), unsc(sd(pr.iBase+b)), false)
+	}
+	// Fixed ones.
+	fixed := []WholeParam{{Name: "T_e", Label: "Electron temperature of the Stark tables", Unit: "K", Value: f.te, Fixed: true}}
+	if pr.iTg < 0 {
+		fixed = append(fixed, WholeParam{Name: "T_gas", Label: "Gas temperature", Unit: "K", Value: f.gasT, Fixed: true})
+	}
+	if pr.iIa < 0 {
+		fixed = append(fixed, WholeParam{Name: "instrument_fwhm", Label: "Instrument Gaussian FWHM at the range's middle", Unit: "nm", Value: f.instAt(pr.lamMid), Fixed: true})
+	}
+	// The free parameters in vector order for the correlation matrix.
+	order := f.paramOrder()
+	wf.Params = make([]WholeParam, 0, len(free)+len(fixed))
+	byName := map[string]WholeParam{}
+	for _, p := range free {
+		byName[p.Name] = p
+	}
+	for _, name := range order {
+		wf.Params = append(wf.Params, byName[name])
+	}
+	wf.Params = append(wf.Params, fixed...)
+	wf.Correlation = make([][]float64, np)
+	for a := range np {
+		wf.Correlation[a] = make([]float64, np)
+		for b := range np {
+			den := math.Sqrt(cov0[a*np+a] * cov0[b*np+b])
+			if den > 0 {
+				wf.Correlation[a][b] = cov0[a*np+b] / den
+			}
+		}
+	}
+
+	// Lines.
+	anyClamp := false
+	var maxGap float64
+	for k, l := range f.lines {
+		wl := WholeLine{Upper: l.t.Upper, Name: l.t.Name(), Shape: "Voigt", Area: unsc(f.areaOf(k, th)), AreaUnc: unsc(areaCov(k)), StarkFWHMNM: l.starkFWHM}
+		if l.shapeSH {
+			wl.Shape = "SH99"
+		}
+		if l.clampGap2 > 0 {
+			anyClamp = true
+			maxGap = math.Max(maxGap, math.Sqrt(l.clampGap2))
+		}
+		a := f.areaOf(k, th)
+		var c2 float64
+		var cnt int
+		var peak float64
+		for i := l.plo; i < l.phi; i++ {
+			if f.x[i] < l.win[0] || f.x[i] > l.win[1] {
+				continue
+			}
+			r := (f.y[i] - f.model[i]) / f.s[i]
+			c2 += r * r
+			cnt++
+			peak = math.Max(peak, a*l.u[i-l.plo]/f.s[i])
+		}
+		if cnt > 0 {
+			wl.ReducedChi2 = c2 / float64(cnt)
+			wl.ResidualRMS = math.Sqrt(c2 / float64(cnt))
+		}
+		wl.PeakSNR = peak
+		wf.Lines = append(wf.Lines, wl)
+	}
+	wf.DopplerNote = "the SH99 profiles include Doppler broadening at the tables' temperature T_e; each line was convolved with the Gaussian still missing, √(instrument² + Doppler(T_gas)² − Doppler(T_e)²)"
+	if anyClamp {
+		wf.DopplerNote += fmt.Sprintf("; for some lines the instrument ⊕ gas Doppler width is narrower than the tables' own Doppler width (by up to %.3g nm in quadrature): no Gaussian was added there and the model is slightly too wide, carried as a systematic σ of n_e (\"Doppler handling\")", maxGap)
+	}
+	for _, s := range f.notes {
+		wf.DopplerNote += "; " + s
+	}
+
+	// Systematic parts (first-order responses of the fit; also when n_e
+	// is at its range end, for T_exc).
+	neParts, tParts := f.densitySys(ne, cov0, teGiven)
+
+	// T_exc.
+	kB := diag.BoltzmannEVPerK
+	var tExc, tStat float64
+	tOK := false
+	if pr.free {
+		var pts []diag.BoltzmannPoint
+		for k, l := range f.lines {
+			a := th[pr.iA+k]
+			if l.sig >= wholeSignalSigma && a > 0 {
+				pts = append(pts, diag.BoltzmannPoint{Upper: l.t.Upper, EnergyEV: l.t.UpperEnergyEV, G: float64(l.t.GUpper), A: l.t.EinsteinA,
+					WavelengthNM: l.t.WavelengthVacNM, Intensity: unsc(a), IntensityUnc: unsc(sd(pr.iA + k))})
+			}
+		}
+		if len(pts) >= 2 {
+			if bz, err := diag.FitBoltzmann(pts, diag.BoltzmannOptions{Unit: f.m.Unit}); err == nil && bz.Defined {
+				tExc, tStat, tOK = bz.TemperatureK, bz.TemperatureUncK, true
+			}
+		}
+	} else if beta := th[pr.iB]; beta > 0 && jointTexc {
+		tExc = 1 / (kB * beta)
+		// Scaled by the Birge ratio of the Boltzmann test when the tie is
+		// rejected (as the lines route scales a scattered Boltzmann plot).
+		tStat = sd(pr.iB) / (kB * beta * beta) * birge
+		tOK = finite(tExc) && finite(tStat)
+	}
+	if tOK {
+		wf.ExcitationTemperatureK = fptr(tExc)
+		wf.ExcitationTemperatureUncStatK = fptr(tStat)
+		resp := f.texcResponseSys(th, areaCov, unsc)
+		if resp > 0 {
+			tParts = append(tParts, diag.UncPart{Name: "response calibration", Sigma: resp})
+		}
+		if pr.free {
+			tParts = tParts[:0] // the first-order responses are of β
+			if resp > 0 {
+				tParts = append(tParts, diag.UncPart{Name: "response calibration", Sigma: resp})
+			}
+		}
+		var sys float64
+		for _, pt := range tParts {
+			sys = math.Hypot(sys, pt.Sigma)
+		}
+		wf.ExcitationTemperatureUncSysK = fptr(sys)
+		wf.ExcitationTemperatureUncK = fptr(math.Hypot(tStat, sys))
+		wf.ExcitationTemperatureUncParts = tParts
+	}
+
+	// n_e.
+	neStat := ne * sd(pr.iNe)
+	if atBound {
+		// The fit ran into the end of the shapes' density range: its n_e
+		// is a limit, not a measurement, and is not reported.
+		wf.DopplerNote += fmt.Sprintf("; n_e ran to the end of the line shapes' range (%.3g m⁻³) and is not reported", ne)
+	}
+	if finite(neStat) && neStat > 0 && !atBound {
+		parts := neParts
+		var sys float64
+		for _, pt := range parts {
+			sys = math.Hypot(sys, pt.Sigma)
+		}
+		wf.ElectronDensityM3 = fptr(ne)
+		wf.ElectronDensityUncStatM3 = fptr(neStat)
+		wf.ElectronDensityUncSysM3 = fptr(sys)
+		wf.ElectronDensityUncM3 = fptr(math.Hypot(neStat, sys))
+		wf.ElectronDensityUncParts = parts
+	}
+	if pr.iTg >= 0 {
+		wf.GasTemperatureK = fptr(th[pr.iTg])
+		wf.GasTemperatureUncK = fptr(sd(pr.iTg))
+	}
+	wf.offTie = offTie
+	if pr.iTg >= 0 && pr.iIa >= 0 {
+		wf.DopplerNote += "; the gas temperature and the instrument width were both free: both are Gaussian widths and nearly degenerate (see their correlation), so fix one of them for a usable value of the other"
+	}
+	if !conv {
+		wf.DopplerNote += fmt.Sprintf("; the fit stopped after %d iterations without meeting its convergence test (χ² still falling by more than 1e-4 per step)", iters)
+	}
+	if f.opt.KeepWindows {
+		wf.WavelengthNM = append(PlotFloats(nil), f.x...)
+		wf.Data = make(PlotFloats, n)
+		wf.Model = make(PlotFloats, n)
+		wf.Residual = make(PlotFloats, n)
+		for i := range n {
+			wf.Data[i] = unsc(f.y[i])
+			wf.Model[i] = unsc(f.model[i])
+			wf.Residual[i] = unsc(f.y[i] - f.model[i])
+		}
+	}
+	return wf, nil
+}
+
+// paramOrder names the free parameters in vector order.
+func (f *wholeFitter) paramOrder() []string {
+	pr := f.par
+	out := make([]string, pr.n)
+	if pr.free {
+		for k, l := range f.lines {
+			out[pr.iA+k] = fmt.Sprintf("area_%d", l.t.Upper)
+		}
+	} else {
+		out[pr.iS], out[pr.iB] = "scale", "T_exc"
+	}
+	out[pr.iNe], out[pr.iOff] = "n_e", "offset"
+	if pr.iTg >= 0 {
+		out[pr.iTg] = "T_gas"
+	}
+	if pr.iIa >= 0 {
+		out[pr.iIa], out[pr.iIb] = "instrument_fwhm", "instrument_fwhm_slope"
+	}
+	for b := range pr.nBase {
+		out[pr.iBase+b] = fmt.Sprintf("baseline_%d", b)
+	}
+	return out
+}
+
+// texcResponseSys is the systematic σ of T_exc from the response
+// calibration (Conditions.ResponseUncRel = ε): the fitted areas tilted by
+// (1 ± ε)^s, s from 0 at the shortest to 1 at the longest line, through
+// a Boltzmann plot (diag.FitBoltzmann, the lines route's convention):
+// σ_sys = |T(+ε) − T(−ε)|/2. Without ε it is 0 (and the analysis flags
+// that the σ excludes the calibration).
+func (f *wholeFitter) texcResponseSys(th []float64, areaSig func(int) float64, unsc func(float64) float64) float64 {
+	eps := f.m.ResponseUncRel
+	if !(eps > 0) || len(f.lines) < 2 {
+		return 0
+	}
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for _, l := range f.lines {
+		lo, hi = math.Min(lo, l.t.WavelengthVacNM), math.Max(hi, l.t.WavelengthVacNM)
+	}
+	tAt := func(e float64) (float64, bool) {
+		var pts []diag.BoltzmannPoint
+		for k, l := range f.lines {
+			a := unsc(f.areaOf(k, th))
+			s := unsc(areaSig(k))
+			if !(a > 0) || !(s > 0) || l.sig < wholeSignalSigma {
+				continue
+			}
+			fac := math.Pow(1+e, (l.t.WavelengthVacNM-lo)/(hi-lo))
+			pts = append(pts, diag.BoltzmannPoint{Upper: l.t.Upper, EnergyEV: l.t.UpperEnergyEV, G: float64(l.t.GUpper), A: l.t.EinsteinA,
+				WavelengthNM: l.t.WavelengthVacNM, Intensity: a * fac, IntensityUnc: math.Max(s*fac, 1e-9*a*fac)})
+		}
+		b, err := diag.FitBoltzmann(pts, diag.BoltzmannOptions{Unit: f.m.Unit})
+		if err != nil || !b.Defined {
+			return 0, false
+		}
+		return b.TemperatureK, true
+	}
+	tp, ok1 := tAt(eps)
+	tm, ok2 := tAt(-math.Min(eps, 0.99))
+	if ok1 && ok2 {
+		return math.Abs(tp-tm) / 2
+	}
+	return 0
+}
+
+// densitySys returns the systematic parts of n_e: the response of the
+// fit to each fixed input moved by its 1σ, δθ = (JᵀWJ)⁻¹JᵀW·∂m/∂input·σ
+// (first order; the model change ∂m is computed by re-evaluating the
+// lines: the kernel alone for the instrument width, the gas temperature
+// and the Doppler handling, the tables at the other T_e for the
+// electron temperature), and the SH99 tables' accuracy. The state at the
+// solution (the lines' pixel means, the model and the Jacobian) is left
+// as it was.
+//
+// The same responses of β (Boltzmann mode) give the parts of T_exc,
+// tParts (K): the brief's minimum for T_exc is the response calibration
+// (texcResponseSys), but a wrong instrument width or T_e moves the areas
+// too, and leaving that out made T_exc's total σ cover 33 % instead of
+// 68 % on spectra whose instrument width was off by its stated σ.
+func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) (parts, tParts []diag.UncPart) {
+	pr := f.par
+	np := pr.n
+	th := f.th
+	boltz := !pr.free && th[pr.iB] > 0
+	tPer := 0.0 // K per unit β
+	if boltz {
+		tPer = 1 / (diag.BoltzmannEVPerK * th[pr.iB] * th[pr.iB])
+	}
+	add := func(name string, v [2]float64) {
+		if n := ne * v[0]; n > 0 && finite(n) {
+			parts = append(parts, diag.UncPart{Name: name, Sigma: n})
+		}
+		if t := tPer * v[1]; boltz && t > 0 && finite(t) {
+			tParts = append(tParts, diag.UncPart{Name: name, Sigma: t})
+		}
+	}
+	half := func(a, b [2]float64) [2]float64 { return [2]float64{0.5 * (a[0] + b[0]), 0.5 * (a[1] + b[1])} }
+	// Rows of (JᵀWJ)⁻¹ of ln n_e and β, times JᵀW: the sensitivity of
+	// each to a model change at each pixel.
+	sens := grow(&f.sens, 2*len(f.x))
+	sensB := sens[len(f.x):]
+	sens = sens[:len(f.x)]
+	for i := range f.x {
+		row := f.jac[i*np : (i+1)*np]
+		var v, vb float64
+		for b, j := range row {
+			v += cov0[pr.iNe*np+b] * j
+			if boltz {
+				vb += cov0[pr.iB*np+b] * j
+			}
+		}
+		w := 1 / (f.s[i] * f.s[i])
+		sens[i], sensB[i] = v*w, vb*w
+	}
+	// Saved pixel means of every line at the solution.
+	saved := make([][]float64, len(f.lines))
+	savedDu := make([][]float64, len(f.lines))
+	savedDn := make([][]float64, len(f.lines))
+	for k, l := range f.lines {
+		saved[k] = append([]float64(nil), l.u...)
+		savedDu[k] = append([]float64(nil), l.du...)
+		savedDn[k] = append([]float64(nil), l.dn...)
+	}
+	// shiftFor returns |δ ln n_e| and |δβ| from the lines' current u
+	// (changed by the caller) against the saved ones, and restores
+	// nothing.
+	shiftFor := func() [2]float64 {
+		var d, db float64
+		for k, l := range f.lines {
+			a := f.areaOf(k, th)
+			for i := l.plo; i < l.phi; i++ {
+				dm := a * (l.u[i-l.plo] - saved[k][i-l.plo])
+				d += sens[i] * dm
+				db += sensB[i] * dm
+			}
+		}
+		return [2]float64{math.Abs(d), math.Abs(db)}
+	}
+	restore := func() {
+		for k, l := range f.lines {
+			copy(l.u, saved[k])
+		}
+	}
+	// Kernel-only changes: the masses at the solution are kept.
+	kernel := func(dInst, dGas float64) [2]float64 {
+		for _, l := range f.lines {
+			g, tg := f.lineInst(l, th)
+			g += dInst
+			tg += dGas
+			dg := diag.DopplerFWHMNM(l.center, tg, f.mass)
+			e2 := g*g + dg*dg
+			if l.shapeSH {
+				e2 -= math.Pow(l.sh.DopplerFWHMNM(f.te), 2)
+			}
+			f.convolve(l, math.Sqrt(math.Max(e2, 0)), l.kernL())
+			f.pixels(l, th[pr.iOff])
+		}
+		d := shiftFor()
+		restore()
+		return d
+	}
+	if s := f.m.InstrumentFWHMUncNM; s > 0 && pr.iIa < 0 {
+		add("instrument width", half(kernel(s, 0), kernel(-math.Min(s, f.minInst()), 0)))
+	}
+	if s := f.m.GasTemperatureUncK; s > 0 && pr.iTg < 0 {
+		add("gas temperature", half(kernel(0, s), kernel(0, -math.Min(s, f.gasT-diag.MinGasTemperatureK))))
+	}
+	// Doppler handling: a clamped line is too wide by the variance gap;
+	// the model change that would remove it, extrapolated linearly in
+	// the Gaussian variance from adding the same variance.
+	clamped := false
+	for _, l := range f.lines {
+		if l.clampGap2 > 0 && l.shapeSH {
+			clamped = true
+			f.convolve(l, math.Sqrt(l.clampGap2), l.kernL())
+			f.pixels(l, th[pr.iOff])
+		}
+	}
+	if clamped {
+		add("Doppler handling (tables' Doppler wider than instrument ⊕ gas Doppler)", shiftFor())
+		restore()
+	}
+	// Electron temperature of the tables (the lines re-evaluated).
+	rel := wholeTeRelDefault
+	if teGiven {
+		rel = wholeTeRelGiven
+	}
+	teShift := func(fac float64) ([2]float64, bool) {
+		save := f.te
+		f.te *= fac
+		defer func() { f.te = save }()
+		for _, l := range f.lines {
+			g, tg := f.lineInst(l, th)
+			if err := f.evalLine(l, th[pr.iNe], th[pr.iOff], g, tg); err != nil {
+				return [2]float64{}, false
+			}
+		}
+		return shiftFor(), true
+	}
+	d1, ok1 := teShift(math.Exp(rel))
+	d2, ok2 := teShift(math.Exp(-rel))
+	switch {
+	case ok1 && ok2:
+		add("electron temperature of the tables", half(d1, d2))
+	case ok1:
+		add("electron temperature of the tables", d1)
+	case ok2:
+		add("electron temperature of the tables", d2)
+	}
+	// Back to the solution: the pixel means and their derivatives (the
+	// grid's masses are rebuilt by the next evaluation).
+	for k, l := range f.lines {
+		copy(l.u, saved[k])
+		copy(l.du, savedDu[k])
+		copy(l.dn, savedDn[k])
+		g, tg := f.lineInst(l, th)
+		_, _, _, _ = f.lineShape(l, th[pr.iNe], g, tg)
+	}
+	// Tables' accuracy through the local exponent of the width.
+	p := f.widthExponent(ne)
+	if p > 0 {
+		name := "SH99 table accuracy (widths ±5 %)"
+		if !f.anySH() {
+			name = "Stark relation accuracy (widths ±5 %)"
+		}
+		add(name, [2]float64{wholeSH99WidthRel / p, 0})
+	}
+	return parts, tParts
+}
+
+// minInst is the smallest instrument FWHM of the lines.
+func (f *wholeFitter) minInst() float64 {
+	m := math.Inf(1)
+	for _, l := range f.lines {
+		g, _ := f.lineInst(l, f.th)
+		m = math.Min(m, g)
+	}
+	return m
+}
+
+func (f *wholeFitter) anySH() bool {
+	for _, l := range f.lines {
+		if l.shapeSH {
+			return true
+		}
+	}
+	return false
+}
+
+// widthExponent is d ln w / d ln n_e of the first line's Stark width.
+func (f *wholeFitter) widthExponent(ne float64) float64 {
+	for _, l := range f.lines {
+		if l.shapeSH {
+			w1, e1 := l.sh.TableWidthNM(sh99.FWHM, ne*1.05, f.te)
+			w0, e0 := l.sh.TableWidthNM(sh99.FWHM, ne/1.05, f.te)
+			if e1 == nil && e0 == nil && w1 > w0 {
+				// Table widths include the Doppler part; the Stark part's
+				// exponent is at least this. Use the Stark-only width where
+				// available.
+				s1, e2 := l.sh.StarkWidthNM(sh99.FWHM, ne*1.05, f.te)
+				s0, e3 := l.sh.StarkWidthNM(sh99.FWHM, ne/1.05, f.te)
+				if e2 == nil && e3 == nil && s1 > s0 {
+					return math.Log(s1/s0) / math.Log(1.05*1.05)
+				}
+				return 2.0 / 3.0
+			}
+			continue
+		}
+		return l.rel.Exponent
+	}
+	return 2.0 / 3.0
+}
