@@ -16,7 +16,8 @@ package server
 // T_exc; and one line per spectrum. By default the tests check that the
 // harness measured what it says (every spectrum analysed, every number
 // finite, every case counted); GLOWLOG_WHOLE_TARGETS=1 also asserts the
-// issue's accuracy targets for the whole route.
+// issue's accuracy targets for the whole route. GLOWLOG_WHOLE_DUMP_DIR=dir
+// writes every result (<spectrum>.<route>.json) for looking into cases.
 
 import (
 	"bytes"
@@ -68,7 +69,9 @@ type wsTruth struct {
 }
 
 // in reports whether the spectrum belongs to group: "" (all), a group
-// of gen.py, or "hires/Hα" and "hires/Hβ" (the windows).
+// of gen.py, "hires/Hα" and "hires/Hβ" (the windows), or the survey
+// spectra below and above 10²² m⁻³ (above, gen.py leaves out H8 and,
+// higher up, Hε and Hδ: members beyond the tables' density range).
 func (t wsTruth) in(group string) bool {
 	switch group {
 	case "":
@@ -77,6 +80,12 @@ func (t wsTruth) in(group string) bool {
 		return t.Group == "hires" && t.Window == "Halpha"
 	case "hires/Hβ":
 		return t.Group == "hires" && t.Window == "Hbeta"
+	case "survey/<1e22":
+		return t.Group == "survey" && t.NeM3 < 1e22
+	case "survey/≥1e22":
+		// H8 (and above 3.16×10²² m⁻³ Hε, above 10²³ Hδ) is beyond the
+		// tables here, so gen.py leaves it out of the spectrum
+		return t.Group == "survey" && t.NeM3 >= 1e22
 	}
 	return t.Group == group
 }
@@ -97,10 +106,14 @@ func (t wsTruth) signalMembers() int {
 // wsValue is one route's answer for one spectrum.
 type wsValue struct {
 	ne, neUnc, texc, texcUnc *float64
-	err                      string // analysis error ("" when it ran)
-	internal                 bool   // err is not a problem with the data (*spectrum.Error)
-	model                    string // Result.Model
-	wholeRan                 bool   // Result.Whole present
+	// neUncStat, texcUncStat are the statistical parts of the σ (the
+	// analysis' *_unc_stat_* fields; nil for scipy, whose σ is only
+	// statistical anyway).
+	neUncStat, texcUncStat *float64
+	err                    string // analysis error ("" when it ran)
+	internal               bool   // err is not a problem with the data (*spectrum.Error)
+	model                  string // Result.Model
+	wholeRan               bool   // Result.Whole present
 	// areas are the fitted line intensities by upper level (lines route:
 	// the top-level lines; whole route: whole_fit.lines).
 	areas map[int]float64
@@ -179,6 +192,13 @@ func wsAnalyze(tr wsTruth, model string) (wsValue, error) {
 	if err != nil {
 		return wsValue{}, fmt.Errorf("%s: encoding: %v", tr.Spectrum, err)
 	}
+	if dir := os.Getenv("GLOWLOG_WHOLE_DUMP_DIR"); dir != "" {
+		// every result as analysed, for looking into single cases
+		name := strings.TrimSuffix(tr.Spectrum, ".csv") + "." + model + ".json"
+		if err := os.WriteFile(filepath.Join(dir, name), b, 0o644); err != nil {
+			return wsValue{}, err
+		}
+	}
 	var m map[string]any
 	if err := json.Unmarshal(b, &m); err != nil {
 		return wsValue{}, err
@@ -186,6 +206,7 @@ func wsAnalyze(tr wsTruth, model string) (wsValue, error) {
 	v := wsValue{
 		ne: jsonNumber(m, "electron_density_m3"), neUnc: jsonNumber(m, "electron_density_unc_m3"),
 		texc: jsonNumber(m, "excitation_temperature_K"), texcUnc: jsonNumber(m, "excitation_temperature_unc_K"),
+		neUncStat: jsonNumber(m, "electron_density_unc_stat_m3"), texcUncStat: jsonNumber(m, "excitation_temperature_unc_stat_K"),
 		model: res.Model, wholeRan: res.Whole != nil, areas: map[int]float64{},
 	}
 	v.source, _ = m["electron_density_source"].(string)
@@ -324,6 +345,12 @@ type wsStats struct {
 func (s wsStats) frac1() float64 { return float64(s.in1) / float64(s.withUnc) }
 
 func wsMeasure(cases []wsCase, group, route string, ne bool) wsStats {
+	return wsMeasureσ(cases, group, route, ne, false)
+}
+
+// wsMeasureσ is wsMeasure with the coverage of the statistical σ alone
+// when stat is set.
+func wsMeasureσ(cases []wsCase, group, route string, ne, stat bool) wsStats {
 	var s wsStats
 	var errs []float64
 	for i := range cases {
@@ -336,8 +363,14 @@ func wsMeasure(cases []wsCase, group, route string, ne bool) wsStats {
 			v = c.wholeValue()
 		}
 		truth, x, u := c.truth.NeM3, v.ne, v.neUnc
+		if stat {
+			u = v.neUncStat
+		}
 		if !ne {
 			truth, x, u = c.truth.TexcK, v.texc, v.texcUnc
+			if stat {
+				u = v.texcUncStat
+			}
 			if c.truth.signalMembers() < 2 {
 				if x != nil {
 					s.extra++
@@ -397,19 +430,30 @@ func wsTable(cases []wsCase) string {
 	if !whole {
 		b.WriteString("whole route: not implemented in this build (Result.Model never \"whole\"): its rows are empty\n")
 	}
-	fmt.Fprintf(&b, "%-8s %-6s  %-46s  %-46s\n", "group", "route", "n_e", "T_exc")
-	for _, g := range append(slices.Clone(wsGroups), "hires/Hα", "hires/Hβ", "") {
+	fmt.Fprintf(&b, "%-12s %-6s  %-46s  %-46s\n", "group", "route", "n_e", "T_exc")
+	for _, g := range append(slices.Clone(wsGroups), "hires/Hα", "hires/Hβ", "survey/<1e22", "survey/≥1e22", "") {
 		name := g
 		if g == "" {
 			name = "all"
 		}
 		for _, r := range wsRoutes {
-			fmt.Fprintf(&b, "%-8s %-6s  %-46s  %-46s\n", name, r, wsMeasure(cases, g, r, true), wsMeasure(cases, g, r, false))
+			fmt.Fprintf(&b, "%-12s %-6s  %-46s  %-46s\n", name, r, wsMeasure(cases, g, r, true), wsMeasure(cases, g, r, false))
 		}
 		if whole {
 			ln, wn := wsMeasure(cases, g, "lines", true), wsMeasure(cases, g, "whole", true)
 			lt, wt := wsMeasure(cases, g, "lines", false), wsMeasure(cases, g, "whole", false)
-			fmt.Fprintf(&b, "%-8s whole/lines median: n_e %.2f (target ≤ 0.5), T_exc %.2f (target ≤ 0.7)\n", name, wn.median/ln.median, wt.median/lt.median)
+			fmt.Fprintf(&b, "%-12s whole/lines median: n_e %.2f (target ≤ 0.5), T_exc %.2f (target ≤ 0.7)\n", name, wn.median/ln.median, wt.median/lt.median)
+		}
+	}
+	b.WriteString("\ncoverage of the statistical σ alone (the analysis' *_unc_stat_*): truth within 1σ / 2σ\n")
+	for _, g := range append(slices.Clone(wsGroups), "") {
+		name := g
+		if g == "" {
+			name = "all"
+		}
+		for _, r := range []string{"lines", "whole"} {
+			n, te := wsMeasureσ(cases, g, r, true, true), wsMeasureσ(cases, g, r, false, true)
+			fmt.Fprintf(&b, "%-8s %-6s  n_e %2d/%-2d %2d/%-2d   T_exc %2d/%-2d %2d/%-2d\n", name, r, n.in1, n.withUnc, n.in2, n.withUnc, te.in1, te.withUnc, te.in2, te.withUnc)
 		}
 	}
 	b.WriteString(wsAreaTable(cases))
@@ -579,7 +623,9 @@ func TestWholeSynthTargets(t *testing.T) {
 	}
 	for _, g := range wsGroups {
 		ln, wn := wsMeasure(cases, g, "lines", true), wsMeasure(cases, g, "whole", true)
-		if !(wn.median <= 0.5*ln.median) {
+		if ln.numbers == 0 {
+			t.Logf("%s: the lines route has no n_e to compare with", g)
+		} else if !(wn.median <= 0.5*ln.median) {
 			t.Errorf("%s: whole median |n_e error| %.3f, want ≤ half the lines route's %.3f", g, wn.median, ln.median)
 		}
 		if wn.numbers < wn.cases {
@@ -589,7 +635,9 @@ func TestWholeSynthTargets(t *testing.T) {
 		if wt.cases == 0 {
 			continue
 		}
-		if !(wt.median <= 0.7*lt.median) {
+		if lt.numbers == 0 {
+			t.Logf("%s: the lines route has no T_exc to compare with (whole: %d of %d)", g, wt.numbers, wt.cases)
+		} else if !(wt.median <= 0.7*lt.median) {
 			t.Errorf("%s: whole median |T_exc error| %.3f, want ≤ 0.7 × the lines route's %.3f", g, wt.median, lt.median)
 		}
 		if wt.numbers < wt.cases {
