@@ -131,10 +131,15 @@ type wsValue struct {
 	// analysis' *_unc_stat_* fields; nil for scipy, whose σ is only
 	// statistical anyway).
 	neUncStat, texcUncStat *float64
-	err                    string // analysis error ("" when it ran)
-	internal               bool   // err is not a problem with the data (*spectrum.Error)
-	model                  string // Result.Model
-	wholeRan               bool   // Result.Whole present
+	// neUncNoTable is the whole route's total σ of n_e without its "SH99
+	// table accuracy" part (removed in quadrature): this set is made from
+	// those very tables, so that part — the tables' accuracy against real
+	// plasmas — cannot show here, and coverage with it says little.
+	neUncNoTable *float64
+	err          string // analysis error ("" when it ran)
+	internal     bool   // err is not a problem with the data (*spectrum.Error)
+	model        string // Result.Model
+	wholeRan     bool   // Result.Whole present
 	// areas are the fitted line intensities by upper level (lines route:
 	// the top-level lines; whole route: whole_fit.lines).
 	areas map[int]float64
@@ -242,6 +247,19 @@ func wsAnalyze(tr wsTruth, model string) (wsValue, error) {
 		w, _ := m["whole_fit"].(map[string]any)
 		lines, _ = w["lines"].([]any)
 		key = "area"
+		if v.neUnc != nil {
+			tot := *v.neUnc
+			parts, _ := w["electron_density_unc_sys_parts"].([]any)
+			for _, p := range parts {
+				pm, _ := p.(map[string]any)
+				name, _ := pm["name"].(string)
+				sg, _ := pm["sigma"].(float64)
+				if strings.HasPrefix(name, "SH99 table accuracy") {
+					tot = math.Sqrt(math.Max(tot*tot-sg*sg, 0))
+				}
+			}
+			v.neUncNoTable = &tot
+		}
 	}
 	for _, l := range lines {
 		lm, _ := l.(map[string]any)
@@ -477,6 +495,33 @@ func wsTable(cases []wsCase) string {
 			n, te := wsMeasureσ(cases, g, r, true, true), wsMeasureσ(cases, g, r, false, true)
 			fmt.Fprintf(&b, "%-8s %-6s  n_e %2d/%-2d %2d/%-2d   T_exc %2d/%-2d %2d/%-2d\n", name, r, n.in1, n.withUnc, n.in2, n.withUnc, te.in1, te.withUnc, te.in2, te.withUnc)
 		}
+	}
+	b.WriteString("\nwhole route, n_e: coverage of the total σ without its \"SH99 table accuracy\" part (this set is made from those tables): truth within 1σ / 2σ\n")
+	for _, g := range append(slices.Clone(wsGroups), "") {
+		name := g
+		if g == "" {
+			name = "all"
+		}
+		var n, in1, in2 int
+		for i := range cases {
+			c := &cases[i]
+			if !c.truth.in(g) {
+				continue
+			}
+			v := c.wholeValue()
+			if v.ne == nil || v.neUncNoTable == nil || !(*v.neUncNoTable > 0) {
+				continue
+			}
+			n++
+			d := math.Abs(*v.ne - c.truth.NeM3)
+			if d <= *v.neUncNoTable {
+				in1++
+			}
+			if d <= 2**v.neUncNoTable {
+				in2++
+			}
+		}
+		fmt.Fprintf(&b, "%-8s whole   n_e %2d/%-2d %2d/%-2d\n", name, in1, n, in2, n)
 	}
 	b.WriteString(wsAreaTable(cases))
 	b.WriteString("\nper spectrum: truth, then lines | whole | scipy (value ± total 1σ)\n")
