@@ -85,12 +85,13 @@ func SynthesizeStark(cfg SynthConfig) ([]float64, []SynthLine, error) {
 		l := &lines[k]
 		l.Shape = SynthShapeVoigt
 		sh, err := sh99.Balmer(l.Upper)
+		if err != nil {
+			sh = nil // a member beyond the tables: Voigt
+		}
+		err = addStarkLine(y, x, l, sh, cfg.ElectronDensityM3, te)
 		if err == nil {
-			err = addStarkLine(y, x, l, sh, cfg.ElectronDensityM3, te)
-			if err == nil {
-				l.Shape = SynthShapeSH99
-				continue
-			}
+			l.Shape = SynthShapeSH99
+			continue
 		}
 		if !errors.Is(err, sh99.ErrOutOfRange) && !errors.Is(err, errNoSH99) {
 			return nil, nil, err

@@ -16,8 +16,9 @@ import (
 // line at a time on a ±150 nm axis, whose pixels must hold all but the
 // far Stark wing (up to 8e-4 of the area, Hδ at 5×10²² m⁻³: (FWHM/2 / 150 nm)^1.5). Lines the
 // tables cover are SH99-shaped; H8 at 3×10²² m⁻³ (beyond the tables, which
-// end at 10²² for H8) falls back to a Voigt profile, whose Lorentzian
-// wings beyond the axis are accounted for.
+// end at 10²² for H8) and H13 (a member the tables do not hold) fall back
+// to a Voigt profile, whose Lorentzian wings beyond the axis are accounted
+// for.
 func TestSynthesizeStarkAreas(t *testing.T) {
 	for _, c := range []struct {
 		up    int
@@ -25,7 +26,7 @@ func TestSynthesizeStarkAreas(t *testing.T) {
 		shape string
 	}{
 		{3, 1e22, SynthShapeSH99}, {4, 3e21, SynthShapeSH99}, {4, 1e23, SynthShapeSH99},
-		{6, 5e22, SynthShapeSH99}, {8, 3e22, SynthShapeVoigt},
+		{6, 5e22, SynthShapeSH99}, {8, 3e22, SynthShapeVoigt}, {13, 1e21, SynthShapeVoigt},
 	} {
 		tr, _ := diag.Balmer(c.up, diag.Hydrogen)
 		x := linspace(tr.WavelengthAirNM-150, tr.WavelengthAirNM+150, 30001)
