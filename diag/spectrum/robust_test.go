@@ -82,52 +82,11 @@ func (s sh99Scene) counts(t testing.TB, rng *rand.Rand) []float64 {
 		if v, ok := s.neOf[up]; ok {
 			ne = v
 		}
-		wT, err := l.TableWidthNM(sh99.FWHM, ne, s.te)
-		if err != nil {
+		// The line as SynthesizeStark makes it (addStarkLine), with no
+		// Lorentzian beyond the tables' Stark profile.
+		sl := SynthLine{Upper: up, CenterNM: c0, Area: areas[k], GaussFWHMNM: math.Hypot(s.instG, wD)}
+		if err := addStarkLine(sig, x, &sl, l, ne, s.te); err != nil {
 			t.Fatalf("H%d: %v", up, err)
-		}
-		gs := math.Sqrt(g2) / (2 * math.Sqrt(2*math.Ln2))
-		px := (x[n-1] - x[0]) / float64(n-1)
-		h := math.Min(px/8, math.Min(wT, math.Sqrt(g2))/10)
-		reach := 6 * gs
-		lo := x[0] - px - reach
-		m := int((x[n-1]+px+reach-lo)/h) + 2
-		fx := make([]float64, m)
-		for i := range fx {
-			fx[i] = lo + float64(i)*h - c0
-		}
-		prof := make([]float64, m)
-		if _, err := l.ProfileInto(prof, fx, ne, s.te); err != nil {
-			t.Fatal(err)
-		}
-		kh := int(reach / h)
-		kern := make([]float64, 2*kh+1)
-		ks := 0.0
-		for j := range kern {
-			d := float64(j-kh) * h
-			kern[j] = math.Exp(-d * d / (2 * gs * gs))
-			ks += kern[j]
-		}
-		conv := make([]float64, m)
-		for i := kh; i < m-kh; i++ {
-			v := 0.0
-			for j, kv := range kern {
-				v += kv * prof[i+j-kh]
-			}
-			conv[i] = v / ks
-		}
-		cum := make([]float64, m)
-		for i := 1; i < m; i++ {
-			cum[i] = cum[i-1] + 0.5*h*(conv[i]+conv[i-1])
-		}
-		at := func(v float64) float64 {
-			f := (v - c0 - fx[0]) / h
-			i := int(f)
-			return cum[i] + (f-float64(i))*(cum[i+1]-cum[i])
-		}
-		for i := range x {
-			a, b := pixelEdgesAt(x, i)
-			sig[i] += areas[k] * (at(b) - at(a)) / (b - a)
 		}
 	}
 	mid, span := 0.5*(x[0]+x[n-1]), x[n-1]-x[0]

@@ -26,6 +26,10 @@ type SynthConfig struct {
 	ElectronDensityM3 float64
 	// GasTemperatureK sets the Doppler and van der Waals widths (> 0).
 	GasTemperatureK float64
+	// ElectronTemperatureK is the temperature of the Stark tables'
+	// profiles in SynthesizeStark, K (0: diag.DefaultElectronTemperatureK,
+	// the pipeline's default). Synthesize does not use it.
+	ElectronTemperatureK float64
 	// InstrumentFWHMNM is the Gaussian FWHM of the instrument, nm (≥ 0).
 	InstrumentFWHMNM float64
 	// Perturber and PressurePa give the van der Waals width (zero
@@ -57,6 +61,9 @@ type SynthLine struct {
 	GaussFWHMNM, LorentzFWHMNM float64
 	// StarkFWHMNM is the Stark part of LorentzFWHMNM, nm.
 	StarkFWHMNM float64
+	// Shape is the profile the line was made with: SynthShapeVoigt or
+	// SynthShapeSH99 (empty from SynthLines).
+	Shape string
 }
 
 // SynthLines returns the lines of cfg (areas and widths) without building
@@ -123,13 +130,8 @@ func SynthLines(cfg SynthConfig) ([]SynthLine, error) {
 // Lines far outside the grid add nothing visible but are still returned.
 func Synthesize(cfg SynthConfig) ([]float64, []SynthLine, error) {
 	x := cfg.WavelengthNM
-	if len(x) < 2 {
-		return nil, nil, fmt.Errorf("spectrum: synth: need at least two pixels, got %d", len(x))
-	}
-	for i := 1; i < len(x); i++ {
-		if !(x[i] > x[i-1]) {
-			return nil, nil, fmt.Errorf("spectrum: synth: wavelengths must be strictly ascending (pixel %d)", i)
-		}
+	if err := checkSynthAxis(x); err != nil {
+		return nil, nil, err
 	}
 	lines, err := SynthLines(cfg)
 	if err != nil {
@@ -139,7 +141,9 @@ func Synthesize(cfg SynthConfig) ([]float64, []SynthLine, error) {
 	for i := range y {
 		y[i] = cfg.BaselinePerNM
 	}
-	for _, l := range lines {
+	for k := range lines {
+		l := &lines[k]
+		l.Shape = SynthShapeVoigt
 		sigma, gamma := voigt.SigmaFromFWHM(l.GaussFWHMNM), voigt.GammaFromFWHM(l.LorentzFWHMNM)
 		// Every pixel gets the Lorentzian wing, so the area is kept.
 		for i := range x {
