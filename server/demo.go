@@ -51,11 +51,18 @@ type demoChamber struct {
 	weight     float64
 }
 
+// demoSurveyUppers are the Balmer members on the survey spectrograph's
+// 378–702 nm axis (Hα … H10; H11 is at 377.1 nm): a discharge emits them
+// all, and the whole-spectrum fit models every member in range, so the
+// survey chambers' spectra carry them all (the weak high members with
+// their Boltzmann areas).
+var demoSurveyUppers = []int{3, 4, 5, 6, 7, 8, 9, 10}
+
 var demoChambers = []demoChamber{
 	{name: "Jet line J1", recipe: "J1 argon/hydrogen jet", recipeDesc: "Ar + 1 % H2, 2 slm, pin electrode",
 		source: "plasma_jet", gas: "Ar + 1 % H2", flows: "Ar 2.0 slm, H2 20 sccm", perturber: "Ar",
 		pressurePa: 101325, powerW: [2]float64{25, 35}, gapMM: 1.0, setting: &demoSurvey, slitsUM: []float64{35, 40},
-		gasT: 1500, texc: 6500, uppers: []int{3, 4, 5, 6}, weight: 0.4,
+		gasT: 1500, texc: 6500, uppers: demoSurveyUppers, weight: 0.4,
 		// The pin electrode erodes: n_e falls by 40 % over 120 days and
 		// comes back when the electrode is replaced.
 		ne: func(day, power float64) float64 {
@@ -68,7 +75,7 @@ var demoChambers = []demoChamber{
 	{name: "Torch line T1", recipe: "T1 microwave torch", recipeDesc: "2.45 GHz surface-wave torch, Ar + 3 % H2",
 		source: "microwave", gas: "Ar + 3 % H2", flows: "Ar 5 slm, H2 150 sccm", perturber: "Ar",
 		pressurePa: 101325, powerW: [2]float64{800, 1500}, setting: &demoSurvey, slitsUM: []float64{35, 40, 50},
-		gasT: 2500, texc: 7500, uppers: []int{3, 4, 5, 6, 7}, weight: 0.25,
+		gasT: 2500, texc: 7500, uppers: demoSurveyUppers, weight: 0.25,
 		ne: func(_, power float64) float64 { return 3e21 * math.Pow(power/1000, 0.6) }},
 	{name: "Glow tube G3", recipe: "G3 hydrogen glow", recipeDesc: "DC glow, H2 + 10 % Ar, hollow cathode",
 		source: "dc_glow", gas: "H2 + 10 % Ar", flows: "H2 45 sccm, Ar 5 sccm", perturber: "H2",
@@ -189,7 +196,7 @@ var demoReturnNotes = []string{
 // SeedDemo fills an empty database with the demo scenario: the invented
 // Fenwick Hollow Plasma Lab, four chambers, six staff (four operators, two
 // reviewers), opt.Runs runs over six months with synthetic spectra
-// (spectrum.Synthesize) on the wavelength axis of the run's spectrometer
+// (spectrum.SynthesizeStark: SH99 Stark shapes) on the wavelength axis of the run's spectrometer
 // (demoSetting), analysed by ReanalyzeRunTx, a slow electrode-wear drift
 // of n_e in Jet line J1 with a maintenance step on day 120, chamber events
 // that explain it, and runs in every review state.
@@ -374,13 +381,10 @@ func SeedDemo(ctx context.Context, s *Server, adminID int64, opt DemoOptions) er
 			atts = append(atts, store.Attachment{ID: rid, RunID: id, Kind: store.KindResponse, Name: ch.setting.response, Seq: 1, Content: resp})
 			st := DefaultSettings(store.Run{InstrumentFWHMNM: in.InstrumentFWHMNM, GasTemperatureK: in.GasTemperatureK,
 				PressurePa: in.PressurePa, Perturber: in.Perturber})
-			// The demo's lines are Voigt profiles (spectrum.Synthesize):
-			// analysed with the Voigt shape they were made with.
-			st.LineShape = spectrum.LineShapeVoigt
-			// …and line by line: the whole-spectrum model ties every
-			// line's shape to the Stark tables, which these Voigt lines
-			// do not follow.
-			st.Model = spectrum.ModelLines
+			// The demo's lines have the Stark shapes of the SH99 tables
+			// (spectrum.SynthesizeStark), as real discharges do: the
+			// settings keep the default line shape (stark) and the
+			// pipeline's default route (Model empty).
 			uid := op.ID
 			if _, _, err := s.ReanalyzeRunTx(ctx, tx, id, atts, st, &uid, "first analysis"); err != nil {
 				tx.Rollback()
@@ -456,14 +460,15 @@ func SeedDemo(ctx context.Context, s *Server, adminID int64, opt DemoOptions) er
 }
 
 // demoSpectrum returns the counts of one exposure: the pixel-integrated
-// Balmer lines of cfg (spectrum.Synthesize, noise-free) scaled so that the
+// Balmer lines of cfg (spectrum.SynthesizeStark, noise-free: the SH99
+// Stark shapes at the pipeline's default T_e) scaled so that the
 // highest pixel reads 15 000–45 000 counts (a 16-bit detector kept below
 // saturation, common practice), on a dark-plus-continuum offset of
 // 300–600 counts, with shot noise (√counts, one electron per count
 // assumed) and a read noise of 6 counts (typical of a scientific CCD,
 // from memory).
 func demoSpectrum(rng *rand.Rand, grid []float64, cfg spectrum.SynthConfig) ([]float64, error) {
-	y, _, err := spectrum.Synthesize(cfg)
+	y, _, err := spectrum.SynthesizeStark(cfg)
 	if err != nil {
 		return nil, err
 	}

@@ -634,6 +634,7 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 		res.Flags = append(res.Flags, diag.Flag{Code: FlagPartialResult, Message: "partial result: " + joinReasons(res.PartialReasons)})
 	}
 	diag.SetSeverities(res.Flags)
+	demoteLinesRouteFlags(&res)
 	res.Warnings = res.Warnings[:0]
 	for _, f := range res.Flags {
 		res.Warnings = append(res.Warnings, f.Message)
@@ -807,4 +808,33 @@ func selectK(v []float64, k int) float64 {
 		}
 	}
 	return v[k]
+}
+
+// linesRouteDensityFlags and linesRouteTexcFlags concern only the
+// line-by-line route's n_e (its per-line relations and their combination)
+// and its Boltzmann plot.
+var (
+	linesRouteDensityFlags = []string{diag.FlagRelationRange, diag.FlagDensityDisagree, diag.FlagModelRange,
+		diag.FlagShapeBound, diag.FlagDensityScatter}
+	linesRouteTexcFlags = []string{diag.FlagPartialLTE, diag.FlagScaledUnc}
+)
+
+// demoteLinesRouteFlags: when the whole-spectrum fit gives the reported
+// n_e (or T_exc), the line-by-line route's flags about its own densities
+// (or Boltzmann plot) do not concern the reported number; they are kept,
+// named as the line-by-line route's, with severity note (not counted).
+// Where they point at the data (self-absorption, a level off the line),
+// the whole fit's own Boltzmann-tie test raises FlagWholeDisagrees.
+func demoteLinesRouteFlags(res *Result) {
+	if res.Model != ModelWhole {
+		return
+	}
+	for i := range res.Flags {
+		f := &res.Flags[i]
+		if res.ElectronDensityM3 != nil && slices.Contains(linesRouteDensityFlags, f.Code) ||
+			res.ExcitationTemperatureK != nil && slices.Contains(linesRouteTexcFlags, f.Code) {
+			f.Severity = diag.SeverityNote
+			f.Message = "line-by-line route (shown beside the whole-spectrum fit): " + f.Message
+		}
+	}
 }
