@@ -2,12 +2,12 @@ package linefit
 
 import "math"
 
-// cholesky overwrites the upper triangle of the symmetric positive definite
+// Cholesky overwrites the upper triangle of the symmetric positive definite
 // n×n row-major matrix a with its Cholesky factor R, a = RᵀR, reading only
 // the upper triangle. It reports false if a pivot is not above
 // tol × (original diagonal entry), i.e. if a is numerically singular or
 // indefinite. No allocation.
-func cholesky(a []float64, n int, tol float64) bool {
+func Cholesky(a []float64, n int, tol float64) bool {
 	for j := range n {
 		d := a[j*n+j]
 		for k := range j {
@@ -31,9 +31,9 @@ func cholesky(a []float64, n int, tol float64) bool {
 	return true
 }
 
-// cholSolve solves RᵀR x = b in place (b becomes x) for the factor R left
+// CholSolve solves RᵀR x = b in place (b becomes x) for the factor R left
 // in the upper triangle of r by cholesky.
-func cholSolve(r []float64, n int, b []float64) {
+func CholSolve(r []float64, n int, b []float64) {
 	// Rᵀ y = b.
 	for i := range n {
 		s := b[i]
@@ -52,15 +52,15 @@ func cholSolve(r []float64, n int, b []float64) {
 	}
 }
 
-// cholInverse writes (RᵀR)⁻¹ into the full n×n row-major inv, using col
+// CholInverse writes (RᵀR)⁻¹ into the full n×n row-major inv, using col
 // (length n) as scratch.
-func cholInverse(r []float64, n int, inv, col []float64) {
+func CholInverse(r []float64, n int, inv, col []float64) {
 	for j := range n {
 		for i := range col[:n] {
 			col[i] = 0
 		}
 		col[j] = 1
-		cholSolve(r, n, col)
+		CholSolve(r, n, col)
 		for i := range n {
 			inv[i*n+j] = col[i]
 		}

@@ -747,10 +747,10 @@ func (f *Fitter) solveDamped(mu float64) bool {
 		}
 		f.delta[a] = g
 	}
-	if !cholesky(fac, np, 0) {
+	if !Cholesky(fac, np, 0) {
 		return false
 	}
-	cholSolve(fac, np, f.delta[:np])
+	CholSolve(fac, np, f.delta[:np])
 	for a := range np {
 		f.delta[a] /= math.Sqrt(max(f.dscale[a], 1e-300))
 	}
@@ -804,8 +804,8 @@ func (f *Fitter) finish(dst *Result, p *Problem, status Status, err error) error
 					fac[a*np+b] = f.ata[a*np+b] * sa / math.Sqrt(f.ata[b*np+b])
 				}
 			}
-			if cholesky(fac, np, pivTol) {
-				cholInverse(fac, np, cov, f.col)
+			if Cholesky(fac, np, pivTol) {
+				CholInverse(fac, np, cov, f.col)
 				scale := 1.0
 				if dst.ErrorsScaled {
 					scale = dst.RedChi2

@@ -8,6 +8,7 @@ import (
 	"gonum.org/v1/gonum/stat/distuv"
 
 	"glowlog/diag"
+	"glowlog/diag/linefit"
 	"glowlog/diag/sh99"
 )
 
@@ -226,11 +227,11 @@ func (f *wholeFitter) levmar() (iters int, converged bool, chi2 float64, err err
 				M[a*np+a] += lam * dv
 			}
 			copy(d, g)
-			if !cholesky(M, np, 1e-14) {
+			if !linefit.Cholesky(M, np, 1e-14) {
 				lam *= 10
 				continue
 			}
-			cholSolve(M, np, d)
+			linefit.CholSolve(M, np, d)
 			for a := range np {
 				trial[a] = f.th[a] + d[a]
 			}
@@ -316,13 +317,13 @@ func (f *wholeFitter) linearAreas() (areas, sig []float64, chi2 float64, ok bool
 			A[a*np+a] = 1 // a line without pixels: area 0
 		}
 	}
-	if !cholesky(A, np, 1e-14) {
+	if !linefit.Cholesky(A, np, 1e-14) {
 		return nil, nil, 0, false
 	}
 	sol := append(f.linSol[:0], g...)
-	cholSolve(A, np, sol)
+	linefit.CholSolve(A, np, sol)
 	inv := make([]float64, np*np)
-	cholInverse(A, np, inv, make([]float64, np))
+	linefit.CholInverse(A, np, inv, make([]float64, np))
 	mod := grow(&f.mbuf, len(f.x))
 	for i := range mod {
 		var m float64
@@ -434,11 +435,11 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 		A[pr.iNe*np+pr.iNe] = 1
 	}
 	R := append([]float64(nil), A...)
-	if !cholesky(R, np, 1e-15) {
+	if !linefit.Cholesky(R, np, 1e-15) {
 		return nil, errors.New("the fit's curvature matrix is singular (a parameter is not determined by the data)")
 	}
 	cov0 := make([]float64, np*np)
-	cholInverse(R, np, cov0, make([]float64, np))
+	linefit.CholInverse(R, np, cov0, make([]float64, np))
 	red := chi2 / float64(dof)
 	// Without a noise model the σ come from the residuals (χ²ᵣ scales
 	// the covariance); with one, a fit worse than its noise (χ²ᵣ > 1: the
