@@ -88,6 +88,13 @@ const (
 	// differ by up to 5 % for Hβ (diag/sh99 package doc, physics.md
 	// §4.5). Through n_e ∝ w^(1/p) it becomes σ(n_e)/n_e = 0.05/p.
 	wholeSH99WidthRel = 0.05
+	// wholeLineShapeRel is the relative 1σ of one line's width against
+	// the others', independent between lines: the interpolation of each
+	// line's tables between their density nodes and in detuning (the
+	// package doc of diag/sh99 gives 0.2–2.5 % for the detuning
+	// interpolation's widths and up to 5 % between interpolation schemes
+	// for Hβ; 2 % taken, our estimate, no source).
+	wholeLineShapeRel = 0.02
 	// wholeTeRelDefault and wholeTeRelGiven are the relative 1σ of the
 	// electron temperature of the tables: a factor of 2 when the default
 	// 1e4 K is used, 20 % when T_e was given. Common practice, no

@@ -968,6 +968,34 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) (part
 		g, tg := f.lineInst(l, th)
 		_, _, _, _ = f.lineShape(l, th[pr.iNe], g, tg)
 	}
+	// Shape accuracy of each line on its own: the tables of different
+	// lines are interpolated between their own nodes, so a width error of
+	// one line relative to the others (independent between lines) moves
+	// its area against the baseline and its neighbours, and so T_exc,
+	// which the common width part below cannot. wholeLineShapeRel per
+	// line, through the line's own ln n_e derivative of its pixel means
+	// (δ ln n_e = wholeLineShapeRel/p_k), summed in quadrature over the
+	// lines with more than one line in the model.
+	if len(f.lines) > 1 {
+		var sn, sb float64
+		for k, l := range f.lines {
+			pk, ok := f.lineWidthExponent(l, ne)
+			if !ok || !(pk > 0) {
+				continue
+			}
+			dl := wholeLineShapeRel / pk
+			a := f.areaOf(k, th)
+			var d, db float64
+			for i := l.plo; i < l.phi; i++ {
+				dm := a * l.dn[i-l.plo] * dl
+				d += sens[i] * dm
+				db += sensB[i] * dm
+			}
+			sn += d * d
+			sb += db * db
+		}
+		add("line shapes of the tables, line by line (widths ±2 % each)", [2]float64{math.Sqrt(sn), math.Sqrt(sb)})
+	}
 	// Tables' accuracy through the local exponent of the width.
 	p := f.widthExponent(ne)
 	if p > 0 {
@@ -1002,23 +1030,30 @@ func (f *wholeFitter) anySH() bool {
 // widthExponent is d ln w / d ln n_e of the first line's Stark width.
 func (f *wholeFitter) widthExponent(ne float64) float64 {
 	for _, l := range f.lines {
-		if l.shapeSH {
-			w1, e1 := l.sh.TableWidthNM(sh99.FWHM, ne*1.05, f.te)
-			w0, e0 := l.sh.TableWidthNM(sh99.FWHM, ne/1.05, f.te)
-			if e1 == nil && e0 == nil && w1 > w0 {
-				// Table widths include the Doppler part; the Stark part's
-				// exponent is at least this. Use the Stark-only width where
-				// available.
-				s1, e2 := l.sh.StarkWidthNM(sh99.FWHM, ne*1.05, f.te)
-				s0, e3 := l.sh.StarkWidthNM(sh99.FWHM, ne/1.05, f.te)
-				if e2 == nil && e3 == nil && s1 > s0 {
-					return math.Log(s1/s0) / math.Log(1.05*1.05)
-				}
-				return 2.0 / 3.0
-			}
-			continue
+		if p, ok := f.lineWidthExponent(l, ne); ok {
+			return p
 		}
-		return l.rel.Exponent
 	}
 	return 2.0 / 3.0
+}
+
+// lineWidthExponent is d ln w / d ln n_e of line l's Stark width (false
+// for an SH99 line whose tables do not give it at ne).
+func (f *wholeFitter) lineWidthExponent(l *wline, ne float64) (float64, bool) {
+	if !l.shapeSH {
+		return l.rel.Exponent, true
+	}
+	w1, e1 := l.sh.TableWidthNM(sh99.FWHM, ne*1.05, f.te)
+	w0, e0 := l.sh.TableWidthNM(sh99.FWHM, ne/1.05, f.te)
+	if e1 != nil || e0 != nil || !(w1 > w0) {
+		return 0, false
+	}
+	// Table widths include the Doppler part; the Stark part's exponent
+	// is at least this. Use the Stark-only width where available.
+	s1, e2 := l.sh.StarkWidthNM(sh99.FWHM, ne*1.05, f.te)
+	s0, e3 := l.sh.StarkWidthNM(sh99.FWHM, ne/1.05, f.te)
+	if e2 == nil && e3 == nil && s1 > s0 {
+		return math.Log(s1/s0) / math.Log(1.05*1.05), true
+	}
+	return 2.0 / 3.0, true
 }
