@@ -172,9 +172,14 @@ func addStarkLine(y, x []float64, l *SynthLine, sh *sh99.Line, ne, te float64) e
 	for i := range fx {
 		fx[i] = float64(i-m) * h
 	}
+	// The profile and the kernel are even in detuning: evaluate and
+	// convolve the half from the centre (index m) up and mirror it.
 	prof := make([]float64, len(fx))
-	if _, err := sh.ProfileInto(prof, fx, ne, te); err != nil {
+	if _, err := sh.ProfileInto(prof[m:], fx[m:], ne, te); err != nil {
 		return err
+	}
+	for i := range m {
+		prof[i] = prof[2*m-i]
 	}
 	// Convolve with the kernel sampled on the grid (its sum normalised
 	// to one, so the kernel keeps the area; the Lorentzian's wing beyond
@@ -195,13 +200,16 @@ func addStarkLine(y, x []float64, l *SynthLine, sh *sh99.Line, ne, te float64) e
 			kern[j] /= ks
 		}
 		conv := make([]float64, len(prof))
-		for i := range conv {
+		for i := m; i < len(conv); i++ {
 			var s float64
 			j0, j1 := max(0, kh-i), min(len(kern), len(prof)-i+kh)
 			for j := j0; j < j1; j++ {
 				s += kern[j] * prof[i+j-kh]
 			}
 			conv[i] = s
+		}
+		for i := range m {
+			conv[i] = conv[2*m-i]
 		}
 		prof = conv
 	}
