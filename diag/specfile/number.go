@@ -127,34 +127,7 @@ func scanNumber(s string, i int, point byte) (v float64, end int, ok bool) {
 		neg = s[i] == '-'
 		i++
 	}
-	// Digits one byte at a time: spectrometer numbers have short digit
-	// runs ("380.156326", "8.40393"), for which this costs about half of
-	// eight-byte (SWAR) steps. More than 19 digits overflow mant; nd
-	// counts them.
-	var mant uint64
-	d0 := i
-	for ; i < len(s); i++ {
-		c := s[i] - '0'
-		if c > 9 {
-			break
-		}
-		mant = mant*10 + uint64(c)
-	}
-	nd := i - d0
-	frac := 0
-	if i < len(s) && s[i] == point {
-		i++
-		f0 := i
-		for ; i < len(s); i++ {
-			c := s[i] - '0'
-			if c > 9 {
-				break
-			}
-			mant = mant*10 + uint64(c)
-		}
-		frac = i - f0
-		nd += frac
-	}
+	mant, nd, frac, i := decimalDigits(s, i, point)
 	if nd == 0 {
 		return 0, start, false
 	}
@@ -192,6 +165,38 @@ func scanNumber(s string, i int, point byte) (v float64, end int, ok bool) {
 		v = -v
 	}
 	return v, i, true
+}
+
+// decimalDigits reads the digits of a decimal at s[i:], with an optional
+// point and fraction digits: their value as an integer mant (it
+// overflows past 19 digits: nd counts them all), the number of digits
+// nd, of fraction digits frac, and the end. Digits one byte at a time:
+// spectrometer numbers have short digit runs ("380.156326", "8.40393"),
+// for which this costs about half of eight-byte (SWAR) steps.
+func decimalDigits(s string, i int, point byte) (mant uint64, nd, frac, end int) {
+	d0 := i
+	for ; i < len(s); i++ {
+		c := s[i] - '0'
+		if c > 9 {
+			break
+		}
+		mant = mant*10 + uint64(c)
+	}
+	nd = i - d0
+	if i < len(s) && s[i] == point {
+		i++
+		f0 := i
+		for ; i < len(s); i++ {
+			c := s[i] - '0'
+			if c > 9 {
+				break
+			}
+			mant = mant*10 + uint64(c)
+		}
+		frac = i - f0
+		nd += frac
+	}
+	return mant, nd, frac, i
 }
 
 // atofPoint is atof of a number written with point as its decimal

@@ -495,29 +495,7 @@ func plainNumber(s string, i int, point byte) (v float64, end int, ok bool) {
 			return v, j, true
 		}
 	}
-	var mant uint64
-	d0 := i
-	for ; i < len(s); i++ {
-		c := s[i] - '0'
-		if c > 9 {
-			break
-		}
-		mant = mant*10 + uint64(c)
-	}
-	nd, frac := i-d0, 0
-	if i < len(s) && s[i] == point {
-		i++
-		f0 := i
-		for ; i < len(s); i++ {
-			c := s[i] - '0'
-			if c > 9 {
-				break
-			}
-			mant = mant*10 + uint64(c)
-		}
-		frac = i - f0
-		nd += frac
-	}
+	mant, nd, frac, i := decimalDigits(s, i, point)
 	if nd == 0 || nd > 19 || mant > 1<<53 || frac > 22 {
 		return 0, i, false
 	}
