@@ -144,20 +144,31 @@ func Synthesize(cfg SynthConfig) ([]float64, []SynthLine, error) {
 	for k := range lines {
 		l := &lines[k]
 		l.Shape = SynthShapeVoigt
-		sigma, gamma := voigt.SigmaFromFWHM(l.GaussFWHMNM), voigt.GammaFromFWHM(l.LorentzFWHMNM)
-		// Every pixel gets the Lorentzian wing, so the area is kept.
-		for i := range x {
-			lo, hi := pixelEdgesAt(x, i)
-			y[i] += l.Area * PixelMeanVoigt(lo-l.CenterNM, hi-l.CenterNM, sigma, gamma)
-		}
+		addVoigtLine(y, x, l)
 	}
+	finishSynth(y, x, cfg)
+	return y, lines, nil
+}
+
+// addVoigtLine adds line l as a Voigt profile, each pixel's mean over its
+// edges; every pixel gets the Lorentzian wing, so the area is kept.
+func addVoigtLine(y, x []float64, l *SynthLine) {
+	sigma, gamma := voigt.SigmaFromFWHM(l.GaussFWHMNM), voigt.GammaFromFWHM(l.LorentzFWHMNM)
+	for i := range x {
+		lo, hi := pixelEdgesAt(x, i)
+		y[i] += l.Area * PixelMeanVoigt(lo-l.CenterNM, hi-l.CenterNM, sigma, gamma)
+	}
+}
+
+// finishSynth adds the noise (per nm) and turns the densities per nm
+// into counts per pixel.
+func finishSynth(y, x []float64, cfg SynthConfig) {
 	for i := range y {
 		if cfg.Rand != nil && cfg.NoisePerNM > 0 {
 			y[i] += cfg.NoisePerNM * cfg.Rand.NormFloat64()
 		}
 		y[i] *= pixelWidth(x, i)
 	}
-	return y, lines, nil
 }
 
 // pixelEdgesAt returns the edges of pixel i of an ascending axis: the

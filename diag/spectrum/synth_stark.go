@@ -96,18 +96,9 @@ func SynthesizeStark(cfg SynthConfig) ([]float64, []SynthLine, error) {
 		if !errors.Is(err, sh99.ErrOutOfRange) && !errors.Is(err, errNoSH99) {
 			return nil, nil, err
 		}
-		sigma, gamma := voigt.SigmaFromFWHM(l.GaussFWHMNM), voigt.GammaFromFWHM(l.LorentzFWHMNM)
-		for i := range x {
-			lo, hi := pixelEdgesAt(x, i)
-			y[i] += l.Area * PixelMeanVoigt(lo-l.CenterNM, hi-l.CenterNM, sigma, gamma)
-		}
+		addVoigtLine(y, x, l)
 	}
-	for i := range y {
-		if cfg.Rand != nil && cfg.NoisePerNM > 0 {
-			y[i] += cfg.NoisePerNM * cfg.Rand.NormFloat64()
-		}
-		y[i] *= pixelWidth(x, i)
-	}
+	finishSynth(y, x, cfg)
 	return y, lines, nil
 }
 
