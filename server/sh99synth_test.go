@@ -145,6 +145,38 @@ type sh99Stats struct {
 	median   float64 // median |value/truth − 1| over the values (NaN: none)
 	withUnc  int     // values with a reported 1σ
 	in1, in2 int     // truth within 1σ, 2σ
+	errs     []float64
+}
+
+// add counts one spectrum where the quantity is defined: its value v and
+// 1σ u (nil: none reported) against the truth.
+func (s *sh99Stats) add(truth float64, v, u *float64) {
+	s.cases++
+	if v == nil {
+		return
+	}
+	s.numbers++
+	s.errs = append(s.errs, math.Abs(*v/truth-1))
+	if u == nil || !(*u > 0) {
+		return
+	}
+	s.withUnc++
+	d := math.Abs(*v - truth)
+	if d <= *u {
+		s.in1++
+	}
+	if d <= 2**u {
+		s.in2++
+	}
+}
+
+// finish sets the median |value/truth − 1| (NaN without values).
+func (s *sh99Stats) finish() {
+	s.median = math.NaN()
+	if n := len(s.errs); n > 0 {
+		slices.Sort(s.errs)
+		s.median = (s.errs[(n-1)/2] + s.errs[n/2]) / 2
+	}
 }
 
 func (s sh99Stats) frac1() float64 { return float64(s.in1) / float64(s.withUnc) }
@@ -152,7 +184,6 @@ func (s sh99Stats) frac2() float64 { return float64(s.in2) / float64(s.withUnc) 
 
 func sh99Measure(cases []sh99Case, typ string, ne bool) sh99Stats {
 	var s sh99Stats
-	var errs []float64
 	for _, c := range cases {
 		if typ != "" && c.truth.Spectrometer != typ {
 			continue
@@ -164,30 +195,9 @@ func sh99Measure(cases []sh99Case, typ string, ne bool) sh99Stats {
 			}
 			truth, v, u = c.truth.TexcK, c.texc, c.texcUnc
 		}
-		s.cases++
-		if v == nil {
-			continue
-		}
-		s.numbers++
-		errs = append(errs, math.Abs(*v/truth-1))
-		if u == nil || !(*u > 0) {
-			continue
-		}
-		s.withUnc++
-		d := math.Abs(*v - truth)
-		if d <= *u {
-			s.in1++
-		}
-		if d <= 2**u {
-			s.in2++
-		}
+		s.add(truth, v, u)
 	}
-	s.median = math.NaN()
-	if len(errs) > 0 {
-		slices.Sort(errs)
-		n := len(errs)
-		s.median = (errs[(n-1)/2] + errs[n/2]) / 2
-	}
+	s.finish()
 	return s
 }
 

@@ -373,15 +373,9 @@ func (c *wsCase) wholeValue() wsValue {
 
 // wsStats are the figures of one group, route and quantity.
 type wsStats struct {
-	cases    int     // spectra where the quantity is expected
-	numbers  int     // spectra with a value (among cases)
-	extra    int     // values where none is expected (T_exc from < 2 members with signal)
-	median   float64 // median |value/truth − 1| over the values (NaN: none)
-	withUnc  int     // values with a 1σ
-	in1, in2 int     // truth within 1σ, 2σ
+	sh99Stats     // cases: spectra where the quantity is expected
+	extra     int // values where none is expected (T_exc from < 2 members with signal)
 }
-
-func (s wsStats) frac1() float64 { return float64(s.in1) / float64(s.withUnc) }
 
 func wsMeasure(cases []wsCase, group, route string, ne bool) wsStats {
 	return wsMeasureσ(cases, group, route, ne, false)
@@ -391,7 +385,6 @@ func wsMeasure(cases []wsCase, group, route string, ne bool) wsStats {
 // when stat is set.
 func wsMeasureσ(cases []wsCase, group, route string, ne, stat bool) wsStats {
 	var s wsStats
-	var errs []float64
 	for i := range cases {
 		c := &cases[i]
 		if !c.truth.in(group) {
@@ -417,30 +410,9 @@ func wsMeasureσ(cases []wsCase, group, route string, ne, stat bool) wsStats {
 				continue
 			}
 		}
-		s.cases++
-		if x == nil {
-			continue
-		}
-		s.numbers++
-		errs = append(errs, math.Abs(*x/truth-1))
-		if u == nil || !(*u > 0) {
-			continue
-		}
-		s.withUnc++
-		d := math.Abs(*x - truth)
-		if d <= *u {
-			s.in1++
-		}
-		if d <= 2**u {
-			s.in2++
-		}
+		s.add(truth, x, u)
 	}
-	s.median = math.NaN()
-	if len(errs) > 0 {
-		slices.Sort(errs)
-		n := len(errs)
-		s.median = (errs[(n-1)/2] + errs[n/2]) / 2
-	}
+	s.finish()
 	return s
 }
 
@@ -502,26 +474,14 @@ func wsTable(cases []wsCase) string {
 		if g == "" {
 			name = "all"
 		}
-		var n, in1, in2 int
+		var st sh99Stats
 		for i := range cases {
-			c := &cases[i]
-			if !c.truth.in(g) {
-				continue
-			}
-			v := c.wholeValue()
-			if v.ne == nil || v.neUncNoTable == nil || !(*v.neUncNoTable > 0) {
-				continue
-			}
-			n++
-			d := math.Abs(*v.ne - c.truth.NeM3)
-			if d <= *v.neUncNoTable {
-				in1++
-			}
-			if d <= 2**v.neUncNoTable {
-				in2++
+			if c := &cases[i]; c.truth.in(g) {
+				v := c.wholeValue()
+				st.add(c.truth.NeM3, v.ne, v.neUncNoTable)
 			}
 		}
-		fmt.Fprintf(&b, "%-8s whole   n_e %2d/%-2d %2d/%-2d\n", name, in1, n, in2, n)
+		fmt.Fprintf(&b, "%-8s whole   n_e %2d/%-2d %2d/%-2d\n", name, st.in1, st.withUnc, st.in2, st.withUnc)
 	}
 	b.WriteString(wsAreaTable(cases))
 	b.WriteString("\nper spectrum: truth, then lines | whole | scipy (value ± total 1σ)\n")
