@@ -816,7 +816,7 @@ func selectK(v []float64, k int) float64 {
 var (
 	linesRouteDensityFlags = []string{diag.FlagRelationRange, diag.FlagDensityDisagree, diag.FlagModelRange,
 		diag.FlagShapeBound, diag.FlagDensityScatter}
-	linesRouteTexcFlags = []string{diag.FlagPartialLTE, diag.FlagScaledUnc}
+	linesRouteTexcFlags = []string{diag.FlagTooFewLines, diag.FlagPartialLTE, diag.FlagScaledUnc}
 )
 
 // demoteLinesRouteFlags: when the whole-spectrum fit gives the reported
