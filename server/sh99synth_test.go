@@ -91,8 +91,15 @@ var sh99Results = sync.OnceValues(func() ([]sh99Case, error) {
 		// The line-by-line route (its σ is what issue "numbers a physicist
 		// can sign" measured here); the whole route is measured on
 		// testdata/wholesynth (wholesynth_test.go).
+		// GLOWLOG_SH99_MODEL=whole measures the whole route here instead
+		// (the default route for such spectra), for the figures only: the
+		// bounds below are the lines route's.
+		model := "lines"
+		if m := os.Getenv("GLOWLOG_SH99_MODEL"); m != "" {
+			model = m
+		}
 		args := []string{
-			"--model", "lines",
+			"--model", model,
 			"--instrument-fwhm-nm", fmt.Sprint(tr.InstrumentNM),
 			"--gas-temperature-K", fmt.Sprint(tr.GasK),
 			"--gain-e-per-count", fmt.Sprint(tr.Gain),

@@ -132,9 +132,8 @@ type wsValue struct {
 	// statistical anyway).
 	neUncStat, texcUncStat *float64
 	// neUncNoTable is the whole route's total σ of n_e without its "SH99
-	// table accuracy" part (removed in quadrature): this set is made from
-	// those very tables, so that part — the tables' accuracy against real
-	// plasmas — cannot show here, and coverage with it says little.
+	// tables as read" part (removed in quadrature): the reading error
+	// common to all lines, for seeing how much of the coverage it makes.
 	neUncNoTable *float64
 	err          string // analysis error ("" when it ran)
 	internal     bool   // err is not a problem with the data (*spectrum.Error)
@@ -254,7 +253,7 @@ func wsAnalyze(tr wsTruth, model string) (wsValue, error) {
 				pm, _ := p.(map[string]any)
 				name, _ := pm["name"].(string)
 				sg, _ := pm["sigma"].(float64)
-				if strings.HasPrefix(name, "SH99 table accuracy") {
+				if strings.HasPrefix(name, "SH99 tables as read") {
 					tot = math.Sqrt(math.Max(tot*tot-sg*sg, 0))
 				}
 			}
@@ -468,7 +467,7 @@ func wsTable(cases []wsCase) string {
 			fmt.Fprintf(&b, "%-8s %-6s  n_e %2d/%-2d %2d/%-2d   T_exc %2d/%-2d %2d/%-2d\n", name, r, n.in1, n.withUnc, n.in2, n.withUnc, te.in1, te.withUnc, te.in2, te.withUnc)
 		}
 	}
-	b.WriteString("\nwhole route, n_e: coverage of the total σ without its \"SH99 table accuracy\" part (this set is made from those tables): truth within 1σ / 2σ\n")
+	b.WriteString("\nwhole route, n_e: coverage of the total σ without its \"SH99 tables as read\" part (common to all lines): truth within 1σ / 2σ\n")
 	for _, g := range append(slices.Clone(wsGroups), "") {
 		name := g
 		if g == "" {
@@ -681,6 +680,11 @@ func TestWholeSynthTargets(t *testing.T) {
 		if f := s.frac1(); f < 0.60 || f > 0.76 {
 			t.Errorf("%s: truth within the whole route's total 1σ in %d of %d (%.0f %%), want 68 %% ± 8 %%", name, s.in1, s.withUnc, 100*f)
 		}
+		// and within 2σ in at least 93 % (the coverage target of the
+		// issue on honest total uncertainties, for the same numbers).
+		if f := s.frac2(); f < 0.93 {
+			t.Errorf("%s: truth within the whole route's total 2σ in %d of %d (%.0f %%), want ≥ 93 %%", name, s.in2, s.withUnc, 100*f)
+		}
 	}
 }
 
@@ -700,7 +704,7 @@ func TestWholeSynthTableWidths(t *testing.T) {
 	if err != nil || len(files) == 0 {
 		t.Fatalf("no truth files: %v", err)
 	}
-	var worst float64
+	var worst, sum, sum2 float64
 	var diffs []float64
 	n := 0
 	for _, f := range files {
@@ -727,6 +731,8 @@ func TestWholeSynthTableWidths(t *testing.T) {
 			}
 			d := l.TableFWHMNM/w - 1
 			diffs = append(diffs, math.Abs(d))
+			sum += d
+			sum2 += d * d
 			n++
 			if math.Abs(d) > 0.01 {
 				t.Logf("%-18s upper %d n_e %.3g m⁻³ T_e %5.0f K: gen.py %.5f nm, sh99 %.5f nm (%+.2f %%)", tr.Spectrum, l.Upper, tr.NeM3, tr.ElectronK, l.TableFWHMNM, w, 100*d)
@@ -744,7 +750,9 @@ func TestWholeSynthTableWidths(t *testing.T) {
 		t.Fatalf("only %d line widths compared", n)
 	}
 	slices.Sort(diffs)
-	t.Logf("%d widths (Hα … Hδ): median |difference| %.2f %%, largest %+.2f %%", n, 100*diffs[len(diffs)/2], 100*worst)
+	mean := sum / float64(n)
+	t.Logf("%d widths (Hα … Hδ): median |difference| %.2f %%, largest %+.2f %%, mean %+.2f %%, RMS %.2f %%, SD about the mean %.2f %%",
+		n, 100*diffs[len(diffs)/2], 100*worst, 100*mean, 100*math.Sqrt(sum2/float64(n)), 100*math.Sqrt(math.Max(sum2/float64(n)-mean*mean, 0)))
 }
 
 // wsDump writes the table to a file when GLOWLOG_WHOLE_TABLE names one
