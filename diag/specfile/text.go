@@ -51,7 +51,7 @@ func ReadText(name string, r io.Reader, opt TextOptions) (*Spectrum, error) {
 	if err != nil {
 		return nil, err
 	}
-	return parseText(name, data, opt, lim)
+	return parseText(name, data, opt, lim, nil)
 }
 
 // textLine is a line of a file with its number.
@@ -100,10 +100,10 @@ func checkTextOptions(opt TextOptions) {
 // memory first (the same result, more slowly).
 const headLines = 8
 
-func parseText(name string, data []byte, opt TextOptions, lim Limits) (*Spectrum, error) {
+func parseText(name string, data []byte, opt TextOptions, lim Limits, buf *Buffers) (*Spectrum, error) {
 	checkTextOptions(opt)
 	sc := newLineScanner(name, data, lim)
-	sp, err := parseTextLines(sc, opt, lim)
+	sp, err := parseTextLines(sc, opt, lim, buf)
 	if err != nil {
 		// Every line's length is checked before anything else, as a first
 		// pass over the file would: an over-long line after the one at
@@ -128,7 +128,7 @@ func parseText(name string, data []byte, opt TextOptions, lim Limits) (*Spectrum
 // lines up to the first data row that decides the format), then the rest
 // line by line, data rows of the usual two-column form without slicing
 // them into lines first.
-func parseTextLines(sc *lineScanner, opt TextOptions, lim Limits) (*Spectrum, error) {
+func parseTextLines(sc *lineScanner, opt TextOptions, lim Limits, buf *Buffers) (*Spectrum, error) {
 	name := sc.name
 	sp := &Spectrum{Meta: map[string]string{}, Format: FormatText}
 	src := sc.data
@@ -272,8 +272,12 @@ decided:
 	}
 
 	size := min(len(content)+sc.lineCountHint(), lim.MaxPoints)
-	sink.x = make([]float64, 0, size)
-	sink.y = make([]float64, 0, size)
+	if buf != nil && cap(buf.X) >= size && cap(buf.Y) >= size {
+		sink.x, sink.y = buf.X[:0], buf.Y[:0]
+	} else {
+		sink.x = make([]float64, 0, size)
+		sink.y = make([]float64, 0, size)
+	}
 	row := func(l contentLine) error {
 		if x, y, ok := fastRow(l.str(src), byte(delim), byte(dec), ncols, xc, yc); ok {
 			return sink.add(x, y, l.num)
