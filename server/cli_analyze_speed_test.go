@@ -77,8 +77,8 @@ func TestAnalyzeBatchBufferReuse(t *testing.T) {
 	}
 }
 
-// TestAnalyzeBatchRestoresGC: a batch collects garbage less often while it
-// runs, and gives the process its setting back.
+// TestAnalyzeBatchRestoresGC: a batch leaves the collector's setting as
+// it was (it runs with the process's own).
 func TestAnalyzeBatchRestoresGC(t *testing.T) {
 	if os.Getenv("GOGC") != "" {
 		t.Skip("GOGC set: the batch leaves the collector alone")
