@@ -850,40 +850,34 @@ func fieldValue(name string, num int, f string, dec rune, what string) (float64,
 // UnknownUnit unless exactly one unit is indicated.
 func unitFromName(name string) AxisUnit {
 	l := strings.ToLower(name)
-	found := map[AxisUnit]bool{}
+	var found uint // bit u: unit u named
 	for _, p := range []string{"cm-1", "cm^-1", "cm**-1", "cm⁻¹", "1/cm", "wavenumber", "wave number"} {
 		if strings.Contains(l, p) {
-			found[WavenumberPerCM] = true
+			found |= 1 << WavenumberPerCM
 		}
 	}
 	tokens := strings.FieldsFunc(l, func(r rune) bool { return !unicode.IsLetter(r) })
 	for i, t := range tokens {
 		switch t {
 		case "nm", "nanometer", "nanometers", "nanometre", "nanometres":
-			found[NM] = true
+			found |= 1 << NM
 		case "å", "angstrom", "angstroms", "ångström", "ångströms", "ang":
-			found[Angstrom] = true
+			found |= 1 << Angstrom
 		case "a":
 			// "lambda [A]", but not "x (a.u.)".
 			if i > 0 && i == len(tokens)-1 {
-				found[Angstrom] = true
+				found |= 1 << Angstrom
 			}
 		case "um", "µm", "μm", "micrometer", "micrometers", "micrometre", "micrometres", "micron", "microns":
-			found[Micrometer] = true
+			found |= 1 << Micrometer
 		}
 	}
-	if len(found) != 1 {
+	if bits.OnesCount(found) != 1 {
 		return UnknownUnit
 	}
-	for u := range found {
-		return u
-	}
-	return UnknownUnit
+	return AxisUnit(bits.TrailingZeros(found))
 }
 
-// yUnitFromName returns the bracketed part of an intensity column name
-// ("intensity (counts)" → "counts"), or the name itself if it is a unit
-// word such as "counts", else "".
 func yUnitFromName(name string) string {
 	for _, br := range []string{"()", "[]"} {
 		i := strings.IndexByte(name, br[0])

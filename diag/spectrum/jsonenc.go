@@ -110,6 +110,11 @@ func appendJSONFloat(b []byte, f float64) ([]byte, error) {
 		return b, fmt.Errorf("json: unsupported value: %s", strconv.FormatFloat(f, 'g', -1, 64))
 	}
 	abs := math.Abs(f)
+	if abs < 1<<53 && f == math.Trunc(f) && (f != 0 || !math.Signbit(f)) {
+		// An integer (0 included, −0 not): the digits 'f' would write,
+		// without formatting a float.
+		return strconv.AppendInt(b, int64(f), 10), nil
+	}
 	format := byte('f')
 	if abs != 0 && (abs < 1e-6 || abs >= 1e21) {
 		format = 'e'
