@@ -310,6 +310,10 @@ decided:
 	d, pt := byte(delim), byte(dec)
 	for sc.pos < len(src) {
 		if two {
+			plainRows(sc, sink, d, pt, xc != 0)
+			if sc.pos >= len(src) {
+				break
+			}
 			if a, b, end, next, ok := plainPair(src, sc.pos, d, pt); ok && end-sc.pos <= sc.maxLen {
 				x, y := a, b
 				if xc != 0 {
@@ -436,6 +440,45 @@ func headDecided(src string, content []contentLine, opt TextOptions) bool {
 	return false
 }
 
+// plainRows reads the rows of the usual two-column form (plainPair; b
+// before a if swap) from sc's position on, for as long as each continues
+// the sink's known order within its point limit: what the row loop of
+// parseTextLines does with such rows, with its state in locals. It stops
+// before the first row that needs more (not plain, too long, the first
+// point, out of order, over the limit), which that loop then reads.
+func plainRows(sc *lineScanner, sink *pointSink, d, pt byte, swap bool) {
+	xs, ys := sink.x, sink.y
+	n := len(xs)
+	if n == 0 || sink.dir == 0 {
+		return
+	}
+	src := sc.data
+	pos, start, num := sc.pos, sc.start, sc.num
+	last, asc, maxPoints, maxLen := xs[n-1], sink.dir > 0, sink.lim.MaxPoints, sc.maxLen
+	for pos < len(src) && len(xs) < maxPoints {
+		a, b, end, next, ok := plainPair(src, pos, d, pt)
+		if !ok || end-pos > maxLen {
+			break
+		}
+		x, y := a, b
+		if swap {
+			x, y = b, a
+		}
+		if asc && !(x > last) || !asc && !(x < last) {
+			break
+		}
+		xs, ys = append(xs, x), append(ys, y)
+		last = x
+		num++
+		start, pos = pos, next
+	}
+	if num != sc.num {
+		sink.lastLine = num
+	}
+	sc.pos, sc.start, sc.num = pos, start, num
+	sink.x, sink.y = xs, ys
+}
+
 // plainPair reads a line at s[i:] of exactly "a<delim>b" followed by
 // "\n", "\r\n", "\r" at the end of s, or the end of s, where a and b are
 // plain decimals (sign, digits, point; no exponent) of at most 19 digits
@@ -466,38 +509,47 @@ func plainPair(s string, i int, delim, point byte) (a, b float64, end, next int,
 // plainNumber scans a plain decimal for plainPair; ok is false if there
 // is none or it is beyond the fast path.
 func plainNumber(s string, i int, point byte) (v float64, end int, ok bool) {
-	neg := false
-	if i < len(s) && (s[i] == '-' || s[i] == '+') {
-		neg = s[i] == '-'
-		i++
-	}
 	// Up to seven integer and seven fraction digits, eight bytes at a
 	// time (the SWAR method of fast_float: Lemire, "Number parsing at a
 	// gigabyte per second", Software: Practice and Experience 51, 2021).
-	if i+8 <= len(s) {
+	// With room for a sign and two words, one bounds test covers them.
+	if i >= 0 && i+17 <= len(s) {
+		c := s[i]
+		neg := c == '-'
+		if neg || c == '+' {
+			i++
+		}
 		w := load8(s, i)
 		d := digitsIn(w)
 		j := i + d
-		switch {
-		case d == 8:
-		case s[j] == point:
-			if j+9 <= len(s) {
+		if d < 8 {
+			if s[j] == point {
 				w2 := load8(s, j+1)
 				if f := digitsIn(w2); f < 8 && d+f > 0 {
-					v = float64(swarValue(w, d)*pow10u[f]+swarValue(w2, f)) / pow10tab[f]
+					// At most 14 digits: exact in int64 and float64.
+					m := int64(swarValue(w, d)*pow10u[f] + swarValue(w2, f))
+					v = float64(m) / pow10tab[f&7]
 					if neg {
 						v = -v
 					}
 					return v, j + 1 + f, true
 				}
+			} else if d > 0 {
+				v = float64(int64(swarValue(w, d)))
+				if neg {
+					v = -v
+				}
+				return v, j, true
 			}
-		case d > 0:
-			v = float64(swarValue(w, d))
-			if neg {
-				v = -v
-			}
-			return v, j, true
 		}
+		if neg || c == '+' {
+			i--
+		}
+	}
+	neg := false
+	if i < len(s) && (s[i] == '-' || s[i] == '+') {
+		neg = s[i] == '-'
+		i++
 	}
 	mant, nd, frac, i := decimalDigits(s, i, point)
 	if nd == 0 || nd > 19 || mant > 1<<53 || frac > 22 {
