@@ -442,10 +442,11 @@ func headDecided(src string, content []contentLine, opt TextOptions) bool {
 
 // plainRows reads the rows of the usual two-column form (plainPair; b
 // before a if swap) from sc's position on, for as long as each continues
-// the sink's known order within its point limit: what the row loop of
-// parseTextLines does with such rows, with its state in locals. It stops
-// before the first row that needs more (not plain, too long, the first
-// point, out of order, over the limit), which that loop then reads.
+// the sink's known order within its point limit and its arrays' capacity:
+// what the row loop of parseTextLines does with such rows, with its state
+// in locals and the arrays written in place. It stops before the first
+// row that needs more (not plain, too long, the first point, out of
+// order, over the limit), which that loop then reads.
 func plainRows(sc *lineScanner, sink *pointSink, d, pt byte, swap bool) {
 	xs, ys := sink.x, sink.y
 	n := len(xs)
@@ -454,11 +455,29 @@ func plainRows(sc *lineScanner, sink *pointSink, d, pt byte, swap bool) {
 	}
 	src := sc.data
 	pos, start, num := sc.pos, sc.start, sc.num
-	last, asc, maxPoints, maxLen := xs[n-1], sink.dir > 0, sink.lim.MaxPoints, sc.maxLen
-	for pos < len(src) && len(xs) < maxPoints {
-		a, b, end, next, ok := plainPair(src, pos, d, pt)
-		if !ok || end-pos > maxLen {
+	last, asc, maxLen := xs[n-1], sink.dir > 0, sc.maxLen
+	limit := min(sink.lim.MaxPoints, cap(xs), cap(ys))
+	xs, ys = xs[:limit], ys[:limit]
+rows:
+	for n < limit && pos < len(src) {
+		a, i := plainNum(src, pos, pt)
+		if i < 0 || i >= len(src) || src[i] != d {
 			break
+		}
+		b, j := plainNum(src, i+1, pt)
+		if j < 0 || j-pos > maxLen {
+			break
+		}
+		next := j
+		if j < len(src) {
+			switch c := src[j]; {
+			case c == '\n':
+				next = j + 1
+			case c == '\r' && (j+1 == len(src) || src[j+1] == '\n'):
+				next = min(j+2, len(src))
+			default:
+				break rows
+			}
 		}
 		x, y := a, b
 		if swap {
@@ -467,7 +486,8 @@ func plainRows(sc *lineScanner, sink *pointSink, d, pt byte, swap bool) {
 		if asc && !(x > last) || !asc && !(x < last) {
 			break
 		}
-		xs, ys = append(xs, x), append(ys, y)
+		xs[n], ys[n] = x, y
+		n++
 		last = x
 		num++
 		start, pos = pos, next
@@ -476,7 +496,7 @@ func plainRows(sc *lineScanner, sink *pointSink, d, pt byte, swap bool) {
 		sink.lastLine = num
 	}
 	sc.pos, sc.start, sc.num = pos, start, num
-	sink.x, sink.y = xs, ys
+	sink.x, sink.y = xs[:n], ys[:n]
 }
 
 // plainPair reads a line at s[i:] of exactly "a<delim>b" followed by
@@ -509,6 +529,15 @@ func plainPair(s string, i int, delim, point byte) (a, b float64, end, next int,
 // plainNumber scans a plain decimal for plainPair; ok is false if there
 // is none or it is beyond the fast path.
 func plainNumber(s string, i int, point byte) (v float64, end int, ok bool) {
+	v, end = plainNum(s, i, point)
+	if end < 0 {
+		return 0, 0, false
+	}
+	return v, end, true
+}
+
+// plainNum is plainNumber with end −1 for no number.
+func plainNum(s string, i int, point byte) (v float64, end int) {
 	// Up to seven integer and seven fraction digits, eight bytes at a
 	// time (the SWAR method of fast_float: Lemire, "Number parsing at a
 	// gigabyte per second", Software: Practice and Experience 51, 2021).
@@ -532,14 +561,14 @@ func plainNumber(s string, i int, point byte) (v float64, end int, ok bool) {
 					if neg {
 						v = -v
 					}
-					return v, j + 1 + f, true
+					return v, j + 1 + f
 				}
 			} else if d > 0 {
 				v = float64(int64(swarValue(w, d)))
 				if neg {
 					v = -v
 				}
-				return v, j, true
+				return v, j
 			}
 		}
 		if neg || c == '+' {
@@ -553,13 +582,13 @@ func plainNumber(s string, i int, point byte) (v float64, end int, ok bool) {
 	}
 	mant, nd, frac, i := decimalDigits(s, i, point)
 	if nd == 0 || nd > 19 || mant > 1<<53 || frac > 22 {
-		return 0, i, false
+		return 0, -1
 	}
 	v = float64(mant) / pow10tab[frac]
 	if neg {
 		v = -v
 	}
-	return v, i, true
+	return v, i
 }
 
 // load8 returns s[i:i+8] as a little-endian word.
