@@ -212,12 +212,21 @@ func AnalyzeCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) in
 	// Messages for standard error wait until the progress line is done,
 	// as they did when every file was analysed before the first record.
 	var msgs bytes.Buffer
+	var waitOnce sync.Once
+	wait := func() { waitOnce.Do(func() { wg.Wait(); prog.finish() }) }
 	defer func() {
 		close(stop)
-		wg.Wait()
-		prog.finish()
-		stderr.Write(msgs.Bytes())
+		wait()
+		if msgs.Len() > 0 {
+			stderr.Write(msgs.Bytes())
+		}
 	}()
+	if prog != nil {
+		// A progress line (on a terminal, where the records may go too):
+		// the records follow it as one block rather than interleave with
+		// its updates.
+		wait()
+	}
 
 	// Every file gets exactly one record, in the order given: its result,
 	// or an error record in its place. Exit status: 0 when every file was

@@ -7,7 +7,9 @@ import (
 	"path/filepath"
 	"runtime"
 	"runtime/debug"
+	"slices"
 	"strings"
+	"sync"
 	"testing"
 	"time"
 )
@@ -139,5 +141,38 @@ func TestAnalyzeBatchStreams(t *testing.T) {
 	}
 	if n := runtime.NumGoroutine(); n > before {
 		t.Errorf("%d goroutines after the batch, %d before", n, before)
+	}
+}
+
+// orderLog records which of two writers was written, in order.
+type orderLog struct {
+	mu  sync.Mutex
+	seq []string
+}
+
+type loggedWriter struct {
+	log  *orderLog
+	name string
+}
+
+func (w loggedWriter) Write(p []byte) (int, error) {
+	w.log.mu.Lock()
+	defer w.log.mu.Unlock()
+	w.log.seq = append(w.log.seq, w.name)
+	return len(p), nil
+}
+
+// TestAnalyzeProgressBeforeRecords: with a progress line, the records are
+// written after it has finished (as one block, not between its updates).
+func TestAnalyzeProgressBeforeRecords(t *testing.T) {
+	f := filepath.Join(spectraDir, "scipy_hbeta_window_snr100.csv")
+	var log orderLog
+	args := []string{"--progress", "always", f, f, f, f}
+	if code := AnalyzeCommand(args, nil, loggedWriter{&log, "out"}, loggedWriter{&log, "err"}); code != ExitOK {
+		t.Fatalf("exit %d", code)
+	}
+	first := slices.Index(log.seq, "out")
+	if first < 0 || slices.Contains(log.seq[first:], "err") || !slices.Contains(log.seq[:first], "err") {
+		t.Errorf("writes %v: want the progress line's, then the records'", log.seq)
 	}
 }
