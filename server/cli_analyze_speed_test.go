@@ -2,11 +2,16 @@ package server
 
 import (
 	"bytes"
+	"errors"
 	"os"
 	"path/filepath"
+	"runtime"
 	"runtime/debug"
+	"slices"
 	"strings"
+	"sync"
 	"testing"
+	"time"
 )
 
 // TestReadLimitedIntoReuses: a file that fits is read into the buffer
@@ -74,8 +79,8 @@ func TestAnalyzeBatchBufferReuse(t *testing.T) {
 	}
 }
 
-// TestAnalyzeBatchRestoresGC: a batch collects garbage less often while it
-// runs, and gives the process its setting back.
+// TestAnalyzeBatchRestoresGC: a batch leaves the collector's setting as
+// it was (it runs with the process's own).
 func TestAnalyzeBatchRestoresGC(t *testing.T) {
 	if os.Getenv("GOGC") != "" {
 		t.Skip("GOGC set: the batch leaves the collector alone")
@@ -89,5 +94,85 @@ func TestAnalyzeBatchRestoresGC(t *testing.T) {
 	}
 	if now := debug.SetGCPercent(123); now != 123 {
 		t.Errorf("GC percent after a batch = %d, want 123 as before", now)
+	}
+}
+
+// failingWriter accepts n writes, then fails.
+type failingWriter struct {
+	n      int
+	writes int
+}
+
+func (w *failingWriter) Write(p []byte) (int, error) {
+	w.writes++
+	if w.writes > w.n {
+		return 0, errors.New("disk full")
+	}
+	return len(p), nil
+}
+
+// TestAnalyzeBatchStreams: records are written as the files are done, in
+// order; a failed write ends the batch with status 1 and its message
+// after the others, and leaves no worker behind.
+func TestAnalyzeBatchStreams(t *testing.T) {
+	f := filepath.Join(spectraDir, "scipy_bench_2048.csv")
+	files := make([]string, 40)
+	for i := range files {
+		files[i] = f
+	}
+	args := append([]string{"--instrument-fwhm-nm", "0.35", "--gas-temperature-K", "1000", "--max-upper", "6", "--model", "lines", "missing.csv"}, files...)
+	before := runtime.NumGoroutine()
+	w := &failingWriter{n: 2}
+	var errb bytes.Buffer
+	if code := AnalyzeCommand(args, nil, w, &errb); code != ExitError {
+		t.Fatalf("exit %d, want 1 (write failed): %s", code, errb.String())
+	}
+	if w.writes != 3 {
+		t.Errorf("%d writes, want 3 (two records, then the failed one ends the batch)", w.writes)
+	}
+	msgs := strings.Split(strings.TrimSpace(errb.String()), "\n")
+	if len(msgs) != 2 || !strings.Contains(msgs[0], "missing.csv") || !strings.Contains(msgs[1], "writing output: disk full") {
+		t.Errorf("stderr %q: want the missing file's message, then the write failure", errb.String())
+	}
+	// The workers stop after their current file.
+	deadline := time.Now().Add(5 * time.Second)
+	for runtime.NumGoroutine() > before && time.Now().Before(deadline) {
+		time.Sleep(10 * time.Millisecond)
+	}
+	if n := runtime.NumGoroutine(); n > before {
+		t.Errorf("%d goroutines after the batch, %d before", n, before)
+	}
+}
+
+// orderLog records which of two writers was written, in order.
+type orderLog struct {
+	mu  sync.Mutex
+	seq []string
+}
+
+type loggedWriter struct {
+	log  *orderLog
+	name string
+}
+
+func (w loggedWriter) Write(p []byte) (int, error) {
+	w.log.mu.Lock()
+	defer w.log.mu.Unlock()
+	w.log.seq = append(w.log.seq, w.name)
+	return len(p), nil
+}
+
+// TestAnalyzeProgressBeforeRecords: with a progress line, the records are
+// written after it has finished (as one block, not between its updates).
+func TestAnalyzeProgressBeforeRecords(t *testing.T) {
+	f := filepath.Join(spectraDir, "scipy_hbeta_window_snr100.csv")
+	var log orderLog
+	args := []string{"--progress", "always", f, f, f, f}
+	if code := AnalyzeCommand(args, nil, loggedWriter{&log, "out"}, loggedWriter{&log, "err"}); code != ExitOK {
+		t.Fatalf("exit %d", code)
+	}
+	first := slices.Index(log.seq, "out")
+	if first < 0 || slices.Contains(log.seq[first:], "err") || !slices.Contains(log.seq[:first], "err") {
+		t.Errorf("writes %v: want the progress line's, then the records'", log.seq)
 	}
 }

@@ -202,9 +202,7 @@ func wsAnalyze(tr wsTruth, model string) (wsValue, error) {
 		return wsValue{}, err
 	}
 	c.opt.Model = model
-	p := spectrum.NewPipeline(8192)
-	var buf []byte
-	r, err := c.analyzeOne(p, &buf, filepath.Join(wholeSynthDir, tr.Spectrum), nil)
+	r, err := c.analyzeOne(newAnalyzeWorker(), filepath.Join(wholeSynthDir, tr.Spectrum), nil)
 	if err != nil {
 		var se *spectrum.Error
 		return wsValue{err: err.Error(), internal: !errors.As(err, &se)}, nil

@@ -27,6 +27,10 @@
 //	}
 //	wl, y, err := sp.WavelengthNM() // ascending nm, whatever the file's unit
 //
+// [ReadBytes] reads a file already in memory without copying it, and can
+// reuse the point arrays of the previous spectrum ([Buffers]): for
+// programs that read many files in turn.
+//
 // # Guarantees
 //
 // A returned Spectrum has len(X) == len(Y) >= Limits.MinPoints, only

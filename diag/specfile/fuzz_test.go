@@ -3,10 +3,12 @@ package specfile
 import (
 	"bytes"
 	"errors"
+	"maps"
 	"math"
 	"os"
 	"path/filepath"
 	"slices"
+	"strings"
 	"testing"
 )
 
@@ -197,5 +199,54 @@ func FuzzRead(f *testing.F) {
 		if err == nil && (sp.Format != format || !slices.Equal(sp.X, sp2.X) || !slices.Equal(sp.Y, sp2.Y)) {
 			t.Fatalf("auto-detected read differs from %v read", format)
 		}
+		// ReadBytes, in place and into lent arrays holding an earlier
+		// spectrum, gives what Read gives.
+		checkReadBytes(t, data, Options{Limits: lim}, sp, err)
 	})
+}
+
+// checkReadBytes asserts that ReadBytes of data gives want and wantErr
+// (Read's outcome), with and without lent buffers that hold stale values,
+// and that nothing of the spectrum or error refers to data afterwards.
+func checkReadBytes(t *testing.T, data []byte, opt Options, want *Spectrum, wantErr error) {
+	t.Helper()
+	stale := &Buffers{X: make([]float64, 0, 4096), Y: make([]float64, 0, 4096)}
+	for range 4096 {
+		stale.X, stale.Y = append(stale.X, -1), append(stale.Y, math.NaN())
+	}
+	for _, buf := range []*Buffers{nil, {}, stale} {
+		in := bytes.Clone(data)
+		sp, err := ReadBytes("fuzz", in, opt, buf)
+		if (err == nil) != (wantErr == nil) || err != nil && err.Error() != wantErr.Error() {
+			t.Fatalf("Read: %v; ReadBytes: %v", wantErr, err)
+		}
+		var msg string
+		if err != nil {
+			msg = err.Error()
+		}
+		var meta map[string]string
+		var title, yUnit string
+		if sp != nil {
+			meta, title, yUnit = maps.Clone(sp.Meta), strings.Clone(sp.Title), strings.Clone(sp.YUnit)
+		}
+		for i := range in {
+			in[i] = 'Z'
+		}
+		if err != nil {
+			if err.Error() != msg {
+				t.Fatalf("the error changed with its input's memory: %q, now %q", msg, err.Error())
+			}
+			continue
+		}
+		if sp.Format != want.Format || sp.XUnit != want.XUnit || sp.YUnit != want.YUnit || sp.Title != want.Title ||
+			!maps.Equal(sp.Meta, want.Meta) || !slices.Equal(sp.X, want.X) || !slices.Equal(sp.Y, want.Y) {
+			t.Fatalf("ReadBytes read %+v, Read %+v", sp, want)
+		}
+		if !maps.Equal(sp.Meta, meta) || sp.Title != title || sp.YUnit != yUnit {
+			t.Fatal("the spectrum's strings changed with its input's memory")
+		}
+		if buf != nil && sp.Format == FormatText && (&buf.X[:1][0] != &sp.X[0] || &buf.Y[:1][0] != &sp.Y[0]) {
+			t.Fatal("ReadBytes did not leave the spectrum's arrays in the buffers")
+		}
+	}
 }

@@ -66,11 +66,68 @@ func Read(name string, r io.Reader, opt Options) (*Spectrum, error) {
 	if err != nil {
 		return nil, err
 	}
+	return parse(name, data, f, opt.Text, lim, nil)
+}
+
+func parse(name string, data []byte, f Format, topt TextOptions, lim Limits, buf *Buffers) (*Spectrum, error) {
 	if f == FormatAuto {
 		f = Detect(name, data[:min(len(data), 4096)])
 	}
 	if f == FormatJCAMP {
 		return parseJCAMP(name, data, lim)
 	}
-	return parseText(name, data, opt.Text, lim)
+	return parseText(name, data, topt, lim, buf)
+}
+
+// Buffers lends [ReadBytes] the point arrays of a spectrum read before,
+// so that a program reading file after file does not allocate them anew.
+type Buffers struct {
+	X, Y []float64
+}
+
+// ReadBytes is [Read] of a file already in memory, without copying it:
+// the same spectrum, limits and errors (a file longer than
+// opt.Limits.MaxBytes is refused as Read refuses it). data must not change
+// while ReadBytes runs; the spectrum and the error refer to none of its
+// memory afterwards (their strings are copies).
+//
+// With buf non-nil, a text file's X and Y are read into buf's arrays when
+// they are large enough (and buf then holds the arrays the spectrum uses,
+// grown or not, for the next call): the spectrum's X and Y are valid
+// until buf is passed to ReadBytes again. JCAMP-DX files do not use buf.
+func ReadBytes(name string, data []byte, opt Options, buf *Buffers) (*Spectrum, error) {
+	lim := opt.Limits.withDefaults()
+	f := opt.Format
+	switch f {
+	case FormatAuto, FormatText, FormatJCAMP:
+	default:
+		panic("specfile: ReadBytes: invalid Options.Format " + f.String())
+	}
+	if f == FormatText {
+		checkTextOptions(opt.Text)
+	}
+	if int64(len(data)) > lim.MaxBytes {
+		line := 1 + bytes.Count(data[:lim.MaxBytes], []byte{'\n'})
+		return nil, errf(name, line, ErrFileTooLarge, "file exceeds %d bytes", lim.MaxBytes)
+	}
+	sp, err := parse(name, data, f, opt.Text, lim, buf)
+	if err != nil {
+		if pe, ok := err.(*ParseError); ok {
+			pe.Msg = strings.Clone(pe.Msg)
+		}
+		return nil, err
+	}
+	// Off data's memory: the scanner's strings are substrings of it.
+	sp.YUnit, sp.Title = strings.Clone(sp.YUnit), strings.Clone(sp.Title)
+	if len(sp.Meta) > 0 {
+		m := make(map[string]string, len(sp.Meta))
+		for k, v := range sp.Meta {
+			m[strings.Clone(k)] = strings.Clone(v)
+		}
+		sp.Meta = m
+	}
+	if buf != nil && sp.Format == FormatText {
+		buf.X, buf.Y = sp.X, sp.Y
+	}
+	return sp, nil
 }

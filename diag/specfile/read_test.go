@@ -4,6 +4,9 @@ import (
 	"bytes"
 	"errors"
 	"math"
+	"os"
+	"path/filepath"
+	"runtime"
 	"slices"
 	"testing"
 )
@@ -231,3 +234,75 @@ func TestStrings(t *testing.T) {
 }
 
 type fmtStringer interface{ String() string }
+
+// TestReadBytes: ReadBytes gives Read's spectrum or error for every
+// sample file and for errors of each kind (limits included), reuses lent
+// arrays, and keeps nothing of the input's memory.
+func TestReadBytes(t *testing.T) {
+	files, err := filepath.Glob(filepath.Join("testdata", "*.*"))
+	if err != nil || len(files) == 0 {
+		t.Fatal("no sample files", err)
+	}
+	type tc struct {
+		name string
+		data []byte
+		opt  Options
+	}
+	var cases []tc
+	for _, f := range files {
+		b, err := os.ReadFile(f)
+		if err != nil {
+			t.Fatal(err)
+		}
+		cases = append(cases, tc{f, b, Options{}}, tc{f + " (small limits)", b, Options{Limits: Limits{MaxBytes: 300, MaxPoints: 20, MaxLineLen: 40}}})
+	}
+	for _, tt := range textErrorTests {
+		cases = append(cases, tc{"text error " + tt.in, []byte(tt.in), Options{Format: FormatText}})
+	}
+	for _, tt := range textOKTests {
+		cases = append(cases, tc{"text " + tt.in, []byte(tt.in), Options{Format: FormatText}})
+	}
+	kinds := map[bool]int{}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			want, wantErr := Read("fuzz", bytes.NewReader(c.data), c.opt)
+			kinds[wantErr == nil]++
+			checkReadBytes(t, c.data, c.opt, want, wantErr)
+		})
+	}
+	if kinds[true] == 0 || kinds[false] == 0 {
+		t.Fatalf("cases: %d read, %d refused; want both", kinds[true], kinds[false])
+	}
+
+	// Arrays lent and large enough are used, file after file.
+	b, err := os.ReadFile(filepath.Join("testdata", "bench_2048.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var buf Buffers
+	first, err := ReadBytes("a.csv", b, Options{}, &buf)
+	if err != nil {
+		t.Fatal(err)
+	}
+	x0 := &first.X[0]
+	second, err := ReadBytes("b.csv", b, Options{}, &buf)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if &second.X[0] != x0 || &buf.X[0] != x0 {
+		t.Error("the second read did not reuse the lent arrays")
+	}
+	// The arrays (2 × 16 KB here) are not allocated again: a few small
+	// allocations (the spectrum, its Meta, the head's lines) remain.
+	var m0, m1 runtime.MemStats
+	runtime.ReadMemStats(&m0)
+	for range 10 {
+		if _, err := ReadBytes("b.csv", b, Options{}, &buf); err != nil {
+			t.Fatal(err)
+		}
+	}
+	runtime.ReadMemStats(&m1)
+	if per := (m1.TotalAlloc - m0.TotalAlloc) / 10; per > 8<<10 {
+		t.Errorf("ReadBytes with lent arrays allocates %d bytes per file, want < 8 KB", per)
+	}
+}

@@ -198,7 +198,7 @@ func parseTextReference(name string, data []byte, opt TextOptions, lim Limits) (
 func checkMatchesReference(t *testing.T, data []byte, opt TextOptions, lim Limits) {
 	t.Helper()
 	lim = lim.withDefaults()
-	got, err := parseText("f.csv", bytes.Clone(data), opt, lim)
+	got, err := parseText("f.csv", bytes.Clone(data), opt, lim, nil)
 	want, werr := parseTextReference("f.csv", bytes.Clone(data), opt, lim)
 	if (err == nil) != (werr == nil) || err != nil && err.Error() != werr.Error() {
 		t.Fatalf("%q %+v: error %v, reference %v", data, opt, err, werr)

@@ -51,7 +51,7 @@ func ReadText(name string, r io.Reader, opt TextOptions) (*Spectrum, error) {
 	if err != nil {
 		return nil, err
 	}
-	return parseText(name, data, opt, lim)
+	return parseText(name, data, opt, lim, nil)
 }
 
 // textLine is a line of a file with its number.
@@ -100,10 +100,10 @@ func checkTextOptions(opt TextOptions) {
 // memory first (the same result, more slowly).
 const headLines = 8
 
-func parseText(name string, data []byte, opt TextOptions, lim Limits) (*Spectrum, error) {
+func parseText(name string, data []byte, opt TextOptions, lim Limits, buf *Buffers) (*Spectrum, error) {
 	checkTextOptions(opt)
 	sc := newLineScanner(name, data, lim)
-	sp, err := parseTextLines(sc, opt, lim)
+	sp, err := parseTextLines(sc, opt, lim, buf)
 	if err != nil {
 		// Every line's length is checked before anything else, as a first
 		// pass over the file would: an over-long line after the one at
@@ -128,7 +128,7 @@ func parseText(name string, data []byte, opt TextOptions, lim Limits) (*Spectrum
 // lines up to the first data row that decides the format), then the rest
 // line by line, data rows of the usual two-column form without slicing
 // them into lines first.
-func parseTextLines(sc *lineScanner, opt TextOptions, lim Limits) (*Spectrum, error) {
+func parseTextLines(sc *lineScanner, opt TextOptions, lim Limits, buf *Buffers) (*Spectrum, error) {
 	name := sc.name
 	sp := &Spectrum{Meta: map[string]string{}, Format: FormatText}
 	src := sc.data
@@ -272,8 +272,12 @@ decided:
 	}
 
 	size := min(len(content)+sc.lineCountHint(), lim.MaxPoints)
-	sink.x = make([]float64, 0, size)
-	sink.y = make([]float64, 0, size)
+	if buf != nil && cap(buf.X) >= size && cap(buf.Y) >= size {
+		sink.x, sink.y = buf.X[:0], buf.Y[:0]
+	} else {
+		sink.x = make([]float64, 0, size)
+		sink.y = make([]float64, 0, size)
+	}
 	row := func(l contentLine) error {
 		if x, y, ok := fastRow(l.str(src), byte(delim), byte(dec), ncols, xc, yc); ok {
 			return sink.add(x, y, l.num)
@@ -306,6 +310,10 @@ decided:
 	d, pt := byte(delim), byte(dec)
 	for sc.pos < len(src) {
 		if two {
+			plainRows(sc, sink, d, pt, xc != 0)
+			if sc.pos >= len(src) {
+				break
+			}
 			if a, b, end, next, ok := plainPair(src, sc.pos, d, pt); ok && end-sc.pos <= sc.maxLen {
 				x, y := a, b
 				if xc != 0 {
@@ -432,6 +440,65 @@ func headDecided(src string, content []contentLine, opt TextOptions) bool {
 	return false
 }
 
+// plainRows reads the rows of the usual two-column form (plainPair; b
+// before a if swap) from sc's position on, for as long as each continues
+// the sink's known order within its point limit and its arrays' capacity:
+// what the row loop of parseTextLines does with such rows, with its state
+// in locals and the arrays written in place. It stops before the first
+// row that needs more (not plain, too long, the first point, out of
+// order, over the limit), which that loop then reads.
+func plainRows(sc *lineScanner, sink *pointSink, d, pt byte, swap bool) {
+	xs, ys := sink.x, sink.y
+	n := len(xs)
+	if n == 0 || sink.dir == 0 {
+		return
+	}
+	src := sc.data
+	pos, start, num := sc.pos, sc.start, sc.num
+	last, asc, maxLen := xs[n-1], sink.dir > 0, sc.maxLen
+	limit := min(sink.lim.MaxPoints, cap(xs), cap(ys))
+	xs, ys = xs[:limit], ys[:limit]
+rows:
+	for n < limit && pos < len(src) {
+		a, i := plainNum(src, pos, pt)
+		if i < 0 || i >= len(src) || src[i] != d {
+			break
+		}
+		b, j := plainNum(src, i+1, pt)
+		if j < 0 || j-pos > maxLen {
+			break
+		}
+		next := j
+		if j < len(src) {
+			switch c := src[j]; {
+			case c == '\n':
+				next = j + 1
+			case c == '\r' && (j+1 == len(src) || src[j+1] == '\n'):
+				next = min(j+2, len(src))
+			default:
+				break rows
+			}
+		}
+		x, y := a, b
+		if swap {
+			x, y = b, a
+		}
+		if asc && !(x > last) || !asc && !(x < last) {
+			break
+		}
+		xs[n], ys[n] = x, y
+		n++
+		last = x
+		num++
+		start, pos = pos, next
+	}
+	if num != sc.num {
+		sink.lastLine = num
+	}
+	sc.pos, sc.start, sc.num = pos, start, num
+	sink.x, sink.y = xs[:n], ys[:n]
+}
+
 // plainPair reads a line at s[i:] of exactly "a<delim>b" followed by
 // "\n", "\r\n", "\r" at the end of s, or the end of s, where a and b are
 // plain decimals (sign, digits, point; no exponent) of at most 19 digits
@@ -462,48 +529,66 @@ func plainPair(s string, i int, delim, point byte) (a, b float64, end, next int,
 // plainNumber scans a plain decimal for plainPair; ok is false if there
 // is none or it is beyond the fast path.
 func plainNumber(s string, i int, point byte) (v float64, end int, ok bool) {
+	v, end = plainNum(s, i, point)
+	if end < 0 {
+		return 0, 0, false
+	}
+	return v, end, true
+}
+
+// plainNum is plainNumber with end −1 for no number.
+func plainNum(s string, i int, point byte) (v float64, end int) {
+	// Up to seven integer and seven fraction digits, eight bytes at a
+	// time (the SWAR method of fast_float: Lemire, "Number parsing at a
+	// gigabyte per second", Software: Practice and Experience 51, 2021).
+	// With room for a sign and two words, one bounds test covers them.
+	if i >= 0 && i+17 <= len(s) {
+		c := s[i]
+		neg := c == '-'
+		if neg || c == '+' {
+			i++
+		}
+		w := load8(s, i)
+		d := digitsIn(w)
+		j := i + d
+		if d < 8 {
+			if s[j] == point {
+				w2 := load8(s, j+1)
+				if f := digitsIn(w2); f < 8 && d+f > 0 {
+					// At most 14 digits: exact in int64 and float64.
+					m := int64(swarValue(w, d)*pow10u[f] + swarValue(w2, f))
+					v = float64(m) / pow10tab[f&7]
+					if neg {
+						v = -v
+					}
+					return v, j + 1 + f
+				}
+			} else if d > 0 {
+				v = float64(int64(swarValue(w, d)))
+				if neg {
+					v = -v
+				}
+				return v, j
+			}
+		}
+		if neg || c == '+' {
+			i--
+		}
+	}
 	neg := false
 	if i < len(s) && (s[i] == '-' || s[i] == '+') {
 		neg = s[i] == '-'
 		i++
 	}
-	// Up to seven integer and seven fraction digits, eight bytes at a
-	// time (the SWAR method of fast_float: Lemire, "Number parsing at a
-	// gigabyte per second", Software: Practice and Experience 51, 2021).
-	if i+8 <= len(s) {
-		w := load8(s, i)
-		d := digitsIn(w)
-		j := i + d
-		switch {
-		case d == 8:
-		case s[j] == point:
-			if j+9 <= len(s) {
-				w2 := load8(s, j+1)
-				if f := digitsIn(w2); f < 8 && d+f > 0 {
-					v = float64(swarValue(w, d)*pow10u[f]+swarValue(w2, f)) / pow10tab[f]
-					if neg {
-						v = -v
-					}
-					return v, j + 1 + f, true
-				}
-			}
-		case d > 0:
-			v = float64(swarValue(w, d))
-			if neg {
-				v = -v
-			}
-			return v, j, true
-		}
-	}
 	mant, nd, frac, i := decimalDigits(s, i, point)
 	if nd == 0 || nd > 19 || mant > 1<<53 || frac > 22 {
-		return 0, i, false
+		return 0, -1
 	}
 	v = float64(mant) / pow10tab[frac]
 	if neg {
 		v = -v
 	}
-	return v, i, true
+	return v, i
 }
 
 // load8 returns s[i:i+8] as a little-endian word.
@@ -846,40 +931,34 @@ func fieldValue(name string, num int, f string, dec rune, what string) (float64,
 // UnknownUnit unless exactly one unit is indicated.
 func unitFromName(name string) AxisUnit {
 	l := strings.ToLower(name)
-	found := map[AxisUnit]bool{}
+	var found uint // bit u: unit u named
 	for _, p := range []string{"cm-1", "cm^-1", "cm**-1", "cm⁻¹", "1/cm", "wavenumber", "wave number"} {
 		if strings.Contains(l, p) {
-			found[WavenumberPerCM] = true
+			found |= 1 << WavenumberPerCM
 		}
 	}
 	tokens := strings.FieldsFunc(l, func(r rune) bool { return !unicode.IsLetter(r) })
 	for i, t := range tokens {
 		switch t {
 		case "nm", "nanometer", "nanometers", "nanometre", "nanometres":
-			found[NM] = true
+			found |= 1 << NM
 		case "å", "angstrom", "angstroms", "ångström", "ångströms", "ang":
-			found[Angstrom] = true
+			found |= 1 << Angstrom
 		case "a":
 			// "lambda [A]", but not "x (a.u.)".
 			if i > 0 && i == len(tokens)-1 {
-				found[Angstrom] = true
+				found |= 1 << Angstrom
 			}
 		case "um", "µm", "μm", "micrometer", "micrometers", "micrometre", "micrometres", "micron", "microns":
-			found[Micrometer] = true
+			found |= 1 << Micrometer
 		}
 	}
-	if len(found) != 1 {
+	if bits.OnesCount(found) != 1 {
 		return UnknownUnit
 	}
-	for u := range found {
-		return u
-	}
-	return UnknownUnit
+	return AxisUnit(bits.TrailingZeros(found))
 }
 
-// yUnitFromName returns the bracketed part of an intensity column name
-// ("intensity (counts)" → "counts"), or the name itself if it is a unit
-// word such as "counts", else "".
 func yUnitFromName(name string) string {
 	for _, br := range []string{"()", "[]"} {
 		i := strings.IndexByte(name, br[0])

@@ -44,8 +44,9 @@ func appendJSONString(dst []byte, src string) []byte {
 		// backslash or byte ≥ 0x80; the zero-byte test of Hacker's Delight
 		// §6-1 on the word).
 		for i+8 <= len(src) {
-			w := uint64(src[i]) | uint64(src[i+1])<<8 | uint64(src[i+2])<<16 | uint64(src[i+3])<<24 |
-				uint64(src[i+4])<<32 | uint64(src[i+5])<<40 | uint64(src[i+6])<<48 | uint64(src[i+7])<<56
+			b := src[i : i+8] // one bounds test: the compiler makes one load
+			w := uint64(b[0]) | uint64(b[1])<<8 | uint64(b[2])<<16 | uint64(b[3])<<24 |
+				uint64(b[4])<<32 | uint64(b[5])<<40 | uint64(b[6])<<48 | uint64(b[7])<<56
 			const lo, hi = 0x0101010101010101, 0x8080808080808080
 			q, bs := w^(0x22*lo), w^(0x5C*lo)
 			if ((w-0x20*lo)|(q-lo)|(bs-lo)|w)&hi != 0 {
@@ -110,6 +111,11 @@ func appendJSONFloat(b []byte, f float64) ([]byte, error) {
 		return b, fmt.Errorf("json: unsupported value: %s", strconv.FormatFloat(f, 'g', -1, 64))
 	}
 	abs := math.Abs(f)
+	if abs < 1<<53 && f == math.Trunc(f) && (f != 0 || !math.Signbit(f)) {
+		// An integer (0 included, −0 not): the digits 'f' would write,
+		// without formatting a float.
+		return strconv.AppendInt(b, int64(f), 10), nil
+	}
 	format := byte('f')
 	if abs != 0 && (abs < 1e-6 || abs >= 1e21) {
 		format = 'e'

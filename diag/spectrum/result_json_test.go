@@ -461,3 +461,30 @@ func BenchmarkEncodingJSON(b *testing.B) {
 		}
 	}
 }
+
+// TestAppendJSONFloatMatches: appendJSONFloat writes encoding/json's
+// bytes for integers (its fast path), −0, the 'e' range edges and
+// random values of every magnitude.
+func TestAppendJSONFloatMatches(t *testing.T) {
+	vals := []float64{0, math.Copysign(0, -1), 1, -1, 2, 7, -42, 1e6, 1e15, 1e20, 1e21, 1e22, 123456789012345,
+		1 << 53, 1<<53 + 2, -(1 << 53), 1<<53 - 1, 0.5, -0.5, 1e-6, 1e-7, 9.999999e-7, 2.5e-300, 5e-324,
+		math.MaxFloat64, -math.MaxFloat64, 4503599627370495.5, 11242.972725906215}
+	r := rand.New(rand.NewPCG(1, 2))
+	for range 20000 {
+		v := math.Float64frombits(r.Uint64())
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			continue
+		}
+		vals = append(vals, v, math.Trunc(v), math.Round(v*1e3)/1e3, float64(r.Int64N(1<<54)-1<<53))
+	}
+	for _, v := range vals {
+		if math.IsInf(v, 0) {
+			continue // v·1e3 overflowed
+		}
+		got, err := appendJSONFloat(nil, v)
+		want, werr := json.Marshal(v)
+		if err != nil || werr != nil || string(got) != string(want) {
+			t.Fatalf("appendJSONFloat(%v) = %q, %v; encoding/json %q, %v", v, got, err, want, werr)
+		}
+	}
+}

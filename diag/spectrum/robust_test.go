@@ -500,3 +500,48 @@ func TestMeasureSurveyAreas(t *testing.T) {
 	}
 	t.Log("\n" + b.String())
 }
+
+// TestSelectK: selectK gives the k-th smallest element, as sorting does,
+// for every k of random data, data with long runs of equal values, sorted
+// and reversed data, and short slices.
+func TestSelectK(t *testing.T) {
+	r := rand.New(rand.NewPCG(11, 12))
+	var cases [][]float64
+	for _, n := range []int{1, 2, 3, 5, 13, 14, 40, 257, 2046} {
+		u := make([]float64, n)
+		for i := range u {
+			u[i] = r.NormFloat64()
+		}
+		runs := make([]float64, n)
+		for i := range runs {
+			runs[i] = float64(r.IntN(3)) // three values, long runs
+		}
+		flat := make([]float64, n)
+		sorted := slices.Clone(u)
+		slices.Sort(sorted)
+		rev := slices.Clone(sorted)
+		slices.Reverse(rev)
+		mostly := make([]float64, n) // mostly one value, a few others
+		for i := range mostly {
+			if r.IntN(20) == 0 {
+				mostly[i] = r.Float64()
+			}
+		}
+		cases = append(cases, u, runs, flat, sorted, rev, mostly)
+	}
+	for _, c := range cases {
+		want := slices.Clone(c)
+		slices.Sort(want)
+		for k := range c {
+			w := slices.Clone(c)
+			if got := selectK(w, k); got != want[k] {
+				t.Fatalf("n=%d: selectK(k=%d) = %v, want %v", len(c), k, got, want[k])
+			}
+			w2 := slices.Clone(w)
+			slices.Sort(w2)
+			if !slices.Equal(w2, want) {
+				t.Fatalf("n=%d: selectK lost or changed elements", len(c))
+			}
+		}
+	}
+}

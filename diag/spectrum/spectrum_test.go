@@ -470,15 +470,17 @@ func TestUncalibratedWarning(t *testing.T) {
 
 // BenchmarkPipeline2048 is the speed target: one whole 2048-pixel spectrum
 // with Hα–Hδ (and weaker members), from parsed arrays to the final result,
-// with the Voigt line shape of the spectrum (voigt) and the default
-// Stark-shape correction (stark).
+// by the line-by-line route (the job of testdata/scipy/fit_bench.py; the
+// default route of Stark-shaped lines is the whole-spectrum fit, timed by
+// BenchmarkWhole2048), with the Voigt line shape of the spectrum (voigt)
+// and the Stark-shape correction (stark).
 func BenchmarkPipeline2048(b *testing.B) {
 	sp, tr := loadScipy(b, "bench_2048")
 	p := NewPipeline(4096)
 	for _, shape := range []string{LineShapeVoigt, LineShapeStark} {
 		b.Run(shape, func(b *testing.B) {
 			// Hα–Hδ, the job of testdata/scipy/fit_bench.py.
-			opt := Options{LineShape: shape, Conditions: diag.Measurement{InstrumentGaussFWHMNM: tr.Inst, GasTemperatureK: tr.Tg}, MaxUpper: 6}
+			opt := Options{LineShape: shape, Model: ModelLines, Conditions: diag.Measurement{InstrumentGaussFWHMNM: tr.Inst, GasTemperatureK: tr.Tg}, MaxUpper: 6}
 			b.ReportAllocs()
 			for b.Loop() {
 				if _, err := p.Analyze(sp, opt); err != nil {

@@ -257,12 +257,25 @@ func faddeevaAsymptotic(x, y float64) complex128 {
 	if ko > kmax {
 		ko -= 2
 	}
+	// The even chain runs k = ke, ke−2, …, 2 and the odd one k = ko, …, 3;
+	// each step waits for the one before, so the two chains are run side
+	// by side (the longer one's extra step first): the same operations in
+	// the same order per chain, twice the independent work per step.
 	var be, ce, bo, co float64
-	for k := ke; k >= 2; k -= 2 {
+	se, so := ke/2, max((ko-1)/2, 0) // steps of each chain
+	k, j := ke, ko
+	for ; se > so; se-- {
 		be, ce = c[k]+rho*be-s4*ce, be
+		k -= 2
 	}
-	for k := ko; k >= 3; k -= 2 {
-		bo, co = c[k]+rho*bo-s4*co, bo
+	for ; so > se; so-- {
+		bo, co = c[j]+rho*bo-s4*co, bo
+		j -= 2
+	}
+	for ; se > 0; se-- {
+		be, ce = c[k]+rho*be-s4*ce, be
+		bo, co = c[j]+rho*bo-s4*co, bo
+		k, j = k-2, j-2
 	}
 	// E = c_0 − s ce + ζ² be, O = c_1 − s co + ζ² bo (O = 0 if kmax = 0).
 	er, ei := c[0]-s4*ce+z2r*be, z2i*be
