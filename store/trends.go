@@ -132,7 +132,7 @@ func (d *DB) TrendSeries(ctx context.Context, f RunFilter, xField, yField string
 	// tries, as trends of other quantities may drop a column this one
 	// needs between the sync and the build.
 	for try := 0; try < 3 && trendColumnsUsable(f); try++ {
-		ok, err := d.colsSync(ctx, colsNeed(xf, yf), strings.TrimSpace(f.Gas) != "")
+		ok, err := d.colsSync(ctx)
 		if err != nil {
 			return TrendSeries{}, err
 		}
