@@ -535,12 +535,6 @@ func (d *DB) ListRunsCapped(ctx context.Context, f RunFilter, countCap int) (run
 	switch {
 	case cl.ok:
 		total, more, ids = cl.total, cl.more, cl.ids
-		if cl.sqlPage {
-			scan := (more || total > sortScanMin) && sortIndexed[strings.TrimPrefix(f.Sort, "-")]
-			if ids, err = d.pageIDs(ctx, f, scan, limit, offset); err != nil {
-				return nil, 0, false, err
-			}
-		}
 	default:
 		if ids, total, more, err = d.pageSQL(ctx, f, limit, offset, countCap); err != nil {
 			return nil, 0, false, err

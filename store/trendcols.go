@@ -512,6 +512,9 @@ func (d *DB) colsCatchUpLocked(ctx context.Context, tx colsQuerier, cur int64) e
 	if err := c.readTags(ctx, tx, ids); err != nil {
 		return err
 	}
+	if c.text == nil {
+		delete(c.orders, titleOrder) // the titles are no longer held
+	}
 	if shifted {
 		clear(c.orders) // rebuilt when next needed
 	} else {
@@ -565,13 +568,35 @@ func (c *trendCols) orderCmp(x func(int32) float64) func(a, b int32) int {
 	}
 }
 
+// titleOrder is the orders key of the title order (the run list's sort
+// by title; the other keys are trend fields').
+const titleOrder = "title"
+
+// keyCmp is the comparison of an order: (x, id) for a trend field's key,
+// (title, id) for titleOrder (c.text must be held).
+func (c *trendCols) keyCmp(key string) func(a, b int32) int {
+	if key == titleOrder {
+		return func(a, b int32) int {
+			if r := c.text.titleCmp(a, b); r != 0 {
+				return r
+			}
+			return cmp.Compare(c.id[a], c.id[b])
+		}
+	}
+	f, _ := LookupTrendField(key)
+	return c.orderCmp(c.xs(f))
+}
+
 // order returns the positions of the held runs sorted by (x, id); the
 // caller holds mu (a read lock suffices: a missing order is built under
 // ordersMu).
-func (c *trendCols) order(f TrendField) []int32 {
+func (c *trendCols) order(f TrendField) []int32 { return c.orderOf(f.Key) }
+
+// orderOf is order by a keyCmp key.
+func (c *trendCols) orderOf(key string) []int32 {
 	c.ordersMu.Lock()
 	defer c.ordersMu.Unlock()
-	if o, ok := c.orders[f.Key]; ok {
+	if o, ok := c.orders[key]; ok {
 		return o
 	}
 	o := make([]int32, 0, len(c.id)-c.holes)
@@ -580,8 +605,7 @@ func (c *trendCols) order(f TrendField) []int32 {
 			o = append(o, int32(i))
 		}
 	}
-	x := c.xs(f)
-	less := c.orderCmp(x)
+	less := c.keyCmp(key)
 	if !slices.IsSortedFunc(o, less) {
 		slices.SortFunc(o, less)
 	}
@@ -593,20 +617,20 @@ func (c *trendCols) order(f TrendField) []int32 {
 			}
 		}
 	}
-	c.orders[f.Key] = o
+	c.orders[key] = o
 	return o
 }
 
-// maxOrders is the most x orders kept (the start time's and two others).
-const maxOrders = 3
+// maxOrders is the most orders kept (the start time's and three others:
+// trends' x quantities, the run list's sort keys).
+const maxOrders = 4
 
 // mergeOrder brings an order up to date after the runs at positions
 // changed were read again: they leave it and come back at their new place.
 // One pass over the order (a map lookup per entry would cost more than
 // the rest of a catch-up).
 func (c *trendCols) mergeOrder(key string, ord []int32, changed map[int32]bool) []int32 {
-	f, _ := LookupTrendField(key)
-	less := c.orderCmp(c.xs(f))
+	less := c.keyCmp(key)
 	isChanged := make([]bool, len(c.id))
 	var fresh []int32
 	for i := range changed {
