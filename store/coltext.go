@@ -205,27 +205,42 @@ func equalFold(s, w []byte) bool {
 }
 
 // index returns the first index of w in s with ASCII letters compared
-// without case, or -1: the anchor byte is found with IndexByte (in both
-// cases for a letter) and the word checked around it.
+// without case, or -1.
 func (fw *foldWord) index(s []byte) int {
+	sc := foldScan{fw: fw, s: s}
+	return sc.find(0)
+}
+
+// foldScan finds a word's matches in s from left to right: the anchor
+// byte is found with IndexByte (in both cases for a letter) and the word
+// checked around it. The next occurrence of each case is kept between
+// calls, so a pass over a long text looks at each byte once (a case
+// that no longer occurs is not searched for again).
+type foldScan struct {
+	fw           *foldWord
+	s            []byte
+	next1, next2 int // next occurrences of lo and up at or after the last anchor looked at; -1: none
+	have1, have2 bool
+}
+
+// find returns the first match at or after from, or -1.
+func (sc *foldScan) find(from int) int {
+	fw, s := sc.fw, sc.s
 	n, a := len(fw.w), fw.anchor
-	if len(s) < n {
-		return -1
-	}
-	from := a              // the next anchor position to look at
-	next1, next2 := -1, -1 // next occurrences of lo and up at or after from
-	have1, have2 := false, fw.lo == fw.up
 	last := len(s) - n + a // the last anchor position possible
-	for from <= last {
-		if !have1 || (next1 >= 0 && next1 < from) {
-			next1, have1 = indexFrom(s, fw.lo, from), true
+	if fw.lo == fw.up {
+		sc.have2, sc.next2 = true, -1
+	}
+	for at := from + a; at <= last; {
+		if !sc.have1 || (sc.next1 >= 0 && sc.next1 < at) {
+			sc.next1, sc.have1 = indexFrom(s, fw.lo, at), true
 		}
-		if !have2 || (next2 >= 0 && next2 < from) {
-			next2, have2 = indexFrom(s, fw.up, from), true
+		if !sc.have2 || (sc.next2 >= 0 && sc.next2 < at) {
+			sc.next2, sc.have2 = indexFrom(s, fw.up, at), true
 		}
-		p := next1
-		if fw.lo != fw.up && next2 >= 0 && (p < 0 || next2 < p) {
-			p = next2
+		p := sc.next1
+		if sc.next2 >= 0 && (p < 0 || sc.next2 < p) {
+			p = sc.next2
 		}
 		if p < 0 || p > last {
 			return -1
@@ -233,7 +248,7 @@ func (fw *foldWord) index(s []byte) int {
 		if i := p - a; equalFold(s[i:i+n], fw.w) {
 			return i
 		}
-		from = p + 1
+		at = p + 1
 	}
 	return -1
 }
@@ -256,13 +271,14 @@ func (fw *foldWord) contains(s []byte) bool { return fw.index(s) >= 0 }
 // over.
 func (t *textCol) matchAll(fw *foldWord, hit []bool) {
 	blob, off := t.blob, t.off
+	sc := foldScan{fw: fw, s: blob}
 	i := 0 // the run at the current blob position
 	for p := 0; p < len(blob); {
-		k := fw.index(blob[p:])
+		k := sc.find(p)
 		if k < 0 {
 			break
 		}
-		at := uint32(p + k)
+		at := uint32(k)
 		if off[i+1] <= at {
 			// The run holding at: the last offset ≤ at.
 			i += sort.Search(len(off)-i-1, func(j int) bool { return off[i+1+j] > at })
