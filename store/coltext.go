@@ -279,9 +279,11 @@ func (t *textCol) matchAll(fw *foldWord, hit []bool) {
 			break
 		}
 		at := uint32(k)
-		if off[i+1] <= at {
-			// The run holding at: the last offset ≤ at.
-			i += sort.Search(len(off)-i-1, func(j int) bool { return off[i+1+j] > at })
+		if off[i+1] <= at { // not in run i: most often in the next
+			i++
+			if off[i+1] <= at { // the run holding at: the last offset ≤ at
+				i += sort.Search(len(off)-i-1, func(j int) bool { return off[i+1+j] > at })
+			}
 		}
 		if !t.isStale(int32(i)) {
 			hit[i] = true
@@ -295,18 +297,60 @@ func (t *textCol) matchAll(fw *foldWord, hit []bool) {
 	}
 }
 
+// textWord is a query word compiled for the columns: the word, and
+// which gas mixtures (by code) hold it.
+type textWord struct {
+	fw     foldWord
+	gasHit []bool
+	anyGas bool
+}
+
+// compileWords prepares the words of a text query (c.text is held).
+func (c *trendCols) compileWords(words []string) []textWord {
+	out := make([]textWord, len(words))
+	for k, word := range words {
+		tw := &out[k]
+		tw.fw = c.text.prepare(word)
+		tw.gasHit = make([]bool, len(c.gasDict))
+		for g, mix := range c.gasDict {
+			tw.gasHit[g] = tw.fw.contains([]byte(mix))
+			tw.anyGas = tw.anyGas || tw.gasHit[g]
+		}
+	}
+	return out
+}
+
+// matches reports whether run i's title, notes or gas mixture hold the
+// word.
+func (c *trendCols) matches(tw *textWord, i int) bool {
+	return tw.gasHit[c.gas[i]] || tw.fw.contains(c.text.get(int32(i)))
+}
+
+// sampleStep spaces the runs a filter's share of matches is estimated on
+// (about 2000 of them).
+func sampleStep(n int) int { return max(1, n/2000) }
+
 // textMatch narrows mask (nil: every run) to the runs whose title, notes
 // or gas mixture hold every word, as RunFilter.whereFor's LIKE conditions
-// do; n is the number of runs.
-func (c *trendCols) textMatch(words []string, mask []bool, n int) []bool {
-	for _, word := range words {
-		fw := c.text.prepare(word)
-		gasHit := make([]bool, len(c.gasDict))
-		anyGas := false
-		for k, g := range c.gasDict {
-			gasHit[k] = fw.contains([]byte(g))
-			anyGas = anyGas || gasHit[k]
+// do; n is the number of runs. The words go rarest first (estimated on a
+// sample of runs); once few runs are left, each one's text is checked
+// instead of scanning the whole text again.
+func (c *trendCols) textMatch(words []textWord, mask []bool, n int) []bool {
+	rate := make([]int, len(words))
+	for k := range words {
+		for i := 0; i < n; i += sampleStep(n) {
+			if c.matches(&words[k], i) {
+				rate[k]++
+			}
 		}
+	}
+	byRate := make([]int, len(words))
+	for k := range byRate {
+		byRate[k] = k
+	}
+	sort.SliceStable(byRate, func(a, b int) bool { return rate[byRate[a]] < rate[byRate[b]] })
+	for _, k := range byRate {
+		tw := &words[k]
 		cand := n
 		if mask != nil {
 			cand = 0
@@ -316,22 +360,22 @@ func (c *trendCols) textMatch(words []string, mask []bool, n int) []bool {
 				}
 			}
 		}
-		if mask != nil && cand < n/16 {
+		if mask != nil && cand < n/4 {
 			// Few runs left: check each one's text.
 			for i, ok := range mask {
-				if ok && !gasHit[c.gas[i]] && !fw.contains(c.text.get(int32(i))) {
+				if ok && !c.matches(tw, i) {
 					mask[i] = false
 				}
 			}
 			continue
 		}
 		hit := make([]bool, n)
-		if anyGas {
+		if tw.anyGas {
 			for i, g := range c.gas {
-				hit[i] = gasHit[g]
+				hit[i] = tw.gasHit[g]
 			}
 		}
-		c.text.matchAll(&fw, hit)
+		c.text.matchAll(&tw.fw, hit)
 		if mask == nil {
 			mask = hit
 			continue

@@ -30,6 +30,10 @@ import (
 // sort key's order is walked.
 var listSortMax = 20000
 
+// listSQLRows is the most rows the SQL path is expected to read for a
+// bounded count and its page for the list to leave a search to it.
+var listSQLRows = 20000.0
+
 // colsList is the run list's answer from the columns.
 type colsList struct {
 	ok    bool  // false: read through SQL
@@ -70,6 +74,21 @@ func (d *DB) listFromCols(ctx context.Context, f RunFilter, limit, offset, count
 	m, ok := c.matcher(f)
 	if !ok {
 		return out, nil
+	}
+	if countCap > 0 && key != "status" {
+		// Matches are common: SQL fills the page and the bounded count
+		// from the sort column's index after a few rows per match, sooner
+		// than a pass over every run's text (estimated on a sample).
+		hits, seen := 0, 0
+		for i := 0; i < len(c.id); i += sampleStep(len(c.id)) {
+			seen++
+			if m.one(c, i) {
+				hits++
+			}
+		}
+		if hits > 0 && float64(offset+limit+countCap)*float64(seen)/float64(hits) < listSQLRows {
+			return colsList{}, nil
+		}
 	}
 	mask := m.mask(c)
 	if mask == nil {

@@ -746,7 +746,30 @@ type colsMatch struct {
 	hasFrom, hasTo        bool
 	gasIn                 []bool // by gas code; nil: any
 	tagIn                 []bool // by position; nil: any
-	words                 []string
+	words                 []textWord
+}
+
+// one reports whether run i matches (for estimates on a sample).
+func (m *colsMatch) one(c *trendCols, i int) bool {
+	switch {
+	case c.status[i] == 0,
+		m.chamber != 0 && c.chamber[i] != m.chamber,
+		m.recipe != 0 && c.recipe[i] != m.recipe,
+		m.oper != 0 && c.oper[i] != m.oper,
+		m.source != 0 && c.source[i] != m.source,
+		m.status != 0 && c.status[i] != m.status,
+		m.hasFrom && c.started[i] < m.from,
+		m.hasTo && c.started[i] >= m.to,
+		m.gasIn != nil && !m.gasIn[c.gas[i]],
+		m.tagIn != nil && !m.tagIn[i]:
+		return false
+	}
+	for k := range m.words {
+		if !c.matches(&m.words[k], i) {
+			return false
+		}
+	}
+	return true
 }
 
 // mask evaluates m on every position, one condition at a time (a tight
@@ -842,7 +865,9 @@ func (c *trendCols) matcher(f RunFilter) (*colsMatch, bool) {
 			m.gasIn[k] = containsFoldASCII(s, g)
 		}
 	}
-	m.words = queryWords(f.Query)
+	if words := queryWords(f.Query); len(words) > 0 {
+		m.words = c.compileWords(words) // the callers checked that c.text is held
+	}
 	if f.Tag != "" {
 		ids := c.tags[strings.ToLower(f.Tag)]
 		if len(ids) == 0 {
