@@ -2,6 +2,8 @@ package store
 
 import (
 	"bytes"
+	"cmp"
+	"math"
 	"math/rand/v2"
 	"slices"
 	"testing"
@@ -49,6 +51,34 @@ func TestFoldScan(t *testing.T) {
 			if !slices.Equal(got, want) {
 				t.Fatalf("%q in %q (anchor %d): matches %v, want %v", w, s, a, got, want)
 			}
+		}
+	}
+}
+
+// TestRadixOrder: the radix sort orders positions as orderCmp does
+// (NaN first, −0 with +0, ties by position), over random values with
+// many ties, negatives and infinities.
+func TestRadixOrder(t *testing.T) {
+	rng := rand.New(rand.NewPCG(1, 2))
+	vals := []float64{math.NaN(), math.Inf(-1), -1e300, -2.5, math.Copysign(0, -1), 0, 1e-300, 3, 3.5, 1e21, math.Inf(1)}
+	for _, n := range []int{0, 1, 7, 5000} {
+		xs := make([]float64, n)
+		for i := range xs {
+			if rng.IntN(3) == 0 {
+				xs[i] = rng.NormFloat64() * 1e5
+			} else {
+				xs[i] = vals[rng.IntN(len(vals))]
+			}
+		}
+		o := make([]int32, n)
+		for i := range o {
+			o[i] = int32(i)
+		}
+		x := func(i int32) float64 { return xs[i] }
+		want := slices.Clone(o)
+		slices.SortStableFunc(want, func(a, b int32) int { return cmp.Compare(x(a), x(b)) })
+		if got := radixOrder(slices.Clone(o), x); !slices.Equal(got, want) {
+			t.Fatalf("n %d: radix order differs from the comparison sort", n)
 		}
 	}
 }

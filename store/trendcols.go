@@ -605,9 +605,13 @@ func (c *trendCols) orderOf(key string) []int32 {
 			o = append(o, int32(i))
 		}
 	}
-	less := c.keyCmp(key)
-	if !slices.IsSortedFunc(o, less) {
-		slices.SortFunc(o, less)
+	if key == titleOrder {
+		if less := c.keyCmp(key); !slices.IsSortedFunc(o, less) {
+			slices.SortFunc(o, less)
+		}
+	} else {
+		f, _ := LookupTrendField(key)
+		o = radixOrder(o, c.xs(f))
 	}
 	if len(c.orders) >= maxOrders {
 		for k := range c.orders {
