@@ -147,7 +147,9 @@ func (d *DB) TrendSeries(ctx context.Context, f RunFilter, xField, yField string
 			return e.ts, nil
 		}
 		if ts, seq, ok := d.colsSeries(f, xf, yf); ok {
-			d.trends.put(trendEntry{ckey, seq, ts, nil})
+			if len(ts.Points) <= colsCacheMaxPoints {
+				d.trends.put(trendEntry{ckey, seq, ts, nil})
+			}
 			return ts, nil
 		}
 	}
@@ -393,12 +395,19 @@ type trendEntry struct {
 const trendCacheSize = 8
 
 // trendCacheMaxPoints bounds the points held by the cache (a point is 56
-// bytes, so about 67 MB): on a log of a million runs the series of all
+// bytes, so about 34 MB): on a log of a million runs the series of all
 // runs alone is a million points, and the trend column store beside it
-// holds about 75 MB; series of the store are rebuilt from it in tens of
+// holds about 100 MB; series of the store are rebuilt from it in tens of
 // milliseconds, so the cache need not hold many. The newest series is
 // always kept.
-const trendCacheMaxPoints = 1_200_000
+const trendCacheMaxPoints = 600_000
+
+// colsCacheMaxPoints: a series of the column store with more points is
+// not cached (a series of a million runs is 56 MB, and building it again
+// from the columns takes 10–20 ms): the columns, which hold every
+// plotted quantity, leave the cache little room under serve's soft heap
+// limit.
+const colsCacheMaxPoints = 250_000
 
 func (c *trendCache) get(key string) (trendEntry, bool) {
 	c.mu.Lock()
