@@ -28,8 +28,8 @@ import (
 //
 // Every plotted quantity and every filtered attribute is loaded with the
 // store (in the background at start), so that no trend waits for a column
-// of a million runs to be read. Memory per run: 8 (id) + 8 (start) + 3×4
-// (chamber, recipe, operator) + 2 (status, source) + 4 (gas mixture, a
+// of a million runs to be read. Memory per run: 8 (id) + 8 (start) + 3×2
+// (chamber, recipe, operator) + 2 (status, source) + 2 (gas mixture, a
 // code) bytes; each value column 1, 2 or 8 bytes (valCol: a dictionary of
 // its values while they are few, as run conditions are); the searched
 // text (title and notes, textCol) its length + 6; and each x quantity's
@@ -79,18 +79,18 @@ type colsData struct {
 
 	id      []int64 // ascending
 	started []int64 // Unix seconds
-	chamber []int32 // 0: none
-	recipe  []int32 // 0: none
-	oper    []int32
+	chamber []uint16 // 0: none
+	recipe  []uint16 // 0: none
+	oper    []uint16
 	status  []uint8 // code in statusDict; 0: deleted run (a hole)
 	source  []uint8 // code in sourceDict
 	// vals holds the value columns by runs column name; NaN is NULL
 	// (SQLite stores no NaN: it reads back as NULL).
 	vals map[string]*valCol
 	// gas is the gas mixture as a code in gasDict.
-	gas     []int32
+	gas     []uint16
 	gasDict []string
-	gasCode map[string]int32
+	gasCode map[string]uint16
 	// text is the title and notes of every run (text search); nil when a
 	// run's text cannot be held (a zero byte in it): searches then read
 	// through SQL.
@@ -214,19 +214,19 @@ func (d *DB) colsReadLocked(ctx context.Context, tx colsQuerier) error {
 		return err
 	}
 	c.colsData = colsData{state: colsReady, seq: seq, vals: map[string]*valCol{}, tags: map[string][]int64{},
-		orders: map[string][]int32{}, statusDict: []string{""}, sourceDict: []string{""}, gasCode: map[string]int32{},
+		orders: map[string][]int32{}, statusDict: []string{""}, sourceDict: []string{""}, gasCode: map[string]uint16{},
 		text: newTextCol(int(n))}
 	c.id = make([]int64, 0, n)
 	c.started = make([]int64, 0, n)
-	c.chamber = make([]int32, 0, n)
-	c.recipe = make([]int32, 0, n)
-	c.oper = make([]int32, 0, n)
+	c.chamber = make([]uint16, 0, n)
+	c.recipe = make([]uint16, 0, n)
+	c.oper = make([]uint16, 0, n)
 	c.status = make([]uint8, 0, n)
 	c.source = make([]uint8, 0, n)
 	for _, col := range colsValues {
 		c.vals[col] = newValCol(int(n))
 	}
-	c.gas = make([]int32, 0, n)
+	c.gas = make([]uint16, 0, n)
 	c.gasCodeOf(nil) // code 0: ""
 	rows, err := tx.QueryContext(ctx, `SELECT `+colsSelect+` FROM runs r ORDER BY r.id`)
 	if err != nil {
@@ -296,6 +296,11 @@ func (s *colsScanner) val(k int) float64 {
 
 func fitsInt32(v int64) bool { return v >= 0 && v <= math.MaxInt32 }
 
+// fitsUint16: chamber, recipe and operator ids are held in two bytes (a
+// log with more than 65 535 chambers, recipes or accounts, or gas
+// mixtures, turns the store off: trends then read through SQL).
+func fitsUint16(v int64) bool { return v >= 0 && v <= math.MaxUint16 }
+
 // code returns the code of v in a dictionary, adding it (false when a
 // byte-sized dictionary is full).
 func code(dict *[]string, v []byte) (uint8, bool) {
@@ -311,14 +316,19 @@ func code(dict *[]string, v []byte) (uint8, bool) {
 	return uint8(len(*dict) - 1), true
 }
 
-func (c *trendCols) gasCodeOf(v []byte) int32 {
+// gasCodeOf returns the code of a gas mixture, adding it (false: the
+// dictionary is full).
+func (c *trendCols) gasCodeOf(v []byte) (uint16, bool) {
 	if k, ok := c.gasCode[string(v)]; ok {
-		return k
+		return k, true
+	}
+	if len(c.gasDict) > math.MaxUint16 {
+		return 0, false
 	}
 	c.gasDict = append(c.gasDict, string(v))
-	k := int32(len(c.gasDict) - 1)
+	k := uint16(len(c.gasDict) - 1)
 	c.gasCode[string(v)] = k
-	return k
+	return k, true
 }
 
 // appendRow adds a scanned run at the end (ids arrive ascending); false
@@ -326,21 +336,22 @@ func (c *trendCols) gasCodeOf(v []byte) int32 {
 func (c *trendCols) appendRow(s *colsScanner) bool {
 	st, ok1 := code(&c.statusDict, s.status)
 	so, ok2 := code(&c.sourceDict, s.source)
-	if !fitsInt32(s.chamber) || !fitsInt32(s.recipe) || !fitsInt32(s.oper) || !ok1 || !ok2 {
+	gas, ok3 := c.gasCodeOf(s.gas)
+	if !fitsUint16(s.chamber) || !fitsUint16(s.recipe) || !fitsUint16(s.oper) || !ok1 || !ok2 || !ok3 {
 		c.off()
 		return false
 	}
 	c.id = append(c.id, s.id)
 	c.started = append(c.started, s.started)
-	c.chamber = append(c.chamber, int32(s.chamber))
-	c.recipe = append(c.recipe, int32(s.recipe))
-	c.oper = append(c.oper, int32(s.oper))
+	c.chamber = append(c.chamber, uint16(s.chamber))
+	c.recipe = append(c.recipe, uint16(s.recipe))
+	c.oper = append(c.oper, uint16(s.oper))
 	c.status = append(c.status, st)
 	c.source = append(c.source, so)
 	for k, col := range colsValues {
 		c.vals[col].append(s.val(k))
 	}
-	c.gas = append(c.gas, c.gasCodeOf(s.gas))
+	c.gas = append(c.gas, gas)
 	if c.text != nil && !c.text.appendRun(s.title, s.notes) {
 		c.text = nil // searched through SQL
 	}
@@ -351,7 +362,8 @@ func (c *trendCols) appendRow(s *colsScanner) bool {
 func (c *trendCols) setRow(i int, s *colsScanner) bool {
 	st, ok1 := code(&c.statusDict, s.status)
 	so, ok2 := code(&c.sourceDict, s.source)
-	if !fitsInt32(s.chamber) || !fitsInt32(s.recipe) || !fitsInt32(s.oper) || !ok1 || !ok2 {
+	gas, ok3 := c.gasCodeOf(s.gas)
+	if !fitsUint16(s.chamber) || !fitsUint16(s.recipe) || !fitsUint16(s.oper) || !ok1 || !ok2 || !ok3 {
 		c.off()
 		return false
 	}
@@ -359,11 +371,11 @@ func (c *trendCols) setRow(i int, s *colsScanner) bool {
 		c.holes--
 	}
 	c.started[i], c.chamber[i], c.recipe[i], c.oper[i], c.status[i], c.source[i] =
-		s.started, int32(s.chamber), int32(s.recipe), int32(s.oper), st, so
+		s.started, uint16(s.chamber), uint16(s.recipe), uint16(s.oper), st, so
 	for k, col := range colsValues {
 		c.vals[col].set(i, s.val(k))
 	}
-	c.gas[i] = c.gasCodeOf(s.gas)
+	c.gas[i] = gas
 	if c.text != nil && !c.text.set(int32(i), s.title, s.notes) {
 		c.text = nil
 	}
@@ -625,9 +637,10 @@ func (c *trendCols) orderOf(key string) []int32 {
 	return o
 }
 
-// maxOrders is the most orders kept (the start time's and three others:
-// trends' x quantities, the run list's sort keys).
-const maxOrders = 4
+// maxOrders is the most orders kept (the start time's and two others:
+// trends' x quantities, the run list's sort keys; 4 MB each a million
+// runs, built again in tens of milliseconds).
+const maxOrders = 3
 
 // mergeOrder brings an order up to date after the runs at positions
 // changed were read again: they leave it and come back at their new place.
@@ -744,7 +757,7 @@ func (d *DB) colsSeries(f RunFilter, xf, yf TrendField) (TrendSeries, int64, boo
 // colsMatch is a RunFilter on the columns: every condition is the one
 // RunFilter.where writes in SQL.
 type colsMatch struct {
-	chamber, recipe, oper int32 // 0: any
+	chamber, recipe, oper uint16 // 0: any
 	source, status        uint8 // 0: any
 	from, to              int64
 	hasFrom, hasTo        bool
@@ -834,13 +847,13 @@ func (c *trendCols) matcher(f RunFilter) (*colsMatch, bool) {
 	m := &colsMatch{}
 	for _, v := range []struct {
 		id  int64
-		dst *int32
+		dst *uint16
 	}{{f.ChamberID, &m.chamber}, {f.RecipeID, &m.recipe}, {f.OperatorID, &m.oper}} {
 		if v.id != 0 {
-			if !fitsInt32(v.id) || v.id == 0 {
+			if !fitsUint16(v.id) || v.id == 0 {
 				return nil, false
 			}
-			*v.dst = int32(v.id)
+			*v.dst = uint16(v.id)
 		}
 	}
 	for _, v := range []struct {

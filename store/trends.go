@@ -395,12 +395,12 @@ type trendEntry struct {
 const trendCacheSize = 8
 
 // trendCacheMaxPoints bounds the points held by the cache (a point is 56
-// bytes, so about 34 MB): on a log of a million runs the series of all
+// bytes, so about 17 MB): on a log of a million runs the series of all
 // runs alone is a million points, and the trend column store beside it
 // holds about 100 MB; series of the store are rebuilt from it in tens of
 // milliseconds, so the cache need not hold many. The newest series is
 // always kept.
-const trendCacheMaxPoints = 600_000
+const trendCacheMaxPoints = 300_000
 
 // colsCacheMaxPoints: a series of the column store with more points is
 // not cached (a series of a million runs is 56 MB, and building it again
