@@ -77,8 +77,8 @@ type colsData struct {
 	// seq is the run_changes position the columns are current at.
 	seq int64
 
-	id      []int64 // ascending
-	started []int64 // Unix seconds
+	id      []int64  // ascending
+	started []int64  // Unix seconds
 	chamber []uint16 // 0: none
 	recipe  []uint16 // 0: none
 	oper    []uint16
@@ -758,7 +758,7 @@ func (d *DB) colsSeries(f RunFilter, xf, yf TrendField) (TrendSeries, int64, boo
 // RunFilter.where writes in SQL.
 type colsMatch struct {
 	chamber, recipe, oper uint16 // 0: any
-	source, status        uint8 // 0: any
+	source, status        uint8  // 0: any
 	from, to              int64
 	hasFrom, hasTo        bool
 	gasIn                 []bool // by gas code; nil: any
