@@ -258,16 +258,6 @@ func BenchmarkTrendColumnsLoad1M(b *testing.B) {
 	}
 }
 
-// BenchmarkTrendLazyColumn1M: the first trend against a run condition
-// that the column store does not hold yet (read from the runs table on
-// demand): the x quantity cycles through more conditions than the store
-// keeps, so every request reads one column of 1 000 000 runs.
-func BenchmarkTrendLazyColumn1M(b *testing.B) {
-	s, ck := bench1MServer(b)
-	pageTimes(b, s, ck, []string{"/trends?x=pressure_pa&chamber=3", "/trends?x=power_w&chamber=3",
-		"/trends?x=gas_temperature_k&chamber=3", "/trends?x=instrument_fwhm_nm&chamber=3"})
-}
-
 // countingWriter is a ResponseWriter that counts and drops the body (a
 // recorder would keep a million rows in memory).
 type countingWriter struct {

@@ -107,16 +107,19 @@ func (f RunFilter) Where() (string, []any) { return f.where() }
 // TrendFields) over the runs matching f; f's Sort, Limit and Offset are
 // ignored. Unknown field keys are ErrInvalid.
 //
-// Without text search (f.Query) the series comes from the trend column
-// store (trendcols.go): every run's plotted quantities and filtered
-// attributes in memory, made current from the run_changes log (migration
-// 0004) before each answer, so a series of a million runs is built in
-// tens of milliseconds and never lags a committed change. With text
-// search, only the needed columns of runs are read through SQL.
+// The series comes from the trend column store (trendcols.go): every
+// run's plotted quantities, filtered attributes and searched text in
+// memory, made current from the run_changes log (migration 0004) before
+// each answer, so a series of a million runs is built in tens of
+// milliseconds and never lags a committed change. When the store cannot
+// answer (a text search with a zero byte or invalid UTF-8, a run text the
+// store cannot hold, ids beyond its limits), only the needed columns of
+// runs are read through SQL.
 //
 // Results are cached per filter and fields with the log position they
-// are current at. A cached SQL series is brought up to date by re-reading
-// only the runs changed since; a column-store series is built again.
+// are current at (column-store series up to colsCacheMaxPoints points).
+// A cached SQL series is brought up to date by re-reading only the runs
+// changed since; a column-store series is built again.
 // Callers must not modify the returned series.
 func (d *DB) TrendSeries(ctx context.Context, f RunFilter, xField, yField string) (TrendSeries, error) {
 	xf, ok := LookupTrendField(xField)
