@@ -34,7 +34,7 @@ import (
 // its values while they are few, as run conditions are); the searched
 // text (title and notes, textCol) its length + 6; and each x quantity's
 // order 4 (at most maxOrders). For the generated million runs (random
-// pressures and powers, short titles) that is ≈ 105 MB.
+// pressures and powers, short titles) that is ≈ 108 MB.
 
 // colsValues are the value columns of the store: every column a trend
 // plots, with the uncertainties.
