@@ -402,12 +402,15 @@ func TestTrendColumnsConcurrent(t *testing.T) {
 	d, _ := openTrendDB(t)
 	chambers, recipes, ops := genTrendDB(t, d, 300)
 	filters := trendFilterSample(chambers, recipes, ops)
+	// The run list's searches from the columns, walking orders.
+	listSQLRows, listSortMax = 0, 10
+	t.Cleanup(func() { listSQLRows, listSortMax = 20000, 20000 })
 	done := make(chan struct{})
 	errs := make(chan error, 8)
 	go func() {
 		defer close(done)
 		for i := range 60 {
-			if _, err := d.db.Exec(`UPDATE runs SET texc_k = ?, chamber_id = ?, started_at = started_at + 60 WHERE id = ?`,
+			if _, err := d.db.Exec(`UPDATE runs SET texc_k = ?, chamber_id = ?, started_at = started_at + 60, title = title || ' x' WHERE id = ?`,
 				5000+float64(i), chambers[i%len(chambers)], 1+(i*37)%300); err != nil {
 				errs <- err
 				return
@@ -424,10 +427,16 @@ func TestTrendColumnsConcurrent(t *testing.T) {
 				default:
 				}
 				f := filters[(r+k)%len(filters)]
-				// x cycles through more conditions than the store keeps,
-				// so that readers drop each other's columns.
+				// x cycles through more quantities than the store keeps
+				// orders of, so that readers drop each other's orders; the
+				// run list's searches walk orders too.
 				x := []string{"started_at", "pressure_pa", "power_w", "electrode_gap_mm", "gas_temperature_k"}[(r+k)%5]
 				if _, err := d.TrendSeries(ctx, f, x, "texc_k"); err != nil {
+					errs <- err
+					return
+				}
+				sort := []string{"title", "-texc", "ne", "status"}[(r+k)%4]
+				if _, _, _, err := d.ListRunsCapped(ctx, RunFilter{Query: "gen", Sort: sort, Limit: 20, Offset: 40}, 100); err != nil {
 					errs <- err
 					return
 				}
