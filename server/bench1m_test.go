@@ -258,16 +258,6 @@ func BenchmarkTrendColumnsLoad1M(b *testing.B) {
 	}
 }
 
-// BenchmarkTrendLazyColumn1M: the first trend against a run condition
-// that the column store does not hold yet (read from the runs table on
-// demand): the x quantity cycles through more conditions than the store
-// keeps, so every request reads one column of 1 000 000 runs.
-func BenchmarkTrendLazyColumn1M(b *testing.B) {
-	s, ck := bench1MServer(b)
-	pageTimes(b, s, ck, []string{"/trends?x=pressure_pa&chamber=3", "/trends?x=power_w&chamber=3",
-		"/trends?x=gas_temperature_k&chamber=3", "/trends?x=instrument_fwhm_nm&chamber=3"})
-}
-
 // countingWriter is a ResponseWriter that counts and drops the body (a
 // recorder would keep a million rows in memory).
 type countingWriter struct {
@@ -279,15 +269,25 @@ func (w *countingWriter) Header() http.Header         { return w.h }
 func (w *countingWriter) WriteHeader(int)             {}
 func (w *countingWriter) Write(p []byte) (int, error) { w.n += int64(len(p)); return len(p), nil }
 
-// BenchmarkServeMemory1M: the run list, trend pages and the CSV export of
+// BenchmarkServeMemory1M: the run list (text searches included), trend
+// pages (against conditions, with text searches) and the CSV export of
 // all 1 000 000 runs, with serve's soft heap limit; reports the process's
 // peak resident memory (VmHWM), the peak Go heap sampled during the
 // export, and the export's time and size.
+//
+// As serve does, the soft heap limit is set before the database is opened
+// and the column store loaded (when this benchmark runs alone, as it
+// should for this figure: others before it in the process load without
+// it).
 func BenchmarkServeMemory1M(b *testing.B) {
-	s, ck := bench1MServer(b)
 	setServeMemoryLimit()
+	s, ck := bench1MServer(b)
 	for b.Loop() {
-		for _, u := range append(append([]string{}, runList1MURLs...), trendURLs...) {
+		var urls []string
+		for _, l := range [][]string{runList1MURLs, trendURLs, runListText1MURLs, trendText1MURLs, trendCondition1MURLs} {
+			urls = append(urls, l...)
+		}
+		for _, u := range urls {
 			req := httptest.NewRequest(http.MethodGet, u, nil)
 			req.AddCookie(ck)
 			rec := httptest.NewRecorder()
@@ -340,4 +340,65 @@ func vmHWM() float64 {
 		}
 	}
 	return 0
+}
+
+// runListText1MURLs are run-list searches that SQL can only answer by
+// checking every run (a LIKE per run): words that match nothing, one
+// run or a few, a word in one run in 35 with deep pages in every sort,
+// a gas mixture no run has.
+var runListText1MURLs = []string{
+	"/runs?q=zebra",
+	"/runs?q=run+999999",
+	"/runs?q=77777&sort=-texc",
+	"/runs?q=replaced&sort=-ne&page=300",
+	"/runs?q=replaced&sort=title&page=100",
+	"/runs?q=cleaned&sort=status&page=50",
+	"/runs?q=conditioned+run+12&sort=started",
+	"/runs?gas=xenon",
+}
+
+// BenchmarkRunListText1M: the text searches above, mixed.
+func BenchmarkRunListText1M(b *testing.B) {
+	s, ck := bench1MServer(b)
+	pageTimes(b, s, ck, runListText1MURLs)
+}
+
+// BenchmarkRunListTextEach1M reports each text search separately.
+func BenchmarkRunListTextEach1M(b *testing.B) {
+	s, ck := bench1MServer(b)
+	for _, u := range runListText1MURLs {
+		b.Run(u, func(b *testing.B) { pageTimes(b, s, ck, []string{u}) })
+	}
+}
+
+// trendText1MURLs are trends with a text search (first views).
+var trendText1MURLs = []string{
+	"/trends?q=replaced",
+	"/trends?q=run+77&chamber=2&y=ne_m3",
+	"/trends?q=zebra",
+	"/trends?q=cleaned&mode=control&base_n=50",
+}
+
+// BenchmarkTrendText1MFirstView: trends with a text search, the series
+// cache emptied before every request.
+func BenchmarkTrendText1MFirstView(b *testing.B) {
+	s, ck := bench1MServer(b)
+	pageTimesWith(b, s, ck, trendText1MURLs, s.DB.DropTrendCache)
+}
+
+// trendCondition1MURLs plot against run conditions and the gas mixture.
+var trendCondition1MURLs = []string{
+	"/trends?x=pressure_pa&chamber=3",
+	"/trends?x=power_w&chamber=3",
+	"/trends?x=gas_temperature_k&chamber=3",
+	"/trends?x=instrument_fwhm_nm&y=tgas_k",
+	"/trends?x=electrode_gap_mm&gas=h2",
+}
+
+// BenchmarkTrendCondition1MFirstView: the first view of trends against
+// run conditions (the series cache emptied before every request), the
+// conditions taken in turn.
+func BenchmarkTrendCondition1MFirstView(b *testing.B) {
+	s, ck := bench1MServer(b)
+	pageTimesWith(b, s, ck, trendCondition1MURLs, s.DB.DropTrendCache)
 }

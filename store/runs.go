@@ -519,30 +519,26 @@ func (d *DB) ListRuns(ctx context.Context, f RunFilter) ([]Run, int, error) {
 // no joins), then those runs with their operator, chamber and recipe
 // names.
 func (d *DB) ListRunsCapped(ctx context.Context, f RunFilter, countCap int) (runs []Run, total int, more bool, err error) {
-	where, args := f.where()
 	limit := f.Limit
 	if limit <= 0 {
 		limit = 50
 	}
 	limit = min(limit, 1000)
 	offset := max(f.Offset, 0)
-	if countCap > 0 {
-		bound := offset + limit + countCap
-		err = d.db.QueryRowContext(ctx, `SELECT count(*) FROM (SELECT 1 FROM runs r`+where+` LIMIT ?)`,
-			append(append([]any(nil), args...), bound+1)...).Scan(&total)
-		if total > bound {
-			total, more = bound, true
-		}
-	} else {
-		err = d.db.QueryRowContext(ctx, `SELECT count(*) FROM runs r`+where, args...).Scan(&total)
-	}
-	if err != nil {
-		return nil, 0, false, fmt.Errorf("store: count runs: %w", err)
-	}
-	scan := (more || total > sortScanMin) && sortIndexed[strings.TrimPrefix(f.Sort, "-")]
-	ids, err := d.pageIDs(ctx, f, scan, limit, offset)
+	// A text search or gas filter: counted and paged from the trend column
+	// store when it is loaded (run_list_cols.go).
+	cl, err := d.listFromCols(ctx, f, limit, offset, countCap)
 	if err != nil {
 		return nil, 0, false, err
+	}
+	var ids []any
+	switch {
+	case cl.ok:
+		total, more, ids = cl.total, cl.more, cl.ids
+	default:
+		if ids, total, more, err = d.pageSQL(ctx, f, limit, offset, countCap); err != nil {
+			return nil, 0, false, err
+		}
 	}
 	if len(ids) == 0 {
 		return nil, total, more, nil
@@ -570,6 +566,27 @@ func (d *DB) ListRunsCapped(ctx context.Context, f RunFilter, countCap int) (run
 		}
 	}
 	return runs, total, more, nil
+}
+
+// pageSQL is ListRunsCapped's count and page through SQL.
+func (d *DB) pageSQL(ctx context.Context, f RunFilter, limit, offset, countCap int) (ids []any, total int, more bool, err error) {
+	where, args := f.where()
+	if countCap > 0 {
+		bound := offset + limit + countCap
+		err = d.db.QueryRowContext(ctx, `SELECT count(*) FROM (SELECT 1 FROM runs r`+where+` LIMIT ?)`,
+			append(append([]any(nil), args...), bound+1)...).Scan(&total)
+		if total > bound {
+			total, more = bound, true
+		}
+	} else {
+		err = d.db.QueryRowContext(ctx, `SELECT count(*) FROM runs r`+where, args...).Scan(&total)
+	}
+	if err != nil {
+		return nil, 0, false, fmt.Errorf("store: count runs: %w", err)
+	}
+	scan := (more || total > sortScanMin) && sortIndexed[strings.TrimPrefix(f.Sort, "-")]
+	ids, err = d.pageIDs(ctx, f, scan, limit, offset)
+	return ids, total, more, err
 }
 
 // pageIDs returns the ids of one page of runs matching f in f's order.

@@ -26,19 +26,29 @@ import (
 // again in one read transaction (the same snapshot as the log's end), so
 // a trend never shows a number older than the last committed change.
 //
-// Memory: per run 8 (id) + 8 (start) + 3×4 (chamber, recipe, operator) +
-// 2 (status, source) bytes and 8 per loaded value column. The columns of
-// the analysis summary (T_exc and n_e with their 1σ, warning count) are
-// loaded with the store, ≈ 70 MB for a million runs; the other plotted
-// quantities (tgas_k and the conditions) and the gas mixture are loaded
-// the first time a trend needs them (at most maxLazyCols of them are kept:
-// the one loaded longest ago goes), and each x quantity's order (4 bytes
-// a run, at most maxOrders). Text search
-// (RunFilter.Query) needs titles and notes, which are not held: such
-// trends are read through SQL (trendRead) as before.
+// Every plotted quantity and every filtered attribute is loaded with the
+// store (in the background at start), so that no trend waits for a column
+// of a million runs to be read. Memory per run: 8 (id) + 8 (start) + 3×2
+// (chamber, recipe, operator) + 2 (status, source) + 2 (gas mixture, a
+// code) bytes; each value column 1, 2 or 8 bytes (valCol: a dictionary of
+// its values while they are few, as run conditions are); the searched
+// text (title and notes, textCol) its length + 6; and each x quantity's
+// order 4 (at most maxOrders). For the generated million runs (random
+// pressures and powers, short titles) that is ≈ 108 MB.
 
-// colsEager are the value columns loaded with the store.
-var colsEager = []string{"texc_k", "texc_unc_k", "ne_m3", "ne_unc_m3", "n_warnings"}
+// colsValues are the value columns of the store: every column a trend
+// plots, with the uncertainties.
+var colsValues = func() []string {
+	var out []string
+	for _, f := range TrendFields {
+		for _, col := range []string{f.col, f.uncCol} {
+			if col != "" && !f.Time {
+				out = append(out, colName(col))
+			}
+		}
+	}
+	return out
+}()
 
 // colsReloadFraction: when more runs changed than this fraction of the
 // held runs (or the log no longer reaches back to the columns' position),
@@ -67,20 +77,24 @@ type colsData struct {
 	// seq is the run_changes position the columns are current at.
 	seq int64
 
-	id      []int64 // ascending
-	started []int64 // Unix seconds
-	chamber []int32 // 0: none
-	recipe  []int32 // 0: none
-	oper    []int32
+	id      []int64  // ascending
+	started []int64  // Unix seconds
+	chamber []uint16 // 0: none
+	recipe  []uint16 // 0: none
+	oper    []uint16
 	status  []uint8 // code in statusDict; 0: deleted run (a hole)
 	source  []uint8 // code in sourceDict
-	// vals holds the loaded value columns by runs column name; NaN is
-	// NULL (SQLite stores no NaN: it reads back as NULL).
-	vals map[string][]float64
-	// gas is the gas mixture as a code in gasDict (nil: not loaded).
-	gas     []int32
+	// vals holds the value columns by runs column name; NaN is NULL
+	// (SQLite stores no NaN: it reads back as NULL).
+	vals map[string]*valCol
+	// gas is the gas mixture as a code in gasDict.
+	gas     []uint16
 	gasDict []string
-	gasCode map[string]int32
+	gasCode map[string]uint16
+	// text is the title and notes of every run (text search); nil when a
+	// run's text cannot be held (a zero byte in it): searches then read
+	// through SQL.
+	text *textCol
 
 	statusDict, sourceDict []string           // code 0 is ""
 	tags                   map[string][]int64 // sorted run ids per tag
@@ -89,8 +103,6 @@ type colsData struct {
 	// kept current.
 	orders map[string][]int32
 	holes  int
-	// lazy lists the value columns loaded beyond colsEager, oldest first.
-	lazy []string
 }
 
 const (
@@ -105,23 +117,22 @@ type colsQuerier interface {
 	QueryRowContext(ctx context.Context, query string, args ...any) *sql.Row
 }
 
-// trendColumnsUsable reports whether f can be answered from the columns.
-func trendColumnsUsable(f RunFilter) bool { return strings.TrimSpace(f.Query) == "" }
+// trendColumnsUsable reports whether f can be answered from the columns
+// (when they hold the runs' text, for a text search).
+func trendColumnsUsable(f RunFilter) bool { return searchable(f.Query) }
 
-// colsSync makes the column store current with the last committed change
-// and makes sure the value columns named in need (and the gas mixture,
-// with gas) are loaded. It loads the store on first use. It returns false
-// when the store cannot serve (the caller reads through SQL).
+// colsSync makes the column store current with the last committed change.
+// It loads the store on first use. It returns false when the store cannot
+// serve (the caller reads through SQL).
 //
 // The database work is not cancelled with ctx (a visitor leaving the page
 // would otherwise throw away a load others wait for); on an error the
 // store is dropped and read afresh next time, never left half updated.
-func (d *DB) colsSync(ctx context.Context, need []string, gas bool) (bool, error) {
+func (d *DB) colsSync(ctx context.Context) (bool, error) {
 	ctx = context.WithoutCancel(ctx)
 	c := &d.cols
 	c.mu.RLock()
 	state, seq := c.state, c.seq
-	missing := c.missingLocked(need, gas)
 	c.mu.RUnlock()
 	switch state {
 	case colsOff:
@@ -131,7 +142,7 @@ func (d *DB) colsSync(ctx context.Context, need []string, gas bool) (bool, error
 		if err := d.db.QueryRowContext(ctx, `SELECT coalesce(max(seq), 0) FROM run_changes`).Scan(&cur); err != nil {
 			return false, err
 		}
-		if cur == seq && !missing {
+		if cur == seq {
 			return true, nil
 		}
 	}
@@ -139,7 +150,7 @@ func (d *DB) colsSync(ctx context.Context, need []string, gas bool) (bool, error
 	defer c.loadMu.Unlock()
 	c.mu.Lock()
 	defer c.mu.Unlock()
-	if err := d.colsSyncLocked(ctx, need, gas); err != nil {
+	if err := d.colsSyncLocked(ctx); err != nil {
 		c.colsData = colsData{}
 		c.kept.Store(0)
 		return false, err
@@ -148,9 +159,8 @@ func (d *DB) colsSync(ctx context.Context, need []string, gas bool) (bool, error
 }
 
 // colsSyncLocked is colsSync's work under mu, in one read transaction: one
-// snapshot for the log's end, the columns first needed now and the runs
-// changed since.
-func (d *DB) colsSyncLocked(ctx context.Context, need []string, gas bool) error {
+// snapshot for the log's end and the runs changed since.
+func (d *DB) colsSyncLocked(ctx context.Context) error {
 	c := &d.cols
 	if c.state == colsOff {
 		return nil
@@ -161,7 +171,7 @@ func (d *DB) colsSyncLocked(ctx context.Context, need []string, gas bool) error 
 	}
 	defer tx.Rollback()
 	if c.state == colsEmpty {
-		if err := d.colsReadLocked(ctx, tx, need, gas); err != nil {
+		if err := d.colsReadLocked(ctx, tx); err != nil {
 			return err
 		}
 		return tx.Commit()
@@ -174,27 +184,13 @@ func (d *DB) colsSyncLocked(ctx context.Context, need []string, gas bool) error 
 	}
 	if cur != c.seq && oldest > c.seq+1 {
 		// The log no longer reaches back to the columns: read afresh.
-		if err := d.colsReadLocked(ctx, tx, need, gas); err != nil {
+		if err := d.colsReadLocked(ctx, tx); err != nil {
 			return err
 		}
 		return tx.Commit()
 	}
-	for _, col := range need {
-		if _, ok := c.vals[col]; !ok {
-			c.dropLazyLocked(need)
-			if err := c.loadValueLocked(ctx, tx, col); err != nil {
-				return err
-			}
-			c.lazy = append(c.lazy, col)
-		}
-	}
-	if gas && c.gas == nil {
-		if err := c.loadGasLocked(ctx, tx); err != nil {
-			return err
-		}
-	}
 	if cur != c.seq {
-		if err := d.colsCatchUpLocked(ctx, tx, cur, need, gas); err != nil {
+		if err := d.colsCatchUpLocked(ctx, tx, cur); err != nil {
 			return err
 		}
 	}
@@ -205,36 +201,11 @@ func (d *DB) colsSyncLocked(ctx context.Context, need []string, gas bool) error 
 	return tx.Commit()
 }
 
-func (c *trendCols) missingLocked(need []string, gas bool) bool {
-	for _, col := range need {
-		if _, ok := c.vals[col]; !ok {
-			return true
-		}
-	}
-	return gas && c.gas == nil
-}
-
-// colsReadLocked reads every held column of every run, and the tags, in
-// the snapshot of tx; the value columns loaded before stay loaded.
-func (d *DB) colsReadLocked(ctx context.Context, tx colsQuerier, need []string, gas bool) error {
+// colsReadLocked reads every column of every run, and the tags, in the
+// snapshot of tx.
+func (d *DB) colsReadLocked(ctx context.Context, tx colsQuerier) error {
 	c := &d.cols
-	// The value columns: the eager ones, those loaded lazily before
-	// (oldest first) and those needed now, within maxLazyCols.
-	lazy := slices.Clone(c.lazy)
-	for _, col := range need {
-		if !slices.Contains(colsEager, col) && !slices.Contains(lazy, col) {
-			lazy = append(lazy, col)
-		}
-	}
-	for len(lazy) > maxLazyCols {
-		k := slices.IndexFunc(lazy, func(col string) bool { return !slices.Contains(need, col) })
-		if k < 0 {
-			break
-		}
-		lazy = slices.Delete(lazy, k, k+1)
-	}
-	cols := append(slices.Clone(colsEager), lazy...)
-	gas = gas || c.gas != nil
+	c.colsData = colsData{} // the old columns go before the new are read
 	var seq, n int64
 	if err := tx.QueryRowContext(ctx, `SELECT coalesce(max(seq), 0) FROM run_changes`).Scan(&seq); err != nil {
 		return err
@@ -242,32 +213,32 @@ func (d *DB) colsReadLocked(ctx context.Context, tx colsQuerier, need []string, 
 	if err := tx.QueryRowContext(ctx, `SELECT count(*) FROM runs`).Scan(&n); err != nil {
 		return err
 	}
-	c.colsData = colsData{state: colsReady, seq: seq, vals: map[string][]float64{}, tags: map[string][]int64{},
-		orders: map[string][]int32{}, statusDict: []string{""}, sourceDict: []string{""}, lazy: lazy}
+	c.colsData = colsData{state: colsReady, seq: seq, vals: map[string]*valCol{}, tags: map[string][]int64{},
+		orders: map[string][]int32{}, statusDict: []string{""}, sourceDict: []string{""}, gasCode: map[string]uint16{},
+		text: newTextCol(int(n))}
 	c.id = make([]int64, 0, n)
 	c.started = make([]int64, 0, n)
-	c.chamber = make([]int32, 0, n)
-	c.recipe = make([]int32, 0, n)
-	c.oper = make([]int32, 0, n)
+	c.chamber = make([]uint16, 0, n)
+	c.recipe = make([]uint16, 0, n)
+	c.oper = make([]uint16, 0, n)
 	c.status = make([]uint8, 0, n)
 	c.source = make([]uint8, 0, n)
-	for _, col := range cols {
-		c.vals[col] = make([]float64, 0, n)
+	for _, col := range colsValues {
+		c.vals[col] = newValCol(int(n))
 	}
-	if gas {
-		c.gas, c.gasCode = make([]int32, 0, n), map[string]int32{}
-	}
-	rows, err := tx.QueryContext(ctx, `SELECT `+c.selectList(cols)+` FROM runs r ORDER BY r.id`)
+	c.gas = make([]uint16, 0, n)
+	c.gasCodeOf(nil) // code 0: ""
+	rows, err := tx.QueryContext(ctx, `SELECT `+colsSelect+` FROM runs r ORDER BY r.id`)
 	if err != nil {
 		return err
 	}
 	defer rows.Close()
-	sc := newColsScanner(len(cols), gas)
+	sc := newColsScanner()
 	for rows.Next() {
 		if err := rows.Scan(sc.dest...); err != nil {
 			return err
 		}
-		if !c.appendRow(sc, cols) {
+		if !c.appendRow(sc) {
 			return nil // state is colsOff
 		}
 	}
@@ -275,6 +246,9 @@ func (d *DB) colsReadLocked(ctx context.Context, tx colsQuerier, need []string, 
 		return err
 	}
 	rows.Close()
+	if c.text != nil {
+		c.text.finish()
+	}
 	if err := c.readTags(ctx, tx, nil); err != nil {
 		return err
 	}
@@ -282,41 +256,50 @@ func (d *DB) colsReadLocked(ctx context.Context, tx colsQuerier, need []string, 
 	return nil
 }
 
-// selectList is the column list of a runs row in the store (id first).
-func (c *trendCols) selectList(cols []string) string {
+// colsSelect is the column list of a runs row in the store (id first,
+// then colsValues in order).
+var colsSelect = func() string {
 	var b strings.Builder
 	b.WriteString(`r.id, r.started_at, coalesce(r.chamber_id, 0), coalesce(r.recipe_id, 0), r.operator_id, r.status, r.source_type`)
-	for _, col := range cols {
+	for _, col := range colsValues {
 		b.WriteString(", r.")
 		b.WriteString(col)
 	}
-	if c.gas != nil {
-		b.WriteString(", r.gas_mixture")
-	}
+	b.WriteString(", r.gas_mixture, r.title, r.notes")
 	return b.String()
-}
+}()
 
 // colsScanner holds the scan destinations of one row.
 type colsScanner struct {
 	id, started, chamber, recipe, oper int64
-	status, source, gas                sql.RawBytes
+	status, source, gas, title, notes  sql.RawBytes
 	vals                               []sql.NullFloat64
 	dest                               []any
 }
 
-func newColsScanner(nVals int, gas bool) *colsScanner {
-	s := &colsScanner{vals: make([]sql.NullFloat64, nVals)}
+func newColsScanner() *colsScanner {
+	s := &colsScanner{vals: make([]sql.NullFloat64, len(colsValues))}
 	s.dest = []any{&s.id, &s.started, &s.chamber, &s.recipe, &s.oper, &s.status, &s.source}
 	for i := range s.vals {
 		s.dest = append(s.dest, &s.vals[i])
 	}
-	if gas {
-		s.dest = append(s.dest, &s.gas)
-	}
+	s.dest = append(s.dest, &s.gas, &s.title, &s.notes)
 	return s
 }
 
+func (s *colsScanner) val(k int) float64 {
+	if s.vals[k].Valid {
+		return s.vals[k].Float64
+	}
+	return math.NaN()
+}
+
 func fitsInt32(v int64) bool { return v >= 0 && v <= math.MaxInt32 }
+
+// fitsUint16: chamber, recipe and operator ids are held in two bytes (a
+// log with more than 65 535 chambers, recipes or accounts, or gas
+// mixtures, turns the store off: trends then read through SQL).
+func fitsUint16(v int64) bool { return v >= 0 && v <= math.MaxUint16 }
 
 // code returns the code of v in a dictionary, adding it (false when a
 // byte-sized dictionary is full).
@@ -333,50 +316,54 @@ func code(dict *[]string, v []byte) (uint8, bool) {
 	return uint8(len(*dict) - 1), true
 }
 
-func (c *trendCols) gasCodeOf(v []byte) int32 {
+// gasCodeOf returns the code of a gas mixture, adding it (false: the
+// dictionary is full).
+func (c *trendCols) gasCodeOf(v []byte) (uint16, bool) {
 	if k, ok := c.gasCode[string(v)]; ok {
-		return k
+		return k, true
+	}
+	if len(c.gasDict) > math.MaxUint16 {
+		return 0, false
 	}
 	c.gasDict = append(c.gasDict, string(v))
-	k := int32(len(c.gasDict) - 1)
+	k := uint16(len(c.gasDict) - 1)
 	c.gasCode[string(v)] = k
-	return k
+	return k, true
 }
 
 // appendRow adds a scanned run at the end (ids arrive ascending); false
 // turns the store off (a value that does not fit).
-func (c *trendCols) appendRow(s *colsScanner, cols []string) bool {
+func (c *trendCols) appendRow(s *colsScanner) bool {
 	st, ok1 := code(&c.statusDict, s.status)
 	so, ok2 := code(&c.sourceDict, s.source)
-	if !fitsInt32(s.chamber) || !fitsInt32(s.recipe) || !fitsInt32(s.oper) || !ok1 || !ok2 {
+	gas, ok3 := c.gasCodeOf(s.gas)
+	if !fitsUint16(s.chamber) || !fitsUint16(s.recipe) || !fitsUint16(s.oper) || !ok1 || !ok2 || !ok3 {
 		c.off()
 		return false
 	}
 	c.id = append(c.id, s.id)
 	c.started = append(c.started, s.started)
-	c.chamber = append(c.chamber, int32(s.chamber))
-	c.recipe = append(c.recipe, int32(s.recipe))
-	c.oper = append(c.oper, int32(s.oper))
+	c.chamber = append(c.chamber, uint16(s.chamber))
+	c.recipe = append(c.recipe, uint16(s.recipe))
+	c.oper = append(c.oper, uint16(s.oper))
 	c.status = append(c.status, st)
 	c.source = append(c.source, so)
-	for i, col := range cols {
-		v := math.NaN()
-		if s.vals[i].Valid {
-			v = s.vals[i].Float64
-		}
-		c.vals[col] = append(c.vals[col], v)
+	for k, col := range colsValues {
+		c.vals[col].append(s.val(k))
 	}
-	if c.gas != nil {
-		c.gas = append(c.gas, c.gasCodeOf(s.gas))
+	c.gas = append(c.gas, gas)
+	if c.text != nil && !c.text.appendRun(s.title, s.notes) {
+		c.text = nil // searched through SQL
 	}
 	return true
 }
 
 // setRow overwrites the run at position i with a scanned row.
-func (c *trendCols) setRow(i int, s *colsScanner, cols []string) bool {
+func (c *trendCols) setRow(i int, s *colsScanner) bool {
 	st, ok1 := code(&c.statusDict, s.status)
 	so, ok2 := code(&c.sourceDict, s.source)
-	if !fitsInt32(s.chamber) || !fitsInt32(s.recipe) || !fitsInt32(s.oper) || !ok1 || !ok2 {
+	gas, ok3 := c.gasCodeOf(s.gas)
+	if !fitsUint16(s.chamber) || !fitsUint16(s.recipe) || !fitsUint16(s.oper) || !ok1 || !ok2 || !ok3 {
 		c.off()
 		return false
 	}
@@ -384,16 +371,13 @@ func (c *trendCols) setRow(i int, s *colsScanner, cols []string) bool {
 		c.holes--
 	}
 	c.started[i], c.chamber[i], c.recipe[i], c.oper[i], c.status[i], c.source[i] =
-		s.started, int32(s.chamber), int32(s.recipe), int32(s.oper), st, so
-	for k, col := range cols {
-		v := math.NaN()
-		if s.vals[k].Valid {
-			v = s.vals[k].Float64
-		}
-		c.vals[col][i] = v
+		s.started, uint16(s.chamber), uint16(s.recipe), uint16(s.oper), st, so
+	for k, col := range colsValues {
+		c.vals[col].set(i, s.val(k))
 	}
-	if c.gas != nil {
-		c.gas[i] = c.gasCodeOf(s.gas)
+	c.gas[i] = gas
+	if c.text != nil && !c.text.set(int32(i), s.title, s.notes) {
+		c.text = nil
 	}
 	return true
 }
@@ -402,87 +386,6 @@ func (c *trendCols) setRow(i int, s *colsScanner, cols []string) bool {
 func (c *trendCols) off() {
 	c.colsData = colsData{state: colsOff}
 	c.kept.Store(0)
-}
-
-// maxLazyCols is the most value columns held beyond colsEager (8 MB a
-// million runs each): the one loaded longest ago goes first.
-const maxLazyCols = 2
-
-// dropLazyLocked makes room for one more lazily loaded column, keeping
-// those in need.
-func (c *trendCols) dropLazyLocked(need []string) {
-	for len(c.lazy) >= maxLazyCols {
-		k := slices.IndexFunc(c.lazy, func(col string) bool { return !slices.Contains(need, col) })
-		if k < 0 {
-			return
-		}
-		delete(c.vals, c.lazy[k])
-		for _, f := range TrendFields {
-			if colName(f.col) == c.lazy[k] {
-				delete(c.orders, f.Key) // its order goes with it
-			}
-		}
-		c.lazy = slices.Delete(c.lazy, k, k+1)
-	}
-}
-
-// loadValueLocked reads one value column of the held runs (runs not
-// held are left to the catch-up that follows in the same snapshot).
-func (c *trendCols) loadValueLocked(ctx context.Context, tx colsQuerier, col string) error {
-	vs := make([]float64, len(c.id))
-	for i := range vs {
-		vs[i] = math.NaN()
-	}
-	rows, err := tx.QueryContext(ctx, `SELECT r.id, r.`+col+` FROM runs r ORDER BY r.id`)
-	if err != nil {
-		return fmt.Errorf("column %s: %w", col, err)
-	}
-	defer rows.Close()
-	i := 0
-	for rows.Next() {
-		var id int64
-		var v sql.NullFloat64
-		if err := rows.Scan(&id, &v); err != nil {
-			return err
-		}
-		for i < len(c.id) && c.id[i] < id {
-			i++
-		}
-		if i < len(c.id) && c.id[i] == id && v.Valid {
-			vs[i] = v.Float64
-		}
-	}
-	if err := rows.Err(); err != nil {
-		return err
-	}
-	c.vals[col] = vs
-	return nil
-}
-
-// loadGasLocked reads the gas mixture of the held runs.
-func (c *trendCols) loadGasLocked(ctx context.Context, tx colsQuerier) error {
-	c.gas, c.gasDict, c.gasCode = make([]int32, len(c.id)), nil, map[string]int32{}
-	c.gasCodeOf(nil) // code 0: ""
-	rows, err := tx.QueryContext(ctx, `SELECT r.id, r.gas_mixture FROM runs r ORDER BY r.id`)
-	if err != nil {
-		return fmt.Errorf("gas column: %w", err)
-	}
-	defer rows.Close()
-	i := 0
-	for rows.Next() {
-		var id int64
-		var g sql.RawBytes
-		if err := rows.Scan(&id, &g); err != nil {
-			return err
-		}
-		for i < len(c.id) && c.id[i] < id {
-			i++
-		}
-		if i < len(c.id) && c.id[i] == id {
-			c.gas[i] = c.gasCodeOf(g)
-		}
-	}
-	return rows.Err()
 }
 
 // readTags reads the tags of the runs ids (all runs when ids is nil) into
@@ -535,7 +438,7 @@ func int64Args(ids []int64) []any {
 }
 
 // colsCatchUpLocked reads again the runs changed after c.seq up to cur.
-func (d *DB) colsCatchUpLocked(ctx context.Context, tx colsQuerier, cur int64, need []string, gas bool) error {
+func (d *DB) colsCatchUpLocked(ctx context.Context, tx colsQuerier, cur int64) error {
 	c := &d.cols
 	rows, err := tx.QueryContext(ctx, `SELECT DISTINCT run_id FROM run_changes WHERE seq > ? AND seq <= ? ORDER BY run_id`, c.seq, cur)
 	if err != nil {
@@ -555,11 +458,7 @@ func (d *DB) colsCatchUpLocked(ctx context.Context, tx colsQuerier, cur int64, n
 		return err
 	}
 	if len(ids) > len(c.id)/colsReloadFraction+1000 {
-		return d.colsReadLocked(ctx, tx, need, gas)
-	}
-	cols := make([]string, 0, len(c.vals))
-	for col := range c.vals {
-		cols = append(cols, col)
+		return d.colsReadLocked(ctx, tx)
 	}
 	// Old tags of the changed runs go; their current ones are read below.
 	for tag, l := range c.tags {
@@ -578,10 +477,10 @@ func (d *DB) colsCatchUpLocked(ctx context.Context, tx colsQuerier, cur int64, n
 	seen := make(map[int64]bool, len(ids))
 	changedPos := map[int32]bool{}
 	shifted := false
-	sc := newColsScanner(len(cols), c.gas != nil)
+	sc := newColsScanner()
 	for start := 0; start < len(ids); start += 500 {
 		chunk := ids[start:min(start+500, len(ids))]
-		rows, err := tx.QueryContext(ctx, `SELECT `+c.selectList(cols)+` FROM runs r WHERE r.id IN (`+placeholders(len(chunk))+`) ORDER BY r.id`, int64Args(chunk)...)
+		rows, err := tx.QueryContext(ctx, `SELECT `+colsSelect+` FROM runs r WHERE r.id IN (`+placeholders(len(chunk))+`) ORDER BY r.id`, int64Args(chunk)...)
 		if err != nil {
 			return fmt.Errorf("changed runs: %w", err)
 		}
@@ -596,12 +495,12 @@ func (d *DB) colsCatchUpLocked(ctx context.Context, tx colsQuerier, cur int64, n
 				if i < len(c.id) {
 					shifted = true // a run id below the highest held: positions move
 				}
-				c.insertAt(i, cols)
+				c.insertAt(i)
 				c.id[i] = sc.id
 				c.status[i] = 0
 				c.holes++
 			}
-			if !c.setRow(i, sc, cols) {
+			if !c.setRow(i, sc) {
 				rows.Close()
 				return nil
 			}
@@ -625,6 +524,9 @@ func (d *DB) colsCatchUpLocked(ctx context.Context, tx colsQuerier, cur int64, n
 	if err := c.readTags(ctx, tx, ids); err != nil {
 		return err
 	}
+	if c.text == nil {
+		delete(c.orders, titleOrder) // the titles are no longer held
+	}
 	if shifted {
 		clear(c.orders) // rebuilt when next needed
 	} else {
@@ -633,25 +535,26 @@ func (d *DB) colsCatchUpLocked(ctx context.Context, tx colsQuerier, cur int64, n
 		}
 	}
 	if c.holes > len(c.id)/colsReloadFraction {
-		return d.colsReadLocked(ctx, tx, need, gas)
+		return d.colsReadLocked(ctx, tx)
 	}
 	return nil
 }
 
 // insertAt opens an empty slot at position i in every column.
-func (c *trendCols) insertAt(i int, cols []string) {
-	c.id = slices.Insert(c.id, i, 0)
-	c.started = slices.Insert(c.started, i, 0)
-	c.chamber = slices.Insert(c.chamber, i, 0)
-	c.recipe = slices.Insert(c.recipe, i, 0)
-	c.oper = slices.Insert(c.oper, i, 0)
-	c.status = slices.Insert(c.status, i, 0)
-	c.source = slices.Insert(c.source, i, 0)
-	for _, col := range cols {
-		c.vals[col] = slices.Insert(c.vals[col], i, math.NaN())
+func (c *trendCols) insertAt(i int) {
+	c.id = insertAt(c.id, i, 0)
+	c.started = insertAt(c.started, i, 0)
+	c.chamber = insertAt(c.chamber, i, 0)
+	c.recipe = insertAt(c.recipe, i, 0)
+	c.oper = insertAt(c.oper, i, 0)
+	c.status = insertAt(c.status, i, 0)
+	c.source = insertAt(c.source, i, 0)
+	for _, col := range colsValues {
+		c.vals[col].insert(i, math.NaN())
 	}
-	if c.gas != nil {
-		c.gas = slices.Insert(c.gas, i, 0)
+	c.gas = insertAt(c.gas, i, 0)
+	if c.text != nil {
+		c.text.insert(int32(i))
 	}
 }
 
@@ -661,8 +564,7 @@ func (c *trendCols) xs(f TrendField) func(i int32) float64 {
 		st := c.started
 		return func(i int32) float64 { return float64(st[i]) }
 	}
-	vs := c.vals[colName(f.col)]
-	return func(i int32) float64 { return vs[i] }
+	return c.vals[colName(f.col)].at
 }
 
 func colName(col string) string { return strings.TrimPrefix(col, "r.") }
@@ -678,13 +580,35 @@ func (c *trendCols) orderCmp(x func(int32) float64) func(a, b int32) int {
 	}
 }
 
+// titleOrder is the orders key of the title order (the run list's sort
+// by title; the other keys are trend fields').
+const titleOrder = "title"
+
+// keyCmp is the comparison of an order: (x, id) for a trend field's key,
+// (title, id) for titleOrder (c.text must be held).
+func (c *trendCols) keyCmp(key string) func(a, b int32) int {
+	if key == titleOrder {
+		return func(a, b int32) int {
+			if r := c.text.titleCmp(a, b); r != 0 {
+				return r
+			}
+			return cmp.Compare(c.id[a], c.id[b])
+		}
+	}
+	f, _ := LookupTrendField(key)
+	return c.orderCmp(c.xs(f))
+}
+
 // order returns the positions of the held runs sorted by (x, id); the
 // caller holds mu (a read lock suffices: a missing order is built under
 // ordersMu).
-func (c *trendCols) order(f TrendField) []int32 {
+func (c *trendCols) order(f TrendField) []int32 { return c.orderOf(f.Key) }
+
+// orderOf is order by a keyCmp key.
+func (c *trendCols) orderOf(key string) []int32 {
 	c.ordersMu.Lock()
 	defer c.ordersMu.Unlock()
-	if o, ok := c.orders[f.Key]; ok {
+	if o, ok := c.orders[key]; ok {
 		return o
 	}
 	o := make([]int32, 0, len(c.id)-c.holes)
@@ -693,10 +617,13 @@ func (c *trendCols) order(f TrendField) []int32 {
 			o = append(o, int32(i))
 		}
 	}
-	x := c.xs(f)
-	less := c.orderCmp(x)
-	if !slices.IsSortedFunc(o, less) {
-		slices.SortFunc(o, less)
+	if key == titleOrder {
+		if less := c.keyCmp(key); !slices.IsSortedFunc(o, less) {
+			slices.SortFunc(o, less)
+		}
+	} else {
+		f, _ := LookupTrendField(key)
+		o = radixOrder(o, c.xs(f))
 	}
 	if len(c.orders) >= maxOrders {
 		for k := range c.orders {
@@ -706,11 +633,13 @@ func (c *trendCols) order(f TrendField) []int32 {
 			}
 		}
 	}
-	c.orders[f.Key] = o
+	c.orders[key] = o
 	return o
 }
 
-// maxOrders is the most x orders kept (the start time's and two others).
+// maxOrders is the most orders kept (the start time's and two others:
+// trends' x quantities, the run list's sort keys; 4 MB each a million
+// runs, built again in tens of milliseconds).
 const maxOrders = 3
 
 // mergeOrder brings an order up to date after the runs at positions
@@ -718,8 +647,7 @@ const maxOrders = 3
 // One pass over the order (a map lookup per entry would cost more than
 // the rest of a catch-up).
 func (c *trendCols) mergeOrder(key string, ord []int32, changed map[int32]bool) []int32 {
-	f, _ := LookupTrendField(key)
-	less := c.orderCmp(c.xs(f))
+	less := c.keyCmp(key)
 	isChanged := make([]bool, len(c.id))
 	var fresh []int32
 	for i := range changed {
@@ -748,15 +676,15 @@ func (c *trendCols) mergeOrder(key string, ord []int32, changed map[int32]bool) 
 }
 
 // colsSeries builds the trend of yf against xf over the runs matching f
-// from the columns (f.Query must be empty), with the log position it is
-// current at; false when the store is not ready or a column it needs is
-// not held (the caller syncs again).
+// from the columns, with the log position it is current at; false when
+// the store is not ready or cannot search f's text (the caller syncs
+// again, then reads through SQL).
 func (d *DB) colsSeries(f RunFilter, xf, yf TrendField) (TrendSeries, int64, bool) {
 	c := &d.cols
 	c.mu.RLock()
 	defer c.mu.RUnlock()
-	if c.state != colsReady || c.missingLocked(colsNeed(xf, yf), strings.TrimSpace(f.Gas) != "") {
-		return TrendSeries{}, 0, false // another trend's columns took their place meanwhile
+	if c.state != colsReady || (strings.TrimSpace(f.Query) != "" && c.text == nil) {
+		return TrendSeries{}, 0, false
 	}
 	ts := TrendSeries{X: xf, Y: yf}
 	m, ok := c.matcher(f)
@@ -766,12 +694,15 @@ func (d *DB) colsSeries(f RunFilter, xf, yf TrendField) (TrendSeries, int64, boo
 	// The matching runs with both values, in x order (a plain loop: this
 	// is the whole cost of a first view).
 	ord := c.order(xf)
-	xv, yv := c.vals[colName(xf.col)], c.vals[colName(yf.col)]
-	if xf.Time {
-		xv = nil
+	var xv, yv, us *valCol
+	if !xf.Time {
+		xv = c.vals[colName(xf.col)]
 	}
-	if yf.Time {
-		yv = nil
+	if !yf.Time {
+		yv = c.vals[colName(yf.col)]
+	}
+	if yf.uncCol != "" {
+		us = c.vals[colName(yf.uncCol)]
 	}
 	mask := m.mask(c)
 	sel := ord
@@ -781,9 +712,17 @@ func (d *DB) colsSeries(f RunFilter, xf, yf TrendField) (TrendSeries, int64, boo
 			if mask != nil && !mask[i] {
 				continue
 			}
-			if (xv != nil && xv[i] != xv[i]) || (yv != nil && yv[i] != yv[i]) { // NaN: NULL
-				ts.Missing++
-				continue
+			if xv != nil {
+				if x := xv.at(i); x != x { // NaN: NULL
+					ts.Missing++
+					continue
+				}
+			}
+			if yv != nil {
+				if y := yv.at(i); y != y {
+					ts.Missing++
+					continue
+				}
 			}
 			sel = append(sel, i)
 		}
@@ -791,41 +730,63 @@ func (d *DB) colsSeries(f RunFilter, xf, yf TrendField) (TrendSeries, int64, boo
 	if len(sel) == 0 {
 		return ts, c.seq, true
 	}
-	var us []float64
-	if yf.uncCol != "" {
-		us = c.vals[colName(yf.uncCol)]
-	}
 	ts.Points = make([]TrendPoint, len(sel))
 	for k, i := range sel {
 		p := &ts.Points[k]
 		p.RunID, p.Started = c.id[i], c.started[i]
 		p.ChamberID, p.RecipeID = int64(c.chamber[i]), int64(c.recipe[i])
 		if xv != nil {
-			p.X = xv[i]
+			p.X = xv.at(i)
 		} else {
 			p.X = float64(c.started[i])
 		}
 		if yv != nil {
-			p.Y = yv[i]
+			p.Y = yv.at(i)
 		} else {
 			p.Y = float64(c.started[i])
 		}
-		if us != nil && us[i] > 0 { // NaN > 0 is false
-			p.YUnc = us[i]
+		if us != nil {
+			if u := us.at(i); u > 0 { // NaN > 0 is false
+				p.YUnc = u
+			}
 		}
 	}
 	return ts, c.seq, true
 }
 
-// colsMatch is a RunFilter (without text search) on the columns: every
-// condition is the one RunFilter.where writes in SQL.
+// colsMatch is a RunFilter on the columns: every condition is the one
+// RunFilter.where writes in SQL.
 type colsMatch struct {
-	chamber, recipe, oper int32 // 0: any
-	source, status        uint8 // 0: any
+	chamber, recipe, oper uint16 // 0: any
+	source, status        uint8  // 0: any
 	from, to              int64
 	hasFrom, hasTo        bool
 	gasIn                 []bool // by gas code; nil: any
 	tagIn                 []bool // by position; nil: any
+	words                 []textWord
+}
+
+// one reports whether run i matches (for estimates on a sample).
+func (m *colsMatch) one(c *trendCols, i int) bool {
+	switch {
+	case c.status[i] == 0,
+		m.chamber != 0 && c.chamber[i] != m.chamber,
+		m.recipe != 0 && c.recipe[i] != m.recipe,
+		m.oper != 0 && c.oper[i] != m.oper,
+		m.source != 0 && c.source[i] != m.source,
+		m.status != 0 && c.status[i] != m.status,
+		m.hasFrom && c.started[i] < m.from,
+		m.hasTo && c.started[i] >= m.to,
+		m.gasIn != nil && !m.gasIn[c.gas[i]],
+		m.tagIn != nil && !m.tagIn[i]:
+		return false
+	}
+	for k := range m.words {
+		if !c.matches(&m.words[k], i) {
+			return false
+		}
+	}
+	return true
 }
 
 // mask evaluates m on every position, one condition at a time (a tight
@@ -875,6 +836,9 @@ func (m *colsMatch) mask(c *trendCols) []bool {
 	if in := m.tagIn; in != nil {
 		cond(func(i int) bool { return in[i] })
 	}
+	if len(m.words) > 0 {
+		mask = c.textMatch(m.words, mask, len(c.id))
+	}
 	return mask
 }
 
@@ -883,13 +847,13 @@ func (c *trendCols) matcher(f RunFilter) (*colsMatch, bool) {
 	m := &colsMatch{}
 	for _, v := range []struct {
 		id  int64
-		dst *int32
+		dst *uint16
 	}{{f.ChamberID, &m.chamber}, {f.RecipeID, &m.recipe}, {f.OperatorID, &m.oper}} {
 		if v.id != 0 {
-			if !fitsInt32(v.id) || v.id == 0 {
+			if !fitsUint16(v.id) || v.id == 0 {
 				return nil, false
 			}
-			*v.dst = int32(v.id)
+			*v.dst = uint16(v.id)
 		}
 	}
 	for _, v := range []struct {
@@ -917,6 +881,9 @@ func (c *trendCols) matcher(f RunFilter) (*colsMatch, bool) {
 		for k, s := range c.gasDict {
 			m.gasIn[k] = containsFoldASCII(s, g)
 		}
+	}
+	if words := queryWords(f.Query); len(words) > 0 {
+		m.words = c.compileWords(words) // the callers checked that c.text is held
 	}
 	if f.Tag != "" {
 		ids := c.tags[strings.ToLower(f.Tag)]
@@ -953,17 +920,6 @@ func containsFoldASCII(s, sub string) bool {
 		}
 	}
 	return false
-}
-
-// colsNeed lists the value columns a trend of xf and yf reads.
-func colsNeed(xf, yf TrendField) []string {
-	var need []string
-	for _, col := range []string{xf.col, yf.col, yf.uncCol} {
-		if col != "" && col != "r.started_at" {
-			need = append(need, colName(col))
-		}
-	}
-	return need
 }
 
 // TrendColumnRuns is the number of runs the trend column store holds (0

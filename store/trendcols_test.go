@@ -3,6 +3,7 @@ package store
 import (
 	"context"
 	"fmt"
+	"math"
 	"math/rand/v2"
 	"reflect"
 	"slices"
@@ -52,6 +53,10 @@ func genTrendDB(t *testing.T, d *DB, n int) (chambers, recipes, ops []int64) {
 		return ids[rng.IntN(len(ids))]
 	}
 	gases := []string{"Ar 97 %, H2 3 %", "ar + 1 % h2", "He/H2_mix", ""}
+	// Titles and notes for text search: cases, LIKE's wildcards, non-ASCII
+	// letters (LIKE folds ASCII letters only), a word split between them.
+	titles := []string{"gen", "Gen Électrode", "GEN window", "gen 50%_off", "Über gen"}
+	notes := []string{"", "", "electrode cleaned", "Window Replaced", "électrode", "gen", "10% h2_x", "line\nnext"}
 	statuses := []string{StatusDraft, StatusSubmitted, StatusReturned, StatusSignedOff}
 	tx, err := d.db.Begin()
 	if err != nil {
@@ -67,14 +72,14 @@ func genTrendDB(t *testing.T, d *DB, n int) (chambers, recipes, ops []int64) {
 		}
 		res, err := tx.Exec(`INSERT INTO runs (title, started_at, operator_id, chamber_id, recipe_id, source_type, gas_mixture,
 			pressure_pa, power_w, electrode_gap_mm, instrument_fwhm_nm, gas_temperature_k, status, created_at, updated_at,
-			texc_k, texc_unc_k, ne_m3, ne_unc_m3, tgas_k, n_warnings)
-			VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
-			fmt.Sprintf("gen %d", i), started, ops[rng.IntN(len(ops))], pick(chambers, 0.15), pick(recipes, 0.3),
+			texc_k, texc_unc_k, ne_m3, ne_unc_m3, tgas_k, n_warnings, notes)
+			VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
+			titles[i%len(titles)]+fmt.Sprintf(" %d", i), started, ops[rng.IntN(len(ops))], pick(chambers, 0.15), pick(recipes, 0.3),
 			SourceTypes[rng.IntN(len(SourceTypes))].Key, gases[rng.IntN(len(gases))],
 			maybe(0.1, 10+float64(rng.IntN(20))*5), maybe(0.1, 20+500*rng.Float64()), maybe(0.6, 0.5+rng.Float64()),
 			maybe(0.3, 0.02+0.1*rng.Float64()), maybe(0.4, 300+float64(rng.IntN(8))*100), statuses[rng.IntN(4)], t0, t0,
 			maybe(0.2, 3000+5000*rng.Float64()), uncK, maybe(0.25, 1e20*(1+50*rng.Float64())), maybe(0.3, 1e19*rng.Float64()),
-			maybe(0.7, 400+1500*rng.Float64()), rng.IntN(4))
+			maybe(0.7, 400+1500*rng.Float64()), rng.IntN(4), notes[i%len(notes)])
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -121,6 +126,9 @@ func compareTrends(t *testing.T, d *DB, filters []RunFilter, pairs [][2]string) 
 			}
 			if d.cols.state != colsReady {
 				t.Fatalf("column store not in use (state %d)", d.cols.state)
+			}
+			if f.Query != "" && d.cols.text == nil {
+				t.Fatalf("filter %+v: the column store holds no text", f)
 			}
 			want := sqlTrend(t, d, f, p[0], p[1])
 			if !reflect.DeepEqual(got, want) {
@@ -169,6 +177,22 @@ func trendFilterSample(chambers, recipes, ops []int64) []RunFilter {
 		{ChamberID: chambers[1], Status: StatusSubmitted, From: day(1)},
 		{RecipeID: recipes[0], Tag: "baseline", Gas: "ar", SourceType: "dc_glow"},
 		{OperatorID: ops[0], ChamberID: chambers[2], To: day(6)},
+		{Query: "gen"},
+		{Query: "GEN 1"},
+		{Query: "window"},
+		{Query: "électrode"},
+		{Query: "ÉLECTRODE"},
+		{Query: "lectrode"},
+		{Query: "h2"},
+		{Query: "%"},
+		{Query: "_off"},
+		{Query: "0%"},
+		{Query: "\\n"},
+		{Query: "zzz"},
+		{Query: "über 99"},
+		{Query: "cleaned", ChamberID: chambers[1]},
+		{Query: "1", Status: StatusDraft, Tag: "baseline"},
+		{Query: "e", Gas: "h2"},
 	}
 }
 
@@ -237,9 +261,14 @@ func TestTrendColumnsMatchSQL(t *testing.T) {
 	exec(`UPDATE runs SET texc_k = texc_k + 1000, ne_m3 = NULL WHERE id % 97 = 0`)
 	exec(`UPDATE runs SET status = 'returned', power_w = 1e6 WHERE id BETWEEN 200 AND 260`)
 	exec(`DELETE FROM run_tags WHERE run_id BETWEEN 300 AND 400`)
+	exec(`UPDATE runs SET notes = 'now WINDOW cleaned' WHERE id % 13 = 0`)
+	exec(`UPDATE runs SET title = 'renamed ' || id WHERE id % 29 = 0`)
+	exec(`UPDATE runs SET title = title || ' last' WHERE id = (SELECT max(id) FROM runs)`)
 	exec(`DELETE FROM runs WHERE id IN (20, 21, 22)`)
 	exec(`INSERT INTO runs (id, title, started_at, operator_id, source_type, status, created_at, updated_at, texc_k, ne_m3, pressure_pa)
 		VALUES (21, 'back', 1767225600, ?, 'dc_glow', 'draft', 0, 0, 4321, 1e21, 55)`, ops[1])
+	filters = append(filters, RunFilter{Query: "back"}, RunFilter{Query: "now"}, RunFilter{Query: "renamed 5"},
+		RunFilter{Query: "last"}, RunFilter{Query: "cleaned"})
 	compareTrends(t, d, filters, somePairs)
 	compareTrends(t, d, filters[:1], allPairs)
 	if i, ok := findPos(d, 21); !ok || d.cols.status[i] == 0 {
@@ -373,12 +402,15 @@ func TestTrendColumnsConcurrent(t *testing.T) {
 	d, _ := openTrendDB(t)
 	chambers, recipes, ops := genTrendDB(t, d, 300)
 	filters := trendFilterSample(chambers, recipes, ops)
+	// The run list's searches from the columns, walking orders.
+	listSQLRows, listSortMax = 0, 10
+	t.Cleanup(func() { listSQLRows, listSortMax = 20000, 20000 })
 	done := make(chan struct{})
 	errs := make(chan error, 8)
 	go func() {
 		defer close(done)
 		for i := range 60 {
-			if _, err := d.db.Exec(`UPDATE runs SET texc_k = ?, chamber_id = ?, started_at = started_at + 60 WHERE id = ?`,
+			if _, err := d.db.Exec(`UPDATE runs SET texc_k = ?, chamber_id = ?, started_at = started_at + 60, title = title || ' x' WHERE id = ?`,
 				5000+float64(i), chambers[i%len(chambers)], 1+(i*37)%300); err != nil {
 				errs <- err
 				return
@@ -395,10 +427,16 @@ func TestTrendColumnsConcurrent(t *testing.T) {
 				default:
 				}
 				f := filters[(r+k)%len(filters)]
-				// x cycles through more conditions than the store keeps,
-				// so that readers drop each other's columns.
+				// x cycles through more quantities than the store keeps
+				// orders of, so that readers drop each other's orders; the
+				// run list's searches walk orders too.
 				x := []string{"started_at", "pressure_pa", "power_w", "electrode_gap_mm", "gas_temperature_k"}[(r+k)%5]
 				if _, err := d.TrendSeries(ctx, f, x, "texc_k"); err != nil {
+					errs <- err
+					return
+				}
+				sort := []string{"title", "-texc", "ne", "status"}[(r+k)%4]
+				if _, _, _, err := d.ListRunsCapped(ctx, RunFilter{Query: "gen", Sort: sort, Limit: 20, Offset: 40}, 100); err != nil {
 					errs <- err
 					return
 				}
@@ -413,25 +451,71 @@ func TestTrendColumnsConcurrent(t *testing.T) {
 	compareTrends(t, d, filters, [][2]string{{"started_at", "texc_k"}, {"pressure_pa", "texc_k"}, {"power_w", "texc_k"}})
 }
 
-// TestTrendColumnsLazyBound: the value columns loaded on demand stay
-// within maxLazyCols (the oldest goes), and a dropped one is read again
-// when a trend needs it, with the right numbers.
-func TestTrendColumnsLazyBound(t *testing.T) {
+// TestTrendColumnsCompact: every value column is loaded with the store,
+// conditions with few values as one-byte codes, results as doubles, and
+// the numbers read back exactly; a column widens as values are added
+// (codes of one byte, two bytes, then the values themselves), keeping
+// every value bit for bit (−0, NULL, the largest doubles).
+func TestTrendColumnsCompact(t *testing.T) {
 	d, _ := openTrendDB(t)
-	chambers, recipes, ops := genTrendDB(t, d, 200)
-	filters := trendFilterSample(chambers, recipes, ops)[:2]
-	for i, x := range []string{"pressure_pa", "power_w", "electrode_gap_mm", "gas_temperature_k", "pressure_pa"} {
-		// A change before each: orders of dropped columns must not be
-		// merged (or kept).
-		if _, err := d.db.Exec(`UPDATE runs SET pressure_pa = ?, power_w = ? WHERE id = ?`, 7+i, 9+i, 5+i); err != nil {
-			t.Fatal(err)
-		}
-		compareTrends(t, d, filters, [][2]string{{x, "tgas_k"}})
-		if n := len(d.cols.vals) - len(colsEager); n > maxLazyCols {
-			t.Fatalf("after x = %s: %d lazy columns held (%v), want at most %d", x, n, d.cols.lazy, maxLazyCols)
+	genTrendDB(t, d, 400)
+	if _, err := d.TrendSeries(context.Background(), RunFilter{}, "started_at", "texc_k"); err != nil {
+		t.Fatal(err)
+	}
+	for _, col := range colsValues {
+		if d.cols.vals[col] == nil || d.cols.vals[col].len() != len(d.cols.id) {
+			t.Fatalf("column %s not loaded with the store", col)
 		}
 	}
-	if !slices.Equal(d.cols.lazy, []string{"tgas_k", "pressure_pa"}) {
-		t.Errorf("lazy columns %v, want tgas_k (needed throughout) and pressure_pa (loaded last)", d.cols.lazy)
+	if v := d.cols.vals["pressure_pa"]; v.c8 == nil {
+		t.Errorf("pressure_pa (20 set points) not held as byte codes")
+	}
+	if v := d.cols.vals["texc_k"]; v.c16 == nil {
+		t.Errorf("texc_k (about 320 distinct values and NULL) not held as two-byte codes")
+	}
+
+	v := newValCol(0)
+	var want []float64
+	add := func(x float64) {
+		v.append(x)
+		want = append(want, x)
+	}
+	check := func(stage string) {
+		t.Helper()
+		for i, w := range want {
+			if g := v.at(int32(i)); math.Float64bits(g) != math.Float64bits(w) && !(g != g && w != w) {
+				t.Fatalf("%s: value %d is %v, want %v", stage, i, g, w)
+			}
+		}
+	}
+	add(math.NaN())
+	add(math.Copysign(0, -1))
+	add(0)
+	for i := range 250 {
+		add(float64(i) * 0.1)
+	}
+	check("bytes")
+	if v.c8 == nil {
+		t.Fatal("253 values: want byte codes")
+	}
+	for i := range 1000 {
+		add(1e300 + float64(i)*1e285)
+	}
+	v.set(3, math.MaxFloat64)
+	want[3] = math.MaxFloat64
+	v.insert(5, 42.5)
+	want = slices.Insert(want, 5, 42.5)
+	check("two bytes")
+	if v.c16 == nil {
+		t.Fatal("1254 values: want two-byte codes")
+	}
+	for i := range 70000 {
+		add(float64(i) + 0.5)
+	}
+	v.set(7, -1)
+	want[7] = -1
+	check("doubles")
+	if v.f == nil {
+		t.Fatal("71254 values: want doubles")
 	}
 }

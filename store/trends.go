@@ -107,16 +107,19 @@ func (f RunFilter) Where() (string, []any) { return f.where() }
 // TrendFields) over the runs matching f; f's Sort, Limit and Offset are
 // ignored. Unknown field keys are ErrInvalid.
 //
-// Without text search (f.Query) the series comes from the trend column
-// store (trendcols.go): every run's plotted quantities and filtered
-// attributes in memory, made current from the run_changes log (migration
-// 0004) before each answer, so a series of a million runs is built in
-// tens of milliseconds and never lags a committed change. With text
-// search, only the needed columns of runs are read through SQL.
+// The series comes from the trend column store (trendcols.go): every
+// run's plotted quantities, filtered attributes and searched text in
+// memory, made current from the run_changes log (migration 0004) before
+// each answer, so a series of a million runs is built in tens of
+// milliseconds and never lags a committed change. When the store cannot
+// answer (a text search with a zero byte or invalid UTF-8, a run text the
+// store cannot hold, ids beyond its limits), only the needed columns of
+// runs are read through SQL.
 //
 // Results are cached per filter and fields with the log position they
-// are current at. A cached SQL series is brought up to date by re-reading
-// only the runs changed since; a column-store series is built again.
+// are current at (column-store series up to colsCacheMaxPoints points).
+// A cached SQL series is brought up to date by re-reading only the runs
+// changed since; a column-store series is built again.
 // Callers must not modify the returned series.
 func (d *DB) TrendSeries(ctx context.Context, f RunFilter, xField, yField string) (TrendSeries, error) {
 	xf, ok := LookupTrendField(xField)
@@ -132,7 +135,7 @@ func (d *DB) TrendSeries(ctx context.Context, f RunFilter, xField, yField string
 	// tries, as trends of other quantities may drop a column this one
 	// needs between the sync and the build.
 	for try := 0; try < 3 && trendColumnsUsable(f); try++ {
-		ok, err := d.colsSync(ctx, colsNeed(xf, yf), strings.TrimSpace(f.Gas) != "")
+		ok, err := d.colsSync(ctx)
 		if err != nil {
 			return TrendSeries{}, err
 		}
@@ -147,7 +150,9 @@ func (d *DB) TrendSeries(ctx context.Context, f RunFilter, xField, yField string
 			return e.ts, nil
 		}
 		if ts, seq, ok := d.colsSeries(f, xf, yf); ok {
-			d.trends.put(trendEntry{ckey, seq, ts, nil})
+			if len(ts.Points) <= colsCacheMaxPoints {
+				d.trends.put(trendEntry{ckey, seq, ts, nil})
+			}
 			return ts, nil
 		}
 	}
@@ -393,12 +398,19 @@ type trendEntry struct {
 const trendCacheSize = 8
 
 // trendCacheMaxPoints bounds the points held by the cache (a point is 56
-// bytes, so about 67 MB): on a log of a million runs the series of all
+// bytes, so about 17 MB): on a log of a million runs the series of all
 // runs alone is a million points, and the trend column store beside it
-// holds about 75 MB; series of the store are rebuilt from it in tens of
+// holds about 100 MB; series of the store are rebuilt from it in tens of
 // milliseconds, so the cache need not hold many. The newest series is
 // always kept.
-const trendCacheMaxPoints = 1_200_000
+const trendCacheMaxPoints = 300_000
+
+// colsCacheMaxPoints: a series of the column store with more points is
+// not cached (a series of a million runs is 56 MB, and building it again
+// from the columns takes 10–20 ms): the columns, which hold every
+// plotted quantity, leave the cache little room under serve's soft heap
+// limit.
+const colsCacheMaxPoints = 250_000
 
 func (c *trendCache) get(key string) (trendEntry, bool) {
 	c.mu.Lock()
