@@ -61,6 +61,7 @@ var flagSeverity = map[string]Severity{
 	// Whole-spectrum fit (diag/spectrum whole.go).
 	"whole_lines_disagree": SeverityProblem, // the two routes differ beyond 2σ
 	"whole_fit_failed":     SeverityCaution, // lines result reported instead
+	"whole_density_limit":  SeverityCaution, // n_e an upper limit only
 }
 
 // SeverityOf returns the severity of a flag code (caution when the code

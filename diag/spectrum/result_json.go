@@ -1763,6 +1763,19 @@ func appendJSONWholeFit(b []byte, v *WholeFit) ([]byte, error) {
 			b = append(b, ']')
 		}
 	}
+	if v.ElectronDensityUpperLimitM3 != nil {
+		if len(b) > n0 {
+			b = append(b, ',')
+		}
+		b = append(b, "\"electron_density_upper_limit_m3\":"...)
+		if v.ElectronDensityUpperLimitM3 == nil {
+			b = append(b, "null"...)
+		} else {
+			if b, err = appendJSONFloat(b, float64((*v.ElectronDensityUpperLimitM3))); err != nil {
+				return b, err
+			}
+		}
+	}
 	if v.GasTemperatureK != nil {
 		if len(b) > n0 {
 			b = append(b, ',')

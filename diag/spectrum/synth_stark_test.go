@@ -5,6 +5,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"strings"
 	"testing"
 
 	"glowlog/diag"
@@ -341,6 +342,64 @@ func TestSynthesizeStarkScipyProfile(t *testing.T) {
 			if r := got/l.P[k] - 1; math.Abs(r) > 5e-3 {
 				t.Errorf("H%d at %g nm: %.6g per nm, scipy %.6g (%+.2g %%)", l.Upper, d, got, l.P[k], 100*r)
 			}
+		}
+	}
+}
+
+// TestWholeDensityLimit: Hα and Hβ at 10²⁰ m⁻³ seen through a 0.8 nm
+// instrument — Stark FWHMs of a few hundredths of a nm, widening the
+// lines by well under 1 % — give no measured n_e from the whole fit: no
+// value, an upper limit at or above the truth, and the caution
+// FlagWholeDensityLimit naming the line that widens most. With a 0.02 nm
+// instrument the same density is measured (no limit, no flag).
+func TestWholeDensityLimit(t *testing.T) {
+	p := NewPipeline(8192)
+	for _, c := range []struct {
+		lo, hi, inst float64
+		limit        bool
+	}{{470, 670, 0.8, true}, {480, 492, 0.02, false}} {
+		uppers := []int{3, 4}
+		if !c.limit {
+			uppers = []int{4}
+		}
+		x := linspace(c.lo, c.hi, 2048)
+		const ne = 1e20
+		y, _, err := SynthesizeStark(SynthConfig{WavelengthNM: x, Uppers: uppers, ExcitationTemperatureK: 5000,
+			ElectronDensityM3: ne, GasTemperatureK: 600, InstrumentFWHMNM: c.inst, HalphaArea: 2e6, BaselinePerNM: 100})
+		if err != nil {
+			t.Fatal(err)
+		}
+		opt := Options{Model: ModelWhole, Conditions: diag.Measurement{InstrumentGaussFWHMNM: c.inst, GasTemperatureK: 600}}
+		res, err := p.Analyze(&Spectrum{Name: "weak", WavelengthNM: x, Counts: y}, opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if res.Whole == nil {
+			t.Fatalf("instrument %g nm: no whole fit (flags %v)", c.inst, res.Flags)
+		}
+		var flag *diag.Flag
+		for i := range res.Flags {
+			if res.Flags[i].Code == FlagWholeDensityLimit {
+				flag = &res.Flags[i]
+			}
+		}
+		if !c.limit {
+			if flag != nil || res.ElectronDensityM3 == nil || res.Whole.ElectronDensityUpperLimitM3 != nil {
+				t.Errorf("instrument %g nm: want a measured n_e, got %v, limit %v, flag %v", c.inst, res.ElectronDensityM3, res.Whole.ElectronDensityUpperLimitM3, flag)
+			}
+			continue
+		}
+		if res.ElectronDensityM3 != nil || res.Whole.ElectronDensityM3 != nil {
+			t.Errorf("instrument %g nm: n_e %v reported as a value", c.inst, *res.Whole.ElectronDensityM3)
+		}
+		lim := res.Whole.ElectronDensityUpperLimitM3
+		if lim == nil || !(*lim >= ne) {
+			t.Errorf("instrument %g nm: upper limit %v, want ≥ the true %g", c.inst, lim, ne)
+		}
+		if flag == nil || !strings.Contains(flag.Message, "upper limit") || !strings.Contains(flag.Message, "Hβ") {
+			t.Errorf("instrument %g nm: flag %v, want %s naming the upper limit and Hβ", c.inst, flag, FlagWholeDensityLimit)
+		} else if diag.SeverityOf(flag.Code) != diag.SeverityCaution {
+			t.Errorf("%s has severity %v, want caution", flag.Code, diag.SeverityOf(flag.Code))
 		}
 	}
 }

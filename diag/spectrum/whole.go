@@ -103,6 +103,18 @@ const (
 	// beside the whole fit (GGC 2003 against SH99).
 	wholeSH99WidthRel = 0.0075
 	wholeLineShapeRel = 0.0075
+	// wholeWeakExcessSigma and wholeGaussRelDefault decide when n_e is
+	// only an upper limit: the Stark part must widen at least one line
+	// carrying signal beyond its Gaussian (instrument ⊕ Doppler(T_gas))
+	// by more than wholeWeakExcessSigma times the relative accuracy of
+	// that Gaussian width — the given instrument σ, or
+	// wholeGaussRelDefault (2 %) when none is given. Below that, a
+	// Gaussian wrong by its own accuracy would move n_e by more than it
+	// measures (a line whose Stark FWHM is 10 % of its Gaussian is only
+	// 5.5 % wider: Olivero & Longbothum 1977). Both common practice, no
+	// source.
+	wholeWeakExcessSigma = 3.0
+	wholeGaussRelDefault = 0.02
 	// wholeTeRelDefault and wholeTeRelGiven are the relative 1σ of the
 	// electron temperature of the tables: a factor of 2 when the default
 	// 1e4 K is used, 20 % when T_e was given. Common practice, no
@@ -302,6 +314,9 @@ func (p *Pipeline) whole(res *Result, in wholeInput, opt Options) {
 	}
 	if wf.offTie != "" {
 		why = append(why, wf.offTie)
+	}
+	if wf.weakNe != "" {
+		res.Flags = append(res.Flags, diag.Flag{Code: FlagWholeDensityLimit, Message: "whole-spectrum fit: " + wf.weakNe})
 	}
 	if len(why) > 0 {
 		res.Flags = append(res.Flags, diag.Flag{Code: FlagWholeDisagrees, Message: "whole-spectrum fit: " +

@@ -535,6 +535,10 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 		}
 	}
 	ne := math.Exp(th[pr.iNe])
+	weakNe := ""
+	if !atBound {
+		weakNe = f.weakDensity(th, ne)
+	}
 
 	// Parameters list.
 	free := []WholeParam{}
@@ -571,6 +575,8 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 	}
 	if atBound {
 		add("n_e", "Electron density (a limit: the end of the line shapes' range)", "m⁻³", ne, 0, false)
+	} else if weakNe != "" {
+		add("n_e", "Electron density (fitted, not a measurement: reported as an upper limit)", "m⁻³", ne, ne*sd(pr.iNe), false)
 	} else {
 		add("n_e", "Electron density", "m⁻³", ne, ne*sd(pr.iNe), false)
 	}
@@ -724,6 +730,13 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 		wf.ElectronDensityUncSysM3 = fptr(sys)
 		wf.ElectronDensityUncM3 = fptr(math.Hypot(neStat, sys))
 		wf.ElectronDensityUncParts = parts
+		if weakNe != "" {
+			// Not a measurement: an upper limit, the value + 2 total σ.
+			lim := ne + 2*math.Hypot(neStat, sys)
+			wf.ElectronDensityUpperLimitM3 = fptr(lim)
+			wf.ElectronDensityM3, wf.ElectronDensityUncStatM3, wf.ElectronDensityUncSysM3, wf.ElectronDensityUncM3 = nil, nil, nil, nil
+			wf.weakNe = fmt.Sprintf("n_e is only an upper limit, below %s m⁻³ (the fitted %s m⁻³ + 2σ): %s", fmtG(lim), fmtG(ne), weakNe)
+		}
 	}
 	if pr.iTg >= 0 {
 		wf.GasTemperatureK = fptr(th[pr.iTg])
@@ -1048,4 +1061,59 @@ func (f *wholeFitter) lineReadExponent(l *wline, ne float64) (float64, bool) {
 		return 0, false
 	}
 	return math.Log(w1/w0) / math.Log(hi/lo), true
+}
+
+// weakDensity returns why the fitted n_e is not a measurement ("" when
+// it is): the Stark part widens no line carrying signal (≥
+// wholeSignalSigma) beyond its Gaussian, instrument ⊕ Doppler(T_gas), by
+// more than wholeWeakExcessSigma × the Gaussian's relative accuracy (the
+// instrument σ given, else wholeGaussRelDefault). The widening is the
+// Voigt FWHM of the Stark FWHM and the Gaussian over the Gaussian, − 1
+// (Olivero & Longbothum 1977); a tabulated line whose Stark width is
+// below the tables' own Doppler width has none.
+func (f *wholeFitter) weakDensity(th []float64, ne float64) string {
+	best, bestName, bestRatio := -1.0, "", 0.0
+	for _, l := range f.lines {
+		if !(l.sig >= wholeSignalSigma) {
+			continue
+		}
+		g, tg := f.lineInst(l, th)
+		gauss := math.Hypot(g, diag.DopplerFWHMNM(l.center, tg, f.mass))
+		if !(gauss > 0) {
+			continue
+		}
+		stark := 0.0
+		if !l.shapeSH {
+			stark = l.rel.LorentzianWidthNM(l.rel.WidthFromDensity(ne))
+		} else if w, err := l.sh.StarkWidthNM(sh99.FWHM, ne, f.te); err == nil {
+			stark = w
+		} else if wt, err := l.sh.TableWidthNM(sh99.FWHM, ne, f.te); err == nil {
+			// Outside the range of the tables' Stark-only widths: the
+			// Lorentzian that, with the tables' Doppler width, makes
+			// their FWHM (a Voigt reading of the tabulated profile).
+			if w, err := diag.LorentzFromVoigt(wt, l.sh.DopplerFWHMNM(f.te)); err == nil {
+				stark = w
+			}
+		}
+		excess := 0.0
+		if stark > 0 {
+			excess = diag.VoigtFWHM(gauss, stark)/gauss - 1
+		}
+		if excess > best {
+			best, bestName, bestRatio = excess, l.t.Name(), stark/gauss
+		}
+	}
+	if best < 0 {
+		return ""
+	}
+	rel, what := wholeGaussRelDefault, fmt.Sprintf("%g %% when no instrument σ is given", 100*wholeGaussRelDefault)
+	if s, i := f.m.InstrumentFWHMUncNM, f.minInst(); s > 0 && i > 0 {
+		rel, what = s/i, "from the instrument σ given"
+	}
+	need := wholeWeakExcessSigma * rel
+	if best >= need {
+		return ""
+	}
+	return fmt.Sprintf("the Stark broadening widens no line enough to measure it — the most, %s (Stark FWHM %.2g of its Gaussian instrument ⊕ Doppler width), by %.2g %%, under %g × the Gaussian width's accuracy (%.2g %%, %s); a Gaussian wrong by that much would move n_e by more than the fit measures. A narrower instrument, or Hβ and higher members (wider Stark widths), give a measured n_e",
+		bestName, bestRatio, 100*best, wholeWeakExcessSigma, 100*rel, what)
 }

@@ -56,6 +56,12 @@ func ValidWholeAreas(s string) bool {
 // line-by-line route disagree beyond their uncertainties.
 const FlagWholeDisagrees = "whole_lines_disagree"
 
+// FlagWholeDensityLimit is raised when the whole fit's n_e is reported as
+// an upper limit only: the Stark part widens no line carrying signal by
+// enough beyond its Gaussian (instrument ⊕ Doppler) for the width to
+// measure n_e (wholeWeakExcessSigma).
+const FlagWholeDensityLimit = "whole_density_limit"
+
 // WholeParam is one parameter of the whole-spectrum model.
 type WholeParam struct {
 	// Name is a stable identifier: "T_exc", "scale", "n_e", "T_gas",
@@ -139,8 +145,14 @@ type WholeFit struct {
 	// ElectronDensityUncParts are the parts of the systematic σ of n_e,
 	// m⁻³ (added by the whole-fit work).
 	ElectronDensityUncParts []diag.UncPart `json:"electron_density_unc_sys_parts,omitempty"`
-	GasTemperatureK         *float64       `json:"gas_temperature_K,omitempty"`
-	GasTemperatureUncK      *float64       `json:"gas_temperature_unc_K,omitempty"`
+	// ElectronDensityUpperLimitM3 is set instead of ElectronDensityM3
+	// when the Stark part widens no line carrying signal enough for a
+	// measured n_e (FlagWholeDensityLimit): the fitted value + 2 total σ.
+	ElectronDensityUpperLimitM3 *float64 `json:"electron_density_upper_limit_m3,omitempty"`
+	// weakNe is the reason n_e is only a limit ("" when it is a value).
+	weakNe             string
+	GasTemperatureK    *float64 `json:"gas_temperature_K,omitempty"`
+	GasTemperatureUncK *float64 `json:"gas_temperature_unc_K,omitempty"`
 	// Lines route beside it, and the difference in combined σ.
 	LinesExcitationTemperatureK    *float64 `json:"lines_excitation_temperature_K"`
 	LinesExcitationTemperatureUncK *float64 `json:"lines_excitation_temperature_unc_K"`
