@@ -500,3 +500,20 @@ func (l *Line) StarkRange(kind WidthKind, tK float64) (neLo, neHi, wLo, wHi floa
 func (l *Line) ProfileRange(tK float64) (neLo, neHi float64, ok bool) {
 	return l.neRange(tK, nil)
 }
+
+// NodeDistance says how far (neM3, tK) lies from the tables' nodes, for
+// the accuracy of interpolating between them: 4t(1−t) of the cell weight
+// t in ln n_e and in ln T, the larger of the two — 0 at a node (in both
+// variables), 1 midway between two nodes in either. Outside the grid it
+// is 1.
+func (l *Line) NodeDistance(neM3, tK float64) float64 {
+	if !(neM3 > 0) || !(tK > 0) {
+		return 1
+	}
+	_, tj, okj := cell(l.lne, math.Log(neM3*1e-6))
+	_, tk, okk := cell(l.lt, math.Log(tK))
+	if !okj || !okk {
+		return 1
+	}
+	return math.Max(4*tj*(1-tj), 4*tk*(1-tk))
+}

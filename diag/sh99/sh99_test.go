@@ -435,3 +435,25 @@ func BenchmarkDensityFromStarkWidth(b *testing.B) {
 		}
 	}
 }
+
+// TestNodeDistance: 0 on a grid node, 1 midway (in ln n_e) between two
+// density nodes at a node temperature, 1 outside the grid, and between 0
+// and 1 elsewhere.
+func TestNodeDistance(t *testing.T) {
+	l := line(t, 4)
+	ne, tk := l.Grid()
+	if d := l.NodeDistance(ne[3], tk[2]); d != 0 {
+		t.Errorf("at the node (%g, %g): %g, want 0", ne[3], tk[2], d)
+	}
+	mid := math.Sqrt(ne[3] * ne[4])
+	if d := l.NodeDistance(mid, tk[2]); math.Abs(d-1) > 1e-9 {
+		t.Errorf("midway in ln n_e: %g, want 1", d)
+	}
+	if d := l.NodeDistance(ne[0]/10, tk[2]); d != 1 {
+		t.Errorf("outside the grid: %g, want 1", d)
+	}
+	q := ne[3] * math.Pow(ne[4]/ne[3], 0.25)
+	if d := l.NodeDistance(q, tk[2]); math.Abs(d-0.75) > 1e-9 {
+		t.Errorf("a quarter of the way: %g, want 0.75", d)
+	}
+}

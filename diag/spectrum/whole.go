@@ -82,27 +82,32 @@ const (
 	// combined σ, beyond which FlagWholeDisagrees is raised. Common
 	// practice, no source.
 	wholeDisagreeSigma = 2.0
-	// wholeSH99WidthRel and wholeLineShapeRel are the relative 1σ of
+	// wholeReadNodeRel and wholeReadMidRel give the relative 1σ r of
 	// the widths the model takes from the SH99 tables as this package
 	// reads them (interpolation in detuning, between density nodes and
-	// in T): wholeSH99WidthRel common to all lines, wholeLineShapeRel
-	// each line's own, independent between lines. Evidence: our FWHM
-	// against an independent reading of the same tables (the scipy
-	// generator of testdata/wholesynth, its own interpolation scheme) at
-	// 197 line/density points differs by RMS 0.77 %, mean −0.40 %, at
-	// most 2.8 % (TestWholeSynthTableWidths), and by at most 0.52 % at
-	// the node densities of testdata/sh99synth; the width check values
-	// of physics.md §10 items 10–11, read by an unstated method, differ
-	// by −3.9 … +1.1 %. Each part is taken as the RMS of the difference
-	// between two readings, 0.75 % (so 1.1 % per line in all, twice the
-	// 0.55 % the RMS gives for one reading if both are equally good): our
-	// estimate from these comparisons. These parts say how well the
-	// tables are read, not how well the tables' theory (model microfield
-	// method, pure H–H⁺) describes a plasma; that difference between
-	// Stark models shows as the line-by-line route's per-model densities
-	// beside the whole fit (GGC 2003 against SH99).
-	wholeSH99WidthRel = 0.0075
-	wholeLineShapeRel = 0.0075
+	// in T), r = wholeReadNodeRel + wholeReadMidRel × d, d the distance
+	// from the tables' nodes (sh99.Line.NodeDistance: 0 at a node, 1
+	// midway), carried twice: once common to all lines and once each
+	// line's own, independent between lines. Evidence: our FWHM against
+	// an independent reading of the same tables (the scipy generator of
+	// testdata/wholesynth, its own interpolation scheme) at 197
+	// line/density points differs by RMS 0.38 % where d < 0.25, 0.58 %
+	// for d 0.25–0.5, 0.69 % for 0.5–0.75 and 0.93 % for d ≥ 0.75 (mean
+	// −0.40 %, at most 2.8 %; TestWholeSynthTableWidths), and by at most
+	// 0.52 % at the node densities of testdata/sh99synth; r follows that
+	// RMS (0.3 % + 0.65 % d), for each part, so √2 r per line in all.
+	// The width check values of physics.md §10 items 10–11, read by an
+	// unstated method, differ by −3.9 … +1.1 %. These parts say how well
+	// the tables are read, not how well the tables' theory (model
+	// microfield method, pure H–H⁺) describes a plasma; that difference
+	// between Stark models shows as the line-by-line route's per-model
+	// densities beside the whole fit (GGC 2003 against SH99).
+	wholeReadNodeRel = 0.003
+	wholeReadMidRel  = 0.0065
+	// wholeRelationRel is the same for a line whose width comes from a
+	// Stark relation (outside the tables): the tables' midway figure.
+	// Our estimate, no source.
+	wholeRelationRel = 0.0095
 	// wholeWeakExcessSigma and wholeGaussRelDefault decide when n_e is
 	// only an upper limit: the Stark part must widen at least one line
 	// carrying signal beyond its Gaussian (instrument ⊕ Doppler(T_gas))

@@ -994,18 +994,27 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) (part
 	// change, through l.dn, is projected on ln n_e and β by the fit's
 	// sensitivities: the common part coherently over the lines, the
 	// line part in quadrature.
-	var cn, cb, sn, sb float64
+	// r is wholeReadNodeRel + wholeReadMidRel × the line's distance from
+	// the tables' nodes (sh99 NodeDistance: 0 at a node, 1 midway), for
+	// each part; a relation's width takes wholeRelationRel.
+	var cn, cb, sn, sb, rMin, rMax float64
+	rMin = math.Inf(1)
 	anySH := false
 	for k, l := range f.lines {
 		pk, ok := f.lineReadExponent(l, ne)
 		if !ok || !(pk > 0) {
 			continue
 		}
-		anySH = anySH || l.shapeSH
+		r := wholeRelationRel
+		if l.shapeSH {
+			anySH = true
+			r = wholeReadNodeRel + wholeReadMidRel*l.sh.NodeDistance(ne, f.te)
+		}
+		rMin, rMax = math.Min(rMin, r), math.Max(rMax, r)
 		a := f.areaOf(k, th)
 		var d, db float64
 		for i := l.plo; i < l.phi; i++ {
-			dm := a * l.dn[i-l.plo] / pk
+			dm := a * l.dn[i-l.plo] * r / pk
 			d += sens[i] * dm
 			db += sensB[i] * dm
 		}
@@ -1014,15 +1023,21 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) (part
 		sn += d * d
 		sb += db * db
 	}
+	if rMax == 0 {
+		return parts, tParts
+	}
+	span := fmt.Sprintf("±%.2g %%", 100*rMax)
+	if rMax-rMin > 5e-5 {
+		span = fmt.Sprintf("±%.2g … %.2g %%", 100*rMin, 100*rMax)
+	}
 	if len(f.lines) > 1 {
-		add(fmt.Sprintf("line widths of the tables, line by line (±%g %% each)", 100*wholeLineShapeRel),
-			[2]float64{wholeLineShapeRel * math.Sqrt(sn), wholeLineShapeRel * math.Sqrt(sb)})
+		add("line widths of the tables, line by line (widths "+span+" each)", [2]float64{math.Sqrt(sn), math.Sqrt(sb)})
 	}
-	name := fmt.Sprintf("SH99 tables as read, all lines (widths ±%g %%)", 100*wholeSH99WidthRel)
+	name := "SH99 tables as read, all lines (widths " + span + ")"
 	if !anySH {
-		name = fmt.Sprintf("Stark relation accuracy (widths ±%g %%)", 100*wholeSH99WidthRel)
+		name = "Stark relation accuracy (widths " + span + ")"
 	}
-	add(name, [2]float64{wholeSH99WidthRel * math.Abs(cn), wholeSH99WidthRel * math.Abs(cb)})
+	add(name, [2]float64{math.Abs(cn), math.Abs(cb)})
 	return parts, tParts
 }
 
