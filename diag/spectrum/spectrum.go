@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"math"
 	"slices"
-	"strconv"
 
 	"glowlog/diag"
 	"glowlog/diag/linefit"
@@ -180,7 +179,7 @@ func appendPlotFloats(b []byte, p PlotFloats) []byte {
 			b = append(b, "null"...)
 			continue
 		}
-		b = strconv.AppendFloat(b, v, 'g', 8, 64)
+		b = appendFloat8(b, v) // strconv's 'g' with 8 digits
 	}
 	return append(b, ']')
 }
