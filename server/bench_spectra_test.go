@@ -39,7 +39,7 @@ type benchRoute struct {
 // Both are 2048-pixel spectra over 380–700 nm analysed with an
 // instrument FWHM of 0.35 nm and a gas temperature of 1000 K (the
 // benchmarks' run conditions, benchRunFWHM and benchRunTgas).
-func benchRoutes(b *testing.B) []benchRoute {
+func benchRoutes(b testing.TB) []benchRoute {
 	voigt, err := os.ReadFile("../testdata/spectra/scipy_bench_2048.csv")
 	if err != nil {
 		b.Fatal(err)
@@ -59,7 +59,7 @@ const (
 // nm, Hα–H10 as on the demo's survey spectrograph) of a microwave-torch
 // like plasma, each with its own n_e, T_exc and noise, as the demo makes
 // them (demoSpectrum, demoCSV).
-func benchStarkSpectra(b *testing.B, n int) [][]byte {
+func benchStarkSpectra(b testing.TB, n int) [][]byte {
 	const npx = 2048
 	grid := make([]float64, npx)
 	for i := range grid {

@@ -178,6 +178,7 @@ func (d *DB) RunContents(ctx context.Context, runID int64) (map[int64][]byte, er
 // atomically (a run with its attachments and first analysis); the
 // context's actor is recorded for the audit trail.
 func (d *DB) Begin(ctx context.Context) (*sql.Tx, error) {
+	d.startCheckpoints() // the caller commits: checkpointed within checkpointIdle
 	tx, err := d.wdb.BeginTx(ctx, nil)
 	if err != nil {
 		return nil, err
