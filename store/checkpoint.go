@@ -2,6 +2,7 @@ package store
 
 import (
 	"context"
+	"database/sql/driver"
 	"sync"
 	"sync/atomic"
 	"time"
@@ -21,16 +22,18 @@ import (
 // writers or readers) from the read pool shortly after commits: the copy
 // runs beside the next writes. A passive checkpoint racing the writer
 // leaves the newest frames behind, and SQLite starts the WAL over only
-// when a write begins with every frame copied, so under sustained writes
-// the WAL would grow without end; when a background checkpoint finds more
-// than walRestartFrames frames in the WAL, the group committer
-// checkpoints on the write connection between groups (restartWAL) until
-// one copies every frame: by then nearly every frame is copied, so it is
-// short, and the next write starts the WAL over. Under sustained writes
-// the WAL therefore peaks at ~20–30 MB instead of the ~5–9 MB of the
-// automatic checkpoint (TestCheckpointsBoundWAL). Writes that do not go
-// through InGroupTx or inTx (Begin … Commit) are caught by a checkpoint
-// at least every checkpointIdle.
+// when a write begins with every frame copied and no reader in the WAL,
+// so under sustained writes the WAL would grow without end; when a
+// background checkpoint finds more than walRestartFrames frames in the
+// WAL, the writer runs one RESTART checkpoint between writes
+// (restartWAL): by then nearly every frame is copied, so it is short,
+// and the next write starts the WAL over. Under sustained writes the WAL
+// peaks at ~12–25 MB (TestCheckpointsBoundWAL) instead of the ~5–9 MB of
+// the automatic checkpoint, which in turn never starts the WAL over
+// against readers that never pause (its WAL holds everything written).
+// Writes that do not go through InGroupTx or inTx (Begin … Commit) start
+// the checkpoints of the transaction before them when they begin, and a
+// background checkpoint runs at least every checkpointIdle.
 const (
 	// checkpointGap is the pause after each background checkpoint: at
 	// most ~40 per second, each copying what the commits before it wrote.
@@ -41,6 +44,11 @@ const (
 	// checkpoints itself, so that the WAL starts over (8 MiB with 4 KiB
 	// pages; SQLite's automatic threshold is 1000).
 	walRestartFrames = 2048
+	// restartWait bounds the writer's wait for readers in restartWAL, and
+	// restartBackoff is the pause before trying again after it ran out.
+	restartWait    = 200 * time.Millisecond
+	restartStep    = time.Millisecond
+	restartBackoff = 500 * time.Millisecond
 )
 
 // checkpointer is the background checkpoint goroutine of a DB.
@@ -53,6 +61,7 @@ type checkpointer struct {
 	shut    bool
 	run     sync.Mutex   // one checkpoint at a time (a second would be refused busy)
 	restart atomic.Bool  // the writer should checkpoint once (WAL large)
+	retryAt atomic.Int64 // not before (unix ns): the last restart could not finish
 	runs    atomic.Int64 // background checkpoints run
 }
 
@@ -70,7 +79,7 @@ func (d *DB) afterCommit() {
 }
 
 // startCheckpoints starts the background checkpointer if it is not
-// running (Begin calls it: its caller commits).
+// running.
 func (d *DB) startCheckpoints() {
 	if d.path == ":memory:" {
 		return
@@ -120,24 +129,52 @@ func (d *DB) checkpoints() {
 }
 
 // restartWAL runs the writer's own checkpoint when the background one
-// asked for it (see checkpointer); called by the group committer between
-// groups, holding the write connection. It is skipped while a background
-// checkpoint runs (which copies the frames meanwhile; the request stays
-// for the next group). The request ends when this checkpoint copied every
-// frame: the next write then starts the WAL over, unless a reader still
-// reads an older part of it, in which case the next background
-// checkpoint asks again.
+// asked for it (see checkpointer). It is a RESTART checkpoint: it
+// copies the frames the background ones left (few) and waits until no
+// reader still reads an older part of the WAL, so that the next write
+// starts the WAL over. (A passive one would leave the restart to chance:
+// the next group's write begins at once, while readers that began before
+// the checkpoint still hold their place in the WAL.) The wait is bounded
+// by restartWait instead of the connection's busy timeout (5 s), and
+// after a checkpoint that could not finish the next try waits
+// restartBackoff: readers that never let go (TestCheckpointsBoundWAL's
+// tight loop can) cost the writer at most restartWait per restartBackoff,
+// and the WAL then grows as it would with SQLite's automatic checkpoint.
+// The group committer calls it between groups, inTx after its commit,
+// and Begin before its transaction (its caller commits).
 func (d *DB) restartWAL() {
 	c := &d.ckpt
-	if !c.restart.Load() || !c.run.TryLock() {
+	if !c.restart.Load() || time.Now().UnixNano() < c.retryAt.Load() {
 		return
 	}
+	c.run.Lock()
 	defer c.run.Unlock()
-	var busy, log, done int64
-	err := d.wdb.QueryRowContext(context.Background(), `PRAGMA wal_checkpoint(PASSIVE)`).Scan(&busy, &log, &done)
-	if err == nil && done == log {
-		c.restart.Store(false)
+	ctx := context.Background()
+	conn, err := d.wdb.Conn(ctx) // the three statements on one connection
+	if err != nil {
+		return
 	}
+	defer conn.Close()
+	// SQLite's busy handler here sleeps in steps of a second: the
+	// checkpoint is tried without it, every restartStep.
+	if _, err := conn.ExecContext(ctx, `PRAGMA busy_timeout = 0`); err != nil {
+		return
+	}
+	var busy, log, done int64
+	for end := time.Now().Add(restartWait); ; time.Sleep(restartStep) {
+		err = conn.QueryRowContext(ctx, `PRAGMA wal_checkpoint(RESTART)`).Scan(&busy, &log, &done)
+		if err != nil || busy == 0 || time.Now().After(end) {
+			break
+		}
+	}
+	if _, rerr := conn.ExecContext(ctx, `PRAGMA busy_timeout = 5000`); rerr != nil {
+		conn.Raw(func(any) error { return driver.ErrBadConn }) // not back to the pool with the short timeout
+	}
+	if err == nil && busy == 0 {
+		c.restart.Store(false)
+		return
+	}
+	c.retryAt.Store(time.Now().Add(restartBackoff).UnixNano())
 }
 
 // stopCheckpoints ends the background checkpointer (Close).

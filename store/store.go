@@ -304,6 +304,7 @@ func (d *DB) inTx(ctx context.Context, fn func(tx *sql.Tx) error) error {
 		return err
 	}
 	d.afterCommit()
+	d.restartWAL()
 	return nil
 }
 
