@@ -8,6 +8,7 @@ import (
 	"testing"
 
 	"glowlog/diag/spectrum"
+	"glowlog/store"
 )
 
 // benchRoute is one analysis route the ingest and bulk reanalysis
@@ -121,4 +122,14 @@ func benchSettingsJSON(rt benchRoute) string {
 		panic(fmt.Sprint("bench settings: ", err))
 	}
 	return string(js)
+}
+
+// reportCheckpoints reports the writer's share of the WAL checkpoints
+// (store/checkpoint.go) over n spectra: restart-ms/spectrum is the time
+// the writer spent in RESTART checkpoints, restarts-failed how many of
+// them ran out of time waiting for readers.
+func reportCheckpoints(b *testing.B, db *store.DB, n float64) {
+	cs := db.CheckpointStats()
+	b.ReportMetric(cs.RestartTime.Seconds()*1000/n, "restart-ms/spectrum")
+	b.ReportMetric(float64(cs.RestartFails), "restarts-failed")
 }

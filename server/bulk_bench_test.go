@@ -109,6 +109,7 @@ func benchBulkReanalysis(b *testing.B, rt benchRoute) {
 	if fi, err := os.Stat(dbPath + "-wal"); err == nil {
 		b.ReportMetric(float64(fi.Size())/(1<<20), "WAL-MB")
 	}
+	reportCheckpoints(b, db, n)
 }
 
 func jsonInts(v []int64) string {

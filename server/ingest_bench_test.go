@@ -209,4 +209,5 @@ func benchAPIIngest(b *testing.B, rt benchRoute, syncMode string, perRequest int
 	if fi, err := os.Stat(dbPath + "-wal"); err == nil {
 		b.ReportMetric(float64(fi.Size())/(1<<20), "WAL-MB")
 	}
+	reportCheckpoints(b, db, n)
 }

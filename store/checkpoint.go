@@ -63,6 +63,10 @@ type checkpointer struct {
 	restart atomic.Bool  // the writer should checkpoint once (WAL large)
 	retryAt atomic.Int64 // not before (unix ns): the last restart could not finish
 	runs    atomic.Int64 // background checkpoints run
+	// restarts and restartFails count the writer's RESTART checkpoints
+	// that finished and that ran out of time; restartNs is the time the
+	// writer spent in them.
+	restarts, restartFails, restartNs atomic.Int64
 }
 
 // afterCommit is called after every commit on the write connection: it
@@ -161,7 +165,9 @@ func (d *DB) restartWAL() {
 		return
 	}
 	var busy, log, done int64
-	for end := time.Now().Add(restartWait); ; time.Sleep(restartStep) {
+	start := time.Now()
+	defer func() { c.restartNs.Add(int64(time.Since(start))) }()
+	for end := start.Add(restartWait); ; time.Sleep(restartStep) {
 		err = conn.QueryRowContext(ctx, `PRAGMA wal_checkpoint(RESTART)`).Scan(&busy, &log, &done)
 		if err != nil || busy == 0 || time.Now().After(end) {
 			break
@@ -172,8 +178,10 @@ func (d *DB) restartWAL() {
 	}
 	if err == nil && busy == 0 {
 		c.restart.Store(false)
+		c.restarts.Add(1)
 		return
 	}
+	c.restartFails.Add(1)
 	c.retryAt.Store(time.Now().Add(restartBackoff).UnixNano())
 }
 
@@ -191,6 +199,21 @@ func (d *DB) stopCheckpoints() {
 	c.wg.Wait()
 }
 
-// CheckpointStats returns how many background checkpoints ran (for the
+// CheckpointStats are the checkpoint counters of a DB (for the
 // benchmarks and tests).
-func (d *DB) CheckpointStats() int64 { return d.ckpt.runs.Load() }
+type CheckpointStats struct {
+	// Background is the number of background checkpoints run.
+	Background int64
+	// Restarts and RestartFails count the writer's RESTART checkpoints
+	// that finished and that ran out of time; RestartTime is the time the
+	// writer spent in them.
+	Restarts, RestartFails int64
+	RestartTime            time.Duration
+}
+
+// CheckpointStats returns the checkpoint counters so far.
+func (d *DB) CheckpointStats() CheckpointStats {
+	c := &d.ckpt
+	return CheckpointStats{Background: c.runs.Load(), Restarts: c.restarts.Load(), RestartFails: c.restartFails.Load(),
+		RestartTime: time.Duration(c.restartNs.Load())}
+}
