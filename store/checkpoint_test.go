@@ -17,7 +17,7 @@ import (
 // checkpoint off (checkpoint.go), sustained group commits of large
 // attachments beside two readers reading in a tight loop leave the WAL
 // bounded (it starts over: SQLite's automatic checkpoint does not manage
-// that against such readers, its WAL grew past the 25 MiB written),
+// that against such readers: its WAL grew past the volume written),
 // background checkpoints run, and every row is there after a reopen.
 func TestCheckpointsBoundWAL(t *testing.T) {
 	ctx := context.Background()
@@ -38,7 +38,7 @@ func TestCheckpointsBoundWAL(t *testing.T) {
 	for i := range blob {
 		blob[i] = byte('a' + i%26)
 	}
-	const writers, perWriter = 4, 100 // 400 × 64 KiB = 25 MiB written
+	const writers, perWriter = 4, 240 // 960 × 64 KiB = 60 MiB written
 	stop := make(chan struct{})
 	var reads atomic.Int64
 	var rg sync.WaitGroup
@@ -104,7 +104,7 @@ func TestCheckpointsBoundWAL(t *testing.T) {
 	if cs.Background == 0 {
 		t.Error("no background checkpoint ran")
 	}
-	// Written 25 MiB: a WAL that never started over would hold it all
+	// Written 60 MiB: a WAL that never started over would hold it all
 	// (and more: the b-tree pages); one that does shows several sequence
 	// numbers.
 	if written := int64(writers * perWriter * len(blob)); maxWAL >= written || len(seqs) < 2 {
