@@ -458,6 +458,9 @@ func (ra *RunAnalysis) encode() error {
 	return nil
 }
 
+// resultBufPool holds the buffers storedForm encodes spectrum results in.
+var resultBufPool = sync.Pool{New: func() any { b := make([]byte, 0, 128<<10); return &b }}
+
 // storedForm is ra as stored: the result JSON and its summary columns.
 func (ra RunAnalysis) storedForm() (store.AnalysisResult, error) {
 	r := store.AnalysisResult{AttachmentID: ra.Attachment.ID}
@@ -465,17 +468,27 @@ func (ra RunAnalysis) storedForm() (store.AnalysisResult, error) {
 		r.Error = ra.Err.Error()
 		return r, nil
 	}
-	var buf bytes.Buffer
-	var err error
 	if ra.Spectrum != nil {
-		err = encodeSpectrumResult(&buf, ra.Spectrum)
+		// Encoded into a pooled buffer (a whole-spectrum result is about
+		// 110 kB): the string is its only copy.
+		bp := resultBufPool.Get().(*[]byte)
+		buf := bytes.NewBuffer((*bp)[:0])
+		err := encodeSpectrumResult(buf, ra.Spectrum)
+		r.Result = buf.String()
+		if b := buf.Bytes(); cap(b) <= 1<<20 {
+			*bp = b[:0]
+			resultBufPool.Put(bp)
+		}
+		if err != nil {
+			return r, err
+		}
 	} else {
-		err = encodePlain(&buf, ra.Lines)
+		var buf bytes.Buffer
+		if err := encodePlain(&buf, ra.Lines); err != nil {
+			return r, err
+		}
+		r.Result = buf.String()
 	}
-	if err != nil {
-		return r, err
-	}
-	r.Result = buf.String()
 	d := ra.Diag()
 	r.TexcK, r.TexcUncK, r.NeM3, r.NeUncM3, r.TgasK = d.ExcitationTemperatureK, d.ExcitationTemperatureUncK,
 		d.ElectronDensityM3, d.ElectronDensityUncM3, d.GasTemperatureK

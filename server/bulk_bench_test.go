@@ -2,18 +2,26 @@ package server
 
 import (
 	"context"
+	"encoding/json"
 	"fmt"
 	"os"
 	"path/filepath"
 	"testing"
 	"time"
 
+	"glowlog/diag/spectrum"
 	"glowlog/store"
 )
 
 // BenchmarkBulkReanalysis measures a bulk reanalysis job over 10 000
-// spectra: 500 runs of 20 copies of a 2048-pixel spectrum (Hα–Hζ), each
-// run getting a new analysis version. Reported: spectra per second (wall
+// spectra: 500 runs of 20 2048-pixel spectra, each run getting a new
+// analysis version. One sub-benchmark per analysis route (benchRoutes):
+// route=whole, Stark-shaped spectra whose runs' settings take the default
+// route (the whole-spectrum fit); route=lines, the Voigt-shaped bench
+// spectrum with settings that declare it Voigt (line by line). Each run
+// starts with a version holding only those settings (what the job
+// reanalyses from), and the first run's new results are checked to come
+// from the route. Reported: spectra per second (wall
 // clock) and cpu-ms/spectrum (the process's CPU time per spectrum: two
 // idle cores take 2000 / cpu-ms/spectrum spectra per second), cores (CPU
 // time over wall time: how many cores the job got), runs/commit
@@ -22,6 +30,12 @@ import (
 //
 //	go test ./server/ -run '^$' -bench BulkReanalysis -benchtime 1x
 func BenchmarkBulkReanalysis(b *testing.B) {
+	for _, rt := range benchRoutes(b) {
+		b.Run("route="+rt.name, func(b *testing.B) { benchBulkReanalysis(b, rt) })
+	}
+}
+
+func benchBulkReanalysis(b *testing.B, rt benchRoute) {
 	const runs, perRun = 500, 20
 	ctx := context.Background()
 	dbPath := filepath.Join(b.TempDir(), "bulk.db")
@@ -35,11 +49,8 @@ func BenchmarkBulkReanalysis(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	spec, err := os.ReadFile("../testdata/spectra/scipy_bench_2048.csv")
-	if err != nil {
-		b.Fatal(err)
-	}
-	fwhm, tgas := 0.35, 1000.0
+	fwhm, tgas := benchRunFWHM, benchRunTgas
+	settings := benchSettingsJSON(rt)
 	t0 := time.Date(2026, 11, 1, 8, 0, 0, 0, time.UTC)
 	var ids []int64
 	for i := range runs {
@@ -53,9 +64,12 @@ func BenchmarkBulkReanalysis(b *testing.B) {
 			b.Fatal(err)
 		}
 		for k := range perRun {
-			if _, err := db.AddAttachmentTx(ctx, tx, id, store.KindSpectrum, fmt.Sprintf("s%02d.csv", k), spec); err != nil {
+			if _, err := db.AddAttachmentTx(ctx, tx, id, store.KindSpectrum, fmt.Sprintf("s%02d.csv", k), rt.files[k%len(rt.files)]); err != nil {
 				b.Fatal(err)
 			}
+		}
+		if _, err := db.AddAnalysisTx(ctx, tx, id, store.NewAnalysis{Settings: settings, Reason: "bench settings"}); err != nil {
+			b.Fatal(err)
 		}
 		if err := tx.Commit(); err != nil {
 			b.Fatal(err)
@@ -82,6 +96,8 @@ func BenchmarkBulkReanalysis(b *testing.B) {
 			b.Fatalf("job: %+v %v", job, err)
 		}
 	}
+	b.StopTimer()
+	checkBulkModel(b, s, ids[0], rt)
 	n := float64(b.N * runs * perRun)
 	b.ReportMetric(n/el.Seconds(), "spectra/s")
 	b.ReportMetric(cpu.Seconds()*1000/n, "cpu-ms/spectrum")
@@ -93,6 +109,7 @@ func BenchmarkBulkReanalysis(b *testing.B) {
 	if fi, err := os.Stat(dbPath + "-wal"); err == nil {
 		b.ReportMetric(float64(fi.Size())/(1<<20), "WAL-MB")
 	}
+	reportCheckpoints(b, db, n)
 }
 
 func jsonInts(v []int64) string {
@@ -104,4 +121,30 @@ func jsonInts(v []int64) string {
 		out += fmt.Sprint(x)
 	}
 	return out + "]"
+}
+
+// checkBulkModel fails b unless every result of run id's newest version
+// came from the route rt names.
+func checkBulkModel(b *testing.B, s *Server, id int64, rt benchRoute) {
+	a, err := s.DB.AnalysisVersion(context.Background(), id, 0)
+	if err != nil {
+		b.Fatal(err)
+	}
+	if len(a.Results) == 0 {
+		b.Fatalf("route %s: run %d: no results", rt.name, id)
+	}
+	for _, r := range a.Results {
+		var m struct {
+			Model string `json:"model"`
+		}
+		if err := json.Unmarshal([]byte(r.Result), &m); err != nil {
+			b.Fatalf("route %s: run %d: %v (%.200s)", rt.name, id, err, r.Error)
+		}
+		if m.Model == "" {
+			m.Model = spectrum.ModelLines
+		}
+		if m.Model != rt.model {
+			b.Fatalf("route %s: run %d: a result of route %q", rt.name, id, m.Model)
+		}
+	}
 }

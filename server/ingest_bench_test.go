@@ -5,6 +5,7 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
+	"io"
 	"mime/multipart"
 	"net/http"
 	"net/http/httptest"
@@ -21,13 +22,18 @@ import (
 )
 
 // BenchmarkAPIIngest measures sustained ingest through the JSON API over
-// loopback HTTP: each request uploads one 2048-pixel spectrum (Hα–Hζ) as
+// loopback HTTP: each request uploads one 2048-pixel spectrum as
 // multipart to a run, which stores the file and a new analysis version in
 // one transaction. Four clients (two per core) each log runs of a time
 // series of seriesLen spectra: a new run (POST /api/v1/runs, included in
 // the time) after every seriesLen uploads. Reported: spectra per second.
 //
-// One sub-benchmark per durability mode of serve --sync: normal (the
+// One sub-benchmark per analysis route (benchRoutes): route=whole uploads
+// Stark-shaped spectra with the default settings, which the default route
+// fits as a whole (what a real discharge's spectra get); route=lines the
+// Voigt-shaped bench spectrum declared Voigt (line_shape voigt), analysed
+// line by line. The first answer is checked to come from that route. Then
+// one per durability mode of serve --sync: normal (the
 // default; the WAL is synced at checkpoints) and full (an fsync at every
 // commit); and per request size: files=1 (one spectrum per request) and
 // files=20 (a batch: each request carries a run's whole series as 20
@@ -45,9 +51,11 @@ import (
 //
 //	go test ./server/ -run '^$' -bench APIIngest -benchtime 1000x
 func BenchmarkAPIIngest(b *testing.B) {
-	for _, mode := range []string{store.SyncNormal, store.SyncFull} {
-		for _, files := range []int{1, 20} {
-			b.Run(fmt.Sprintf("sync=%s/files=%d", mode, files), func(b *testing.B) { benchAPIIngest(b, mode, files) })
+	for _, rt := range benchRoutes(b) {
+		for _, mode := range []string{store.SyncNormal, store.SyncFull} {
+			for _, files := range []int{1, 20} {
+				b.Run(fmt.Sprintf("route=%s/sync=%s/files=%d", rt.name, mode, files), func(b *testing.B) { benchAPIIngest(b, rt, mode, files) })
+			}
 		}
 	}
 }
@@ -59,7 +67,7 @@ func cpuTime() time.Duration {
 	return time.Duration(ru.Utime.Nano() + ru.Stime.Nano())
 }
 
-func benchAPIIngest(b *testing.B, syncMode string, perRequest int) {
+func benchAPIIngest(b *testing.B, rt benchRoute, syncMode string, perRequest int) {
 	ctx := context.Background()
 	dbPath := filepath.Join(b.TempDir(), "ingest.db")
 	db, err := store.Open(ctx, dbPath, store.Options{Sync: syncMode})
@@ -78,12 +86,11 @@ func benchAPIIngest(b *testing.B, syncMode string, perRequest int) {
 	}
 	srv := httptest.NewServer(s)
 	defer srv.Close()
-	spec, err := os.ReadFile("../testdata/spectra/scipy_bench_2048.csv")
-	if err != nil {
-		b.Fatal(err)
-	}
 	client := &http.Client{Transport: &http.Transport{MaxIdleConnsPerHost: 64}}
-	post := func(path, ctype string, body []byte) (int, []byte) {
+	// post sends a request and returns the status and the answer; with
+	// discard201 a 201 answer is read and dropped (a client that has what
+	// it needs from the status: the timed uploads).
+	postAs := func(path, ctype string, body []byte, discard201 bool) (int, []byte) {
 		req, _ := http.NewRequest(http.MethodPost, srv.URL+path, bytes.NewReader(body))
 		req.Header.Set("Authorization", "Bearer "+tok)
 		req.Header.Set("Content-Type", ctype)
@@ -92,15 +99,21 @@ func benchAPIIngest(b *testing.B, syncMode string, perRequest int) {
 			b.Fatal(err)
 		}
 		defer resp.Body.Close()
+		if discard201 && resp.StatusCode == http.StatusCreated {
+			io.Copy(io.Discard, resp.Body)
+			return resp.StatusCode, nil
+		}
 		var buf bytes.Buffer
 		buf.ReadFrom(resp.Body)
 		return resp.StatusCode, buf.Bytes()
 	}
+	post := func(path, ctype string, body []byte) (int, []byte) { return postAs(path, ctype, body, false) }
+	upload := func(path, ctype string, body []byte) (int, []byte) { return postAs(path, ctype, body, true) }
 	workers := 2 * runtime.GOMAXPROCS(0)
 	const seriesLen = 20
 	newRun := func(i int64) int64 {
 		body := fmt.Sprintf(`{"title": "ingest %d", "started_at": "2026-11-30T08:00:00Z", "source_type": "microwave",
-			"instrument_fwhm_nm": 0.35, "gas_temperature_K": 1000}`, i)
+			"instrument_fwhm_nm": %g, "gas_temperature_K": %g}`, i, benchRunFWHM, benchRunTgas)
 		code, out := post("/api/v1/runs", "application/json", []byte(body))
 		if code != http.StatusCreated {
 			b.Fatalf("create run: %d %s", code, out)
@@ -109,18 +122,36 @@ func benchAPIIngest(b *testing.B, syncMode string, perRequest int) {
 		json.Unmarshal(out, &r)
 		return r.ID
 	}
-	multipartBody := func(n int) ([]byte, string) {
+	// multipartBody carries n files from the k-th of rt.files on, and the
+	// route's line shape.
+	multipartBody := func(k, n int) ([]byte, string) {
 		var mb bytes.Buffer
 		mw := multipart.NewWriter(&mb)
-		for k := range n {
-			fw, _ := mw.CreateFormFile("file", fmt.Sprintf("spectrum-%02d.csv", k))
-			fw.Write(spec)
+		if rt.lineShape != "" {
+			mw.WriteField("line_shape", rt.lineShape)
+		}
+		for j := range n {
+			fw, _ := mw.CreateFormFile("file", fmt.Sprintf("spectrum-%02d.csv", j))
+			fw.Write(rt.files[(k+j)%len(rt.files)])
 		}
 		mw.Close()
 		return mb.Bytes(), mw.FormDataContentType()
 	}
-	body, ctype := multipartBody(1)
-	batch, batchType := multipartBody(perRequest)
+	type body struct {
+		data  []byte
+		ctype string
+	}
+	singles := make([]body, len(rt.files))
+	for k := range singles {
+		singles[k].data, singles[k].ctype = multipartBody(k, 1)
+	}
+	batch, batchType := multipartBody(0, perRequest)
+	// The route is checked outside the timing: one upload to a run of its own.
+	if code, out := post(fmt.Sprintf("/api/v1/runs/%d/measurements", newRun(0)), batchType, batch); code != http.StatusCreated {
+		b.Fatalf("ingest: %d %.300s", code, out)
+	} else {
+		checkBenchModel(b, rt, out)
+	}
 
 	var next atomic.Int64
 	var wg sync.WaitGroup
@@ -139,7 +170,7 @@ func benchAPIIngest(b *testing.B, syncMode string, perRequest int) {
 						return
 					}
 					run = newRun(i)
-					if code, out := post(fmt.Sprintf("/api/v1/runs/%d/measurements", run), batchType, batch); code != http.StatusCreated {
+					if code, out := upload(fmt.Sprintf("/api/v1/runs/%d/measurements", run), batchType, batch); code != http.StatusCreated {
 						b.Errorf("ingest: %d %.300s", code, out)
 						return
 					}
@@ -152,7 +183,8 @@ func benchAPIIngest(b *testing.B, syncMode string, perRequest int) {
 				if k%seriesLen == 0 {
 					run = newRun(i)
 				}
-				if code, out := post(fmt.Sprintf("/api/v1/runs/%d/measurements", run), ctype, body); code != http.StatusCreated {
+				one := singles[int(i)%len(singles)]
+				if code, out := upload(fmt.Sprintf("/api/v1/runs/%d/measurements", run), one.ctype, one.data); code != http.StatusCreated {
 					b.Errorf("ingest: %d %s", code, out)
 					return
 				}
@@ -177,4 +209,5 @@ func benchAPIIngest(b *testing.B, syncMode string, perRequest int) {
 	if fi, err := os.Stat(dbPath + "-wal"); err == nil {
 		b.ReportMetric(float64(fi.Size())/(1<<20), "WAL-MB")
 	}
+	reportCheckpoints(b, db, n)
 }

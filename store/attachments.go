@@ -178,6 +178,10 @@ func (d *DB) RunContents(ctx context.Context, runID int64) (map[int64][]byte, er
 // atomically (a run with its attachments and first analysis); the
 // context's actor is recorded for the audit trail.
 func (d *DB) Begin(ctx context.Context) (*sql.Tx, error) {
+	// The caller commits: the checkpoints of the transaction before this
+	// one (checkpoint.go) are started here.
+	d.afterCommit()
+	d.restartWAL()
 	tx, err := d.wdb.BeginTx(ctx, nil)
 	if err != nil {
 		return nil, err

@@ -127,6 +127,7 @@ func (d *DB) commitGroups() {
 		start := time.Now()
 		d.commitGroup(batch)
 		g.busy.Add(int64(time.Since(start)))
+		d.restartWAL()
 	}
 }
 
@@ -189,6 +190,7 @@ func (d *DB) commitGroup(batch []*groupWrite) {
 	} else {
 		d.group.commits.Add(1)
 		d.group.writes.Add(int64(ok))
+		d.afterCommit()
 	}
 	fail(nil)
 }

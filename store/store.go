@@ -60,6 +60,8 @@ type DB struct {
 
 	// group is the group committer of InGroupTx (group.go).
 	group groupCommitter
+	// ckpt checkpoints the WAL outside the write lock (checkpoint.go).
+	ckpt checkpointer
 }
 
 // Sync modes of Options.Sync (SQLite's PRAGMA synchronous in WAL mode).
@@ -142,7 +144,9 @@ func Open(ctx context.Context, path string, opts ...Options) (*DB, error) {
 		// the file (as a permission check may) would drop this process's
 		// SQLite locks on it, which tell other processes (restore) that
 		// the database is in use.
-		if d.wdb, err = sql.Open("sqlite", sqlDSN(path, sync)); err != nil {
+		// The write connection never checkpoints inside a commit
+		// (checkpoint.go).
+		if d.wdb, err = sql.Open("sqlite", sqlDSN(path, sync)+"&_pragma=wal_autocheckpoint(0)"); err != nil {
 			sdb.Close()
 			return nil, fmt.Errorf("store: open %s: %w", path, err)
 		}
@@ -192,6 +196,7 @@ func openSQL(path, sync string) (*sql.DB, error) {
 // Close closes the database.
 func (d *DB) Close() error {
 	d.closeGroup()
+	d.stopCheckpoints()
 	if d.wdb != nil && d.wdb != d.db {
 		d.wdb.Close()
 	}
@@ -295,7 +300,12 @@ func (d *DB) inTx(ctx context.Context, fn func(tx *sql.Tx) error) error {
 	if err := d.clearActor(ctx, tx); err != nil {
 		return err
 	}
-	return tx.Commit()
+	if err := tx.Commit(); err != nil {
+		return err
+	}
+	d.afterCommit()
+	d.restartWAL()
+	return nil
 }
 
 // nullF converts an optional float to a SQL value.

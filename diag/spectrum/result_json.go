@@ -1465,30 +1465,22 @@ func appendJSONWindow(b []byte, v *Window) ([]byte, error) {
 		b = append(b, ',')
 	}
 	b = append(b, "\"wavelength_nm\":"...)
-	if b, err = appendJSONMarshaler(b, v.WavelengthNM); err != nil {
-		return b, err
-	}
+	b = appendPlotFloats(b, v.WavelengthNM)
 	if len(b) > n0 {
 		b = append(b, ',')
 	}
 	b = append(b, "\"data\":"...)
-	if b, err = appendJSONMarshaler(b, v.Data); err != nil {
-		return b, err
-	}
+	b = appendPlotFloats(b, v.Data)
 	if len(b) > n0 {
 		b = append(b, ',')
 	}
 	b = append(b, "\"model\":"...)
-	if b, err = appendJSONMarshaler(b, v.Model); err != nil {
-		return b, err
-	}
+	b = appendPlotFloats(b, v.Model)
 	if len(b) > n0 {
 		b = append(b, ',')
 	}
 	b = append(b, "\"residual\":"...)
-	if b, err = appendJSONMarshaler(b, v.Residual); err != nil {
-		return b, err
-	}
+	b = appendPlotFloats(b, v.Residual)
 	_ = err
 	return append(b, '}'), nil
 }
@@ -1873,36 +1865,28 @@ func appendJSONWholeFit(b []byte, v *WholeFit) ([]byte, error) {
 			b = append(b, ',')
 		}
 		b = append(b, "\"wavelength_nm\":"...)
-		if b, err = appendJSONMarshaler(b, v.WavelengthNM); err != nil {
-			return b, err
-		}
+		b = appendPlotFloats(b, v.WavelengthNM)
 	}
 	if len(v.Data) != 0 {
 		if len(b) > n0 {
 			b = append(b, ',')
 		}
 		b = append(b, "\"data\":"...)
-		if b, err = appendJSONMarshaler(b, v.Data); err != nil {
-			return b, err
-		}
+		b = appendPlotFloats(b, v.Data)
 	}
 	if len(v.Model) != 0 {
 		if len(b) > n0 {
 			b = append(b, ',')
 		}
 		b = append(b, "\"model\":"...)
-		if b, err = appendJSONMarshaler(b, v.Model); err != nil {
-			return b, err
-		}
+		b = appendPlotFloats(b, v.Model)
 	}
 	if len(v.Residual) != 0 {
 		if len(b) > n0 {
 			b = append(b, ',')
 		}
 		b = append(b, "\"residual\":"...)
-		if b, err = appendJSONMarshaler(b, v.Residual); err != nil {
-			return b, err
-		}
+		b = appendPlotFloats(b, v.Residual)
 	}
 	_ = err
 	return append(b, '}'), nil

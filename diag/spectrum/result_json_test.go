@@ -150,6 +150,12 @@ func (g *jsonGen) funcFor(ty reflect.Type) string {
 // value writes code appending x (of type ty) to b; x is addressable.
 func (g *jsonGen) value(x string, ty reflect.Type, ind string) {
 	w := func(format string, args ...any) { fmt.Fprintf(&g.b, ind+format+"\n", args...) }
+	if ty == reflect.TypeFor[PlotFloats]() {
+		// PlotFloats.MarshalJSON's bytes, appended in place (its output is
+		// compact JSON, which encoding/json copies as it is).
+		w("b = appendPlotFloats(b, %s)", x)
+		return
+	}
 	if ty.Implements(jsonMarshalerType) {
 		if ty.Kind() == reflect.Pointer {
 			g.t.Fatalf("pointer Marshaler %v not supported by the generator", ty)

@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"math"
 	"slices"
-	"strconv"
 
 	"glowlog/diag"
 	"glowlog/diag/linefit"
@@ -165,7 +164,12 @@ type PlotFloats []float64
 
 // MarshalJSON writes the series with 8 significant digits.
 func (p PlotFloats) MarshalJSON() ([]byte, error) {
-	b := make([]byte, 0, 12*len(p)+2)
+	return appendPlotFloats(make([]byte, 0, 12*len(p)+2), p), nil
+}
+
+// appendPlotFloats appends p as MarshalJSON writes it (NaN and ±Inf as
+// null); AppendJSON writes series with it directly.
+func appendPlotFloats(b []byte, p PlotFloats) []byte {
 	b = append(b, '[')
 	for i, v := range p {
 		if i > 0 {
@@ -175,9 +179,9 @@ func (p PlotFloats) MarshalJSON() ([]byte, error) {
 			b = append(b, "null"...)
 			continue
 		}
-		b = strconv.AppendFloat(b, v, 'g', 8, 64)
+		b = appendFloat8(b, v) // strconv's 'g' with 8 digits
 	}
-	return append(b, ']'), nil
+	return append(b, ']')
 }
 
 // Result is the outcome of Analyze: the diag analysis plus the search and

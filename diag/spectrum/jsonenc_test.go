@@ -1,0 +1,86 @@
+package spectrum
+
+import (
+	"math"
+	"math/rand/v2"
+	"strconv"
+	"testing"
+)
+
+// TestAppendFloat8: appendFloat8 writes strconv's 'g' format with 8
+// significant digits byte for byte: over random bit patterns (every
+// magnitude, the strconv fall-backs included), values spread over the
+// magnitudes of plot series, values next to the rounding boundaries of
+// the eighth digit (ties, and 9.9999999…e±n that carry into the next
+// power of ten), powers of ten and small integers, negatives and zeros.
+func TestAppendFloat8(t *testing.T) {
+	check := func(v float64) {
+		t.Helper()
+		want := strconv.AppendFloat(nil, v, 'g', 8, 64)
+		if got := appendFloat8(nil, v); string(got) != string(want) {
+			t.Fatalf("%v (bits %#x): %s, want %s", v, math.Float64bits(v), got, want)
+		}
+	}
+	r := rand.New(rand.NewPCG(8, 2026))
+	for range 200000 {
+		v := math.Float64frombits(r.Uint64())
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			continue
+		}
+		check(v)
+	}
+	for range 300000 {
+		check((r.Float64() - 0.3) * math.Pow(10, float64(r.IntN(36)-18)))
+	}
+	for e := -17; e <= 23; e++ {
+		p := math.Pow(10, float64(e))
+		for range 3000 {
+			// m.5 × 10^(e−8) and its neighbours: the rounding ties of
+			// the eighth digit.
+			m := float64(10000000 + r.IntN(90000000))
+			v := (m + 0.5) * p / 1e8
+			check(v)
+			check(math.Nextafter(v, 0))
+			check(math.Nextafter(v, math.Inf(1)))
+			check(-v)
+		}
+		for _, v := range []float64{p, math.Nextafter(p, 0), math.Nextafter(p, math.Inf(1)), 9.99999995 * p, 9.999999949 * p, 9.99999996 * p} {
+			check(v)
+			check(-v)
+		}
+	}
+	for i := -100000; i <= 100000; i++ {
+		check(float64(i))
+		check(float64(i) / 8)
+		check(float64(i) * 1e-3)
+	}
+	for _, v := range []float64{0, math.Copysign(0, -1), 5e-324, math.MaxFloat64, -math.MaxFloat64, 123456785, 0.000123456785, 1e21, 1e22} {
+		check(v)
+	}
+}
+
+func BenchmarkAppendFloat8(b *testing.B) {
+	r := rand.New(rand.NewPCG(1, 2))
+	vs := make([]float64, 4096)
+	for i := range vs {
+		vs[i] = 400 + 300*r.Float64()
+		if i%2 == 1 {
+			vs[i] = 20000 * r.NormFloat64()
+		}
+	}
+	buf := make([]byte, 0, 64)
+	b.Run("appendFloat8", func(b *testing.B) {
+		for b.Loop() {
+			for _, v := range vs {
+				buf = appendFloat8(buf[:0], v)
+			}
+		}
+	})
+	b.Run("strconv", func(b *testing.B) {
+		for b.Loop() {
+			for _, v := range vs {
+				buf = strconv.AppendFloat(buf[:0], v, 'g', 8, 64)
+			}
+		}
+	})
+}
