@@ -16,7 +16,6 @@ import (
 	"glowlog/diag"
 	"glowlog/diag/calib"
 	"glowlog/diag/mset"
-	"glowlog/diag/specfile"
 	"glowlog/diag/spectrum"
 	"glowlog/store"
 )
@@ -1008,9 +1007,4 @@ func (s *Server) content(ctx context.Context, a store.Attachment) ([]byte, error
 	}
 	full, err := s.DB.AttachmentContent(ctx, a.ID)
 	return full.Content, err
-}
-
-// specRead is used by the forms to check an upload before storing it.
-func specRead(name string, data []byte) (*specfile.Spectrum, error) {
-	return specfile.Read(name, bytes.NewReader(data), specfile.Options{})
 }
