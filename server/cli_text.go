@@ -48,6 +48,9 @@ func writeTextSummary(buf *bytes.Buffer, src string, r any) {
 	if d.ElectronDensitySource != "" && d.ElectronDensityM3 != nil {
 		ne += "\tfrom " + d.ElectronDensitySource
 	}
+	if sr != nil && sr.Whole != nil && sr.Whole.ElectronDensityUpperLimitM3 != nil && d.ElectronDensityM3 == nil {
+		ne = "< " + views.ValueUnc(sr.Whole.ElectronDensityUpperLimitM3, nil) + " m⁻³\t(upper limit: the Stark broadening is too small to measure)"
+	}
 	fmt.Fprintf(tw, "  n_e\t%s\n", ne)
 	if d.GasTemperatureK != nil {
 		fmt.Fprintf(tw, "  T_g\t%s\t(%s)\n", num(d.GasTemperatureK, d.GasTemperatureUncK, "K"), d.GasTemperatureSource)

@@ -384,3 +384,19 @@ func TestAnalyzeText(t *testing.T) {
 		t.Errorf("--text printed JSON:\n%s", out.String())
 	}
 }
+
+// TestAnalyzeTextUpperLimit: a whole fit whose n_e is only an upper limit
+// prints "n_e < limit" with the reason, not "not determined".
+func TestAnalyzeTextUpperLimit(t *testing.T) {
+	var buf bytes.Buffer
+	w := handWholeFit()
+	w.ElectronDensityM3, w.ElectronDensityUncM3 = nil, nil
+	w.ElectronDensityUpperLimitM3 = fp(2.3e20)
+	sr := spectrum.Result{Model: spectrum.ModelWhole, Whole: w}
+	writeTextSummary(&buf, "weak.csv", sr)
+	text := regexp.MustCompile(` {2,}`).ReplaceAllString(buf.String(), " ")
+	want := "n_e < " + views.ValueUnc(fp(2.3e20), nil) + " m⁻³ (upper limit"
+	if !strings.Contains(text, want) {
+		t.Errorf("summary lacks %q:\n%s", want, text)
+	}
+}
