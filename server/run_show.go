@@ -496,6 +496,13 @@ func runSummary(p *runPage) views.RunSummary {
 	sum.Texc = with(d.ExcitationTemperatureK, d.ExcitationTemperatureUncK, "K")
 	sum.Ne = with(d.ElectronDensityM3, d.ElectronDensityUncM3, "m⁻³")
 	sum.NeCM3 = with(d.ElectronDensityCM3, d.ElectronDensityUncCM3, "cm⁻³")
+	if d.ElectronDensityM3 == nil && r.Spectrum != nil && r.Spectrum.Whole != nil && r.Spectrum.Whole.ElectronDensityUpperLimitM3 != nil {
+		// The whole fit's n_e is only an upper limit (whole_density_limit).
+		lim := *r.Spectrum.Whole.ElectronDensityUpperLimitM3
+		sum.Ne = "< " + views.ValueUnc(&lim, nil) + " m⁻³ (upper limit)"
+		limCM3 := lim * 1e-6
+		sum.NeCM3 = "< " + views.ValueUnc(&limCM3, nil) + " cm⁻³"
+	}
 	sum.Tgas = with(d.GasTemperatureK, d.GasTemperatureUncK, "K")
 	switch d.GasTemperatureSource {
 	case "two-line":

@@ -62,6 +62,13 @@ func handWholeFit() *spectrum.WholeFit {
 // route whose numbers are at the top, with the disagreement flag.
 func putWholeFit(t *testing.T, f *runsFixture, runID int64, w *spectrum.WholeFit) {
 	t.Helper()
+	putWholeFitWith(t, f, runID, w, nil)
+}
+
+// putWholeFitWith is putWholeFit with edit applied to the stored result
+// last (nil: none).
+func putWholeFitWith(t *testing.T, f *runsFixture, runID int64, w *spectrum.WholeFit, edit func(*spectrum.Result)) {
+	t.Helper()
 	var id int64
 	var res string
 	if err := f.db.SQL().QueryRow(`SELECT r.id, r.result FROM analysis_results r JOIN analyses a ON a.id = r.analysis_id
@@ -74,6 +81,9 @@ func putWholeFit(t *testing.T, f *runsFixture, runID int64, w *spectrum.WholeFit
 	}
 	sr.Model, sr.Whole = spectrum.ModelWhole, w
 	sr.Flags = append(sr.Flags, diag.Flag{Code: spectrum.FlagWholeDisagrees, Message: "the whole-spectrum fit and the line-by-line route disagree on n_e by 2.7σ"})
+	if edit != nil {
+		edit(&sr)
+	}
 	b, err := json.Marshal(sr)
 	if err != nil {
 		t.Fatal(err)
@@ -257,5 +267,28 @@ func TestRouteWords(t *testing.T) {
 		if got := routeWords(c.r); got != c.want {
 			t.Errorf("routeWords = %q, want %q", got, c.want)
 		}
+	}
+}
+
+// TestRunPageDensityLimit: when the whole fit's n_e is only an upper
+// limit (no value at the top), the run summary says "< limit (upper
+// limit)" in m⁻³ and cm⁻³, not "not determined".
+func TestRunPageDensityLimit(t *testing.T) {
+	f := newRunsFixture(t)
+	_, sess := f.signIn("opal", store.RoleOperator)
+	r := f.createTestRun(sess)
+	w := handWholeFit()
+	w.ElectronDensityM3, w.ElectronDensityUncM3 = nil, nil
+	w.ElectronDensityUpperLimitM3 = fp(2.3e20)
+	putWholeFitWith(t, f, r.ID, w, func(sr *spectrum.Result) {
+		sr.ElectronDensityM3, sr.ElectronDensityUncM3, sr.ElectronDensityCM3, sr.ElectronDensityUncCM3 = nil, nil, nil, nil
+		sr.Flags = append(sr.Flags, diag.Flag{Code: spectrum.FlagWholeDensityLimit, Message: "whole-spectrum fit: n_e is only an upper limit"})
+	})
+	page := f.get(fmt.Sprintf("/runs/%d", r.ID), sess).Body.String()
+	// (cell reads a <dd> on to the next listed closing tag: the m⁻³
+	// value comes first, then the cm⁻³ one.)
+	want := "< " + views.ValueUnc(fp(2.3e20), nil) + " m⁻³ (upper limit)" + "< " + views.ValueUnc(fp(2.3e14), nil) + " cm⁻³"
+	if got := cell(page, "ne-m3"); !strings.HasPrefix(got, want) {
+		t.Errorf("n_e in the summary: %q, want %q", got, want)
 	}
 }
