@@ -824,7 +824,8 @@ var (
 )
 
 // demoteLinesRouteFlags: when the whole-spectrum fit gives the reported
-// n_e (or T_exc), the line-by-line route's flags about its own densities
+// n_e — a value or its upper limit (FlagWholeDensityLimit) — (or T_exc),
+// the line-by-line route's flags about its own densities
 // (or Boltzmann plot) do not concern the reported number; they are kept,
 // named as the line-by-line route's, with severity note (not counted).
 // Where they point at the data (self-absorption, a level off the line),
@@ -833,9 +834,10 @@ func demoteLinesRouteFlags(res *Result) {
 	if res.Model != ModelWhole {
 		return
 	}
+	wholeNe := res.ElectronDensityM3 != nil || res.Whole != nil && res.Whole.ElectronDensityUpperLimitM3 != nil
 	for i := range res.Flags {
 		f := &res.Flags[i]
-		if res.ElectronDensityM3 != nil && slices.Contains(linesRouteDensityFlags, f.Code) ||
+		if wholeNe && slices.Contains(linesRouteDensityFlags, f.Code) ||
 			res.ExcitationTemperatureK != nil && slices.Contains(linesRouteTexcFlags, f.Code) {
 			f.Severity = diag.SeverityNote
 			f.Message = "line-by-line route (shown beside the whole-spectrum fit): " + f.Message

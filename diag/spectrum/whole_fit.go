@@ -1121,7 +1121,7 @@ func (f *wholeFitter) weakDensity(th []float64, ne float64) string {
 	if best < 0 {
 		return ""
 	}
-	rel, what := wholeGaussRelDefault, fmt.Sprintf("%g %% when no instrument σ is given", 100*wholeGaussRelDefault)
+	rel, what := wholeGaussRelDefault, "assumed: no instrument σ was given"
 	if s, i := f.m.InstrumentFWHMUncNM, f.minInst(); s > 0 && i > 0 {
 		rel, what = s/i, "from the instrument σ given"
 	}
@@ -1129,6 +1129,6 @@ func (f *wholeFitter) weakDensity(th []float64, ne float64) string {
 	if best >= need {
 		return ""
 	}
-	return fmt.Sprintf("the Stark broadening widens no line enough to measure it — the most, %s (Stark FWHM %.2g of its Gaussian instrument ⊕ Doppler width), by %.2g %%, under %g × the Gaussian width's accuracy (%.2g %%, %s); a Gaussian wrong by that much would move n_e by more than the fit measures. A narrower instrument, or Hβ and higher members (wider Stark widths), give a measured n_e",
-		bestName, bestRatio, 100*best, wholeWeakExcessSigma, 100*rel, what)
+	return fmt.Sprintf("the Stark broadening widens no line enough to measure it — the most, %s (its Stark FWHM %.2g %% of its instrument ⊕ Doppler Gaussian), by %.2g %%, under %g × the Gaussian width's accuracy (%.2g %%, %s); a Gaussian wrong by that much would move n_e by more than the fit measures. A narrower instrument, or higher Balmer members in the range (their Stark widths are larger), would give a measured n_e",
+		bestName, 100*bestRatio, 100*best, wholeWeakExcessSigma, 100*rel, what)
 }
