@@ -5,6 +5,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 
@@ -400,6 +401,20 @@ func TestWholeDensityLimit(t *testing.T) {
 			t.Errorf("instrument %g nm: flag %v, want %s naming the upper limit and Hβ", c.inst, flag, FlagWholeDensityLimit)
 		} else if diag.SeverityOf(flag.Code) != diag.SeverityCaution {
 			t.Errorf("%s has severity %v, want caution", flag.Code, diag.SeverityOf(flag.Code))
+		}
+		// The line-by-line route's own density flags (its n_e is not
+		// the reported one) are notes.
+		demoted := 0
+		for _, f := range res.Flags {
+			if slices.Contains(linesRouteDensityFlags, f.Code) {
+				demoted++
+				if f.Severity != diag.SeverityNote {
+					t.Errorf("line-by-line density flag %s has severity %v, want note", f.Code, f.Severity)
+				}
+			}
+		}
+		if demoted == 0 {
+			t.Errorf("no line-by-line density flag at a Stark width far below the Gaussian: %v", res.Flags)
 		}
 	}
 }
