@@ -107,7 +107,7 @@ var sh99Results = sync.OnceValues(func() ([]sh99Case, error) {
 			"--response", filepath.Join(sh99SynthDir, tr.Response),
 		}
 		if hasTe {
-			args = append(args, "--electron-temperature-K", fmt.Sprint(tr.ElectronK))
+			args = append(args, "--electron-temperature-K", fmt.Sprint(givenElectronK(tr.Spectrum, tr.ElectronK)))
 		}
 		args = append(args, filepath.Join(sh99SynthDir, tr.Spectrum))
 		wg.Add(1)
@@ -382,9 +382,9 @@ func TestSH99SynthAccuracy(t *testing.T) {
 // the medians were hires n_e 0.329, mid 0.184, survey 0.167, mid T_exc
 // 0.115, survey T_exc 0.044.
 var sh99MedianBound = map[string]float64{
-	"hires n_e":    0.122, // measured 0.094 (Stark-shape-corrected Voigt fit; GGC 2003 preferred for Hβ ≥ 1e21 m⁻³)
+	"hires n_e":    0.122, // measured 0.078 with T_e given 20 % off, 0.094 before (Stark-shape-corrected Voigt fit; GGC 2003 preferred for Hβ ≥ 1e21 m⁻³)
 	"mid n_e":      0.186, // measured 0.143
-	"survey n_e":   0.070, // measured 0.054
+	"survey n_e":   0.099, // measured 0.076 with T_e given 20 % off (tegiven_test.go); 0.054 with the exact T_e
 	"mid T_exc":    0.024, // measured 0.008 (Hα and Hβ only; 0.019 before the Stark-shape area table got six continuum/peak bins, 0.025 before it was measured below r = 0.1); bound not tightened while the coverage check fails
 	"survey T_exc": 0.015, // measured 0.007 (Hα … Hε)
 }

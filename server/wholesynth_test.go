@@ -188,7 +188,7 @@ func wsAnalyze(tr wsTruth, model string) (wsValue, error) {
 	args := []string{
 		"--instrument-fwhm-nm", fmt.Sprint(tr.InstrumentNM),
 		"--gas-temperature-K", fmt.Sprint(tr.GasK),
-		"--electron-temperature-K", fmt.Sprint(tr.ElectronK),
+		"--electron-temperature-K", fmt.Sprint(givenElectronK(tr.Spectrum, tr.ElectronK)),
 		"--gain-e-per-count", fmt.Sprint(tr.Gain),
 		"--read-noise-e", fmt.Sprint(tr.ReadNoise),
 		"--response", filepath.Join(wholeSynthDir, tr.Response),

@@ -517,3 +517,31 @@ func (l *Line) NodeDistance(neM3, tK float64) float64 {
 	}
 	return math.Max(4*tj*(1-tj), 4*tk*(1-tk))
 }
+
+// CoveringTemperature returns the tables' temperature (K) nearest to tK
+// (in ln T) at which Profile covers neM3: tK itself when it does,
+// otherwise the nearest temperature node at which the density lies
+// within ProfileRange. ok is false when no temperature of the tables
+// covers neM3. The tables cover fewer densities at some temperatures
+// (SH99 give the highest densities only from 10⁴ K or 19 950 K up), so a
+// T_e between two nodes may miss a density that a node beside it has.
+func (l *Line) CoveringTemperature(neM3, tK float64) (float64, bool) {
+	covers := func(t float64) bool {
+		lo, hi, ok := l.neRange(t, nil)
+		return ok && neM3 >= lo && neM3 <= hi
+	}
+	if !(tK > 0) || math.IsInf(tK, 0) {
+		return 0, false
+	}
+	if covers(tK) {
+		return tK, true
+	}
+	best, bestD := 0.0, math.Inf(1)
+	lt := math.Log(tK)
+	for k, t := range l.t {
+		if d := math.Abs(l.lt[k] - lt); d < bestD && covers(t) {
+			best, bestD = t, d
+		}
+	}
+	return best, best > 0
+}

@@ -457,3 +457,31 @@ func TestNodeDistance(t *testing.T) {
 		t.Errorf("a quarter of the way: %g, want 0.75", d)
 	}
 }
+
+// TestCoveringTemperature: the SH99 Hβ tables give 3.16e16 and 1e17 cm⁻³
+// only from 10⁴ K up (physics.md §4.5; the grid in
+// diag/sh99/data/PROVENANCE.md), so at 8000 K a density of 2e22 m⁻³
+// falls between the 5000 K and 10⁴ K columns with a corner missing, and
+// the nearest temperature that covers it is the 10⁴ K node; a T_e the
+// tables cover is returned as it is.
+func TestCoveringTemperature(t *testing.T) {
+	hb, err := sh99.Balmer(4)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := hb.TableWidthNM(sh99.FWHM, 2e22, 8000); err == nil {
+		t.Fatal("Hβ at 2e22 m⁻³, 8000 K: the tables should not cover it (test premise)")
+	}
+	if got, ok := hb.CoveringTemperature(2e22, 8000); !ok || got != 10000 {
+		t.Errorf("Hβ 2e22 m⁻³ at 8000 K: covering temperature %g (%v), want the 10000 K node", got, ok)
+	}
+	if got, ok := hb.CoveringTemperature(1e21, 8000); !ok || got != 8000 {
+		t.Errorf("Hβ 1e21 m⁻³ at 8000 K: covering temperature %g (%v), want 8000 K itself", got, ok)
+	}
+	if _, ok := hb.CoveringTemperature(1e30, 8000); ok {
+		t.Error("Hβ 1e30 m⁻³: no temperature of the tables covers it, want ok false")
+	}
+	if _, ok := hb.CoveringTemperature(1e21, 0); ok {
+		t.Error("T = 0: want ok false")
+	}
+}

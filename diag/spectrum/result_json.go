@@ -2114,6 +2114,15 @@ func appendJSONWholeLine(b []byte, v *WholeLine) ([]byte, error) {
 	}
 	b = append(b, "\"shape\":"...)
 	b = appendJSONString(b, string(v.Shape))
+	if v.TableTemperatureK != 0 {
+		if len(b) > n0 {
+			b = append(b, ',')
+		}
+		b = append(b, "\"table_temperature_K\":"...)
+		if b, err = appendJSONFloat(b, float64(v.TableTemperatureK)); err != nil {
+			return b, err
+		}
+	}
 	if len(b) > n0 {
 		b = append(b, ',')
 	}

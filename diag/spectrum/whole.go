@@ -126,6 +126,12 @@ const (
 	// source.
 	wholeTeRelDefault = 0.69 // ln 2
 	wholeTeRelGiven   = 0.2
+	// wholeStandInMaxLn is the largest step (ln T) from T_e to a
+	// temperature node of the tables that stands in for it where the
+	// tables stop short of the density at T_e: a factor 2, the spacing
+	// of SH99's temperature nodes (5000, 10⁴, 19 950 K …). Common
+	// practice, no source.
+	wholeStandInMaxLn = 0.6931471805599453 + 1e-9
 	// wholeGridPerWidth and wholeGridPerPixel set the fine-grid step: at
 	// 1/8 of the line's total FWHM (pixel edges fall anywhere on it: the
 	// broadened cumulative is interpolated by cubic Hermite).
@@ -169,6 +175,8 @@ type wline struct {
 	center   float64 // catalogue centre on the working axis, nm
 	shapeSH  bool
 	sh       *sh99.Line
+	teK      float64            // temperature of its SH99 tables, K: T_e, or the nearest the tables cover the start at (0: T_e)
+	teRel    float64            // relative 1σ of teK as a stand-in for the plasma's T_e (ln units)
 	rel      diag.StarkRelation // Voigt fallback
 	instG    float64            // instrument Gaussian FWHM at the line (fixed value)
 	lorOther float64            // non-Stark Lorentzian FWHM (instrument, natural, resonance, vdW)
@@ -201,7 +209,7 @@ type wline struct {
 	extra2    float64 // G_extra² used
 	clampGap2 float64 // D_table² − (G² + D²) when clamped, else 0
 	sig       float64 // significance (area/σ, free areas)
-	neLo      float64 // the SH99 tables' density range at T_e, m⁻³
+	neLo      float64 // the SH99 tables' density range at teK, m⁻³
 	neHi      float64
 	held      bool // the last evaluation held the shape at a table edge
 	dropped   string
@@ -229,7 +237,9 @@ type wparams struct {
 type wholeFitter struct {
 	opt    Options
 	m      diag.Measurement
-	te     float64
+	te     float64 // electron temperature of the tables, K (given or default)
+	teRel  float64 // its relative 1σ (ln units)
+	teSign float64 // ±1 while densitySys moves every line's tables by its T_e σ, else 0
 	gasT   float64
 	mass   float64
 	lines  []*wline
@@ -400,8 +410,10 @@ func (p *Pipeline) wholeFit(in wholeInput, opt Options) (*WholeFit, error) {
 	f.reset(opt, in.m)
 	f.te = in.m.ElectronTemperatureK
 	teGiven := f.te > 0
+	f.teRel = wholeTeRelGiven
 	if !teGiven {
 		f.te = diag.DefaultElectronTemperatureK
+		f.teRel = wholeTeRelDefault
 	}
 	f.gasT = in.m.GasTemperatureK
 	if in.lines.GasTemperatureK != nil && *in.lines.GasTemperatureK > 0 {
@@ -430,6 +442,7 @@ func (p *Pipeline) wholeFit(in wholeInput, opt Options) (*WholeFit, error) {
 	if ne0 == 0 {
 		ne0 = f.scanDensity(in)
 	}
+	nNotes := len(f.notes)
 	if err := f.setup(in, ne0); err != nil {
 		return nil, err
 	}
@@ -437,7 +450,49 @@ func (p *Pipeline) wholeFit(in wholeInput, opt Options) (*WholeFit, error) {
 	if err != nil {
 		return nil, err
 	}
+	// A fit that ran into the end of the tables' density range at T_e
+	// where a temperature node beside T_e covers densities beyond it (the
+	// highest densities are tabulated only from 10⁴ K or 19 950 K up)
+	// starts again just beyond that end: setup then reads those lines'
+	// tables at the node (see CoveringTemperature).
+	if ne, ok := f.beyondEdge(); ok {
+		f.notes = f.notes[:nNotes]
+		if err := f.setup(in, ne); err != nil {
+			return nil, err
+		}
+		if it, conv, chi2, err = f.levmar(); err != nil {
+			return nil, err
+		}
+	}
 	return f.result(it, conv, chi2, teGiven, in)
+}
+
+// beyondEdge reports whether the fitted n_e sits at the end of the
+// density range that the lines' tables cover at their temperatures while
+// some SH99 line's tables cover the density just beyond that end at
+// another temperature node; ne is that density (a third of a decade
+// beyond the end).
+func (f *wholeFitter) beyondEdge() (ne float64, ok bool) {
+	ln := f.th[f.par.iNe]
+	var step float64
+	switch {
+	case ln >= f.lnHi-1e-6:
+		step = math.Log(10) / 3
+	case ln <= f.lnLo+1e-6:
+		step = -math.Log(10) / 3
+	default:
+		return 0, false
+	}
+	ne = math.Exp(ln + step)
+	for _, l := range f.lines {
+		if !l.shapeSH {
+			continue
+		}
+		if t, ok := l.sh.CoveringTemperature(ne, f.te); ok && t != f.tOf(l) && math.Abs(math.Log(t/f.te)) <= wholeStandInMaxLn {
+			return ne, true
+		}
+	}
+	return 0, false
 }
 
 // reset prepares a (reused) fitter for a new fit, keeping its buffers.
@@ -446,6 +501,20 @@ func (f *wholeFitter) reset(opt Options, m diag.Measurement) {
 		x: f.x[:0], a: f.a[:0], b: f.b[:0], y: f.y[:0], s: f.s[:0], leg: f.leg[:0],
 		th: f.th, model: f.model, jac: f.jac, linSol: f.linSol, sens: f.sens, wbuf: f.wbuf, mbuf: f.mbuf,
 		pool: f.pool, lines: f.lines[:0], ws: f.ws}
+}
+
+// tOf returns the temperature at which line l reads its SH99 tables:
+// T_e, or the temperature node standing in for it (wline.teK), moved by
+// the line's own T_e σ while densitySys asks (teSign).
+func (f *wholeFitter) tOf(l *wline) float64 {
+	t, rel := f.te, f.teRel
+	if l.teK > 0 {
+		t, rel = l.teK, l.teRel
+	}
+	if f.teSign != 0 {
+		t *= math.Exp(f.teSign * rel)
+	}
+	return t
 }
 
 // newLine returns a line from the pool, cleared, with its buffers kept.
@@ -528,7 +597,20 @@ func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
 	var keep []*wline
 	for i, l := range lines {
 		if l.sh != nil {
-			if lo, hi, ok := l.sh.ProfileRange(f.te); ok {
+			// The tables at T_e, or, where they stop short of the start
+			// at T_e but cover it at a temperature node beside it, at
+			// that node: SH99 give the highest densities only from
+			// 10⁴ K or 19 950 K up, and a line whose shape switched to
+			// the Voigt fallback there (reduced χ² ~10³ on SH99-shaped
+			// Hβ at 8000 K, n_e 27 % low) is far worse than the shape
+			// at a nearby temperature. The temperature step is added to
+			// the line's T_e uncertainty (densitySys).
+			if t, ok := l.sh.CoveringTemperature(ne0, f.te); ok && t != f.te && math.Abs(math.Log(t/f.te)) <= wholeStandInMaxLn {
+				l.teK = t
+				l.teRel = math.Hypot(f.teRel, math.Log(t/f.te))
+				f.notes = append(f.notes, fmt.Sprintf("%s: the SH99 tables do not give n_e ≈ %.3g m⁻³ at T_e = %.0f K; its shape is read at the nearest temperature that does, %.0f K, and the step is added to the electron-temperature part of σ_sys", l.t.Name(), ne0, f.te, t))
+			}
+			if lo, hi, ok := l.sh.ProfileRange(f.tOf(l)); ok {
 				l.neLo, l.neHi = lo, hi
 				l.shapeSH = ne0 >= lo && ne0 <= hi || l.rel.ID == "" && ne0 < lo
 				if !l.shapeSH && l.rel.ID == "" {
@@ -740,9 +822,9 @@ func (f *wholeFitter) widths(l *wline, ne, instG float64) (total, base float64) 
 	g := math.Hypot(instG, d)
 
 	if l.sh != nil {
-		if w, err := l.sh.TableWidthNM(sh99.FWHM, ne, f.te); err == nil {
+		if w, err := l.sh.TableWidthNM(sh99.FWHM, ne, f.tOf(l)); err == nil {
 			base = w
-			g = math.Sqrt(math.Max(g*g-math.Pow(l.sh.DopplerFWHMNM(f.te), 2), 0))
+			g = math.Sqrt(math.Max(g*g-math.Pow(l.sh.DopplerFWHMNM(f.tOf(l)), 2), 0))
 		}
 	}
 	if base == 0 && l.rel.ID != "" {
@@ -822,20 +904,21 @@ func (f *wholeFitter) lineShape(l *wline, lnNe, instG, gasT float64) (shapeFunc,
 	if l.shapeSH {
 		held := ne < l.neLo || ne > l.neHi
 		ne = math.Min(math.Max(ne, l.neLo), l.neHi)
-		s, err := l.sh.Shape(ne, f.te)
+		te := f.tOf(l)
+		s, err := l.sh.Shape(ne, te)
 		if err != nil {
 			return nil, 0, 0, err
 		}
 		l.shp = s
 		l.held = held
-		dt := l.sh.DopplerFWHMNM(f.te)
+		dt := l.sh.DopplerFWHMNM(te)
 		e2 := g2 - dt*dt
 		if e2 < 0 {
 			l.clampGap2 = -e2
 			e2 = 0
 		}
 		l.extra2 = e2
-		if w, err := l.sh.StarkWidthNM(sh99.FWHM, ne, f.te); err == nil {
+		if w, err := l.sh.StarkWidthNM(sh99.FWHM, ne, te); err == nil {
 			l.starkFWHM = w
 		} else {
 			l.starkFWHM = 0

@@ -401,7 +401,7 @@ func (f *wholeFitter) scanDensity(in wholeInput) float64 {
 	best, bestChi := 1e21, math.Inf(1)
 	for e := 18.0; e <= 23.5; e += 0.5 {
 		ne := math.Pow(10, e)
-		g := &wholeFitter{opt: f.opt, m: f.m, te: f.te, gasT: f.gasT, mass: f.mass, pert: f.pert}
+		g := &wholeFitter{opt: f.opt, m: f.m, te: f.te, teRel: f.teRel, gasT: f.gasT, mass: f.mass, pert: f.pert}
 		if err := g.setup(in, ne); err != nil {
 			continue
 		}
@@ -628,6 +628,7 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 		wl := WholeLine{Upper: l.t.Upper, Name: l.t.Name(), Shape: "Voigt", Area: unsc(f.areaOf(k, th)), AreaUnc: unsc(areaCov(k)), StarkFWHMNM: l.starkFWHM}
 		if l.shapeSH {
 			wl.Shape = "SH99"
+			wl.TableTemperatureK = f.tOf(l)
 		}
 		if l.clampGap2 > 0 {
 			anyClamp = true
@@ -663,7 +664,7 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 
 	// Systematic parts (first-order responses of the fit; also when n_e
 	// is at its range end, for T_exc).
-	neParts, tParts := f.densitySys(ne, cov0, teGiven)
+	neParts, tParts := f.densitySys(ne, cov0)
 
 	// T_exc.
 	kB := diag.BoltzmannEVPerK
@@ -842,7 +843,7 @@ func (f *wholeFitter) texcResponseSys(th []float64, areaSig func(int) float64, u
 // (texcResponseSys), but a wrong instrument width or T_e moves the areas
 // too, and leaving that out made T_exc's total σ cover 33 % instead of
 // 68 % on spectra whose instrument width was off by its stated σ.
-func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) (parts, tParts []diag.UncPart) {
+func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []diag.UncPart) {
 	pr := f.par
 	np := pr.n
 	th := f.th
@@ -915,7 +916,7 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) (part
 			dg := diag.DopplerFWHMNM(l.center, tg, f.mass)
 			e2 := g*g + dg*dg
 			if l.shapeSH {
-				e2 -= math.Pow(l.sh.DopplerFWHMNM(f.te), 2)
+				e2 -= math.Pow(l.sh.DopplerFWHMNM(f.tOf(l)), 2)
 			}
 			f.convolve(l, math.Sqrt(math.Max(e2, 0)), l.kernL())
 			f.pixels(l, th[pr.iOff])
@@ -946,14 +947,12 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) (part
 		restore()
 	}
 	// Electron temperature of the tables (the lines re-evaluated).
-	rel := wholeTeRelDefault
-	if teGiven {
-		rel = wholeTeRelGiven
-	}
-	teShift := func(fac float64) ([2]float64, bool) {
-		save := f.te
-		f.te *= fac
-		defer func() { f.te = save }()
+	// Each line's tables move by its own T_e σ (teRel; larger for a line
+	// whose tables stand in at a nearby temperature), all in the same
+	// direction.
+	teShift := func(sign float64) ([2]float64, bool) {
+		f.teSign = sign
+		defer func() { f.teSign = 0 }()
 		for _, l := range f.lines {
 			g, tg := f.lineInst(l, th)
 			if err := f.evalLine(l, th[pr.iNe], th[pr.iOff], g, tg); err != nil {
@@ -962,8 +961,8 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) (part
 		}
 		return shiftFor(), true
 	}
-	d1, ok1 := teShift(math.Exp(rel))
-	d2, ok2 := teShift(math.Exp(-rel))
+	d1, ok1 := teShift(1)
+	d2, ok2 := teShift(-1)
 	switch {
 	case ok1 && ok2:
 		add("electron temperature of the tables", half(d1, d2))
@@ -1008,7 +1007,7 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) (part
 		r := wholeRelationRel
 		if l.shapeSH {
 			anySH = true
-			r = wholeReadNodeRel + wholeReadMidRel*l.sh.NodeDistance(ne, f.te)
+			r = wholeReadNodeRel + wholeReadMidRel*l.sh.NodeDistance(ne, f.tOf(l))
 		}
 		rMin, rMax = math.Min(rMin, r), math.Max(rMax, r)
 		a := f.areaOf(k, th)
@@ -1062,15 +1061,16 @@ func (f *wholeFitter) lineReadExponent(l *wline, ne float64) (float64, bool) {
 	}
 	// Central difference, one-sided at the tables' edge.
 	hi, lo := ne*1.05, ne/1.05
-	w1, e1 := l.sh.TableWidthNM(sh99.FWHM, hi, f.te)
+	te := f.tOf(l)
+	w1, e1 := l.sh.TableWidthNM(sh99.FWHM, hi, te)
 	if e1 != nil {
 		hi = ne
-		w1, e1 = l.sh.TableWidthNM(sh99.FWHM, hi, f.te)
+		w1, e1 = l.sh.TableWidthNM(sh99.FWHM, hi, te)
 	}
-	w0, e0 := l.sh.TableWidthNM(sh99.FWHM, lo, f.te)
+	w0, e0 := l.sh.TableWidthNM(sh99.FWHM, lo, te)
 	if e0 != nil {
 		lo = ne
-		w0, e0 = l.sh.TableWidthNM(sh99.FWHM, lo, f.te)
+		w0, e0 = l.sh.TableWidthNM(sh99.FWHM, lo, te)
 	}
 	if e1 != nil || e0 != nil || !(hi > lo) || !(w1 > w0) {
 		return 0, false
@@ -1100,13 +1100,13 @@ func (f *wholeFitter) weakDensity(th []float64, ne float64) string {
 		stark := 0.0
 		if !l.shapeSH {
 			stark = l.rel.LorentzianWidthNM(l.rel.WidthFromDensity(ne))
-		} else if w, err := l.sh.StarkWidthNM(sh99.FWHM, ne, f.te); err == nil {
+		} else if w, err := l.sh.StarkWidthNM(sh99.FWHM, ne, f.tOf(l)); err == nil {
 			stark = w
-		} else if wt, err := l.sh.TableWidthNM(sh99.FWHM, ne, f.te); err == nil {
+		} else if wt, err := l.sh.TableWidthNM(sh99.FWHM, ne, f.tOf(l)); err == nil {
 			// Outside the range of the tables' Stark-only widths: the
 			// Lorentzian that, with the tables' Doppler width, makes
 			// their FWHM (a Voigt reading of the tabulated profile).
-			if w, err := diag.LorentzFromVoigt(wt, l.sh.DopplerFWHMNM(f.te)); err == nil {
+			if w, err := diag.LorentzFromVoigt(wt, l.sh.DopplerFWHMNM(f.tOf(l))); err == nil {
 				stark = w
 			}
 		}

@@ -109,8 +109,9 @@ func TestWholeFreeAreas(t *testing.T) {
 }
 
 // TestWholeVoigtFallback: at a density outside the SH99 tables at the
-// electron temperature given (5000 K: the tables end at 1e22 m⁻³), Hα
-// and Hβ are modelled as Voigt profiles with the Stark width of their
+// electron temperature given (3000 K: the tables end at 1e22 m⁻³, and
+// the 10⁴ K node that covers the density is more than a factor 2 away,
+// so it does not stand in), Hα and Hβ are modelled as Voigt profiles with the Stark width of their
 // default (GGC 2003) relation. The spectrum is made by Synthesize with
 // exactly those Voigt lines (GGC widths), so n_e must come back within
 // 3σ of its statistical σ.
@@ -124,7 +125,7 @@ func TestWholeVoigtFallback(t *testing.T) {
 		t.Fatal(err)
 	}
 	opt := Options{Model: ModelWhole, LineShape: LineShapeVoigt, MaxUpper: 4,
-		Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.4, GasTemperatureK: 800, ElectronTemperatureK: 5000}}
+		Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.4, GasTemperatureK: 800, ElectronTemperatureK: 3000}}
 	res, err := NewPipeline(4096).Analyze(&Spectrum{Name: "v", WavelengthNM: x, Counts: y}, opt)
 	if err != nil {
 		t.Fatal(err)
@@ -542,10 +543,12 @@ func TestWholeWeakLinesGiveTexc(t *testing.T) {
 
 // TestWholeDensityAtRangeEnd: a Hγ line (no default relation, so no
 // Voigt fallback) wider than the SH99 tables reach at the electron
-// temperature given (1e22 m⁻³ at 5000 K; the line is a Voigt with the
-// SH99 Hγ width at 3e22 m⁻³ and 1e4 K, from Synthesize) drives the fit to
-// the end of the shapes' range: n_e is then a limit and not reported,
-// and the note says so.
+// temperature given (4000 K, between the 2500 K and 5000 K nodes, where
+// they stop at 1e22 m⁻³; the line is a Voigt with the SH99 Hγ width at
+// 3e22 m⁻³ and 1e4 K, from Synthesize) drives the fit to the end of the
+// shapes' range: n_e is then a limit and not reported, and the note says
+// so. (At 5000 K the 10⁴ K node, a factor 2 away, now stands in and gives
+// n_e: TestWholeTableTemperatureStandIn.)
 func TestWholeDensityAtRangeEnd(t *testing.T) {
 	x := linspace(410, 460, 1500)
 	y, _, err := Synthesize(SynthConfig{WavelengthNM: x, Uppers: []int{5}, ExcitationTemperatureK: 7000,
@@ -554,7 +557,7 @@ func TestWholeDensityAtRangeEnd(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	opt := Options{Model: ModelWhole, Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.1, GasTemperatureK: 800, ElectronTemperatureK: 5000}}
+	opt := Options{Model: ModelWhole, Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.1, GasTemperatureK: 800, ElectronTemperatureK: 4000}}
 	res, err := NewPipeline(4096).Analyze(&Spectrum{Name: "r", WavelengthNM: x, Counts: y}, opt)
 	if err != nil {
 		t.Fatal(err)

@@ -84,6 +84,10 @@ type WholeLine struct {
 	// (outside the tables: Lorentzian Stark width of the preferred
 	// relation).
 	Shape string `json:"shape"`
+	// TableTemperatureK is the temperature at which an SH99 line read
+	// its tables: T_e, or the nearest temperature node that covers the
+	// density where the tables stop short of it at T_e (0 for Voigt).
+	TableTemperatureK float64 `json:"table_temperature_K,omitempty"`
 	// Area and AreaUnc are the line's integrated intensity in the
 	// analysis' intensity unit (from the Boltzmann scale, or free).
 	Area    float64 `json:"area"`
