@@ -996,13 +996,25 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 	// r is wholeReadNodeRel + wholeReadMidRel × the line's distance from
 	// the tables' nodes (sh99 NodeDistance: 0 at a node, 1 midway), for
 	// each part; a relation's width takes wholeRelationRel.
-	var cn, cb, sn, sb, rMin, rMax float64
+	var cn, cb, sn, sb, rMin, rMax, vn, vb float64
 	rMin = math.Inf(1)
-	anySH := false
+	anySH, anyStandIn := false, false
 	for k, l := range f.lines {
 		pk, ok := f.lineReadExponent(l, ne)
 		if !ok || !(pk > 0) {
 			continue
+		}
+		if !l.shapeSH && f.opt.LineShape != LineShapeVoigt {
+			// A Voigt standing in for a Stark-shaped line: its n_e
+			// shifts by wholeVoigtStandInRel (the width by that × p_k),
+			// the same way for every such line.
+			anyStandIn = true
+			a := f.areaOf(k, th)
+			for i := l.plo; i < l.phi; i++ {
+				dm := a * l.dn[i-l.plo] * wholeVoigtStandInRel
+				vn += sens[i] * dm
+				vb += sensB[i] * dm
+			}
 		}
 		r := wholeRelationRel
 		if l.shapeSH {
@@ -1021,6 +1033,9 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 		cb += db
 		sn += d * d
 		sb += db * db
+	}
+	if anyStandIn {
+		add(fmt.Sprintf("Voigt standing in for the Stark shape outside the SH99 tables (n_e ±%.0f %%)", 100*wholeVoigtStandInRel), [2]float64{math.Abs(vn), math.Abs(vb)})
 	}
 	if rMax == 0 {
 		return parts, tParts
