@@ -63,6 +63,13 @@ const vdWConventionRatio = vdWConst / vdWConstUnsold
 // independent implementations differ by 10–16 % (physics.md §10 item 9).
 const aliGriemRelUnc = 0.20
 
+// VdWConventionRatio and AliGriemRelUnc are vdWConventionRatio and
+// aliGriemRelUnc for the spectrum fits, which carry the same two parts.
+const (
+	VdWConventionRatio = vdWConventionRatio
+	AliGriemRelUnc     = aliGriemRelUnc
+)
+
 // densityModels returns the relations that apply to a line, the preferred
 // one first when the user chose it: the user's override, GGC 2003 (Hα,
 // Hβ) and SH99 (Hα … H(12→2)).

@@ -510,3 +510,52 @@ func TestWholeVoigtStandInSigma(t *testing.T) {
 		t.Errorf("n_e %.4g ± %.2g misses the truth %g by more than 2σ", got, unc, ne)
 	}
 }
+
+// TestWholePressureParts: at atmospheric pressure in argon the
+// non-Stark Lorentzians are not small (van der Waals ≈ 0.1 nm on Hβ at
+// 1500 K), so the whole fit's σ_sys carries the van der Waals constant's
+// convention (physics.md §10 item 7) as the line-by-line route does; at
+// 1 Pa neither route has that part.
+func TestWholePressureParts(t *testing.T) {
+	p := NewPipeline(8192)
+	x := linspace(470, 505, 2048)
+	const ne = 2e21
+	argon, err := diag.LookupPerturber("Ar")
+	if err != nil {
+		t.Fatal(err)
+	}
+	y, _, err := SynthesizeStark(SynthConfig{WavelengthNM: x, Uppers: []int{4}, ExcitationTemperatureK: 8000,
+		ElectronDensityM3: ne, GasTemperatureK: 1500, InstrumentFWHMNM: 0.05, PressurePa: 101325, Perturber: argon,
+		HalphaArea: 5e8, BaselinePerNM: 200})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, pa := range []float64{101325, 1} {
+		opt := Options{Model: ModelWhole, Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.05, GasTemperatureK: 1500, PressurePa: pa, Perturber: "Ar"}}
+		res, err := p.Analyze(&Spectrum{Name: "atm", WavelengthNM: x, Counts: y}, opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		w := res.Whole
+		if w == nil || w.ElectronDensityM3 == nil {
+			t.Fatalf("%g Pa: no whole-fit n_e", pa)
+		}
+		var vdw float64
+		for _, q := range w.ElectronDensityUncParts {
+			if q.Name == "van der Waals constant convention" {
+				vdw = q.Sigma
+			}
+		}
+		t.Logf("%g Pa: n_e %.4g ± %.2g m⁻³ (truth %g), van der Waals part %.2g", pa, *w.ElectronDensityM3, *w.ElectronDensityUncM3, ne, vdw)
+		if pa > 1000 {
+			if !(vdw > 0.01**w.ElectronDensityM3) {
+				t.Errorf("%g Pa: van der Waals convention part %.3g, want above 1 %% of n_e; parts %v", pa, vdw, w.ElectronDensityUncParts)
+			}
+			if d := math.Abs(*w.ElectronDensityM3/ne - 1); d > 0.05 {
+				t.Errorf("%g Pa: n_e %.4g, truth %g (%.1f %%)", pa, *w.ElectronDensityM3, ne, 100*d)
+			}
+		} else if vdw != 0 {
+			t.Errorf("%g Pa: van der Waals part %.3g, want none", pa, vdw)
+		}
+	}
+}

@@ -191,6 +191,7 @@ type wline struct {
 	rel      diag.StarkRelation // Voigt fallback
 	instG    float64            // instrument Gaussian FWHM at the line (fixed value)
 	lorOther float64            // non-Stark Lorentzian FWHM (instrument, natural, resonance, vdW)
+	vdw, res float64            // its van der Waals and resonance parts, nm
 	lnF      float64            // ln of g A (/λ) relative to the first line
 	dE       float64            // E_k − E_first, eV
 	px       float64            // pixel width at the line
@@ -573,6 +574,7 @@ func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
 			return err
 		}
 		l.lorOther = b.LorentzNonStarkNM
+		l.vdw, l.res = b.VanDerWaalsNM, b.ResonanceNM
 		if s, err := sh99.Balmer(c.t.Upper); err == nil {
 			l.sh = s
 		}

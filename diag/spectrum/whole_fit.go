@@ -908,7 +908,9 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 		}
 	}
 	// Kernel-only changes: the masses at the solution are kept.
-	kernel := func(dInst, dGas float64) [2]float64 {
+	var kernelL func(dInst, dGas float64, dL func(*wline) float64) [2]float64
+	kernel := func(dInst, dGas float64) [2]float64 { return kernelL(dInst, dGas, nil) }
+	kernelL = func(dInst, dGas float64, dL func(*wline) float64) [2]float64 {
 		for _, l := range f.lines {
 			g, tg := f.lineInst(l, th)
 			g += dInst
@@ -918,12 +920,33 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 			if l.shapeSH {
 				e2 -= math.Pow(l.sh.DopplerFWHMNM(f.tOf(l)), 2)
 			}
-			f.convolve(l, math.Sqrt(math.Max(e2, 0)), l.kernL())
+			kl := l.kernL()
+			if dL != nil {
+				kl = math.Max(kl+dL(l), 0)
+			}
+			f.convolve(l, math.Sqrt(math.Max(e2, 0)), kl)
 			f.pixels(l, th[pr.iOff])
 		}
 		d := shiftFor()
 		restore()
 		return d
+	}
+	// The non-Stark Lorentzians' own uncertainties, as the line-by-line
+	// route carries them (diag.densityUnc): the van der Waals width with
+	// the other convention of its constant (physics.md §10 item 7) and
+	// the resonance width ± diag.AliGriemRelUnc (item 9). Zero at low
+	// pressure, where both widths are.
+	var anyVdW, anyRes bool
+	for _, l := range f.lines {
+		anyVdW = anyVdW || l.vdw > 0
+		anyRes = anyRes || l.res > 0
+	}
+	if anyVdW {
+		add("van der Waals constant convention", kernelL(0, 0, func(l *wline) float64 { return l.vdw * (1/diag.VdWConventionRatio - 1) }))
+	}
+	if anyRes {
+		add("resonance (Ali–Griem) constant", half(kernelL(0, 0, func(l *wline) float64 { return l.res * diag.AliGriemRelUnc }),
+			kernelL(0, 0, func(l *wline) float64 { return -l.res * diag.AliGriemRelUnc })))
 	}
 	if s := f.m.InstrumentFWHMUncNM; s > 0 && pr.iIa < 0 {
 		add("instrument width", half(kernel(s, 0), kernel(-math.Min(s, f.minInst()), 0)))
