@@ -167,7 +167,44 @@ func modelFamilies(d *diag.Result) []string {
 			}
 		}
 	}
+	// Models that were tried on a line with a width and did not apply
+	// (outside their tables or range) get their column too, so that the
+	// page says why a line has no density from them.
+	for _, l := range d.Lines {
+		if len(l.Densities) == 0 {
+			continue
+		}
+		for _, n := range l.Notes {
+			if id, _, ok := notApplying(n); ok {
+				if f := modelFamily(id); !seen[f] {
+					seen[f] = true
+					out = append(out, f)
+				}
+			}
+		}
+	}
 	return out
+}
+
+// notApplying parses a line note "ID does not apply (reason)" (written by
+// the analysis for a Stark model that does not cover the line's width).
+func notApplying(note string) (id, reason string, ok bool) {
+	id, rest, found := strings.Cut(note, " does not apply (")
+	if !found || strings.ContainsRune(id, ' ') || !strings.HasSuffix(rest, ")") {
+		return "", "", false
+	}
+	return id, strings.TrimPrefix(strings.TrimSuffix(rest, ")"), "sh99: "), true
+}
+
+// modelNotApplying returns why the model family fam gave the line no
+// density ("" when the analysis did not say).
+func modelNotApplying(l diag.LineResult, fam string) string {
+	for _, n := range l.Notes {
+		if id, reason, ok := notApplying(n); ok && modelFamily(id) == fam {
+			return reason
+		}
+	}
+	return ""
 }
 
 // modelEstimate returns the line's density by the model family fam.

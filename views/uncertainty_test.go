@@ -43,3 +43,30 @@ func TestLowerLimitDensityShownAsBound(t *testing.T) {
 		t.Errorf("NeSplit = %+v, want a lower limit", s)
 	}
 }
+
+// A Stark model that does not cover a line's width still gets its column
+// in the per-model table, saying why: an Hβ Stark FWHM of about 0.07 nm
+// is below the SH99 tables' range at the default T_e = 10⁴ K (their
+// Stark-only widths start at 3.16e20 m⁻³ there), so the line's only
+// density is GGC 2003's and the SH99 cell gives the tables' range.
+func TestLineModelsTableSaysWhyAModelDoesNotApply(t *testing.T) {
+	m := diag.Measurement{Unit: diag.PhotonUnits, ResponseCorrected: true, InstrumentGaussFWHMNM: 0.02, GasTemperatureK: 500,
+		Lines: []diag.MeasuredLine{{Upper: 4, Intensity: 1e4, IntensityUnc: 1e2, FWHMNM: 0.08, FWHMUncNM: 0.002}}}
+	d, err := diag.Analyze(m)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if n := len(d.Lines[0].Densities); n != 1 || !strings.HasPrefix(d.Lines[0].Densities[0].Relation, "ggc2003-") {
+		t.Fatalf("densities %+v, want GGC 2003's only (test premise)", d.Lines[0].Densities)
+	}
+	var buf bytes.Buffer
+	if err := lineModelsTable(&d).Render(context.Background(), &buf); err != nil {
+		t.Fatal(err)
+	}
+	out := buf.String()
+	for _, want := range []string{">SH99</th>", "does not apply", `data-testid="model-not-applying"`, "outside the Stehlé–Hutcheon tables"} {
+		if !strings.Contains(out, want) {
+			t.Errorf("per-model table lacks %q:\n%s", want, out)
+		}
+	}
+}
