@@ -123,6 +123,9 @@ func writeWholeText(buf *bytes.Buffer, w *spectrum.WholeFit, d *diag.Result) {
 		}
 	}
 	fmt.Fprintf(buf, "  routes disagree beyond their σ: %s\n", disagree)
+	for _, t := range otherModelTexts(w) {
+		fmt.Fprintf(buf, "  Stark theory (not in the whole fit's σ): %s\n", t)
+	}
 	if w.DopplerNote != "" {
 		fmt.Fprintf(buf, "  Doppler: %s\n", w.DopplerNote)
 	}

@@ -5,6 +5,7 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
+	"math"
 	"net/http"
 	"os"
 	"path/filepath"
@@ -398,5 +399,52 @@ func TestAnalyzeTextUpperLimit(t *testing.T) {
 	want := "n_e < " + views.ValueUnc(fp(2.3e20), nil) + " m⁻³ (upper limit"
 	if !strings.Contains(text, want) {
 		t.Errorf("summary lacks %q:\n%s", want, text)
+	}
+}
+
+// TestWholeOtherModels: on an independent SH99-shaped Hβ spectrum
+// (testdata/wholesynth/hires_hb_01, made with scipy from the tables at
+// 2.108e22 m⁻³) the whole fit says what the GGC 2003 Hβ relation gives
+// for the line's SH99 Stark FWHM at the fitted n_e — consistent with the
+// fitted n_e and with the relation itself, and below SH99 by less than
+// 25 % — in the JSON, in `analyze --text`, and in the run page's
+// sentences.
+func TestWholeOtherModels(t *testing.T) {
+	run := func(extra ...string) []byte {
+		args := append([]string{"--instrument-fwhm-nm", "0.0994", "--gas-temperature-K", "10000", "--electron-temperature-K", "10000",
+			"--gain-e-per-count", "1", "--read-noise-e", "5", "--response", filepath.Join(wholeSynthDir, "response_hires.csv")}, extra...)
+		args = append(args, filepath.Join(wholeSynthDir, "hires_hb_01.csv"))
+		var out, errb bytes.Buffer
+		if code := AnalyzeCommand(args, nil, &out, &errb); code != ExitOK {
+			t.Fatalf("analyze %v: exit %d: %s", args, code, errb.String())
+		}
+		return out.Bytes()
+	}
+	var res spectrum.Result
+	if err := json.Unmarshal(run(), &res); err != nil {
+		t.Fatal(err)
+	}
+	w := res.Whole
+	if w == nil || w.ElectronDensityM3 == nil || len(w.OtherModels) != 1 {
+		t.Fatalf("whole fit %+v: want n_e and one other model (Hβ by GGC 2003)", w)
+	}
+	m := w.OtherModels[0]
+	rel, err := diag.LookupStarkRelation(m.Relation)
+	if err != nil {
+		t.Fatal(err)
+	}
+	back, err := rel.DensityAt(m.StarkWidthNM, 10000)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if m.Name != "Hβ" || m.Relation != "ggc2003-hbeta-fwhm" || math.Abs(back/m.ElectronDensityM3-1) > 1e-9 ||
+		math.Abs(m.ElectronDensityM3/(*w.ElectronDensityM3*(1+m.RelDiff))-1) > 1e-9 || !(m.RelDiff < 0 && m.RelDiff > -0.25) {
+		t.Errorf("other model %+v against n_e %.4g and the relation's own %.4g", m, *w.ElectronDensityM3, back)
+	}
+	if text := string(run("--text")); !strings.Contains(text, "Stark theory (not in the whole fit's σ): Hβ: for its SH99 Stark FWHM") {
+		t.Errorf("analyze --text lacks the other model:\n%s", text)
+	}
+	if got := otherModelTexts(w); len(got) != 1 || !strings.Contains(got[0], views.SigFig(m.ElectronDensityM3, 3)) {
+		t.Errorf("run page sentences %q", got)
 	}
 }

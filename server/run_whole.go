@@ -140,6 +140,7 @@ func wholeFitView(base string, p *runPage, r *decodedResult, lo, hi float64, inl
 			v.Disagrees = true
 		}
 	}
+	v.OtherModels = otherModelTexts(w)
 
 	// Parameters, and the correlations of the free ones.
 	var free []spectrum.WholeParam
@@ -301,4 +302,21 @@ func (s *Server) figureWhole(c echo.Context) error {
 // a minus sign.
 func plainNum(v float64) string {
 	return strings.Replace(strconv.FormatFloat(v, 'g', 6, 64), "-", "−", 1)
+}
+
+// otherModelTexts says, per line of whole fit w, what another Stark
+// model's relation gives for the line's SH99 Stark width at the fitted
+// n_e (run page and analyze --text).
+func otherModelTexts(w *spectrum.WholeFit) []string {
+	var out []string
+	for _, m := range w.OtherModels {
+		width := "FWHM"
+		if strings.Contains(m.Relation, "fwha") {
+			width = "FWHA"
+		}
+		out = append(out, fmt.Sprintf("%s: for its SH99 Stark %s at this n_e (%s nm), %s gives %s m⁻³ (%s %%)",
+			m.Name, width, views.SigFig(m.StarkWidthNM, 3), m.Relation, views.SigFig(m.ElectronDensityM3, 3),
+			strings.Replace(fmt.Sprintf("%+.1f", 100*m.RelDiff), "-", "−", 1)))
+	}
+	return out
 }

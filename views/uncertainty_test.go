@@ -70,3 +70,20 @@ func TestLineModelsTableSaysWhyAModelDoesNotApply(t *testing.T) {
 		}
 	}
 }
+
+// The whole-fit section lists what another Stark model gives, saying that
+// this is not in the ±.
+func TestWholeFitSectionOtherModels(t *testing.T) {
+	var buf bytes.Buffer
+	w := WholeFitView{RouteLabel: "whole-spectrum fit", Converged: true,
+		OtherModels: []string{"Hβ: for its SH99 Stark FWHM at this n_e (1.56 nm), ggc2003-hbeta-fwhm gives 1.91 × 10²² m⁻³ (−9.0 %)"}}
+	if err := wholeFitSection(w).Render(context.Background(), &buf); err != nil {
+		t.Fatal(err)
+	}
+	out := buf.String()
+	for _, want := range []string{`data-testid="whole-other-models"`, "not in the ± above", "ggc2003-hbeta-fwhm gives 1.91 × 10²² m⁻³ (−9.0 %)"} {
+		if !strings.Contains(out, want) {
+			t.Errorf("whole-fit section lacks %q", want)
+		}
+	}
+}

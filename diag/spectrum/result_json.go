@@ -1768,6 +1768,26 @@ func appendJSONWholeFit(b []byte, v *WholeFit) ([]byte, error) {
 			}
 		}
 	}
+	if len(v.OtherModels) != 0 {
+		if len(b) > n0 {
+			b = append(b, ',')
+		}
+		b = append(b, "\"other_models\":"...)
+		if v.OtherModels == nil {
+			b = append(b, "null"...)
+		} else {
+			b = append(b, '[')
+			for i2 := range v.OtherModels {
+				if i2 > 0 {
+					b = append(b, ',')
+				}
+				if b, err = appendJSONWholeOtherModel(b, &v.OtherModels[i2]); err != nil {
+					return b, err
+				}
+			}
+			b = append(b, ']')
+		}
+	}
 	if v.GasTemperatureK != nil {
 		if len(b) > n0 {
 			b = append(b, ',')
@@ -2163,6 +2183,51 @@ func appendJSONWholeLine(b []byte, v *WholeLine) ([]byte, error) {
 	}
 	b = append(b, "\"peak_snr\":"...)
 	if b, err = appendJSONFloat(b, float64(v.PeakSNR)); err != nil {
+		return b, err
+	}
+	_ = err
+	return append(b, '}'), nil
+}
+
+func appendJSONWholeOtherModel(b []byte, v *WholeOtherModel) ([]byte, error) {
+	var err error
+	b = append(b, '{')
+	n0 := len(b)
+	_ = n0
+	if len(b) > n0 {
+		b = append(b, ',')
+	}
+	b = append(b, "\"upper_level\":"...)
+	b = strconv.AppendInt(b, int64(v.Upper), 10)
+	if len(b) > n0 {
+		b = append(b, ',')
+	}
+	b = append(b, "\"name\":"...)
+	b = appendJSONString(b, string(v.Name))
+	if len(b) > n0 {
+		b = append(b, ',')
+	}
+	b = append(b, "\"relation\":"...)
+	b = appendJSONString(b, string(v.Relation))
+	if len(b) > n0 {
+		b = append(b, ',')
+	}
+	b = append(b, "\"stark_width_nm\":"...)
+	if b, err = appendJSONFloat(b, float64(v.StarkWidthNM)); err != nil {
+		return b, err
+	}
+	if len(b) > n0 {
+		b = append(b, ',')
+	}
+	b = append(b, "\"electron_density_m3\":"...)
+	if b, err = appendJSONFloat(b, float64(v.ElectronDensityM3)); err != nil {
+		return b, err
+	}
+	if len(b) > n0 {
+		b = append(b, ',')
+	}
+	b = append(b, "\"rel_diff\":"...)
+	if b, err = appendJSONFloat(b, float64(v.RelDiff)); err != nil {
 		return b, err
 	}
 	_ = err

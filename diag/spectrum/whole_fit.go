@@ -653,6 +653,19 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 		}
 		wl.PeakSNR = peak
 		wf.Lines = append(wf.Lines, wl)
+		if l.shapeSH && l.rel.ID != "" && !atBound {
+			te := f.tOf(l)
+			kind := sh99.FWHM
+			if l.rel.Kind == diag.FWHA {
+				kind = sh99.FWHA
+			}
+			if w, err := l.sh.StarkWidthNM(kind, ne, te); err == nil {
+				if n2, err := l.rel.DensityAt(w, te); err == nil && n2 > 0 && finite(n2) {
+					wf.OtherModels = append(wf.OtherModels, WholeOtherModel{Upper: l.t.Upper, Name: l.t.Name(), Relation: l.rel.ID,
+						StarkWidthNM: w, ElectronDensityM3: n2, RelDiff: n2/ne - 1})
+				}
+			}
+		}
 	}
 	wf.DopplerNote = "the SH99 profiles include Doppler broadening at the tables' temperature T_e; each line was convolved with the Gaussian still missing, √(instrument² + Doppler(T_gas)² − Doppler(T_e)²)"
 	if anyClamp {

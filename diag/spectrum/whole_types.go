@@ -76,6 +76,21 @@ type WholeParam struct {
 	Fixed bool    `json:"fixed"`
 }
 
+// WholeOtherModel is one line's n_e by another Stark model at the
+// whole fit's solution.
+type WholeOtherModel struct {
+	Upper    int    `json:"upper_level"`
+	Name     string `json:"name"`
+	Relation string `json:"relation"`
+	// StarkWidthNM is the SH99 Stark width of the line at the fitted n_e,
+	// of the kind the relation is written for (FWHM, or FWHA for Hα).
+	StarkWidthNM float64 `json:"stark_width_nm"`
+	// ElectronDensityM3 is the relation's n_e for that width; RelDiff its
+	// relative difference from the fitted n_e.
+	ElectronDensityM3 float64 `json:"electron_density_m3"`
+	RelDiff           float64 `json:"rel_diff"`
+}
+
 // WholeLine is one Balmer line inside the whole-spectrum model.
 type WholeLine struct {
 	Upper int    `json:"upper_level"`
@@ -153,6 +168,13 @@ type WholeFit struct {
 	// when the Stark part widens no line carrying signal enough for a
 	// measured n_e (FlagWholeDensityLimit): the fitted value + 2 total σ.
 	ElectronDensityUpperLimitM3 *float64 `json:"electron_density_upper_limit_m3,omitempty"`
+	// OtherModels says, for each line of the fit that also has a Stark
+	// relation of another model (GGC 2003 for Hα and Hβ), what that
+	// relation gives for the SH99 Stark width of the line at the fitted
+	// n_e: the dependence of n_e on the Stark theory, which the whole
+	// fit's σ does not carry (its shapes are SH99's; the line-by-line
+	// route beside it carries the spread between models in its σ_sys).
+	OtherModels []WholeOtherModel `json:"other_models,omitempty"`
 	// weakNe is the reason n_e is only a limit ("" when it is a value).
 	weakNe             string
 	GasTemperatureK    *float64 `json:"gas_temperature_K,omitempty"`
