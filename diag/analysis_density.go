@@ -47,10 +47,28 @@ const (
 
 // modelSpreadSingleRel is the relative model uncertainty of n_e assigned
 // to a line that only one Stark model covers (Hγ and higher members, SH99
-// only): the GGC–SH99 spread of Hβ, ~10 % in n_e (physics.md §10 item
-// 10; diag/sh99 TestAgainstGGC2003), carried like a two-model spread
-// (σ = Δ/√2). Common practice, no source.
+// only; Hα or Hβ where one model's range stops short of the width): the
+// GGC–SH99 spread of Hβ, ~10 % in n_e (physics.md §10 item 10; diag/sh99
+// TestAgainstGGC2003: widths 6–9 % apart), carried like a two-model
+// spread (σ = Δ/√2). Common practice, no source.
 const modelSpreadSingleRel = 0.10
+
+// modelSpreadSingleHalphaRel is the same for Hα, whose GGC 2003 FWHA
+// reads 12–16 % wider than SH99's (TestAgainstGGC2003 at 1e21–1e23 m⁻³,
+// 1e4 K: ion dynamics in GGC's simulations), about 22 % in n_e at the
+// FWHA's exponent ≈ 0.67. Where only one of the two covers an Hα width
+// (low densities, below SH99's Stark-only range) the spread is that of
+// Hα, not Hβ's. Our measurement of the two published sets, no source for
+// the spread itself.
+const modelSpreadSingleHalphaRel = 0.22
+
+// singleModelSpread returns the single-model spread of a line.
+func singleModelSpread(upper int) float64 {
+	if upper == 3 {
+		return modelSpreadSingleHalphaRel
+	}
+	return modelSpreadSingleRel
+}
 
 // vdWConventionRatio is the ratio of the two van der Waals constants,
 // 8.18e-12 (the literature form behind the published simplified
@@ -257,7 +275,7 @@ func lineDensities(lr *LineResult, in lineWidthInput, m Measurement, te float64,
 	if len(ests) > 1 {
 		addPart("Stark model spread", spread/math.Sqrt2)
 	} else {
-		addPart("Stark model (one model only)", modelSpreadSingleRel*p.ne/math.Sqrt2)
+		addPart("Stark model (one model only)", singleModelSpread(in.line.Upper)*p.ne/math.Sqrt2)
 	}
 	sys := 0.0
 	for _, pt := range parts {

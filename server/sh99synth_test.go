@@ -427,12 +427,22 @@ func TestSH99SynthCoverage(t *testing.T) {
 	// and 75 % there). So T_exc's σ is conservative: its lower bound
 	// (60 %) and 2σ bound are enforced as for n_e, and its 1σ upper bound
 	// is the measured state plus one binomial σ at n = 36 (92 % + ~5 %),
-	// so that any further widening fails. n_e keeps the strict 76 %.
+	// so that any further widening fails. n_e kept the strict 76 % until
+	// Hα's single-model spread (a line only one Stark model covers) was
+	// set to Hα's own GGC–SH99 spread, 22 % in n_e, instead of Hβ's 10 %
+	// (diag modelSpreadSingleHalphaRel, from TestAgainstGGC2003, before
+	// looking at any check set; 2026-12-02): n_e 36/51 → 43/51 here (mid
+	// spectra, Hα below SH99's Stark-only range), while on
+	// testdata/wholesynth (densities between the nodes) the lines route
+	// went from 56/79 (2σ 72/79, short of 93 %) to 54/79 within 1σ and
+	// 75/79 within 2σ, in target (TestWholeSynthTargets checks it). Its
+	// 1σ upper bound here is now the measured state plus one binomial σ
+	// at n = 51 (84 % + ~5 %).
 	for _, q := range []struct {
 		name   string
 		ne     bool
 		upper1 float64
-	}{{"n_e", true, 0.76}, {"T_exc", false, 0.97}} {
+	}{{"n_e", true, 0.89}, {"T_exc", false, 0.97}} {
 		upper1 := q.upper1
 		s := sh99Measure(cases, "", q.ne)
 		if s.withUnc < s.cases/2 {
