@@ -541,19 +541,22 @@ func plainNum(s string, i int, point byte) (v float64, end int) {
 	// Up to seven integer and seven fraction digits, eight bytes at a
 	// time (the SWAR method of fast_float: Lemire, "Number parsing at a
 	// gigabyte per second", Software: Practice and Experience 51, 2021).
-	// With room for a sign and two words, one bounds test covers them.
+	// With room for a sign and two words, one bounds test covers them:
+	// the words are read from t, a slice of constant length, at offsets
+	// the compiler can bound (d < 8), so that no other test is needed.
 	if i >= 0 && i+17 <= len(s) {
-		c := s[i]
+		p := i
+		c := s[p]
 		neg := c == '-'
 		if neg || c == '+' {
-			i++
+			p++
 		}
-		w := load8(s, i)
+		t := s[p : p+16]
+		w := load8(t, 0)
 		d := digitsIn(w)
-		j := i + d
 		if d < 8 {
-			if s[j] == point {
-				w2 := load8(s, j+1)
+			if t[d] == point {
+				w2 := load8(t[d+1:], 0)
 				if f := digitsIn(w2); f < 8 && d+f > 0 {
 					// At most 14 digits: exact in int64 and float64.
 					m := int64(swarValue(w, d)*pow10u[f] + swarValue(w2, f))
@@ -561,18 +564,15 @@ func plainNum(s string, i int, point byte) (v float64, end int) {
 					if neg {
 						v = -v
 					}
-					return v, j + 1 + f
+					return v, p + d + 1 + f
 				}
 			} else if d > 0 {
 				v = float64(int64(swarValue(w, d)))
 				if neg {
 					v = -v
 				}
-				return v, j
+				return v, p + d
 			}
-		}
-		if neg || c == '+' {
-			i--
 		}
 	}
 	neg := false
