@@ -460,11 +460,40 @@ func plainRows(sc *lineScanner, sink *pointSink, d, pt byte, swap bool) {
 	xs, ys = xs[:limit], ys[:limit]
 rows:
 	for n < limit && pos < len(src) {
-		a, i := plainNum(src, pos, pt)
-		if i < 0 || i >= len(src) || src[i] != d {
-			break
+		// The usual row, two unsigned numbers with a point, is read here
+		// as plainNum's first branch reads it (the same values, bit for
+		// bit), every other row by plainNum.
+		var a, b float64
+		i, j := -1, -1
+		if pos+34 <= len(src) {
+			r := src[pos : pos+34]
+			w := load8(r, 0)
+			da := digitsIn(w)
+			if da > 0 && da < 8 && r[da] == pt {
+				w2 := load8(r[da+1:], 0)
+				if fa := digitsIn(w2); fa < 8 && r[da+1+fa] == d {
+					ma := int64(swarValue(w, da)*pow10u[fa] + swarValue(w2, fa))
+					k := da + 2 + fa // b's start in r (≤ 17)
+					w3 := load8(r[k:], 0)
+					db := digitsIn(w3)
+					if db > 0 && db < 8 && r[k+db] == pt {
+						w4 := load8(r[k+db+1:], 0)
+						if fb := digitsIn(w4); fb < 8 {
+							mb := int64(swarValue(w3, db)*pow10u[fb] + swarValue(w4, fb))
+							a, i = float64(ma)/pow10tab[fa&7], pos+da+1+fa
+							b, j = float64(mb)/pow10tab[fb&7], pos+k+db+1+fb
+						}
+					}
+				}
+			}
 		}
-		b, j := plainNum(src, i+1, pt)
+		if j < 0 {
+			a, i = plainNum(src, pos, pt)
+			if i < 0 || i >= len(src) || src[i] != d {
+				break
+			}
+			b, j = plainNum(src, i+1, pt)
+		}
 		if j < 0 || j-pos > maxLen {
 			break
 		}
