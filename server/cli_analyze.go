@@ -452,8 +452,11 @@ func readLimited(name string, limit int64) ([]byte, error) {
 
 // readLimitedInto is readLimited reading into buf's memory, grown to the
 // file's size if it is smaller, so that a batch reads file after file
-// without allocating.
-func readLimitedInto(buf []byte, name string, limit int64) ([]byte, error) {
+// without allocating. On Linux it is readLimitedSys (readfile_linux.go),
+// elsewhere readLimitedFile.
+
+// readLimitedFile is readLimitedInto through os.File.
+func readLimitedFile(buf []byte, name string, limit int64) ([]byte, error) {
 	f, err := os.Open(name)
 	if err != nil {
 		return nil, err

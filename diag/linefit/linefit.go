@@ -600,23 +600,30 @@ func (f *Fitter) eval(p *Problem, t, model, jac []float64) float64 {
 		f.nodes[k] = nq
 		reach := coreReach(sigma, gamma, f.pixMax)
 		rule := glRule[nq]
+		// The line's profile evaluators: voigt.ProfileDeriv and
+		// taylorMean with their divisions by σ done once.
+		prof := voigt.NewDeriv(sigma, gamma)
+		var tay taylor
+		if nq == 2 {
+			tay = newTaylor(sigma, gamma)
+		}
 		for i := range n {
 			half := 0.5 * f.pxW[i]
 			d := f.pxLo[i] + half - c
 			var v, dx, ds, dgm float64
 			switch {
 			case nq == 1 || math.Abs(d) > reach+half:
-				v, dx, ds, dgm = voigt.ProfileDeriv(d, sigma, gamma)
+				v, dx, ds, dgm = prof.At(d)
 			case nq == 2 && math.Abs(d)+half+gamma < 50*sqrt2*sigma:
 				// Wide enough for the midpoint Taylor mean (one
 				// Faddeeva evaluation, the accuracy of two nodes);
 				// |z| < 50 keeps the recurrences for w″ and w‴ free
 				// of cancellation (near-Lorentzian shapes use the
 				// nodes).
-				v, dx, ds, dgm = taylorMean(d, half, sigma, gamma)
+				v, dx, ds, dgm = tay.mean(d, half)
 			default:
 				for j, tj := range rule.t {
-					vj, dxj, dsj, dgj := voigt.ProfileDeriv(d+half*tj, sigma, gamma)
+					vj, dxj, dsj, dgj := prof.At(d + half*tj)
 					wj := rule.w[j]
 					v += wj * vj
 					dx += wj * dxj

@@ -187,16 +187,33 @@ func pixelEdges(x, lo, wd []float64, order []int) float64 {
 // Stegun 7.1.20); ∂V″/∂γ = −c Im w‴/s³ and
 // ∂V″/∂σ = −(3V″ + c Re(z w‴)/s²)/σ. σ must be positive.
 func taylorMean(x, h, sigma, gamma float64) (v, dx, dsigma, dgamma float64) {
+	t := newTaylor(sigma, gamma)
+	return t.mean(x, h)
+}
+
+// taylor holds what taylorMean computes from σ and γ alone, for a fit
+// that takes the mean over many pixels with one σ and γ per line:
+// t.mean(x, h) is taylorMean(x, h, σ, γ) (the same operations, two
+// divisions fewer per pixel).
+type taylor struct {
+	sigma, is, zi, c, is2 float64
+}
+
+func newTaylor(sigma, gamma float64) taylor {
 	s := sigma * math.Sqrt2
 	is := 1 / s
-	z := complex(x*is, gamma*is)
+	return taylor{sigma: sigma, is: is, zi: gamma * is, c: 1 / (sigma * math.Sqrt(2*math.Pi)), is2: is * is}
+}
+
+// mean is taylorMean over [x − h, x + h].
+func (t *taylor) mean(x, h float64) (v, dx, dsigma, dgamma float64) {
+	sigma, is, c, is2 := t.sigma, t.is, t.c, t.is2
+	z := complex(x*is, t.zi)
 	w := voigt.Faddeeva(z)
 	w1 := -2*z*w + complex(0, 2/math.SqrtPi)
 	w2 := -2*w - 2*z*w1
 	w3 := -4*w1 - 2*z*w2
-	c := 1 / (sigma * math.Sqrt(2*math.Pi))
 	k := h * h / 6
-	is2 := is * is
 	v0 := c * real(w)
 	v2 := c * real(w2) * is2
 	v = v0 + k*v2

@@ -58,3 +58,20 @@ func BenchmarkReadTextScipy2048(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkReadBytesScipy2048 reads the same file as glowlog analyze does
+// in a batch: from bytes in memory into reused point arrays.
+func BenchmarkReadBytesScipy2048(b *testing.B) {
+	data, err := os.ReadFile("../../testdata/spectra/scipy_bench_2048.csv")
+	if err != nil {
+		b.Fatal(err)
+	}
+	var buf Buffers
+	b.SetBytes(int64(len(data)))
+	b.ReportAllocs()
+	for b.Loop() {
+		if _, err := ReadBytes("scipy_bench_2048.csv", data, Options{}, &buf); err != nil {
+			b.Fatal(err)
+		}
+	}
+}

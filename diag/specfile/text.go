@@ -460,11 +460,40 @@ func plainRows(sc *lineScanner, sink *pointSink, d, pt byte, swap bool) {
 	xs, ys = xs[:limit], ys[:limit]
 rows:
 	for n < limit && pos < len(src) {
-		a, i := plainNum(src, pos, pt)
-		if i < 0 || i >= len(src) || src[i] != d {
-			break
+		// The usual row, two unsigned numbers with a point, is read here
+		// as plainNum's first branch reads it (the same values, bit for
+		// bit), every other row by plainNum.
+		var a, b float64
+		i, j := -1, -1
+		if pos+34 <= len(src) {
+			r := src[pos : pos+34]
+			w := load8(r, 0)
+			da := digitsIn(w)
+			if da > 0 && da < 8 && r[da] == pt {
+				w2 := load8(r[da+1:], 0)
+				if fa := digitsIn(w2); fa < 8 && r[da+1+fa] == d {
+					ma := int64(swarValue(w, da)*pow10u[fa] + swarValue(w2, fa))
+					k := da + 2 + fa // b's start in r (≤ 17)
+					w3 := load8(r[k:], 0)
+					db := digitsIn(w3)
+					if db > 0 && db < 8 && r[k+db] == pt {
+						w4 := load8(r[k+db+1:], 0)
+						if fb := digitsIn(w4); fb < 8 {
+							mb := int64(swarValue(w3, db)*pow10u[fb] + swarValue(w4, fb))
+							a, i = float64(ma)/pow10tab[fa&7], pos+da+1+fa
+							b, j = float64(mb)/pow10tab[fb&7], pos+k+db+1+fb
+						}
+					}
+				}
+			}
 		}
-		b, j := plainNum(src, i+1, pt)
+		if j < 0 {
+			a, i = plainNum(src, pos, pt)
+			if i < 0 || i >= len(src) || src[i] != d {
+				break
+			}
+			b, j = plainNum(src, i+1, pt)
+		}
 		if j < 0 || j-pos > maxLen {
 			break
 		}
@@ -541,19 +570,22 @@ func plainNum(s string, i int, point byte) (v float64, end int) {
 	// Up to seven integer and seven fraction digits, eight bytes at a
 	// time (the SWAR method of fast_float: Lemire, "Number parsing at a
 	// gigabyte per second", Software: Practice and Experience 51, 2021).
-	// With room for a sign and two words, one bounds test covers them.
+	// With room for a sign and two words, one bounds test covers them:
+	// the words are read from t, a slice of constant length, at offsets
+	// the compiler can bound (d < 8), so that no other test is needed.
 	if i >= 0 && i+17 <= len(s) {
-		c := s[i]
+		p := i
+		c := s[p]
 		neg := c == '-'
 		if neg || c == '+' {
-			i++
+			p++
 		}
-		w := load8(s, i)
+		t := s[p : p+16]
+		w := load8(t, 0)
 		d := digitsIn(w)
-		j := i + d
 		if d < 8 {
-			if s[j] == point {
-				w2 := load8(s, j+1)
+			if t[d] == point {
+				w2 := load8(t[d+1:], 0)
 				if f := digitsIn(w2); f < 8 && d+f > 0 {
 					// At most 14 digits: exact in int64 and float64.
 					m := int64(swarValue(w, d)*pow10u[f] + swarValue(w2, f))
@@ -561,18 +593,15 @@ func plainNum(s string, i int, point byte) (v float64, end int) {
 					if neg {
 						v = -v
 					}
-					return v, j + 1 + f
+					return v, p + d + 1 + f
 				}
 			} else if d > 0 {
 				v = float64(int64(swarValue(w, d)))
 				if neg {
 					v = -v
 				}
-				return v, j
+				return v, p + d
 			}
-		}
-		if neg || c == '+' {
-			i--
 		}
 	}
 	neg := false
