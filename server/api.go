@@ -453,7 +453,7 @@ func (s *Server) apiAddMeasurement(c echo.Context) error {
 	for _, m := range mine {
 		size += 160
 		if m != nil && m.stored != nil {
-			size += len(m.stored.Result)
+			size += len(m.stored.Result) + 3*len(m.stored.Series)
 		}
 	}
 	buf.Grow(size) // a batch's answer is about 50 kB per spectrum: grown once
@@ -495,7 +495,18 @@ func writeMeasurementJSON(buf *bytes.Buffer, ids apiMeasurementIDs, m *RunAnalys
 	var body []byte
 	switch {
 	case m != nil && m.stored != nil && m.stored.Result != "":
-		body = []byte(strings.TrimSpace(m.stored.Result))
+		// the stored JSON with its plot series put back
+		bp := resultBufPool.Get().(*[]byte)
+		defer func() {
+			if cap(body) <= 1<<20 {
+				*bp = body[:0]
+				resultBufPool.Put(bp)
+			}
+		}()
+		if body, err = spectrum.ExpandSeries((*bp)[:0], m.stored.Result, m.stored.Series); err != nil {
+			return err
+		}
+		body = bytes.TrimSpace(body)
 	case m != nil && m.Spectrum != nil:
 		body, err = json.Marshal(m.Spectrum)
 	case m != nil && m.Lines != nil:
@@ -654,7 +665,13 @@ func (s *Server) apiGetRun(c echo.Context) error {
 	full := c.QueryParam("full") == "1" || c.QueryParam("full") == "true"
 	if r.AnalysisVersion > 0 {
 		// The run's current version: the approved one while it is signed off.
-		a, err := s.DB.AnalysisVersion(ctx, id, r.AnalysisVersion)
+		// Without full the results' plot series are not needed (nor put
+		// back into their JSON).
+		get := s.DB.AnalysisVersionCompact
+		if full {
+			get = s.DB.AnalysisVersion
+		}
+		a, err := get(ctx, id, r.AnalysisVersion)
 		if err != nil {
 			return err
 		}

@@ -183,22 +183,35 @@ var plotPow10 = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1
 // values, zeros, and magnitudes whose power of ten is not exact in
 // float64 go through strconv (TestAppendFloat8 compares both).
 func appendFloat8(b []byte, v float64) []byte {
-	a := math.Abs(v)
-	if !(a >= 1e-15 && a < 1e22) {
+	m, e10, ok := plotDigits(v)
+	if !ok {
 		return strconv.AppendFloat(b, v, 'g', 8, 64)
 	}
+	return appendDigits8(b, v < 0, m, e10)
+}
+
+// plotDigits returns the eight significant digits m (10⁷ ≤ m < 10⁸) and
+// the decimal exponent e10 of |v| as appendFloat8 writes them (|v| ≈
+// m·10^(e10−7)); ok is false for the values appendFloat8 leaves to
+// strconv (zeros, NaN, ±Inf, magnitudes outside [1e-15, 1e22), and
+// near-ties of the eighth digit).
+func plotDigits(v float64) (m uint64, e10 int, ok bool) {
+	a := math.Abs(v)
+	if !(a >= 1e-15 && a < 1e22) {
+		return 0, 0, false
+	}
 	e2 := int(math.Float64bits(a)>>52) - 1023 // a = 1.f·2^e2 (a is normal)
-	e10 := (e2 * 78913) >> 18                 // ⌊e2·log₁₀2⌋ for |e2| < 2^10
+	e10 = (e2 * 78913) >> 18                  // ⌊e2·log₁₀2⌋ for |e2| < 2^10
 	var x float64
 	for range 3 {
 		if k := 7 - e10; k >= 0 {
 			if k >= len(plotPow10) {
-				return strconv.AppendFloat(b, v, 'g', 8, 64)
+				return 0, 0, false
 			}
 			x = a * plotPow10[k]
 		} else {
 			if -k >= len(plotPow10) {
-				return strconv.AppendFloat(b, v, 'g', 8, 64)
+				return 0, 0, false
 			}
 			x = a / plotPow10[-k]
 		}
@@ -213,12 +226,12 @@ func appendFloat8(b []byte, v float64) []byte {
 		break
 	}
 	if !(x >= 1e7 && x < 1e8) {
-		return strconv.AppendFloat(b, v, 'g', 8, 64)
+		return 0, 0, false
 	}
-	m := uint64(x)
+	m = uint64(x)
 	frac := x - float64(m)
 	if math.Abs(frac-0.5) < 1e-6 {
-		return strconv.AppendFloat(b, v, 'g', 8, 64)
+		return 0, 0, false
 	}
 	if frac > 0.5 {
 		m++
@@ -226,6 +239,13 @@ func appendFloat8(b []byte, v float64) []byte {
 			m, e10 = 10000000, e10+1
 		}
 	}
+	return m, e10, true
+}
+
+// appendDigits8 appends the value −m·10^(e10−7) (neg) or m·10^(e10−7) as
+// strconv's 'g' format with 8 significant digits writes it, for m and
+// e10 from plotDigits.
+func appendDigits8(b []byte, neg bool, m uint64, e10 int) []byte {
 	// The digits, trailing zeros dropped (strconv's nd).
 	var d [8]byte
 	hi, lo := m/10000, m%10000
@@ -235,7 +255,7 @@ func appendFloat8(b []byte, v float64) []byte {
 	for nd > 1 && d[nd-1] == '0' {
 		nd--
 	}
-	if v < 0 {
+	if neg {
 		b = append(b, '-')
 	}
 	dp := e10 + 1 // digits before the decimal point
