@@ -49,17 +49,17 @@ func (f *wholeFitter) evalLines(th []float64) error {
 		if f.par.iTg >= 0 || f.par.iIa >= 0 {
 			// Derivative in G_extra² by a one-sided difference of the
 			// kernel alone.
-			if err := f.evalLine(l, th[f.par.iNe], th[f.par.iOff], g, tg); err != nil {
+			if err := f.evalLine(l, th[f.par.iNe], th[f.par.iOff], g, tg, true); err != nil {
 				return err
 			}
 			e2 := l.extra2
 			de := math.Max(0.02*e2, math.Pow(0.3*l.h, 2))
-			f.convolve(l, math.Sqrt(e2+de), l.kernL())
-			f.pixels(l, th[f.par.iOff])
+			f.convolve(l, math.Sqrt(e2+de), l.kernL(), true)
+			f.pixels(l, th[f.par.iOff], true)
 			l.dg = grow(&l.dg, len(l.u))
 			copy(l.dg, l.u)
-			f.convolve(l, math.Sqrt(e2), l.kernL())
-			f.pixels(l, th[f.par.iOff])
+			f.convolve(l, math.Sqrt(e2), l.kernL(), true)
+			f.pixels(l, th[f.par.iOff], true)
 			for i := range l.dg {
 				l.dg[i] = (l.dg[i] - l.u[i]) / de
 			}
@@ -68,7 +68,7 @@ func (f *wholeFitter) evalLines(th []float64) error {
 			// the clamp (a flat column would leave it singular).
 			continue
 		}
-		if err := f.evalLine(l, th[f.par.iNe], th[f.par.iOff], g, tg); err != nil {
+		if err := f.evalLine(l, th[f.par.iNe], th[f.par.iOff], g, tg, true); err != nil {
 			return err
 		}
 	}
@@ -917,8 +917,8 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) (part
 			if l.shapeSH {
 				e2 -= math.Pow(l.sh.DopplerFWHMNM(f.te), 2)
 			}
-			f.convolve(l, math.Sqrt(math.Max(e2, 0)), l.kernL())
-			f.pixels(l, th[pr.iOff])
+			f.convolve(l, math.Sqrt(math.Max(e2, 0)), l.kernL(), false)
+			f.pixels(l, th[pr.iOff], false)
 		}
 		d := shiftFor()
 		restore()
@@ -937,8 +937,8 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) (part
 	for _, l := range f.lines {
 		if l.clampGap2 > 0 && l.shapeSH {
 			clamped = true
-			f.convolve(l, math.Sqrt(l.clampGap2), l.kernL())
-			f.pixels(l, th[pr.iOff])
+			f.convolve(l, math.Sqrt(l.clampGap2), l.kernL(), false)
+			f.pixels(l, th[pr.iOff], false)
 		}
 	}
 	if clamped {
@@ -955,8 +955,14 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) (part
 		f.te *= fac
 		defer func() { f.te = save }()
 		for _, l := range f.lines {
+			if !l.shapeSH {
+				// The Voigt fallback's shape does not depend on T_e: its
+				// means stay the saved ones (re-evaluated, they were
+				// the same bit for bit).
+				continue
+			}
 			g, tg := f.lineInst(l, th)
-			if err := f.evalLine(l, th[pr.iNe], th[pr.iOff], g, tg); err != nil {
+			if err := f.evalLine(l, th[pr.iNe], th[pr.iOff], g, tg, false); err != nil {
 				return [2]float64{}, false
 			}
 		}
