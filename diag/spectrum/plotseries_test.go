@@ -181,3 +181,26 @@ func TestExpandSeriesCorrupt(t *testing.T) {
 		t.Errorf("placeholder in the text: %v, want ErrSeriesSplit", err)
 	}
 }
+
+// FuzzExpandSeries: any series form and JSON give an error or an
+// expansion, never a panic; a series of any float64 values round-trips to
+// AppendJSON's text.
+func FuzzExpandSeries(f *testing.F) {
+	res := Result{Model: ModelWhole, Whole: &WholeFit{WavelengthNM: PlotFloats{486.1, 486.2}, Data: PlotFloats{1, -2e-9}}}
+	js, series, _ := AppendJSONSplit(nil, nil, &res)
+	f.Add(string(js), series, 1.5, -3e-7)
+	f.Add(`{"a":[null]}`, []byte{'G', 'S', 1, 1, 2, 3, 0, 0, 0, 0, 0, 0, 0, 0, 2}, 0.0, math.Inf(1))
+	f.Fuzz(func(t *testing.T, js string, series []byte, a, b float64) {
+		ExpandSeries(nil, js, series)
+		r := Result{Windows: []Window{{Data: PlotFloats{a, b, a * b}, Residual: PlotFloats{b}}}}
+		want, _ := AppendJSON(nil, &r)
+		j, s, err := AppendJSONSplit(nil, nil, &r)
+		if err != nil {
+			t.Fatal(err)
+		}
+		got, err := ExpandSeries(nil, string(j), s)
+		if err != nil || !bytes.Equal(got, want) {
+			t.Fatalf("%v %v: %s, %v; want %s", a, b, got, err, want)
+		}
+	})
+}
