@@ -452,7 +452,9 @@ func (s *Server) apiAddMeasurement(c echo.Context) error {
 	size := 64
 	for _, m := range mine {
 		size += 160
-		if m != nil && m.stored != nil {
+		if m != nil && m.answer != nil {
+			size += len(m.answer)
+		} else if m != nil && m.stored != nil {
 			size += len(m.stored.Result) + 3*len(m.stored.Series)
 		}
 	}
@@ -494,6 +496,16 @@ func writeMeasurementJSON(buf *bytes.Buffer, ids apiMeasurementIDs, m *RunAnalys
 	}
 	var body []byte
 	switch {
+	case m != nil && m.answer != nil:
+		body = bytes.TrimSpace(m.answer)
+		defer func() {
+			// written: its buffer goes back to the pool
+			if b := m.answer; cap(b) <= 1<<20 {
+				b = b[:0]
+				resultBufPool.Put(&b)
+			}
+			m.answer = nil
+		}()
 	case m != nil && m.stored != nil && m.stored.Result != "":
 		// the stored JSON with its plot series put back
 		bp := resultBufPool.Get().(*[]byte)

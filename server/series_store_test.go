@@ -5,6 +5,7 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
+	"mime/multipart"
 	"net/http"
 	"net/http/httptest"
 	"net/url"
@@ -179,6 +180,63 @@ func TestStoredSeriesReadAsBefore(t *testing.T) {
 	for _, p := range append(paths, api...) {
 		if now[p] != before[p] {
 			t.Errorf("GET %s: %d bytes with the series apart, %d with the previous storage", p, len(now[p]), len(before[p]))
+		}
+	}
+}
+
+// TestAPIAnswerIsStoredResult: the answer to an API upload (one file, and
+// a batch) carries each file's result JSON as stored, plot series put
+// back, byte for byte (the answer is written in the same pass as the
+// stored form; a result analysed again inside the write transaction is
+// expanded from the stored form instead).
+func TestAPIAnswerIsStoredResult(t *testing.T) {
+	f := newAPIFixture(t)
+	ctx := context.Background()
+	files := benchStarkSpectra(t, 3)
+	for _, n := range []int{1, 2} {
+		id := f.createRun(fmt.Sprintf(`{"title": "series %d", "started_at": "2026-11-30T08:00:00Z", "source_type": "microwave",
+			"instrument_fwhm_nm": %g, "gas_temperature_K": %g}`, n, benchRunFWHM, benchRunTgas))
+		var body bytes.Buffer
+		mw := multipart.NewWriter(&body)
+		for j := range n {
+			fw, _ := mw.CreateFormFile("file", fmt.Sprintf("s%d.csv", j))
+			fw.Write(files[j])
+		}
+		mw.Close()
+		req := httptest.NewRequest(http.MethodPost, fmt.Sprintf("/api/v1/runs/%d/measurements", id), &body)
+		req.Header.Set("Authorization", "Bearer "+f.token)
+		req.Header.Set("Content-Type", mw.FormDataContentType())
+		rec := httptest.NewRecorder()
+		f.s.ServeHTTP(rec, req)
+		if rec.Code != http.StatusCreated {
+			t.Fatalf("upload %d: %d %.300s", n, rec.Code, rec.Body.String())
+		}
+		a, err := f.db.AnalysisVersion(ctx, id, 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var want bytes.Buffer
+		if n > 1 {
+			fmt.Fprintf(&want, `{"run_id":%d,"analysis_version":%d,"measurements":[`, id, a.Version)
+		}
+		for k, r := range a.Results {
+			if !strings.Contains(r.Result, `"model":"whole"`) || !strings.Contains(r.Result, `"residual":[`) {
+				t.Fatalf("upload %d: result %d is not a whole fit with series", n, k)
+			}
+			if k > 0 {
+				want.WriteByte(',')
+			}
+			head, _ := json.Marshal(apiMeasurementIDs{RunID: id, AttachmentID: r.AttachmentID, AnalysisVersion: a.Version, Kind: store.KindSpectrum})
+			want.Write(head[:len(head)-1])
+			want.WriteByte(',')
+			want.WriteString(strings.TrimSpace(r.Result)[1:])
+		}
+		if n > 1 {
+			want.WriteString("]}")
+		}
+		want.WriteByte('\n')
+		if rec.Body.String() != want.String() {
+			t.Errorf("upload of %d: the answer (%d bytes) is not the stored results (%d bytes)", n, rec.Body.Len(), want.Len())
 		}
 	}
 }

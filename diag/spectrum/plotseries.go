@@ -5,6 +5,7 @@ import (
 	"encoding/binary"
 	"errors"
 	"math"
+	"strconv"
 	"strings"
 )
 
@@ -57,6 +58,24 @@ var ErrSeriesSplit = errors.New("spectrum: plot series placeholder ambiguous")
 // series form (nothing appended). Errors are AppendJSON's, or
 // ErrSeriesSplit.
 func AppendJSONSplit(b, series []byte, r *Result) (json, seriesOut []byte, err error) {
+	return appendJSONSplit(b, series, nil, r)
+}
+
+// AppendJSONSplitFull is AppendJSONSplit that also appends AppendJSON's
+// bytes (what ExpandSeries gives) to full, in the same pass over the
+// series. On an error full is returned as given.
+func AppendJSONSplitFull(b, series, full []byte, r *Result) (json, seriesOut, fullOut []byte, err error) {
+	f0 := len(full)
+	b, series, err = appendJSONSplit(b, series, &full, r)
+	if err != nil {
+		full = full[:f0]
+	}
+	return b, series, full, err
+}
+
+// appendJSONSplit is AppendJSONSplit, appending the whole JSON to *full
+// too when full is not nil.
+func appendJSONSplit(b, series []byte, full *[]byte, r *Result) (json, seriesOut []byte, err error) {
 	var list [][]float64
 	take := func(p *PlotFloats) {
 		if len(*p) > 0 {
@@ -87,24 +106,49 @@ func AppendJSONSplit(b, series []byte, r *Result) (json, seriesOut []byte, err e
 	}
 	start := len(b)
 	b, err = appendJSONResult(b, &rr)
-	if err != nil || len(list) == 0 {
+	if err != nil {
 		return b, series, err
 	}
 	js := b[start:]
-	series = append(series, seriesMagic...)
-	series = binary.AppendUvarint(series, uint64(len(list)))
+	if len(list) == 0 {
+		if full != nil {
+			*full = append(*full, js...)
+		}
+		return b, series, nil
+	}
+	// The placeholders first: the split is refused before anything is
+	// written to series or full.
+	var offs [16]int
+	at := offs[:0]
 	pos := 0
-	for _, p := range list {
+	for range list {
 		i := bytes.Index(js[pos:], seriesPlaceholder)
 		if i < 0 {
 			return b, series, ErrSeriesSplit
 		}
 		pos += i
-		series = appendSeriesValues(series, p)
+		at = append(at, pos)
 		pos += len(seriesPlaceholder)
 	}
 	if bytes.Contains(js[pos:], seriesPlaceholder) {
 		return b, series, ErrSeriesSplit
+	}
+	series = append(series, seriesMagic...)
+	series = binary.AppendUvarint(series, uint64(len(list)))
+	var text []byte
+	if full != nil {
+		text = *full
+	}
+	pos = 0
+	for k, p := range list {
+		if full != nil {
+			text = append(text, js[pos:at[k]]...)
+		}
+		series, text = appendSeriesValues(series, text, full != nil, p)
+		pos = at[k] + len(seriesPlaceholder)
+	}
+	if full != nil {
+		*full = append(text, js[pos:]...)
 	}
 	return b, series, nil
 }
@@ -112,20 +156,33 @@ func AppendJSONSplit(b, series []byte, r *Result) (json, seriesOut []byte, err e
 func zigzag(v int64) uint64   { return uint64(v<<1) ^ uint64(v>>63) }
 func unzigzag(u uint64) int64 { return int64(u>>1) ^ -int64(u&1) }
 
-// appendSeriesValues appends one series' length and values.
-func appendSeriesValues(b []byte, p []float64) []byte {
+// appendSeriesValues appends one series' length and values to b, and
+// with withText its JSON text (as appendPlotFloats writes it) to text.
+func appendSeriesValues(b, text []byte, withText bool, p []float64) ([]byte, []byte) {
 	b = binary.AppendUvarint(b, uint64(len(p)))
+	if withText {
+		text = append(text, '[')
+	}
 	var prevS int64
 	prevE := 0
-	for _, v := range p {
+	for i, v := range p {
+		if withText && i > 0 {
+			text = append(text, ',')
+		}
 		m, e10, ok := plotDigits(v)
 		if !ok {
 			if math.IsNaN(v) || math.IsInf(v, 0) {
 				b = append(b, 2)
+				if withText {
+					text = append(text, "null"...)
+				}
 				continue
 			}
 			b = append(b, 3)
 			b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
+			if withText {
+				text = strconv.AppendFloat(text, v, 'g', 8, 64)
+			}
 			continue
 		}
 		s := int64(m)
@@ -140,8 +197,14 @@ func appendSeriesValues(b []byte, p []float64) []byte {
 			prevE = e10
 		}
 		prevS = s
+		if withText {
+			text = appendDigits8(text, v < 0, m, e10)
+		}
 	}
-	return b
+	if withText {
+		text = append(text, ']')
+	}
+	return b, text
 }
 
 // errSeriesCorrupt reports a series form that does not fit its JSON.

@@ -24,6 +24,9 @@ func checkSplit(t *testing.T, r *Result, what string) (int, int, int) {
 		if !bytes.Contains(want, seriesPlaceholder) {
 			t.Fatalf("%s: split refused without a placeholder in the text", what)
 		}
+		if _, _, full, err := AppendJSONSplitFull(nil, nil, []byte("f"), r); err != ErrSeriesSplit || string(full) != "f" {
+			t.Fatalf("%s: AppendJSONSplitFull: %v, full %q", what, err, full)
+		}
 		return 0, 0, 0
 	}
 	if (err == nil) != (werr == nil) {
@@ -51,6 +54,12 @@ func checkSplit(t *testing.T, r *Result, what string) (int, int, int) {
 		}
 		t.Fatalf("%s: expanded JSON differs from AppendJSON at byte %d:\n got …%s\nwant …%s", what, i,
 			got[max(0, i-80):min(len(got), i+80)], want[max(0, i-80):min(len(want), i+80)])
+	}
+	// The same in one pass with the whole JSON beside.
+	js2, series2, full, err := AppendJSONSplitFull([]byte("p"), []byte("s"), []byte("f"), r)
+	if err != nil || string(js2[1:]) != string(js) || string(series2[1:]) != string(series) || string(full[1:]) != string(want) ||
+		js2[0] != 'p' || series2[0] != 's' || full[0] != 'f' {
+		t.Fatalf("%s: AppendJSONSplitFull differs from AppendJSONSplit and AppendJSON (%v)", what, err)
 	}
 	// The input is left alone.
 	again, _ := AppendJSON(nil, r)
@@ -180,6 +189,7 @@ func TestExpandSeriesCorrupt(t *testing.T) {
 	if _, _, err := AppendJSONSplit(nil, nil, &res); err != ErrSeriesSplit {
 		t.Errorf("placeholder in the text: %v, want ErrSeriesSplit", err)
 	}
+	checkSplit(t, &res, "placeholder in the text")
 }
 
 // FuzzExpandSeries: any series form and JSON give an error or an
