@@ -5,6 +5,7 @@ import (
 	"encoding/binary"
 	"errors"
 	"math"
+	"slices"
 	"strconv"
 	"strings"
 )
@@ -133,11 +134,17 @@ func appendJSONSplit(b, series []byte, full *[]byte, r *Result) (json, seriesOut
 	if bytes.Contains(js[pos:], seriesPlaceholder) {
 		return b, series, ErrSeriesSplit
 	}
+	nv := 0
+	for _, p := range list {
+		nv += len(p)
+	}
+	// Room for the usual 3–5 bytes a value (and 8–12 as text) at once.
+	series = slices.Grow(series, 16+8*len(list)+5*nv)
 	series = append(series, seriesMagic...)
 	series = binary.AppendUvarint(series, uint64(len(list)))
 	var text []byte
 	if full != nil {
-		text = *full
+		text = slices.Grow(*full, len(js)+12*nv)
 	}
 	pos = 0
 	for k, p := range list {

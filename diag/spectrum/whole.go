@@ -251,11 +251,14 @@ type wholeFitter struct {
 	pool  []*wline
 	nPool int
 	// ws is scratch for the Levenberg–Marquardt and covariance matrices.
-	ws    []float64
-	sens  []float64
-	wbuf  []float64
-	mbuf  []float64
-	notes []string
+	ws   []float64
+	sens []float64
+	// saveBuf and saveRows hold densitySys' copy of the lines' state.
+	saveBuf  []float64
+	saveRows [][]float64
+	wbuf     []float64
+	mbuf     []float64
+	notes    []string
 	// masked are wavelength intervals left out (saturated lines).
 	masked [][2]float64
 }

@@ -877,14 +877,28 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64, teGiven bool) (part
 		w := 1 / (f.s[i] * f.s[i])
 		sens[i], sensB[i] = v*w, vb*w
 	}
-	// Saved pixel means of every line at the solution.
-	saved := make([][]float64, len(f.lines))
-	savedDu := make([][]float64, len(f.lines))
-	savedDn := make([][]float64, len(f.lines))
+	// Saved pixel means of every line at the solution (in the fitter's
+	// buffers: one block for every line's u, du and dn).
+	nSave := 0
+	for _, l := range f.lines {
+		nSave += len(l.u) + len(l.du) + len(l.dn)
+	}
+	block := grow(&f.saveBuf, nSave)
+	if cap(f.saveRows) < 3*len(f.lines) {
+		f.saveRows = make([][]float64, 3*len(f.lines))
+	}
+	rows := f.saveRows[:3*len(f.lines)]
+	saved, savedDu, savedDn := rows[:len(f.lines)], rows[len(f.lines):2*len(f.lines)], rows[2*len(f.lines):]
+	take := func(src []float64) []float64 {
+		dst := block[:len(src):len(src)]
+		block = block[len(src):]
+		copy(dst, src)
+		return dst
+	}
 	for k, l := range f.lines {
-		saved[k] = append([]float64(nil), l.u...)
-		savedDu[k] = append([]float64(nil), l.du...)
-		savedDn[k] = append([]float64(nil), l.dn...)
+		saved[k] = take(l.u)
+		savedDu[k] = take(l.du)
+		savedDn[k] = take(l.dn)
 	}
 	// shiftFor returns |δ ln n_e| and |δβ| from the lines' current u
 	// (changed by the caller) against the saved ones, and restores
