@@ -452,8 +452,10 @@ func (s *Server) apiAddMeasurement(c echo.Context) error {
 	size := 64
 	for _, m := range mine {
 		size += 160
-		if m != nil && m.stored != nil {
-			size += len(m.stored.Result)
+		if m != nil && m.answer != nil {
+			size += len(m.answer)
+		} else if m != nil && m.stored != nil {
+			size += len(m.stored.Result) + 3*len(m.stored.Series)
 		}
 	}
 	buf.Grow(size) // a batch's answer is about 50 kB per spectrum: grown once
@@ -494,8 +496,29 @@ func writeMeasurementJSON(buf *bytes.Buffer, ids apiMeasurementIDs, m *RunAnalys
 	}
 	var body []byte
 	switch {
+	case m != nil && m.answer != nil:
+		body = bytes.TrimSpace(m.answer)
+		defer func() {
+			// written: its buffer goes back to the pool
+			if b := m.answer; cap(b) <= 1<<20 {
+				b = b[:0]
+				resultBufPool.Put(&b)
+			}
+			m.answer = nil
+		}()
 	case m != nil && m.stored != nil && m.stored.Result != "":
-		body = []byte(strings.TrimSpace(m.stored.Result))
+		// the stored JSON with its plot series put back
+		bp := resultBufPool.Get().(*[]byte)
+		defer func() {
+			if cap(body) <= 1<<20 {
+				*bp = body[:0]
+				resultBufPool.Put(bp)
+			}
+		}()
+		if body, err = spectrum.ExpandSeries((*bp)[:0], m.stored.Result, m.stored.Series); err != nil {
+			return err
+		}
+		body = bytes.TrimSpace(body)
 	case m != nil && m.Spectrum != nil:
 		body, err = json.Marshal(m.Spectrum)
 	case m != nil && m.Lines != nil:
@@ -654,7 +677,13 @@ func (s *Server) apiGetRun(c echo.Context) error {
 	full := c.QueryParam("full") == "1" || c.QueryParam("full") == "true"
 	if r.AnalysisVersion > 0 {
 		// The run's current version: the approved one while it is signed off.
-		a, err := s.DB.AnalysisVersion(ctx, id, r.AnalysisVersion)
+		// Without full the results' plot series are not needed (nor put
+		// back into their JSON).
+		get := s.DB.AnalysisVersionCompact
+		if full {
+			get = s.DB.AnalysisVersion
+		}
+		a, err := get(ctx, id, r.AnalysisVersion)
 		if err != nil {
 			return err
 		}

@@ -27,6 +27,39 @@ func encodeSpectrumResult(buf *bytes.Buffer, r *spectrum.Result) error {
 	return nil
 }
 
+// encodeSpectrumResultSplit is encodeSpectrumResult with the plot series
+// taken out of the JSON (a placeholder, [null], for each) and returned in
+// their compact stored form (spectrum.AppendJSONSplit), appended to
+// series; spectrum.ExpandSeries gives encodeSpectrumResult's bytes back.
+// A result whose text cannot be split is appended whole (no series).
+func encodeSpectrumResultSplit(buf *bytes.Buffer, series []byte, r *spectrum.Result) ([]byte, error) {
+	b, s, err := spectrum.AppendJSONSplit(buf.AvailableBuffer(), series, r)
+	if err != nil {
+		return series, encodeSpectrumResult(buf, r)
+	}
+	buf.Write(append(b, '\n'))
+	return s, nil
+}
+
+// encodeSpectrumResultSplitFull is encodeSpectrumResultSplit that also
+// returns encodeSpectrumResult's bytes (the whole JSON, for an answer),
+// written in the same pass over the series (spectrum.AppendJSONSplitFull),
+// in a buffer of resultBufPool.
+func encodeSpectrumResultSplitFull(buf *bytes.Buffer, r *spectrum.Result) (series, full []byte, err error) {
+	fp := resultBufPool.Get().(*[]byte)
+	b, s, f, err := spectrum.AppendJSONSplitFull(buf.AvailableBuffer(), nil, (*fp)[:0], r)
+	if err != nil {
+		resultBufPool.Put(fp)
+		if err = encodeSpectrumResult(buf, r); err != nil {
+			return nil, nil, err
+		}
+		return nil, bytes.Clone(buf.Bytes()), nil
+	}
+	buf.Write(append(b, '\n'))
+	// f is from resultBufPool: writeMeasurementJSON puts it back.
+	return s, append(f, '\n'), nil
+}
+
 // encodePlain appends v as json.Encoder with SetEscapeHTML(false) writes
 // it (the reference of encodeSpectrumResult, and line-table results).
 func encodePlain(buf *bytes.Buffer, v any) error {

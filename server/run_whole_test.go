@@ -71,12 +71,17 @@ func putWholeFitWith(t *testing.T, f *runsFixture, runID int64, w *spectrum.Whol
 	t.Helper()
 	var id int64
 	var res string
-	if err := f.db.SQL().QueryRow(`SELECT r.id, r.result FROM analysis_results r JOIN analyses a ON a.id = r.analysis_id
-		WHERE a.run_id = ? ORDER BY a.version DESC LIMIT 1`, runID).Scan(&id, &res); err != nil {
+	var series []byte
+	if err := f.db.SQL().QueryRow(`SELECT r.id, r.result, r.series FROM analysis_results r JOIN analyses a ON a.id = r.analysis_id
+		WHERE a.run_id = ? ORDER BY a.version DESC LIMIT 1`, runID).Scan(&id, &res, &series); err != nil {
+		t.Fatal(err)
+	}
+	whole, err := spectrum.ExpandSeries(nil, res, series)
+	if err != nil {
 		t.Fatal(err)
 	}
 	var sr spectrum.Result
-	if err := json.Unmarshal([]byte(res), &sr); err != nil {
+	if err := json.Unmarshal(whole, &sr); err != nil {
 		t.Fatal(err)
 	}
 	sr.Model, sr.Whole = spectrum.ModelWhole, w
@@ -88,7 +93,8 @@ func putWholeFitWith(t *testing.T, f *runsFixture, runID int64, w *spectrum.Whol
 	if err != nil {
 		t.Fatal(err)
 	}
-	if _, err := f.db.SQL().Exec(`UPDATE analysis_results SET result = ? WHERE id = ?`, string(b), id); err != nil {
+	// stored whole, as results were before their series were stored apart
+	if _, err := f.db.SQL().Exec(`UPDATE analysis_results SET result = ?, series = NULL WHERE id = ?`, string(b), id); err != nil {
 		t.Fatal(err)
 	}
 }

@@ -7,6 +7,8 @@ import (
 	"fmt"
 	"math"
 	"time"
+
+	"glowlog/diag/spectrum"
 )
 
 // Analysis is one analysis version of a run.
@@ -25,11 +27,19 @@ type Analysis struct {
 
 // AnalysisResult is the analysis of one attachment in a version.
 type AnalysisResult struct {
-	ID                                    int64
-	AttachmentID                          int64
-	AttachmentName                        string
-	AttachmentSeq                         int
-	Result                                string // JSON, "" when Error is set
+	ID             int64
+	AttachmentID   int64
+	AttachmentName string
+	AttachmentSeq  int
+	// Result is the result JSON ("" when Error is set). Read through
+	// AnalysisVersion it is whole; written (and read through
+	// AnalysisVersionCompact) a spectrum result's plot series may be
+	// held apart in Series.
+	Result string
+	// Series is the compact form of the plot series taken out of Result
+	// (spectrum.AppendJSONSplit; nil when Result is whole):
+	// spectrum.ExpandSeries(nil, Result, Series) is the whole JSON.
+	Series                                []byte
 	Error                                 string
 	TexcK, TexcUncK, NeM3, NeUncM3, TgasK *float64
 	// NWarnings counts the distinct problem and caution flag codes;
@@ -88,17 +98,20 @@ func (d *DB) AddAnalysisTx(ctx context.Context, tx *sql.Tx, runID int64, a NewAn
 	ins := d.txStmt(ctx, tx, qAddResult)
 	defer ins.Close()
 	for _, r := range a.Results {
-		var result, sameAs any
+		var result, series, sameAs any
 		if r.SameAs != 0 {
 			sameAs = r.SameAs
 		} else if r.Result != "" {
 			result = r.Result
+			if len(r.Series) > 0 {
+				series = r.Series
+			}
 		}
 		var errMsg any
 		if r.Error != "" {
 			errMsg = r.Error
 		}
-		if _, err := ins.ExecContext(ctx, aid, r.AttachmentID, result, errMsg, nullF(r.TexcK), nullF(r.TexcUncK), nullF(r.NeM3), nullF(r.NeUncM3),
+		if _, err := ins.ExecContext(ctx, aid, r.AttachmentID, result, series, errMsg, nullF(r.TexcK), nullF(r.TexcUncK), nullF(r.NeM3), nullF(r.NeUncM3),
 			nullF(r.TgasK), r.NWarnings, r.WarnWorst, sameAs); err != nil {
 			return 0, fmt.Errorf("store: add analysis result: %w", err)
 		}
@@ -233,8 +246,22 @@ func (d *DB) Analyses(ctx context.Context, runID int64) ([]Analysis, error) {
 
 // AnalysisVersion returns one version with its results. Version 0 is the
 // run's current version (runs.analysis_version): the approved one while the
-// run is signed off, the newest otherwise.
+// run is signed off, the newest otherwise. Every result's JSON is whole:
+// plot series stored apart are put back (spectrum.ExpandSeries), giving
+// the bytes the analysis wrote.
 func (d *DB) AnalysisVersion(ctx context.Context, runID int64, version int) (Analysis, error) {
+	return d.analysisVersion(ctx, runID, version, true)
+}
+
+// AnalysisVersionCompact is AnalysisVersion without putting the plot
+// series back: a spectrum result's JSON may hold the placeholder [null]
+// for each series (valid JSON, every other field as stored), with the
+// series in AnalysisResult.Series. For readers that need no series.
+func (d *DB) AnalysisVersionCompact(ctx context.Context, runID int64, version int) (Analysis, error) {
+	return d.analysisVersion(ctx, runID, version, false)
+}
+
+func (d *DB) analysisVersion(ctx context.Context, runID int64, version int, expand bool) (Analysis, error) {
 	all, err := d.Analyses(ctx, runID)
 	if err != nil {
 		return Analysis{}, err
@@ -256,7 +283,8 @@ func (d *DB) AnalysisVersion(ctx context.Context, runID int64, version int) (Ana
 	if a == nil {
 		return Analysis{}, fmt.Errorf("run %d analysis version %d: %w", runID, version, ErrNotFound)
 	}
-	rows, err := d.db.QueryContext(ctx, `SELECT r.id, r.attachment_id, t.name, t.seq, coalesce(r.result, o.result, ''), coalesce(r.error, ''),
+	rows, err := d.db.QueryContext(ctx, `SELECT r.id, r.attachment_id, t.name, t.seq, coalesce(r.result, o.result, ''),
+		CASE WHEN r.result IS NULL THEN o.series ELSE r.series END, coalesce(r.error, ''),
 		r.texc_k, r.texc_unc_k, r.ne_m3, r.ne_unc_m3, r.tgas_k, r.n_warnings, r.warn_worst
 		FROM analysis_results r JOIN attachments t ON t.id = r.attachment_id
 		LEFT JOIN analysis_results o ON o.id = r.same_as
@@ -265,14 +293,21 @@ func (d *DB) AnalysisVersion(ctx context.Context, runID int64, version int) (Ana
 		return *a, err
 	}
 	defer rows.Close()
+	var buf []byte
 	for rows.Next() {
 		var r AnalysisResult
 		var texc, texcU, ne, neU, tg sql.NullFloat64
-		if err := rows.Scan(&r.ID, &r.AttachmentID, &r.AttachmentName, &r.AttachmentSeq, &r.Result, &r.Error,
+		if err := rows.Scan(&r.ID, &r.AttachmentID, &r.AttachmentName, &r.AttachmentSeq, &r.Result, &r.Series, &r.Error,
 			&texc, &texcU, &ne, &neU, &tg, &r.NWarnings, &r.WarnWorst); err != nil {
 			return *a, err
 		}
 		r.TexcK, r.TexcUncK, r.NeM3, r.NeUncM3, r.TgasK = scanF(texc), scanF(texcU), scanF(ne), scanF(neU), scanF(tg)
+		if expand && len(r.Series) > 0 {
+			if buf, err = spectrum.ExpandSeries(buf[:0], r.Result, r.Series); err != nil {
+				return *a, fmt.Errorf("store: run %d version %d result %d: %w", runID, a.Version, r.ID, err)
+			}
+			r.Result, r.Series = string(buf), nil
+		}
 		a.Results = append(a.Results, r)
 	}
 	if err := rows.Err(); err != nil {

@@ -18,8 +18,8 @@ const (
 	qNextVersion   = `SELECT coalesce(max(version), 0) + 1 FROM analyses WHERE run_id = ?`
 	qAddAnalysis   = `INSERT INTO analyses (run_id, version, settings, engine_version, created_by, created_at, reason)
 		VALUES (?, ?, ?, ?, ?, ?, ?)`
-	qAddResult = `INSERT INTO analysis_results (analysis_id, attachment_id, result, error, texc_k, texc_unc_k,
-		ne_m3, ne_unc_m3, tgas_k, n_warnings, warn_worst, same_as) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`
+	qAddResult = `INSERT INTO analysis_results (analysis_id, attachment_id, result, series, error, texc_k, texc_unc_k,
+		ne_m3, ne_unc_m3, tgas_k, n_warnings, warn_worst, same_as) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`
 	qSetSummary = `UPDATE runs SET texc_k = ?, texc_unc_k = ?, ne_m3 = ?, ne_unc_m3 = ?, tgas_k = ?,
 		n_warnings = ?, warn_worst = ?, analysis_version = ?, updated_at = ? WHERE id = ?`
 	qLatestSettings = `SELECT settings FROM analyses WHERE run_id = ? ORDER BY version DESC LIMIT 1`

@@ -183,22 +183,35 @@ var plotPow10 = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1
 // values, zeros, and magnitudes whose power of ten is not exact in
 // float64 go through strconv (TestAppendFloat8 compares both).
 func appendFloat8(b []byte, v float64) []byte {
-	a := math.Abs(v)
-	if !(a >= 1e-15 && a < 1e22) {
+	m, e10, ok := plotDigits(v)
+	if !ok {
 		return strconv.AppendFloat(b, v, 'g', 8, 64)
 	}
+	return appendDigits8(b, v < 0, m, e10)
+}
+
+// plotDigits returns the eight significant digits m (10⁷ ≤ m < 10⁸) and
+// the decimal exponent e10 of |v| as appendFloat8 writes them (|v| ≈
+// m·10^(e10−7)); ok is false for the values appendFloat8 leaves to
+// strconv (zeros, NaN, ±Inf, magnitudes outside [1e-15, 1e22), and
+// near-ties of the eighth digit).
+func plotDigits(v float64) (m uint64, e10 int, ok bool) {
+	a := math.Abs(v)
+	if !(a >= 1e-15 && a < 1e22) {
+		return 0, 0, false
+	}
 	e2 := int(math.Float64bits(a)>>52) - 1023 // a = 1.f·2^e2 (a is normal)
-	e10 := (e2 * 78913) >> 18                 // ⌊e2·log₁₀2⌋ for |e2| < 2^10
+	e10 = (e2 * 78913) >> 18                  // ⌊e2·log₁₀2⌋ for |e2| < 2^10
 	var x float64
 	for range 3 {
 		if k := 7 - e10; k >= 0 {
 			if k >= len(plotPow10) {
-				return strconv.AppendFloat(b, v, 'g', 8, 64)
+				return 0, 0, false
 			}
 			x = a * plotPow10[k]
 		} else {
 			if -k >= len(plotPow10) {
-				return strconv.AppendFloat(b, v, 'g', 8, 64)
+				return 0, 0, false
 			}
 			x = a / plotPow10[-k]
 		}
@@ -213,12 +226,12 @@ func appendFloat8(b []byte, v float64) []byte {
 		break
 	}
 	if !(x >= 1e7 && x < 1e8) {
-		return strconv.AppendFloat(b, v, 'g', 8, 64)
+		return 0, 0, false
 	}
-	m := uint64(x)
+	m = uint64(x)
 	frac := x - float64(m)
-	if math.Abs(frac-0.5) < 1e-6 {
-		return strconv.AppendFloat(b, v, 'g', 8, 64)
+	if t := frac - 0.5; t < 1e-6 && t > -1e-6 { // |frac − ½| < 1e-6
+		return 0, 0, false
 	}
 	if frac > 0.5 {
 		m++
@@ -226,17 +239,33 @@ func appendFloat8(b []byte, v float64) []byte {
 			m, e10 = 10000000, e10+1
 		}
 	}
-	// The digits, trailing zeros dropped (strconv's nd).
+	return m, e10, true
+}
+
+// appendDigits8 appends the value −m·10^(e10−7) (neg) or m·10^(e10−7) as
+// strconv's 'g' format with 8 significant digits writes it, for m and
+// e10 from plotDigits.
+func appendDigits8(b []byte, neg bool, m uint64, e10 int) []byte {
+	// The digits, trailing zeros dropped (strconv's nd); d[nd:] are '0'.
 	var d [8]byte
-	hi, lo := m/10000, m%10000
-	d[0], d[1], d[2], d[3] = byte('0'+hi/1000), byte('0'+hi/100%10), byte('0'+hi/10%10), byte('0'+hi%10)
-	d[4], d[5], d[6], d[7] = byte('0'+lo/1000), byte('0'+lo/100%10), byte('0'+lo/10%10), byte('0'+lo%10)
+	hi, lo := uint32(m/10000), uint32(m%10000)
+	h1, h2, l1, l2 := 2*(hi/100), 2*(hi%100), 2*(lo/100), 2*(lo%100)
+	d[0], d[1], d[2], d[3] = digitPairs[h1], digitPairs[h1+1], digitPairs[h2], digitPairs[h2+1]
+	d[4], d[5], d[6], d[7] = digitPairs[l1], digitPairs[l1+1], digitPairs[l2], digitPairs[l2+1]
 	nd := 8
 	for nd > 1 && d[nd-1] == '0' {
 		nd--
 	}
-	if v < 0 {
-		b = append(b, '-')
+	// The text is written in place, in b's spare room.
+	if cap(b)-len(b) < 24 {
+		b = slices.Grow(b, 24)
+	}
+	n0 := len(b)
+	out := b[n0 : n0+24]
+	n := 0
+	if neg {
+		out[0] = '-'
+		n = 1
 	}
 	dp := e10 + 1 // digits before the decimal point
 	eprec := 8
@@ -245,47 +274,67 @@ func appendFloat8(b []byte, v float64) []byte {
 	}
 	if e10 < -4 || e10 >= eprec {
 		// %e with nd digits.
-		b = append(b, d[0])
+		out[n] = d[0]
+		n++
 		if nd > 1 {
-			b = append(b, '.')
-			b = append(b, d[1:nd]...)
+			out[n] = '.'
+			n++
+			for i := 1; i < nd; i++ {
+				out[n] = d[i]
+				n++
+			}
 		}
-		b = append(b, 'e')
+		out[n] = 'e'
+		n++
 		exp := e10
 		if exp < 0 {
-			b = append(b, '-')
+			out[n] = '-'
 			exp = -exp
 		} else {
-			b = append(b, '+')
+			out[n] = '+'
 		}
-		if exp < 10 {
-			b = append(b, '0', byte('0'+exp))
-		} else {
-			b = strconv.AppendInt(b, int64(exp), 10)
+		n++
+		if exp >= 100 {
+			return strconv.AppendInt(b[:n0+n], int64(exp), 10)
 		}
-		return b
+		out[n], out[n+1] = digitPairs[2*exp], digitPairs[2*exp+1]
+		return b[:n0+n+2]
 	}
-	// %f with max(nd-dp, 0) decimals (8 > dp here).
+	// %f with max(nd-dp, 0) decimals (8 > dp here): the digits before
+	// the point (zeros past nd), then those after it.
 	if dp > 0 {
 		for i := range dp {
-			if i < nd {
-				b = append(b, d[i])
-			} else {
-				b = append(b, '0')
+			out[n] = d[i]
+			n++
+		}
+		if nd > dp {
+			out[n] = '.'
+			n++
+			for i := dp; i < nd; i++ {
+				out[n] = d[i]
+				n++
 			}
 		}
-	} else {
-		b = append(b, '0')
+		return b[:n0+n]
 	}
-	if dec := nd - dp; dec > 0 {
-		b = append(b, '.')
-		for i := dp; i < nd; i++ {
-			if i < 0 {
-				b = append(b, '0')
-			} else {
-				b = append(b, d[i])
-			}
-		}
+	// dp ≥ −3 (e10 ≥ −4): "0." and −dp zeros before the digits.
+	out[n], out[n+1] = '0', '.'
+	n += 2
+	for range -dp {
+		out[n] = '0'
+		n++
 	}
-	return b
+	for i := range nd {
+		out[n] = d[i]
+		n++
+	}
+	return b[:n0+n]
 }
+
+// digitPairs are "00" … "99".
+var digitPairs = func() (t [200]byte) {
+	for i := range 100 {
+		t[2*i], t[2*i+1] = byte('0'+i/10), byte('0'+i%10)
+	}
+	return t
+}()

@@ -273,11 +273,14 @@ type wholeFitter struct {
 	pool  []*wline
 	nPool int
 	// ws is scratch for the Levenberg–Marquardt and covariance matrices.
-	ws    []float64
-	sens  []float64
-	wbuf  []float64
-	mbuf  []float64
-	notes []string
+	ws   []float64
+	sens []float64
+	// saveBuf and saveRows hold densitySys' copy of the lines' state.
+	saveBuf  []float64
+	saveRows [][]float64
+	wbuf     []float64
+	mbuf     []float64
+	notes    []string
 	// masked are wavelength intervals left out (saturated lines).
 	masked [][2]float64
 }
@@ -962,8 +965,9 @@ func (f *wholeFitter) lineShape(l *wline, lnNe, instG, gasT float64) (shapeFunc,
 
 // evalLine computes the line's unit profile's pixel means (u), their
 // derivative in the offset (du) and in ln n_e (dn) over its pixel range,
-// for line centre λ_k + off.
-func (f *wholeFitter) evalLine(l *wline, lnNe, off, instG, gasT float64) error {
+// for line centre λ_k + off. Without deriv only u is computed (the same,
+// bit for bit); du and dn are left alone.
+func (f *wholeFitter) evalLine(l *wline, lnNe, off, instG, gasT float64, deriv bool) error {
 	sf, gF, lF, err := f.lineShape(l, lnNe, instG, gasT)
 	if err != nil {
 		return err
@@ -977,7 +981,11 @@ func (f *wholeFitter) evalLine(l *wline, lnNe, off, instG, gasT float64) error {
 	}
 	for j := range nb {
 		l.mass[j] = l.cum[j+1] - l.cum[j]
-		l.dmass[j] = l.dcum[j+1] - l.dcum[j]
+	}
+	if deriv {
+		for j := range nb {
+			l.dmass[j] = l.dcum[j+1] - l.dcum[j]
+		}
 	}
 	// Wing nodes, left (index i) and right (nw + i).
 	nw := len(l.wing)
@@ -985,8 +993,8 @@ func (f *wholeFitter) evalLine(l *wline, lnNe, off, instG, gasT float64) error {
 		l.wc[i], l.wp[i], l.wd[i] = sf(-d)
 		l.wc[nw+i], l.wp[nw+i], l.wd[nw+i] = sf(d)
 	}
-	f.convolve(l, gF, lF)
-	f.pixels(l, off)
+	f.convolve(l, gF, lF, deriv)
+	f.pixels(l, off, deriv)
 	return nil
 }
 
@@ -1000,15 +1008,19 @@ func (f *wholeFitter) evalLine(l *wline, lnNe, off, instG, gasT float64) error {
 // is made; a kernel much narrower than h is the identity to within its
 // own (negligible) width. A Gaussian narrower than the step is given
 // three weights with its exact variance instead of samples. The weights
-// are normalised to sum to 1 (the area is kept).
-func (f *wholeFitter) convolve(l *wline, gF, lF float64) {
+// are normalised to sum to 1 (the area is kept). Without deriv the ln n_e
+// derivatives (l.dq) are left alone: l.q and l.pq are the same, bit for
+// bit (pixels without deriv reads no more).
+func (f *wholeFitter) convolve(l *wline, gF, lF float64, deriv bool) {
 	h := l.h
 	nb := 2*l.m + 1
 	sigma := voigt.SigmaFromFWHM(gF)
 	gamma := lF / 2
 	if sigma < 0.05*h && gamma < 0.02*h {
 		copy(l.q, l.mass)
-		copy(l.dq, l.dmass)
+		if deriv {
+			copy(l.dq, l.dmass)
+		}
 		copy(l.pq, l.pe)
 		return
 	}
@@ -1047,7 +1059,9 @@ func (f *wholeFitter) convolve(l *wline, gF, lF float64) {
 	}
 	if !(ks > 0) {
 		copy(l.q, l.mass)
-		copy(l.dq, l.dmass)
+		if deriv {
+			copy(l.dq, l.dmass)
+		}
 		copy(l.pq, l.pe)
 		return
 	}
@@ -1056,6 +1070,37 @@ func (f *wholeFitter) convolve(l *wline, gF, lF float64) {
 	}
 	// Bin masses (q, dq, nb values) and edge densities (pq, nb+1 values)
 	// in one pass; the kernel is symmetric (kern[j−i+r] = kern[i−j+r]).
+	if !deriv {
+		// The loop below without ds: the same sums in the same order.
+		for j := 0; j <= nb; j++ {
+			lo, hi := max(j-r, 0), min(j+r, nb)
+			k := kern[lo-j+r : hi-j+r+1]
+			ps := l.pe[lo : hi+1]
+			var s, sp float64
+			if hi == nb {
+				ms := l.mass[lo:nb]
+				for i := range ms {
+					s += k[i] * ms[i]
+				}
+				for i, kv := range k {
+					sp += kv * ps[i]
+				}
+			} else {
+				ms := l.mass[lo : hi+1]
+				ps = ps[:len(k)]
+				ms = ms[:len(k)]
+				for i, kv := range k {
+					s += kv * ms[i]
+					sp += kv * ps[i]
+				}
+			}
+			if j < nb {
+				l.q[j] = s
+			}
+			l.pq[j] = sp
+		}
+		return
+	}
 	for j := 0; j <= nb; j++ {
 		lo, hi := max(j-r, 0), min(j+r, nb)
 		k := kern[lo-j+r : hi-j+r+1]
@@ -1094,16 +1139,24 @@ func (f *wholeFitter) convolve(l *wline, gF, lF float64) {
 // cumulative in the wings (Hermite between the geometric wing nodes,
 // with the profile as slope; the far wing is not changed by the kernel),
 // shifted on the right by what the kernel moved across the grid's end.
-func (f *wholeFitter) pixels(l *wline, off float64) {
+// Without deriv only the means l.u are computed (the same, bit for bit),
+// from l.q and l.pq alone; l.du and l.dn are left alone.
+func (f *wholeFitter) pixels(l *wline, off float64, deriv bool) {
 	h := l.h
 	nb := 2*l.m + 1
 	e0 := -(float64(l.m) + 0.5) * h
 	eEnd := -e0
 	F, dF := l.fq, l.dfq
 	F[0], dF[0] = l.cum[0], l.dcum[0]
-	for j := range nb {
-		F[j+1] = F[j] + l.q[j]
-		dF[j+1] = dF[j] + l.dq[j]
+	if deriv {
+		for j := range nb {
+			F[j+1] = F[j] + l.q[j]
+			dF[j+1] = dF[j] + l.dq[j]
+		}
+	} else {
+		for j := range nb {
+			F[j+1] = F[j] + l.q[j]
+		}
 	}
 	nw := len(l.wing)
 	shR, dshR := F[nb]-l.wc[nw], dF[nb]-l.wd[nw]
@@ -1162,7 +1215,9 @@ func (f *wholeFitter) pixels(l *wline, off float64) {
 		j := min(int(fj), nb-1)
 		u := fj - float64(j)
 		c, dens = hermite(F[j], F[j+1], l.pq[j]*h, l.pq[j+1]*h, u, h)
-		dc, _ = hermite(dF[j], dF[j+1], rho(j, l.dq), rho(j+1, l.dq), u, h)
+		if deriv {
+			dc, _ = hermite(dF[j], dF[j+1], rho(j, l.dq), rho(j+1, l.dq), u, h)
+		}
 		return c, dc, dens
 	}
 	ctr := l.center + off
@@ -1175,9 +1230,11 @@ func (f *wholeFitter) pixels(l *wline, off float64) {
 		w := f.b[i] - f.a[i]
 		k := i - l.plo
 		l.u[k] = (cb - pa) / w
-		l.dn[k] = (dcb - pda) / w
-		// d/dδ of the mean = −(density(b) − density(a))/w.
-		l.du[k] = -(densb - pdens) / w
+		if deriv {
+			l.dn[k] = (dcb - pda) / w
+			// d/dδ of the mean = −(density(b) − density(a))/w.
+			l.du[k] = -(densb - pdens) / w
+		}
 		pa, pda, pdens = cb, dcb, densb
 	}
 }

@@ -49,17 +49,17 @@ func (f *wholeFitter) evalLines(th []float64) error {
 		if f.par.iTg >= 0 || f.par.iIa >= 0 {
 			// Derivative in G_extra² by a one-sided difference of the
 			// kernel alone.
-			if err := f.evalLine(l, th[f.par.iNe], th[f.par.iOff], g, tg); err != nil {
+			if err := f.evalLine(l, th[f.par.iNe], th[f.par.iOff], g, tg, true); err != nil {
 				return err
 			}
 			e2 := l.extra2
 			de := math.Max(0.02*e2, math.Pow(0.3*l.h, 2))
-			f.convolve(l, math.Sqrt(e2+de), l.kernL())
-			f.pixels(l, th[f.par.iOff])
+			f.convolve(l, math.Sqrt(e2+de), l.kernL(), true)
+			f.pixels(l, th[f.par.iOff], true)
 			l.dg = grow(&l.dg, len(l.u))
 			copy(l.dg, l.u)
-			f.convolve(l, math.Sqrt(e2), l.kernL())
-			f.pixels(l, th[f.par.iOff])
+			f.convolve(l, math.Sqrt(e2), l.kernL(), true)
+			f.pixels(l, th[f.par.iOff], true)
 			for i := range l.dg {
 				l.dg[i] = (l.dg[i] - l.u[i]) / de
 			}
@@ -68,7 +68,7 @@ func (f *wholeFitter) evalLines(th []float64) error {
 			// the clamp (a flat column would leave it singular).
 			continue
 		}
-		if err := f.evalLine(l, th[f.par.iNe], th[f.par.iOff], g, tg); err != nil {
+		if err := f.evalLine(l, th[f.par.iNe], th[f.par.iOff], g, tg, true); err != nil {
 			return err
 		}
 	}
@@ -891,14 +891,28 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 		w := 1 / (f.s[i] * f.s[i])
 		sens[i], sensB[i] = v*w, vb*w
 	}
-	// Saved pixel means of every line at the solution.
-	saved := make([][]float64, len(f.lines))
-	savedDu := make([][]float64, len(f.lines))
-	savedDn := make([][]float64, len(f.lines))
+	// Saved pixel means of every line at the solution (in the fitter's
+	// buffers: one block for every line's u, du and dn).
+	nSave := 0
+	for _, l := range f.lines {
+		nSave += len(l.u) + len(l.du) + len(l.dn)
+	}
+	block := grow(&f.saveBuf, nSave)
+	if cap(f.saveRows) < 3*len(f.lines) {
+		f.saveRows = make([][]float64, 3*len(f.lines))
+	}
+	rows := f.saveRows[:3*len(f.lines)]
+	saved, savedDu, savedDn := rows[:len(f.lines)], rows[len(f.lines):2*len(f.lines)], rows[2*len(f.lines):]
+	take := func(src []float64) []float64 {
+		dst := block[:len(src):len(src)]
+		block = block[len(src):]
+		copy(dst, src)
+		return dst
+	}
 	for k, l := range f.lines {
-		saved[k] = append([]float64(nil), l.u...)
-		savedDu[k] = append([]float64(nil), l.du...)
-		savedDn[k] = append([]float64(nil), l.dn...)
+		saved[k] = take(l.u)
+		savedDu[k] = take(l.du)
+		savedDn[k] = take(l.dn)
 	}
 	// shiftFor returns |δ ln n_e| and |δβ| from the lines' current u
 	// (changed by the caller) against the saved ones, and restores
@@ -937,8 +951,8 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 			if dL != nil {
 				kl = math.Max(kl+dL(l), 0)
 			}
-			f.convolve(l, math.Sqrt(math.Max(e2, 0)), kl)
-			f.pixels(l, th[pr.iOff])
+			f.convolve(l, math.Sqrt(math.Max(e2, 0)), kl, false)
+			f.pixels(l, th[pr.iOff], false)
 		}
 		d := shiftFor()
 		restore()
@@ -974,8 +988,8 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 	for _, l := range f.lines {
 		if l.clampGap2 > 0 && l.shapeSH {
 			clamped = true
-			f.convolve(l, math.Sqrt(l.clampGap2), l.kernL())
-			f.pixels(l, th[pr.iOff])
+			f.convolve(l, math.Sqrt(l.clampGap2), l.kernL(), false)
+			f.pixels(l, th[pr.iOff], false)
 		}
 	}
 	if clamped {
@@ -990,8 +1004,14 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 		f.teSign = sign
 		defer func() { f.teSign = 0 }()
 		for _, l := range f.lines {
+			if !l.shapeSH {
+				// The Voigt fallback's shape does not depend on T_e: its
+				// means stay the saved ones (re-evaluated, they were
+				// the same bit for bit).
+				continue
+			}
 			g, tg := f.lineInst(l, th)
-			if err := f.evalLine(l, th[pr.iNe], th[pr.iOff], g, tg); err != nil {
+			if err := f.evalLine(l, th[pr.iNe], th[pr.iOff], g, tg, false); err != nil {
 				return [2]float64{}, false
 			}
 		}

@@ -110,11 +110,16 @@ func TestRunPageWholeFit(t *testing.T) {
 	// the page, not the fit).
 	var id int64
 	var res string
-	if err := a.db.SQL().QueryRow(`SELECT id, result FROM analysis_results ORDER BY id DESC LIMIT 1`).Scan(&id, &res); err != nil {
+	var series []byte
+	if err := a.db.SQL().QueryRow(`SELECT id, result, series FROM analysis_results ORDER BY id DESC LIMIT 1`).Scan(&id, &res, &series); err != nil {
+		t.Fatal(err)
+	}
+	whole, err := spectrum.ExpandSeries(nil, res, series)
+	if err != nil {
 		t.Fatal(err)
 	}
 	var sr spectrum.Result
-	if err := json.Unmarshal([]byte(res), &sr); err != nil {
+	if err := json.Unmarshal(whole, &sr); err != nil {
 		t.Fatal(err)
 	}
 	sr.Model, sr.Whole = spectrum.ModelWhole, handWholeFit()
@@ -123,7 +128,7 @@ func TestRunPageWholeFit(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if _, err := a.db.SQL().Exec(`UPDATE analysis_results SET result = ? WHERE id = ?`, string(b), id); err != nil {
+	if _, err := a.db.SQL().Exec(`UPDATE analysis_results SET result = ?, series = NULL WHERE id = ?`, string(b), id); err != nil {
 		t.Fatal(err)
 	}
 

@@ -1,0 +1,307 @@
+package spectrum
+
+import (
+	"bytes"
+	"encoding/binary"
+	"errors"
+	"math"
+	"slices"
+	"strconv"
+	"strings"
+)
+
+// Compact storage of a result's plot series (the PlotFloats of the
+// windows and of the whole-spectrum fit, ~70 % of a whole-route result's
+// JSON text). AppendJSONSplit writes the JSON with every non-empty series
+// replaced by a placeholder, [null], and the series themselves into a
+// separate binary form; ExpandSeries puts them back, giving AppendJSON's
+// bytes exactly: the series are kept as the decimal digits their JSON
+// text has (eight significant digits, plotDigits), not recomputed, and
+// written by the same code (appendDigits8) as AppendJSON writes them.
+//
+// The binary form ("series"): the magic bytes 'G' 'S' 1, the number of
+// series (uvarint), then per series its length (uvarint) and its values,
+// in the order of the placeholders in the JSON (AppendJSONSplit makes
+// sure the JSON holds no other "[null]"), each value one uvarint u:
+//
+//   - u&3 == 0: same decimal exponent as the previous value of the
+//     series; the signed eight-digit mantissa (±m) differs from the
+//     previous one by zigzag⁻¹(u>>2);
+//   - u&3 == 1: a new exponent, previous + zigzag⁻¹(u>>2), followed by a
+//     uvarint zigzag(±m);
+//   - u == 2: a NaN or ±Inf (written as null);
+//   - u == 3: a value AppendJSON leaves to strconv (zeros, extreme
+//     magnitudes, near-ties of the eighth digit), followed by its eight
+//     bytes (IEEE 754, little-endian).
+//
+// The previous exponent and mantissa start at 0 for every series.
+// Spectra's series take about 4–6 bytes a value instead of about 10 as
+// text.
+
+// seriesMagic starts the binary form (format version 1).
+var seriesMagic = []byte{'G', 'S', 1}
+
+// seriesPlaceholder is what AppendJSONSplit writes for a series.
+var seriesPlaceholder = []byte("[null]")
+
+// placeholderSeries is a series whose JSON is seriesPlaceholder.
+var placeholderSeries = PlotFloats{math.NaN()}
+
+// ErrSeriesSplit is returned by AppendJSONSplit when its placeholder
+// JSON cannot be told apart from the result's own text (a "[null]"
+// elsewhere in it): store AppendJSON's output instead.
+var ErrSeriesSplit = errors.New("spectrum: plot series placeholder ambiguous")
+
+// AppendJSONSplit appends r's JSON to b as AppendJSON does, with every
+// non-empty plot series written as the placeholder [null], and the series
+// to series in the binary form above. ExpandSeries(nil, json, series)
+// gives AppendJSON's bytes. A result with no series gives an empty
+// series form (nothing appended). Errors are AppendJSON's, or
+// ErrSeriesSplit.
+func AppendJSONSplit(b, series []byte, r *Result) (json, seriesOut []byte, err error) {
+	return appendJSONSplit(b, series, nil, r)
+}
+
+// AppendJSONSplitFull is AppendJSONSplit that also appends AppendJSON's
+// bytes (what ExpandSeries gives) to full, in the same pass over the
+// series. On an error full is returned as given.
+func AppendJSONSplitFull(b, series, full []byte, r *Result) (json, seriesOut, fullOut []byte, err error) {
+	f0 := len(full)
+	b, series, err = appendJSONSplit(b, series, &full, r)
+	if err != nil {
+		full = full[:f0]
+	}
+	return b, series, full, err
+}
+
+// appendJSONSplit is AppendJSONSplit, appending the whole JSON to *full
+// too when full is not nil.
+func appendJSONSplit(b, series []byte, full *[]byte, r *Result) (json, seriesOut []byte, err error) {
+	var list [][]float64
+	take := func(p *PlotFloats) {
+		if len(*p) > 0 {
+			list = append(list, *p)
+			*p = placeholderSeries
+		}
+	}
+	// The series in AppendJSON's order: the windows' (in the order of
+	// Window's fields), then the whole fit's.
+	rr := *r
+	if len(r.Windows) > 0 {
+		rr.Windows = make([]Window, len(r.Windows))
+		for i, w := range r.Windows {
+			take(&w.WavelengthNM)
+			take(&w.Data)
+			take(&w.Model)
+			take(&w.Residual)
+			rr.Windows[i] = w
+		}
+	}
+	if r.Whole != nil {
+		w := *r.Whole
+		take(&w.WavelengthNM)
+		take(&w.Data)
+		take(&w.Model)
+		take(&w.Residual)
+		rr.Whole = &w
+	}
+	start := len(b)
+	b, err = appendJSONResult(b, &rr)
+	if err != nil {
+		return b, series, err
+	}
+	js := b[start:]
+	if len(list) == 0 {
+		if full != nil {
+			*full = append(*full, js...)
+		}
+		return b, series, nil
+	}
+	// The placeholders first: the split is refused before anything is
+	// written to series or full.
+	var offs [16]int
+	at := offs[:0]
+	pos := 0
+	for range list {
+		i := bytes.Index(js[pos:], seriesPlaceholder)
+		if i < 0 {
+			return b, series, ErrSeriesSplit
+		}
+		pos += i
+		at = append(at, pos)
+		pos += len(seriesPlaceholder)
+	}
+	if bytes.Contains(js[pos:], seriesPlaceholder) {
+		return b, series, ErrSeriesSplit
+	}
+	nv := 0
+	for _, p := range list {
+		nv += len(p)
+	}
+	// Room for the usual 3–5 bytes a value (and 8–12 as text) at once.
+	series = slices.Grow(series, 16+8*len(list)+5*nv)
+	series = append(series, seriesMagic...)
+	series = binary.AppendUvarint(series, uint64(len(list)))
+	var text []byte
+	if full != nil {
+		text = slices.Grow(*full, len(js)+12*nv)
+	}
+	pos = 0
+	for k, p := range list {
+		if full != nil {
+			text = append(text, js[pos:at[k]]...)
+		}
+		series, text = appendSeriesValues(series, text, full != nil, p)
+		pos = at[k] + len(seriesPlaceholder)
+	}
+	if full != nil {
+		*full = append(text, js[pos:]...)
+	}
+	return b, series, nil
+}
+
+func zigzag(v int64) uint64   { return uint64(v<<1) ^ uint64(v>>63) }
+func unzigzag(u uint64) int64 { return int64(u>>1) ^ -int64(u&1) }
+
+// appendSeriesValues appends one series' length and values to b, and
+// with withText its JSON text (as appendPlotFloats writes it) to text.
+func appendSeriesValues(b, text []byte, withText bool, p []float64) ([]byte, []byte) {
+	b = binary.AppendUvarint(b, uint64(len(p)))
+	if withText {
+		text = append(text, '[')
+	}
+	var prevS int64
+	prevE := 0
+	for i, v := range p {
+		if withText && i > 0 {
+			text = append(text, ',')
+		}
+		m, e10, ok := plotDigits(v)
+		if !ok {
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				b = append(b, 2)
+				if withText {
+					text = append(text, "null"...)
+				}
+				continue
+			}
+			b = append(b, 3)
+			b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
+			if withText {
+				text = strconv.AppendFloat(text, v, 'g', 8, 64)
+			}
+			continue
+		}
+		s := int64(m)
+		if v < 0 {
+			s = -s
+		}
+		if e10 == prevE {
+			b = binary.AppendUvarint(b, zigzag(s-prevS)<<2)
+		} else {
+			b = binary.AppendUvarint(b, zigzag(int64(e10-prevE))<<2|1)
+			b = binary.AppendUvarint(b, zigzag(s))
+			prevE = e10
+		}
+		prevS = s
+		if withText {
+			text = appendDigits8(text, v < 0, m, e10)
+		}
+	}
+	if withText {
+		text = append(text, ']')
+	}
+	return b, text
+}
+
+// errSeriesCorrupt reports a series form that does not fit its JSON.
+var errSeriesCorrupt = errors.New("spectrum: stored plot series corrupt")
+
+// ExpandSeries appends to dst the JSON that AppendJSONSplit's placeholder
+// JSON js and series form stand for: AppendJSON's bytes. An empty series
+// form appends js unchanged (a result stored whole). A series form that
+// does not fit js (another number of placeholders, or of bytes) gives an
+// error.
+func ExpandSeries(dst []byte, js string, series []byte) ([]byte, error) {
+	if len(series) == 0 {
+		return append(dst, js...), nil
+	}
+	if !bytes.HasPrefix(series, seriesMagic) {
+		return dst, errSeriesCorrupt
+	}
+	rd := series[len(seriesMagic):]
+	uv := func() (uint64, bool) {
+		u, n := binary.Uvarint(rd)
+		if n <= 0 {
+			return 0, false
+		}
+		rd = rd[n:]
+		return u, true
+	}
+	count, ok := uv()
+	if !ok || count > uint64(len(js)) {
+		return dst, errSeriesCorrupt
+	}
+	pos := 0
+	for range count {
+		i := strings.Index(js[pos:], string(seriesPlaceholder))
+		if i < 0 {
+			return dst, errSeriesCorrupt
+		}
+		off := pos + i
+		dst = append(dst, js[pos:off]...)
+		n, ok := uv()
+		if !ok || n > uint64(len(rd)) {
+			return dst, errSeriesCorrupt
+		}
+		dst = append(dst, '[')
+		var prevS int64
+		prevE := 0
+		for i := range n {
+			if i > 0 {
+				dst = append(dst, ',')
+			}
+			u, ok := uv()
+			if !ok {
+				return dst, errSeriesCorrupt
+			}
+			switch {
+			case u == 2:
+				dst = append(dst, "null"...)
+				continue
+			case u == 3:
+				if len(rd) < 8 {
+					return dst, errSeriesCorrupt
+				}
+				dst = appendFloat8(dst, math.Float64frombits(binary.LittleEndian.Uint64(rd)))
+				rd = rd[8:]
+				continue
+			case u&3 == 0:
+				prevS += unzigzag(u >> 2)
+			case u&3 == 1:
+				prevE += int(unzigzag(u >> 2))
+				s, ok := uv()
+				if !ok {
+					return dst, errSeriesCorrupt
+				}
+				prevS = unzigzag(s)
+			default:
+				return dst, errSeriesCorrupt
+			}
+			m := prevS
+			if m < 0 {
+				m = -m
+			}
+			if m < 1e7 || m >= 1e8 || prevE < -400 || prevE > 400 {
+				return dst, errSeriesCorrupt
+			}
+			dst = appendDigits8(dst, prevS < 0, uint64(m), prevE)
+		}
+		dst = append(dst, ']')
+		pos = off + len(seriesPlaceholder)
+	}
+	if len(rd) != 0 || strings.Contains(js[pos:], string(seriesPlaceholder)) {
+		return dst, errSeriesCorrupt
+	}
+	return append(dst, js[pos:]...), nil
+}
