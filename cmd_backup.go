@@ -10,7 +10,6 @@ import (
 	"strings"
 	"time"
 
-	"glowlog/server"
 	"glowlog/store"
 )
 
@@ -21,7 +20,7 @@ import (
 func runBackup(args []string, stdout, stderr io.Writer) int {
 	fs := flag.NewFlagSet("backup", flag.ContinueOnError)
 	fs.SetOutput(stderr)
-	dbPath := fs.String("db", envOr("GLOWLOG_DB", server.DefaultDB), "SQLite database file to back up (env GLOWLOG_DB)")
+	dbPath := fs.String("db", envOr("GLOWLOG_DB", DefaultDB), "SQLite database file to back up (env GLOWLOG_DB)")
 	force := fs.Bool("force", false, "replace OUT if it exists")
 	fs.Usage = func() {
 		fmt.Fprintln(stderr, "usage: glowlog backup [--db FILE] [--force] OUT")
@@ -49,7 +48,7 @@ func runBackup(args []string, stdout, stderr io.Writer) int {
 func runRestore(args []string, stdout, stderr io.Writer) int {
 	fs := flag.NewFlagSet("restore", flag.ContinueOnError)
 	fs.SetOutput(stderr)
-	dbPath := fs.String("db", envOr("GLOWLOG_DB", server.DefaultDB), "SQLite database file to replace (env GLOWLOG_DB)")
+	dbPath := fs.String("db", envOr("GLOWLOG_DB", DefaultDB), "SQLite database file to replace (env GLOWLOG_DB)")
 	fs.Usage = func() {
 		fmt.Fprintln(stderr, "usage: glowlog restore [--db FILE] BACKUP   (stop glowlog serve first)")
 		fs.PrintDefaults()
@@ -94,9 +93,9 @@ func plainError(err error) string {
 }
 
 // splitArgs parses a command's flags anywhere among its positional
-// arguments (server.ParseInterleaved) and returns the positional ones.
+// arguments (ParseInterleaved) and returns the positional ones.
 func splitArgs(fs *flag.FlagSet, args []string) ([]string, error) {
-	if err := server.ParseInterleaved(fs, args); err != nil {
+	if err := ParseInterleaved(fs, args); err != nil {
 		return nil, err
 	}
 	return fs.Args(), nil

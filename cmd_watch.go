@@ -19,7 +19,6 @@ import (
 	"time"
 
 	"glowlog/diag"
-	"glowlog/server"
 )
 
 // watchConfig holds the flags of "glowlog watch".
@@ -125,7 +124,7 @@ func parseWatchFlags(args []string, stderr io.Writer) (*watchConfig, int) {
 	fs.DurationVar(&cfg.poll, "poll", time.Second, "how often DIR is listed")
 	fs.DurationVar(&cfg.maxBackoff, "max-backoff", time.Minute, "longest wait between attempts while the server is unreachable")
 	fs.DurationVar(&cfg.timeout, "timeout", 2*time.Minute, "time limit of one request")
-	if err := server.ParseInterleaved(fs, args); err != nil {
+	if err := ParseInterleaved(fs, args); err != nil {
 		if errors.Is(err, flag.ErrHelp) {
 			return nil, exitOK
 		}

@@ -20,18 +20,17 @@ import (
 	"strings"
 
 	"glowlog/diag"
-	"glowlog/server"
 )
 
 // Exit codes.
 const (
-	exitOK    = server.ExitOK
-	exitError = server.ExitError
-	exitInput = server.ExitInput
+	exitOK    = ExitOK
+	exitError = ExitError
+	exitInput = ExitInput
 )
 
 // maxInputBytes bounds what analyze reads from one measurement set.
-const maxInputBytes = server.MaxMeasurementBytes
+const maxInputBytes = MaxMeasurementBytes
 
 func main() {
 	os.Exit(run(os.Args[1:], os.Stdin, os.Stdout, os.Stderr))
@@ -49,9 +48,9 @@ func run(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 	case "instrument":
 		return runInstrument(args, stdout, stderr)
 	case "user":
-		return server.UserCommand(args, stdin, stdout, stderr)
+		return UserCommand(args, stdin, stdout, stderr)
 	case "token":
-		return server.TokenCommand(args, stdout, stderr)
+		return TokenCommand(args, stdout, stderr)
 	case "serve":
 		return runServe(args, stdout, stderr)
 	case "backup":
@@ -95,13 +94,13 @@ func isHelp(a string) bool {
 }
 
 func runServe(args []string, stdout, stderr io.Writer) int {
-	return server.ServeCommand(args, stdout, stderr)
+	return ServeCommand(args, stdout, stderr)
 }
 
 func runAnalyze(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
-	return server.AnalyzeCommand(args, stdin, stdout, stderr)
+	return AnalyzeCommand(args, stdin, stdout, stderr)
 }
 
 func runInstrument(args []string, stdout, stderr io.Writer) int {
-	return server.InstrumentCommand(args, stdout, stderr)
+	return InstrumentCommand(args, stdout, stderr)
 }

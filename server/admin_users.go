@@ -72,7 +72,7 @@ func (s *Server) createUserForm(c echo.Context) error {
 			return fail("user name: “" + f.Name + "” is taken")
 		}
 		if errors.Is(err, store.ErrInvalid) {
-			return fail(cliMessage(err))
+			return fail(PlainStoreError(err))
 		}
 		return err
 	}
@@ -188,4 +188,14 @@ func (s *Server) enabledAdmins(c echo.Context) (int, error) {
 		}
 	}
 	return n, nil
+}
+
+// PlainStoreError strips the store's prefixes from a user-facing error
+// (the web's forms and the commands show it).
+func PlainStoreError(err error) string {
+	m := err.Error()
+	for _, p := range []string{"store: invalid: ", "store: conflict: "} {
+		m = strings.TrimPrefix(m, p)
+	}
+	return m
 }

@@ -60,7 +60,7 @@ type AnalysisSettings struct {
 	LineShape string `json:"line_shape,omitempty"`
 	// Model is the analysis route of spectra: "whole" (one model fitted
 	// to the whole range), "lines" (each line's window on its own) or ""
-	// (the pipeline's default, defaultModel). Line tables are always
+	// (the pipeline's default, DefaultModel). Line tables are always
 	// analysed line by line (route.go).
 	Model string `json:"model,omitempty"`
 	// WholeAreas ("boltzmann", the default "", or "free") and the two
@@ -198,7 +198,6 @@ func (s *Server) analyzeAttachments(ctx context.Context, atts []store.Attachment
 		}
 		opt.Instrument = in
 	}
-	cfg := &analyzeConfig{format: "auto"}
 	// The newest dark and response files apply to every spectrum.
 	for i := len(atts) - 1; i >= 0; i-- {
 		a := atts[i]
@@ -208,7 +207,7 @@ func (s *Server) analyzeAttachments(ctx context.Context, atts []store.Attachment
 			if err != nil {
 				return nil, err
 			}
-			d, err := cfg.readSpectrum(a.Name, data)
+			d, err := ReadCurve(a.Name, data, CurveOptions{}, nil)
 			if err != nil {
 				return nil, badRequest("dark file %s: %v", a.Name, err)
 			}
@@ -218,7 +217,7 @@ func (s *Server) analyzeAttachments(ctx context.Context, atts []store.Attachment
 			if err != nil {
 				return nil, err
 			}
-			c, err := cfg.readCurve(a.Name, data, 2)
+			c, err := ReadCurve(a.Name, data, CurveOptions{MinPoints: 2}, nil)
 			if err != nil {
 				return nil, badRequest("response file %s: %v", a.Name, err)
 			}
@@ -265,7 +264,7 @@ func (s *Server) analyzeAttachments(ctx context.Context, atts []store.Attachment
 			}
 			ra.Err = err
 		} else {
-			sp, err := cfg.readSpectrum(a.Name, data)
+			sp, err := ReadCurve(a.Name, data, CurveOptions{}, nil)
 			if err == nil {
 				var r spectrum.Result
 				r, err = p.Analyze(sp, opt)

@@ -8,7 +8,6 @@ import (
 	"net/http"
 	"net/http/httptest"
 	"net/url"
-	"path/filepath"
 	"regexp"
 	"strings"
 	"testing"
@@ -284,7 +283,7 @@ func TestAuditSignInAndAPI(t *testing.T) {
 
 // Writes outside web requests name their source: a bulk reanalysis job
 // its starter, the command line "cli".
-func TestAuditJobAndCLIActors(t *testing.T) {
+func TestAuditJobActor(t *testing.T) {
 	f := newReviewFixture(t)
 	ctx, cancel := context.WithCancel(context.Background())
 	defer cancel()
@@ -322,18 +321,4 @@ func TestAuditJobAndCLIActors(t *testing.T) {
 		t.Errorf("job's analysis version logged by %v %q via %q, want %s via job", e.ActorID, e.ActorName, e.Via, f.rev.Name)
 	}
 
-	path := filepath.Join(t.TempDir(), "cli.db")
-	var out, errb bytes.Buffer
-	if code := UserCommand([]string{"add", "mira", "--role", "reviewer", "--db", path}, strings.NewReader("a-long-password\n"), &out, &errb); code != ExitOK {
-		t.Fatalf("user add: %d %s", code, errb.String())
-	}
-	db, err := store.Open(context.Background(), path)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer db.Close()
-	es = auditEntries(t, db, store.AuditFilter{Kind: store.AuditUser})
-	if len(es) != 1 || es[0].Via != store.ViaCLI || es[0].ActorID != nil {
-		t.Errorf("user add entries: %+v", es)
-	}
 }

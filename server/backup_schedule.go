@@ -110,11 +110,11 @@ func backupNow(ctx context.Context, db *store.DB, b BackupSchedule, now time.Tim
 	return nil
 }
 
-// runBackups writes scheduled backups until ctx ends: the first when the
+// RunBackups writes scheduled backups until ctx ends: the first when the
 // newest in Dir is older than Every (at once if there is none), then
 // every Every. A failed backup is logged and tried again at the next
 // interval.
-func runBackups(ctx context.Context, db *store.DB, b BackupSchedule, log *slog.Logger) {
+func RunBackups(ctx context.Context, db *store.DB, b BackupSchedule, log *slog.Logger) {
 	var newest time.Time
 	if all, err := listBackups(b.Dir); err == nil && len(all) > 0 {
 		newest = all[len(all)-1].at

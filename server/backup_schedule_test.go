@@ -90,7 +90,7 @@ func TestRunBackupsFirstAtStart(t *testing.T) {
 	done := make(chan struct{})
 	go func() {
 		defer close(done)
-		runBackups(ctx, db, BackupSchedule{Dir: dir, Every: time.Hour, Keep: 2}, slog.New(slog.NewTextHandler(&bytes.Buffer{}, nil)))
+		RunBackups(ctx, db, BackupSchedule{Dir: dir, Every: time.Hour, Keep: 2}, slog.New(slog.NewTextHandler(&bytes.Buffer{}, nil)))
 	}()
 	var all []backupFile
 	for range 1000 { // bounded wait for the first backup
@@ -104,25 +104,5 @@ func TestRunBackupsFirstAtStart(t *testing.T) {
 	<-done
 	if len(all) != 1 {
 		t.Fatalf("%d backups after start, want 1", len(all))
-	}
-}
-
-func TestServeStorageFlags(t *testing.T) {
-	dir := t.TempDir()
-	for _, c := range []struct {
-		args []string
-		want string
-	}{
-		{[]string{"--sync", "fast"}, "use full or normal"},
-		{[]string{"--backup-dir", dir, "--backup-every", "10s"}, "at least 1m0s"},
-		{[]string{"--backup-dir", dir, "--backup-keep", "0"}, "keep at least 1"},
-	} {
-		var out, errb bytes.Buffer
-		if code := ServeCommand(append(c.args, "--db", filepath.Join(dir, "x.db")), &out, &errb); code != ExitInput || !strings.Contains(errb.String(), c.want) {
-			t.Errorf("%v: exit %d %q", c.args, code, errb.String())
-		}
-	}
-	if _, err := os.Stat(filepath.Join(dir, "x.db")); err == nil {
-		t.Error("bad flags created the database")
 	}
 }

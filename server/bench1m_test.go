@@ -280,7 +280,7 @@ func (w *countingWriter) Write(p []byte) (int, error) { w.n += int64(len(p)); re
 // should for this figure: others before it in the process load without
 // it).
 func BenchmarkServeMemory1M(b *testing.B) {
-	setServeMemoryLimit()
+	SetMemoryLimit()
 	s, ck := bench1MServer(b)
 	for b.Loop() {
 		var urls []string

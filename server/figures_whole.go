@@ -65,7 +65,7 @@ func WholeFitSVG(w *spectrum.WholeFit, marks []wholeMark, lo, hi float64, yLabel
 	top := newFigure()
 	title := "Whole-spectrum fit"
 	if hi > lo {
-		title += fmt.Sprintf(", %s–%s nm", shortNM(x0), shortNM(x1))
+		title += fmt.Sprintf(", %s–%s nm", ShortNM(x0), ShortNM(x1))
 	}
 	// The key is in the title: a legend box would sit on the line names
 	// (Hα is near an edge of most ranges).
@@ -173,7 +173,7 @@ func WholeFitSVG(w *spectrum.WholeFit, marks []wholeMark, lo, hi float64, yLabel
 		return nil, area, err
 	}
 	desc := fmt.Sprintf("Whole-spectrum fit from %s to %s nm, %d pixels: measured data as points and the fitted model as a line (%s); the lower panel shows data minus model, largest |residual| %s.",
-		shortNM(x0), shortNM(x1), len(wl), yLabel, views.SigFig(rmax, 3))
+		ShortNM(x0), ShortNM(x1), len(wl), yLabel, views.SigFig(rmax, 3))
 	if w.ReducedChi2 > 0 {
 		desc += " Reduced χ² of the fit over its whole range: " + views.SigFig(w.ReducedChi2, 3) + "."
 	}
@@ -192,7 +192,7 @@ func wholeZoomQuery(lo, hi float64) []string {
 	return []string{"lo", strconv.FormatFloat(lo, 'f', 4, 64), "hi", strconv.FormatFloat(hi, 'f', 4, 64)}
 }
 
-// shortNM writes a wavelength to 0.001 nm without trailing zeros.
-func shortNM(x float64) string {
+// ShortNM writes a wavelength to 0.001 nm without trailing zeros.
+func ShortNM(x float64) string {
 	return strconv.FormatFloat(math.Round(x*1000)/1000, 'f', -1, 64)
 }

@@ -23,7 +23,6 @@ func TestEncodeSpectrumResultSameBytes(t *testing.T) {
 	if len(files) < 5 {
 		t.Fatalf("only %d test spectra found", len(files))
 	}
-	cfg := &analyzeConfig{format: "auto"}
 	p := spectrum.NewPipeline(8192)
 	withWindows := 0
 	for _, f := range files {
@@ -31,7 +30,7 @@ func TestEncodeSpectrumResultSameBytes(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		sp, err := cfg.readSpectrum(filepath.Base(f), data)
+		sp, err := ReadCurve(filepath.Base(f), data, CurveOptions{}, nil)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -89,7 +88,7 @@ func BenchmarkEncodeSpectrumResult(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	sp, err := (&analyzeConfig{format: "auto"}).readSpectrum("bench.csv", data)
+	sp, err := ReadCurve("bench.csv", data, CurveOptions{}, nil)
 	if err != nil {
 		b.Fatal(err)
 	}

@@ -15,7 +15,7 @@ import (
 // checks it, and the analysis service hands it to the spectrum pipeline.
 //
 // Rules shared by every path:
-//   - "" is the default route, which the pipeline decides (defaultModel
+//   - "" is the default route, which the pipeline decides (DefaultModel
 //     names it for the forms and the checks below);
 //   - the whole-fit options (whole_areas, whole_free_gas_temperature,
 //     whole_free_instrument) belong to the whole-spectrum route: given
@@ -26,15 +26,15 @@ import (
 //   - line tables (measurement sets: intensities and widths, no spectrum)
 //     are always analysed line by line; a version whose route is "whole"
 //     must have at least one spectrum (checkRouteFiles), and each result
-//     says which route produced it (resultModel).
+//     says which route produced it (ResultModel).
 
-// defaultModel is the route the pipeline takes for Model ""
+// DefaultModel is the route the pipeline takes for Model ""
 // (spectrum.DefaultModel). TestDefaultModelIsPipelines checks it against
 // the pipeline's own answer (Result.Model).
-var defaultModel = spectrum.DefaultModel
+var DefaultModel = spectrum.DefaultModel
 
-// modelLabel names a route for people.
-func modelLabel(m string) string {
+// ModelLabel names a route for people.
+func ModelLabel(m string) string {
 	switch m {
 	case spectrum.ModelWhole:
 		return "whole-spectrum fit"
@@ -44,8 +44,8 @@ func modelLabel(m string) string {
 	return m
 }
 
-// effectiveModel is the route settings st take ("" resolved).
-func (st AnalysisSettings) effectiveModel() string {
+// EffectiveModel is the route settings st take ("" resolved).
+func (st AnalysisSettings) EffectiveModel() string {
 	if st.Model == "" {
 		return spectrum.DefaultRoute(st.LineShape)
 	}
@@ -73,7 +73,7 @@ func (st AnalysisSettings) wholeOptionsSet() []string {
 func (st AnalysisSettings) validateRoute() error {
 	if !spectrum.ValidModel(st.Model) {
 		return badRequest("model must be %q or %q (or empty for the default, %s), got %q",
-			spectrum.ModelWhole, spectrum.ModelLines, defaultModel, st.Model)
+			spectrum.ModelWhole, spectrum.ModelLines, DefaultModel, st.Model)
 	}
 	switch st.WholeAreas {
 	case "", spectrum.WholeAreasBoltzmann, spectrum.WholeAreasFree:
@@ -81,10 +81,10 @@ func (st AnalysisSettings) validateRoute() error {
 		return badRequest("whole_areas must be %q or %q (or empty for %s), got %q",
 			spectrum.WholeAreasBoltzmann, spectrum.WholeAreasFree, spectrum.WholeAreasBoltzmann, st.WholeAreas)
 	}
-	if set := st.wholeOptionsSet(); len(set) > 0 && st.effectiveModel() != spectrum.ModelWhole {
+	if set := st.wholeOptionsSet(); len(set) > 0 && st.EffectiveModel() != spectrum.ModelWhole {
 		route := "model " + st.Model
 		if st.Model == "" {
-			route = "the default route, " + st.effectiveModel()
+			route = "the default route, " + st.EffectiveModel()
 		}
 		return badRequest("%s: only the whole-spectrum fit (model %q) uses it, and %s analyses line by line",
 			strings.Join(set, ", "), spectrum.ModelWhole, route)
@@ -97,7 +97,7 @@ func (st AnalysisSettings) validateRoute() error {
 // when this request set any of them itself: then they stay, and Validate
 // refuses them with a message).
 func (st *AnalysisSettings) dropWholeOptions(given bool) {
-	if given || st.effectiveModel() == spectrum.ModelWhole {
+	if given || st.EffectiveModel() == spectrum.ModelWhole {
 		return
 	}
 	st.WholeAreas, st.WholeFreeGasTemperature, st.WholeFreeInstrument = "", false, false
@@ -130,10 +130,10 @@ func checkRouteFiles(st AnalysisSettings, atts []store.Attachment) error {
 // gave no result (the line-by-line numbers are reported instead).
 const flagWholeFailed = "whole_fit_failed"
 
-// resultModel is the route that produced a stored result: a spectrum
+// ResultModel is the route that produced a stored result: a spectrum
 // result says it (results stored before the route existed are "lines");
 // a line table is always "lines".
-func resultModel(sr *spectrum.Result) string {
+func ResultModel(sr *spectrum.Result) string {
 	if sr != nil && sr.Model != "" {
 		return sr.Model
 	}
@@ -142,7 +142,7 @@ func resultModel(sr *spectrum.Result) string {
 
 // routeValues are the route fields of the forms.
 func routeValues(model, areas string, freeGas, freeIn bool) views.RouteValues {
-	return views.RouteValues{Model: model, Default: modelLabel(defaultModel) + "; line by line for Voigt-shaped lines", DefaultModel: defaultModel, WholeAreas: areas,
+	return views.RouteValues{Model: model, Default: ModelLabel(DefaultModel) + "; line by line for Voigt-shaped lines", DefaultModel: DefaultModel, WholeAreas: areas,
 		WholeFreeGas: freeGas, WholeFreeIn: freeIn}
 }
 
@@ -169,14 +169,14 @@ func routeWords(r *decodedResult) string {
 	if r.Spectrum == nil {
 		return "line by line (a line table always is)"
 	}
-	m := resultModel(r.Spectrum)
+	m := ResultModel(r.Spectrum)
 	if m == spectrum.ModelWhole {
-		return modelLabel(m) + " (the whole fitted range at once)"
+		return ModelLabel(m) + " (the whole fitted range at once)"
 	}
 	for _, f := range r.Spectrum.Flags {
 		if f.Code == flagWholeFailed {
-			return modelLabel(m) + " (each line's window on its own): the whole-spectrum fit asked for gave no result, see the warnings"
+			return ModelLabel(m) + " (each line's window on its own): the whole-spectrum fit asked for gave no result, see the warnings"
 		}
 	}
-	return modelLabel(m) + " (each line's window on its own)"
+	return ModelLabel(m) + " (each line's window on its own)"
 }

@@ -1,7 +1,6 @@
 package server
 
 import (
-	"bytes"
 	"encoding/json"
 	"fmt"
 	"net/http"
@@ -15,8 +14,8 @@ import (
 
 // TestWholeRouteReal: with the pipeline's whole-spectrum fit, a run logged
 // with model "whole" stores a result that took that route, and its page
-// shows the section with the fit's own numbers; analyze --model whole
-// prints the fit, --model lines none.
+// shows the section with the fit's own numbers (analyze --model:
+// TestAnalyzeModelRoute in package main).
 func TestWholeRouteReal(t *testing.T) {
 	f := newRunsFixture(t)
 	_, sess := f.signIn("opal", "operator")
@@ -51,23 +50,6 @@ func TestWholeRouteReal(t *testing.T) {
 		t.Errorf("n_e parameter cell %q, want the stored fit's %q", got, want)
 	}
 
-	for _, c := range []struct {
-		model string
-		whole bool
-	}{{"whole", true}, {"lines", false}} {
-		var out, errb bytes.Buffer
-		if code := AnalyzeCommand([]string{"--model", c.model, "--instrument-fwhm-nm", "0.35", "--gas-temperature-K", "1000",
-			"../testdata/spectra/scipy_bench_2048.csv"}, nil, &out, &errb); code != ExitOK {
-			t.Fatalf("--model %s: exit %d %s", c.model, code, errb.String())
-		}
-		var r spectrum.Result
-		if err := json.Unmarshal(out.Bytes(), &r); err != nil {
-			t.Fatal(err)
-		}
-		if r.Model != c.model || (r.Whole != nil) != c.whole {
-			t.Errorf("--model %s: route %q, whole fit %v", c.model, r.Model, r.Whole != nil)
-		}
-	}
 }
 
 func benchSpectrum(t *testing.T) []byte {

@@ -96,7 +96,7 @@ func downloadModel(r *decodedResult) string {
 	if r.Diag == nil {
 		return ""
 	}
-	return resultModel(r.Spectrum)
+	return ResultModel(r.Spectrum)
 }
 
 // downloadLinesCSV handles GET /runs/:id/lines.csv: the per-line table of

@@ -306,11 +306,11 @@ func computedWith(settings string) string {
 	if pert == "" {
 		pert = "none"
 	}
-	route := "route: " + modelLabel(st.effectiveModel())
+	route := "route: " + ModelLabel(st.EffectiveModel())
 	if st.Model == "" {
 		route += " (the default)"
 	}
-	if st.effectiveModel() == spectrum.ModelWhole {
+	if st.EffectiveModel() == spectrum.ModelWhole {
 		route += wholeOptionsText(st)
 	}
 	return strings.Join([]string{instr, gas, "pressure " + num(st.PressurePa, "Pa"), "perturber " + pert, route}, ", ")
@@ -519,7 +519,7 @@ func runSummary(p *runPage) views.RunSummary {
 	}
 	sum.NeSource = d.ElectronDensitySource
 	if r.Spectrum != nil {
-		sum.Route = modelLabel(resultModel(r.Spectrum))
+		sum.Route = ModelLabel(ResultModel(r.Spectrum))
 		if r.Spectrum.Whole != nil {
 			sum.Route += " (see the whole-spectrum fit below)"
 		}
@@ -559,7 +559,7 @@ func (s *Server) spectrumSVG(c echo.Context, r *decodedResult) ([]byte, error) {
 	if err != nil {
 		return nil, err
 	}
-	sp, err := (&analyzeConfig{format: "auto"}).readSpectrum(att.Name, att.Content)
+	sp, err := ReadCurve(att.Name, att.Content, CurveOptions{}, nil)
 	if err != nil {
 		return nil, err
 	}

@@ -109,8 +109,8 @@ func wholeFitView(base string, p *runPage, r *decodedResult, lo, hi float64, inl
 		return nil
 	}
 	w := r.Spectrum.Whole
-	route := resultModel(r.Spectrum)
-	v := &views.WholeFitView{Route: route, RouteLabel: modelLabel(route), Converged: w.Converged,
+	route := ResultModel(r.Spectrum)
+	v := &views.WholeFitView{Route: route, RouteLabel: ModelLabel(route), Converged: w.Converged,
 		DopplerNote: w.DopplerNote}
 	if w.Areas == spectrum.WholeAreasFree {
 		v.Areas = "Free line areas (each line its own; T_exc from a Boltzmann plot of them)"
@@ -118,7 +118,7 @@ func wholeFitView(base string, p *runPage, r *decodedResult, lo, hi float64, inl
 		v.Areas = "Line areas tied by the Boltzmann distribution (T_exc and one scale)"
 	}
 	v.Summary = fmt.Sprintf("Reduced χ² %s with %d degrees of freedom, %d pixels from %s to %s nm, %d iterations.",
-		views.SigFig(w.ReducedChi2, 3), w.DOF, w.Pixels, shortNM(w.RangeNM[0]), shortNM(w.RangeNM[1]), w.Iterations)
+		views.SigFig(w.ReducedChi2, 3), w.DOF, w.Pixels, ShortNM(w.RangeNM[0]), ShortNM(w.RangeNM[1]), w.Iterations)
 
 	// The two routes side by side.
 	add := func(q, unit string, wv, wu, lv, lu, diff *float64) {
@@ -140,7 +140,7 @@ func wholeFitView(base string, p *runPage, r *decodedResult, lo, hi float64, inl
 			v.Disagrees = true
 		}
 	}
-	v.OtherModels = otherModelTexts(w)
+	v.OtherModels = OtherModelTexts(w)
 
 	// Parameters, and the correlations of the free ones.
 	var free []spectrum.WholeParam
@@ -150,7 +150,7 @@ func wholeFitView(base string, p *runPage, r *decodedResult, lo, hi float64, inl
 			row.Label = p.Name
 		}
 		if p.Fixed || !(p.Unc > 0) {
-			row.Value = plainNum(p.Value)
+			row.Value = PlainNum(p.Value)
 		} else {
 			val, unc := p.Value, p.Unc
 			row.Value = views.ValueUnc(&val, &unc)
@@ -298,16 +298,16 @@ func (s *Server) figureWhole(c echo.Context) error {
 	return svgBlob(c, fileStem(p, r)+"-whole.svg", svg, err)
 }
 
-// plainNum writes a given (not fitted) value as it is, to 6 figures, with
+// PlainNum writes a given (not fitted) value as it is, to 6 figures, with
 // a minus sign.
-func plainNum(v float64) string {
+func PlainNum(v float64) string {
 	return strings.Replace(strconv.FormatFloat(v, 'g', 6, 64), "-", "−", 1)
 }
 
-// otherModelTexts says, per line of whole fit w, what another Stark
+// OtherModelTexts says, per line of whole fit w, what another Stark
 // model's relation gives for the line's SH99 Stark width at the fitted
 // n_e (run page and analyze --text).
-func otherModelTexts(w *spectrum.WholeFit) []string {
+func OtherModelTexts(w *spectrum.WholeFit) []string {
 	var out []string
 	for _, m := range w.OtherModels {
 		width := "FWHM"

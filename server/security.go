@@ -388,8 +388,8 @@ func apiContentType(next echo.HandlerFunc) echo.HandlerFunc {
 	}
 }
 
-// envList splits a comma-separated environment variable.
-func envList(k string) []string {
+// EnvList splits a comma-separated environment variable.
+func EnvList(k string) []string {
 	if v := os.Getenv(k); v != "" {
 		return []string{v}
 	}

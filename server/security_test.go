@@ -462,7 +462,7 @@ func TestPasswordProblem(t *testing.T) {
 func TestFirstStartPasswordMustChange(t *testing.T) {
 	s := quietServer(t, testDB(t), Options{})
 	var out strings.Builder
-	if err := s.bootstrap(context.Background(), false, &out); err != nil {
+	if err := s.Bootstrap(context.Background(), false, &out); err != nil {
 		t.Fatal(err)
 	}
 	pw := strings.Fields(strings.SplitAfter(out.String(), "one-time password ")[1])[0]
@@ -638,23 +638,5 @@ func TestSmallHardening(t *testing.T) {
 		if sc.Secure != c.secure || cc.Secure != c.secure {
 			t.Errorf("%+v from %s: session Secure=%v, csrf Secure=%v, want %v", c.opt, c.remote, sc.Secure, cc.Secure, c.secure)
 		}
-	}
-}
-
-// Item 7: the serve flag and its environment variable are checked before
-// anything starts.
-func TestServeTrustedProxyFlag(t *testing.T) {
-	var out, errb strings.Builder
-	if code := ServeCommand([]string{"--trusted-proxy", "proxy.example", "--db", t.TempDir() + "/x.db"}, &out, &errb); code != ExitInput || !strings.Contains(errb.String(), `"proxy.example"`) {
-		t.Errorf("bad flag: exit %d, %q", code, errb.String())
-	}
-	t.Setenv("GLOWLOG_TRUSTED_PROXY", "10.0.0.0/8, 300.1.1.1")
-	errb.Reset()
-	if code := ServeCommand([]string{"--db", t.TempDir() + "/x.db"}, &out, &errb); code != ExitInput || !strings.Contains(errb.String(), `"300.1.1.1"`) {
-		t.Errorf("bad env: exit %d, %q", code, errb.String())
-	}
-	nets, err := ParseTrustedProxies([]string{"10.0.0.0/8, 192.168.7.7", "fd00::/8", "::1"})
-	if err != nil || len(nets) != 4 || nets[1].String() != "192.168.7.7/32" || nets[3].String() != "::1/128" {
-		t.Errorf("parse: %v %v", nets, err)
 	}
 }

@@ -85,6 +85,14 @@ const bodyLimit = "40M"
 // ServeHTTP makes the Server an http.Handler.
 func (s *Server) ServeHTTP(w http.ResponseWriter, r *http.Request) { s.Echo.ServeHTTP(w, r) }
 
+// WaitBackground waits, after the HTTP server has shut down, for the
+// background work that outlives requests: bulk jobs and the deferred
+// writes of API token use.
+func (s *Server) WaitBackground() {
+	s.Jobs.Wait()
+	s.tokenUse.wait()
+}
+
 // csrf is the CSRF middleware for the HTML routes (the API uses bearer
 // tokens instead). Its cookie is Secure when secureRequest says so.
 func (s *Server) csrf() echo.MiddlewareFunc {

@@ -1,4 +1,4 @@
-package server
+package main
 
 import (
 	"bytes"
@@ -56,7 +56,7 @@ func TestAnalyzeBatchBufferReuse(t *testing.T) {
 	files := []string{
 		filepath.Join(spectraDir, "scipy_hbeta_window_snr100.csv"),
 		filepath.Join(spectraDir, "scipy_bench_2048.csv"),
-		filepath.Join("..", "testdata", "example_hbeta.json"),
+		filepath.Join("testdata", "example_hbeta.json"),
 		filepath.Join(spectraDir, "scipy_wide_snr100.csv"),
 		filepath.Join(spectraDir, "scipy_halpha_window_snr100.csv"),
 	}

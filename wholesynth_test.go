@@ -1,4 +1,4 @@
-package server
+package main
 
 // Accuracy of the two analysis routes (spectrum.ModelLines, the line by
 // line fits, and spectrum.ModelWhole, the whole-spectrum fit) on an
@@ -10,7 +10,7 @@ package server
 // numpy/scipy line-by-line script (testdata/wholesynth/scipy_lines.py,
 // output stored in scipy_lines_results.json).
 //
-// `go test ./server/ -run WholeSynth -v` prints, per group (survey,
+// `go test . -run WholeSynth -v` prints, per group (survey,
 // hires): median |n_e error| and |T_exc error| of lines, whole and scipy;
 // the truth within the reported total 1σ and 2σ; how many spectra have a
 // T_exc; and one line per spectrum. By default the tests check that the
@@ -37,7 +37,7 @@ import (
 	"glowlog/diag/spectrum"
 )
 
-const wholeSynthDir = "../testdata/wholesynth"
+const wholeSynthDir = "testdata/wholesynth"
 
 // wsGroups are the groups of gen.py, in report order.
 var wsGroups = []string{"survey", "hires"}

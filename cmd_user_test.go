@@ -1,12 +1,14 @@
-package server
+package main
 
 import (
 	"bytes"
 	"context"
+	"crypto/sha256"
 	"path/filepath"
 	"strings"
 	"testing"
 
+	"glowlog/server"
 	"glowlog/store"
 )
 
@@ -50,11 +52,40 @@ func TestUserAndTokenCommands(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer d.Close()
-	u, err := d.TokenUser(ctx, hashToken(tok))
+	u, err := d.TokenUser(ctx, tokenHash(tok))
 	if err != nil || u.Name != "mira" || u.Role != store.RoleReviewer {
 		t.Errorf("token user %+v, %v", u, err)
 	}
-	if !CheckPassword(u.PasswordHash, "a-long-password") {
+	if !server.CheckPassword(u.PasswordHash, "a-long-password") {
 		t.Error("password not stored")
+	}
+}
+
+// tokenHash is how the server stores an API token (SHA-256 of the token:
+// server/auth.go hashToken).
+func tokenHash(tok string) []byte {
+	h := sha256.Sum256([]byte(tok))
+	return h[:]
+}
+
+// TestAuditCLIActor: a change made by a command (glowlog user add) is in
+// the audit trail as made through the command line, by no signed-in user.
+func TestAuditCLIActor(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "cli.db")
+	var out, errb bytes.Buffer
+	if code := UserCommand([]string{"add", "mira", "--role", "reviewer", "--db", path}, strings.NewReader("a-long-password\n"), &out, &errb); code != ExitOK {
+		t.Fatalf("user add: %d %s", code, errb.String())
+	}
+	db, err := store.Open(context.Background(), path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer db.Close()
+	es, err := db.AuditLog(context.Background(), store.AuditFilter{Kind: store.AuditUser})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(es) != 1 || es[0].Via != store.ViaCLI || es[0].ActorID != nil {
+		t.Errorf("user add entries: %+v", es)
 	}
 }

@@ -1,4 +1,4 @@
-package server
+package main
 
 import (
 	"io"
@@ -13,9 +13,9 @@ import (
 // the route of .ci/bench's ratio) and the default route (default). One op
 // is one batch of 100 files. Profile it with
 //
-//	go test ./server/ -run '^$' -bench AnalyzeFiles/lines -cpu 1 -cpuprofile cpu.out
+//	go test . -run '^$' -bench AnalyzeFiles/lines -cpu 1 -cpuprofile cpu.out
 func BenchmarkAnalyzeFiles(b *testing.B) {
-	src, err := os.ReadFile("../testdata/spectra/scipy_bench_2048.csv")
+	src, err := os.ReadFile("testdata/spectra/scipy_bench_2048.csv")
 	if err != nil {
 		b.Fatal(err)
 	}

@@ -1,4 +1,4 @@
-package server
+package main
 
 import (
 	"bufio"
@@ -9,6 +9,7 @@ import (
 	"io"
 	"strings"
 
+	"glowlog/server"
 	"glowlog/store"
 )
 
@@ -47,11 +48,11 @@ func UserCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 		return ExitInput
 	}
 	pw := strings.TrimRight(line, "\r\n")
-	if msg := PasswordProblem(pos[0], pw); msg != "" {
+	if msg := server.PasswordProblem(pos[0], pw); msg != "" {
 		fmt.Fprintf(stderr, "glowlog user add: the password (first line of standard input): %s\n", msg)
 		return ExitInput
 	}
-	hash, err := HashPassword(pw)
+	hash, err := server.HashPassword(pw)
 	if err != nil {
 		fmt.Fprintf(stderr, "glowlog user add: %v\n", err)
 		return ExitInput
@@ -65,7 +66,7 @@ func UserCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 	defer db.Close()
 	u, err := db.CreateUser(ctx, pos[0], role, hash)
 	if err != nil {
-		fmt.Fprintf(stderr, "glowlog user add: %s\n", cliMessage(err))
+		fmt.Fprintf(stderr, "glowlog user add: %s\n", server.PlainStoreError(err))
 		if errors.Is(err, store.ErrInvalid) || errors.Is(err, store.ErrConflict) {
 			return ExitInput
 		}
@@ -117,7 +118,7 @@ func TokenCommand(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "glowlog token create: user %q is disabled\n", u.Name)
 		return ExitInput
 	}
-	tok, h := NewToken()
+	tok, h := server.NewToken()
 	if _, err := db.CreateToken(ctx, u.ID, strings.TrimSpace(*label), h); err != nil {
 		fmt.Fprintf(stderr, "glowlog token create: %v\n", err)
 		return ExitError
@@ -125,13 +126,4 @@ func TokenCommand(args []string, stdout, stderr io.Writer) int {
 	fmt.Fprintln(stdout, tok)
 	fmt.Fprintf(stderr, "glowlog: new API token for %q printed above; it is shown only this once\n", u.Name)
 	return ExitOK
-}
-
-// cliMessage strips the store's prefixes from a user-facing error.
-func cliMessage(err error) string {
-	m := err.Error()
-	for _, p := range []string{"store: invalid: ", "store: conflict: "} {
-		m = strings.TrimPrefix(m, p)
-	}
-	return m
 }

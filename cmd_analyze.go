@@ -1,4 +1,4 @@
-package server
+package main
 
 import (
 	"bytes"
@@ -17,6 +17,7 @@ import (
 	"glowlog/diag/mset"
 	"glowlog/diag/specfile"
 	"glowlog/diag/spectrum"
+	"glowlog/server"
 )
 
 // Exit codes of the commands.
@@ -99,7 +100,7 @@ flags (spectra only):
 	fs.Float64Var(&c.instGUnc, "instrument-fwhm-unc-nm", 0, "1σ of the instrument's Gaussian FWHM, nm (enters the systematic σ of n_e)")
 	fs.Float64Var(&c.electronT, "electron-temperature-K", 0, fmt.Sprintf("electron temperature of the Stark tables, K (default %g)", diag.DefaultElectronTemperatureK))
 	fs.StringVar(&c.opt.LineShape, "line-shape", "stark", "line shape of the spectrum fits: stark (Voigt fits corrected for the Stark shape of Balmer lines) or voigt (as fitted, for Voigt-shaped synthetic spectra)")
-	fs.StringVar(&c.opt.Model, "model", "", "analysis route of spectra: whole (one physical model fitted over the whole range: areas tied by T_exc, every Stark width by one n_e) or lines (each line's window on its own, then the Boltzmann plot and the widths); default: "+defaultModel+". Measurement sets are always analysed line by line")
+	fs.StringVar(&c.opt.Model, "model", "", "analysis route of spectra: whole (one physical model fitted over the whole range: areas tied by T_exc, every Stark width by one n_e) or lines (each line's window on its own, then the Boltzmann plot and the widths); default: "+server.DefaultModel+". Measurement sets are always analysed line by line")
 	fs.StringVar(&c.opt.WholeAreas, "areas", "", "whole route only: boltzmann (line areas tied by T_exc, the default) or free (each line its own area; T_exc from a Boltzmann plot of them)")
 	fs.BoolVar(&c.opt.WholeFreeGasTemperature, "free-gas-temperature", false, "whole route only: fit the gas temperature (the Doppler width) instead of taking it as given")
 	fs.BoolVar(&c.opt.WholeFreeInstrument, "free-instrument", false, "whole route only: fit the instrument's Gaussian width and its slope with wavelength instead of taking them as given")
@@ -505,46 +506,7 @@ func (c *analyzeConfig) readCurve(src string, data []byte, minPoints int) (*spec
 // specfile.ReadBytes; nil: new arrays): the spectrum's arrays are valid
 // until pts is used again.
 func (c *analyzeConfig) readCurveInto(src string, data []byte, minPoints int, pts *specfile.Buffers) (*spectrum.Spectrum, error) {
-	opt := specfile.Options{Limits: specfile.Limits{MinPoints: minPoints}}
-	switch c.format {
-	case "text":
-		opt.Format = specfile.FormatText
-	case "jcamp":
-		opt.Format = specfile.FormatJCAMP
-	case "auto", "measurement":
-	default:
-		return nil, fmt.Errorf("unknown --format %q (want auto, measurement, text or jcamp)", c.format)
-	}
-	if c.xUnit != "" {
-		u, err := parseAxisUnit(c.xUnit)
-		if err != nil {
-			return nil, err
-		}
-		opt.Text.XUnit = u
-	}
-	s, err := specfile.ReadBytes(src, data, opt, pts)
-	if err != nil {
-		return nil, err
-	}
-	vacuum := c.vacuum || s.XUnit == specfile.WavenumberPerCM
-	if err := s.ToWavelengthNM(); err != nil { // in place: the file's axis is not needed
-		return nil, fmt.Errorf("%s: %v (give --x-unit nm, angstrom, um or cm-1)", src, strings.TrimPrefix(err.Error(), "specfile: "))
-	}
-	return &spectrum.Spectrum{Name: src, WavelengthNM: s.X, Counts: s.Y, Vacuum: vacuum}, nil
-}
-
-func parseAxisUnit(s string) (specfile.AxisUnit, error) {
-	switch strings.ToLower(s) {
-	case "nm":
-		return specfile.NM, nil
-	case "angstrom", "a", "å":
-		return specfile.Angstrom, nil
-	case "um", "µm", "micrometer":
-		return specfile.Micrometer, nil
-	case "cm-1", "1/cm", "cm^-1":
-		return specfile.WavenumberPerCM, nil
-	}
-	return 0, fmt.Errorf("unknown --x-unit %q (want nm, angstrom, um or cm-1)", s)
+	return server.ReadCurve(src, data, server.CurveOptions{Format: c.format, XUnit: c.xUnit, Vacuum: c.vacuum, MinPoints: minPoints}, pts)
 }
 
 // load checks the flags and reads the files shared by every spectrum.
@@ -725,9 +687,9 @@ func checkRouteFlags(o spectrum.Options) error {
 	if o.WholeFreeInstrument {
 		given = append(given, "--free-instrument")
 	}
-	st := AnalysisSettings{Model: o.Model}
-	if len(given) > 0 && st.effectiveModel() != spectrum.ModelWhole {
-		return fmt.Errorf("%s: only the whole-spectrum fit uses it; give --model whole (the route is %s)", strings.Join(given, ", "), st.effectiveModel())
+	st := server.AnalysisSettings{Model: o.Model}
+	if len(given) > 0 && st.EffectiveModel() != spectrum.ModelWhole {
+		return fmt.Errorf("%s: only the whole-spectrum fit uses it; give --model whole (the route is %s)", strings.Join(given, ", "), st.EffectiveModel())
 	}
 	return nil
 }

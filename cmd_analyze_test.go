@@ -1,4 +1,4 @@
-package server
+package main
 
 import (
 	"bufio"
@@ -10,7 +10,7 @@ import (
 	"testing"
 )
 
-const spectraDir = "../testdata/spectra"
+const spectraDir = "testdata/spectra"
 
 // TestAnalyzeSpectrumFile: a spectrum file with conditions flags gives the
 // analysis JSON with per-line fit results.
@@ -120,7 +120,7 @@ func TestAnalyzeFlagErrors(t *testing.T) {
 		{[]string{"--grey-body-K", "3000", spec}, "need --lamp"},
 		{[]string{"--intensity-unit", "energy", spec}, "response calibration"},
 		{[]string{"--dark", "does-not-exist.csv", spec}, "does-not-exist.csv"},
-		{[]string{"--gas-temperature-K", "1000", "../testdata/example_hbeta.json"}, "carries its own conditions"},
+		{[]string{"--gas-temperature-K", "1000", "testdata/example_hbeta.json"}, "carries its own conditions"},
 		{[]string{"--response", filepath.Join("testdata", "response_narrow.csv"), "--instrument-fwhm-nm", "0.05", spec}, "does not cover"},
 	}
 	for _, c := range cases {
@@ -197,7 +197,7 @@ func TestAnalyzeExtremeValues(t *testing.T) {
 		}
 	}
 
-	files := []string{big, sig, tiny, deep, "../testdata/example_hbeta.json"}
+	files := []string{big, sig, tiny, deep, "testdata/example_hbeta.json"}
 	out.Reset()
 	errb.Reset()
 	if code := AnalyzeCommand(files, nil, &out, &errb); code != ExitInput {

@@ -1,4 +1,4 @@
-package server
+package main
 
 // Accuracy and coverage of the spectrum pipeline on independent synthetic
 // spectra shaped by the Stehlé & Hutcheon (1999) Stark–Doppler profiles
@@ -23,7 +23,7 @@ import (
 	"glowlog/diag/sh99"
 )
 
-const sh99SynthDir = "../testdata/sh99synth"
+const sh99SynthDir = "testdata/sh99synth"
 
 // sh99Truth is the part of a truth file the harness uses.
 type sh99Truth struct {

@@ -1,4 +1,4 @@
-package server
+package main
 
 import (
 	"bytes"
@@ -8,6 +8,7 @@ import (
 
 	"glowlog/diag"
 	"glowlog/diag/spectrum"
+	"glowlog/server"
 	"glowlog/views"
 )
 
@@ -33,7 +34,7 @@ func writeTextSummary(buf *bytes.Buffer, src string, r any) {
 	}
 	route := "line by line (a measurement set always is)"
 	if sr != nil {
-		route = modelLabel(resultModel(sr))
+		route = server.ModelLabel(server.ResultModel(sr))
 	}
 	fmt.Fprintf(buf, "%s\n  route: %s\n", src, route)
 	tw := tabwriter.NewWriter(buf, 0, 4, 2, ' ', 0)
@@ -86,7 +87,7 @@ func writeWholeText(buf *bytes.Buffer, w *spectrum.WholeFit, d *diag.Result) {
 		areas = "free line areas"
 	}
 	fmt.Fprintf(buf, "  whole-spectrum fit: %s; reduced χ² %s with %d degrees of freedom, %d pixels %s–%s nm, %d iterations, %s\n",
-		areas, views.SigFig(w.ReducedChi2, 3), w.DOF, w.Pixels, shortNM(w.RangeNM[0]), shortNM(w.RangeNM[1]), w.Iterations, state)
+		areas, views.SigFig(w.ReducedChi2, 3), w.DOF, w.Pixels, server.ShortNM(w.RangeNM[0]), server.ShortNM(w.RangeNM[1]), w.Iterations, state)
 	tw := tabwriter.NewWriter(buf, 0, 4, 2, ' ', 0)
 	for _, p := range w.Params {
 		label := p.Label
@@ -94,7 +95,7 @@ func writeWholeText(buf *bytes.Buffer, w *spectrum.WholeFit, d *diag.Result) {
 			label = p.Name
 		}
 		val := p.Value
-		v := plainNum(val)
+		v := server.PlainNum(val)
 		if p.Fixed {
 			v += " (fixed)"
 		} else if p.Unc > 0 {
@@ -123,7 +124,7 @@ func writeWholeText(buf *bytes.Buffer, w *spectrum.WholeFit, d *diag.Result) {
 		}
 	}
 	fmt.Fprintf(buf, "  routes disagree beyond their σ: %s\n", disagree)
-	for _, t := range otherModelTexts(w) {
+	for _, t := range server.OtherModelTexts(w) {
 		fmt.Fprintf(buf, "  Stark theory (not in the whole fit's σ): %s\n", t)
 	}
 	if w.DopplerNote != "" {

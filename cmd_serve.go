@@ -1,4 +1,4 @@
-package server
+package main
 
 import (
 	"context"
@@ -12,10 +12,10 @@ import (
 	"os"
 	"os/signal"
 	"path/filepath"
-	"runtime/debug"
 	"syscall"
 	"time"
 
+	"glowlog/server"
 	"glowlog/store"
 )
 
@@ -36,18 +36,18 @@ func ServeCommand(args []string, stdout, stderr io.Writer) int {
 	dbPath := fs.String("db", envOr("GLOWLOG_DB", DefaultDB), "SQLite database file (env GLOWLOG_DB)")
 	noDemo := fs.Bool("no-demo", os.Getenv("GLOWLOG_NO_DEMO") != "", "do not seed the demo scenario into an empty database (env GLOWLOG_NO_DEMO)")
 	secure := fs.Bool("secure-cookies", os.Getenv("GLOWLOG_SECURE_COOKIES") != "", "mark cookies Secure (behind TLS) (env GLOWLOG_SECURE_COOKIES)")
-	proxies := envList("GLOWLOG_TRUSTED_PROXY")
+	proxies := server.EnvList("GLOWLOG_TRUSTED_PROXY")
 	fs.Func("trusted-proxy", "believe X-Forwarded-For and X-Forwarded-Proto only from this proxy address or CIDR range; repeatable (env GLOWLOG_TRUSTED_PROXY, comma-separated)",
 		func(v string) error { proxies = append(proxies, v); return nil })
 	syncMode := fs.String("sync", envOr("GLOWLOG_SYNC", store.SyncNormal), "when commits reach the disk: normal (a commit survives a crash of glowlog; the last ones can be lost on power loss) or full (fsync at every commit; survives power loss) (env GLOWLOG_SYNC)")
-	var bk BackupSchedule
+	var bk server.BackupSchedule
 	fs.StringVar(&bk.Dir, "backup-dir", os.Getenv("GLOWLOG_BACKUP_DIR"), "write checked backups into DIR on a schedule (env GLOWLOG_BACKUP_DIR)")
 	fs.DurationVar(&bk.Every, "backup-every", 6*time.Hour, "interval of scheduled backups")
 	fs.IntVar(&bk.Keep, "backup-keep", 14, "how many scheduled backups to keep (the newest)")
 	if err := ParseInterleaved(fs, args); err != nil {
 		return flagExit(err)
 	}
-	trusted, err := ParseTrustedProxies(proxies)
+	trusted, err := server.ParseTrustedProxies(proxies)
 	if err != nil {
 		fmt.Fprintf(stderr, "glowlog serve: %v\n", err)
 		return ExitInput
@@ -65,45 +65,22 @@ func ServeCommand(args []string, stdout, stderr io.Writer) int {
 	log := slog.New(slog.NewTextHandler(stderr, nil))
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer stop()
-	if err := serve(ctx, *addr, *dbPath, !*noDemo, Options{SecureCookies: *secure, TrustedProxies: trusted}, log, stdout, extra); err != nil {
+	if err := serve(ctx, *addr, *dbPath, !*noDemo, server.Options{SecureCookies: *secure, TrustedProxies: trusted}, log, stdout, extra); err != nil {
 		fmt.Fprintf(stderr, "glowlog serve: %v\n", err)
 		return ExitError
 	}
 	return ExitOK
 }
 
-func envOr(k, def string) string {
-	if v := os.Getenv(k); v != "" {
-		return v
-	}
-	return def
-}
-
 // serveOptions are the storage settings of serve: durability and
 // scheduled backups.
 type serveOptions struct {
 	Store   store.Options
-	Backups BackupSchedule
+	Backups server.BackupSchedule
 }
 
-// serveMemoryLimit is serve's soft limit of the Go heap (unless GOMEMLIMIT
-// is set): near it the garbage collector runs more often instead of
-// letting the heap grow to twice what is live, so that a server with a
-// million runs (a cached trend of all of them is about 90 MB) stays within
-// 250 MB resident. It is soft: a heap that needs more gets more.
-const serveMemoryLimit = 170 << 20
-
-// setServeMemoryLimit applies serveMemoryLimit unless the environment
-// sets GOMEMLIMIT, and returns the limit in force.
-func setServeMemoryLimit() int64 {
-	if os.Getenv("GOMEMLIMIT") == "" {
-		debug.SetMemoryLimit(serveMemoryLimit)
-	}
-	return debug.SetMemoryLimit(-1)
-}
-
-func serve(ctx context.Context, addr, dbPath string, demo bool, opt Options, log *slog.Logger, stdout io.Writer, extra serveOptions) error {
-	setServeMemoryLimit()
+func serve(ctx context.Context, addr, dbPath string, demo bool, opt server.Options, log *slog.Logger, stdout io.Writer, extra serveOptions) error {
+	server.SetMemoryLimit()
 	if dir := filepath.Dir(dbPath); dir != "." {
 		if err := os.MkdirAll(dir, 0o755); err != nil {
 			return err
@@ -116,8 +93,8 @@ func serve(ctx context.Context, addr, dbPath string, demo bool, opt Options, log
 	defer db.Close()
 	log.Info("database", "file", dbPath, "sync", extra.Store.Sync, "backup_dir", extra.Backups.Dir)
 	opt.Log = log
-	s := New(db, opt)
-	if err := s.bootstrap(ctx, demo, stdout); err != nil {
+	s := server.New(db, opt)
+	if err := s.Bootstrap(ctx, demo, stdout); err != nil {
 		return err
 	}
 	if extra.Backups.Dir != "" {
@@ -126,7 +103,7 @@ func serve(ctx context.Context, addr, dbPath string, demo bool, opt Options, log
 		}
 		bctx, stopBackups := context.WithCancel(ctx)
 		done := make(chan struct{})
-		go func() { defer close(done); runBackups(bctx, db, extra.Backups, log) }()
+		go func() { defer close(done); server.RunBackups(bctx, db, extra.Backups, log) }()
 		defer func() { stopBackups(); <-done }() // before db.Close
 	}
 	// Load the trend column store (and read the default trend: all runs,
@@ -160,37 +137,6 @@ func serve(ctx context.Context, addr, dbPath string, demo bool, opt Options, log
 	sctx, cancel := context.WithTimeout(context.Background(), 10*time.Second)
 	defer cancel()
 	err = srv.Shutdown(sctx)
-	s.Jobs.Wait()
-	s.tokenUse.wait()
+	s.WaitBackground()
 	return err
-}
-
-// bootstrap creates the first admin (printing a one-time password) and
-// seeds the demo scenario into an empty database.
-func (s *Server) bootstrap(ctx context.Context, demo bool, stdout io.Writer) error {
-	n, err := s.DB.CountUsers(ctx)
-	if err != nil {
-		return err
-	}
-	if n > 0 {
-		return nil
-	}
-	pw, _ := NewToken()
-	pw = pw[:20]
-	hash, err := HashPassword(pw)
-	if err != nil {
-		return err
-	}
-	admin, err := s.DB.CreateUserMustChange(ctx, "admin", store.RoleAdmin, hash, true)
-	if err != nil {
-		return err
-	}
-	fmt.Fprintf(stdout, "glowlog: created account %q with the one-time password %s (it must be changed at first sign-in)\n", admin.Name, pw)
-	if demo {
-		fmt.Fprintln(stdout, "glowlog: seeding the demo scenario (invented lab; --no-demo skips this)…")
-		if err := SeedDemo(ctx, s, admin.ID, DemoOptions{}); err != nil {
-			return fmt.Errorf("demo data: %w", err)
-		}
-	}
-	return nil
 }

@@ -1,6 +1,6 @@
 //go:build !linux
 
-package server
+package main
 
 func readLimitedInto(buf []byte, name string, limit int64) ([]byte, error) {
 	return readLimitedFile(buf, name, limit)
