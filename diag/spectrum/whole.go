@@ -503,7 +503,7 @@ func (f *wholeFitter) beyondEdge() (ne float64, ok bool) {
 		if !l.shapeSH {
 			continue
 		}
-		if t, ok := l.sh.CoveringTemperature(ne, f.te); ok && t != f.tOf(l) && math.Abs(math.Log(t/f.te)) <= wholeStandInMaxLn {
+		if t, ok := f.standInT(l, ne); ok && t != f.tOf(l) {
 			return ne, true
 		}
 	}
@@ -516,6 +516,14 @@ func (f *wholeFitter) reset(opt Options, m diag.Measurement) {
 		x: f.x[:0], a: f.a[:0], b: f.b[:0], y: f.y[:0], s: f.s[:0], leg: f.leg[:0],
 		th: f.th, model: f.model, jac: f.jac, linSol: f.linSol, sens: f.sens, wbuf: f.wbuf, mbuf: f.mbuf,
 		pool: f.pool, lines: f.lines[:0], ws: f.ws}
+}
+
+// standInT returns the temperature at which line l's SH99 tables cover
+// ne: T_e itself, or the nearest temperature node within a factor
+// exp(wholeStandInMaxLn) of it. ok is false when none does.
+func (f *wholeFitter) standInT(l *wline, ne float64) (float64, bool) {
+	t, ok := l.sh.CoveringTemperature(ne, f.te)
+	return t, ok && math.Abs(math.Log(t/f.te)) <= wholeStandInMaxLn
 }
 
 // tOf returns the temperature at which line l reads its SH99 tables:
@@ -621,7 +629,7 @@ func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
 			// Hβ at 8000 K, n_e 27 % low) is far worse than the shape
 			// at a nearby temperature. The temperature step is added to
 			// the line's T_e uncertainty (densitySys).
-			if t, ok := l.sh.CoveringTemperature(ne0, f.te); ok && t != f.te && math.Abs(math.Log(t/f.te)) <= wholeStandInMaxLn {
+			if t, ok := f.standInT(l, ne0); ok && t != f.te {
 				l.teK = t
 				l.teRel = math.Hypot(f.teRel, math.Log(t/f.te))
 				f.notes = append(f.notes, fmt.Sprintf("%s: the SH99 tables do not give n_e ≈ %.3g m⁻³ at T_e = %.0f K; its shape is read at the nearest temperature that does, %.0f K, and the step is added to the electron-temperature part of σ_sys", l.t.Name(), ne0, f.te, t))
