@@ -311,7 +311,7 @@ func OtherModelTexts(w *spectrum.WholeFit) []string {
 	var out []string
 	for _, m := range w.OtherModels {
 		width := "FWHM"
-		if strings.Contains(m.Relation, "fwha") {
+		if r, err := diag.LookupStarkRelation(m.Relation); err == nil && r.Kind == diag.FWHA {
 			width = "FWHA"
 		}
 		out = append(out, fmt.Sprintf("%s: for its SH99 Stark %s at this n_e (%s nm), %s gives %s m⁻³ (%s %%)",
