@@ -133,9 +133,12 @@ type LineResult struct {
 	// DensityLowerLimit is true when n_e is only a lower limit (Stark
 	// width far below the Gaussian width: ShapeBiasRel).
 	DensityLowerLimit bool `json:"electron_density_lower_limit,omitempty"`
-	// Densities lists the density of every applicable Stark model.
-	Densities []DensityEstimate `json:"densities"`
-	Notes     []string          `json:"notes,omitempty"`
+	// Densities lists the density of every applicable Stark model;
+	// DensitiesNotApplying the models tried on the line's width that gave
+	// none, with why (outside their tables or range).
+	Densities            []DensityEstimate  `json:"densities"`
+	DensitiesNotApplying []ModelNotApplying `json:"densities_not_applying,omitempty"`
+	Notes                []string           `json:"notes,omitempty"`
 	// ProfileFit is set when the line was fitted in a spectrum; its fields
 	// appear inline (center_nm, gauss_fwhm_nm, …).
 	*ProfileFit

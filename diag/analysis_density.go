@@ -22,6 +22,12 @@ type DensityEstimate struct {
 	Preferred bool `json:"preferred"`
 }
 
+// ModelNotApplying is a Stark model that gave a line no density.
+type ModelNotApplying struct {
+	Relation string `json:"relation"`
+	Reason   string `json:"reason"`
+}
+
 // UncPart is one named part of a systematic uncertainty (1σ).
 type UncPart struct {
 	Name  string  `json:"name"`
@@ -144,6 +150,7 @@ func lineDensities(lr *LineResult, in lineWidthInput, m Measurement, te float64,
 				msg = strings.TrimPrefix(err.Error(), "diag: ")
 			}
 			lr.note(FlagModelRange, "%s does not apply (%s)", r.ID, msg)
+			lr.DensitiesNotApplying = append(lr.DensitiesNotApplying, ModelNotApplying{r.ID, msg})
 			continue
 		}
 		e := est{r: r, ne: ne, p: r.LocalExponent(ne, te), inRange: ne >= r.MinNeM3 && (r.MaxNeM3 == 0 || ne <= r.MaxNeM3)}

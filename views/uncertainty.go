@@ -174,34 +174,22 @@ func modelFamilies(d *diag.Result) []string {
 		if len(l.Densities) == 0 {
 			continue
 		}
-		for _, n := range l.Notes {
-			if id, _, ok := notApplying(n); ok {
-				if f := modelFamily(id); !seen[f] {
-					seen[f] = true
-					out = append(out, f)
-				}
+		for _, m := range l.DensitiesNotApplying {
+			if f := modelFamily(m.Relation); !seen[f] {
+				seen[f] = true
+				out = append(out, f)
 			}
 		}
 	}
 	return out
 }
 
-// notApplying parses a line note "ID does not apply (reason)" (written by
-// the analysis for a Stark model that does not cover the line's width).
-func notApplying(note string) (id, reason string, ok bool) {
-	id, rest, found := strings.Cut(note, " does not apply (")
-	if !found || strings.ContainsRune(id, ' ') || !strings.HasSuffix(rest, ")") {
-		return "", "", false
-	}
-	return id, strings.TrimPrefix(strings.TrimSuffix(rest, ")"), "sh99: "), true
-}
-
 // modelNotApplying returns why the model family fam gave the line no
 // density ("" when the analysis did not say).
 func modelNotApplying(l diag.LineResult, fam string) string {
-	for _, n := range l.Notes {
-		if id, reason, ok := notApplying(n); ok && modelFamily(id) == fam {
-			return reason
+	for _, m := range l.DensitiesNotApplying {
+		if modelFamily(m.Relation) == fam {
+			return strings.TrimPrefix(m.Reason, "sh99: ")
 		}
 	}
 	return ""

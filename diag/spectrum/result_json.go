@@ -1027,6 +1027,26 @@ func appendJSONDiagLineResult(b []byte, v *diag.LineResult) ([]byte, error) {
 		}
 		b = append(b, ']')
 	}
+	if len(v.DensitiesNotApplying) != 0 {
+		if len(b) > n0 {
+			b = append(b, ',')
+		}
+		b = append(b, "\"densities_not_applying\":"...)
+		if v.DensitiesNotApplying == nil {
+			b = append(b, "null"...)
+		} else {
+			b = append(b, '[')
+			for i2 := range v.DensitiesNotApplying {
+				if i2 > 0 {
+					b = append(b, ',')
+				}
+				if b, err = appendJSONDiagModelNotApplying(b, &v.DensitiesNotApplying[i2]); err != nil {
+					return b, err
+				}
+			}
+			b = append(b, ']')
+		}
+	}
 	if len(v.Notes) != 0 {
 		if len(b) > n0 {
 			b = append(b, ',')
@@ -2067,6 +2087,25 @@ func appendJSONDiagDensityEstimate(b []byte, v *diag.DensityEstimate) ([]byte, e
 	}
 	b = append(b, "\"preferred\":"...)
 	b = strconv.AppendBool(b, bool(v.Preferred))
+	_ = err
+	return append(b, '}'), nil
+}
+
+func appendJSONDiagModelNotApplying(b []byte, v *diag.ModelNotApplying) ([]byte, error) {
+	var err error
+	b = append(b, '{')
+	n0 := len(b)
+	_ = n0
+	if len(b) > n0 {
+		b = append(b, ',')
+	}
+	b = append(b, "\"relation\":"...)
+	b = appendJSONString(b, string(v.Relation))
+	if len(b) > n0 {
+		b = append(b, ',')
+	}
+	b = append(b, "\"reason\":"...)
+	b = appendJSONString(b, string(v.Reason))
 	_ = err
 	return append(b, '}'), nil
 }
