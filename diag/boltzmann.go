@@ -367,11 +367,21 @@ func sensitivityFlags(res BoltzmannResult) []Flag {
 		out = append(out, Flag{Code: FlagLowSensitivity, Message: fmt.Sprintf(
 			"the upper levels span only ΔE = %.3g eV = %.2g k_BT: a 10 %% relative intensity error between the extreme lines (e.g. a calibration tilt) moves the excitation temperature by about %s K", res.EnergySpreadEV, ratio, sci(dT, 2))})
 	}
-	if res.TemperatureUncK > 0.2*res.TemperatureK {
-		out = append(out, Flag{Code: FlagWideUncertainty, Message: fmt.Sprintf(
-			"the excitation temperature is uncertain by more than 20 %% (%s ± %s K): quote at most two significant figures", sci(res.TemperatureK, 2), sci(res.TemperatureUncK, 2))})
+	if f, ok := WideUncertaintyFlag(res.TemperatureK, res.TemperatureUncK); ok {
+		out = append(out, f)
 	}
 	return out
+}
+
+// WideUncertaintyFlag returns FlagWideUncertainty for an excitation
+// temperature tK whose 1σ uncK is more than 20 % of it (ok false
+// otherwise): the Boltzmann plot's, or the whole-spectrum fit's total.
+func WideUncertaintyFlag(tK, uncK float64) (Flag, bool) {
+	if !(uncK > 0.2*tK) {
+		return Flag{}, false
+	}
+	return Flag{Code: FlagWideUncertainty, Message: fmt.Sprintf(
+		"the excitation temperature is uncertain by more than 20 %% (%s ± %s K): quote at most two significant figures", sci(tK, 2), sci(uncK, 2))}, true
 }
 
 // offLineFlags tests Hα (n = 3) and Hβ (n = 4) against the line through

@@ -820,7 +820,7 @@ func selectK(v []float64, k int) float64 {
 var (
 	linesRouteDensityFlags = []string{diag.FlagRelationRange, diag.FlagDensityDisagree, diag.FlagModelRange,
 		diag.FlagShapeBound, diag.FlagDensityScatter}
-	linesRouteTexcFlags = []string{diag.FlagTooFewLines, diag.FlagPartialLTE, diag.FlagScaledUnc}
+	linesRouteTexcFlags = []string{diag.FlagTooFewLines, diag.FlagPartialLTE, diag.FlagScaledUnc, diag.FlagWideUncertainty}
 )
 
 // demoteLinesRouteFlags: when the whole-spectrum fit gives the reported
@@ -841,6 +841,13 @@ func demoteLinesRouteFlags(res *Result) {
 			res.ExcitationTemperatureK != nil && slices.Contains(linesRouteTexcFlags, f.Code) {
 			f.Severity = diag.SeverityNote
 			f.Message = "line-by-line route (shown beside the whole-spectrum fit): " + f.Message
+		}
+	}
+	// The reported T_exc's own width: the whole fit's total σ.
+	if t, u := res.ExcitationTemperatureK, res.ExcitationTemperatureUncK; t != nil && u != nil {
+		if f, ok := diag.WideUncertaintyFlag(*t, *u); ok {
+			f.Severity = diag.SeverityOf(f.Code)
+			res.Flags = append(res.Flags, f)
 		}
 	}
 }

@@ -559,3 +559,38 @@ func TestWholePressureParts(t *testing.T) {
 		}
 	}
 }
+
+// TestWholeTexcWideUncertainty: the caution that T_exc is uncertain by
+// more than 20 % speaks of the reported T_exc. With the whole fit
+// reporting 10100 ± 1100 K, the line-by-line Boltzmann plot's 11000 ±
+// 2300 K caution (testdata/wholesynth/survey_07) becomes that route's
+// note, and none is raised for the reported value; a reported 10000 ±
+// 2500 K raises it, with the whole fit's numbers.
+func TestWholeTexcWideUncertainty(t *testing.T) {
+	lines, ok := diag.WideUncertaintyFlag(11000, 2300)
+	if !ok {
+		t.Fatal("11000 ± 2300 K: no flag (test premise)")
+	}
+	lines.Severity = diag.SeverityOf(lines.Code)
+	for _, c := range []struct {
+		t, u float64
+		want bool
+	}{{10100, 1100, false}, {10000, 2500, true}} {
+		res := Result{Model: ModelWhole}
+		res.ExcitationTemperatureK, res.ExcitationTemperatureUncK = fptr(c.t), fptr(c.u)
+		res.Flags = []diag.Flag{lines}
+		demoteLinesRouteFlags(&res)
+		var cautions []diag.Flag
+		for _, f := range res.Flags {
+			if f.Code == diag.FlagWideUncertainty && f.Severity == diag.SeverityCaution {
+				cautions = append(cautions, f)
+			}
+		}
+		if res.Flags[0].Severity != diag.SeverityNote || !strings.HasPrefix(res.Flags[0].Message, "line-by-line route") {
+			t.Errorf("%g ± %g K: the lines route's flag is %+v, want its note", c.t, c.u, res.Flags[0])
+		}
+		if got := len(cautions) == 1 && strings.Contains(cautions[0].Message, "10000 ± 2500 K"); got != c.want || (!c.want && len(cautions) > 0) {
+			t.Errorf("%g ± %g K: cautions %+v, want one for the reported value: %v", c.t, c.u, cautions, c.want)
+		}
+	}
+}
