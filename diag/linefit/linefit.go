@@ -664,11 +664,19 @@ func (f *Fitter) normal(p *Problem, model, jac []float64) {
 	}
 	for a := range np {
 		ca := jac[a*n : a*n+n]
-		f.grad[a] = dot(ca, rw)
-		for b := a; b < np; b++ {
+		// Two dot products per pass over ca (the gradient's and the
+		// diagonal's first, then pairs of columns): each the same sums
+		// in the same order as dot, twice the independent additions.
+		b := a
+		f.grad[a], ata[a*np+a] = dot2(ca, rw, jac[b*n:b*n+n])
+		for b++; b+1 < np; b += 2 {
+			v, u := dot2(ca, jac[b*n:b*n+n], jac[(b+1)*n:(b+1)*n+n])
+			ata[a*np+b], ata[b*np+a] = v, v
+			ata[a*np+b+1], ata[(b+1)*np+a] = u, u
+		}
+		if b < np {
 			v := dot(ca, jac[b*n:b*n+n])
-			ata[a*np+b] = v
-			ata[b*np+a] = v
+			ata[a*np+b], ata[b*np+a] = v, v
 		}
 	}
 }
@@ -688,6 +696,30 @@ func dot(a, b []float64) float64 {
 		s0 += a[i] * b[i]
 	}
 	return (s0 + s1) + (s2 + s3)
+}
+
+// dot2 returns dot(a, b) and dot(a, c), bit for bit, from one pass over
+// a; len(b), len(c) ≥ len(a).
+func dot2(a, b, c []float64) (float64, float64) {
+	b, c = b[:len(a)], c[:len(a)]
+	var s0, s1, s2, s3, t0, t1, t2, t3 float64
+	i := 0
+	for ; i+4 <= len(a); i += 4 {
+		a0, a1, a2, a3 := a[i], a[i+1], a[i+2], a[i+3]
+		s0 += a0 * b[i]
+		s1 += a1 * b[i+1]
+		s2 += a2 * b[i+2]
+		s3 += a3 * b[i+3]
+		t0 += a0 * c[i]
+		t1 += a1 * c[i+1]
+		t2 += a2 * c[i+2]
+		t3 += a3 * c[i+3]
+	}
+	for ; i < len(a); i++ {
+		s0 += a[i] * b[i]
+		t0 += a[i] * c[i]
+	}
+	return (s0 + s1) + (s2 + s3), (t0 + t1) + (t2 + t3)
 }
 
 // gradientSmall reports whether every scaled gradient component is at most

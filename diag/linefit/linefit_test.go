@@ -442,3 +442,47 @@ func BenchmarkFitWindow(b *testing.B) {
 		})
 	}
 }
+
+// TestDot2MatchesDot: dot2 is two dot products with dot's sums in dot's
+// order, bit for bit, for every length (the four-wide loop and its tail)
+// and values of many magnitudes, signs and specials.
+func TestDot2MatchesDot(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 5))
+	val := func() float64 {
+		switch rng.IntN(20) {
+		case 0:
+			return 0
+		case 1:
+			return math.Copysign(0, -1)
+		case 2:
+			return math.SmallestNonzeroFloat64 * float64(rng.IntN(9))
+		case 3:
+			return math.Inf(1 - 2*rng.IntN(2))
+		case 4:
+			return math.NaN()
+		}
+		return (rng.Float64() - 0.5) * math.Pow(10, float64(rng.IntN(40)-20))
+	}
+	for trial := range 4000 {
+		n := trial % 41
+		a, b, c := make([]float64, n), make([]float64, n+rng.IntN(3)), make([]float64, n+rng.IntN(3))
+		for _, s := range [][]float64{a, b, c} {
+			for i := range s {
+				s[i] = val()
+			}
+		}
+		if trial%3 == 0 { // no specials: finite sums with cancellation
+			for _, s := range [][]float64{a, b, c} {
+				for i := range s {
+					s[i] = (rng.Float64() - 0.5) * math.Pow(10, float64(rng.IntN(12)-6))
+				}
+			}
+		}
+		gb, gc := dot2(a, b, c)
+		wb, wc := dot(a, b), dot(a, c)
+		if math.Float64bits(gb) != math.Float64bits(wb) && !(math.IsNaN(gb) && math.IsNaN(wb)) ||
+			math.Float64bits(gc) != math.Float64bits(wc) && !(math.IsNaN(gc) && math.IsNaN(wc)) {
+			t.Fatalf("n=%d: dot2 = (%v, %v), dot = (%v, %v)", n, gb, gc, wb, wc)
+		}
+	}
+}
