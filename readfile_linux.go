@@ -11,7 +11,8 @@ func readLimitedInto(buf []byte, name string, limit int64) ([]byte, error) {
 }
 
 // readLimitedSys is readLimitedFile by system calls on the descriptor,
-// without an os.File: open, fstat, read until end of file, close. An
+// without an os.File: open, fstat, read until end of file, close (a
+// regular file read whole by one short read needs no read for its end). An
 // os.File costs four fcntl calls and an epoll_ctl at open (to try the
 // runtime's poller, which a regular file refuses), an allocation with a
 // cleanup, and a lock per read, which glowlog analyze paid per file. The
@@ -33,9 +34,13 @@ func readLimitedSys(buf []byte, name string, limit int64) ([]byte, error) {
 	}
 	defer syscall.Close(fd)
 	size := int64(512)
+	whole := int64(-1) // a regular file's size, if it has one
 	var st syscall.Stat_t
 	if syscall.Fstat(fd, &st) == nil && st.Mode&syscall.S_IFMT == syscall.S_IFREG {
 		size = min(st.Size, limit) + 1 // + 1: room to see EOF without growing
+		if st.Size > 0 {
+			whole = st.Size
+		}
 	}
 	b := buf[:0]
 	if int64(cap(b)) < size {
@@ -62,6 +67,14 @@ func readLimitedSys(buf []byte, name string, limit int64) ([]byte, error) {
 		}
 		b = b[:len(b)+n]
 		left -= int64(n)
+		if n < len(p) && int64(len(b)) == whole {
+			// A regular file gives less than asked only at its end:
+			// here, at the size fstat reported, which saves the read
+			// that would return 0. (Files that report another size
+			// than they hold, as those of /proc and /sys, and files
+			// that grew, are read on until a read returns 0.)
+			break
+		}
 	}
 	if int64(len(b)) > limit {
 		return nil, fmt.Errorf("%s: file exceeds the %d-byte limit", name, limit)
