@@ -4,7 +4,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"sort"
 
 	"glowlog/diag"
 	"glowlog/diag/linefit"
@@ -26,8 +25,21 @@ func pixelWidth(x []float64, i int) float64 {
 	return (x[i+1] - x[i-1]) / 2
 }
 
-// index returns the first index with x[i] ≥ v.
-func index(x []float64, v float64) int { return sort.SearchFloat64s(x, v) }
+// index returns the first index with x[i] ≥ v (len(x) if none, as for a
+// NaN v): sort.SearchFloat64s(x, v), by the same bisection without its
+// call per step.
+func index(x []float64, v float64) int {
+	lo, hi := 0, len(x)
+	for lo < hi {
+		h := int(uint(lo+hi) >> 1)
+		if !(x[h] >= v) {
+			lo = h + 1
+		} else {
+			hi = h
+		}
+	}
+	return lo
+}
 
 // candidates finds the Balmer members inside the range, estimates their
 // peak, width and fit window, and marks those below the noise or touching
