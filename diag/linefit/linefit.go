@@ -555,20 +555,36 @@ func (f *Fitter) eval(p *Problem, t, model, jac []float64) float64 {
 	if nb > 2 {
 		b2 = jac[(f.pb+2)*n : (f.pb+3)*n]
 	}
+	// Parameters and columns as locals of known length, so that the
+	// loops below index without bounds tests (the same operations).
+	um, uqs := f.um[:n], f.uq[:n]
+	tb := t[f.pb : f.pb+nb]
+	t0 := tb[0]
+	var t1, t2 float64
+	if nb > 1 {
+		t1 = tb[1]
+		b1 = b1[:n]
+	}
+	if nb > 2 {
+		t2 = tb[2]
+		b2 = b2[:n]
+	}
+	b0 = b0[:n]
 	for i := range n {
-		u, uq := f.um[i], f.uq[i]
-		m := t[f.pb]
+		u, uq := um[i], uqs[i]
+		m := t0
 		b0[i] = sw[i]
 		if nb > 1 {
-			m += t[f.pb+1] * u
+			m += t1 * u
 			b1[i] = sw[i] * u
 		}
 		if nb > 2 {
-			m += t[f.pb+2] * uq
+			m += t2 * uq
 			b2[i] = sw[i] * uq
 		}
 		model[i] = m
 	}
+	pxLo, pxW := f.pxLo[:n], f.pxW[:n]
 	if f.psg >= 0 {
 		clear(jac[f.psg*n : f.psg*n+n])
 	}
@@ -582,12 +598,12 @@ func (f *Fitter) eval(p *Problem, t, model, jac []float64) float64 {
 		if jg < 0 {
 			jg = f.psg
 		}
-		colC := jac[f.pc[k]*n : f.pc[k]*n+n]
-		colA := jac[f.pa[k]*n : f.pa[k]*n+n]
-		colL := jac[f.pl[k]*n : f.pl[k]*n+n]
+		colC := jac[f.pc[k]*n : f.pc[k]*n+n][:n]
+		colA := jac[f.pa[k]*n : f.pa[k]*n+n][:n]
+		colL := jac[f.pl[k]*n : f.pl[k]*n+n][:n]
 		var colG []float64
 		if jg >= 0 {
-			colG = jac[jg*n : jg*n+n]
+			colG = jac[jg*n : jg*n+n][:n]
 		}
 		shared := f.psg >= 0
 		aG := a / voigt.FWHMPerSigma
@@ -608,8 +624,8 @@ func (f *Fitter) eval(p *Problem, t, model, jac []float64) float64 {
 			tay = newTaylor(sigma, gamma)
 		}
 		for i := range n {
-			half := 0.5 * f.pxW[i]
-			d := f.pxLo[i] + half - c
+			half := 0.5 * pxW[i]
+			d := pxLo[i] + half - c
 			var v, dx, ds, dgm float64
 			switch {
 			case nq == 1 || math.Abs(d) > reach+half:
@@ -646,7 +662,7 @@ func (f *Fitter) eval(p *Problem, t, model, jac []float64) float64 {
 		}
 	}
 	var chi2 float64
-	for i, y := range p.Y {
+	for i, y := range p.Y[:n] {
 		r := (y - model[i]) * sw[i]
 		chi2 += r * r
 	}
