@@ -282,16 +282,17 @@ func check(sp *Spectrum, what string) error {
 	if n < MinPixels {
 		return fail(sp.Name, "%s has only %d pixels (need at least %d)", what, n, MinPixels)
 	}
-	for i := range n {
-		x, y := sp.WavelengthNM[i], sp.Counts[i]
+	xs, ys := sp.WavelengthNM, sp.Counts[:n] // ys[:n]: no bounds tests below
+	for i, x := range xs {
+		y := ys[i]
 		if !(x > 0 && x <= math.MaxFloat64) {
 			return fail(sp.Name, "%s: pixel %d has an impossible wavelength %v", what, i+1, x)
 		}
 		if !(y >= -math.MaxFloat64 && y <= math.MaxFloat64) {
 			return fail(sp.Name, "%s: pixel %d (%.4f nm) has a non-finite value %v", what, i+1, x, y)
 		}
-		if i > 0 && x <= sp.WavelengthNM[i-1] {
-			return fail(sp.Name, "%s: wavelengths must increase strictly; pixel %d (%.6g nm) follows %.6g nm", what, i+1, x, sp.WavelengthNM[i-1])
+		if i > 0 && x <= xs[i-1] {
+			return fail(sp.Name, "%s: wavelengths must increase strictly; pixel %d (%.6g nm) follows %.6g nm", what, i+1, x, xs[i-1])
 		}
 	}
 	return nil
@@ -357,6 +358,10 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 	y := grow(&p.y, n)
 	sig := grow(&p.s, n)
 	sat := growBool(&p.sat, n)
+	// Of length n as the compiler can see: the per-pixel loops below index
+	// them without bounds tests.
+	x, y, sig, sat = x[:n], y[:n], sig[:n], sat[:n]
+	counts := sp.Counts[:n]
 	copy(x, sp.WavelengthNM)
 	if opt.Dark != nil {
 		d := opt.Dark
@@ -382,7 +387,7 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 		satLevel, autoSat = autoSaturation(sp.Counts)
 	}
 	for i := range n {
-		c := sp.Counts[i]
+		c := counts[i]
 		sat[i] = satLevel > 0 && c >= satLevel*(1-1e-9)
 		if opt.Dark != nil {
 			c -= opt.Dark.Counts[i]
