@@ -703,10 +703,11 @@ func dot(a, b []float64) float64 {
 	var s0, s1, s2, s3 float64
 	i := 0
 	for ; i+4 <= len(a); i += 4 {
-		s0 += a[i] * b[i]
-		s1 += a[i+1] * b[i+1]
-		s2 += a[i+2] * b[i+2]
-		s3 += a[i+3] * b[i+3]
+		aa, bb := a[i:i+4:i+4], b[i:i+4:i+4]
+		s0 += aa[0] * bb[0]
+		s1 += aa[1] * bb[1]
+		s2 += aa[2] * bb[2]
+		s3 += aa[3] * bb[3]
 	}
 	for ; i < len(a); i++ {
 		s0 += a[i] * b[i]
@@ -721,15 +722,16 @@ func dot2(a, b, c []float64) (float64, float64) {
 	var s0, s1, s2, s3, t0, t1, t2, t3 float64
 	i := 0
 	for ; i+4 <= len(a); i += 4 {
-		a0, a1, a2, a3 := a[i], a[i+1], a[i+2], a[i+3]
-		s0 += a0 * b[i]
-		s1 += a1 * b[i+1]
-		s2 += a2 * b[i+2]
-		s3 += a3 * b[i+3]
-		t0 += a0 * c[i]
-		t1 += a1 * c[i+1]
-		t2 += a2 * c[i+2]
-		t3 += a3 * c[i+3]
+		// Groups of four by three-index slices: one bounds test each.
+		aa, bb, cc := a[i:i+4:i+4], b[i:i+4:i+4], c[i:i+4:i+4]
+		s0 += aa[0] * bb[0]
+		t0 += aa[0] * cc[0]
+		s1 += aa[1] * bb[1]
+		t1 += aa[1] * cc[1]
+		s2 += aa[2] * bb[2]
+		t2 += aa[2] * cc[2]
+		s3 += aa[3] * bb[3]
+		t3 += aa[3] * cc[3]
 	}
 	for ; i < len(a); i++ {
 		s0 += a[i] * b[i]
