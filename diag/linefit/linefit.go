@@ -193,6 +193,12 @@ type Fitter struct {
 	order     []int     // scratch for pixelEdges
 	nodes     []int     // per line: Gauss–Legendre nodes of the last evaluation
 	pixMax    float64   // widest pixel of the window
+
+	// The baseline columns of the Jacobian are the same at every
+	// parameter vector of a fit: their block of JᵀWJ, kept from the
+	// fit's first normal (baseDone, reset by setup).
+	baseATA  [3][3]float64
+	baseDone bool
 }
 
 // NewFitter returns a Fitter for windows of at most maxPoints points and
@@ -464,6 +470,7 @@ func (f *Fitter) setup(p *Problem) {
 		f.uq[i] = (ul*ul + ul*ur + ur*ur) / 3
 	}
 	clear(f.nodes[:len(p.Lines)])
+	f.baseDone = false
 	np := 0
 	f.psg = -1
 	for k, l := range p.Lines {
@@ -680,6 +687,17 @@ func (f *Fitter) normal(p *Problem, model, jac []float64) {
 	}
 	for a := range np {
 		ca := jac[a*n : a*n+n]
+		if a >= f.pb && f.baseDone {
+			// The baseline block of JᵀWJ (the last nb columns, which
+			// do not depend on the parameters) as the first call of
+			// this fit computed it.
+			f.grad[a] = dot(ca, rw)
+			for b := a; b < np; b++ {
+				v := f.baseATA[a-f.pb][b-f.pb]
+				ata[a*np+b], ata[b*np+a] = v, v
+			}
+			continue
+		}
 		// Two dot products per pass over ca (the gradient's and the
 		// diagonal's first, then pairs of columns): each the same sums
 		// in the same order as dot, twice the independent additions.
@@ -694,6 +712,14 @@ func (f *Fitter) normal(p *Problem, model, jac []float64) {
 			v := dot(ca, jac[b*n:b*n+n])
 			ata[a*np+b], ata[b*np+a] = v, v
 		}
+	}
+	if !f.baseDone {
+		for a := f.pb; a < np; a++ {
+			for b := a; b < np; b++ {
+				f.baseATA[a-f.pb][b-f.pb] = ata[a*np+b]
+			}
+		}
+		f.baseDone = true
 	}
 }
 

@@ -486,3 +486,45 @@ func TestDot2MatchesDot(t *testing.T) {
 		}
 	}
 }
+
+// TestNormalBaselineBlockKept: the baseline block of JᵀWJ that normal
+// keeps from a fit's first call is, bit for bit, what it would compute
+// at the solution, for baselines of order 0–2, weighted or not, and for
+// a second fit of another window with the same Fitter (the kept block
+// must be that window's).
+func TestNormalBaselineBlockKept(t *testing.T) {
+	f := NewFitter(400, 2)
+	rng := rand.New(rand.NewPCG(7, 9))
+	for trial, w := range []window{halpha, halpha, halpha,
+		{x0: 485.9, x1: 486.5, n: 90, lines: []Line{{Center: 486.13, Area: 1, GaussFWHM: 0.03, LorentzFWHM: 0.02}}, baseline: [3]float64{2, -1, 4}, snr: 300},
+		{x0: 433.5, x1: 434.6, n: 333, lines: []Line{{Center: 434.0, Area: 1, GaussFWHM: 0.05, LorentzFWHM: 0.01}, {Center: 434.2, Area: 0.3, GaussFWHM: 0.05, LorentzFWHM: 0.01}}, baseline: [3]float64{1, 0.5, 0}, snr: 50},
+	} {
+		x, y0, s := w.make()
+		y := make([]float64, len(x))
+		noisy(rng, y0, s, y)
+		var lines []Line
+		for _, l := range w.lines {
+			lines = append(lines, start(l))
+		}
+		p := &Problem{X: x, Y: y, Lines: lines, BaselineOrder: trial % 3}
+		if trial%2 == 0 {
+			p.Sigma = constSigma(len(x), s*(1+0.1*float64(trial)))
+		}
+		var res Result
+		if err := f.Fit(&res, p); err != nil {
+			t.Fatalf("trial %d: %v", trial, err)
+		}
+		np := f.np
+		kept := append([]float64(nil), f.ata[:np*np]...)
+		f.baseDone = false
+		f.normal(p, f.model, f.jac)
+		for i, v := range f.ata[:np*np] {
+			if math.Float64bits(v) != math.Float64bits(kept[i]) {
+				t.Fatalf("trial %d: JᵀWJ[%d][%d] = %v with the kept baseline block, %v computed", trial, i/np, i%np, kept[i], v)
+			}
+		}
+		if res.Iterations < 2 {
+			t.Fatalf("trial %d: %d iterations: the kept block was not used", trial, res.Iterations)
+		}
+	}
+}
