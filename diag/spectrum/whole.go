@@ -283,6 +283,16 @@ type wholeFitter struct {
 	notes    []string
 	// masked are wavelength intervals left out (saturated lines).
 	masked [][2]float64
+	// Blocks of the normal equations that depend on the pixels alone
+	// (their σ, data and the baseline's Legendre values), built once per
+	// setup and copied in: the baseline–baseline block of JᵀWJ
+	// (normBase, nBase² values, rows in order), and of the linear
+	// solve (linBase, its baseline–baseline block; linBaseG, its
+	// baseline–data part). baseOK says they are of the current setup.
+	normBase, linBase, linBaseG []float64
+	baseOK                      bool
+	// Scratch of linearAreas.
+	linA, linG, linInv, linWork []float64
 }
 
 func (f *wholeFitter) isMasked(lam float64) bool {
@@ -515,7 +525,9 @@ func (f *wholeFitter) reset(opt Options, m diag.Measurement) {
 	*f = wholeFitter{opt: opt, m: m,
 		x: f.x[:0], a: f.a[:0], b: f.b[:0], y: f.y[:0], s: f.s[:0], leg: f.leg[:0],
 		th: f.th, model: f.model, jac: f.jac, linSol: f.linSol, sens: f.sens, wbuf: f.wbuf, mbuf: f.mbuf,
-		pool: f.pool, lines: f.lines[:0], ws: f.ws}
+		pool: f.pool, lines: f.lines[:0], ws: f.ws,
+		normBase: f.normBase, linBase: f.linBase, linBaseG: f.linBaseG,
+		linA: f.linA, linG: f.linG, linInv: f.linInv, linWork: f.linWork}
 }
 
 // standInT returns the temperature at which line l's SH99 tables cover
@@ -561,6 +573,7 @@ func (f *wholeFitter) newLine() *wline {
 // the linear start (free areas and baseline at the starting shapes,
 // then T_exc from them or from the lines route).
 func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
+	f.baseOK = false
 	x := in.x
 	n := len(x)
 	// Lines: every member the search found inside the range, up to the

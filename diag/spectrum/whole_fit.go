@@ -115,24 +115,29 @@ func (f *wholeFitter) assemble(th []float64) (float64, error) {
 		if pr.iIa >= 0 {
 			dE2dG = 2 * g
 		}
-		for i := l.plo; i < l.phi; i++ {
-			j := i - l.plo
-			u := l.u[j]
+		// The per-line factors of the pixels' Jacobian entries (the same
+		// products as per pixel, hoisted).
+		var eS, eB float64
+		if !pr.free {
+			eS = a / math.Max(th[pr.iS], math.SmallestNonzeroFloat64)
+			if th[pr.iS] == 0 {
+				eS = math.Exp(l.lnF - th[pr.iB]*l.dE)
+			}
+			eB = -l.dE * a
+		}
+		us, dns, dus := l.u[:l.phi-l.plo], l.dn[:l.phi-l.plo], l.du[:l.phi-l.plo]
+		for j, u := range us {
+			i := l.plo + j
 			mod[i] += a * u
 			row := jac[i*np : (i+1)*np]
 			if pr.free {
 				row[pr.iA+k] = u
 			} else {
-				e := a / math.Max(th[pr.iS], math.SmallestNonzeroFloat64)
-				if th[pr.iS] != 0 {
-					row[pr.iS] += e * u
-				} else {
-					row[pr.iS] += math.Exp(l.lnF-th[pr.iB]*l.dE) * u
-				}
-				row[pr.iB] += -l.dE * a * u
+				row[pr.iS] += eS * u
+				row[pr.iB] += eB * u
 			}
-			row[pr.iNe] += a * l.dn[j]
-			row[pr.iOff] += a * l.du[j]
+			row[pr.iNe] += a * dns[j]
+			row[pr.iOff] += a * dus[j]
 			if pr.iTg >= 0 {
 				row[pr.iTg] += a * l.dg[j] * dE2dTg
 			}
@@ -153,9 +158,14 @@ func (f *wholeFitter) assemble(th []float64) (float64, error) {
 	return chi2, nil
 }
 
-// normal builds JᵀWJ and JᵀW r at the current state.
+// normal builds JᵀWJ and JᵀW r at the current state. The baseline
+// columns of J are the pixels' Legendre values whatever the state, so the
+// baseline–baseline block of JᵀWJ is built once per setup (baseBlocks,
+// the same sums in the same order) and copied in.
 func (f *wholeFitter) normal(A, g []float64) {
 	np := f.par.n
+	iBase, nB := f.par.iBase, f.par.nBase
+	f.baseBlocks()
 	for i := range A {
 		A[i] = 0
 	}
@@ -166,22 +176,82 @@ func (f *wholeFitter) normal(A, g []float64) {
 		w := 1 / (f.s[i] * f.s[i])
 		r := (f.y[i] - f.model[i]) * w
 		row := f.jac[i*np : (i+1)*np]
-		for a, va := range row {
+		for a, va := range row[:iBase] {
 			if va == 0 {
 				continue
 			}
 			g[a] += va * r
 			wa := va * w
+			ar := A[a*np : (a+1)*np]
 			for b := a; b < np; b++ {
-				A[a*np+b] += wa * row[b]
+				ar[b] += wa * row[b]
 			}
 		}
+		for a, va := range row[iBase:] {
+			if va == 0 {
+				continue
+			}
+			g[iBase+a] += va * r
+		}
+	}
+	for a := range nB {
+		copy(A[(iBase+a)*np+iBase+a:(iBase+a+1)*np], f.normBase[a*nB+a:(a+1)*nB])
 	}
 	for a := range np {
 		for b := range a {
 			A[a*np+b] = A[b*np+a]
 		}
 	}
+}
+
+// baseBlocks builds the blocks of normal and linearAreas that depend on
+// the pixels alone (wholeFitter.normBase, linBase, linBaseG), once per
+// setup: each element is the same sum, in the same order, as the loops
+// of normal and linearAreas make it.
+func (f *wholeFitter) baseBlocks() {
+	if f.baseOK {
+		return
+	}
+	nB := f.par.nBase
+	nb := grow(&f.normBase, nB*nB)
+	lb := grow(&f.linBase, nB*nB)
+	lg := grow(&f.linBaseG, nB)
+	for i := range nb {
+		nb[i], lb[i] = 0, 0
+	}
+	for i := range lg {
+		lg[i] = 0
+	}
+	leg := f.leg[:nB]
+	for i := range f.x {
+		w := 1 / (f.s[i] * f.s[i])
+		for a := range nB {
+			va := leg[a][i]
+			if va == 0 {
+				continue
+			}
+			wa := va * w
+			for b := a; b < nB; b++ {
+				nb[a*nB+b] += wa * leg[b][i]
+			}
+		}
+	}
+	for b := range nB {
+		for i, v := range leg[b] {
+			w := 1 / (f.s[i] * f.s[i])
+			lg[b] += v * f.y[i] * w
+		}
+		for c := b; c < nB; c++ {
+			var s float64
+			l1, l2 := leg[b], leg[c]
+			for i := range l1 {
+				w := 1 / (f.s[i] * f.s[i])
+				s += l1[i] * l2[i] * w
+			}
+			lb[b*nB+c] = s
+		}
+	}
+	f.baseOK = true
 }
 
 // clampParams keeps the parameters in their domain.
@@ -270,8 +340,15 @@ func (f *wholeFitter) linearAreas() (areas, sig []float64, chi2 float64, ok bool
 	nl := len(f.lines)
 	nb := f.par.nBase
 	np := nl + nb
-	A := make([]float64, np*np)
-	g := make([]float64, np)
+	f.baseBlocks()
+	A := grow(&f.linA, np*np)
+	g := grow(&f.linG, np)
+	for i := range A {
+		A[i] = 0
+	}
+	for i := range g {
+		g[i] = 0
+	}
 	w := grow(&f.wbuf, len(f.x))
 	for i, s := range f.s {
 		w[i] = 1 / (s * s)
@@ -279,34 +356,34 @@ func (f *wholeFitter) linearAreas() (areas, sig []float64, chi2 float64, ok bool
 	// Line–line, line–baseline and line–data blocks over each line's
 	// pixel range.
 	for a, la := range f.lines {
+		ab := A[a*np+nl : a*np+nl+nb]
 		for i := la.plo; i < la.phi; i++ {
 			v := la.u[i-la.plo] * w[i]
 			g[a] += v * f.y[i]
-			for b := range nb {
-				A[a*np+nl+b] += v * f.leg[b][i]
+			for b := range ab {
+				ab[b] += v * f.leg[b][i]
 			}
 		}
 		for b := a; b < nl; b++ {
 			lb := f.lines[b]
 			lo, hi := max(la.plo, lb.plo), min(la.phi, lb.phi)
 			var s float64
-			for i := lo; i < hi; i++ {
-				s += la.u[i-la.plo] * lb.u[i-lb.plo] * w[i]
+			if lo < hi {
+				ua, ub, ws := la.u[lo-la.plo:hi-la.plo], lb.u[lo-lb.plo:hi-lb.plo], w[lo:hi]
+				ub = ub[:len(ua)]
+				ws = ws[:len(ua)]
+				for i := range ua {
+					s += ua[i] * ub[i] * ws[i]
+				}
 			}
 			A[a*np+b] = s
 		}
 	}
+	// The baseline–baseline and baseline–data parts (baseBlocks).
 	for b := range nb {
-		for i, v := range f.leg[b] {
-			g[nl+b] += v * f.y[i] * w[i]
-		}
+		g[nl+b] = f.linBaseG[b]
 		for c := b; c < nb; c++ {
-			var s float64
-			lb, lc := f.leg[b], f.leg[c]
-			for i := range lb {
-				s += lb[i] * lc[i] * w[i]
-			}
-			A[(nl+b)*np+nl+c] = s
+			A[(nl+b)*np+nl+c] = f.linBase[b*nb+c]
 		}
 	}
 	for a := range np {
@@ -322,8 +399,8 @@ func (f *wholeFitter) linearAreas() (areas, sig []float64, chi2 float64, ok bool
 	}
 	sol := append(f.linSol[:0], g...)
 	linefit.CholSolve(A, np, sol)
-	inv := make([]float64, np*np)
-	linefit.CholInverse(A, np, inv, make([]float64, np))
+	inv := grow(&f.linInv, np*np)
+	linefit.CholInverse(A, np, inv, grow(&f.linWork, np))
 	mod := grow(&f.mbuf, len(f.x))
 	for i := range mod {
 		var m float64
