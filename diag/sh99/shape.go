@@ -124,8 +124,19 @@ func (s *Shape) CumulativeDeriv(dlNM float64) (c, dcdLnNe float64) {
 // Δλ, nm⁻¹, from the same Hermite interpolant) and the derivative of the
 // cumulative with respect to ln n_e, in one pass.
 func (s *Shape) Eval(dlNM float64) (c, p, dcdLnNe float64) {
-	d := math.Abs(dlNM)
-	var v, dv float64
+	v, p, dv := s.Half(math.Abs(dlNM))
+	if dlNM < 0 {
+		return 0.5 - v, p, -dv
+	}
+	return 0.5 + v, p, dv
+}
+
+// Half is Eval on one side: for d ≥ 0 (nm) it returns v = Cumulative(d)
+// − ½ (the profile is even, so Cumulative(−d) = ½ − v), p(d) = p(−d),
+// and dv, the derivative of v with respect to ln n_e (that of
+// Cumulative(−d) is −dv): what Eval(±d) gives, bit for bit, from one
+// evaluation.
+func (s *Shape) Half(d float64) (v, p, dv float64) {
 	for i := range s.n {
 		x := d * s.scale[i]
 		cc, pp := s.tab[i].eval(s.node[i], x)
@@ -133,10 +144,19 @@ func (s *Shape) Eval(dlNM float64) (c, p, dcdLnNe float64) {
 		p += s.wgt[i] * s.norm[i] * pp * s.scale[i]
 		dv += s.norm[i] * (s.dwgt[i]*cc - s.wgt[i]*pp*x*s.dlnW)
 	}
-	if dlNM < 0 {
-		return 0.5 - v, p, -dv
+	return v, p, dv
+}
+
+// HalfValue is Half without the derivative in ln n_e (v and p the same,
+// bit for bit).
+func (s *Shape) HalfValue(d float64) (v, p float64) {
+	for i := range s.n {
+		x := d * s.scale[i]
+		cc, pp := s.tab[i].eval(s.node[i], x)
+		v += s.wgt[i] * s.norm[i] * cc
+		p += s.wgt[i] * s.norm[i] * pp * s.scale[i]
 	}
-	return 0.5 + v, p, dv
+	return v, p
 }
 
 func (s *Shape) cum(dl float64, deriv bool) (float64, float64) {

@@ -204,9 +204,11 @@ type wline struct {
 	reach float64
 	// Per evaluation (over [plo, phi)).
 	u, du, dn, dg []float64
-	lastSF        shapeFunc
 	shp           sh99.Shape
 	kL            float64 // kernel Lorentzian FWHM of the last evaluation
+	// vGamma and vDGamma are the Voigt fallback's Lorentzian half width
+	// of the last evaluation and its derivative in ln n_e.
+	vGamma, vDGamma float64
 	// Wing nodes (distances from the centre, nm) and the shape's
 	// cumulative, density and ln n_e derivative there (left half, then
 	// right half).
@@ -926,14 +928,10 @@ func (f *wholeFitter) setupGrid(l *wline, ne float64) error {
 // kernL is the kernel Lorentzian FWHM of the last evaluation.
 func (l *wline) kernL() float64 { return l.kL }
 
-// shapeFunc evaluates a line's base shape at detuning d (nm): its
-// cumulative integral, its density and the cumulative's derivative in
-// ln n_e.
-type shapeFunc func(d float64) (c, p, dc float64)
-
-// lineShape prepares a line's base shape at ln n_e and returns it with
-// the Gaussian and Lorentzian FWHM of the kernel still to be applied.
-func (f *wholeFitter) lineShape(l *wline, lnNe, instG, gasT float64) (shapeFunc, float64, float64, error) {
+// lineShape prepares a line's base shape at ln n_e (for wline.half) and
+// returns the Gaussian and Lorentzian FWHM of the kernel still to be
+// applied.
+func (f *wholeFitter) lineShape(l *wline, lnNe, instG, gasT float64) (float64, float64, error) {
 	ne := math.Exp(lnNe)
 	dg := diag.DopplerFWHMNM(l.center, gasT, f.mass)
 	g2 := instG*instG + dg*dg
@@ -944,7 +942,7 @@ func (f *wholeFitter) lineShape(l *wline, lnNe, instG, gasT float64) (shapeFunc,
 		te := f.tOf(l)
 		s, err := l.sh.Shape(ne, te)
 		if err != nil {
-			return nil, 0, 0, err
+			return 0, 0, err
 		}
 		l.shp = s
 		l.held = held
@@ -960,14 +958,7 @@ func (f *wholeFitter) lineShape(l *wline, lnNe, instG, gasT float64) (shapeFunc,
 		} else {
 			l.starkFWHM = 0
 		}
-		if held {
-			// The shape does not follow n_e beyond the tables.
-			return func(d float64) (float64, float64, float64) {
-				c, p, _ := l.shp.Eval(d)
-				return c, p, 0
-			}, math.Sqrt(e2), l.lorOther, nil
-		}
-		return l.shp.Eval, math.Sqrt(e2), l.lorOther, nil
+		return math.Sqrt(e2), l.lorOther, nil
 	}
 	// Voigt fallback: a Lorentzian of the Stark FWHM of the default
 	// relation plus the other Lorentzians, convolved with the Gaussian.
@@ -975,44 +966,79 @@ func (f *wholeFitter) lineShape(l *wline, lnNe, instG, gasT float64) (shapeFunc,
 	p := l.rel.Exponent
 	l.starkFWHM = w
 	l.extra2 = g2
-	gamma := (w + l.lorOther) / 2
-	dGamma := p * w / 2 // dγ/dln n_e
-	return func(d float64) (float64, float64, float64) {
-		den := gamma*gamma + d*d
-		c := 0.5 + math.Atan(d/gamma)/math.Pi
-		return c, gamma / (math.Pi * den), -d / (math.Pi * den) * dGamma
-	}, math.Sqrt(g2), 0, nil
+	l.vGamma = (w + l.lorOther) / 2
+	l.vDGamma = p * w / 2 // dγ/dln n_e
+	return math.Sqrt(g2), 0, nil
+}
+
+// half evaluates the line's base shape, as the last lineShape prepared
+// it, at detuning d ≥ 0 (nm): the odd part v of its cumulative integral
+// (C(±d) = ½ ± v), its density p (even in d) and, with deriv, the
+// derivative dv of v in ln n_e (that of C(±d) is ±dv; 0 without deriv).
+// A shape held at the end of its tables does not follow n_e: its dv is
+// 0 (evalLine writes 0 on both sides).
+func (l *wline) half(d float64, deriv bool) (v, p, dv float64) {
+	if l.shapeSH {
+		if !deriv || l.held {
+			v, p = l.shp.HalfValue(d)
+			return v, p, 0
+		}
+		return l.shp.Half(d)
+	}
+	gamma := l.vGamma
+	den := gamma*gamma + d*d
+	v = math.Atan(d/gamma) / math.Pi
+	p = gamma / (math.Pi * den)
+	if deriv {
+		dv = -d / (math.Pi * den) * l.vDGamma
+	}
+	return v, p, dv
 }
 
 // evalLine computes the line's unit profile's pixel means (u), their
 // derivative in the offset (du) and in ln n_e (dn) over its pixel range,
 // for line centre λ_k + off. Without deriv only u is computed (the same,
 // bit for bit); du and dn are left alone.
+//
+// The fine grid's edges are symmetric about the centre, ±(k + ½)h for
+// k = 0 … m, and so are the base shape's bin masses, its densities at
+// the edges and the masses' derivative in ln n_e: the shape is evaluated
+// on the right half (wline.half) and mirrored, the masses taken as
+// differences of the cumulative's odd part (no cancellation against ½),
+// and the symmetric kernel's output is computed on one half (convolve).
 func (f *wholeFitter) evalLine(l *wline, lnNe, off, instG, gasT float64, deriv bool) error {
-	sf, gF, lF, err := f.lineShape(l, lnNe, instG, gasT)
+	gF, lF, err := f.lineShape(l, lnNe, instG, gasT)
 	if err != nil {
 		return err
 	}
-	l.lastSF, l.kL = sf, lF
-	nb := 2*l.m + 1
+	l.kL = lF
+	m := l.m
 	h := l.h
-	e0 := -(float64(l.m) + 0.5) * h
-	for j := 0; j <= nb; j++ {
-		l.cum[j], l.pe[j], l.dcum[j] = sf(e0 + float64(j)*h)
-	}
-	for j := range nb {
-		l.mass[j] = l.cum[j+1] - l.cum[j]
-	}
-	if deriv {
-		for j := range nb {
-			l.dmass[j] = l.dcum[j+1] - l.dcum[j]
+	var vPrev, dvPrev float64
+	for k := 0; k <= m; k++ {
+		v, p, dv := l.half((float64(k)+0.5)*h, deriv)
+		jr, jl := m+1+k, m-k
+		l.cum[jr], l.cum[jl] = 0.5+v, 0.5-v
+		l.pe[jr], l.pe[jl] = p, p
+		l.dcum[jr], l.dcum[jl] = dv, 0-dv
+		// Bin m lies between edges m and m+1; bins m ± k (k ≥ 1) between
+		// the k−1st and kth edges of either side.
+		if k == 0 {
+			l.mass[m] = 2 * v
+			l.dmass[m] = 2 * dv
+		} else {
+			mk, dk := v-vPrev, dv-dvPrev
+			l.mass[m+k], l.mass[m-k] = mk, mk
+			l.dmass[m+k], l.dmass[m-k] = dk, dk
 		}
+		vPrev, dvPrev = v, dv
 	}
 	// Wing nodes, left (index i) and right (nw + i).
 	nw := len(l.wing)
 	for i, d := range l.wing {
-		l.wc[i], l.wp[i], l.wd[i] = sf(-d)
-		l.wc[nw+i], l.wp[nw+i], l.wd[nw+i] = sf(d)
+		v, p, dv := l.half(d, deriv)
+		l.wc[i], l.wp[i], l.wd[i] = 0.5-v, p, 0-dv
+		l.wc[nw+i], l.wp[nw+i], l.wd[nw+i] = 0.5+v, p, dv
 	}
 	f.convolve(l, gF, lF, deriv)
 	f.pixels(l, off, deriv)
@@ -1033,67 +1059,25 @@ func (f *wholeFitter) evalLine(l *wline, lnNe, off, instG, gasT float64, deriv b
 // derivatives (l.dq) are left alone: l.q and l.pq are the same, bit for
 // bit (pixels without deriv reads no more).
 func (f *wholeFitter) convolve(l *wline, gF, lF float64, deriv bool) {
-	h := l.h
 	nb := 2*l.m + 1
-	sigma := voigt.SigmaFromFWHM(gF)
-	gamma := lF / 2
-	if sigma < 0.05*h && gamma < 0.02*h {
+	kern, r, ok := l.kernel(gF, lF)
+	if !ok {
 		copy(l.q, l.mass)
 		if deriv {
 			copy(l.dq, l.dmass)
 		}
 		copy(l.pq, l.pe)
 		return
-	}
-	// 4.5σ: the Gaussian's mass beyond is 7e-6 (renormalised below).
-	reach := 4.5 * sigma
-	if gamma >= 0.02*h {
-		reach += 20 * gamma
-	} else {
-		gamma = 0
-	}
-	r := min(int(math.Ceil(reach/h)), nb)
-	kern := grow(&l.kern, 2*r+1)
-	var ks float64
-	if gamma == 0 && sigma < h {
-		// A Gaussian narrower than the step is not sampled well: three
-		// weights with its variance, 2a·h² = σ² (exact to second order).
-		r = 1
-		kern = grow(&l.kern, 3)
-		a := sigma * sigma / (2 * h * h)
-		kern[0], kern[1], kern[2] = a, 1-2*a, a
-		ks = 1
-	}
-	for i := -r; i <= r && !(gamma == 0 && sigma < h); i++ {
-		d := float64(i) * h
-		var v float64
-		switch {
-		case gamma == 0:
-			v = math.Exp(-d * d / (2 * sigma * sigma))
-		case sigma < 0.05*h:
-			v = 1 / (gamma*gamma + d*d)
-		default:
-			v = voigt.Profile(d, sigma, gamma)
-		}
-		kern[i+r] = v
-		ks += v
-	}
-	if !(ks > 0) {
-		copy(l.q, l.mass)
-		if deriv {
-			copy(l.dq, l.dmass)
-		}
-		copy(l.pq, l.pe)
-		return
-	}
-	for i := range kern {
-		kern[i] /= ks
 	}
 	// Bin masses (q, dq, nb values) and edge densities (pq, nb+1 values)
-	// in one pass; the kernel is symmetric (kern[j−i+r] = kern[i−j+r]).
+	// in one pass; the kernel is symmetric (kern[j−i+r] = kern[i−j+r]),
+	// and so are the masses, their derivatives and the densities about
+	// the grid's centre (evalLine): the left half and the centre bin are
+	// computed (edges and bins 0 … m) and mirrored.
+	m := l.m
 	if !deriv {
 		// The loop below without ds: the same sums in the same order.
-		for j := 0; j <= nb; j++ {
+		for j := 0; j <= m; j++ {
 			lo, hi := max(j-r, 0), min(j+r, nb)
 			k := kern[lo-j+r : hi-j+r+1]
 			ps := l.pe[lo : hi+1]
@@ -1115,14 +1099,12 @@ func (f *wholeFitter) convolve(l *wline, gF, lF float64, deriv bool) {
 					sp += kv * ps[i]
 				}
 			}
-			if j < nb {
-				l.q[j] = s
-			}
-			l.pq[j] = sp
+			l.q[j], l.q[nb-1-j] = s, s
+			l.pq[j], l.pq[nb-j] = sp, sp
 		}
 		return
 	}
-	for j := 0; j <= nb; j++ {
+	for j := 0; j <= m; j++ {
 		lo, hi := max(j-r, 0), min(j+r, nb)
 		k := kern[lo-j+r : hi-j+r+1]
 		ps := l.pe[lo : hi+1]
@@ -1147,11 +1129,74 @@ func (f *wholeFitter) convolve(l *wline, gF, lF float64, deriv bool) {
 				sp += kv * ps[i]
 			}
 		}
-		if j < nb {
-			l.q[j], l.dq[j] = s, ds
-		}
-		l.pq[j] = sp
+		l.q[j], l.dq[j] = s, ds
+		l.q[nb-1-j], l.dq[nb-1-j] = s, ds
+		l.pq[j], l.pq[nb-j] = sp, sp
 	}
+}
+
+// kernel returns the line's sampled kernel of Gaussian FWHM gF and
+// Lorentzian FWHM lF on its grid step (2r+1 weights, symmetric,
+// normalised to sum 1; see convolve), in l.kern; ok is false where the
+// kernel is the identity.
+func (l *wline) kernel(gF, lF float64) (kern []float64, r int, ok bool) {
+	h := l.h
+	nb := 2*l.m + 1
+	sigma := voigt.SigmaFromFWHM(gF)
+	gamma := lF / 2
+	if sigma < 0.05*h && gamma < 0.02*h {
+		return nil, 0, false
+	}
+	// 4.5σ: the Gaussian's mass beyond is 7e-6 (renormalised below).
+	reach := 4.5 * sigma
+	if gamma >= 0.02*h {
+		reach += 20 * gamma
+	} else {
+		gamma = 0
+	}
+	r = min(int(math.Ceil(reach/h)), nb)
+	kern = grow(&l.kern, 2*r+1)
+	var ks float64
+	switch {
+	case gamma == 0 && sigma < h:
+		// A Gaussian narrower than the step is not sampled well: three
+		// weights with its variance, 2a·h² = σ² (exact to second order).
+		r = 1
+		kern = grow(&l.kern, 3)
+		a := sigma * sigma / (2 * h * h)
+		kern[0], kern[1], kern[2] = a, 1-2*a, a
+		ks = 1
+	case gamma == 0:
+		// The Gaussian's samples are even in i (float64(−i)·h is −(i·h)):
+		// computed once for ±i, summed in order.
+		for i := 0; i <= r; i++ {
+			d := float64(i) * h
+			v := math.Exp(-d * d / (2 * sigma * sigma))
+			kern[r+i], kern[r-i] = v, v
+		}
+		for _, v := range kern {
+			ks += v
+		}
+	default:
+		for i := -r; i <= r; i++ {
+			d := float64(i) * h
+			var v float64
+			if sigma < 0.05*h {
+				v = 1 / (gamma*gamma + d*d)
+			} else {
+				v = voigt.Profile(d, sigma, gamma)
+			}
+			kern[i+r] = v
+			ks += v
+		}
+	}
+	if !(ks > 0) {
+		return nil, 0, false
+	}
+	for i := range kern {
+		kern[i] /= ks
+	}
+	return kern, r, true
 }
 
 // pixels turns the broadened bin masses into pixel means: the
@@ -1210,6 +1255,9 @@ func (f *wholeFitter) pixels(l *wline, off float64, deriv bool) {
 			a, b := -l.wing[wl+1], -l.wing[wl]
 			hh := b - a
 			u := (t - a) / hh
+			if !deriv {
+				return hermiteValue(l.wc[wl+1], l.wc[wl], l.wp[wl+1]*hh, l.wp[wl]*hh, u), 0, 0
+			}
 			c, dens = hermite(l.wc[wl+1], l.wc[wl], l.wp[wl+1]*hh, l.wp[wl]*hh, u, hh)
 			dc = l.wd[wl+1] + u*(l.wd[wl]-l.wd[wl+1])
 			return c, dc, dens
@@ -1226,6 +1274,9 @@ func (f *wholeFitter) pixels(l *wline, off float64, deriv bool) {
 			a, b := l.wing[wr], l.wing[wr+1]
 			hh := b - a
 			u := (t - a) / hh
+			if !deriv {
+				return hermiteValue(l.wc[nw+wr], l.wc[nw+wr+1], l.wp[nw+wr]*hh, l.wp[nw+wr+1]*hh, u) + shR, 0, 0
+			}
 			c, dens = hermite(l.wc[nw+wr], l.wc[nw+wr+1], l.wp[nw+wr]*hh, l.wp[nw+wr+1]*hh, u, hh)
 			dc = l.wd[nw+wr] + u*(l.wd[nw+wr+1]-l.wd[nw+wr])
 			// The shift fades with the wing (the kernel's leak is a
@@ -1235,10 +1286,11 @@ func (f *wholeFitter) pixels(l *wline, off float64, deriv bool) {
 		fj := (t - e0) / h
 		j := min(int(fj), nb-1)
 		u := fj - float64(j)
-		c, dens = hermite(F[j], F[j+1], l.pq[j]*h, l.pq[j+1]*h, u, h)
-		if deriv {
-			dc, _ = hermite(dF[j], dF[j+1], rho(j, l.dq), rho(j+1, l.dq), u, h)
+		if !deriv {
+			return hermiteValue(F[j], F[j+1], l.pq[j]*h, l.pq[j+1]*h, u), 0, 0
 		}
+		c, dens = hermite(F[j], F[j+1], l.pq[j]*h, l.pq[j+1]*h, u, h)
+		dc = hermiteValue(dF[j], dF[j+1], rho(j, l.dq), rho(j+1, l.dq), u)
 		return c, dc, dens
 	}
 	ctr := l.center + off
@@ -1258,6 +1310,13 @@ func (f *wholeFitter) pixels(l *wline, off float64, deriv bool) {
 		}
 		pa, pda, pdens = cb, dcb, densb
 	}
+}
+
+// hermiteValue is hermite's value alone (the same, bit for bit).
+func hermiteValue(c0, c1, d0, d1, u float64) float64 {
+	u2 := u * u
+	u3 := u2 * u
+	return (2*u3-3*u2+1)*c0 + (u3-2*u2+u)*d0 + (-2*u3+3*u2)*c1 + (u3-u2)*d1
 }
 
 // hermite interpolates between (0, c0) and (1, c1) with slopes d0, d1

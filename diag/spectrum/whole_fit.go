@@ -172,8 +172,9 @@ func (f *wholeFitter) normal(A, g []float64) {
 	for i := range g {
 		g[i] = 0
 	}
+	wt := f.wbuf[:len(f.x)]
 	for i := range f.x {
-		w := 1 / (f.s[i] * f.s[i])
+		w := wt[i]
 		r := (f.y[i] - f.model[i]) * w
 		row := f.jac[i*np : (i+1)*np]
 		for a, va := range row[:iBase] {
@@ -204,9 +205,9 @@ func (f *wholeFitter) normal(A, g []float64) {
 	}
 }
 
-// baseBlocks builds the blocks of normal and linearAreas that depend on
-// the pixels alone (wholeFitter.normBase, linBase, linBaseG), once per
-// setup: each element is the same sum, in the same order, as the loops
+// baseBlocks builds the pixels' weights 1/σ² (wholeFitter.wbuf) and the
+// blocks of normal and linearAreas that depend on the pixels alone
+// (wholeFitter.normBase, linBase, linBaseG), once per setup: each element is the same sum, in the same order, as the loops
 // of normal and linearAreas make it.
 func (f *wholeFitter) baseBlocks() {
 	if f.baseOK {
@@ -223,8 +224,12 @@ func (f *wholeFitter) baseBlocks() {
 		lg[i] = 0
 	}
 	leg := f.leg[:nB]
+	wt := grow(&f.wbuf, len(f.x))
+	for i, s := range f.s {
+		wt[i] = 1 / (s * s)
+	}
 	for i := range f.x {
-		w := 1 / (f.s[i] * f.s[i])
+		w := wt[i]
 		for a := range nB {
 			va := leg[a][i]
 			if va == 0 {
@@ -238,15 +243,15 @@ func (f *wholeFitter) baseBlocks() {
 	}
 	for b := range nB {
 		for i, v := range leg[b] {
-			w := 1 / (f.s[i] * f.s[i])
-			lg[b] += v * f.y[i] * w
+			lg[b] += v * f.y[i] * wt[i]
 		}
 		for c := b; c < nB; c++ {
 			var s float64
 			l1, l2 := leg[b], leg[c]
+			l2 = l2[:len(l1)]
+			ws := wt[:len(l1)]
 			for i := range l1 {
-				w := 1 / (f.s[i] * f.s[i])
-				s += l1[i] * l2[i] * w
+				s += l1[i] * l2[i] * ws[i]
 			}
 			lb[b*nB+c] = s
 		}
@@ -349,10 +354,7 @@ func (f *wholeFitter) linearAreas() (areas, sig []float64, chi2 float64, ok bool
 	for i := range g {
 		g[i] = 0
 	}
-	w := grow(&f.wbuf, len(f.x))
-	for i, s := range f.s {
-		w[i] = 1 / (s * s)
-	}
+	w := f.wbuf[:len(f.x)] // 1/σ² (baseBlocks)
 	// Line–line, line–baseline and line–data blocks over each line's
 	// pixel range.
 	for a, la := range f.lines {
@@ -1111,7 +1113,7 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 		copy(l.du, savedDu[k])
 		copy(l.dn, savedDn[k])
 		g, tg := f.lineInst(l, th)
-		_, _, _, _ = f.lineShape(l, th[pr.iNe], g, tg)
+		_, _, _ = f.lineShape(l, th[pr.iNe], g, tg)
 	}
 	// Accuracy of the line widths the model takes from the tables (or a
 	// relation), in two parts: one common to every line (a reading of
