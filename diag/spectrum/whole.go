@@ -1225,81 +1225,15 @@ func (f *wholeFitter) pixels(l *wline, off float64, deriv bool) {
 		}
 	}
 	nw := len(l.wing)
-	shR, dshR := F[nb]-l.wc[nw], dF[nb]-l.wd[nw]
-	// rho returns the slope (mass per bin) of F at edge j.
-	rho := func(j int, q []float64) float64 {
-		switch j {
-		case 0:
-			return q[0]
-		case nb:
-			return q[nb-1]
-		}
-		return 0.5 * (q[j-1] + q[j])
-	}
-	wl := 0 // left wing walking pointer: node interval [wing[wl+1], wing[wl]]
-	wr := 0
-	at := func(t float64) (c, dc, dens float64) {
-		switch {
-		case t < e0:
-			d := -t
-			if d >= l.wing[nw-1] {
-				return l.wc[nw-1], l.wd[nw-1], 0
-			}
-			for wl > 0 && d < l.wing[wl] {
-				wl--
-			}
-			for wl < nw-2 && d >= l.wing[wl+1] {
-				wl++
-			}
-			// Nodes at −wing[wl] (right end) and −wing[wl+1] (left end).
-			a, b := -l.wing[wl+1], -l.wing[wl]
-			hh := b - a
-			u := (t - a) / hh
-			if !deriv {
-				return hermiteValue(l.wc[wl+1], l.wc[wl], l.wp[wl+1]*hh, l.wp[wl]*hh, u), 0, 0
-			}
-			c, dens = hermite(l.wc[wl+1], l.wc[wl], l.wp[wl+1]*hh, l.wp[wl]*hh, u, hh)
-			dc = l.wd[wl+1] + u*(l.wd[wl]-l.wd[wl+1])
-			return c, dc, dens
-		case t > eEnd:
-			if t >= l.wing[nw-1] {
-				return l.wc[2*nw-1] + shR, l.wd[2*nw-1] + dshR, 0
-			}
-			for wr > 0 && t < l.wing[wr] {
-				wr--
-			}
-			for wr < nw-2 && t >= l.wing[wr+1] {
-				wr++
-			}
-			a, b := l.wing[wr], l.wing[wr+1]
-			hh := b - a
-			u := (t - a) / hh
-			if !deriv {
-				return hermiteValue(l.wc[nw+wr], l.wc[nw+wr+1], l.wp[nw+wr]*hh, l.wp[nw+wr+1]*hh, u) + shR, 0, 0
-			}
-			c, dens = hermite(l.wc[nw+wr], l.wc[nw+wr+1], l.wp[nw+wr]*hh, l.wp[nw+wr+1]*hh, u, hh)
-			dc = l.wd[nw+wr] + u*(l.wd[nw+wr+1]-l.wd[nw+wr])
-			// The shift fades with the wing (the kernel's leak is a
-			// near-grid effect); keep it constant: it is below 1e-6.
-			return c + shR, dc + dshR, dens
-		}
-		fj := (t - e0) / h
-		j := min(int(fj), nb-1)
-		u := fj - float64(j)
-		if !deriv {
-			return hermiteValue(F[j], F[j+1], l.pq[j]*h, l.pq[j+1]*h, u), 0, 0
-		}
-		c, dens = hermite(F[j], F[j+1], l.pq[j]*h, l.pq[j+1]*h, u, h)
-		dc = hermiteValue(dF[j], dF[j+1], rho(j, l.dq), rho(j+1, l.dq), u)
-		return c, dc, dens
-	}
+	e := edgeEval{l: l, F: F, dF: dF, e0: e0, eEnd: eEnd, h: h, shR: F[nb] - l.wc[nw], dshR: dF[nb] - l.wd[nw],
+		nb: nb, nw: nw, deriv: deriv}
 	ctr := l.center + off
-	pa, pda, pdens := at(f.a[l.plo] - ctr)
+	pa, pda, pdens := e.at(f.a[l.plo] - ctr)
 	for i := l.plo; i < l.phi; i++ {
 		if i > l.plo && f.a[i] != f.b[i-1] {
-			pa, pda, pdens = at(f.a[i] - ctr)
+			pa, pda, pdens = e.at(f.a[i] - ctr)
 		}
-		cb, dcb, densb := at(f.b[i] - ctr)
+		cb, dcb, densb := e.at(f.b[i] - ctr)
 		w := f.b[i] - f.a[i]
 		k := i - l.plo
 		l.u[k] = (cb - pa) / w
@@ -1312,20 +1246,113 @@ func (f *wholeFitter) pixels(l *wline, off float64, deriv bool) {
 	}
 }
 
-// hermiteValue is hermite's value alone (the same, bit for bit).
+// edgeEval evaluates a line's broadened cumulative F, its derivative in
+// ln n_e and the broadened density at a detuning (pixels): on the grid
+// from the bin edges' F (cubic Hermite, the broadened densities as
+// slopes), beyond it from the wing nodes; wl and wr walk the left and
+// right wing nodes (the detunings come in ascending order).
+type edgeEval struct {
+	l                      *wline
+	F, dF                  []float64
+	e0, eEnd, h, shR, dshR float64
+	nb, nw, wl, wr         int
+	deriv                  bool
+}
+
+// at returns F, dF/dln n_e and the density at detuning t (nm); without
+// deriv only F (the others 0).
+func (e *edgeEval) at(t float64) (c, dc, dens float64) {
+	l, nw := e.l, e.nw
+	switch {
+	case t < e.e0:
+		d := -t
+		if d >= l.wing[nw-1] {
+			return l.wc[nw-1], l.wd[nw-1], 0
+		}
+		wl := e.wl
+		for wl > 0 && d < l.wing[wl] {
+			wl--
+		}
+		for wl < nw-2 && d >= l.wing[wl+1] {
+			wl++
+		}
+		e.wl = wl
+		// Nodes at −wing[wl] (right end) and −wing[wl+1] (left end).
+		a, b := -l.wing[wl+1], -l.wing[wl]
+		hh := b - a
+		u := (t - a) / hh
+		c0, c1, d0, d1 := l.wc[wl+1], l.wc[wl], l.wp[wl+1]*hh, l.wp[wl]*hh
+		c = hermiteValue(c0, c1, d0, d1, u)
+		if !e.deriv {
+			return c, 0, 0
+		}
+		dens = hermiteSlope(c0, c1, d0, d1, u) / hh
+		dc = l.wd[wl+1] + u*(l.wd[wl]-l.wd[wl+1])
+		return c, dc, dens
+	case t > e.eEnd:
+		if t >= l.wing[nw-1] {
+			return l.wc[2*nw-1] + e.shR, l.wd[2*nw-1] + e.dshR, 0
+		}
+		wr := e.wr
+		for wr > 0 && t < l.wing[wr] {
+			wr--
+		}
+		for wr < nw-2 && t >= l.wing[wr+1] {
+			wr++
+		}
+		e.wr = wr
+		a, b := l.wing[wr], l.wing[wr+1]
+		hh := b - a
+		u := (t - a) / hh
+		c0, c1, d0, d1 := l.wc[nw+wr], l.wc[nw+wr+1], l.wp[nw+wr]*hh, l.wp[nw+wr+1]*hh
+		// The shift fades with the wing (the kernel's leak is a
+		// near-grid effect); keep it constant: it is below 1e-6.
+		c = hermiteValue(c0, c1, d0, d1, u) + e.shR
+		if !e.deriv {
+			return c, 0, 0
+		}
+		dens = hermiteSlope(c0, c1, d0, d1, u) / hh
+		dc = l.wd[nw+wr] + u*(l.wd[nw+wr+1]-l.wd[nw+wr])
+		return c, dc + e.dshR, dens
+	}
+	h, nb := e.h, e.nb
+	fj := (t - e.e0) / h
+	j := min(int(fj), nb-1)
+	u := fj - float64(j)
+	F := e.F[j : j+2]
+	pq := l.pq[j : j+2]
+	c0, c1, d0, d1 := F[0], F[1], pq[0]*h, pq[1]*h
+	c = hermiteValue(c0, c1, d0, d1, u)
+	if !e.deriv {
+		return c, 0, 0
+	}
+	dens = hermiteSlope(c0, c1, d0, d1, u) / h
+	dc = hermiteValue(e.dF[j], e.dF[j+1], edgeSlope(l.dq, j, nb), edgeSlope(l.dq, j+1, nb), u)
+	return c, dc, dens
+}
+
+// edgeSlope returns the slope (mass per bin) at edge j of the
+// cumulative of the bin masses q (nb bins).
+func edgeSlope(q []float64, j, nb int) float64 {
+	switch j {
+	case 0:
+		return q[0]
+	case nb:
+		return q[nb-1]
+	}
+	return 0.5 * (q[j-1] + q[j])
+}
+
+// hermiteSlope is the derivative of hermiteValue per unit u.
+func hermiteSlope(c0, c1, d0, d1, u float64) float64 {
+	u2 := u * u
+	return (6*u2-6*u)*c0 + (3*u2-4*u+1)*d0 + (-6*u2+6*u)*c1 + (3*u2-2*u)*d1
+}
+
+// hermiteValue interpolates between (0, c0) and (1, c1) with slopes d0,
+// d1 (per unit u): cubic Hermite.
 func hermiteValue(c0, c1, d0, d1, u float64) float64 {
 	u2 := u * u
 	u3 := u2 * u
 	return (2*u3-3*u2+1)*c0 + (u3-2*u2+u)*d0 + (-2*u3+3*u2)*c1 + (u3-u2)*d1
-}
-
-// hermite interpolates between (0, c0) and (1, c1) with slopes d0, d1
-// (per unit u) and returns the value and its derivative per unit of the
-// original axis (interval length hh).
-func hermite(c0, c1, d0, d1, u, hh float64) (float64, float64) {
-	u2 := u * u
-	u3 := u2 * u
-	v := (2*u3-3*u2+1)*c0 + (u3-2*u2+u)*d0 + (-2*u3+3*u2)*c1 + (u3-u2)*d1
-	dv := (6*u2-6*u)*c0 + (3*u2-4*u+1)*d0 + (-6*u2+6*u)*c1 + (3*u2-2*u)*d1
-	return v, dv / hh
 }

@@ -242,9 +242,12 @@ func (f *wholeFitter) baseBlocks() {
 		}
 	}
 	for b := range nB {
+		var sg float64
+		y, ws := f.y[:len(leg[b])], wt[:len(leg[b])]
 		for i, v := range leg[b] {
-			lg[b] += v * f.y[i] * wt[i]
+			sg += v * y[i] * ws[i]
 		}
+		lg[b] = sg
 		for c := b; c < nB; c++ {
 			var s float64
 			l1, l2 := leg[b], leg[c]
@@ -359,13 +362,15 @@ func (f *wholeFitter) linearAreas() (areas, sig []float64, chi2 float64, ok bool
 	// pixel range.
 	for a, la := range f.lines {
 		ab := A[a*np+nl : a*np+nl+nb]
+		var ga float64
 		for i := la.plo; i < la.phi; i++ {
 			v := la.u[i-la.plo] * w[i]
-			g[a] += v * f.y[i]
+			ga += v * f.y[i]
 			for b := range ab {
 				ab[b] += v * f.leg[b][i]
 			}
 		}
+		g[a] = ga
 		for b := a; b < nl; b++ {
 			lb := f.lines[b]
 			lo, hi := max(la.plo, lb.plo), min(la.phi, lb.phi)
