@@ -213,6 +213,9 @@ type wline struct {
 	// cumulative, density and ln n_e derivative there (left half, then
 	// right half).
 	wing, wc, wp, wd []float64
+	// wingH and wingInvH are the lengths of the wing nodes' intervals
+	// and their inverses.
+	wingH, wingInvH []float64
 	// Grid scratch.
 	cum, dcum, fq, dfq, mass, dmass, q, dq, kern []float64
 	// pe and pq are the base shape's density at the bin edges and the
@@ -282,7 +285,9 @@ type wholeFitter struct {
 	saveRows [][]float64
 	wbuf     []float64
 	mbuf     []float64
-	notes    []string
+	// invW holds the fitted pixels' inverse widths, 1/(b − a).
+	invW  []float64
+	notes []string
 	// masked are wavelength intervals left out (saturated lines).
 	masked [][2]float64
 	// Blocks of the normal equations that depend on the pixels alone
@@ -293,6 +298,9 @@ type wholeFitter struct {
 	// baseline–data part). baseOK says they are of the current setup.
 	normBase, linBase, linBaseG []float64
 	baseOK                      bool
+	// jacBaseOK says the Jacobian's baseline columns hold the pixels'
+	// Legendre values (assemble) since the last setup.
+	jacBaseOK bool
 	// Scratch of linearAreas.
 	linA, linG, linInv, linWork []float64
 }
@@ -526,7 +534,7 @@ func (f *wholeFitter) beyondEdge() (ne float64, ok bool) {
 func (f *wholeFitter) reset(opt Options, m diag.Measurement) {
 	*f = wholeFitter{opt: opt, m: m,
 		x: f.x[:0], a: f.a[:0], b: f.b[:0], y: f.y[:0], s: f.s[:0], leg: f.leg[:0],
-		th: f.th, model: f.model, jac: f.jac, linSol: f.linSol, sens: f.sens, wbuf: f.wbuf, mbuf: f.mbuf,
+		th: f.th, model: f.model, jac: f.jac, linSol: f.linSol, sens: f.sens, wbuf: f.wbuf, mbuf: f.mbuf, invW: f.invW,
 		pool: f.pool, lines: f.lines[:0], ws: f.ws,
 		normBase: f.normBase, linBase: f.linBase, linBaseG: f.linBaseG,
 		linA: f.linA, linG: f.linG, linInv: f.linInv, linWork: f.linWork}
@@ -561,7 +569,7 @@ func (f *wholeFitter) newLine() *wline {
 		f.nPool++
 		*l = wline{u: l.u, du: l.du, dn: l.dn, dg: l.dg, wing: l.wing[:0], wc: l.wc, wp: l.wp, wd: l.wd,
 			cum: l.cum, dcum: l.dcum, fq: l.fq, dfq: l.dfq, mass: l.mass, dmass: l.dmass, q: l.q, dq: l.dq,
-			kern: l.kern, pe: l.pe, pq: l.pq}
+			kern: l.kern, pe: l.pe, pq: l.pq, wingH: l.wingH, wingInvH: l.wingInvH}
 		return l
 	}
 	l := &wline{}
@@ -575,7 +583,7 @@ func (f *wholeFitter) newLine() *wline {
 // the linear start (free areas and baseline at the starting shapes,
 // then T_exc from them or from the lines route).
 func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
-	f.baseOK = false
+	f.baseOK, f.jacBaseOK = false, false
 	x := in.x
 	n := len(x)
 	// Lines: every member the search found inside the range, up to the
@@ -717,6 +725,10 @@ func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
 	np := len(f.x)
 	if np < 10 {
 		return errors.New("too few usable pixels")
+	}
+	f.invW = grow(&f.invW, np)
+	for i := range f.invW {
+		f.invW[i] = 1 / (f.b[i] - f.a[i])
 	}
 	f.scale = windowScaleExp(f.y)
 	if f.scale != 0 {
@@ -902,6 +914,12 @@ func (f *wholeFitter) setupGrid(l *wline, ne float64) error {
 		l.wing = append(l.wing, 2*edge)
 	}
 	nw := len(l.wing)
+	l.wingH = grow(&l.wingH, nw-1)
+	l.wingInvH = grow(&l.wingInvH, nw-1)
+	for i := range nw - 1 {
+		l.wingH[i] = l.wing[i+1] - l.wing[i]
+		l.wingInvH[i] = 1 / l.wingH[i]
+	}
 	l.wc = grow(&l.wc, 2*nw)
 	l.wp = grow(&l.wp, 2*nw)
 	l.wd = grow(&l.wd, 2*nw)
@@ -1225,7 +1243,7 @@ func (f *wholeFitter) pixels(l *wline, off float64, deriv bool) {
 		}
 	}
 	nw := len(l.wing)
-	e := edgeEval{l: l, F: F, dF: dF, e0: e0, eEnd: eEnd, h: h, shR: F[nb] - l.wc[nw], dshR: dF[nb] - l.wd[nw],
+	e := edgeEval{l: l, F: F, dF: dF, e0: e0, eEnd: eEnd, h: h, invH: 1 / h, shR: F[nb] - l.wc[nw], dshR: dF[nb] - l.wd[nw],
 		nb: nb, nw: nw, deriv: deriv}
 	ctr := l.center + off
 	pa, pda, pdens := e.at(f.a[l.plo] - ctr)
@@ -1234,13 +1252,13 @@ func (f *wholeFitter) pixels(l *wline, off float64, deriv bool) {
 			pa, pda, pdens = e.at(f.a[i] - ctr)
 		}
 		cb, dcb, densb := e.at(f.b[i] - ctr)
-		w := f.b[i] - f.a[i]
+		iw := f.invW[i] // 1/(b − a)
 		k := i - l.plo
-		l.u[k] = (cb - pa) / w
+		l.u[k] = (cb - pa) * iw
 		if deriv {
-			l.dn[k] = (dcb - pda) / w
+			l.dn[k] = (dcb - pda) * iw
 			// d/dδ of the mean = −(density(b) − density(a))/w.
-			l.du[k] = -(densb - pdens) / w
+			l.du[k] = (pdens - densb) * iw
 		}
 		pa, pda, pdens = cb, dcb, densb
 	}
@@ -1252,11 +1270,12 @@ func (f *wholeFitter) pixels(l *wline, off float64, deriv bool) {
 // slopes), beyond it from the wing nodes; wl and wr walk the left and
 // right wing nodes (the detunings come in ascending order).
 type edgeEval struct {
-	l                      *wline
-	F, dF                  []float64
-	e0, eEnd, h, shR, dshR float64
-	nb, nw, wl, wr         int
-	deriv                  bool
+	l                 *wline
+	F, dF             []float64
+	e0, eEnd, h, invH float64
+	shR, dshR         float64
+	nb, nw, wl, wr    int
+	deriv             bool
 }
 
 // at returns F, dF/dln n_e and the density at detuning t (nm); without
@@ -1278,15 +1297,14 @@ func (e *edgeEval) at(t float64) (c, dc, dens float64) {
 		}
 		e.wl = wl
 		// Nodes at −wing[wl] (right end) and −wing[wl+1] (left end).
-		a, b := -l.wing[wl+1], -l.wing[wl]
-		hh := b - a
-		u := (t - a) / hh
+		hh, ih := l.wingH[wl], l.wingInvH[wl]
+		u := (t + l.wing[wl+1]) * ih
 		c0, c1, d0, d1 := l.wc[wl+1], l.wc[wl], l.wp[wl+1]*hh, l.wp[wl]*hh
 		c = hermiteValue(c0, c1, d0, d1, u)
 		if !e.deriv {
 			return c, 0, 0
 		}
-		dens = hermiteSlope(c0, c1, d0, d1, u) / hh
+		dens = hermiteSlope(c0, c1, d0, d1, u) * ih
 		dc = l.wd[wl+1] + u*(l.wd[wl]-l.wd[wl+1])
 		return c, dc, dens
 	case t > e.eEnd:
@@ -1301,9 +1319,8 @@ func (e *edgeEval) at(t float64) (c, dc, dens float64) {
 			wr++
 		}
 		e.wr = wr
-		a, b := l.wing[wr], l.wing[wr+1]
-		hh := b - a
-		u := (t - a) / hh
+		hh, ih := l.wingH[wr], l.wingInvH[wr]
+		u := (t - l.wing[wr]) * ih
 		c0, c1, d0, d1 := l.wc[nw+wr], l.wc[nw+wr+1], l.wp[nw+wr]*hh, l.wp[nw+wr+1]*hh
 		// The shift fades with the wing (the kernel's leak is a
 		// near-grid effect); keep it constant: it is below 1e-6.
@@ -1311,12 +1328,12 @@ func (e *edgeEval) at(t float64) (c, dc, dens float64) {
 		if !e.deriv {
 			return c, 0, 0
 		}
-		dens = hermiteSlope(c0, c1, d0, d1, u) / hh
+		dens = hermiteSlope(c0, c1, d0, d1, u) * ih
 		dc = l.wd[nw+wr] + u*(l.wd[nw+wr+1]-l.wd[nw+wr])
 		return c, dc + e.dshR, dens
 	}
 	h, nb := e.h, e.nb
-	fj := (t - e.e0) / h
+	fj := (t - e.e0) * e.invH
 	j := min(int(fj), nb-1)
 	u := fj - float64(j)
 	F := e.F[j : j+2]
@@ -1326,7 +1343,7 @@ func (e *edgeEval) at(t float64) (c, dc, dens float64) {
 	if !e.deriv {
 		return c, 0, 0
 	}
-	dens = hermiteSlope(c0, c1, d0, d1, u) / h
+	dens = hermiteSlope(c0, c1, d0, d1, u) * e.invH
 	dc = hermiteValue(e.dF[j], e.dF[j+1], edgeSlope(l.dq, j, nb), edgeSlope(l.dq, j+1, nb), u)
 	return c, dc, dens
 }

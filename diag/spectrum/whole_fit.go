@@ -92,15 +92,29 @@ func (f *wholeFitter) assemble(th []float64) (float64, error) {
 	np := pr.n
 	mod := f.model
 	jac := f.jac
-	for i := range jac {
-		jac[i] = 0
+	// The baseline columns are the pixels' Legendre values whatever th:
+	// written once per setup; the other columns are cleared.
+	iBase, nBase := pr.iBase, pr.nBase
+	if !f.jacBaseOK {
+		for i := range jac {
+			jac[i] = 0
+		}
+		for i := range n {
+			for b := range nBase {
+				jac[i*np+iBase+b] = f.leg[b][i]
+			}
+		}
+		f.jacBaseOK = true
+	} else {
+		for i := range n {
+			clear(jac[i*np : i*np+iBase])
+		}
 	}
+	tb := th[iBase : iBase+nBase]
 	for i := range mod {
 		var s float64
-		for b := range pr.nBase {
-			v := f.leg[b][i]
-			s += th[pr.iBase+b] * v
-			jac[i*np+pr.iBase+b] = v
+		for b, t := range tb {
+			s += t * f.leg[b][i]
 		}
 		mod[i] = s
 	}

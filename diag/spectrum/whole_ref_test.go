@@ -11,8 +11,9 @@ import (
 // refEvalLine is the straightforward evaluation that evalLine shortens:
 // the base shape evaluated at every fine-grid edge e₀ + jh (sh99
 // Shape.Eval on either side), the bin masses as differences of the
-// cumulative, and the kernel applied to every bin and edge, not to one
-// half mirrored. It leaves the line's u, du and dn as evalLine does.
+// cumulative, the kernel applied to every bin and edge, not to one half
+// mirrored, and the pixel means with divisions by the pixel widths and
+// grid steps (refPixels), not multiplications by their inverses. It leaves the line's u, du and dn as evalLine does.
 func (f *wholeFitter) refEvalLine(l *wline, lnNe, off, instG, gasT float64, deriv bool) error {
 	gF, lF, err := f.lineShape(l, lnNe, instG, gasT)
 	if err != nil {
@@ -68,7 +69,7 @@ func (f *wholeFitter) refEvalLine(l *wline, lnNe, off, instG, gasT float64, deri
 		}
 		l.pq[j] = sp
 	}
-	f.pixels(l, off, deriv)
+	f.refPixels(l, off, deriv)
 	return nil
 }
 
@@ -186,4 +187,129 @@ func TestEvalLineAgainstReference(t *testing.T) {
 	if nSH == 0 || nVoigt == 0 || nHeld == 0 || nLor == 0 {
 		t.Fatalf("cases not covered: %d SH99, %d Voigt fallback, %d held, %d with a Lorentzian kernel", nSH, nVoigt, nHeld, nLor)
 	}
+}
+
+// refPixels is pixels as it was before the inverse widths and steps.
+func (f *wholeFitter) refPixels(l *wline, off float64, deriv bool) {
+	h := l.h
+	nb := 2*l.m + 1
+	e0 := -(float64(l.m) + 0.5) * h
+	eEnd := -e0
+	F, dF := l.fq, l.dfq
+	F[0], dF[0] = l.cum[0], l.dcum[0]
+	if deriv {
+		for j := range nb {
+			F[j+1] = F[j] + l.q[j]
+			dF[j+1] = dF[j] + l.dq[j]
+		}
+	} else {
+		for j := range nb {
+			F[j+1] = F[j] + l.q[j]
+		}
+	}
+	nw := len(l.wing)
+	e := refEdgeEval{l: l, F: F, dF: dF, e0: e0, eEnd: eEnd, h: h, shR: F[nb] - l.wc[nw], dshR: dF[nb] - l.wd[nw],
+		nb: nb, nw: nw, deriv: deriv}
+	ctr := l.center + off
+	pa, pda, pdens := e.at(f.a[l.plo] - ctr)
+	for i := l.plo; i < l.phi; i++ {
+		if i > l.plo && f.a[i] != f.b[i-1] {
+			pa, pda, pdens = e.at(f.a[i] - ctr)
+		}
+		cb, dcb, densb := e.at(f.b[i] - ctr)
+		w := f.b[i] - f.a[i]
+		k := i - l.plo
+		l.u[k] = (cb - pa) / w
+		if deriv {
+			l.dn[k] = (dcb - pda) / w
+			// d/dδ of the mean = −(density(b) − density(a))/w.
+			l.du[k] = -(densb - pdens) / w
+		}
+		pa, pda, pdens = cb, dcb, densb
+	}
+}
+
+// refEdgeEval evaluates a line's broadened cumulative F, its derivative in
+// ln n_e and the broadened density at a detuning (pixels): on the grid
+// from the bin edges' F (cubic Hermite, the broadened densities as
+// slopes), beyond it from the wing nodes; wl and wr walk the left and
+// right wing nodes (the detunings come in ascending order).
+type refEdgeEval struct {
+	l                      *wline
+	F, dF                  []float64
+	e0, eEnd, h, shR, dshR float64
+	nb, nw, wl, wr         int
+	deriv                  bool
+}
+
+// at returns F, dF/dln n_e and the density at detuning t (nm); without
+// deriv only F (the others 0).
+func (e *refEdgeEval) at(t float64) (c, dc, dens float64) {
+	l, nw := e.l, e.nw
+	switch {
+	case t < e.e0:
+		d := -t
+		if d >= l.wing[nw-1] {
+			return l.wc[nw-1], l.wd[nw-1], 0
+		}
+		wl := e.wl
+		for wl > 0 && d < l.wing[wl] {
+			wl--
+		}
+		for wl < nw-2 && d >= l.wing[wl+1] {
+			wl++
+		}
+		e.wl = wl
+		// Nodes at −wing[wl] (right end) and −wing[wl+1] (left end).
+		a, b := -l.wing[wl+1], -l.wing[wl]
+		hh := b - a
+		u := (t - a) / hh
+		c0, c1, d0, d1 := l.wc[wl+1], l.wc[wl], l.wp[wl+1]*hh, l.wp[wl]*hh
+		c = hermiteValue(c0, c1, d0, d1, u)
+		if !e.deriv {
+			return c, 0, 0
+		}
+		dens = hermiteSlope(c0, c1, d0, d1, u) / hh
+		dc = l.wd[wl+1] + u*(l.wd[wl]-l.wd[wl+1])
+		return c, dc, dens
+	case t > e.eEnd:
+		if t >= l.wing[nw-1] {
+			return l.wc[2*nw-1] + e.shR, l.wd[2*nw-1] + e.dshR, 0
+		}
+		wr := e.wr
+		for wr > 0 && t < l.wing[wr] {
+			wr--
+		}
+		for wr < nw-2 && t >= l.wing[wr+1] {
+			wr++
+		}
+		e.wr = wr
+		a, b := l.wing[wr], l.wing[wr+1]
+		hh := b - a
+		u := (t - a) / hh
+		c0, c1, d0, d1 := l.wc[nw+wr], l.wc[nw+wr+1], l.wp[nw+wr]*hh, l.wp[nw+wr+1]*hh
+		// The shift fades with the wing (the kernel's leak is a
+		// near-grid effect); keep it constant: it is below 1e-6.
+		c = hermiteValue(c0, c1, d0, d1, u) + e.shR
+		if !e.deriv {
+			return c, 0, 0
+		}
+		dens = hermiteSlope(c0, c1, d0, d1, u) / hh
+		dc = l.wd[nw+wr] + u*(l.wd[nw+wr+1]-l.wd[nw+wr])
+		return c, dc + e.dshR, dens
+	}
+	h, nb := e.h, e.nb
+	fj := (t - e.e0) / h
+	j := min(int(fj), nb-1)
+	u := fj - float64(j)
+	F := e.F[j : j+2]
+	pq := l.pq[j : j+2]
+	c0, c1, d0, d1 := F[0], F[1], pq[0]*h, pq[1]*h
+	c = hermiteValue(c0, c1, d0, d1, u)
+	if !e.deriv {
+		return c, 0, 0
+	}
+	dens = hermiteSlope(c0, c1, d0, d1, u) / h
+	dc = hermiteValue(e.dF[j], e.dF[j+1], edgeSlope(l.dq, j, nb), edgeSlope(l.dq, j+1, nb), u)
+	return c, dc, dens
 }
