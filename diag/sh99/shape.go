@@ -37,9 +37,13 @@ type Shape struct {
 	scale [4]float64 // W_c/W · x per nm at the corner: x = |Δλ|·scale
 	norm  [4]float64 // 1/(2∫₀^∞P dx) at the corner
 	// dlnW is d ln W / d ln n_e inside the cell.
-	dlnW  float64
-	fwhm  float64
-	upper int
+	dlnW float64
+	// Per-corner factors of Half: cv = w_c·norm, cp = cv·scale (of the
+	// density), cd = norm·dw_c and ce = norm·w_c·dlnW (of the ln n_e
+	// derivative).
+	cv, cp, cd, ce [4]float64
+	fwhm           float64
+	upper          int
 }
 
 // Shape prepares the profile at (neM3, tK) for fast cumulative
@@ -96,6 +100,12 @@ func (l *Line) Shape(neM3, tK float64) (Shape, error) {
 		s.scale[i] = math.Exp(s.scale[i]-lW) * l.xPerNM[js[i]]
 	}
 	s.dlnW = dlW
+	for i := range s.n {
+		s.cv[i] = s.wgt[i] * s.norm[i]
+		s.cp[i] = s.cv[i] * s.scale[i]
+		s.cd[i] = s.norm[i] * s.dwgt[i]
+		s.ce[i] = s.norm[i] * s.wgt[i] * s.dlnW
+	}
 	s.fwhm = math.Exp(lW)
 	s.upper = l.upper
 	return s, nil
@@ -140,9 +150,11 @@ func (s *Shape) Half(d float64) (v, p, dv float64) {
 	for i := range s.n {
 		x := d * s.scale[i]
 		cc, pp := s.tab[i].eval(s.node[i], x)
-		v += s.wgt[i] * s.norm[i] * cc
-		p += s.wgt[i] * s.norm[i] * pp * s.scale[i]
-		dv += s.norm[i] * (s.dwgt[i]*cc - s.wgt[i]*pp*x*s.dlnW)
+		v += s.cv[i] * cc
+		p += s.cp[i] * pp
+		// ∂/∂ln n_e of w_c·Ĉ_c(d·W_c/W): the weight's change and the
+		// argument's (d ln(W_c/W) = −d ln W).
+		dv += s.cd[i]*cc - s.ce[i]*pp*x
 	}
 	return v, p, dv
 }
@@ -153,8 +165,8 @@ func (s *Shape) HalfValue(d float64) (v, p float64) {
 	for i := range s.n {
 		x := d * s.scale[i]
 		cc, pp := s.tab[i].eval(s.node[i], x)
-		v += s.wgt[i] * s.norm[i] * cc
-		p += s.wgt[i] * s.norm[i] * pp * s.scale[i]
+		v += s.cv[i] * cc
+		p += s.cp[i] * pp
 	}
 	return v, p
 }
@@ -165,11 +177,10 @@ func (s *Shape) cum(dl float64, deriv bool) (float64, float64) {
 	for i := range s.n {
 		x := d * s.scale[i]
 		cc, p := s.tab[i].eval(s.node[i], x)
-		v += s.wgt[i] * s.norm[i] * cc
+		v += s.cv[i] * cc
 		if deriv {
-			// ∂/∂ln n_e of w_c·Ĉ_c(d·W_c/W): the weight's change and the
-			// argument's (d ln(W_c/W) = −d ln W).
-			dv += s.norm[i] * (s.dwgt[i]*cc - s.wgt[i]*p*x*s.dlnW)
+			// As Half.
+			dv += s.cd[i]*cc - s.ce[i]*p*x
 		}
 	}
 	if dl < 0 {
@@ -233,9 +244,9 @@ func (t *cumTable) eval(np *nodeProfile, x float64) (c, p float64) {
 	}
 	s := x * t.inv0
 	var i int
-	var hh, u float64
+	var hh, ih, u float64
 	if s < 1 {
-		i, hh, u = 0, t.x0, s
+		i, hh, ih, u = 0, t.x0, t.inv0, s
 	} else {
 		// s = 2^o · (1 + m/2⁵²): octave o, cell from the top mantissa
 		// bits, position in the cell from the rest.
@@ -247,6 +258,7 @@ func (t *cumTable) eval(np *nodeProfile, x float64) (c, p float64) {
 		i = 1 + o<<cumTabShift + sub
 		oct := math.Float64frombits(uint64(o+1023) << 52) // 2^o
 		hh = t.x0 * oct / cumTabPerOctave
+		ih = t.inv0 * cumTabPerOctave * math.Float64frombits(uint64(1023-o)<<52) // 1/hh
 		u = float64(rest) / (1 << (52 - cumTabShift))
 	}
 	c0, c1 := t.c[i], t.c[i+1]
@@ -255,6 +267,6 @@ func (t *cumTable) eval(np *nodeProfile, x float64) (c, p float64) {
 	u3 := u2 * u
 	c = (2*u3-3*u2+1)*c0 + (u3-2*u2+u)*d0 + (-2*u3+3*u2)*c1 + (u3-u2)*d1
 	dc := (6*u2-6*u)*c0 + (3*u2-4*u+1)*d0 + (-6*u2+6*u)*c1 + (3*u2-2*u)*d1
-	p = dc / hh
+	p = dc * ih
 	return c, p
 }
