@@ -162,6 +162,19 @@ const (
 	wholeWingStep = 1.15
 	// wholeMaxIter bounds the Levenberg–Marquardt iterations.
 	wholeMaxIter = 60
+	// wholeStopDrop and wholeStopLambda end the Levenberg–Marquardt
+	// iterations before a trial evaluation: when the next step, at a
+	// damping λ ≤ wholeStopLambda (almost the Gauss–Newton step), is
+	// predicted by the fit's linear model to lower χ² by at most
+	// wholeStopDrop, the fit is at its minimum to within √wholeStopDrop
+	// = 0.003 σ of any parameter (χ² is in units of the pixel σ; a 1σ
+	// move is a change of 1), inside the 1e-4 of the χ²-drop test that
+	// would otherwise end it one evaluation later — or, where rounding
+	// makes that last step raise χ² by a hair, many evaluations later
+	// (λ raised tenfold until a step too small to matter is accepted).
+	// Our choice, no source.
+	wholeStopDrop   = 1e-5
+	wholeStopLambda = 1e-3
 )
 
 // wholeBaselineOrder returns the Legendre order of the baseline: 1 over a
@@ -303,6 +316,11 @@ type wholeFitter struct {
 	jacBaseOK bool
 	// Scratch of linearAreas.
 	linA, linG, linInv, linWork []float64
+	// nEval counts the model evaluations of levmar (eval); noEarlyStop
+	// (tests) ends levmar by its χ²-drop test alone, not by the
+	// predicted drop (wholeStopDrop).
+	nEval       int
+	noEarlyStop bool
 }
 
 func (f *wholeFitter) isMasked(lam float64) bool {
@@ -537,7 +555,7 @@ func (f *wholeFitter) reset(opt Options, m diag.Measurement) {
 		th: f.th, model: f.model, jac: f.jac, linSol: f.linSol, sens: f.sens, wbuf: f.wbuf, mbuf: f.mbuf, invW: f.invW,
 		pool: f.pool, lines: f.lines[:0], ws: f.ws,
 		normBase: f.normBase, linBase: f.linBase, linBaseG: f.linBaseG,
-		linA: f.linA, linG: f.linG, linInv: f.linInv, linWork: f.linWork}
+		linA: f.linA, linG: f.linG, linInv: f.linInv, linWork: f.linWork, noEarlyStop: f.noEarlyStop}
 }
 
 // standInT returns the temperature at which line l's SH99 tables cover

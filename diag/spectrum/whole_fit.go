@@ -77,6 +77,7 @@ func (f *wholeFitter) evalLines(th []float64) error {
 
 // eval computes the model and the Jacobian at th and returns χ².
 func (f *wholeFitter) eval(th []float64) (float64, error) {
+	f.nEval++
 	if err := f.evalLines(th); err != nil {
 		return 0, err
 	}
@@ -306,7 +307,7 @@ func (f *wholeFitter) levmar() (iters int, converged bool, chi2 float64, err err
 	lam := 1e-3
 	for iters = 1; iters <= wholeMaxIter; iters++ {
 		f.normal(A, g)
-		accepted := false
+		accepted, tried := false, false
 		var newChi2 float64
 		for lam < 1e12 {
 			copy(M, A)
@@ -328,6 +329,17 @@ func (f *wholeFitter) levmar() (iters int, converged bool, chi2 float64, err err
 				trial[a] = f.th[a] + d[a]
 			}
 			f.clampParams(trial)
+			if !f.noEarlyStop && lam <= wholeStopLambda && f.unclamped(trial, d) && predictedDrop(A, g, d, np) <= wholeStopDrop {
+				// An almost undamped step that the fit's linear model says
+				// lowers χ² by less than wholeStopDrop: at the minimum
+				// (see wholeStopDrop). The lines are put back to f.th if
+				// a trial moved them.
+				if tried {
+					_, err = f.eval(f.th)
+				}
+				return iters, true, chi2, err
+			}
+			tried = true
 			c2, e := f.eval(trial)
 			if e == nil && c2 <= chi2 {
 				newChi2 = c2
@@ -353,6 +365,32 @@ func (f *wholeFitter) levmar() (iters int, converged bool, chi2 float64, err err
 		}
 	}
 	return wholeMaxIter, false, chi2, nil
+}
+
+// predictedDrop returns the fall of χ² that the linear model of the fit
+// predicts for the step d: 2dᵀg − dᵀAd (A = JᵀWJ, g = JᵀWr).
+func predictedDrop(A, g, d []float64, np int) float64 {
+	var dg, dad float64
+	for a := range np {
+		dg += d[a] * g[a]
+		var s float64
+		for b := range np {
+			s += A[a*np+b] * d[b]
+		}
+		dad += d[a] * s
+	}
+	return 2*dg - dad
+}
+
+// unclamped reports whether the trial parameters are f.th + d, not moved
+// by clampParams.
+func (f *wholeFitter) unclamped(trial, d []float64) bool {
+	for a := range trial {
+		if trial[a] != f.th[a]+d[a] {
+			return false
+		}
+	}
+	return true
 }
 
 // linearAreas solves the linear least-squares problem of free line

@@ -313,3 +313,114 @@ func (e *refEdgeEval) at(t float64) (c, dc, dens float64) {
 	dc = hermiteValue(e.dF[j], e.dF[j+1], edgeSlope(l.dq, j, nb), edgeSlope(l.dq, j+1, nb), u)
 	return c, dc, dens
 }
+
+// TestWholeEarlyStop: ending the Levenberg–Marquardt iterations when the
+// next almost undamped step is predicted to lower χ² by less than
+// wholeStopDrop (a trial evaluation or more saved) moves n_e, T_exc and
+// their total σ by less than 1 % of their σ against iterating until the
+// χ² drop itself falls below 1e-4 (noEarlyStop), and saves evaluations.
+// Spectra: SH99-shaped surveys like the bulk reanalysis benchmark's
+// (SynthesizeStark, Hα–H10, photon noise), and the whole fit's own
+// generator at other densities, widths and line sets.
+func TestWholeEarlyStop(t *testing.T) {
+	type tcase struct {
+		sp  *Spectrum
+		opt Options
+	}
+	var cases []tcase
+	grid := linspace(380, 700, 2048)
+	rng := rand.New(rand.NewPCG(11, 2026))
+	bopt := Options{KeepWindows: true, Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.35, GasTemperatureK: 1000}}
+	for range 8 {
+		y, _, err := SynthesizeStark(SynthConfig{WavelengthNM: grid, Uppers: []int{3, 4, 5, 6, 7, 8, 9, 10},
+			ExcitationTemperatureK: 7000 * (1 + 0.04*rng.NormFloat64()), ElectronDensityM3: 3e21 * (1 + 0.05*rng.NormFloat64()),
+			GasTemperatureK: 1000, InstrumentFWHMNM: 0.35, HalphaArea: 1})
+		if err != nil {
+			t.Fatal(err)
+		}
+		peak := 0.0
+		for _, v := range y {
+			peak = max(peak, v)
+		}
+		scale, off := (15000+30000*rng.Float64())/peak, 300+300*rng.Float64()
+		for i, v := range y {
+			c := v*scale + off
+			y[i] = math.Round(c + math.Sqrt(c+36)*rng.NormFloat64())
+		}
+		cases = append(cases, tcase{&Spectrum{Name: "s", WavelengthNM: grid, Counts: y}, bopt})
+	}
+	for k, g := range []wgen{
+		{lo: 375, hi: 700, npx: 2048, uppers: []int{3, 4, 5, 6, 7}, texc: 5200, ne: 2.2e21, instG: 0.5, gasT: 600,
+			peakCounts: 20000, baseFrac: 0.02, gain: 2, read: 10},
+		{lo: 375, hi: 700, npx: 2048, uppers: []int{3, 4, 5, 6, 7, 8}, texc: 9000, ne: 3e22, instG: 0.2, gasT: 1500,
+			peakCounts: 5000, baseFrac: 0.05, gain: 2, read: 10},
+		{lo: 640, hi: 670, npx: 1024, uppers: []int{3}, texc: 5200, ne: 8e20, instG: 0.03, gasT: 600,
+			peakCounts: 20000, baseFrac: 0.02, gain: 2, read: 10},
+		{lo: 375, hi: 700, npx: 2048, uppers: []int{3, 4, 5, 6, 7, 8, 9}, texc: 7000, ne: 1e23, instG: 0.3, gasT: 2000,
+			peakCounts: 20000, baseFrac: 0.02, gain: 2, read: 10},
+	} {
+		sp, _, err := g.gen(rand.New(rand.NewPCG(uint64(k), 7)))
+		if err != nil {
+			t.Fatal(err)
+		}
+		opt := g.wopt(ModelWhole)
+		opt.MaxUpper = 9
+		cases = append(cases, tcase{sp, opt})
+		if k == 0 {
+			opt.WholeFreeGasTemperature = true
+			cases = append(cases, tcase{sp, opt})
+		}
+	}
+	var nEarly, nFull, compared int
+	for k, c := range cases {
+		p := NewPipeline(4096)
+		res, err := p.Analyze(c.sp, c.opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if res.Whole == nil {
+			t.Fatalf("case %d: no whole fit", k)
+		}
+		early := res.Whole
+		// The same fit from the same input, iterated to the χ²-drop test.
+		opt := c.opt
+		if opt.Model == "" {
+			opt.Model = ModelWhole
+		}
+		q := NewPipeline(4096)
+		q.wfit = &wholeFitter{noEarlyStop: true}
+		full, err := q.wholeFit(p.lastWhole, opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		nEarly += p.wfit.nEval
+		nFull += q.wfit.nEval
+		for _, v := range []struct {
+			name         string
+			a, ua, b, ub *float64
+		}{
+			{"n_e", early.ElectronDensityM3, early.ElectronDensityUncM3, full.ElectronDensityM3, full.ElectronDensityUncM3},
+			{"T_exc", early.ExcitationTemperatureK, early.ExcitationTemperatureUncK, full.ExcitationTemperatureK, full.ExcitationTemperatureUncK},
+		} {
+			if (v.a == nil) != (v.b == nil) || (v.ua == nil) != (v.ub == nil) {
+				t.Errorf("case %d %s: reported %v/%v with the early stop, %v/%v without", k, v.name, v.a != nil, v.ua != nil, v.b != nil, v.ub != nil)
+				continue
+			}
+			if v.a == nil || v.ua == nil {
+				continue
+			}
+			s := *v.ub
+			if d := math.Abs(*v.a-*v.b) / s; !(d < 0.01) {
+				t.Errorf("case %d %s: %.6g with the early stop, %.6g without: %.3g of σ", k, v.name, *v.a, *v.b, d)
+			}
+			if d := math.Abs(*v.ua-*v.ub) / s; !(d < 0.01) {
+				t.Errorf("case %d %s σ: %.6g with the early stop, %.6g without: %.3g of σ", k, v.name, *v.ua, *v.ub, d)
+			}
+			compared++
+		}
+	}
+	t.Logf("%d values compared; %d evaluations with the early stop, %d without", compared, nEarly, nFull)
+	if compared < 2*len(cases)-2 || !(nEarly < nFull) {
+		t.Errorf("%d values compared; %d evaluations with the early stop, %d without", compared, nEarly, nFull)
+	}
+}
