@@ -243,35 +243,52 @@ func (f *wholeFitter) baseBlocks() {
 	for i, s := range f.s {
 		wt[i] = 1 / (s * s)
 	}
-	for i := range f.x {
-		w := wt[i]
-		for a := range nB {
-			va := leg[a][i]
-			if va == 0 {
-				continue
-			}
-			wa := va * w
-			for b := a; b < nB; b++ {
-				nb[a*nB+b] += wa * leg[b][i]
+	// Each element is its sum over the pixels in order (a zero Legendre
+	// value adds a zero), four of them at a time in registers: nBase ≤ 4
+	// (wholeBaselineOrder ≤ 3).
+	n := len(f.x)
+	row := func(b int) []float64 {
+		if b < nB {
+			return leg[b][:n]
+		}
+		return leg[0][:n] // padding, its sums unused
+	}
+	wa := grow(&f.mbuf, n)
+	for a := range nB {
+		for i := range wa {
+			wa[i] = leg[a][i] * wt[i]
+		}
+		r0, r1, r2, r3 := row(a), row(a+1), row(a+2), row(a+3)
+		var s0, s1, s2, s3 float64
+		for i, x := range wa {
+			s0 += x * r0[i]
+			s1 += x * r1[i]
+			s2 += x * r2[i]
+			s3 += x * r3[i]
+		}
+		for k, v := range [4]float64{s0, s1, s2, s3} {
+			if a+k < nB {
+				nb[a*nB+a+k] = v
 			}
 		}
 	}
+	y, ws := f.y[:n], wt[:n]
 	for b := range nB {
-		var sg float64
-		y, ws := f.y[:len(leg[b])], wt[:len(leg[b])]
-		for i, v := range leg[b] {
+		l1 := leg[b][:n]
+		r0, r1, r2, r3 := row(b), row(b+1), row(b+2), row(b+3)
+		var sg, s0, s1, s2, s3 float64
+		for i, v := range l1 {
 			sg += v * y[i] * ws[i]
+			s0 += v * r0[i] * ws[i]
+			s1 += v * r1[i] * ws[i]
+			s2 += v * r2[i] * ws[i]
+			s3 += v * r3[i] * ws[i]
 		}
 		lg[b] = sg
-		for c := b; c < nB; c++ {
-			var s float64
-			l1, l2 := leg[b], leg[c]
-			l2 = l2[:len(l1)]
-			ws := wt[:len(l1)]
-			for i := range l1 {
-				s += l1[i] * l2[i] * ws[i]
+		for k, v := range [4]float64{s0, s1, s2, s3} {
+			if b+k < nB {
+				lb[b*nB+b+k] = v
 			}
-			lb[b*nB+c] = s
 		}
 	}
 	f.baseOK = true
@@ -413,16 +430,31 @@ func (f *wholeFitter) linearAreas() (areas, sig []float64, chi2 float64, ok bool
 	// Line–line, line–baseline and line–data blocks over each line's
 	// pixel range.
 	for a, la := range f.lines {
-		ab := A[a*np+nl : a*np+nl+nb]
-		var ga float64
-		for i := la.plo; i < la.phi; i++ {
-			v := la.u[i-la.plo] * w[i]
-			ga += v * f.y[i]
-			for b := range ab {
-				ab[b] += v * f.leg[b][i]
+		// The line's data and baseline sums in registers (nb ≤ 4; rows
+		// beyond nb are padding, their sums unused).
+		leg := func(b int) []float64 {
+			if b < nb {
+				return f.leg[b][la.plo:la.phi]
 			}
+			return f.leg[0][la.plo:la.phi]
+		}
+		r0, r1, r2, r3 := leg(0), leg(1), leg(2), leg(3)
+		ys, ws, us := f.y[la.plo:la.phi], w[la.plo:la.phi], la.u[:la.phi-la.plo]
+		var ga, s0, s1, s2, s3 float64
+		for i, u := range us {
+			v := u * ws[i]
+			ga += v * ys[i]
+			s0 += v * r0[i]
+			s1 += v * r1[i]
+			s2 += v * r2[i]
+			s3 += v * r3[i]
 		}
 		g[a] = ga
+		for b, v := range [4]float64{s0, s1, s2, s3} {
+			if b < nb {
+				A[a*np+nl+b] = v
+			}
+		}
 		for b := a; b < nl; b++ {
 			lb := f.lines[b]
 			lo, hi := max(la.plo, lb.plo), min(la.phi, lb.phi)
