@@ -555,7 +555,8 @@ func (f *wholeFitter) reset(opt Options, m diag.Measurement) {
 		th: f.th, model: f.model, jac: f.jac, linSol: f.linSol, sens: f.sens, wbuf: f.wbuf, mbuf: f.mbuf, invW: f.invW,
 		pool: f.pool, lines: f.lines[:0], ws: f.ws,
 		normBase: f.normBase, linBase: f.linBase, linBaseG: f.linBaseG,
-		linA: f.linA, linG: f.linG, linInv: f.linInv, linWork: f.linWork, noEarlyStop: f.noEarlyStop}
+		linA: f.linA, linG: f.linG, linInv: f.linInv, linWork: f.linWork, saveBuf: f.saveBuf, saveRows: f.saveRows,
+		noEarlyStop: f.noEarlyStop}
 }
 
 // standInT returns the temperature at which line l's SH99 tables cover
@@ -792,7 +793,12 @@ func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
 	pr.lamMid, pr.lamHalf = 0.5*(f.x[0]+f.x[np-1]), math.Max(0.5*span, 1e-9)
 	f.par = pr
 	for len(f.leg) < pr.nBase {
-		f.leg = append(f.leg, nil)
+		// Within the capacity the previous fits' rows are reused.
+		if len(f.leg) < cap(f.leg) {
+			f.leg = f.leg[:len(f.leg)+1]
+		} else {
+			f.leg = append(f.leg, nil)
+		}
 	}
 	f.leg = f.leg[:pr.nBase]
 	for j := range f.leg {
