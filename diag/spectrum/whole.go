@@ -235,7 +235,7 @@ type wline struct {
 	// same broadened (the Hermite slopes of the broadened cumulative).
 	pe, pq []float64
 	// State of the last evaluation.
-	starkFWHM float64
+	starkFWHM float64 // the Voigt fallback's (lineShape); a tabulated line's is shStarkFWHM
 	extra2    float64 // G_extra² used
 	clampGap2 float64 // D_table² − (G² + D²) when clamped, else 0
 	sig       float64 // significance (area/σ, free areas)
@@ -995,11 +995,6 @@ func (f *wholeFitter) lineShape(l *wline, lnNe, instG, gasT float64) (float64, f
 			e2 = 0
 		}
 		l.extra2 = e2
-		if w, err := l.sh.StarkWidthNM(sh99.FWHM, ne, te); err == nil {
-			l.starkFWHM = w
-		} else {
-			l.starkFWHM = 0
-		}
 		return math.Sqrt(e2), l.lorOther, nil
 	}
 	// Voigt fallback: a Lorentzian of the Stark FWHM of the default
@@ -1011,6 +1006,17 @@ func (f *wholeFitter) lineShape(l *wline, lnNe, instG, gasT float64) (float64, f
 	l.vGamma = (w + l.lorOther) / 2
 	l.vDGamma = p * w / 2 // dγ/dln n_e
 	return math.Sqrt(g2), 0, nil
+}
+
+// shStarkFWHM returns the Stark-only FWHM of tabulated line l at ln n_e
+// (held at the tables' range, read at the line's temperature as
+// lineShape reads its shape; 0 where the tables give none).
+func (f *wholeFitter) shStarkFWHM(l *wline, lnNe float64) float64 {
+	ne := math.Min(math.Max(math.Exp(lnNe), l.neLo), l.neHi)
+	if w, err := l.sh.StarkWidthNM(sh99.FWHM, ne, f.tOf(l)); err == nil {
+		return w
+	}
+	return 0
 }
 
 // half evaluates the line's base shape, as the last lineShape prepared

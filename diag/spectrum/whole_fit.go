@@ -793,7 +793,11 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 	anyClamp := false
 	var maxGap float64
 	for k, l := range f.lines {
-		wl := WholeLine{Upper: l.t.Upper, Name: l.t.Name(), Shape: "Voigt", Area: unsc(f.areaOf(k, th)), AreaUnc: unsc(areaCov(k)), StarkFWHMNM: l.starkFWHM}
+		sw := l.starkFWHM
+		if l.shapeSH {
+			sw = f.shStarkFWHM(l, th[pr.iNe])
+		}
+		wl := WholeLine{Upper: l.t.Upper, Name: l.t.Name(), Shape: "Voigt", Area: unsc(f.areaOf(k, th)), AreaUnc: unsc(areaCov(k)), StarkFWHMNM: sw}
 		if l.shapeSH {
 			wl.Shape = "SH99"
 			wl.TableTemperatureK = f.tOf(l)
