@@ -1123,9 +1123,23 @@ func (f *wholeFitter) convolve(l *wline, gF, lF float64, deriv bool) {
 	// the grid's centre (evalLine): the left half and the centre bin are
 	// computed (edges and bins 0 … m) and mirrored.
 	m := l.m
+	// Where the kernel's reach lies inside the grid (r ≤ j ≤ nb−1−r) its
+	// two halves are folded: k₀·x_j + Σ_t k_t (x_{j−t} + x_{j+t}).
+	kh := kern[r : 2*r+1] // k₀ … k_r
 	if !deriv {
-		// The loop below without ds: the same sums in the same order.
+		// The loop below without ds.
 		for j := 0; j <= m; j++ {
+			if j >= r && j+r <= nb-1 {
+				ms, ps := l.mass[j-r:j+r+1], l.pe[j-r:j+r+1]
+				s, sp := kh[0]*ms[r], kh[0]*ps[r]
+				for t := 1; t <= r; t++ {
+					s += kh[t] * (ms[r-t] + ms[r+t])
+					sp += kh[t] * (ps[r-t] + ps[r+t])
+				}
+				l.q[j], l.q[nb-1-j] = s, s
+				l.pq[j], l.pq[nb-j] = sp, sp
+				continue
+			}
 			lo, hi := max(j-r, 0), min(j+r, nb)
 			k := kern[lo-j+r : hi-j+r+1]
 			ps := l.pe[lo : hi+1]
@@ -1153,6 +1167,19 @@ func (f *wholeFitter) convolve(l *wline, gF, lF float64, deriv bool) {
 		return
 	}
 	for j := 0; j <= m; j++ {
+		if j >= r && j+r <= nb-1 {
+			ms, dms, ps := l.mass[j-r:j+r+1], l.dmass[j-r:j+r+1], l.pe[j-r:j+r+1]
+			s, ds, sp := kh[0]*ms[r], kh[0]*dms[r], kh[0]*ps[r]
+			for t := 1; t <= r; t++ {
+				s += kh[t] * (ms[r-t] + ms[r+t])
+				ds += kh[t] * (dms[r-t] + dms[r+t])
+				sp += kh[t] * (ps[r-t] + ps[r+t])
+			}
+			l.q[j], l.dq[j] = s, ds
+			l.q[nb-1-j], l.dq[nb-1-j] = s, ds
+			l.pq[j], l.pq[nb-j] = sp, sp
+			continue
+		}
 		lo, hi := max(j-r, 0), min(j+r, nb)
 		k := kern[lo-j+r : hi-j+r+1]
 		ps := l.pe[lo : hi+1]
