@@ -321,6 +321,10 @@ type wholeFitter struct {
 	// predicted drop (wholeStopDrop).
 	nEval       int
 	noEarlyStop bool
+	// scanFit is scanDensity's scratch fitter; scanOnly marks it (setup
+	// evaluates its lines without derivatives).
+	scanFit  *wholeFitter
+	scanOnly bool
 }
 
 func (f *wholeFitter) isMasked(lam float64) bool {
@@ -556,7 +560,7 @@ func (f *wholeFitter) reset(opt Options, m diag.Measurement) {
 		pool: f.pool, lines: f.lines[:0], ws: f.ws,
 		normBase: f.normBase, linBase: f.linBase, linBaseG: f.linBaseG,
 		linA: f.linA, linG: f.linG, linInv: f.linInv, linWork: f.linWork, saveBuf: f.saveBuf, saveRows: f.saveRows,
-		noEarlyStop: f.noEarlyStop}
+		noEarlyStop: f.noEarlyStop, scanFit: f.scanFit}
 }
 
 // standInT returns the temperature at which line l's SH99 tables cover
@@ -845,7 +849,14 @@ func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
 		}
 	}
 	// Linear start: free areas and baseline at the starting shapes.
-	if err := f.evalLines(th); err != nil {
+	if f.scanOnly {
+		for _, l := range f.lines {
+			g, tg := f.lineInst(l, th)
+			if err := f.evalLine(l, th[pr.iNe], th[pr.iOff], g, tg, false); err != nil {
+				return err
+			}
+		}
+	} else if err := f.evalLines(th); err != nil {
 		return err
 	}
 	areas, areaSig, _, ok := f.linearAreas()

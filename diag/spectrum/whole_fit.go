@@ -567,9 +567,18 @@ func boltzmannBeta(lines []*wline, areas, sig []float64) (float64, bool) {
 // that density) over half-decade steps from 1e18 to 3.16e23 m⁻³.
 func (f *wholeFitter) scanDensity(in wholeInput) float64 {
 	best, bestChi := 1e21, math.Inf(1)
+	// One scratch fitter for the scan, its buffers kept from density to
+	// density (and from fit to fit); its lines are evaluated without
+	// derivatives (the linear fit reads the pixel means alone, the same
+	// bit for bit).
+	if f.scanFit == nil {
+		f.scanFit = &wholeFitter{}
+	}
+	g := f.scanFit
 	for e := 18.0; e <= 23.5; e += 0.5 {
 		ne := math.Pow(10, e)
-		g := &wholeFitter{opt: f.opt, m: f.m, te: f.te, teRel: f.teRel, gasT: f.gasT, mass: f.mass, pert: f.pert}
+		g.reset(f.opt, f.m)
+		g.te, g.teRel, g.gasT, g.mass, g.pert, g.scanOnly = f.te, f.teRel, f.gasT, f.mass, f.pert, true
 		if err := g.setup(in, ne); err != nil {
 			continue
 		}

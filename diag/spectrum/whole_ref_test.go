@@ -424,3 +424,60 @@ func TestWholeEarlyStop(t *testing.T) {
 		t.Errorf("%d values compared; %d evaluations with the early stop, %d without", compared, nEarly, nFull)
 	}
 }
+
+// TestScanDensityReuse: the starting-density scan with its one reused
+// scratch fitter, lines evaluated without derivatives, picks the density
+// that fresh fitters with full evaluations pick, at the same χ², twice in
+// a row on the same pipeline (buffers left by the first scan).
+func TestScanDensityReuse(t *testing.T) {
+	checked := 0
+	for k, g := range []wgen{
+		{lo: 375, hi: 700, npx: 2048, uppers: []int{3, 4, 5, 6, 7}, texc: 5200, ne: 2.2e21, instG: 0.5, gasT: 600,
+			peakCounts: 20000, baseFrac: 0.02, gain: 2, read: 10},
+		{lo: 640, hi: 670, npx: 1024, uppers: []int{3}, texc: 5200, ne: 8e20, instG: 0.03, gasT: 600,
+			peakCounts: 20000, baseFrac: 0.02, gain: 2, read: 10},
+		{lo: 375, hi: 700, npx: 2048, uppers: []int{3, 4, 5, 6, 7, 8, 9}, texc: 7000, ne: 1e23, instG: 0.3, gasT: 2000,
+			peakCounts: 20000, baseFrac: 0.02, gain: 2, read: 10},
+	} {
+		sp, _, err := g.gen(rand.New(rand.NewPCG(uint64(k), 8)))
+		if err != nil {
+			t.Fatal(err)
+		}
+		opt := g.wopt(ModelWhole)
+		p := NewPipeline(4096)
+		if _, err := p.Analyze(sp, opt); err != nil {
+			t.Fatal(err)
+		}
+		f, in := p.wfit, p.lastWhole
+		// The scan as it was: a fresh fitter per density, full evaluations.
+		want, wantChi := 1e21, math.Inf(1)
+		for e := 18.0; e <= 23.5; e += 0.5 {
+			ne := math.Pow(10, e)
+			g := &wholeFitter{opt: f.opt, m: f.m, te: f.te, teRel: f.teRel, gasT: f.gasT, mass: f.mass, pert: f.pert}
+			if err := g.setup(in, ne); err != nil {
+				continue
+			}
+			if _, _, chi, ok := g.linearAreas(); ok && chi < wantChi {
+				want, wantChi = ne, chi
+			}
+		}
+		for range 2 {
+			if got := f.scanDensity(in); got != want {
+				t.Errorf("case %d: scan picks %g m⁻³, fresh fitters %g m⁻³", k, got, want)
+			}
+			g := f.scanFit
+			g.reset(f.opt, f.m)
+			g.te, g.teRel, g.gasT, g.mass, g.pert, g.scanOnly = f.te, f.teRel, f.gasT, f.mass, f.pert, true
+			if err := g.setup(in, want); err != nil {
+				t.Fatal(err)
+			}
+			if _, _, chi, ok := g.linearAreas(); !ok || chi != wantChi {
+				t.Errorf("case %d: χ² %v at the picked density, fresh %v", k, chi, wantChi)
+			}
+			checked++
+		}
+	}
+	if checked != 6 {
+		t.Fatalf("%d scans checked", checked)
+	}
+}
