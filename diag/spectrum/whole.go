@@ -325,6 +325,9 @@ type wholeFitter struct {
 	// evaluates its lines without derivatives).
 	scanFit  *wholeFitter
 	scanOnly bool
+	// atTh says levmar ended with the normal equations at f.th in ws
+	// (A, then M, then g: see levmar).
+	atTh bool
 }
 
 func (f *wholeFitter) isMasked(lam float64) bool {
@@ -606,7 +609,7 @@ func (f *wholeFitter) newLine() *wline {
 // the linear start (free areas and baseline at the starting shapes,
 // then T_exc from them or from the lines route).
 func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
-	f.baseOK, f.jacBaseOK = false, false
+	f.baseOK, f.jacBaseOK, f.atTh = false, false, false
 	x := in.x
 	n := len(x)
 	// Lines: every member the search found inside the range, up to the

@@ -322,6 +322,7 @@ func (f *wholeFitter) levmar() (iters int, converged bool, chi2 float64, err err
 		return 0, false, 0, err
 	}
 	lam := 1e-3
+	f.atTh = false
 	for iters = 1; iters <= wholeMaxIter; iters++ {
 		f.normal(A, g)
 		accepted, tried := false, false
@@ -354,6 +355,7 @@ func (f *wholeFitter) levmar() (iters int, converged bool, chi2 float64, err err
 				if tried {
 					_, err = f.eval(f.th)
 				}
+				f.atTh = true // A and g are those at f.th (result reads them)
 				return iters, true, chi2, err
 			}
 			tried = true
@@ -368,6 +370,7 @@ func (f *wholeFitter) levmar() (iters int, converged bool, chi2 float64, err err
 		if !accepted {
 			// No step lowers χ²: at the minimum within rounding.
 			_, err = f.eval(f.th)
+			f.atTh = true
 			return iters, true, chi2, err
 		}
 		copy(f.th, trial)
@@ -600,7 +603,14 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 	}
 	A := make([]float64, np*np)
 	g := make([]float64, np)
-	f.normal(A, g)
+	if f.atTh {
+		// Levenberg–Marquardt stopped at f.th after building the normal
+		// equations there (the lines are in the same state, bit for bit).
+		copy(A, f.ws[:np*np])
+		copy(g, f.ws[2*np*np:2*np*np+np])
+	} else {
+		f.normal(A, g)
+	}
 	th := f.th
 	// At the end of the shapes' density range n_e is a limit: it is held
 	// (its row and column taken out) and not reported.
