@@ -199,6 +199,10 @@ type cumTable struct {
 	x0, inv0 float64 // x₀ and 1/x₀
 	xMax     float64
 	c, p     []float64 // Ĉ and P at the nodes
+	// k holds each cell's cubic Hermite interpolant as a polynomial in
+	// the position u ∈ [0, 1) in the cell, a₀ + a₁u + a₂u² + a₃u³ (four
+	// values a cell), evaluated by Horner's rule.
+	k []float64
 }
 
 // cumTabPerOctave is the number of cells per octave (a power of two):
@@ -232,6 +236,16 @@ func (np *nodeProfile) cumTab() *cumTable {
 			t.c[i] = np.cumAt(x)
 			t.p[i] = np.at(x)
 		}
+		t.k = make([]float64, 4*(n-1))
+		for i := range n - 1 {
+			hh := x0
+			if i > 0 {
+				hh = x0 * math.Ldexp(1, (i-1)>>cumTabShift) / cumTabPerOctave
+			}
+			c0, c1, d0, d1 := t.c[i], t.c[i+1], t.p[i]*hh, t.p[i+1]*hh
+			dc := c1 - c0
+			t.k[4*i], t.k[4*i+1], t.k[4*i+2], t.k[4*i+3] = c0, d0, 3*dc-2*d0-d1, d0+d1-2*dc
+		}
 		np.tab = t
 	})
 	return np.tab
@@ -244,9 +258,9 @@ func (t *cumTable) eval(np *nodeProfile, x float64) (c, p float64) {
 	}
 	s := x * t.inv0
 	var i int
-	var hh, ih, u float64
+	var ih, u float64
 	if s < 1 {
-		i, hh, ih, u = 0, t.x0, t.inv0, s
+		i, ih, u = 0, t.inv0, s
 	} else {
 		// s = 2^o · (1 + m/2⁵²): octave o, cell from the top mantissa
 		// bits, position in the cell from the rest.
@@ -256,17 +270,11 @@ func (t *cumTable) eval(np *nodeProfile, x float64) (c, p float64) {
 		sub := int(m >> (52 - cumTabShift))
 		rest := m & (1<<(52-cumTabShift) - 1)
 		i = 1 + o<<cumTabShift + sub
-		oct := math.Float64frombits(uint64(o+1023) << 52) // 2^o
-		hh = t.x0 * oct / cumTabPerOctave
-		ih = t.inv0 * cumTabPerOctave * math.Float64frombits(uint64(1023-o)<<52) // 1/hh
+		ih = t.inv0 * cumTabPerOctave * math.Float64frombits(uint64(1023-o)<<52) // 1/(cell width)
 		u = float64(rest) / (1 << (52 - cumTabShift))
 	}
-	c0, c1 := t.c[i], t.c[i+1]
-	d0, d1 := t.p[i]*hh, t.p[i+1]*hh
-	u2 := u * u
-	u3 := u2 * u
-	c = (2*u3-3*u2+1)*c0 + (u3-2*u2+u)*d0 + (-2*u3+3*u2)*c1 + (u3-u2)*d1
-	dc := (6*u2-6*u)*c0 + (3*u2-4*u+1)*d0 + (-6*u2+6*u)*c1 + (3*u2-2*u)*d1
-	p = dc * ih
+	k := t.k[4*i : 4*i+4 : 4*i+4]
+	c = k[0] + u*(k[1]+u*(k[2]+u*k[3]))
+	p = (k[1] + u*(2*k[2]+u*3*k[3])) * ih
 	return c, p
 }
