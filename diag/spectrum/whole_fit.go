@@ -108,16 +108,21 @@ func (f *wholeFitter) assemble(th []float64) (float64, error) {
 		f.jacBaseOK = true
 	} else {
 		for i := range n {
-			clear(jac[i*np : i*np+iBase])
+			for k := i * np; k < i*np+iBase; k++ {
+				jac[k] = 0
+			}
 		}
 	}
-	tb := th[iBase : iBase+nBase]
+	// The baseline, term by term over all pixels (each pixel's sum in the
+	// same order, from 0).
 	for i := range mod {
-		var s float64
-		for b, t := range tb {
-			s += t * f.leg[b][i]
+		mod[i] = 0
+	}
+	for b, t := range th[iBase : iBase+nBase] {
+		lb := f.leg[b][:len(mod)]
+		for i, v := range lb {
+			mod[i] += t * v
 		}
-		mod[i] = s
 	}
 	for k, l := range f.lines {
 		a := f.areaOf(k, th)
@@ -198,9 +203,11 @@ func (f *wholeFitter) normal(A, g []float64) {
 			}
 			g[a] += va * r
 			wa := va * w
-			ar := A[a*np : (a+1)*np]
-			for b := a; b < np; b++ {
-				ar[b] += wa * row[b]
+			rr := row[a:np]
+			ar := A[a*np+a : (a+1)*np]
+			ar = ar[:len(rr)]
+			for b, v := range rr {
+				ar[b] += wa * v
 			}
 		}
 		for a, va := range row[iBase:] {
