@@ -259,10 +259,26 @@ func (l *Line) locate(neM3, tK float64, g [][]float64, what string) (corners, er
 		})
 	}
 	if !ok {
-		return c, fmt.Errorf("sh99: %s %s at n_e = %.4g m⁻³, T = %.4g K: %w (%s)", l.name(), what, neM3, tK, ErrOutOfRange, l.rangeText(tK, g))
+		return c, &cellError{l: l, what: what, neM3: neM3, tK: tK, g: g}
 	}
 	return c, nil
 }
+
+// cellError is locate's error outside the tables: its message (the range
+// that is covered) is written only when asked for, since callers that
+// probe the tables' reach read none.
+type cellError struct {
+	l        *Line
+	what     string
+	neM3, tK float64
+	g        [][]float64
+}
+
+func (e *cellError) Error() string {
+	return fmt.Sprintf("sh99: %s %s at n_e = %.4g m⁻³, T = %.4g K: %v (%s)", e.l.name(), e.what, e.neM3, e.tK, ErrOutOfRange, e.l.rangeText(e.tK, e.g))
+}
+
+func (e *cellError) Unwrap() error { return ErrOutOfRange }
 
 // neRange returns the n_e range (m⁻³) at temperature tK in which every
 // cell has its corners available in g (nil: tabulated profiles). ok is

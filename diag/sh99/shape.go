@@ -37,9 +37,13 @@ type Shape struct {
 	scale [4]float64 // W_c/W · x per nm at the corner: x = |Δλ|·scale
 	norm  [4]float64 // 1/(2∫₀^∞P dx) at the corner
 	// dlnW is d ln W / d ln n_e inside the cell.
-	dlnW  float64
-	fwhm  float64
-	upper int
+	dlnW float64
+	// Per-corner factors of Half: cv = w_c·norm, cp = cv·scale (of the
+	// density), cd = norm·dw_c and ce = norm·w_c·dlnW (of the ln n_e
+	// derivative).
+	cv, cp, cd, ce [4]float64
+	fwhm           float64
+	upper          int
 }
 
 // Shape prepares the profile at (neM3, tK) for fast cumulative
@@ -96,6 +100,12 @@ func (l *Line) Shape(neM3, tK float64) (Shape, error) {
 		s.scale[i] = math.Exp(s.scale[i]-lW) * l.xPerNM[js[i]]
 	}
 	s.dlnW = dlW
+	for i := range s.n {
+		s.cv[i] = s.wgt[i] * s.norm[i]
+		s.cp[i] = s.cv[i] * s.scale[i]
+		s.cd[i] = s.norm[i] * s.dwgt[i]
+		s.ce[i] = s.norm[i] * s.wgt[i] * s.dlnW
+	}
 	s.fwhm = math.Exp(lW)
 	s.upper = l.upper
 	return s, nil
@@ -124,19 +134,41 @@ func (s *Shape) CumulativeDeriv(dlNM float64) (c, dcdLnNe float64) {
 // Δλ, nm⁻¹, from the same Hermite interpolant) and the derivative of the
 // cumulative with respect to ln n_e, in one pass.
 func (s *Shape) Eval(dlNM float64) (c, p, dcdLnNe float64) {
-	d := math.Abs(dlNM)
-	var v, dv float64
-	for i := range s.n {
-		x := d * s.scale[i]
-		cc, pp := s.tab[i].eval(s.node[i], x)
-		v += s.wgt[i] * s.norm[i] * cc
-		p += s.wgt[i] * s.norm[i] * pp * s.scale[i]
-		dv += s.norm[i] * (s.dwgt[i]*cc - s.wgt[i]*pp*x*s.dlnW)
-	}
+	v, p, dv := s.Half(math.Abs(dlNM))
 	if dlNM < 0 {
 		return 0.5 - v, p, -dv
 	}
 	return 0.5 + v, p, dv
+}
+
+// Half is Eval on one side: for d ≥ 0 (nm) it returns v = Cumulative(d)
+// − ½ (the profile is even, so Cumulative(−d) = ½ − v), p(d) = p(−d),
+// and dv, the derivative of v with respect to ln n_e (that of
+// Cumulative(−d) is −dv): what Eval(±d) gives, bit for bit, from one
+// evaluation.
+func (s *Shape) Half(d float64) (v, p, dv float64) {
+	for i := range s.n {
+		x := d * s.scale[i]
+		cc, pp := s.tab[i].eval(s.node[i], x)
+		v += s.cv[i] * cc
+		p += s.cp[i] * pp
+		// ∂/∂ln n_e of w_c·Ĉ_c(d·W_c/W): the weight's change and the
+		// argument's (d ln(W_c/W) = −d ln W).
+		dv += s.cd[i]*cc - s.ce[i]*pp*x
+	}
+	return v, p, dv
+}
+
+// HalfValue is Half without the derivative in ln n_e (v and p the same,
+// bit for bit).
+func (s *Shape) HalfValue(d float64) (v, p float64) {
+	for i := range s.n {
+		x := d * s.scale[i]
+		cc, pp := s.tab[i].eval(s.node[i], x)
+		v += s.cv[i] * cc
+		p += s.cp[i] * pp
+	}
+	return v, p
 }
 
 func (s *Shape) cum(dl float64, deriv bool) (float64, float64) {
@@ -145,11 +177,10 @@ func (s *Shape) cum(dl float64, deriv bool) (float64, float64) {
 	for i := range s.n {
 		x := d * s.scale[i]
 		cc, p := s.tab[i].eval(s.node[i], x)
-		v += s.wgt[i] * s.norm[i] * cc
+		v += s.cv[i] * cc
 		if deriv {
-			// ∂/∂ln n_e of w_c·Ĉ_c(d·W_c/W): the weight's change and the
-			// argument's (d ln(W_c/W) = −d ln W).
-			dv += s.norm[i] * (s.dwgt[i]*cc - s.wgt[i]*p*x*s.dlnW)
+			// As Half.
+			dv += s.cd[i]*cc - s.ce[i]*p*x
 		}
 	}
 	if dl < 0 {
@@ -168,6 +199,10 @@ type cumTable struct {
 	x0, inv0 float64 // x₀ and 1/x₀
 	xMax     float64
 	c, p     []float64 // Ĉ and P at the nodes
+	// k holds each cell's cubic Hermite interpolant as a polynomial in
+	// the position u ∈ [0, 1) in the cell, a₀ + a₁u + a₂u² + a₃u³ (four
+	// values a cell), evaluated by Horner's rule.
+	k []float64
 }
 
 // cumTabPerOctave is the number of cells per octave (a power of two):
@@ -201,6 +236,16 @@ func (np *nodeProfile) cumTab() *cumTable {
 			t.c[i] = np.cumAt(x)
 			t.p[i] = np.at(x)
 		}
+		t.k = make([]float64, 4*(n-1))
+		for i := range n - 1 {
+			hh := x0
+			if i > 0 {
+				hh = x0 * math.Ldexp(1, (i-1)>>cumTabShift) / cumTabPerOctave
+			}
+			c0, c1, d0, d1 := t.c[i], t.c[i+1], t.p[i]*hh, t.p[i+1]*hh
+			dc := c1 - c0
+			t.k[4*i], t.k[4*i+1], t.k[4*i+2], t.k[4*i+3] = c0, d0, 3*dc-2*d0-d1, d0+d1-2*dc
+		}
 		np.tab = t
 	})
 	return np.tab
@@ -213,9 +258,9 @@ func (t *cumTable) eval(np *nodeProfile, x float64) (c, p float64) {
 	}
 	s := x * t.inv0
 	var i int
-	var hh, u float64
+	var ih, u float64
 	if s < 1 {
-		i, hh, u = 0, t.x0, s
+		i, ih, u = 0, t.inv0, s
 	} else {
 		// s = 2^o · (1 + m/2⁵²): octave o, cell from the top mantissa
 		// bits, position in the cell from the rest.
@@ -225,16 +270,11 @@ func (t *cumTable) eval(np *nodeProfile, x float64) (c, p float64) {
 		sub := int(m >> (52 - cumTabShift))
 		rest := m & (1<<(52-cumTabShift) - 1)
 		i = 1 + o<<cumTabShift + sub
-		oct := math.Float64frombits(uint64(o+1023) << 52) // 2^o
-		hh = t.x0 * oct / cumTabPerOctave
+		ih = t.inv0 * cumTabPerOctave * math.Float64frombits(uint64(1023-o)<<52) // 1/(cell width)
 		u = float64(rest) / (1 << (52 - cumTabShift))
 	}
-	c0, c1 := t.c[i], t.c[i+1]
-	d0, d1 := t.p[i]*hh, t.p[i+1]*hh
-	u2 := u * u
-	u3 := u2 * u
-	c = (2*u3-3*u2+1)*c0 + (u3-2*u2+u)*d0 + (-2*u3+3*u2)*c1 + (u3-u2)*d1
-	dc := (6*u2-6*u)*c0 + (3*u2-4*u+1)*d0 + (-6*u2+6*u)*c1 + (3*u2-2*u)*d1
-	p = dc / hh
+	k := t.k[4*i : 4*i+4 : 4*i+4]
+	c = k[0] + u*(k[1]+u*(k[2]+u*k[3]))
+	p = (k[1] + u*(2*k[2]+u*3*k[3])) * ih
 	return c, p
 }

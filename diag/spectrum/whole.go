@@ -162,6 +162,19 @@ const (
 	wholeWingStep = 1.15
 	// wholeMaxIter bounds the Levenberg–Marquardt iterations.
 	wholeMaxIter = 60
+	// wholeStopDrop and wholeStopLambda end the Levenberg–Marquardt
+	// iterations before a trial evaluation: when the next step, at a
+	// damping λ ≤ wholeStopLambda (almost the Gauss–Newton step), is
+	// predicted by the fit's linear model to lower χ² by at most
+	// wholeStopDrop, the fit is at its minimum to within √wholeStopDrop
+	// = 0.003 σ of any parameter (χ² is in units of the pixel σ; a 1σ
+	// move is a change of 1), inside the 1e-4 of the χ²-drop test that
+	// would otherwise end it one evaluation later — or, where rounding
+	// makes that last step raise χ² by a hair, many evaluations later
+	// (λ raised tenfold until a step too small to matter is accepted).
+	// Our choice, no source.
+	wholeStopDrop   = 1e-5
+	wholeStopLambda = 1e-3
 )
 
 // wholeBaselineOrder returns the Legendre order of the baseline: 1 over a
@@ -204,20 +217,25 @@ type wline struct {
 	reach float64
 	// Per evaluation (over [plo, phi)).
 	u, du, dn, dg []float64
-	lastSF        shapeFunc
 	shp           sh99.Shape
 	kL            float64 // kernel Lorentzian FWHM of the last evaluation
+	// vGamma and vDGamma are the Voigt fallback's Lorentzian half width
+	// of the last evaluation and its derivative in ln n_e.
+	vGamma, vDGamma float64
 	// Wing nodes (distances from the centre, nm) and the shape's
 	// cumulative, density and ln n_e derivative there (left half, then
 	// right half).
 	wing, wc, wp, wd []float64
+	// wingH and wingInvH are the lengths of the wing nodes' intervals
+	// and their inverses.
+	wingH, wingInvH []float64
 	// Grid scratch.
 	cum, dcum, fq, dfq, mass, dmass, q, dq, kern []float64
 	// pe and pq are the base shape's density at the bin edges and the
 	// same broadened (the Hermite slopes of the broadened cumulative).
 	pe, pq []float64
 	// State of the last evaluation.
-	starkFWHM float64
+	starkFWHM float64 // the Voigt fallback's (lineShape); a tabulated line's is shStarkFWHM
 	extra2    float64 // G_extra² used
 	clampGap2 float64 // D_table² − (G² + D²) when clamped, else 0
 	sig       float64 // significance (area/σ, free areas)
@@ -280,9 +298,36 @@ type wholeFitter struct {
 	saveRows [][]float64
 	wbuf     []float64
 	mbuf     []float64
-	notes    []string
+	// invW holds the fitted pixels' inverse widths, 1/(b − a).
+	invW  []float64
+	notes []string
 	// masked are wavelength intervals left out (saturated lines).
 	masked [][2]float64
+	// Blocks of the normal equations that depend on the pixels alone
+	// (their σ, data and the baseline's Legendre values), built once per
+	// setup and copied in: the baseline–baseline block of JᵀWJ
+	// (normBase, nBase² values, rows in order), and of the linear
+	// solve (linBase, its baseline–baseline block; linBaseG, its
+	// baseline–data part). baseOK says they are of the current setup.
+	normBase, linBase, linBaseG []float64
+	baseOK                      bool
+	// jacBaseOK says the Jacobian's baseline columns hold the pixels'
+	// Legendre values (assemble) since the last setup.
+	jacBaseOK bool
+	// Scratch of linearAreas.
+	linA, linG, linInv, linWork []float64
+	// nEval counts the model evaluations of levmar (eval); noEarlyStop
+	// (tests) ends levmar by its χ²-drop test alone, not by the
+	// predicted drop (wholeStopDrop).
+	nEval       int
+	noEarlyStop bool
+	// scanFit is scanDensity's scratch fitter; scanOnly marks it (setup
+	// evaluates its lines without derivatives).
+	scanFit  *wholeFitter
+	scanOnly bool
+	// atTh says levmar ended with the normal equations at f.th in ws
+	// (A, then M, then g: see levmar).
+	atTh bool
 }
 
 func (f *wholeFitter) isMasked(lam float64) bool {
@@ -514,8 +559,11 @@ func (f *wholeFitter) beyondEdge() (ne float64, ok bool) {
 func (f *wholeFitter) reset(opt Options, m diag.Measurement) {
 	*f = wholeFitter{opt: opt, m: m,
 		x: f.x[:0], a: f.a[:0], b: f.b[:0], y: f.y[:0], s: f.s[:0], leg: f.leg[:0],
-		th: f.th, model: f.model, jac: f.jac, linSol: f.linSol, sens: f.sens, wbuf: f.wbuf, mbuf: f.mbuf,
-		pool: f.pool, lines: f.lines[:0], ws: f.ws}
+		th: f.th, model: f.model, jac: f.jac, linSol: f.linSol, sens: f.sens, wbuf: f.wbuf, mbuf: f.mbuf, invW: f.invW,
+		pool: f.pool, lines: f.lines[:0], ws: f.ws,
+		normBase: f.normBase, linBase: f.linBase, linBaseG: f.linBaseG,
+		linA: f.linA, linG: f.linG, linInv: f.linInv, linWork: f.linWork, saveBuf: f.saveBuf, saveRows: f.saveRows,
+		noEarlyStop: f.noEarlyStop, scanFit: f.scanFit}
 }
 
 // standInT returns the temperature at which line l's SH99 tables cover
@@ -547,7 +595,7 @@ func (f *wholeFitter) newLine() *wline {
 		f.nPool++
 		*l = wline{u: l.u, du: l.du, dn: l.dn, dg: l.dg, wing: l.wing[:0], wc: l.wc, wp: l.wp, wd: l.wd,
 			cum: l.cum, dcum: l.dcum, fq: l.fq, dfq: l.dfq, mass: l.mass, dmass: l.dmass, q: l.q, dq: l.dq,
-			kern: l.kern, pe: l.pe, pq: l.pq}
+			kern: l.kern, pe: l.pe, pq: l.pq, wingH: l.wingH, wingInvH: l.wingInvH}
 		return l
 	}
 	l := &wline{}
@@ -561,6 +609,7 @@ func (f *wholeFitter) newLine() *wline {
 // the linear start (free areas and baseline at the starting shapes,
 // then T_exc from them or from the lines route).
 func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
+	f.baseOK, f.jacBaseOK, f.atTh = false, false, false
 	x := in.x
 	n := len(x)
 	// Lines: every member the search found inside the range, up to the
@@ -703,6 +752,10 @@ func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
 	if np < 10 {
 		return errors.New("too few usable pixels")
 	}
+	f.invW = grow(&f.invW, np)
+	for i := range f.invW {
+		f.invW[i] = 1 / (f.b[i] - f.a[i])
+	}
 	f.scale = windowScaleExp(f.y)
 	if f.scale != 0 {
 		for i := range f.y {
@@ -747,7 +800,12 @@ func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
 	pr.lamMid, pr.lamHalf = 0.5*(f.x[0]+f.x[np-1]), math.Max(0.5*span, 1e-9)
 	f.par = pr
 	for len(f.leg) < pr.nBase {
-		f.leg = append(f.leg, nil)
+		// Within the capacity the previous fits' rows are reused.
+		if len(f.leg) < cap(f.leg) {
+			f.leg = f.leg[:len(f.leg)+1]
+		} else {
+			f.leg = append(f.leg, nil)
+		}
 	}
 	f.leg = f.leg[:pr.nBase]
 	for j := range f.leg {
@@ -794,7 +852,14 @@ func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
 		}
 	}
 	// Linear start: free areas and baseline at the starting shapes.
-	if err := f.evalLines(th); err != nil {
+	if f.scanOnly {
+		for _, l := range f.lines {
+			g, tg := f.lineInst(l, th)
+			if err := f.evalLine(l, th[pr.iNe], th[pr.iOff], g, tg, false); err != nil {
+				return err
+			}
+		}
+	} else if err := f.evalLines(th); err != nil {
 		return err
 	}
 	areas, areaSig, _, ok := f.linearAreas()
@@ -887,6 +952,12 @@ func (f *wholeFitter) setupGrid(l *wline, ne float64) error {
 		l.wing = append(l.wing, 2*edge)
 	}
 	nw := len(l.wing)
+	l.wingH = grow(&l.wingH, nw-1)
+	l.wingInvH = grow(&l.wingInvH, nw-1)
+	for i := range nw - 1 {
+		l.wingH[i] = l.wing[i+1] - l.wing[i]
+		l.wingInvH[i] = 1 / l.wingH[i]
+	}
 	l.wc = grow(&l.wc, 2*nw)
 	l.wp = grow(&l.wp, 2*nw)
 	l.wd = grow(&l.wd, 2*nw)
@@ -913,14 +984,10 @@ func (f *wholeFitter) setupGrid(l *wline, ne float64) error {
 // kernL is the kernel Lorentzian FWHM of the last evaluation.
 func (l *wline) kernL() float64 { return l.kL }
 
-// shapeFunc evaluates a line's base shape at detuning d (nm): its
-// cumulative integral, its density and the cumulative's derivative in
-// ln n_e.
-type shapeFunc func(d float64) (c, p, dc float64)
-
-// lineShape prepares a line's base shape at ln n_e and returns it with
-// the Gaussian and Lorentzian FWHM of the kernel still to be applied.
-func (f *wholeFitter) lineShape(l *wline, lnNe, instG, gasT float64) (shapeFunc, float64, float64, error) {
+// lineShape prepares a line's base shape at ln n_e (for wline.half) and
+// returns the Gaussian and Lorentzian FWHM of the kernel still to be
+// applied.
+func (f *wholeFitter) lineShape(l *wline, lnNe, instG, gasT float64) (float64, float64, error) {
 	ne := math.Exp(lnNe)
 	dg := diag.DopplerFWHMNM(l.center, gasT, f.mass)
 	g2 := instG*instG + dg*dg
@@ -931,7 +998,7 @@ func (f *wholeFitter) lineShape(l *wline, lnNe, instG, gasT float64) (shapeFunc,
 		te := f.tOf(l)
 		s, err := l.sh.Shape(ne, te)
 		if err != nil {
-			return nil, 0, 0, err
+			return 0, 0, err
 		}
 		l.shp = s
 		l.held = held
@@ -942,19 +1009,7 @@ func (f *wholeFitter) lineShape(l *wline, lnNe, instG, gasT float64) (shapeFunc,
 			e2 = 0
 		}
 		l.extra2 = e2
-		if w, err := l.sh.StarkWidthNM(sh99.FWHM, ne, te); err == nil {
-			l.starkFWHM = w
-		} else {
-			l.starkFWHM = 0
-		}
-		if held {
-			// The shape does not follow n_e beyond the tables.
-			return func(d float64) (float64, float64, float64) {
-				c, p, _ := l.shp.Eval(d)
-				return c, p, 0
-			}, math.Sqrt(e2), l.lorOther, nil
-		}
-		return l.shp.Eval, math.Sqrt(e2), l.lorOther, nil
+		return math.Sqrt(e2), l.lorOther, nil
 	}
 	// Voigt fallback: a Lorentzian of the Stark FWHM of the default
 	// relation plus the other Lorentzians, convolved with the Gaussian.
@@ -962,44 +1017,90 @@ func (f *wholeFitter) lineShape(l *wline, lnNe, instG, gasT float64) (shapeFunc,
 	p := l.rel.Exponent
 	l.starkFWHM = w
 	l.extra2 = g2
-	gamma := (w + l.lorOther) / 2
-	dGamma := p * w / 2 // dγ/dln n_e
-	return func(d float64) (float64, float64, float64) {
-		den := gamma*gamma + d*d
-		c := 0.5 + math.Atan(d/gamma)/math.Pi
-		return c, gamma / (math.Pi * den), -d / (math.Pi * den) * dGamma
-	}, math.Sqrt(g2), 0, nil
+	l.vGamma = (w + l.lorOther) / 2
+	l.vDGamma = p * w / 2 // dγ/dln n_e
+	return math.Sqrt(g2), 0, nil
+}
+
+// shStarkFWHM returns the Stark-only FWHM of tabulated line l at ln n_e
+// (held at the tables' range, read at the line's temperature as
+// lineShape reads its shape; 0 where the tables give none).
+func (f *wholeFitter) shStarkFWHM(l *wline, lnNe float64) float64 {
+	ne := math.Min(math.Max(math.Exp(lnNe), l.neLo), l.neHi)
+	if w, err := l.sh.StarkWidthNM(sh99.FWHM, ne, f.tOf(l)); err == nil {
+		return w
+	}
+	return 0
+}
+
+// half evaluates the line's base shape, as the last lineShape prepared
+// it, at detuning d ≥ 0 (nm): the odd part v of its cumulative integral
+// (C(±d) = ½ ± v), its density p (even in d) and, with deriv, the
+// derivative dv of v in ln n_e (that of C(±d) is ±dv; 0 without deriv).
+// A shape held at the end of its tables does not follow n_e: its dv is
+// 0 (evalLine writes 0 on both sides).
+func (l *wline) half(d float64, deriv bool) (v, p, dv float64) {
+	if l.shapeSH {
+		if !deriv || l.held {
+			v, p = l.shp.HalfValue(d)
+			return v, p, 0
+		}
+		return l.shp.Half(d)
+	}
+	gamma := l.vGamma
+	den := gamma*gamma + d*d
+	v = math.Atan(d/gamma) / math.Pi
+	p = gamma / (math.Pi * den)
+	if deriv {
+		dv = -d / (math.Pi * den) * l.vDGamma
+	}
+	return v, p, dv
 }
 
 // evalLine computes the line's unit profile's pixel means (u), their
 // derivative in the offset (du) and in ln n_e (dn) over its pixel range,
 // for line centre λ_k + off. Without deriv only u is computed (the same,
 // bit for bit); du and dn are left alone.
+//
+// The fine grid's edges are symmetric about the centre, ±(k + ½)h for
+// k = 0 … m, and so are the base shape's bin masses, its densities at
+// the edges and the masses' derivative in ln n_e: the shape is evaluated
+// on the right half (wline.half) and mirrored, the masses taken as
+// differences of the cumulative's odd part (no cancellation against ½),
+// and the symmetric kernel's output is computed on one half (convolve).
 func (f *wholeFitter) evalLine(l *wline, lnNe, off, instG, gasT float64, deriv bool) error {
-	sf, gF, lF, err := f.lineShape(l, lnNe, instG, gasT)
+	gF, lF, err := f.lineShape(l, lnNe, instG, gasT)
 	if err != nil {
 		return err
 	}
-	l.lastSF, l.kL = sf, lF
-	nb := 2*l.m + 1
+	l.kL = lF
+	m := l.m
 	h := l.h
-	e0 := -(float64(l.m) + 0.5) * h
-	for j := 0; j <= nb; j++ {
-		l.cum[j], l.pe[j], l.dcum[j] = sf(e0 + float64(j)*h)
-	}
-	for j := range nb {
-		l.mass[j] = l.cum[j+1] - l.cum[j]
-	}
-	if deriv {
-		for j := range nb {
-			l.dmass[j] = l.dcum[j+1] - l.dcum[j]
+	var vPrev, dvPrev float64
+	for k := 0; k <= m; k++ {
+		v, p, dv := l.half((float64(k)+0.5)*h, deriv)
+		jr, jl := m+1+k, m-k
+		l.cum[jr], l.cum[jl] = 0.5+v, 0.5-v
+		l.pe[jr], l.pe[jl] = p, p
+		l.dcum[jr], l.dcum[jl] = dv, 0-dv
+		// Bin m lies between edges m and m+1; bins m ± k (k ≥ 1) between
+		// the k−1st and kth edges of either side.
+		if k == 0 {
+			l.mass[m] = 2 * v
+			l.dmass[m] = 2 * dv
+		} else {
+			mk, dk := v-vPrev, dv-dvPrev
+			l.mass[m+k], l.mass[m-k] = mk, mk
+			l.dmass[m+k], l.dmass[m-k] = dk, dk
 		}
+		vPrev, dvPrev = v, dv
 	}
 	// Wing nodes, left (index i) and right (nw + i).
 	nw := len(l.wing)
 	for i, d := range l.wing {
-		l.wc[i], l.wp[i], l.wd[i] = sf(-d)
-		l.wc[nw+i], l.wp[nw+i], l.wd[nw+i] = sf(d)
+		v, p, dv := l.half(d, deriv)
+		l.wc[i], l.wp[i], l.wd[i] = 0.5-v, p, 0-dv
+		l.wc[nw+i], l.wp[nw+i], l.wd[nw+i] = 0.5+v, p, dv
 	}
 	f.convolve(l, gF, lF, deriv)
 	f.pixels(l, off, deriv)
@@ -1020,67 +1121,39 @@ func (f *wholeFitter) evalLine(l *wline, lnNe, off, instG, gasT float64, deriv b
 // derivatives (l.dq) are left alone: l.q and l.pq are the same, bit for
 // bit (pixels without deriv reads no more).
 func (f *wholeFitter) convolve(l *wline, gF, lF float64, deriv bool) {
-	h := l.h
 	nb := 2*l.m + 1
-	sigma := voigt.SigmaFromFWHM(gF)
-	gamma := lF / 2
-	if sigma < 0.05*h && gamma < 0.02*h {
+	kern, r, ok := l.kernel(gF, lF)
+	if !ok {
 		copy(l.q, l.mass)
 		if deriv {
 			copy(l.dq, l.dmass)
 		}
 		copy(l.pq, l.pe)
 		return
-	}
-	// 4.5σ: the Gaussian's mass beyond is 7e-6 (renormalised below).
-	reach := 4.5 * sigma
-	if gamma >= 0.02*h {
-		reach += 20 * gamma
-	} else {
-		gamma = 0
-	}
-	r := min(int(math.Ceil(reach/h)), nb)
-	kern := grow(&l.kern, 2*r+1)
-	var ks float64
-	if gamma == 0 && sigma < h {
-		// A Gaussian narrower than the step is not sampled well: three
-		// weights with its variance, 2a·h² = σ² (exact to second order).
-		r = 1
-		kern = grow(&l.kern, 3)
-		a := sigma * sigma / (2 * h * h)
-		kern[0], kern[1], kern[2] = a, 1-2*a, a
-		ks = 1
-	}
-	for i := -r; i <= r && !(gamma == 0 && sigma < h); i++ {
-		d := float64(i) * h
-		var v float64
-		switch {
-		case gamma == 0:
-			v = math.Exp(-d * d / (2 * sigma * sigma))
-		case sigma < 0.05*h:
-			v = 1 / (gamma*gamma + d*d)
-		default:
-			v = voigt.Profile(d, sigma, gamma)
-		}
-		kern[i+r] = v
-		ks += v
-	}
-	if !(ks > 0) {
-		copy(l.q, l.mass)
-		if deriv {
-			copy(l.dq, l.dmass)
-		}
-		copy(l.pq, l.pe)
-		return
-	}
-	for i := range kern {
-		kern[i] /= ks
 	}
 	// Bin masses (q, dq, nb values) and edge densities (pq, nb+1 values)
-	// in one pass; the kernel is symmetric (kern[j−i+r] = kern[i−j+r]).
+	// in one pass; the kernel is symmetric (kern[j−i+r] = kern[i−j+r]),
+	// and so are the masses, their derivatives and the densities about
+	// the grid's centre (evalLine): the left half and the centre bin are
+	// computed (edges and bins 0 … m) and mirrored.
+	m := l.m
+	// Where the kernel's reach lies inside the grid (r ≤ j ≤ nb−1−r) its
+	// two halves are folded: k₀·x_j + Σ_t k_t (x_{j−t} + x_{j+t}).
+	kh := kern[r : 2*r+1] // k₀ … k_r
 	if !deriv {
-		// The loop below without ds: the same sums in the same order.
-		for j := 0; j <= nb; j++ {
+		// The loop below without ds.
+		for j := 0; j <= m; j++ {
+			if j >= r && j+r <= nb-1 {
+				ms, ps := l.mass[j-r:j+r+1], l.pe[j-r:j+r+1]
+				s, sp := kh[0]*ms[r], kh[0]*ps[r]
+				for t := 1; t <= r; t++ {
+					s += kh[t] * (ms[r-t] + ms[r+t])
+					sp += kh[t] * (ps[r-t] + ps[r+t])
+				}
+				l.q[j], l.q[nb-1-j] = s, s
+				l.pq[j], l.pq[nb-j] = sp, sp
+				continue
+			}
 			lo, hi := max(j-r, 0), min(j+r, nb)
 			k := kern[lo-j+r : hi-j+r+1]
 			ps := l.pe[lo : hi+1]
@@ -1102,14 +1175,25 @@ func (f *wholeFitter) convolve(l *wline, gF, lF float64, deriv bool) {
 					sp += kv * ps[i]
 				}
 			}
-			if j < nb {
-				l.q[j] = s
-			}
-			l.pq[j] = sp
+			l.q[j], l.q[nb-1-j] = s, s
+			l.pq[j], l.pq[nb-j] = sp, sp
 		}
 		return
 	}
-	for j := 0; j <= nb; j++ {
+	for j := 0; j <= m; j++ {
+		if j >= r && j+r <= nb-1 {
+			ms, dms, ps := l.mass[j-r:j+r+1], l.dmass[j-r:j+r+1], l.pe[j-r:j+r+1]
+			s, ds, sp := kh[0]*ms[r], kh[0]*dms[r], kh[0]*ps[r]
+			for t := 1; t <= r; t++ {
+				s += kh[t] * (ms[r-t] + ms[r+t])
+				ds += kh[t] * (dms[r-t] + dms[r+t])
+				sp += kh[t] * (ps[r-t] + ps[r+t])
+			}
+			l.q[j], l.dq[j] = s, ds
+			l.q[nb-1-j], l.dq[nb-1-j] = s, ds
+			l.pq[j], l.pq[nb-j] = sp, sp
+			continue
+		}
 		lo, hi := max(j-r, 0), min(j+r, nb)
 		k := kern[lo-j+r : hi-j+r+1]
 		ps := l.pe[lo : hi+1]
@@ -1134,11 +1218,74 @@ func (f *wholeFitter) convolve(l *wline, gF, lF float64, deriv bool) {
 				sp += kv * ps[i]
 			}
 		}
-		if j < nb {
-			l.q[j], l.dq[j] = s, ds
-		}
-		l.pq[j] = sp
+		l.q[j], l.dq[j] = s, ds
+		l.q[nb-1-j], l.dq[nb-1-j] = s, ds
+		l.pq[j], l.pq[nb-j] = sp, sp
 	}
+}
+
+// kernel returns the line's sampled kernel of Gaussian FWHM gF and
+// Lorentzian FWHM lF on its grid step (2r+1 weights, symmetric,
+// normalised to sum 1; see convolve), in l.kern; ok is false where the
+// kernel is the identity.
+func (l *wline) kernel(gF, lF float64) (kern []float64, r int, ok bool) {
+	h := l.h
+	nb := 2*l.m + 1
+	sigma := voigt.SigmaFromFWHM(gF)
+	gamma := lF / 2
+	if sigma < 0.05*h && gamma < 0.02*h {
+		return nil, 0, false
+	}
+	// 4.5σ: the Gaussian's mass beyond is 7e-6 (renormalised below).
+	reach := 4.5 * sigma
+	if gamma >= 0.02*h {
+		reach += 20 * gamma
+	} else {
+		gamma = 0
+	}
+	r = min(int(math.Ceil(reach/h)), nb)
+	kern = grow(&l.kern, 2*r+1)
+	var ks float64
+	switch {
+	case gamma == 0 && sigma < h:
+		// A Gaussian narrower than the step is not sampled well: three
+		// weights with its variance, 2a·h² = σ² (exact to second order).
+		r = 1
+		kern = grow(&l.kern, 3)
+		a := sigma * sigma / (2 * h * h)
+		kern[0], kern[1], kern[2] = a, 1-2*a, a
+		ks = 1
+	case gamma == 0:
+		// The Gaussian's samples are even in i (float64(−i)·h is −(i·h)):
+		// computed once for ±i, summed in order.
+		for i := 0; i <= r; i++ {
+			d := float64(i) * h
+			v := math.Exp(-d * d / (2 * sigma * sigma))
+			kern[r+i], kern[r-i] = v, v
+		}
+		for _, v := range kern {
+			ks += v
+		}
+	default:
+		for i := -r; i <= r; i++ {
+			d := float64(i) * h
+			var v float64
+			if sigma < 0.05*h {
+				v = 1 / (gamma*gamma + d*d)
+			} else {
+				v = voigt.Profile(d, sigma, gamma)
+			}
+			kern[i+r] = v
+			ks += v
+		}
+	}
+	if !(ks > 0) {
+		return nil, 0, false
+	}
+	for i := range kern {
+		kern[i] /= ks
+	}
+	return kern, r, true
 }
 
 // pixels turns the broadened bin masses into pixel means: the
@@ -1167,93 +1314,133 @@ func (f *wholeFitter) pixels(l *wline, off float64, deriv bool) {
 		}
 	}
 	nw := len(l.wing)
-	shR, dshR := F[nb]-l.wc[nw], dF[nb]-l.wd[nw]
-	// rho returns the slope (mass per bin) of F at edge j.
-	rho := func(j int, q []float64) float64 {
-		switch j {
-		case 0:
-			return q[0]
-		case nb:
-			return q[nb-1]
-		}
-		return 0.5 * (q[j-1] + q[j])
-	}
-	wl := 0 // left wing walking pointer: node interval [wing[wl+1], wing[wl]]
-	wr := 0
-	at := func(t float64) (c, dc, dens float64) {
-		switch {
-		case t < e0:
-			d := -t
-			if d >= l.wing[nw-1] {
-				return l.wc[nw-1], l.wd[nw-1], 0
-			}
-			for wl > 0 && d < l.wing[wl] {
-				wl--
-			}
-			for wl < nw-2 && d >= l.wing[wl+1] {
-				wl++
-			}
-			// Nodes at −wing[wl] (right end) and −wing[wl+1] (left end).
-			a, b := -l.wing[wl+1], -l.wing[wl]
-			hh := b - a
-			u := (t - a) / hh
-			c, dens = hermite(l.wc[wl+1], l.wc[wl], l.wp[wl+1]*hh, l.wp[wl]*hh, u, hh)
-			dc = l.wd[wl+1] + u*(l.wd[wl]-l.wd[wl+1])
-			return c, dc, dens
-		case t > eEnd:
-			if t >= l.wing[nw-1] {
-				return l.wc[2*nw-1] + shR, l.wd[2*nw-1] + dshR, 0
-			}
-			for wr > 0 && t < l.wing[wr] {
-				wr--
-			}
-			for wr < nw-2 && t >= l.wing[wr+1] {
-				wr++
-			}
-			a, b := l.wing[wr], l.wing[wr+1]
-			hh := b - a
-			u := (t - a) / hh
-			c, dens = hermite(l.wc[nw+wr], l.wc[nw+wr+1], l.wp[nw+wr]*hh, l.wp[nw+wr+1]*hh, u, hh)
-			dc = l.wd[nw+wr] + u*(l.wd[nw+wr+1]-l.wd[nw+wr])
-			// The shift fades with the wing (the kernel's leak is a
-			// near-grid effect); keep it constant: it is below 1e-6.
-			return c + shR, dc + dshR, dens
-		}
-		fj := (t - e0) / h
-		j := min(int(fj), nb-1)
-		u := fj - float64(j)
-		c, dens = hermite(F[j], F[j+1], l.pq[j]*h, l.pq[j+1]*h, u, h)
-		if deriv {
-			dc, _ = hermite(dF[j], dF[j+1], rho(j, l.dq), rho(j+1, l.dq), u, h)
-		}
-		return c, dc, dens
-	}
+	e := edgeEval{l: l, F: F, dF: dF, e0: e0, eEnd: eEnd, h: h, invH: 1 / h, shR: F[nb] - l.wc[nw], dshR: dF[nb] - l.wd[nw],
+		nb: nb, nw: nw, deriv: deriv}
 	ctr := l.center + off
-	pa, pda, pdens := at(f.a[l.plo] - ctr)
+	pa, pda, pdens := e.at(f.a[l.plo] - ctr)
 	for i := l.plo; i < l.phi; i++ {
 		if i > l.plo && f.a[i] != f.b[i-1] {
-			pa, pda, pdens = at(f.a[i] - ctr)
+			pa, pda, pdens = e.at(f.a[i] - ctr)
 		}
-		cb, dcb, densb := at(f.b[i] - ctr)
-		w := f.b[i] - f.a[i]
+		cb, dcb, densb := e.at(f.b[i] - ctr)
+		iw := f.invW[i] // 1/(b − a)
 		k := i - l.plo
-		l.u[k] = (cb - pa) / w
+		l.u[k] = (cb - pa) * iw
 		if deriv {
-			l.dn[k] = (dcb - pda) / w
+			l.dn[k] = (dcb - pda) * iw
 			// d/dδ of the mean = −(density(b) − density(a))/w.
-			l.du[k] = -(densb - pdens) / w
+			l.du[k] = (pdens - densb) * iw
 		}
 		pa, pda, pdens = cb, dcb, densb
 	}
 }
 
-// hermite interpolates between (0, c0) and (1, c1) with slopes d0, d1
-// (per unit u) and returns the value and its derivative per unit of the
-// original axis (interval length hh).
-func hermite(c0, c1, d0, d1, u, hh float64) (float64, float64) {
+// edgeEval evaluates a line's broadened cumulative F, its derivative in
+// ln n_e and the broadened density at a detuning (pixels): on the grid
+// from the bin edges' F (cubic Hermite, the broadened densities as
+// slopes), beyond it from the wing nodes; wl and wr walk the left and
+// right wing nodes (the detunings come in ascending order).
+type edgeEval struct {
+	l                 *wline
+	F, dF             []float64
+	e0, eEnd, h, invH float64
+	shR, dshR         float64
+	nb, nw, wl, wr    int
+	deriv             bool
+}
+
+// at returns F, dF/dln n_e and the density at detuning t (nm); without
+// deriv only F (the others 0).
+func (e *edgeEval) at(t float64) (c, dc, dens float64) {
+	l, nw := e.l, e.nw
+	switch {
+	case t < e.e0:
+		d := -t
+		if d >= l.wing[nw-1] {
+			return l.wc[nw-1], l.wd[nw-1], 0
+		}
+		wl := e.wl
+		for wl > 0 && d < l.wing[wl] {
+			wl--
+		}
+		for wl < nw-2 && d >= l.wing[wl+1] {
+			wl++
+		}
+		e.wl = wl
+		// Nodes at −wing[wl] (right end) and −wing[wl+1] (left end).
+		hh, ih := l.wingH[wl], l.wingInvH[wl]
+		u := (t + l.wing[wl+1]) * ih
+		c0, c1, d0, d1 := l.wc[wl+1], l.wc[wl], l.wp[wl+1]*hh, l.wp[wl]*hh
+		c = hermiteValue(c0, c1, d0, d1, u)
+		if !e.deriv {
+			return c, 0, 0
+		}
+		dens = hermiteSlope(c0, c1, d0, d1, u) * ih
+		dc = l.wd[wl+1] + u*(l.wd[wl]-l.wd[wl+1])
+		return c, dc, dens
+	case t > e.eEnd:
+		if t >= l.wing[nw-1] {
+			return l.wc[2*nw-1] + e.shR, l.wd[2*nw-1] + e.dshR, 0
+		}
+		wr := e.wr
+		for wr > 0 && t < l.wing[wr] {
+			wr--
+		}
+		for wr < nw-2 && t >= l.wing[wr+1] {
+			wr++
+		}
+		e.wr = wr
+		hh, ih := l.wingH[wr], l.wingInvH[wr]
+		u := (t - l.wing[wr]) * ih
+		c0, c1, d0, d1 := l.wc[nw+wr], l.wc[nw+wr+1], l.wp[nw+wr]*hh, l.wp[nw+wr+1]*hh
+		// The shift fades with the wing (the kernel's leak is a
+		// near-grid effect); keep it constant: it is below 1e-6.
+		c = hermiteValue(c0, c1, d0, d1, u) + e.shR
+		if !e.deriv {
+			return c, 0, 0
+		}
+		dens = hermiteSlope(c0, c1, d0, d1, u) * ih
+		dc = l.wd[nw+wr] + u*(l.wd[nw+wr+1]-l.wd[nw+wr])
+		return c, dc + e.dshR, dens
+	}
+	h, nb := e.h, e.nb
+	fj := (t - e.e0) * e.invH
+	j := min(int(fj), nb-1)
+	u := fj - float64(j)
+	F := e.F[j : j+2]
+	pq := l.pq[j : j+2]
+	c0, c1, d0, d1 := F[0], F[1], pq[0]*h, pq[1]*h
+	c = hermiteValue(c0, c1, d0, d1, u)
+	if !e.deriv {
+		return c, 0, 0
+	}
+	dens = hermiteSlope(c0, c1, d0, d1, u) * e.invH
+	dc = hermiteValue(e.dF[j], e.dF[j+1], edgeSlope(l.dq, j, nb), edgeSlope(l.dq, j+1, nb), u)
+	return c, dc, dens
+}
+
+// edgeSlope returns the slope (mass per bin) at edge j of the
+// cumulative of the bin masses q (nb bins).
+func edgeSlope(q []float64, j, nb int) float64 {
+	switch j {
+	case 0:
+		return q[0]
+	case nb:
+		return q[nb-1]
+	}
+	return 0.5 * (q[j-1] + q[j])
+}
+
+// hermiteSlope is the derivative of hermiteValue per unit u.
+func hermiteSlope(c0, c1, d0, d1, u float64) float64 {
+	u2 := u * u
+	return (6*u2-6*u)*c0 + (3*u2-4*u+1)*d0 + (-6*u2+6*u)*c1 + (3*u2-2*u)*d1
+}
+
+// hermiteValue interpolates between (0, c0) and (1, c1) with slopes d0,
+// d1 (per unit u): cubic Hermite.
+func hermiteValue(c0, c1, d0, d1, u float64) float64 {
 	u2 := u * u
 	u3 := u2 * u
-	v := (2*u3-3*u2+1)*c0 + (u3-2*u2+u)*d0 + (-2*u3+3*u2)*c1 + (u3-u2)*d1
-	dv := (6*u2-6*u)*c0 + (3*u2-4*u+1)*d0 + (-6*u2+6*u)*c1 + (3*u2-2*u)*d1
-	return v, dv / hh
+	return (2*u3-3*u2+1)*c0 + (u3-2*u2+u)*d0 + (-2*u3+3*u2)*c1 + (u3-u2)*d1
 }

@@ -77,6 +77,7 @@ func (f *wholeFitter) evalLines(th []float64) error {
 
 // eval computes the model and the Jacobian at th and returns χ².
 func (f *wholeFitter) eval(th []float64) (float64, error) {
+	f.nEval++
 	if err := f.evalLines(th); err != nil {
 		return 0, err
 	}
@@ -92,17 +93,36 @@ func (f *wholeFitter) assemble(th []float64) (float64, error) {
 	np := pr.n
 	mod := f.model
 	jac := f.jac
-	for i := range jac {
-		jac[i] = 0
-	}
-	for i := range mod {
-		var s float64
-		for b := range pr.nBase {
-			v := f.leg[b][i]
-			s += th[pr.iBase+b] * v
-			jac[i*np+pr.iBase+b] = v
+	// The baseline columns are the pixels' Legendre values whatever th:
+	// written once per setup; the other columns are cleared.
+	iBase, nBase := pr.iBase, pr.nBase
+	if !f.jacBaseOK {
+		for i := range jac {
+			jac[i] = 0
 		}
-		mod[i] = s
+		for i := range n {
+			for b := range nBase {
+				jac[i*np+iBase+b] = f.leg[b][i]
+			}
+		}
+		f.jacBaseOK = true
+	} else {
+		for i := range n {
+			for k := i * np; k < i*np+iBase; k++ {
+				jac[k] = 0
+			}
+		}
+	}
+	// The baseline, term by term over all pixels (each pixel's sum in the
+	// same order, from 0).
+	for i := range mod {
+		mod[i] = 0
+	}
+	for b, t := range th[iBase : iBase+nBase] {
+		lb := f.leg[b][:len(mod)]
+		for i, v := range lb {
+			mod[i] += t * v
+		}
 	}
 	for k, l := range f.lines {
 		a := f.areaOf(k, th)
@@ -115,24 +135,29 @@ func (f *wholeFitter) assemble(th []float64) (float64, error) {
 		if pr.iIa >= 0 {
 			dE2dG = 2 * g
 		}
-		for i := l.plo; i < l.phi; i++ {
-			j := i - l.plo
-			u := l.u[j]
+		// The per-line factors of the pixels' Jacobian entries (the same
+		// products as per pixel, hoisted).
+		var eS, eB float64
+		if !pr.free {
+			eS = a / math.Max(th[pr.iS], math.SmallestNonzeroFloat64)
+			if th[pr.iS] == 0 {
+				eS = math.Exp(l.lnF - th[pr.iB]*l.dE)
+			}
+			eB = -l.dE * a
+		}
+		us, dns, dus := l.u[:l.phi-l.plo], l.dn[:l.phi-l.plo], l.du[:l.phi-l.plo]
+		for j, u := range us {
+			i := l.plo + j
 			mod[i] += a * u
 			row := jac[i*np : (i+1)*np]
 			if pr.free {
 				row[pr.iA+k] = u
 			} else {
-				e := a / math.Max(th[pr.iS], math.SmallestNonzeroFloat64)
-				if th[pr.iS] != 0 {
-					row[pr.iS] += e * u
-				} else {
-					row[pr.iS] += math.Exp(l.lnF-th[pr.iB]*l.dE) * u
-				}
-				row[pr.iB] += -l.dE * a * u
+				row[pr.iS] += eS * u
+				row[pr.iB] += eB * u
 			}
-			row[pr.iNe] += a * l.dn[j]
-			row[pr.iOff] += a * l.du[j]
+			row[pr.iNe] += a * dns[j]
+			row[pr.iOff] += a * dus[j]
 			if pr.iTg >= 0 {
 				row[pr.iTg] += a * l.dg[j] * dE2dTg
 			}
@@ -153,35 +178,127 @@ func (f *wholeFitter) assemble(th []float64) (float64, error) {
 	return chi2, nil
 }
 
-// normal builds JᵀWJ and JᵀW r at the current state.
+// normal builds JᵀWJ and JᵀW r at the current state. The baseline
+// columns of J are the pixels' Legendre values whatever the state, so the
+// baseline–baseline block of JᵀWJ is built once per setup (baseBlocks,
+// the same sums in the same order) and copied in.
 func (f *wholeFitter) normal(A, g []float64) {
 	np := f.par.n
+	iBase, nB := f.par.iBase, f.par.nBase
+	f.baseBlocks()
 	for i := range A {
 		A[i] = 0
 	}
 	for i := range g {
 		g[i] = 0
 	}
+	wt := f.wbuf[:len(f.x)]
 	for i := range f.x {
-		w := 1 / (f.s[i] * f.s[i])
+		w := wt[i]
 		r := (f.y[i] - f.model[i]) * w
 		row := f.jac[i*np : (i+1)*np]
-		for a, va := range row {
+		for a, va := range row[:iBase] {
 			if va == 0 {
 				continue
 			}
 			g[a] += va * r
 			wa := va * w
-			for b := a; b < np; b++ {
-				A[a*np+b] += wa * row[b]
+			rr := row[a:np]
+			ar := A[a*np+a : (a+1)*np]
+			ar = ar[:len(rr)]
+			for b, v := range rr {
+				ar[b] += wa * v
 			}
 		}
+		for a, va := range row[iBase:] {
+			if va == 0 {
+				continue
+			}
+			g[iBase+a] += va * r
+		}
+	}
+	for a := range nB {
+		copy(A[(iBase+a)*np+iBase+a:(iBase+a+1)*np], f.normBase[a*nB+a:(a+1)*nB])
 	}
 	for a := range np {
 		for b := range a {
 			A[a*np+b] = A[b*np+a]
 		}
 	}
+}
+
+// baseBlocks builds the pixels' weights 1/σ² (wholeFitter.wbuf) and the
+// blocks of normal and linearAreas that depend on the pixels alone
+// (wholeFitter.normBase, linBase, linBaseG), once per setup: each element is the same sum, in the same order, as the loops
+// of normal and linearAreas make it.
+func (f *wholeFitter) baseBlocks() {
+	if f.baseOK {
+		return
+	}
+	nB := f.par.nBase
+	nb := grow(&f.normBase, nB*nB)
+	lb := grow(&f.linBase, nB*nB)
+	lg := grow(&f.linBaseG, nB)
+	for i := range nb {
+		nb[i], lb[i] = 0, 0
+	}
+	for i := range lg {
+		lg[i] = 0
+	}
+	leg := f.leg[:nB]
+	wt := grow(&f.wbuf, len(f.x))
+	for i, s := range f.s {
+		wt[i] = 1 / (s * s)
+	}
+	// Each element is its sum over the pixels in order (a zero Legendre
+	// value adds a zero), four of them at a time in registers: nBase ≤ 4
+	// (wholeBaselineOrder ≤ 3).
+	n := len(f.x)
+	row := func(b int) []float64 {
+		if b < nB {
+			return leg[b][:n]
+		}
+		return leg[0][:n] // padding, its sums unused
+	}
+	wa := grow(&f.mbuf, n)
+	for a := range nB {
+		for i := range wa {
+			wa[i] = leg[a][i] * wt[i]
+		}
+		r0, r1, r2, r3 := row(a), row(a+1), row(a+2), row(a+3)
+		var s0, s1, s2, s3 float64
+		for i, x := range wa {
+			s0 += x * r0[i]
+			s1 += x * r1[i]
+			s2 += x * r2[i]
+			s3 += x * r3[i]
+		}
+		for k, v := range [4]float64{s0, s1, s2, s3} {
+			if a+k < nB {
+				nb[a*nB+a+k] = v
+			}
+		}
+	}
+	y, ws := f.y[:n], wt[:n]
+	for b := range nB {
+		l1 := leg[b][:n]
+		r0, r1, r2, r3 := row(b), row(b+1), row(b+2), row(b+3)
+		var sg, s0, s1, s2, s3 float64
+		for i, v := range l1 {
+			sg += v * y[i] * ws[i]
+			s0 += v * r0[i] * ws[i]
+			s1 += v * r1[i] * ws[i]
+			s2 += v * r2[i] * ws[i]
+			s3 += v * r3[i] * ws[i]
+		}
+		lg[b] = sg
+		for k, v := range [4]float64{s0, s1, s2, s3} {
+			if b+k < nB {
+				lb[b*nB+b+k] = v
+			}
+		}
+	}
+	f.baseOK = true
 }
 
 // clampParams keeps the parameters in their domain.
@@ -212,9 +329,10 @@ func (f *wholeFitter) levmar() (iters int, converged bool, chi2 float64, err err
 		return 0, false, 0, err
 	}
 	lam := 1e-3
+	f.atTh = false
 	for iters = 1; iters <= wholeMaxIter; iters++ {
 		f.normal(A, g)
-		accepted := false
+		accepted, tried := false, false
 		var newChi2 float64
 		for lam < 1e12 {
 			copy(M, A)
@@ -236,6 +354,18 @@ func (f *wholeFitter) levmar() (iters int, converged bool, chi2 float64, err err
 				trial[a] = f.th[a] + d[a]
 			}
 			f.clampParams(trial)
+			if !f.noEarlyStop && lam <= wholeStopLambda && f.unclamped(trial, d) && predictedDrop(A, g, d, np) <= wholeStopDrop {
+				// An almost undamped step that the fit's linear model says
+				// lowers χ² by less than wholeStopDrop: at the minimum
+				// (see wholeStopDrop). The lines are put back to f.th if
+				// a trial moved them.
+				if tried {
+					_, err = f.eval(f.th)
+				}
+				f.atTh = true // A and g are those at f.th (result reads them)
+				return iters, true, chi2, err
+			}
+			tried = true
 			c2, e := f.eval(trial)
 			if e == nil && c2 <= chi2 {
 				newChi2 = c2
@@ -247,6 +377,7 @@ func (f *wholeFitter) levmar() (iters int, converged bool, chi2 float64, err err
 		if !accepted {
 			// No step lowers χ²: at the minimum within rounding.
 			_, err = f.eval(f.th)
+			f.atTh = true
 			return iters, true, chi2, err
 		}
 		copy(f.th, trial)
@@ -263,6 +394,32 @@ func (f *wholeFitter) levmar() (iters int, converged bool, chi2 float64, err err
 	return wholeMaxIter, false, chi2, nil
 }
 
+// predictedDrop returns the fall of χ² that the linear model of the fit
+// predicts for the step d: 2dᵀg − dᵀAd (A = JᵀWJ, g = JᵀWr).
+func predictedDrop(A, g, d []float64, np int) float64 {
+	var dg, dad float64
+	for a := range np {
+		dg += d[a] * g[a]
+		var s float64
+		for b := range np {
+			s += A[a*np+b] * d[b]
+		}
+		dad += d[a] * s
+	}
+	return 2*dg - dad
+}
+
+// unclamped reports whether the trial parameters are f.th + d, not moved
+// by clampParams.
+func (f *wholeFitter) unclamped(trial, d []float64) bool {
+	for a := range trial {
+		if trial[a] != f.th[a]+d[a] {
+			return false
+		}
+	}
+	return true
+}
+
 // linearAreas solves the linear least-squares problem of free line
 // areas and baseline at the current shapes; it returns the areas, their
 // 1σ (scaled by the residuals when there is no noise model) and χ².
@@ -270,43 +427,64 @@ func (f *wholeFitter) linearAreas() (areas, sig []float64, chi2 float64, ok bool
 	nl := len(f.lines)
 	nb := f.par.nBase
 	np := nl + nb
-	A := make([]float64, np*np)
-	g := make([]float64, np)
-	w := grow(&f.wbuf, len(f.x))
-	for i, s := range f.s {
-		w[i] = 1 / (s * s)
+	f.baseBlocks()
+	A := grow(&f.linA, np*np)
+	g := grow(&f.linG, np)
+	for i := range A {
+		A[i] = 0
 	}
+	for i := range g {
+		g[i] = 0
+	}
+	w := f.wbuf[:len(f.x)] // 1/σ² (baseBlocks)
 	// Line–line, line–baseline and line–data blocks over each line's
 	// pixel range.
 	for a, la := range f.lines {
-		for i := la.plo; i < la.phi; i++ {
-			v := la.u[i-la.plo] * w[i]
-			g[a] += v * f.y[i]
-			for b := range nb {
-				A[a*np+nl+b] += v * f.leg[b][i]
+		// The line's data and baseline sums in registers (nb ≤ 4; rows
+		// beyond nb are padding, their sums unused).
+		leg := func(b int) []float64 {
+			if b < nb {
+				return f.leg[b][la.plo:la.phi]
+			}
+			return f.leg[0][la.plo:la.phi]
+		}
+		r0, r1, r2, r3 := leg(0), leg(1), leg(2), leg(3)
+		ys, ws, us := f.y[la.plo:la.phi], w[la.plo:la.phi], la.u[:la.phi-la.plo]
+		var ga, s0, s1, s2, s3 float64
+		for i, u := range us {
+			v := u * ws[i]
+			ga += v * ys[i]
+			s0 += v * r0[i]
+			s1 += v * r1[i]
+			s2 += v * r2[i]
+			s3 += v * r3[i]
+		}
+		g[a] = ga
+		for b, v := range [4]float64{s0, s1, s2, s3} {
+			if b < nb {
+				A[a*np+nl+b] = v
 			}
 		}
 		for b := a; b < nl; b++ {
 			lb := f.lines[b]
 			lo, hi := max(la.plo, lb.plo), min(la.phi, lb.phi)
 			var s float64
-			for i := lo; i < hi; i++ {
-				s += la.u[i-la.plo] * lb.u[i-lb.plo] * w[i]
+			if lo < hi {
+				ua, ub, ws := la.u[lo-la.plo:hi-la.plo], lb.u[lo-lb.plo:hi-lb.plo], w[lo:hi]
+				ub = ub[:len(ua)]
+				ws = ws[:len(ua)]
+				for i := range ua {
+					s += ua[i] * ub[i] * ws[i]
+				}
 			}
 			A[a*np+b] = s
 		}
 	}
+	// The baseline–baseline and baseline–data parts (baseBlocks).
 	for b := range nb {
-		for i, v := range f.leg[b] {
-			g[nl+b] += v * f.y[i] * w[i]
-		}
+		g[nl+b] = f.linBaseG[b]
 		for c := b; c < nb; c++ {
-			var s float64
-			lb, lc := f.leg[b], f.leg[c]
-			for i := range lb {
-				s += lb[i] * lc[i] * w[i]
-			}
-			A[(nl+b)*np+nl+c] = s
+			A[(nl+b)*np+nl+c] = f.linBase[b*nb+c]
 		}
 	}
 	for a := range np {
@@ -322,8 +500,8 @@ func (f *wholeFitter) linearAreas() (areas, sig []float64, chi2 float64, ok bool
 	}
 	sol := append(f.linSol[:0], g...)
 	linefit.CholSolve(A, np, sol)
-	inv := make([]float64, np*np)
-	linefit.CholInverse(A, np, inv, make([]float64, np))
+	inv := grow(&f.linInv, np*np)
+	linefit.CholInverse(A, np, inv, grow(&f.linWork, np))
 	mod := grow(&f.mbuf, len(f.x))
 	for i := range mod {
 		var m float64
@@ -399,9 +577,18 @@ func boltzmannBeta(lines []*wline, areas, sig []float64) (float64, bool) {
 // that density) over half-decade steps from 1e18 to 3.16e23 m⁻³.
 func (f *wholeFitter) scanDensity(in wholeInput) float64 {
 	best, bestChi := 1e21, math.Inf(1)
+	// One scratch fitter for the scan, its buffers kept from density to
+	// density (and from fit to fit); its lines are evaluated without
+	// derivatives (the linear fit reads the pixel means alone, the same
+	// bit for bit).
+	if f.scanFit == nil {
+		f.scanFit = &wholeFitter{}
+	}
+	g := f.scanFit
 	for e := 18.0; e <= 23.5; e += 0.5 {
 		ne := math.Pow(10, e)
-		g := &wholeFitter{opt: f.opt, m: f.m, te: f.te, teRel: f.teRel, gasT: f.gasT, mass: f.mass, pert: f.pert}
+		g.reset(f.opt, f.m)
+		g.te, g.teRel, g.gasT, g.mass, g.pert, g.scanOnly = f.te, f.teRel, f.gasT, f.mass, f.pert, true
 		if err := g.setup(in, ne); err != nil {
 			continue
 		}
@@ -423,7 +610,14 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 	}
 	A := make([]float64, np*np)
 	g := make([]float64, np)
-	f.normal(A, g)
+	if f.atTh {
+		// Levenberg–Marquardt stopped at f.th after building the normal
+		// equations there (the lines are in the same state, bit for bit).
+		copy(A, f.ws[:np*np])
+		copy(g, f.ws[2*np*np:2*np*np+np])
+	} else {
+		f.normal(A, g)
+	}
 	th := f.th
 	// At the end of the shapes' density range n_e is a limit: it is held
 	// (its row and column taken out) and not reported.
@@ -625,7 +819,11 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 	anyClamp := false
 	var maxGap float64
 	for k, l := range f.lines {
-		wl := WholeLine{Upper: l.t.Upper, Name: l.t.Name(), Shape: "Voigt", Area: unsc(f.areaOf(k, th)), AreaUnc: unsc(areaCov(k)), StarkFWHMNM: l.starkFWHM}
+		sw := l.starkFWHM
+		if l.shapeSH {
+			sw = f.shStarkFWHM(l, th[pr.iNe])
+		}
+		wl := WholeLine{Upper: l.t.Upper, Name: l.t.Name(), Shape: "Voigt", Area: unsc(f.areaOf(k, th)), AreaUnc: unsc(areaCov(k)), StarkFWHMNM: sw}
 		if l.shapeSH {
 			wl.Shape = "SH99"
 			wl.TableTemperatureK = f.tOf(l)
@@ -1034,7 +1232,7 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 		copy(l.du, savedDu[k])
 		copy(l.dn, savedDn[k])
 		g, tg := f.lineInst(l, th)
-		_, _, _, _ = f.lineShape(l, th[pr.iNe], g, tg)
+		_, _, _ = f.lineShape(l, th[pr.iNe], g, tg)
 	}
 	// Accuracy of the line widths the model takes from the tables (or a
 	// relation), in two parts: one common to every line (a reading of
