@@ -594,3 +594,46 @@ func TestWholeTexcWideUncertainty(t *testing.T) {
 		}
 	}
 }
+
+// TestWholeSetupAgain checks that a second setup of the whole fitter (as
+// a fit restarting past the end of the tables' density range does) builds
+// the same fitted pixels as the first: before the fix they were appended,
+// so the restarted fit counted every pixel twice and its σ shrank by √2.
+func TestWholeSetupAgain(t *testing.T) {
+	p := NewPipeline(8192)
+	x := linspace(474, 498, 1024)
+	y, _, err := SynthesizeStark(SynthConfig{WavelengthNM: x, Uppers: []int{4}, ExcitationTemperatureK: 8000,
+		ElectronDensityM3: 2.5e22, ElectronTemperatureK: 10000, GasTemperatureK: 2000, InstrumentFWHMNM: 0.06,
+		HalphaArea: 5e7, BaselinePerNM: 200})
+	if err != nil {
+		t.Fatal(err)
+	}
+	opt := Options{Model: ModelWhole, Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.06, GasTemperatureK: 2000, ElectronTemperatureK: 8000}}
+	if _, err := p.Analyze(&Spectrum{Name: "again", WavelengthNM: x, Counts: y}, opt); err != nil {
+		t.Fatal(err)
+	}
+	f := p.wfit
+	in := p.lastWhole
+	f.begin(in, opt)
+	if err := f.setup(in, 2.5e22); err != nil {
+		t.Fatal(err)
+	}
+	n1, m1 := len(f.x), len(f.masked)
+	_, _, chi1, err := f.levmar()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := f.setup(in, 2.5e22); err != nil {
+		t.Fatal(err)
+	}
+	if len(f.x) != n1 || len(f.a) != n1 || len(f.y) != n1 || len(f.s) != n1 || len(f.masked) != m1 {
+		t.Fatalf("second setup: %d pixels (%d masks), the first had %d (%d)", len(f.x), len(f.masked), n1, m1)
+	}
+	_, _, chi2, err := f.levmar()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if math.Abs(chi2/chi1-1) > 1e-6 {
+		t.Errorf("χ² after the second setup %.6g, after the first %.6g", chi2, chi1)
+	}
+}

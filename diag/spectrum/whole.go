@@ -467,38 +467,13 @@ func (p *Pipeline) wholeFit(in wholeInput, opt Options) (*WholeFit, error) {
 		p.wfit = &wholeFitter{}
 	}
 	f := p.wfit
-	f.reset(opt, in.m)
-	f.te = in.m.ElectronTemperatureK
-	teGiven := f.te > 0
-	f.teRel = wholeTeRelGiven
-	if !teGiven {
-		f.te = diag.DefaultElectronTemperatureK
-		f.teRel = wholeTeRelDefault
-	}
-	f.gasT = in.m.GasTemperatureK
-	if in.lines.GasTemperatureK != nil && *in.lines.GasTemperatureK > 0 {
-		f.gasT = *in.lines.GasTemperatureK
-	}
-	if !(f.gasT > 0) {
-		// Unknown gas temperature: the Doppler part is left to the
-		// instrument (as the lines route does); a room-temperature
-		// Doppler width stands in for the kernel.
-		f.gasT = 300
-		f.notes = append(f.notes, "no gas temperature was given: 300 K was used for the Doppler width")
-	}
-	f.mass = diag.EmitterMassAMU(in.m.Isotope)
-	pert, err := diag.LookupPerturber(in.m.Perturber)
-	if err != nil || in.m.PressurePa == 0 {
-		pert = diag.NoPerturber
-	}
+	teGiven := f.begin(in, opt)
 
 	// Starting density.
 	ne0 := 0.0
 	if in.lines.ElectronDensityM3 != nil && *in.lines.ElectronDensityM3 > 0 {
 		ne0 = *in.lines.ElectronDensityM3
 	}
-
-	f.pert = pert
 	if ne0 == 0 {
 		ne0 = f.scanDensity(in)
 	}
@@ -525,6 +500,38 @@ func (p *Pipeline) wholeFit(in wholeInput, opt Options) (*WholeFit, error) {
 		}
 	}
 	return f.result(it, conv, chi2, teGiven, in)
+}
+
+// begin resets the (reused) fitter for a fit of in: the electron
+// temperature and its σ, the gas temperature, the emitter's mass and the
+// perturber. teGiven says whether in gave T_e.
+func (f *wholeFitter) begin(in wholeInput, opt Options) (teGiven bool) {
+	f.reset(opt, in.m)
+	f.te = in.m.ElectronTemperatureK
+	teGiven = f.te > 0
+	f.teRel = wholeTeRelGiven
+	if !teGiven {
+		f.te = diag.DefaultElectronTemperatureK
+		f.teRel = wholeTeRelDefault
+	}
+	f.gasT = in.m.GasTemperatureK
+	if in.lines.GasTemperatureK != nil && *in.lines.GasTemperatureK > 0 {
+		f.gasT = *in.lines.GasTemperatureK
+	}
+	if !(f.gasT > 0) {
+		// Unknown gas temperature: the Doppler part is left to the
+		// instrument (as the lines route does); a room-temperature
+		// Doppler width stands in for the kernel.
+		f.gasT = 300
+		f.notes = append(f.notes, "no gas temperature was given: 300 K was used for the Doppler width")
+	}
+	f.mass = diag.EmitterMassAMU(in.m.Isotope)
+	pert, err := diag.LookupPerturber(in.m.Perturber)
+	if err != nil || in.m.PressurePa == 0 {
+		pert = diag.NoPerturber
+	}
+	f.pert = pert
+	return teGiven
 }
 
 // beyondEdge reports whether the fitted n_e sits at the end of the
@@ -610,6 +617,11 @@ func (f *wholeFitter) newLine() *wline {
 // then T_exc from them or from the lines route).
 func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
 	f.baseOK, f.jacBaseOK, f.atTh = false, false, false
+	// setup runs again when a fit restarts past the end of the tables
+	// (beyondEdge): the pixels and masks are built afresh, not appended
+	// to those of the first start.
+	f.x, f.a, f.b, f.y, f.s = f.x[:0], f.a[:0], f.b[:0], f.y[:0], f.s[:0]
+	f.masked = f.masked[:0]
 	x := in.x
 	n := len(x)
 	// Lines: every member the search found inside the range, up to the
