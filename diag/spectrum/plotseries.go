@@ -163,8 +163,25 @@ func appendJSONSplit(b, series []byte, full *[]byte, r *Result) (json, seriesOut
 func zigzag(v int64) uint64   { return uint64(v<<1) ^ uint64(v>>63) }
 func unzigzag(u uint64) int64 { return int64(u>>1) ^ -int64(u&1) }
 
+// seriesChunk is the number of values whose digits appendSeriesValues
+// finds in one pass before it writes them.
+const seriesChunk = 256
+
+// plotDigitsOf holds plotDigits' answer for one value (ok: e10 ≠ noDigits).
+type plotDigitsOf struct {
+	m   uint64
+	e10 int
+}
+
+// noDigits marks a value plotDigits refuses.
+const noDigits = math.MinInt
+
 // appendSeriesValues appends one series' length and values to b, and
 // with withText its JSON text (as appendPlotFloats writes it) to text.
+// The digits of a chunk of values are found first, in a loop whose
+// rounds do not wait for each other (plotDigits is a chain of dependent
+// floating-point steps that the writing of the bytes, which depends on
+// them, kept the processor from overlapping), then written.
 func appendSeriesValues(b, text []byte, withText bool, p []float64) ([]byte, []byte) {
 	b = binary.AppendUvarint(b, uint64(len(p)))
 	if withText {
@@ -172,12 +189,23 @@ func appendSeriesValues(b, text []byte, withText bool, p []float64) ([]byte, []b
 	}
 	var prevS int64
 	prevE := 0
+	var digits [seriesChunk]plotDigitsOf
 	for i, v := range p {
+		k := i % seriesChunk
+		if k == 0 {
+			for j, w := range p[i:min(i+seriesChunk, len(p))] {
+				m, e10, ok := plotDigits(w)
+				if !ok {
+					e10 = noDigits
+				}
+				digits[j] = plotDigitsOf{m, e10}
+			}
+		}
 		if withText && i > 0 {
 			text = append(text, ',')
 		}
-		m, e10, ok := plotDigits(v)
-		if !ok {
+		m, e10 := digits[k].m, digits[k].e10
+		if e10 == noDigits {
 			if math.IsNaN(v) || math.IsInf(v, 0) {
 				b = append(b, 2)
 				if withText {

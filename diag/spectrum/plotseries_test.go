@@ -214,3 +214,52 @@ func FuzzExpandSeries(f *testing.F) {
 		}
 	})
 }
+
+// benchWholeResult is the whole-route result of a Stark-shaped 2048-pixel
+// spectrum (the whole fit's plot series, windows kept).
+func benchWholeResult(b *testing.B) *Result {
+	grid := make([]float64, 2048)
+	for i := range grid {
+		grid[i] = 380 + 320*float64(i)/2047
+	}
+	y, _, err := SynthesizeStark(SynthConfig{WavelengthNM: grid, Uppers: []int{3, 4, 5, 6, 7, 8, 9, 10},
+		ExcitationTemperatureK: 7000, ElectronDensityM3: 3e21, GasTemperatureK: 1000, InstrumentFWHMNM: 0.35, HalphaArea: 1})
+	if err != nil {
+		b.Fatal(err)
+	}
+	rng := rand.New(rand.NewPCG(3, 4))
+	for i := range y {
+		y[i] = math.Round(y[i]*2e4 + 50 + 3*rng.NormFloat64())
+	}
+	res, err := NewPipeline(8192).Analyze(&Spectrum{Name: "stark.csv", WavelengthNM: grid, Counts: y},
+		Options{KeepWindows: true, Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.35, GasTemperatureK: 1000}})
+	if err != nil || res.Whole == nil {
+		b.Fatal(err)
+	}
+	return &res
+}
+
+// BenchmarkAppendJSONSplit: a whole-route result's placeholder JSON and
+// series form (what is stored: split), and with the whole JSON beside
+// (an API answer: full).
+func BenchmarkAppendJSONSplit(b *testing.B) {
+	res := benchWholeResult(b)
+	b.Run("split", func(b *testing.B) {
+		var js, series []byte
+		for range b.N {
+			var err error
+			if js, series, err = AppendJSONSplit(js[:0], series[:0], res); err != nil {
+				b.Fatal(err)
+			}
+		}
+	})
+	b.Run("full", func(b *testing.B) {
+		var js, series, full []byte
+		for range b.N {
+			var err error
+			if js, series, full, err = AppendJSONSplitFull(js[:0], series[:0], full[:0], res); err != nil {
+				b.Fatal(err)
+			}
+		}
+	})
+}
