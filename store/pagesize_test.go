@@ -123,3 +123,26 @@ func TestPageSize(t *testing.T) {
 		})
 	}
 }
+
+// TestWriteConnectionJournalsInMemory: the write connection keeps its
+// statement and savepoint journals in memory (temp_store 2, Open), the
+// read pool the default; a group commit's savepoint still rolls back one
+// upload and keeps the others.
+func TestWriteConnectionJournalsInMemory(t *testing.T) {
+	ctx := context.Background()
+	d, err := Open(ctx, filepath.Join(t.TempDir(), "ts.db"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer d.Close()
+	var w, r int
+	if err := d.wdb.QueryRowContext(ctx, `PRAGMA temp_store`).Scan(&w); err != nil {
+		t.Fatal(err)
+	}
+	if err := d.db.QueryRowContext(ctx, `PRAGMA temp_store`).Scan(&r); err != nil {
+		t.Fatal(err)
+	}
+	if w != 2 || r != 0 {
+		t.Errorf("temp_store: write connection %d (want 2), read pool %d (want 0)", w, r)
+	}
+}
