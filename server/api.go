@@ -11,6 +11,7 @@ import (
 	"net/http"
 	"strconv"
 	"strings"
+	"sync"
 	"time"
 
 	"github.com/labstack/echo/v4"
@@ -448,7 +449,6 @@ func (s *Server) apiAddMeasurement(c echo.Context) error {
 	if err != nil {
 		return err
 	}
-	var buf bytes.Buffer
 	size := 64
 	for _, m := range mine {
 		size += 160
@@ -458,16 +458,26 @@ func (s *Server) apiAddMeasurement(c echo.Context) error {
 			size += len(m.stored.Result) + 3*len(m.stored.Series)
 		}
 	}
-	buf.Grow(size) // a batch's answer is about 50 kB per spectrum: grown once
+	// A batch's answer is about 110 kB per spectrum: grown once, in a
+	// pooled buffer (c.Blob has written it when it returns).
+	bp := answerBufPool.Get().(*[]byte)
+	buf := bytes.NewBuffer((*bp)[:0])
+	defer func() {
+		if b := buf.Bytes(); cap(b) <= maxPooledAnswer {
+			*bp = b[:0]
+			answerBufPool.Put(bp)
+		}
+	}()
+	buf.Grow(size)
 	if len(ins) > 1 {
-		fmt.Fprintf(&buf, `{"run_id":%d,"analysis_version":%d,"measurements":[`, id, version)
+		fmt.Fprintf(buf, `{"run_id":%d,"analysis_version":%d,"measurements":[`, id, version)
 	}
 	for k, m := range mine {
 		if k > 0 {
 			buf.WriteByte(',')
 		}
 		ids := apiMeasurementIDs{RunID: id, AttachmentID: added[k].ID, AnalysisVersion: version, Kind: added[k].Kind}
-		if err := writeMeasurementJSON(&buf, ids, m); err != nil {
+		if err := writeMeasurementJSON(buf, ids, m); err != nil {
 			return err
 		}
 	}
@@ -477,6 +487,13 @@ func (s *Server) apiAddMeasurement(c echo.Context) error {
 	buf.WriteByte('\n')
 	return c.Blob(http.StatusCreated, echo.MIMEApplicationJSONCharsetUTF8, buf.Bytes())
 }
+
+// answerBufPool holds the buffers apiAddMeasurement writes its answers
+// in; one larger than maxPooledAnswer (a batch of about 40 whole-route
+// spectra) is left to the garbage collector.
+var answerBufPool = sync.Pool{New: func() any { b := []byte(nil); return &b }}
+
+const maxPooledAnswer = 4 << 20
 
 // batchPrefix names the file of an error in a batch.
 func batchPrefix(ins []incoming, i int) string {

@@ -81,6 +81,7 @@ func benchBulkReanalysis(b *testing.B, rt benchRoute) {
 	w0, c0, busy0 := db.GroupStats()
 	b.ResetTimer()
 	var el, cpu time.Duration
+	var wb, wc int64
 	for range b.N {
 		if _, err := db.CreateJob(ctx, jobKindReanalyze, params, runs, u.ID); err != nil {
 			b.Fatal(err)
@@ -89,9 +90,12 @@ func benchBulkReanalysis(b *testing.B, rt benchRoute) {
 		if err != nil {
 			b.Fatal(err)
 		}
+		wb0, wc0 := procWrites()
 		start, cpu0 := time.Now(), cpuTime()
 		jr.run(ctx, job)
 		el, cpu = el+time.Since(start), cpu+cpuTime()-cpu0
+		wb1, wc1 := procWrites()
+		wb, wc = wb+wb1-wb0, wc+wc1-wc0
 		if job, err = db.Job(ctx, job.ID); err != nil || job.Done != runs {
 			b.Fatalf("job: %+v %v", job, err)
 		}
@@ -109,6 +113,7 @@ func benchBulkReanalysis(b *testing.B, rt benchRoute) {
 	if fi, err := os.Stat(dbPath + "-wal"); err == nil {
 		b.ReportMetric(float64(fi.Size())/(1<<20), "WAL-MB")
 	}
+	reportWrites(b, wb, wc, n)
 	reportCheckpoints(b, db, n)
 }
 

@@ -157,6 +157,7 @@ func benchAPIIngest(b *testing.B, rt benchRoute, syncMode string, perRequest int
 	var wg sync.WaitGroup
 	w0, c0, busy0 := db.GroupStats()
 	b.ResetTimer()
+	wb0, wc0 := procWrites()
 	start, cpu0 := time.Now(), cpuTime()
 	for range workers {
 		wg.Add(1)
@@ -194,6 +195,7 @@ func benchAPIIngest(b *testing.B, rt benchRoute, syncMode string, perRequest int
 	wg.Wait()
 	el, cpu := time.Since(start), cpuTime()-cpu0
 	b.StopTimer()
+	wb1, wc1 := procWrites()
 	n := float64(next.Load())
 	if n > float64(b.N) {
 		n = float64((b.N + perRequest - 1) / perRequest * perRequest) // whole batches
@@ -209,5 +211,6 @@ func benchAPIIngest(b *testing.B, rt benchRoute, syncMode string, perRequest int
 	if fi, err := os.Stat(dbPath + "-wal"); err == nil {
 		b.ReportMetric(float64(fi.Size())/(1<<20), "WAL-MB")
 	}
+	reportWrites(b, wb1-wb0, wc1-wc0, n)
 	reportCheckpoints(b, db, n)
 }

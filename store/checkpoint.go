@@ -24,7 +24,7 @@ import (
 // leaves the newest frames behind, and SQLite starts the WAL over only
 // when a write begins with every frame copied and no reader in the WAL,
 // so under sustained writes the WAL would grow without end; when a
-// background checkpoint finds more than walRestartFrames frames in the
+// background checkpoint finds more than walRestartBytes in the
 // WAL, the writer runs one RESTART checkpoint between writes
 // (restartWAL; skipped while a background checkpoint runs, tried again
 // after the next write): by then nearly every frame is copied, and the
@@ -44,10 +44,11 @@ const (
 	checkpointGap = 25 * time.Millisecond
 	// checkpointIdle is the longest time between background checkpoints.
 	checkpointIdle = 2 * time.Second
-	// walRestartFrames is the WAL size (pages) above which the writer
-	// checkpoints itself, so that the WAL starts over (16 MiB with 4 KiB
-	// pages; SQLite's automatic threshold is 1000).
-	walRestartFrames = 4096
+	// walRestartBytes is the WAL size (its frames' pages) above which
+	// the writer checkpoints itself, so that the WAL starts over (4096
+	// frames of 4 KiB pages, 1024 of 16 KiB; SQLite's automatic threshold
+	// is 1000 frames, whatever their size).
+	walRestartBytes = 16 << 20
 	// restartWait bounds the writer's wait for readers in restartWAL, and
 	// restartBackoff is the pause before trying again after it ran out.
 	restartWait    = 200 * time.Millisecond
@@ -125,7 +126,7 @@ func (d *DB) checkpoints() {
 		c.run.Unlock()
 		c.runs.Add(1)
 		if err == nil {
-			c.restart.Store(log > walRestartFrames)
+			c.restart.Store(log*d.pageSize > walRestartBytes)
 		}
 		idle.Reset(checkpointIdle)
 		select {

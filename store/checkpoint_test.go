@@ -19,12 +19,26 @@ import (
 // bounded (it starts over: SQLite's automatic checkpoint does not manage
 // that against such readers: its WAL grew past the volume written),
 // background checkpoints run, and every row is there after a reopen.
+// Both with a new database's page size (newPageSize) and with an older
+// file's 4 KiB (the restart threshold is in bytes).
 func TestCheckpointsBoundWAL(t *testing.T) {
+	for _, ps := range []int{newPageSize, 4096} {
+		t.Run(fmt.Sprintf("page_size=%d", ps), func(t *testing.T) { testCheckpointsBoundWAL(t, ps) })
+	}
+}
+
+func testCheckpointsBoundWAL(t *testing.T, pageSize int) {
 	ctx := context.Background()
 	path := filepath.Join(t.TempDir(), "ck.db")
+	if pageSize != newPageSize {
+		createWithPageSize(t, path, pageSize)
+	}
 	d, err := Open(ctx, path)
 	if err != nil {
 		t.Fatal(err)
+	}
+	if d.pageSize != int64(pageSize) {
+		t.Fatalf("page size %d, want %d", d.pageSize, pageSize)
 	}
 	u, err := d.CreateUser(ctx, "op", RoleOperator, "x")
 	if err != nil {

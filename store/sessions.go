@@ -82,9 +82,7 @@ func (d *DB) LookupToken(ctx context.Context, tokenHash []byte) (TokenAuth, erro
 	var role string
 	var created int64
 	var disabled, mustChange int
-	err := d.db.QueryRowContext(ctx, `SELECT t.id, t.last_used_at, `+userColsU+`
-		FROM api_tokens t JOIN users u ON u.id = t.user_id
-		WHERE t.token_hash = ? AND t.revoked_at IS NULL AND u.disabled = 0`, tokenHash).
+	err := d.readStmt(qLookupToken).QueryRowContext(ctx, tokenHash).
 		Scan(&a.TokenID, &used, &a.User.ID, &a.User.Name, &role, &a.User.PasswordHash, &created, &disabled, &mustChange)
 	if errors.Is(err, sql.ErrNoRows) {
 		return TokenAuth{}, fmt.Errorf("token: %w", ErrNotFound)

@@ -28,8 +28,10 @@ const (
 		ne_m3, ne_unc_m3, tgas_k, n_warnings, warn_worst FROM analysis_results WHERE analysis_id = ?`
 	qListAttachments = `SELECT id, run_id, kind, name, seq, size, created_at FROM attachments
 		WHERE run_id = ? ORDER BY kind, seq`
-	qContent      = `SELECT content FROM attachment_contents WHERE attachment_id = ?`
-	qPruneChanges = `DELETE FROM run_changes WHERE seq < (SELECT max(seq) FROM run_changes) - ?`
+	qContent = `SELECT content FROM attachment_contents WHERE attachment_id = ?`
+	// pruneRunChangesTx (trends.go)
+	qPruneChanges = `DELETE FROM run_changes WHERE seq < min(
+		(SELECT max(seq) FROM run_changes) - ?, max(?, (SELECT max(seq) FROM run_changes) - ?))`
 	// a group commit's savepoints (group.go)
 	qSavepoint  = `SAVEPOINT group_write`
 	qRelease    = `RELEASE group_write`
@@ -46,8 +48,12 @@ var hotQueries = []string{qRunStatus, qNextSeq, qAddAttachment, qAddContent, qNe
 var (
 	qGetRun  = `SELECT ` + runCols + runFrom + ` WHERE r.id = ?`
 	qRunTags = `SELECT tag FROM run_tags WHERE run_id = ? ORDER BY tag`
+	// LookupToken (every API request)
+	qLookupToken = `SELECT t.id, t.last_used_at, ` + userColsU + `
+		FROM api_tokens t JOIN users u ON u.id = t.user_id
+		WHERE t.token_hash = ? AND t.revoked_at IS NULL AND u.disabled = 0`
 
-	readQueries = []string{qGetRun, qRunTags, qLatestSettings, qListAttachments}
+	readQueries = []string{qGetRun, qRunTags, qLatestSettings, qListAttachments, qLookupToken}
 )
 
 // prepareHot prepares hotQueries (after the migrations and triggers: a

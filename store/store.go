@@ -14,6 +14,7 @@ import (
 	"errors"
 	"fmt"
 	"io/fs"
+	"os"
 	"sort"
 	"strings"
 	"time"
@@ -57,6 +58,9 @@ type DB struct {
 	wdb *sql.DB
 
 	path string // the file, for Backup
+	// pageSize is the database's page size in bytes (newPageSize for a
+	// file Open created; an older file keeps its own).
+	pageSize int64
 
 	// group is the group committer of InGroupTx (group.go).
 	group groupCommitter
@@ -131,6 +135,10 @@ func Open(ctx context.Context, path string, opts ...Options) (*DB, error) {
 		sdb.SetMaxIdleConns(8)
 	}
 	d := &DB{db: sdb, wdb: sdb, Now: time.Now, path: path}
+	if err := sdb.QueryRowContext(ctx, `PRAGMA page_size`).Scan(&d.pageSize); err != nil {
+		sdb.Close()
+		return nil, fmt.Errorf("store: page size of %s: %w", path, err)
+	}
 	if err := d.migrate(ctx); err != nil {
 		sdb.Close()
 		return nil, err
@@ -145,8 +153,15 @@ func Open(ctx context.Context, path string, opts ...Options) (*DB, error) {
 		// SQLite locks on it, which tell other processes (restore) that
 		// the database is in use.
 		// The write connection never checkpoints inside a commit
-		// (checkpoint.go).
-		if d.wdb, err = sql.Open("sqlite", sqlDSN(path, sync)+"&_pragma=wal_autocheckpoint(0)"); err != nil {
+		// (checkpoint.go), and keeps its statement and savepoint
+		// journals in memory (temp_store 2): they hold the pages a
+		// statement or a group commit's savepoint (group.go) changes, for
+		// a rollback within the transaction, and were written to a
+		// temporary file page by page (~0.1 ms per upload of one file in
+		// BenchmarkAPIIngest). They are never needed after a crash (the
+		// transaction is lost then). The read pool keeps the default:
+		// a large sort may spill to a file.
+		if d.wdb, err = sql.Open("sqlite", sqlDSN(path, sync)+"&_pragma=wal_autocheckpoint(0)&_pragma=temp_store(2)"); err != nil {
 			sdb.Close()
 			return nil, fmt.Errorf("store: open %s: %w", path, err)
 		}
@@ -178,11 +193,24 @@ func sqlDSN(path, sync string) string {
 	return "file:" + path + "?_pragma=foreign_keys(1)&_pragma=journal_mode(WAL)&_pragma=busy_timeout(5000)&_pragma=synchronous(" + strings.ToUpper(sync) + ")&_txlock=immediate"
 }
 
+// newPageSize is the page size of a database file Open creates. SQLite
+// writes every page of a commit to the WAL, and every page a checkpoint
+// copies to the database file, with a system call of its own: results of
+// 50–100 kB per spectrum took ~20 calls each way with SQLite's default of
+// 4 KiB, ~5 with 16 KiB (BenchmarkAPIIngest, BenchmarkBulkReanalysis).
+// The page size of a WAL database is fixed when the file is created, so
+// older files keep theirs (4 KiB); everything works with either
+// (checkpoint thresholds are in bytes), and a backup keeps its source's.
+const newPageSize = 16384
+
 // openSQL opens the pool with glowlog's pragmas, without migrating.
 func openSQL(path, sync string) (*sql.DB, error) {
 	dsn := sqlDSN(path, sync)
 	if path != ":memory:" {
 		if err := EnsurePrivate(path); err != nil {
+			return nil, err
+		}
+		if err := initPageSize(path); err != nil {
 			return nil, err
 		}
 	}
@@ -191,6 +219,38 @@ func openSQL(path, sync string) (*sql.DB, error) {
 		return nil, fmt.Errorf("store: open %s: %w", path, err)
 	}
 	return sdb, nil
+}
+
+// initPageSize gives an empty (new) database file at path the page size
+// newPageSize and WAL journaling, which fixes it. A file with content
+// keeps its page size. (The DSN cannot do this: the driver runs its
+// pragmas in alphabetical order, journal_mode before page_size.)
+func initPageSize(path string) error {
+	fi, err := os.Stat(path)
+	if err != nil {
+		return fmt.Errorf("store: %w", err)
+	}
+	if fi.Size() != 0 {
+		return nil
+	}
+	sdb, err := sql.Open("sqlite", "file:"+path+"?_pragma=busy_timeout(5000)")
+	if err != nil {
+		return fmt.Errorf("store: open %s: %w", path, err)
+	}
+	defer sdb.Close()
+	conn, err := sdb.Conn(context.Background())
+	if err != nil {
+		return fmt.Errorf("store: open %s: %w", path, err)
+	}
+	defer conn.Close()
+	// A no-op when another process made the file in the meantime.
+	if _, err := conn.ExecContext(context.Background(), fmt.Sprintf(`PRAGMA page_size = %d`, newPageSize)); err != nil {
+		return fmt.Errorf("store: page size of %s: %w", path, err)
+	}
+	if _, err := conn.ExecContext(context.Background(), `PRAGMA journal_mode = WAL`); err != nil {
+		return fmt.Errorf("store: WAL mode of %s: %w", path, err)
+	}
+	return nil
 }
 
 // Close closes the database.

@@ -257,8 +257,7 @@ func (d *DB) pruneRunChangesTx(ctx context.Context, tx *sql.Tx) error {
 	if keep == 0 {
 		keep = math.MaxInt64
 	}
-	_, err := tx.ExecContext(ctx, `DELETE FROM run_changes WHERE seq < min(
-		(SELECT max(seq) FROM run_changes) - ?, max(?, (SELECT max(seq) FROM run_changes) - ?))`, 2*maxIncremental, keep, maxColsLag)
+	_, err := d.txExec(ctx, tx, qPruneChanges, 2*maxIncremental, keep, maxColsLag)
 	return err
 }
 

@@ -6,6 +6,7 @@ import (
 	"math"
 	"math/rand/v2"
 	"reflect"
+	"slices"
 	"strings"
 	"testing"
 
@@ -211,6 +212,117 @@ func FuzzExpandSeries(f *testing.F) {
 		got, err := ExpandSeries(nil, string(j), s)
 		if err != nil || !bytes.Equal(got, want) {
 			t.Fatalf("%v %v: %s, %v; want %s", a, b, got, err, want)
+		}
+	})
+}
+
+// TestGridMemo: results whose whole fits share a wavelength grid give
+// AppendJSON's bytes whether the grid's form is written anew or copied
+// (lastGrid), with and without the whole JSON, in either order; a grid
+// that differs in one value's last bit, in the sign of a zero or in its
+// length is written anew.
+func TestGridMemo(t *testing.T) {
+	grid := make(PlotFloats, 300)
+	for i := range grid {
+		grid[i] = 380 + 320*float64(i)/299
+	}
+	grid[7] = 0
+	res := func(g PlotFloats, k int) *Result {
+		data := make(PlotFloats, len(g))
+		for i := range data {
+			data[i] = float64((i*37+k*11)%1000) + 0.25*float64(k)
+		}
+		return &Result{Model: ModelWhole, Whole: &WholeFit{WavelengthNM: g, Data: data, Model: data[:len(g)/2]},
+			Windows: []Window{{WavelengthNM: g[:10], Data: data[:10]}}}
+	}
+	ulp := slices.Clone(grid)
+	ulp[150] = math.Nextafter(ulp[150], 1000)
+	negZero := slices.Clone(grid)
+	negZero[7] = math.Copysign(0, -1)
+	for round, g := range []PlotFloats{grid, grid, ulp, grid, negZero, grid[:299], grid, grid} {
+		r := res(g, round)
+		want, err := AppendJSON(nil, r)
+		if err != nil {
+			t.Fatal(err)
+		}
+		check := func(how string, js, series []byte) {
+			t.Helper()
+			got, err := ExpandSeries(nil, string(js), series)
+			if err != nil || !bytes.Equal(got, want) {
+				t.Fatalf("round %d (%s): expanded JSON differs from AppendJSON (%v)", round, how, err)
+			}
+		}
+		if round%2 == 0 {
+			js, series, err := AppendJSONSplit(nil, nil, r)
+			if err != nil {
+				t.Fatal(err)
+			}
+			check("split", js, series)
+		}
+		js, series, full, err := AppendJSONSplitFull(nil, nil, nil, r)
+		if err != nil || !bytes.Equal(full, want) {
+			t.Fatalf("round %d: whole JSON differs from AppendJSON (%v)", round, err)
+		}
+		check("full", js, series)
+		js2, series2, err := AppendJSONSplit(nil, nil, r)
+		if err != nil || !bytes.Equal(js2, js) || !bytes.Equal(series2, series) {
+			t.Fatalf("round %d: split after full differs (%v)", round, err)
+		}
+		if m := lastGrid.Load(); m == nil || !sameBits(m.values, g) {
+			t.Fatalf("round %d: the grid is not the one kept", round)
+		}
+	}
+	if sameBits(PlotFloats{math.NaN()}, PlotFloats{math.Float64frombits(0x7ff8000000000002)}) || !sameBits(PlotFloats{math.NaN()}, PlotFloats{math.NaN()}) ||
+		sameBits(PlotFloats{0}, PlotFloats{math.Copysign(0, -1)}) || sameBits(PlotFloats{1}, PlotFloats{1, 2}) {
+		t.Error("sameBits does not compare bit patterns")
+	}
+}
+
+// benchWholeResult is the whole-route result of a Stark-shaped 2048-pixel
+// spectrum (the whole fit's plot series, windows kept).
+func benchWholeResult(b *testing.B) *Result {
+	grid := make([]float64, 2048)
+	for i := range grid {
+		grid[i] = 380 + 320*float64(i)/2047
+	}
+	y, _, err := SynthesizeStark(SynthConfig{WavelengthNM: grid, Uppers: []int{3, 4, 5, 6, 7, 8, 9, 10},
+		ExcitationTemperatureK: 7000, ElectronDensityM3: 3e21, GasTemperatureK: 1000, InstrumentFWHMNM: 0.35, HalphaArea: 1})
+	if err != nil {
+		b.Fatal(err)
+	}
+	rng := rand.New(rand.NewPCG(3, 4))
+	for i := range y {
+		y[i] = math.Round(y[i]*2e4 + 50 + 3*rng.NormFloat64())
+	}
+	res, err := NewPipeline(8192).Analyze(&Spectrum{Name: "stark.csv", WavelengthNM: grid, Counts: y},
+		Options{KeepWindows: true, Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.35, GasTemperatureK: 1000}})
+	if err != nil || res.Whole == nil {
+		b.Fatal(err)
+	}
+	return &res
+}
+
+// BenchmarkAppendJSONSplit: a whole-route result's placeholder JSON and
+// series form (what is stored: split), and with the whole JSON beside
+// (an API answer: full).
+func BenchmarkAppendJSONSplit(b *testing.B) {
+	res := benchWholeResult(b)
+	b.Run("split", func(b *testing.B) {
+		var js, series []byte
+		for range b.N {
+			var err error
+			if js, series, err = AppendJSONSplit(js[:0], series[:0], res); err != nil {
+				b.Fatal(err)
+			}
+		}
+	})
+	b.Run("full", func(b *testing.B) {
+		var js, series, full []byte
+		for range b.N {
+			var err error
+			if js, series, full, err = AppendJSONSplitFull(js[:0], series[:0], full[:0], res); err != nil {
+				b.Fatal(err)
+			}
 		}
 	})
 }
