@@ -322,11 +322,16 @@ func (e *refEdgeEval) at(t float64) (c, dc, dens float64) {
 // Spectra: SH99-shaped surveys like the bulk reanalysis benchmark's
 // (SynthesizeStark, Hα–H10, photon noise), and the whole fit's own
 // generator at other densities, widths and line sets.
-func TestWholeEarlyStop(t *testing.T) {
-	type tcase struct {
-		sp  *Spectrum
-		opt Options
-	}
+// earlyStopCase is a spectrum and its options for the early-stop tests.
+type earlyStopCase struct {
+	sp  *Spectrum
+	opt Options
+}
+
+// earlyStopCases: bulk-like surveys (as the server's bulk benchmark makes
+// them), the whole fit's own generator, free gas temperature.
+func earlyStopCases(t *testing.T) []earlyStopCase {
+	type tcase = earlyStopCase
 	var cases []tcase
 	grid := linspace(380, 700, 2048)
 	rng := rand.New(rand.NewPCG(11, 2026))
@@ -371,6 +376,11 @@ func TestWholeEarlyStop(t *testing.T) {
 			cases = append(cases, tcase{sp, opt})
 		}
 	}
+	return cases
+}
+
+func TestWholeEarlyStop(t *testing.T) {
+	cases := earlyStopCases(t)
 	var nEarly, nFull, compared int
 	for k, c := range cases {
 		p := NewPipeline(4096)
