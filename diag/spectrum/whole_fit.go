@@ -966,10 +966,19 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 		wf.Data = make(PlotFloats, n)
 		wf.Model = make(PlotFloats, n)
 		wf.Residual = make(PlotFloats, n)
-		for i := range n {
-			wf.Data[i] = unsc(f.y[i])
-			wf.Model[i] = unsc(f.model[i])
-			wf.Residual[i] = unsc(f.y[i] - f.model[i])
+		if f.scale == 0 {
+			// Ldexp by 0 is the identity, bit for bit.
+			for i := range n {
+				wf.Data[i] = f.y[i]
+				wf.Model[i] = f.model[i]
+				wf.Residual[i] = f.y[i] - f.model[i]
+			}
+		} else {
+			for i := range n {
+				wf.Data[i] = unsc(f.y[i])
+				wf.Model[i] = unsc(f.model[i])
+				wf.Residual[i] = unsc(f.y[i] - f.model[i])
+			}
 		}
 	}
 	return wf, nil
