@@ -193,6 +193,28 @@ func (f *wholeFitter) normal(A, g []float64) {
 		g[i] = 0
 	}
 	wt := f.wbuf[:len(f.x)]
+	if np == 8 && iBase == 4 {
+		// The common case (Boltzmann areas, a cubic baseline), unrolled:
+		// the same products and sums in the same order as the loop below.
+		f.normal8x4(A, g, wt)
+	} else {
+		f.normalRows(A, g, wt)
+	}
+	for a := range nB {
+		copy(A[(iBase+a)*np+iBase+a:(iBase+a+1)*np], f.normBase[a*nB+a:(a+1)*nB])
+	}
+	for a := range np {
+		for b := range a {
+			A[a*np+b] = A[b*np+a]
+		}
+	}
+}
+
+// normalRows adds every pixel's products to A's rows of the parameters
+// before the baseline and to g (normal).
+func (f *wholeFitter) normalRows(A, g, wt []float64) {
+	np := f.par.n
+	iBase := f.par.iBase
 	for i := range f.x {
 		w := wt[i]
 		r := (f.y[i] - f.model[i]) * w
@@ -217,12 +239,71 @@ func (f *wholeFitter) normal(A, g []float64) {
 			g[iBase+a] += va * r
 		}
 	}
-	for a := range nB {
-		copy(A[(iBase+a)*np+iBase+a:(iBase+a+1)*np], f.normBase[a*nB+a:(a+1)*nB])
-	}
-	for a := range np {
-		for b := range a {
-			A[a*np+b] = A[b*np+a]
+}
+
+// normal8x4 is normalRows for np = 8, iBase = 4, unrolled: each
+// element of A and g gets the same products, in the same pixel order.
+func (f *wholeFitter) normal8x4(As, gs, wt []float64) {
+	A := (*[64]float64)(As[:64])
+	g := (*[8]float64)(gs[:8])
+	ys, mod := f.y[:len(wt)], f.model[:len(wt)]
+	jac := f.jac[:8*len(wt)]
+	for i, w := range wt {
+		r := (ys[i] - mod[i]) * w
+		row := (*[8]float64)(jac[8*i : 8*i+8])
+		if va := row[0]; va != 0 {
+			g[0] += va * r
+			wa := va * w
+			A[0] += wa * row[0]
+			A[1] += wa * row[1]
+			A[2] += wa * row[2]
+			A[3] += wa * row[3]
+			A[4] += wa * row[4]
+			A[5] += wa * row[5]
+			A[6] += wa * row[6]
+			A[7] += wa * row[7]
+		}
+		if va := row[1]; va != 0 {
+			g[1] += va * r
+			wa := va * w
+			A[9] += wa * row[1]
+			A[10] += wa * row[2]
+			A[11] += wa * row[3]
+			A[12] += wa * row[4]
+			A[13] += wa * row[5]
+			A[14] += wa * row[6]
+			A[15] += wa * row[7]
+		}
+		if va := row[2]; va != 0 {
+			g[2] += va * r
+			wa := va * w
+			A[18] += wa * row[2]
+			A[19] += wa * row[3]
+			A[20] += wa * row[4]
+			A[21] += wa * row[5]
+			A[22] += wa * row[6]
+			A[23] += wa * row[7]
+		}
+		if va := row[3]; va != 0 {
+			g[3] += va * r
+			wa := va * w
+			A[27] += wa * row[3]
+			A[28] += wa * row[4]
+			A[29] += wa * row[5]
+			A[30] += wa * row[6]
+			A[31] += wa * row[7]
+		}
+		if va := row[4]; va != 0 {
+			g[4] += va * r
+		}
+		if va := row[5]; va != 0 {
+			g[5] += va * r
+		}
+		if va := row[6]; va != 0 {
+			g[6] += va * r
+		}
+		if va := row[7]; va != 0 {
+			g[7] += va * r
 		}
 	}
 }

@@ -491,3 +491,39 @@ func TestScanDensityReuse(t *testing.T) {
 		t.Fatalf("%d scans checked", checked)
 	}
 }
+
+// TestNormal8x4: the unrolled normal equations of the common case (eight
+// parameters, the baseline's four last) are those of the general loop,
+// bit for bit, on bulk-like fits (with zero rows: pixels no line covers).
+func TestNormal8x4(t *testing.T) {
+	checked := 0
+	for k, c := range earlyStopCases(t) {
+		p := NewPipeline(4096)
+		if _, err := p.Analyze(c.sp, c.opt); err != nil {
+			t.Fatal(err)
+		}
+		f := p.wfit
+		if f.par.n != 8 || f.par.iBase != 4 {
+			continue
+		}
+		wt := f.wbuf[:len(f.x)]
+		A1, g1 := make([]float64, 64), make([]float64, 8)
+		A2, g2 := make([]float64, 64), make([]float64, 8)
+		f.normal8x4(A1, g1, wt)
+		f.normalRows(A2, g2, wt)
+		for i := range A1 {
+			if math.Float64bits(A1[i]) != math.Float64bits(A2[i]) {
+				t.Errorf("case %d: A[%d] = %v unrolled, %v in the loop", k, i, A1[i], A2[i])
+			}
+		}
+		for i := range g1 {
+			if math.Float64bits(g1[i]) != math.Float64bits(g2[i]) {
+				t.Errorf("case %d: g[%d] = %v unrolled, %v in the loop", k, i, g1[i], g2[i])
+			}
+		}
+		checked++
+	}
+	if checked < 4 {
+		t.Errorf("only %d fits with eight parameters", checked)
+	}
+}
