@@ -324,6 +324,9 @@ type wholeFitter struct {
 	// predicted drop (wholeStopDrop).
 	nEval       int
 	noEarlyStop bool
+	// generic (tests) makes assemble and normal take their general
+	// loops where the common case has an unrolled one.
+	generic bool
 	// scanFit is scanDensity's scratch fitter; scanOnly marks it (setup
 	// evaluates its lines without derivatives).
 	scanFit  *wholeFitter
@@ -573,7 +576,7 @@ func (f *wholeFitter) reset(opt Options, m diag.Measurement) {
 		pool: f.pool, lines: f.lines[:0], ws: f.ws,
 		normBase: f.normBase, linBase: f.linBase, linBaseG: f.linBaseG,
 		linA: f.linA, linG: f.linG, linInv: f.linInv, linWork: f.linWork, saveBuf: f.saveBuf, saveRows: f.saveRows,
-		noEarlyStop: f.noEarlyStop, scanFit: f.scanFit}
+		noEarlyStop: f.noEarlyStop, generic: f.generic, scanFit: f.scanFit}
 }
 
 // standInT returns the temperature at which line l's SH99 tables cover

@@ -1,6 +1,8 @@
 package spectrum
 
 import (
+	"bytes"
+	"encoding/json"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -525,5 +527,35 @@ func TestNormal8x4(t *testing.T) {
 	}
 	if checked < 4 {
 		t.Errorf("only %d fits with eight parameters", checked)
+	}
+}
+
+// TestWholeFastPaths: the whole fit with the unrolled loops of the
+// common case (assemble, normal) gives the same result, byte for byte in
+// JSON, as with the general loops, on bulk-like and generator fits.
+func TestWholeFastPaths(t *testing.T) {
+	for k, c := range earlyStopCases(t) {
+		p := NewPipeline(4096)
+		res, err := p.Analyze(c.sp, c.opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		q := NewPipeline(4096)
+		q.wfit = &wholeFitter{generic: true}
+		ref, err := q.Analyze(c.sp, c.opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		a, err := json.Marshal(res.Whole)
+		if err != nil {
+			t.Fatal(err)
+		}
+		b, err := json.Marshal(ref.Whole)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !bytes.Equal(a, b) {
+			t.Errorf("case %d: the whole fit differs with the general loops", k)
+		}
 	}
 }
