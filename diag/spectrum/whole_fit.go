@@ -358,11 +358,14 @@ func (f *wholeFitter) baseBlocks() {
 		return leg[0][:n] // padding, its sums unused
 	}
 	wa := grow(&f.mbuf, n)
+	wt = wt[:len(wa)]
 	for a := range nB {
+		la := leg[a][:len(wa)]
 		for i := range wa {
-			wa[i] = leg[a][i] * wt[i]
+			wa[i] = la[i] * wt[i]
 		}
 		r0, r1, r2, r3 := row(a), row(a+1), row(a+2), row(a+3)
+		r0, r1, r2, r3 = r0[:len(wa)], r1[:len(wa)], r2[:len(wa)], r3[:len(wa)]
 		var s0, s1, s2, s3 float64
 		for i, x := range wa {
 			s0 += x * r0[i]
@@ -380,6 +383,8 @@ func (f *wholeFitter) baseBlocks() {
 	for b := range nB {
 		l1 := leg[b][:n]
 		r0, r1, r2, r3 := row(b), row(b+1), row(b+2), row(b+3)
+		r0, r1, r2, r3 = r0[:len(l1)], r1[:len(l1)], r2[:len(l1)], r3[:len(l1)]
+		y, ws := y[:len(l1)], ws[:len(l1)]
 		var sg, s0, s1, s2, s3 float64
 		for i, v := range l1 {
 			sg += v * y[i] * ws[i]
@@ -547,6 +552,8 @@ func (f *wholeFitter) linearAreas() (areas, sig []float64, chi2 float64, ok bool
 		}
 		r0, r1, r2, r3 := leg(0), leg(1), leg(2), leg(3)
 		ys, ws, us := f.y[la.plo:la.phi], w[la.plo:la.phi], la.u[:la.phi-la.plo]
+		ys, ws = ys[:len(us)], ws[:len(us)]
+		r0, r1, r2, r3 = r0[:len(us)], r1[:len(us)], r2[:len(us)], r3[:len(us)]
 		var ga, s0, s1, s2, s3 float64
 		for i, u := range us {
 			v := u * ws[i]
@@ -608,12 +615,15 @@ func (f *wholeFitter) linearAreas() (areas, sig []float64, chi2 float64, ok bool
 		mod[i] = m
 	}
 	for a, l := range f.lines {
-		for i := l.plo; i < l.phi; i++ {
-			mod[i] += sol[a] * l.u[i-l.plo]
+		ms, us, sa := mod[l.plo:l.phi], l.u[:l.phi-l.plo], sol[a]
+		us = us[:len(ms)]
+		for i := range ms {
+			ms[i] += sa * us[i]
 		}
 	}
+	ys, ss := f.y[:len(mod)], f.s[:len(mod)]
 	for i := range mod {
-		r := (f.y[i] - mod[i]) / f.s[i]
+		r := (ys[i] - mod[i]) / ss[i]
 		chi2 += r * r
 	}
 	scale := 1.0
@@ -1183,16 +1193,29 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 	sens := grow(&f.sens, 2*len(f.x))
 	sensB := sens[len(f.x):]
 	sens = sens[:len(f.x)]
-	for i := range f.x {
+	cNe := cov0[pr.iNe*np : pr.iNe*np+np]
+	var cB []float64
+	if boltz {
+		cB = cov0[pr.iB*np : pr.iB*np+np]
+	}
+	ss := f.s[:len(sens)]
+	sensB = sensB[:len(sens)]
+	for i := range sens {
 		row := f.jac[i*np : (i+1)*np]
+		cNe := cNe[:len(row)]
 		var v, vb float64
-		for b, j := range row {
-			v += cov0[pr.iNe*np+b] * j
-			if boltz {
-				vb += cov0[pr.iB*np+b] * j
+		if boltz {
+			cB := cB[:len(row)]
+			for b, j := range row {
+				v += cNe[b] * j
+				vb += cB[b] * j
+			}
+		} else {
+			for b, j := range row {
+				v += cNe[b] * j
 			}
 		}
-		w := 1 / (f.s[i] * f.s[i])
+		w := 1 / (ss[i] * ss[i])
 		sens[i], sensB[i] = v*w, vb*w
 	}
 	// Saved pixel means of every line at the solution (in the fitter's
