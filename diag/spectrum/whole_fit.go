@@ -184,8 +184,10 @@ func (f *wholeFitter) assemble(th []float64) (float64, error) {
 		}
 	}
 	var chi2 float64
-	for i := range n {
-		r := (f.y[i] - mod[i]) / f.s[i]
+	ys, ss := f.y[:n], f.s[:n]
+	mod = mod[:n]
+	for i := range ys {
+		r := (ys[i] - mod[i]) / ss[i]
 		chi2 += r * r
 	}
 	if !finite(chi2) {
@@ -1248,10 +1250,13 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 		var d, db float64
 		for k, l := range f.lines {
 			a := f.areaOf(k, th)
-			for i := l.plo; i < l.phi; i++ {
-				dm := a * (l.u[i-l.plo] - saved[k][i-l.plo])
-				d += sens[i] * dm
-				db += sensB[i] * dm
+			ss, sb := sens[l.plo:l.phi], sensB[l.plo:l.phi]
+			us, sv := l.u[:len(ss)], saved[k][:len(ss)]
+			sb = sb[:len(ss)]
+			for i := range ss {
+				dm := a * (us[i] - sv[i])
+				d += ss[i] * dm
+				db += sb[i] * dm
 			}
 		}
 		return [2]float64{math.Abs(d), math.Abs(db)}
