@@ -106,6 +106,12 @@ type Problem struct {
 	// spectra are pixel integrals, and sampling narrow lines at pixel
 	// centres biases their widths (TestNarrowLinePixelBias).
 	PointSampled bool
+	// StopDrop, when > 0, ends the fit as converged before evaluating a
+	// trial step of little damping (μ ≤ its start value) whose predicted
+	// reduction of χ² is below StopDrop times the reduced χ² (χ²/(n − p)):
+	// such a step moves the parameters by about √StopDrop of their 1σ
+	// or less. 0 iterates to the relative tests alone (1e-10).
+	StopDrop float64
 }
 
 // LineResult holds the fitted parameters of one line and their 1σ errors
@@ -396,6 +402,10 @@ loop:
 			pred += f.delta[a] * (2*f.grad[a] - s)
 		}
 		if math.Sqrt(stepN) <= xtol*(math.Sqrt(thetaN)+xtol) {
+			status, err = Converged, nil
+			break
+		}
+		if p.StopDrop > 0 && mu <= mu0 && pred >= 0 && pred < p.StopDrop*chi2/float64(n-np) {
 			status, err = Converged, nil
 			break
 		}

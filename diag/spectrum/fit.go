@@ -250,6 +250,12 @@ func percentile(v []float64, q float64, work []float64) float64 {
 	return selectK(w, int(q*float64(len(w)-1)))
 }
 
+// windowStopDrop is the window fits' early stop (linefit.Problem.StopDrop):
+// a last step predicted to lower χ² by less than 1e-6 of the reduced χ²
+// (no parameter moves by more than ≈ 0.001σ) is not taken.
+// TestWindowEarlyStop pins the results against iterating on.
+var windowStopDrop = 1e-6
+
 // fitAll fits every group of detected lines and returns the weighted mean
 // wavelength offset (fitted − expected) and its 1σ.
 func (p *Pipeline) fitAll(cands []balmerCandidate, x, y, sig []float64, opt Options, noise float64) (float64, float64, error) {
@@ -339,7 +345,7 @@ func (p *Pipeline) fitAll(cands []balmerCandidate, x, y, sig []float64, opt Opti
 		// Without a noise model the σ are the robust noise estimate and the
 		// parameter errors are scaled by the residuals.
 		prob := linefit.Problem{X: wx, Y: wy, Sigma: ws, Lines: lines, BaselineOrder: 1,
-			SigmaAbsolute: opt.GainElectronsPerCount > 0}
+			SigmaAbsolute: opt.GainElectronsPerCount > 0, StopDrop: windowStopDrop}
 		err := p.fitter.Fit(&p.fres, &prob)
 		if err != nil && !errors.Is(err, linefit.ErrMaxIterations) {
 			for _, i := range fitted {

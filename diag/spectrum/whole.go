@@ -231,6 +231,9 @@ type wline struct {
 	wingH, wingInvH []float64
 	// Grid scratch.
 	cum, dcum, fq, dfq, mass, dmass, q, dq, kern []float64
+	// dsl holds the slopes of the cumulative of dq at the bin edges
+	// (edgeSlope, for pixels with deriv).
+	dsl []float64
 	// pe and pq are the base shape's density at the bin edges and the
 	// same broadened (the Hermite slopes of the broadened cumulative).
 	pe, pq []float64
@@ -321,6 +324,9 @@ type wholeFitter struct {
 	// predicted drop (wholeStopDrop).
 	nEval       int
 	noEarlyStop bool
+	// generic (tests) makes assemble and normal take their general
+	// loops where the common case has an unrolled one.
+	generic bool
 	// scanFit is scanDensity's scratch fitter; scanOnly marks it (setup
 	// evaluates its lines without derivatives).
 	scanFit  *wholeFitter
@@ -570,7 +576,7 @@ func (f *wholeFitter) reset(opt Options, m diag.Measurement) {
 		pool: f.pool, lines: f.lines[:0], ws: f.ws,
 		normBase: f.normBase, linBase: f.linBase, linBaseG: f.linBaseG,
 		linA: f.linA, linG: f.linG, linInv: f.linInv, linWork: f.linWork, saveBuf: f.saveBuf, saveRows: f.saveRows,
-		noEarlyStop: f.noEarlyStop, scanFit: f.scanFit}
+		noEarlyStop: f.noEarlyStop, generic: f.generic, scanFit: f.scanFit}
 }
 
 // standInT returns the temperature at which line l's SH99 tables cover
@@ -602,7 +608,7 @@ func (f *wholeFitter) newLine() *wline {
 		f.nPool++
 		*l = wline{u: l.u, du: l.du, dn: l.dn, dg: l.dg, wing: l.wing[:0], wc: l.wc, wp: l.wp, wd: l.wd,
 			cum: l.cum, dcum: l.dcum, fq: l.fq, dfq: l.dfq, mass: l.mass, dmass: l.dmass, q: l.q, dq: l.dq,
-			kern: l.kern, pe: l.pe, pq: l.pq, wingH: l.wingH, wingInvH: l.wingInvH}
+			kern: l.kern, pe: l.pe, pq: l.pq, wingH: l.wingH, wingInvH: l.wingInvH, dsl: l.dsl}
 		return l
 	}
 	l := &wline{}
@@ -982,6 +988,7 @@ func (f *wholeFitter) setupGrid(l *wline, ne float64) error {
 	l.dcum = grow(&l.dcum, nb+1)
 	l.fq = grow(&l.fq, nb+1)
 	l.dfq = grow(&l.dfq, nb+1)
+	l.dsl = grow(&l.dsl, nb+1)
 	l.mass = grow(&l.mass, nb)
 	l.dmass = grow(&l.dmass, nb)
 	l.q = grow(&l.q, nb)
@@ -1320,6 +1327,10 @@ func (f *wholeFitter) pixels(l *wline, off float64, deriv bool) {
 			F[j+1] = F[j] + l.q[j]
 			dF[j+1] = dF[j] + l.dq[j]
 		}
+		sl := l.dsl[:nb+1]
+		for j := range sl {
+			sl[j] = edgeSlope(l.dq, j, nb)
+		}
 	} else {
 		for j := range nb {
 			F[j+1] = F[j] + l.q[j]
@@ -1329,20 +1340,37 @@ func (f *wholeFitter) pixels(l *wline, off float64, deriv bool) {
 	e := edgeEval{l: l, F: F, dF: dF, e0: e0, eEnd: eEnd, h: h, invH: 1 / h, shR: F[nb] - l.wc[nw], dshR: dF[nb] - l.wd[nw],
 		nb: nb, nw: nw, deriv: deriv}
 	ctr := l.center + off
-	pa, pda, pdens := e.at(f.a[l.plo] - ctr)
-	for i := l.plo; i < l.phi; i++ {
-		if i > l.plo && f.a[i] != f.b[i-1] {
-			pa, pda, pdens = e.at(f.a[i] - ctr)
+	if !deriv {
+		// Values only: the same F as at gives, bit for bit.
+		fa, fb, iws, us := f.a[l.plo:l.phi], f.b[l.plo:l.phi], f.invW[l.plo:l.phi], l.u[:l.phi-l.plo]
+		fb = fb[:len(fa)]
+		iws = iws[:len(fa)]
+		us = us[:len(fa)]
+		pa := e.value(fa[0] - ctr)
+		for k := range fa {
+			if k > 0 && fa[k] != fb[k-1] {
+				pa = e.value(fa[k] - ctr)
+			}
+			cb := e.value(fb[k] - ctr)
+			us[k] = (cb - pa) * iws[k]
+			pa = cb
 		}
-		cb, dcb, densb := e.at(f.b[i] - ctr)
-		iw := f.invW[i] // 1/(b − a)
-		k := i - l.plo
-		l.u[k] = (cb - pa) * iw
-		if deriv {
-			l.dn[k] = (dcb - pda) * iw
-			// d/dδ of the mean = −(density(b) − density(a))/w.
-			l.du[k] = (pdens - densb) * iw
+		return
+	}
+	fa, fb, iws := f.a[l.plo:l.phi], f.b[l.plo:l.phi], f.invW[l.plo:l.phi]
+	fb, iws = fb[:len(fa)], iws[:len(fa)]
+	us, dns, dus := l.u[:len(fa)], l.dn[:len(fa)], l.du[:len(fa)]
+	pa, pda, pdens := e.at(fa[0] - ctr)
+	for k := range fa {
+		if k > 0 && fa[k] != fb[k-1] {
+			pa, pda, pdens = e.at(fa[k] - ctr)
 		}
+		cb, dcb, densb := e.at(fb[k] - ctr)
+		iw := iws[k] // 1/(b − a)
+		us[k] = (cb - pa) * iw
+		dns[k] = (dcb - pda) * iw
+		// d/dδ of the mean = −(density(b) − density(a))/w.
+		dus[k] = (pdens - densb) * iw
 		pa, pda, pdens = cb, dcb, densb
 	}
 }
@@ -1427,8 +1455,67 @@ func (e *edgeEval) at(t float64) (c, dc, dens float64) {
 		return c, 0, 0
 	}
 	dens = hermiteSlope(c0, c1, d0, d1, u) * e.invH
-	dc = hermiteValue(e.dF[j], e.dF[j+1], edgeSlope(l.dq, j, nb), edgeSlope(l.dq, j+1, nb), u)
+	sl := l.dsl[j : j+2]
+	dc = hermiteValue(e.dF[j], e.dF[j+1], sl[0], sl[1], u)
 	return c, dc, dens
+}
+
+// value is at's F alone (deriv false), bit for bit: on the grid inline,
+// in the wings through at.
+func (e *edgeEval) value(t float64) float64 {
+	if t < e.e0 {
+		return e.leftValue(t)
+	}
+	if t > e.eEnd {
+		return e.rightValue(t)
+	}
+	fj := (t - e.e0) * e.invH
+	j := min(int(fj), e.nb-1)
+	u := fj - float64(j)
+	F := e.F[j : j+2]
+	pq := e.l.pq[j : j+2]
+	return hermiteValue(F[0], F[1], pq[0]*e.h, pq[1]*e.h, u)
+}
+
+// leftValue is at's F left of the grid (t < e0), bit for bit.
+func (e *edgeEval) leftValue(t float64) float64 {
+	l, nw := e.l, e.nw
+	wing := l.wing[:nw]
+	d := -t
+	if d >= wing[nw-1] {
+		return l.wc[nw-1]
+	}
+	wl := e.wl
+	for wl > 0 && d < wing[wl] {
+		wl--
+	}
+	for wl < nw-2 && d >= wing[wl+1] {
+		wl++
+	}
+	e.wl = wl
+	hh, ih := l.wingH[wl], l.wingInvH[wl]
+	u := (t + wing[wl+1]) * ih
+	return hermiteValue(l.wc[wl+1], l.wc[wl], l.wp[wl+1]*hh, l.wp[wl]*hh, u)
+}
+
+// rightValue is at's F right of the grid (t > eEnd), bit for bit.
+func (e *edgeEval) rightValue(t float64) float64 {
+	l, nw := e.l, e.nw
+	wing := l.wing[:nw]
+	if t >= wing[nw-1] {
+		return l.wc[2*nw-1] + e.shR
+	}
+	wr := e.wr
+	for wr > 0 && t < wing[wr] {
+		wr--
+	}
+	for wr < nw-2 && t >= wing[wr+1] {
+		wr++
+	}
+	e.wr = wr
+	hh, ih := l.wingH[wr], l.wingInvH[wr]
+	u := (t - wing[wr]) * ih
+	return hermiteValue(l.wc[nw+wr], l.wc[nw+wr+1], l.wp[nw+wr]*hh, l.wp[nw+wr+1]*hh, u) + e.shR
 }
 
 // edgeSlope returns the slope (mass per bin) at edge j of the

@@ -146,6 +146,22 @@ func (f *wholeFitter) assemble(th []float64) (float64, error) {
 			eB = -l.dE * a
 		}
 		us, dns, dus := l.u[:l.phi-l.plo], l.dn[:l.phi-l.plo], l.du[:l.phi-l.plo]
+		if !f.generic && !pr.free && pr.iTg < 0 && pr.iIa < 0 && pr.iS == 0 && pr.iB == 1 && pr.iNe == 2 && pr.iOff == 3 {
+			// Boltzmann areas, nothing else free: the loop below with its
+			// four columns at fixed places (the same operations).
+			dns, dus = dns[:len(us)], dus[:len(us)]
+			ms := mod[l.plo : l.plo+len(us)]
+			for j, u := range us {
+				ms[j] += a * u
+				o := (l.plo + j) * np
+				row := (*[4]float64)(jac[o : o+4])
+				row[0] += eS * u
+				row[1] += eB * u
+				row[2] += a * dns[j]
+				row[3] += a * dus[j]
+			}
+			continue
+		}
 		for j, u := range us {
 			i := l.plo + j
 			mod[i] += a * u
@@ -168,8 +184,10 @@ func (f *wholeFitter) assemble(th []float64) (float64, error) {
 		}
 	}
 	var chi2 float64
-	for i := range n {
-		r := (f.y[i] - mod[i]) / f.s[i]
+	ys, ss := f.y[:n], f.s[:n]
+	mod = mod[:n]
+	for i := range ys {
+		r := (ys[i] - mod[i]) / ss[i]
 		chi2 += r * r
 	}
 	if !finite(chi2) {
@@ -193,6 +211,28 @@ func (f *wholeFitter) normal(A, g []float64) {
 		g[i] = 0
 	}
 	wt := f.wbuf[:len(f.x)]
+	if np == 8 && iBase == 4 && !f.generic {
+		// The common case (Boltzmann areas, a cubic baseline), unrolled:
+		// the same products and sums in the same order as the loop below.
+		f.normal8x4(A, g, wt)
+	} else {
+		f.normalRows(A, g, wt)
+	}
+	for a := range nB {
+		copy(A[(iBase+a)*np+iBase+a:(iBase+a+1)*np], f.normBase[a*nB+a:(a+1)*nB])
+	}
+	for a := range np {
+		for b := range a {
+			A[a*np+b] = A[b*np+a]
+		}
+	}
+}
+
+// normalRows adds every pixel's products to A's rows of the parameters
+// before the baseline and to g (normal).
+func (f *wholeFitter) normalRows(A, g, wt []float64) {
+	np := f.par.n
+	iBase := f.par.iBase
 	for i := range f.x {
 		w := wt[i]
 		r := (f.y[i] - f.model[i]) * w
@@ -217,12 +257,71 @@ func (f *wholeFitter) normal(A, g []float64) {
 			g[iBase+a] += va * r
 		}
 	}
-	for a := range nB {
-		copy(A[(iBase+a)*np+iBase+a:(iBase+a+1)*np], f.normBase[a*nB+a:(a+1)*nB])
-	}
-	for a := range np {
-		for b := range a {
-			A[a*np+b] = A[b*np+a]
+}
+
+// normal8x4 is normalRows for np = 8, iBase = 4, unrolled: each
+// element of A and g gets the same products, in the same pixel order.
+func (f *wholeFitter) normal8x4(As, gs, wt []float64) {
+	A := (*[64]float64)(As[:64])
+	g := (*[8]float64)(gs[:8])
+	ys, mod := f.y[:len(wt)], f.model[:len(wt)]
+	jac := f.jac[:8*len(wt)]
+	for i, w := range wt {
+		r := (ys[i] - mod[i]) * w
+		row := (*[8]float64)(jac[8*i : 8*i+8])
+		if va := row[0]; va != 0 {
+			g[0] += va * r
+			wa := va * w
+			A[0] += wa * row[0]
+			A[1] += wa * row[1]
+			A[2] += wa * row[2]
+			A[3] += wa * row[3]
+			A[4] += wa * row[4]
+			A[5] += wa * row[5]
+			A[6] += wa * row[6]
+			A[7] += wa * row[7]
+		}
+		if va := row[1]; va != 0 {
+			g[1] += va * r
+			wa := va * w
+			A[9] += wa * row[1]
+			A[10] += wa * row[2]
+			A[11] += wa * row[3]
+			A[12] += wa * row[4]
+			A[13] += wa * row[5]
+			A[14] += wa * row[6]
+			A[15] += wa * row[7]
+		}
+		if va := row[2]; va != 0 {
+			g[2] += va * r
+			wa := va * w
+			A[18] += wa * row[2]
+			A[19] += wa * row[3]
+			A[20] += wa * row[4]
+			A[21] += wa * row[5]
+			A[22] += wa * row[6]
+			A[23] += wa * row[7]
+		}
+		if va := row[3]; va != 0 {
+			g[3] += va * r
+			wa := va * w
+			A[27] += wa * row[3]
+			A[28] += wa * row[4]
+			A[29] += wa * row[5]
+			A[30] += wa * row[6]
+			A[31] += wa * row[7]
+		}
+		if va := row[4]; va != 0 {
+			g[4] += va * r
+		}
+		if va := row[5]; va != 0 {
+			g[5] += va * r
+		}
+		if va := row[6]; va != 0 {
+			g[6] += va * r
+		}
+		if va := row[7]; va != 0 {
+			g[7] += va * r
 		}
 	}
 }
@@ -261,11 +360,14 @@ func (f *wholeFitter) baseBlocks() {
 		return leg[0][:n] // padding, its sums unused
 	}
 	wa := grow(&f.mbuf, n)
+	wt = wt[:len(wa)]
 	for a := range nB {
+		la := leg[a][:len(wa)]
 		for i := range wa {
-			wa[i] = leg[a][i] * wt[i]
+			wa[i] = la[i] * wt[i]
 		}
 		r0, r1, r2, r3 := row(a), row(a+1), row(a+2), row(a+3)
+		r0, r1, r2, r3 = r0[:len(wa)], r1[:len(wa)], r2[:len(wa)], r3[:len(wa)]
 		var s0, s1, s2, s3 float64
 		for i, x := range wa {
 			s0 += x * r0[i]
@@ -283,6 +385,8 @@ func (f *wholeFitter) baseBlocks() {
 	for b := range nB {
 		l1 := leg[b][:n]
 		r0, r1, r2, r3 := row(b), row(b+1), row(b+2), row(b+3)
+		r0, r1, r2, r3 = r0[:len(l1)], r1[:len(l1)], r2[:len(l1)], r3[:len(l1)]
+		y, ws := y[:len(l1)], ws[:len(l1)]
 		var sg, s0, s1, s2, s3 float64
 		for i, v := range l1 {
 			sg += v * y[i] * ws[i]
@@ -450,6 +554,8 @@ func (f *wholeFitter) linearAreas() (areas, sig []float64, chi2 float64, ok bool
 		}
 		r0, r1, r2, r3 := leg(0), leg(1), leg(2), leg(3)
 		ys, ws, us := f.y[la.plo:la.phi], w[la.plo:la.phi], la.u[:la.phi-la.plo]
+		ys, ws = ys[:len(us)], ws[:len(us)]
+		r0, r1, r2, r3 = r0[:len(us)], r1[:len(us)], r2[:len(us)], r3[:len(us)]
 		var ga, s0, s1, s2, s3 float64
 		for i, u := range us {
 			v := u * ws[i]
@@ -511,12 +617,15 @@ func (f *wholeFitter) linearAreas() (areas, sig []float64, chi2 float64, ok bool
 		mod[i] = m
 	}
 	for a, l := range f.lines {
-		for i := l.plo; i < l.phi; i++ {
-			mod[i] += sol[a] * l.u[i-l.plo]
+		ms, us, sa := mod[l.plo:l.phi], l.u[:l.phi-l.plo], sol[a]
+		us = us[:len(ms)]
+		for i := range ms {
+			ms[i] += sa * us[i]
 		}
 	}
+	ys, ss := f.y[:len(mod)], f.s[:len(mod)]
 	for i := range mod {
-		r := (f.y[i] - mod[i]) / f.s[i]
+		r := (ys[i] - mod[i]) / ss[i]
 		chi2 += r * r
 	}
 	scale := 1.0
@@ -966,10 +1075,19 @@ func (f *wholeFitter) result(iters int, conv bool, chi2 float64, teGiven bool, i
 		wf.Data = make(PlotFloats, n)
 		wf.Model = make(PlotFloats, n)
 		wf.Residual = make(PlotFloats, n)
-		for i := range n {
-			wf.Data[i] = unsc(f.y[i])
-			wf.Model[i] = unsc(f.model[i])
-			wf.Residual[i] = unsc(f.y[i] - f.model[i])
+		if f.scale == 0 {
+			// Ldexp by 0 is the identity, bit for bit.
+			for i := range n {
+				wf.Data[i] = f.y[i]
+				wf.Model[i] = f.model[i]
+				wf.Residual[i] = f.y[i] - f.model[i]
+			}
+		} else {
+			for i := range n {
+				wf.Data[i] = unsc(f.y[i])
+				wf.Model[i] = unsc(f.model[i])
+				wf.Residual[i] = unsc(f.y[i] - f.model[i])
+			}
 		}
 	}
 	return wf, nil
@@ -1077,16 +1195,29 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 	sens := grow(&f.sens, 2*len(f.x))
 	sensB := sens[len(f.x):]
 	sens = sens[:len(f.x)]
-	for i := range f.x {
+	cNe := cov0[pr.iNe*np : pr.iNe*np+np]
+	var cB []float64
+	if boltz {
+		cB = cov0[pr.iB*np : pr.iB*np+np]
+	}
+	ss := f.s[:len(sens)]
+	sensB = sensB[:len(sens)]
+	for i := range sens {
 		row := f.jac[i*np : (i+1)*np]
+		cNe := cNe[:len(row)]
 		var v, vb float64
-		for b, j := range row {
-			v += cov0[pr.iNe*np+b] * j
-			if boltz {
-				vb += cov0[pr.iB*np+b] * j
+		if boltz {
+			cB := cB[:len(row)]
+			for b, j := range row {
+				v += cNe[b] * j
+				vb += cB[b] * j
+			}
+		} else {
+			for b, j := range row {
+				v += cNe[b] * j
 			}
 		}
-		w := 1 / (f.s[i] * f.s[i])
+		w := 1 / (ss[i] * ss[i])
 		sens[i], sensB[i] = v*w, vb*w
 	}
 	// Saved pixel means of every line at the solution (in the fitter's
@@ -1119,10 +1250,13 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 		var d, db float64
 		for k, l := range f.lines {
 			a := f.areaOf(k, th)
-			for i := l.plo; i < l.phi; i++ {
-				dm := a * (l.u[i-l.plo] - saved[k][i-l.plo])
-				d += sens[i] * dm
-				db += sensB[i] * dm
+			ss, sb := sens[l.plo:l.phi], sensB[l.plo:l.phi]
+			us, sv := l.u[:len(ss)], saved[k][:len(ss)]
+			sb = sb[:len(ss)]
+			for i := range ss {
+				dm := a * (us[i] - sv[i])
+				d += ss[i] * dm
+				db += sb[i] * dm
 			}
 		}
 		return [2]float64{math.Abs(d), math.Abs(db)}

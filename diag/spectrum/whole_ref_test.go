@@ -1,6 +1,8 @@
 package spectrum
 
 import (
+	"bytes"
+	"encoding/json"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -322,11 +324,16 @@ func (e *refEdgeEval) at(t float64) (c, dc, dens float64) {
 // Spectra: SH99-shaped surveys like the bulk reanalysis benchmark's
 // (SynthesizeStark, Hα–H10, photon noise), and the whole fit's own
 // generator at other densities, widths and line sets.
-func TestWholeEarlyStop(t *testing.T) {
-	type tcase struct {
-		sp  *Spectrum
-		opt Options
-	}
+// earlyStopCase is a spectrum and its options for the early-stop tests.
+type earlyStopCase struct {
+	sp  *Spectrum
+	opt Options
+}
+
+// earlyStopCases: bulk-like surveys (as the server's bulk benchmark makes
+// them), the whole fit's own generator, free gas temperature.
+func earlyStopCases(t *testing.T) []earlyStopCase {
+	type tcase = earlyStopCase
 	var cases []tcase
 	grid := linspace(380, 700, 2048)
 	rng := rand.New(rand.NewPCG(11, 2026))
@@ -371,6 +378,11 @@ func TestWholeEarlyStop(t *testing.T) {
 			cases = append(cases, tcase{sp, opt})
 		}
 	}
+	return cases
+}
+
+func TestWholeEarlyStop(t *testing.T) {
+	cases := earlyStopCases(t)
 	var nEarly, nFull, compared int
 	for k, c := range cases {
 		p := NewPipeline(4096)
@@ -479,5 +491,71 @@ func TestScanDensityReuse(t *testing.T) {
 	}
 	if checked != 6 {
 		t.Fatalf("%d scans checked", checked)
+	}
+}
+
+// TestNormal8x4: the unrolled normal equations of the common case (eight
+// parameters, the baseline's four last) are those of the general loop,
+// bit for bit, on bulk-like fits (with zero rows: pixels no line covers).
+func TestNormal8x4(t *testing.T) {
+	checked := 0
+	for k, c := range earlyStopCases(t) {
+		p := NewPipeline(4096)
+		if _, err := p.Analyze(c.sp, c.opt); err != nil {
+			t.Fatal(err)
+		}
+		f := p.wfit
+		if f.par.n != 8 || f.par.iBase != 4 {
+			continue
+		}
+		wt := f.wbuf[:len(f.x)]
+		A1, g1 := make([]float64, 64), make([]float64, 8)
+		A2, g2 := make([]float64, 64), make([]float64, 8)
+		f.normal8x4(A1, g1, wt)
+		f.normalRows(A2, g2, wt)
+		for i := range A1 {
+			if math.Float64bits(A1[i]) != math.Float64bits(A2[i]) {
+				t.Errorf("case %d: A[%d] = %v unrolled, %v in the loop", k, i, A1[i], A2[i])
+			}
+		}
+		for i := range g1 {
+			if math.Float64bits(g1[i]) != math.Float64bits(g2[i]) {
+				t.Errorf("case %d: g[%d] = %v unrolled, %v in the loop", k, i, g1[i], g2[i])
+			}
+		}
+		checked++
+	}
+	if checked < 4 {
+		t.Errorf("only %d fits with eight parameters", checked)
+	}
+}
+
+// TestWholeFastPaths: the whole fit with the unrolled loops of the
+// common case (assemble, normal) gives the same result, byte for byte in
+// JSON, as with the general loops, on bulk-like and generator fits.
+func TestWholeFastPaths(t *testing.T) {
+	for k, c := range earlyStopCases(t) {
+		p := NewPipeline(4096)
+		res, err := p.Analyze(c.sp, c.opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		q := NewPipeline(4096)
+		q.wfit = &wholeFitter{generic: true}
+		ref, err := q.Analyze(c.sp, c.opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		a, err := json.Marshal(res.Whole)
+		if err != nil {
+			t.Fatal(err)
+		}
+		b, err := json.Marshal(ref.Whole)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !bytes.Equal(a, b) {
+			t.Errorf("case %d: the whole fit differs with the general loops", k)
+		}
 	}
 }
