@@ -37,9 +37,9 @@ const (
 
 // cacheDropper is the checkpointer's state for dropCache.
 type cacheDropper struct {
-	f    *os.File // the database file, open until Close (see closeCacheFile)
-	from int64    // the file's size at Open, then the end of the last advice
-	keep int64    // cacheKeep (tests set less)
+	f    *os.File     // the database file, open until Close (see closeCacheFile)
+	from int64        // the file's size at Open, then the end of the last advice
+	keep atomic.Int64 // cacheKeep (tests set less, while the checkpointer runs)
 	// dropped is the end of the last advice (tests).
 	dropped atomic.Int64
 }
@@ -61,7 +61,8 @@ func (d *DB) openCacheFile() {
 		d.cache.f = f // closed by Close all the same
 		return
 	}
-	d.cache.f, d.cache.from, d.cache.keep = f, fi.Size(), cacheKeep
+	d.cache.f, d.cache.from = f, fi.Size()
+	d.cache.keep.Store(cacheKeep)
 }
 
 // dropCache advises the kernel to drop the cached pages of the file's
@@ -69,14 +70,15 @@ func (d *DB) openCacheFile() {
 // checkpointer calls it after each checkpoint).
 func (d *DB) dropCache() {
 	c := &d.cache
-	if c.f == nil || c.keep == 0 {
+	keep := c.keep.Load()
+	if c.f == nil || keep == 0 {
 		return
 	}
 	fi, err := c.f.Stat()
 	if err != nil {
 		return
 	}
-	end := fi.Size() - c.keep
+	end := fi.Size() - keep
 	if end-c.from < cacheDropStep {
 		return
 	}

@@ -27,7 +27,7 @@ func TestCheckpointDropsNewPagesFromCache(t *testing.T) {
 		t.Fatal(err)
 	}
 	from0 := d.cache.from
-	d.cache.keep = 1 << 20
+	d.cache.keep.Store(1 << 20)
 	if _, err := d.wdb.ExecContext(ctx, `CREATE TABLE blobs(id INTEGER PRIMARY KEY, b BLOB NOT NULL)`); err != nil {
 		t.Fatal(err)
 	}
