@@ -124,6 +124,9 @@ func (d *DB) checkpoints() {
 		var busy, log, done int64
 		err := d.db.QueryRowContext(context.Background(), `PRAGMA wal_checkpoint(PASSIVE)`).Scan(&busy, &log, &done)
 		c.run.Unlock()
+		if err == nil {
+			d.dropCache()
+		}
 		c.runs.Add(1)
 		if err == nil {
 			c.restart.Store(log*d.pageSize > walRestartBytes)

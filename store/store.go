@@ -66,6 +66,9 @@ type DB struct {
 	group groupCommitter
 	// ckpt checkpoints the WAL outside the write lock (checkpoint.go).
 	ckpt checkpointer
+	// cache drops the new pages' cached copies after checkpoints
+	// (cachedrop.go); only the checkpointer goroutine uses it.
+	cache cacheDropper
 }
 
 // Sync modes of Options.Sync (SQLite's PRAGMA synchronous in WAL mode).
@@ -166,6 +169,7 @@ func Open(ctx context.Context, path string, opts ...Options) (*DB, error) {
 			return nil, fmt.Errorf("store: open %s: %w", path, err)
 		}
 		d.wdb.SetMaxOpenConns(1)
+		d.openCacheFile()
 	}
 	if err := d.prepareActor(ctx); err != nil {
 		d.Close()
@@ -178,7 +182,7 @@ func Open(ctx context.Context, path string, opts ...Options) (*DB, error) {
 	d.auditReady = true
 	if path != ":memory:" {
 		if err := ensureIdentity(ctx, sdb); err != nil {
-			sdb.Close()
+			d.Close()
 			return nil, err
 		}
 	}
@@ -260,7 +264,9 @@ func (d *DB) Close() error {
 	if d.wdb != nil && d.wdb != d.db {
 		d.wdb.Close()
 	}
-	return d.db.Close()
+	err := d.db.Close()
+	d.closeCacheFile() // after SQLite's connections (cachedrop.go)
+	return err
 }
 
 // Ping checks that the database answers (for /healthz).

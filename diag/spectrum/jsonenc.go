@@ -2,9 +2,11 @@ package spectrum
 
 import (
 	"bytes"
+	"encoding/binary"
 	"encoding/json"
 	"fmt"
 	"math"
+	"math/bits"
 	"slices"
 	"strconv"
 	"strings"
@@ -246,17 +248,17 @@ func plotDigits(v float64) (m uint64, e10 int, ok bool) {
 // strconv's 'g' format with 8 significant digits writes it, for m and
 // e10 from plotDigits.
 func appendDigits8(b []byte, neg bool, m uint64, e10 int) []byte {
-	// The digits, trailing zeros dropped (strconv's nd); d[nd:] are '0'.
-	var d [8]byte
+	// The eight digits as one little-endian word (d[0] the lowest byte);
+	// nd is their number without trailing zeros (strconv's nd; m ≥ 10⁷,
+	// so the first digit is not '0').
 	hi, lo := uint32(m/10000), uint32(m%10000)
 	h1, h2, l1, l2 := 2*(hi/100), 2*(hi%100), 2*(lo/100), 2*(lo%100)
-	d[0], d[1], d[2], d[3] = digitPairs[h1], digitPairs[h1+1], digitPairs[h2], digitPairs[h2+1]
-	d[4], d[5], d[6], d[7] = digitPairs[l1], digitPairs[l1+1], digitPairs[l2], digitPairs[l2+1]
-	nd := 8
-	for nd > 1 && d[nd-1] == '0' {
-		nd--
-	}
-	// The text is written in place, in b's spare room.
+	w := uint64(digitPairs[h1]) | uint64(digitPairs[h1+1])<<8 | uint64(digitPairs[h2])<<16 | uint64(digitPairs[h2+1])<<24 |
+		uint64(digitPairs[l1])<<32 | uint64(digitPairs[l1+1])<<40 | uint64(digitPairs[l2])<<48 | uint64(digitPairs[l2+1])<<56
+	const zeros = 0x3030303030303030 // "00000000"
+	nd := 8 - bits.LeadingZeros64(w^zeros)/8
+	// The text is written in place, in b's spare room, with whole-word
+	// stores: bytes past the text's end are scratch.
 	if cap(b)-len(b) < 24 {
 		b = slices.Grow(b, 24)
 	}
@@ -273,16 +275,13 @@ func appendDigits8(b []byte, neg bool, m uint64, e10 int) []byte {
 		eprec = nd
 	}
 	if e10 < -4 || e10 >= eprec {
-		// %e with nd digits.
-		out[n] = d[0]
+		// %e with nd digits: d, then "." and the other nd−1 digits.
+		out[n] = byte(w)
 		n++
 		if nd > 1 {
 			out[n] = '.'
-			n++
-			for i := 1; i < nd; i++ {
-				out[n] = d[i]
-				n++
-			}
+			binary.LittleEndian.PutUint64(out[n+1:], w>>8)
+			n += nd
 		}
 		out[n] = 'e'
 		n++
@@ -300,35 +299,23 @@ func appendDigits8(b []byte, neg bool, m uint64, e10 int) []byte {
 		out[n], out[n+1] = digitPairs[2*exp], digitPairs[2*exp+1]
 		return b[:n0+n+2]
 	}
-	// %f with max(nd-dp, 0) decimals (8 > dp here): the digits before
-	// the point (zeros past nd), then those after it.
+	// %f with max(nd-dp, 0) decimals (0 < dp < 8 or dp ≤ 0 here).
 	if dp > 0 {
-		for i := range dp {
-			out[n] = d[i]
-			n++
-		}
+		// The digits before the point (zeros past nd), then, when there
+		// are decimals, "." and the rest.
+		binary.LittleEndian.PutUint64(out[n:], w)
 		if nd > dp {
-			out[n] = '.'
-			n++
-			for i := dp; i < nd; i++ {
-				out[n] = d[i]
-				n++
-			}
+			out[n+dp] = '.'
+			binary.LittleEndian.PutUint64(out[n+dp+1:], w>>(8*uint(dp)))
+			return b[:n0+n+nd+1]
 		}
-		return b[:n0+n]
+		return b[:n0+n+dp]
 	}
 	// dp ≥ −3 (e10 ≥ −4): "0." and −dp zeros before the digits.
-	out[n], out[n+1] = '0', '.'
-	n += 2
-	for range -dp {
-		out[n] = '0'
-		n++
-	}
-	for i := range nd {
-		out[n] = d[i]
-		n++
-	}
-	return b[:n0+n]
+	binary.LittleEndian.PutUint64(out[n:], 0x3030303030302e30) // "0.000000"
+	n += 2 - dp
+	binary.LittleEndian.PutUint64(out[n:], w)
+	return b[:n0+n+nd]
 }
 
 // digitPairs are "00" … "99".
