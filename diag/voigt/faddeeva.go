@@ -130,9 +130,14 @@ func Faddeeva(z complex128) complex128 {
 func faddeevaUpper(x, y float64) complex128 {
 	if x < 0 {
 		// w(−z̄) = conj w(z).
-		r := faddeevaUpper(-x, y)
+		r := faddeevaRight(-x, y)
 		return complex(real(r), -imag(r))
 	}
+	return faddeevaRight(x, y)
+}
+
+// faddeevaRight is faddeevaUpper for x ≥ 0 (or NaN; not x < 0).
+func faddeevaRight(x, y float64) complex128 {
 	r2 := x*x + y*y
 	switch {
 	case y == 0 && r2 < asymR2:
