@@ -386,41 +386,33 @@ func (p *Pipeline) Analyze(sp *Spectrum, opt Options) (Result, error) {
 	if satLevel <= 0 {
 		satLevel, autoSat = autoSaturation(sp.Counts)
 	}
-	for i := range n {
-		c := counts[i]
-		sat[i] = satLevel > 0 && c >= satLevel*(1-1e-9)
-		if opt.Dark != nil {
-			c -= opt.Dark.Counts[i]
+	if opt.Dark == nil && !opt.Calibrated && !(opt.GainElectronsPerCount > 0) && n >= 3 {
+		// The usual case (raw counts, no dark, no noise model): the
+		// inner pixels without pixelCounts' tests of the options, the
+		// same operations in the same order; the first and the last
+		// pixel go the general way, in order.
+		if err := p.pixelCounts(0, x, y, sig, sat, counts, satLevel, sp, opt); err != nil {
+			return res, err
 		}
-		// Pixel width: half the distance between the neighbours.
-		var dx float64
-		switch i {
-		case 0:
-			dx = x[1] - x[0]
-		case n - 1:
-			dx = x[n-1] - x[n-2]
-		default:
-			dx = (x[i+1] - x[i-1]) / 2
-		}
-		y[i] = c / dx
-		if opt.Calibrated {
-			y[i] = c // already a density per nm
-		}
-		if opt.GainElectronsPerCount > 0 {
-			raw := math.Max(sp.Counts[i], 0) * opt.GainElectronsPerCount
-			v := raw + opt.ReadNoiseElectrons*opt.ReadNoiseElectrons
-			if opt.Dark != nil {
-				v += math.Max(opt.Dark.Counts[i], 0)*opt.GainElectronsPerCount + opt.ReadNoiseElectrons*opt.ReadNoiseElectrons
-			}
-			sig[i] = math.Sqrt(math.Max(v, 1)) / opt.GainElectronsPerCount / dx
-			if math.IsInf(sig[i], 0) || math.IsNaN(sig[i]) {
-				return res, fail(src, "pixel %d (%.4f nm): the noise model (gain %v e⁻/count, read noise %v e⁻) gives a non-finite σ: check the gain and read noise",
-					i+1, sp.WavelengthNM[i], opt.GainElectronsPerCount, opt.ReadNoiseElectrons)
+		for i := 1; i < n-1; i++ {
+			c := counts[i]
+			sat[i] = satLevel > 0 && c >= satLevel*(1-1e-9)
+			dx := (x[i+1] - x[i-1]) / 2
+			v := c / dx
+			y[i] = v
+			if math.IsInf(v, 0) || math.IsNaN(v) {
+				return res, fail(src, "pixel %d (%.4f nm): %v counts (dark subtracted: %v) over a %.3g nm pixel is beyond the range that can be analysed: check the values and their scale",
+					i+1, sp.WavelengthNM[i], sp.Counts[i], c, dx)
 			}
 		}
-		if math.IsInf(y[i], 0) || math.IsNaN(y[i]) {
-			return res, fail(src, "pixel %d (%.4f nm): %v counts (dark subtracted: %v) over a %.3g nm pixel is beyond the range that can be analysed: check the values and their scale",
-				i+1, sp.WavelengthNM[i], sp.Counts[i], c, dx)
+		if err := p.pixelCounts(n-1, x, y, sig, sat, counts, satLevel, sp, opt); err != nil {
+			return res, err
+		}
+	} else {
+		for i := range n {
+			if err := p.pixelCounts(i, x, y, sig, sat, counts, satLevel, sp, opt); err != nil {
+				return res, err
+			}
 		}
 	}
 	if sp.Vacuum {
@@ -736,6 +728,48 @@ func growBool(b *[]bool, n int) []bool {
 	}
 	*b = (*b)[:n]
 	return *b
+}
+
+// pixelCounts is the preprocessing of pixel i in Analyze: saturation,
+// dark subtraction, counts per nm and the noise model's σ.
+func (p *Pipeline) pixelCounts(i int, x, y, sig []float64, sat []bool, counts []float64, satLevel float64, sp *Spectrum, opt Options) error {
+	n, src := len(x), sp.Name
+	c := counts[i]
+	sat[i] = satLevel > 0 && c >= satLevel*(1-1e-9)
+	if opt.Dark != nil {
+		c -= opt.Dark.Counts[i]
+	}
+	// Pixel width: half the distance between the neighbours.
+	var dx float64
+	switch i {
+	case 0:
+		dx = x[1] - x[0]
+	case n - 1:
+		dx = x[n-1] - x[n-2]
+	default:
+		dx = (x[i+1] - x[i-1]) / 2
+	}
+	y[i] = c / dx
+	if opt.Calibrated {
+		y[i] = c // already a density per nm
+	}
+	if opt.GainElectronsPerCount > 0 {
+		raw := math.Max(sp.Counts[i], 0) * opt.GainElectronsPerCount
+		v := raw + opt.ReadNoiseElectrons*opt.ReadNoiseElectrons
+		if opt.Dark != nil {
+			v += math.Max(opt.Dark.Counts[i], 0)*opt.GainElectronsPerCount + opt.ReadNoiseElectrons*opt.ReadNoiseElectrons
+		}
+		sig[i] = math.Sqrt(math.Max(v, 1)) / opt.GainElectronsPerCount / dx
+		if math.IsInf(sig[i], 0) || math.IsNaN(sig[i]) {
+			return fail(src, "pixel %d (%.4f nm): the noise model (gain %v e⁻/count, read noise %v e⁻) gives a non-finite σ: check the gain and read noise",
+				i+1, sp.WavelengthNM[i], opt.GainElectronsPerCount, opt.ReadNoiseElectrons)
+		}
+	}
+	if math.IsInf(y[i], 0) || math.IsNaN(y[i]) {
+		return fail(src, "pixel %d (%.4f nm): %v counts (dark subtracted: %v) over a %.3g nm pixel is beyond the range that can be analysed: check the values and their scale",
+			i+1, sp.WavelengthNM[i], sp.Counts[i], c, dx)
+	}
+	return nil
 }
 
 // autoSaturation returns the spectrum's maximum when at least two pixels

@@ -130,9 +130,14 @@ func Faddeeva(z complex128) complex128 {
 func faddeevaUpper(x, y float64) complex128 {
 	if x < 0 {
 		// w(−z̄) = conj w(z).
-		r := faddeevaUpper(-x, y)
+		r := faddeevaRight(-x, y)
 		return complex(real(r), -imag(r))
 	}
+	return faddeevaRight(x, y)
+}
+
+// faddeevaRight is faddeevaUpper for x ≥ 0 (or NaN; not x < 0).
+func faddeevaRight(x, y float64) complex128 {
 	r2 := x*x + y*y
 	switch {
 	case y == 0 && r2 < asymR2:
@@ -289,7 +294,7 @@ func faddeevaAsymptotic(x, y float64) complex128 {
 	// by side (the longer one's extra step first): the same operations in
 	// the same order per chain, twice the independent work per step.
 	var be, ce, bo, co float64
-	se, so := ke/2, max((ko-1)/2, 0) // steps of each chain
+	se, so := ke>>1, max((ko-1)>>1, 0) // steps of each chain (ke, ko − 1 even: >>1 is /2)
 	k, j := ke, ko
 	for ; se > so; se-- {
 		be, ce = c[k]+rho*be-s4*ce, be
