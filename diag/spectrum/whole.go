@@ -231,6 +231,11 @@ type wline struct {
 	wingH, wingInvH []float64
 	// Grid scratch.
 	cum, dcum, fq, dfq, mass, dmass, q, dq, kern []float64
+	// hd holds the detunings at which evalLine evaluates the base shape
+	// (the grid's right-half edges (k + ½)h, k = 0 … m, then the wing
+	// nodes; setupGrid), hv, hp and hdv the shape's v, p and dv there
+	// (wline.half).
+	hd, hv, hp, hdv []float64
 	// dsl holds the slopes of the cumulative of dq at the bin edges
 	// (edgeSlope, for pixels with deriv).
 	dsl []float64
@@ -608,7 +613,8 @@ func (f *wholeFitter) newLine() *wline {
 		f.nPool++
 		*l = wline{u: l.u, du: l.du, dn: l.dn, dg: l.dg, wing: l.wing[:0], wc: l.wc, wp: l.wp, wd: l.wd,
 			cum: l.cum, dcum: l.dcum, fq: l.fq, dfq: l.dfq, mass: l.mass, dmass: l.dmass, q: l.q, dq: l.dq,
-			kern: l.kern, pe: l.pe, pq: l.pq, wingH: l.wingH, wingInvH: l.wingInvH, dsl: l.dsl}
+			kern: l.kern, pe: l.pe, pq: l.pq, wingH: l.wingH, wingInvH: l.wingInvH, dsl: l.dsl,
+			hd: l.hd, hv: l.hv, hp: l.hp, hdv: l.hdv}
 		return l
 	}
 	l := &wline{}
@@ -993,6 +999,15 @@ func (f *wholeFitter) setupGrid(l *wline, ne float64) error {
 	l.dmass = grow(&l.dmass, nb)
 	l.q = grow(&l.q, nb)
 	l.dq = grow(&l.dq, nb)
+	nh := l.m + 1 + nw
+	l.hd = grow(&l.hd, nh)
+	l.hv = grow(&l.hv, nh)
+	l.hp = grow(&l.hp, nh)
+	l.hdv = grow(&l.hdv, nh)
+	for k := 0; k <= l.m; k++ {
+		l.hd[k] = (float64(k) + 0.5) * l.h
+	}
+	copy(l.hd[l.m+1:], l.wing)
 	k := l.phi - l.plo
 	l.u = grow(&l.u, k)
 	l.du = grow(&l.du, k)
@@ -1076,6 +1091,29 @@ func (l *wline) half(d float64, deriv bool) (v, p, dv float64) {
 	return v, p, dv
 }
 
+// halves evaluates the line's base shape as wline.half does, bit for
+// bit, at every detuning of l.hd into l.hv, l.hp and l.hdv: a tabulated
+// shape through sh99's batch forms (Shape.Halves, HalfValues: corner by
+// corner over all detunings).
+func (l *wline) halves(deriv bool) {
+	ds := l.hd
+	hv, hp, hdv := l.hv[:len(ds)], l.hp[:len(ds)], l.hdv[:len(ds)]
+	if !l.shapeSH {
+		for k, d := range ds {
+			hv[k], hp[k], hdv[k] = l.half(d, deriv)
+		}
+		return
+	}
+	if !deriv || l.held {
+		l.shp.HalfValues(ds, hv, hp)
+		for k := range hdv {
+			hdv[k] = 0
+		}
+		return
+	}
+	l.shp.Halves(ds, hv, hp, hdv)
+}
+
 // evalLine computes the line's unit profile's pixel means (u), their
 // derivative in the offset (du) and in ln n_e (dn) over its pixel range,
 // for line centre λ_k + off. Without deriv only u is computed (the same,
@@ -1094,10 +1132,11 @@ func (f *wholeFitter) evalLine(l *wline, lnNe, off, instG, gasT float64, deriv b
 	}
 	l.kL = lF
 	m := l.m
-	h := l.h
+	l.halves(deriv)
+	hv, hp, hdv := l.hv[:len(l.hd)], l.hp[:len(l.hd)], l.hdv[:len(l.hd)]
 	var vPrev, dvPrev float64
 	for k := 0; k <= m; k++ {
-		v, p, dv := l.half((float64(k)+0.5)*h, deriv)
+		v, p, dv := hv[k], hp[k], hdv[k]
 		jr, jl := m+1+k, m-k
 		l.cum[jr], l.cum[jl] = 0.5+v, 0.5-v
 		l.pe[jr], l.pe[jl] = p, p
@@ -1116,8 +1155,8 @@ func (f *wholeFitter) evalLine(l *wline, lnNe, off, instG, gasT float64, deriv b
 	}
 	// Wing nodes, left (index i) and right (nw + i).
 	nw := len(l.wing)
-	for i, d := range l.wing {
-		v, p, dv := l.half(d, deriv)
+	for i := range l.wing {
+		v, p, dv := hv[m+1+i], hp[m+1+i], hdv[m+1+i]
 		l.wc[i], l.wp[i], l.wd[i] = 0.5-v, p, 0-dv
 		l.wc[nw+i], l.wp[nw+i], l.wd[nw+i] = 0.5+v, p, dv
 	}

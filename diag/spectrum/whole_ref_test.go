@@ -559,3 +559,63 @@ func TestWholeFastPaths(t *testing.T) {
 		}
 	}
 }
+
+// TestWholeHalvesBatch: wline.halves (the base shape at all the grid's
+// half edges and wing nodes at once, through sh99's batch forms) gives
+// wline.half's v, p and dv bit for bit, with and without the ln n_e
+// derivative, for tabulated lines at and between nodes, held at the
+// tables' edge, at a shifted T_e (four corners) and for the Voigt
+// fallback.
+func TestWholeHalvesBatch(t *testing.T) {
+	var nSH, nHeld, nVoigt int
+	for _, c := range earlyStopCases(t)[8:] {
+		for _, shape := range []string{"", LineShapeVoigt} {
+			opt := c.opt
+			opt.LineShape = shape
+			if shape != "" {
+				opt.Conditions.ElectronTemperatureK = 3000
+			}
+			p := NewPipeline(4096)
+			if _, err := p.Analyze(c.sp, opt); err != nil {
+				t.Fatal(err)
+			}
+			f := p.wfit
+			if f == nil || len(f.lines) == 0 {
+				continue
+			}
+			th := f.th
+			for _, l := range f.lines {
+				gi, tg := f.lineInst(l, th)
+				for _, mv := range []struct{ dln, te float64 }{{0, 1}, {math.Log(1.37), 1}, {-12, 1}, {0, 1.9}} {
+					save := f.te
+					f.te *= mv.te
+					_, _, err := f.lineShape(l, th[f.par.iNe]+mv.dln, gi, tg)
+					f.te = save
+					if err != nil {
+						continue
+					}
+					for _, deriv := range []bool{true, false} {
+						l.halves(deriv)
+						for k, d := range l.hd {
+							v, p, dv := l.half(d, deriv)
+							if math.Float64bits(v) != math.Float64bits(l.hv[k]) || math.Float64bits(p) != math.Float64bits(l.hp[k]) || math.Float64bits(dv) != math.Float64bits(l.hdv[k]) {
+								t.Fatalf("%s d=%g deriv %v: halves (%v %v %v), half (%v %v %v)", l.t.Name(), d, deriv, l.hv[k], l.hp[k], l.hdv[k], v, p, dv)
+							}
+						}
+						switch {
+						case !l.shapeSH:
+							nVoigt++
+						case l.held:
+							nHeld++
+						default:
+							nSH++
+						}
+					}
+				}
+			}
+		}
+	}
+	if nSH == 0 || nHeld == 0 || nVoigt == 0 {
+		t.Fatalf("not covered: %d tabulated, %d held, %d Voigt fallback", nSH, nHeld, nVoigt)
+	}
+}
