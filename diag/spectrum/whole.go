@@ -236,6 +236,12 @@ type wline struct {
 	// nodes; setupGrid), hv, hp and hdv the shape's v, p and dv there
 	// (wline.half).
 	hd, hv, hp, hdv []float64
+	// Alternate grid state (stashGrid) and the pixel means of both states
+	// (pixelsPair), for densitySys' electron-temperature shifts: the
+	// broadened cumulative on the bin edges, the broadened densities
+	// there, the wing nodes' cumulative and density.
+	fqAlt, pqAlt, wcAlt, wpAlt []float64
+	uAlt, uCur                 []float64
 	// dsl holds the slopes of the cumulative of dq at the bin edges
 	// (edgeSlope, for pixels with deriv).
 	dsl []float64
@@ -251,6 +257,15 @@ type wline struct {
 	neHi      float64
 	held      bool // the last evaluation held the shape at a table edge
 	dropped   string
+}
+
+// lineShapeState is what lineShape (and evalLine's kernel) leave in a
+// tabulated line: densitySys keeps it across its T_e shifts.
+type lineShapeState struct {
+	shp               sh99.Shape
+	held              bool
+	extra2, clampGap2 float64
+	kL                float64
 }
 
 // wparams locates the parameters in the vector.
@@ -301,11 +316,13 @@ type wholeFitter struct {
 	// ws is scratch for the Levenberg–Marquardt and covariance matrices.
 	ws   []float64
 	sens []float64
-	// saveBuf and saveRows hold densitySys' copy of the lines' state.
-	saveBuf  []float64
-	saveRows [][]float64
-	wbuf     []float64
-	mbuf     []float64
+	// saveBuf and saveRows hold densitySys' copy of the lines' pixel
+	// means, saveShapes that of their shapes.
+	saveBuf    []float64
+	saveRows   [][]float64
+	saveShapes []lineShapeState
+	wbuf       []float64
+	mbuf       []float64
 	// invW holds the fitted pixels' inverse widths, 1/(b − a).
 	invW  []float64
 	notes []string
@@ -336,6 +353,9 @@ type wholeFitter struct {
 	// evaluates its lines without derivatives).
 	scanFit  *wholeFitter
 	scanOnly bool
+	// teOK says which of densitySys' T_e shifts (up, down) the lines'
+	// tables covered (tests).
+	teOK [2]bool
 	// atTh says levmar ended with the normal equations at f.th in ws
 	// (A, then M, then g: see levmar).
 	atTh bool
@@ -580,7 +600,7 @@ func (f *wholeFitter) reset(opt Options, m diag.Measurement) {
 		th: f.th, model: f.model, jac: f.jac, linSol: f.linSol, sens: f.sens, wbuf: f.wbuf, mbuf: f.mbuf, invW: f.invW,
 		pool: f.pool, lines: f.lines[:0], ws: f.ws,
 		normBase: f.normBase, linBase: f.linBase, linBaseG: f.linBaseG,
-		linA: f.linA, linG: f.linG, linInv: f.linInv, linWork: f.linWork, saveBuf: f.saveBuf, saveRows: f.saveRows,
+		linA: f.linA, linG: f.linG, linInv: f.linInv, linWork: f.linWork, saveBuf: f.saveBuf, saveRows: f.saveRows, saveShapes: f.saveShapes,
 		noEarlyStop: f.noEarlyStop, generic: f.generic, scanFit: f.scanFit}
 }
 
@@ -614,7 +634,8 @@ func (f *wholeFitter) newLine() *wline {
 		*l = wline{u: l.u, du: l.du, dn: l.dn, dg: l.dg, wing: l.wing[:0], wc: l.wc, wp: l.wp, wd: l.wd,
 			cum: l.cum, dcum: l.dcum, fq: l.fq, dfq: l.dfq, mass: l.mass, dmass: l.dmass, q: l.q, dq: l.dq,
 			kern: l.kern, pe: l.pe, pq: l.pq, wingH: l.wingH, wingInvH: l.wingInvH, dsl: l.dsl,
-			hd: l.hd, hv: l.hv, hp: l.hp, hdv: l.hdv}
+			hd: l.hd, hv: l.hv, hp: l.hp, hdv: l.hdv,
+			fqAlt: l.fqAlt, pqAlt: l.pqAlt, wcAlt: l.wcAlt, wpAlt: l.wpAlt, uAlt: l.uAlt, uCur: l.uCur}
 		return l
 	}
 	l := &wline{}
@@ -1126,6 +1147,18 @@ func (l *wline) halves(deriv bool) {
 // differences of the cumulative's odd part (no cancellation against ½),
 // and the symmetric kernel's output is computed on one half (convolve).
 func (f *wholeFitter) evalLine(l *wline, lnNe, off, instG, gasT float64, deriv bool) error {
+	if err := f.evalGrid(l, lnNe, instG, gasT, deriv); err != nil {
+		return err
+	}
+	f.pixels(l, off, deriv)
+	return nil
+}
+
+// evalGrid is evalLine up to the pixels: the base shape on the fine grid
+// and the wing nodes, its bin masses and their convolution with the
+// kernel (l.cum[0], l.q, l.pq, l.wc, l.wp and, with deriv, their ln n_e
+// derivatives), from which pixels takes the pixel means.
+func (f *wholeFitter) evalGrid(l *wline, lnNe, instG, gasT float64, deriv bool) error {
 	gF, lF, err := f.lineShape(l, lnNe, instG, gasT)
 	if err != nil {
 		return err
@@ -1161,7 +1194,6 @@ func (f *wholeFitter) evalLine(l *wline, lnNe, off, instG, gasT float64, deriv b
 		l.wc[nw+i], l.wp[nw+i], l.wd[nw+i] = 0.5+v, p, dv
 	}
 	f.convolve(l, gF, lF, deriv)
-	f.pixels(l, off, deriv)
 	return nil
 }
 
@@ -1414,6 +1446,124 @@ func (f *wholeFitter) pixels(l *wline, off float64, deriv bool) {
 	}
 }
 
+// stashGrid keeps the line's grid state of the last evalGrid aside for
+// pixelsPair: the broadened cumulative on the bin edges (summed as
+// pixels sums it), the broadened densities there and the wing nodes'
+// cumulative and density.
+func (l *wline) stashGrid() {
+	nb := 2*l.m + 1
+	nw := len(l.wing)
+	F := grow(&l.fqAlt, nb+1)
+	F[0] = l.cum[0]
+	for j := range nb {
+		F[j+1] = F[j] + l.q[j]
+	}
+	l.pqAlt = append(l.pqAlt[:0], l.pq[:nb+1]...)
+	l.wcAlt = append(l.wcAlt[:0], l.wc[:2*nw]...)
+	l.wpAlt = append(l.wpAlt[:0], l.wp[:2*nw]...)
+}
+
+// pixelsPair is pixels without deriv for two grid states of the line at
+// once: the one stashGrid kept (means into l.uAlt) and the current one
+// (means into l.uCur; l.u is left alone), each bit for bit what pixels
+// gives from that state. The position of every pixel edge on the grid
+// or between the wing nodes, and its cubic Hermite weights, are found
+// once for both.
+func (f *wholeFitter) pixelsPair(l *wline, off float64) {
+	h := l.h
+	nb := 2*l.m + 1
+	nw := len(l.wing)
+	e0 := -(float64(l.m) + 0.5) * h
+	F := l.fq
+	F[0] = l.cum[0]
+	for j := range nb {
+		F[j+1] = F[j] + l.q[j]
+	}
+	e := pairEval{l: l, e0: e0, eEnd: -e0, h: h, invH: 1 / h, nb: nb, nw: nw,
+		F1: l.fqAlt[:nb+1], pq1: l.pqAlt[:nb+1], wc1: l.wcAlt[:2*nw], wp1: l.wpAlt[:2*nw], shR1: l.fqAlt[nb] - l.wcAlt[nw],
+		F2: F[:nb+1], pq2: l.pq[:nb+1], wc2: l.wc[:2*nw], wp2: l.wp[:2*nw], shR2: F[nb] - l.wc[nw]}
+	ctr := l.center + off
+	n := l.phi - l.plo
+	u1, u2 := grow(&l.uAlt, n), grow(&l.uCur, n)
+	fa, fb, iws := f.a[l.plo:l.phi], f.b[l.plo:l.phi], f.invW[l.plo:l.phi]
+	fb, iws, u1, u2 = fb[:len(fa)], iws[:len(fa)], u1[:len(fa)], u2[:len(fa)]
+	pa1, pa2 := e.value(fa[0] - ctr)
+	for k := range fa {
+		if k > 0 && fa[k] != fb[k-1] {
+			pa1, pa2 = e.value(fa[k] - ctr)
+		}
+		cb1, cb2 := e.value(fb[k] - ctr)
+		u1[k] = (cb1 - pa1) * iws[k]
+		u2[k] = (cb2 - pa2) * iws[k]
+		pa1, pa2 = cb1, cb2
+	}
+}
+
+// pairEval is edgeEval.value for two grid states of one line (1 and 2;
+// pixelsPair): each value is the same, bit for bit, the Hermite weights
+// computed once (hermiteBasis: hermiteValue's own).
+type pairEval struct {
+	l                 *wline
+	F1, pq1, wc1, wp1 []float64
+	F2, pq2, wc2, wp2 []float64
+	shR1, shR2        float64
+	e0, eEnd, h, invH float64
+	nb, nw, wl, wr    int
+}
+
+func (e *pairEval) value(t float64) (v1, v2 float64) {
+	l, nw := e.l, e.nw
+	wing := l.wing[:nw]
+	if t < e.e0 {
+		// edgeEval.leftValue.
+		d := -t
+		if d >= wing[nw-1] {
+			return e.wc1[nw-1], e.wc2[nw-1]
+		}
+		wl := e.wl
+		for wl > 0 && d < wing[wl] {
+			wl--
+		}
+		for wl < nw-2 && d >= wing[wl+1] {
+			wl++
+		}
+		e.wl = wl
+		hh, ih := l.wingH[wl], l.wingInvH[wl]
+		b0, b1, b2, b3 := hermiteBasis((t + wing[wl+1]) * ih)
+		v1 = b0*e.wc1[wl+1] + b1*(e.wp1[wl+1]*hh) + b2*e.wc1[wl] + b3*(e.wp1[wl]*hh)
+		v2 = b0*e.wc2[wl+1] + b1*(e.wp2[wl+1]*hh) + b2*e.wc2[wl] + b3*(e.wp2[wl]*hh)
+		return v1, v2
+	}
+	if t > e.eEnd {
+		// edgeEval.rightValue.
+		if t >= wing[nw-1] {
+			return e.wc1[2*nw-1] + e.shR1, e.wc2[2*nw-1] + e.shR2
+		}
+		wr := e.wr
+		for wr > 0 && t < wing[wr] {
+			wr--
+		}
+		for wr < nw-2 && t >= wing[wr+1] {
+			wr++
+		}
+		e.wr = wr
+		hh, ih := l.wingH[wr], l.wingInvH[wr]
+		b0, b1, b2, b3 := hermiteBasis((t - wing[wr]) * ih)
+		i := nw + wr
+		v1 = b0*e.wc1[i] + b1*(e.wp1[i]*hh) + b2*e.wc1[i+1] + b3*(e.wp1[i+1]*hh) + e.shR1
+		v2 = b0*e.wc2[i] + b1*(e.wp2[i]*hh) + b2*e.wc2[i+1] + b3*(e.wp2[i+1]*hh) + e.shR2
+		return v1, v2
+	}
+	fj := (t - e.e0) * e.invH
+	j := min(int(fj), e.nb-1)
+	b0, b1, b2, b3 := hermiteBasis(fj - float64(j))
+	h := e.h
+	F1, pq1, F2, pq2 := e.F1[j:j+2], e.pq1[j:j+2], e.F2[j:j+2], e.pq2[j:j+2]
+	v1 = b0*F1[0] + b1*(pq1[0]*h) + b2*F1[1] + b3*(pq1[1]*h)
+	v2 = b0*F2[0] + b1*(pq2[0]*h) + b2*F2[1] + b3*(pq2[1]*h)
+	return v1, v2
+}
+
 // edgeEval evaluates a line's broadened cumulative F, its derivative in
 // ln n_e and the broadened density at a detuning (pixels): on the grid
 // from the bin edges' F (cubic Hermite, the broadened densities as
@@ -1581,4 +1731,13 @@ func hermiteValue(c0, c1, d0, d1, u float64) float64 {
 	u2 := u * u
 	u3 := u2 * u
 	return (2*u3-3*u2+1)*c0 + (u3-2*u2+u)*d0 + (-2*u3+3*u2)*c1 + (u3-u2)*d1
+}
+
+// hermiteBasis returns the weights of c0, d0, c1 and d1 in hermiteValue
+// at u, the same values: b0·c0 + b1·d0 + b2·c1 + b3·d1 is hermiteValue,
+// bit for bit.
+func hermiteBasis(u float64) (b0, b1, b2, b3 float64) {
+	u2 := u * u
+	u3 := u2 * u
+	return 2*u3 - 3*u2 + 1, u3 - 2*u2 + u, -2*u3 + 3*u2, u3 - u2
 }

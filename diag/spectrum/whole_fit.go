@@ -1221,17 +1221,17 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 		sens[i], sensB[i] = v*w, vb*w
 	}
 	// Saved pixel means of every line at the solution (in the fitter's
-	// buffers: one block for every line's u, du and dn).
+	// buffers: one block for every line's u). Nothing here changes the
+	// derivatives du and dn (every evaluation below is without deriv).
 	nSave := 0
 	for _, l := range f.lines {
-		nSave += len(l.u) + len(l.du) + len(l.dn)
+		nSave += len(l.u)
 	}
 	block := grow(&f.saveBuf, nSave)
-	if cap(f.saveRows) < 3*len(f.lines) {
-		f.saveRows = make([][]float64, 3*len(f.lines))
+	if cap(f.saveRows) < len(f.lines) {
+		f.saveRows = make([][]float64, len(f.lines))
 	}
-	rows := f.saveRows[:3*len(f.lines)]
-	saved, savedDu, savedDn := rows[:len(f.lines)], rows[len(f.lines):2*len(f.lines)], rows[2*len(f.lines):]
+	saved := f.saveRows[:len(f.lines)]
 	take := func(src []float64) []float64 {
 		dst := block[:len(src):len(src)]
 		block = block[len(src):]
@@ -1240,18 +1240,19 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 	}
 	for k, l := range f.lines {
 		saved[k] = take(l.u)
-		savedDu[k] = take(l.du)
-		savedDn[k] = take(l.dn)
 	}
 	// shiftFor returns |δ ln n_e| and |δβ| from the lines' current u
 	// (changed by the caller) against the saved ones, and restores
 	// nothing.
-	shiftFor := func() [2]float64 {
+	var shiftOf func(um func(*wline) []float64) [2]float64
+	shiftFor := func() [2]float64 { return shiftOf(func(l *wline) []float64 { return l.u }) }
+	// shiftOf is shiftFor with the pixel means of each line given by um.
+	shiftOf = func(um func(*wline) []float64) [2]float64 {
 		var d, db float64
 		for k, l := range f.lines {
 			a := f.areaOf(k, th)
 			ss, sb := sens[l.plo:l.phi], sensB[l.plo:l.phi]
-			us, sv := l.u[:len(ss)], saved[k][:len(ss)]
+			us, sv := um(l)[:len(ss)], saved[k][:len(ss)]
 			sb = sb[:len(ss)]
 			for i := range ss {
 				dm := a * (us[i] - sv[i])
@@ -1331,42 +1332,115 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 	// Electron temperature of the tables (the lines re-evaluated).
 	// Each line's tables move by its own T_e σ (teRel; larger for a line
 	// whose tables stand in at a nearby temperature), all in the same
-	// direction.
-	teShift := func(sign float64) ([2]float64, bool) {
+	// direction. The lines' shapes at the solution (what lineShape
+	// prepared there) are kept and put back after.
+	if cap(f.saveShapes) < len(f.lines) {
+		f.saveShapes = make([]lineShapeState, len(f.lines))
+	}
+	shapes := f.saveShapes[:len(f.lines)]
+	for k, l := range f.lines {
+		shapes[k] = lineShapeState{shp: l.shp, held: l.held, extra2: l.extra2, clampGap2: l.clampGap2, kL: l.kL}
+	}
+	// teGrid evaluates every tabulated line's grid at the moved T_e; the
+	// Voigt fallback's shape does not depend on T_e: its means stay the
+	// saved ones (re-evaluated, they were the same bit for bit).
+	teGrid := func(sign float64) bool {
 		f.teSign = sign
 		defer func() { f.teSign = 0 }()
 		for _, l := range f.lines {
 			if !l.shapeSH {
-				// The Voigt fallback's shape does not depend on T_e: its
-				// means stay the saved ones (re-evaluated, they were
-				// the same bit for bit).
 				continue
 			}
 			g, tg := f.lineInst(l, th)
-			if err := f.evalLine(l, th[pr.iNe], th[pr.iOff], g, tg, false); err != nil {
-				return [2]float64{}, false
+			if err := f.evalGrid(l, th[pr.iNe], g, tg, false); err != nil {
+				return false
 			}
 		}
-		return shiftFor(), true
+		return true
 	}
-	d1, ok1 := teShift(1)
-	d2, ok2 := teShift(-1)
-	switch {
-	case ok1 && ok2:
-		add("electron temperature of the tables", half(d1, d2))
-	case ok1:
-		add("electron temperature of the tables", d1)
-	case ok2:
-		add("electron temperature of the tables", d2)
+	if f.generic {
+		// The general form (TestWholeFastPaths): each sign's lines
+		// evaluated in full (evalLine) and their means put back.
+		teShift := func(sign float64) ([2]float64, bool) {
+			f.teSign = sign
+			defer func() { f.teSign = 0 }()
+			for _, l := range f.lines {
+				if !l.shapeSH {
+					continue
+				}
+				g, tg := f.lineInst(l, th)
+				if err := f.evalLine(l, th[pr.iNe], th[pr.iOff], g, tg, false); err != nil {
+					return [2]float64{}, false
+				}
+			}
+			return shiftFor(), true
+		}
+		d1, ok1 := teShift(1)
+		d2, ok2 := teShift(-1)
+		f.teOK = [2]bool{ok1, ok2}
+		restore()
+		switch {
+		case ok1 && ok2:
+			add("electron temperature of the tables", half(d1, d2))
+		case ok1:
+			add("electron temperature of the tables", d1)
+		case ok2:
+			add("electron temperature of the tables", d2)
+		}
+	} else {
+		// Both signs' grids, then both signs' pixel means in one pass
+		// (pixelsPair: the same means, bit for bit, as pixels from each).
+		ok1 := teGrid(1)
+		if ok1 {
+			for _, l := range f.lines {
+				if l.shapeSH {
+					l.stashGrid()
+				}
+			}
+		}
+		ok2 := teGrid(-1)
+		f.teOK = [2]bool{ok1, ok2}
+		if ok2 && !ok1 {
+			// Kept as a stand-in for the state that failed (its means
+			// are not used).
+			for _, l := range f.lines {
+				if l.shapeSH {
+					l.stashGrid()
+				}
+			}
+		}
+		if ok1 || ok2 {
+			for _, l := range f.lines {
+				if l.shapeSH {
+					f.pixelsPair(l, th[pr.iOff])
+				}
+			}
+		}
+		teMeans := func(alt bool) func(*wline) []float64 {
+			return func(l *wline) []float64 {
+				switch {
+				case !l.shapeSH:
+					return l.u // the saved means
+				case alt:
+					return l.uAlt
+				}
+				return l.uCur
+			}
+		}
+		switch {
+		case ok1 && ok2:
+			add("electron temperature of the tables", half(shiftOf(teMeans(true)), shiftOf(teMeans(false))))
+		case ok1:
+			add("electron temperature of the tables", shiftOf(teMeans(true)))
+		case ok2:
+			add("electron temperature of the tables", shiftOf(teMeans(false)))
+		}
 	}
-	// Back to the solution: the pixel means and their derivatives (the
-	// grid's masses are rebuilt by the next evaluation).
+	// Back to the solution: the shapes (the grid's masses are rebuilt by
+	// the next evaluation; the pixel means were not changed).
 	for k, l := range f.lines {
-		copy(l.u, saved[k])
-		copy(l.du, savedDu[k])
-		copy(l.dn, savedDn[k])
-		g, tg := f.lineInst(l, th)
-		_, _, _ = f.lineShape(l, th[pr.iNe], g, tg)
+		st := &shapes[k]
+		l.shp, l.held, l.extra2, l.clampGap2, l.kL = st.shp, st.held, st.extra2, st.clampGap2, st.kL
 	}
 	// Accuracy of the line widths the model takes from the tables (or a
 	// relation), in two parts: one common to every line (a reading of

@@ -619,3 +619,82 @@ func TestWholeHalvesBatch(t *testing.T) {
 		t.Fatalf("not covered: %d tabulated, %d held, %d Voigt fallback", nSH, nHeld, nVoigt)
 	}
 }
+
+// TestWholeTeShiftPair: densitySys' electron-temperature part from both
+// signs' grids and one pixel pass for both (stashGrid, pixelsPair) is
+// the general form's (each sign's lines evaluated in full by evalLine,
+// wholeFitter.generic) bit for bit, with every σ part of n_e and T_exc
+// and the rest of the whole fit: with T_e at its default (factor-2 σ),
+// given, and with the tables standing in at a nearby temperature node,
+// where both shifts are covered and where one of them leaves the tables.
+func TestWholeTeShiftPair(t *testing.T) {
+	cases := earlyStopCases(t)
+	x := linspace(474, 498, 1024)
+	y, _, err := SynthesizeStark(SynthConfig{WavelengthNM: x, Uppers: []int{4}, ExcitationTemperatureK: 8000,
+		ElectronDensityM3: 2.5e22, ElectronTemperatureK: 10000, GasTemperatureK: 2000, InstrumentFWHMNM: 0.06,
+		HalphaArea: 5e7, BaselinePerNM: 200})
+	if err != nil {
+		t.Fatal(err)
+	}
+	cases = append(cases, earlyStopCase{&Spectrum{Name: "standin", WavelengthNM: x, Counts: y},
+		Options{Model: ModelWhole, Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.06, GasTemperatureK: 2000, ElectronTemperatureK: 8000}}})
+	var both, one, none int
+	for k, c := range cases {
+		for _, te := range []float64{0, 5000, 30000} {
+			opt := c.opt
+			if te > 0 && opt.Conditions.ElectronTemperatureK == 0 {
+				opt.Conditions.ElectronTemperatureK = te
+			}
+			p := NewPipeline(4096)
+			res, err := p.Analyze(c.sp, opt)
+			if err != nil {
+				t.Fatal(err)
+			}
+			q := NewPipeline(4096)
+			q.wfit = &wholeFitter{generic: true}
+			ref, err := q.Analyze(c.sp, opt)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if res.Whole == nil || ref.Whole == nil {
+				if (res.Whole == nil) != (ref.Whole == nil) {
+					t.Errorf("case %d T_e %g: a whole fit on one side only", k, te)
+				}
+				continue
+			}
+			if p.wfit.teOK != q.wfit.teOK {
+				t.Errorf("case %d T_e %g: T_e shifts covered %v, general form %v", k, te, p.wfit.teOK, q.wfit.teOK)
+			}
+			switch ok := p.wfit.teOK; {
+			case ok[0] && ok[1]:
+				both++
+			case ok[0] || ok[1]:
+				one++
+			default:
+				none++
+			}
+			same := func(what string, a, b []diag.UncPart) {
+				if len(a) != len(b) {
+					t.Errorf("case %d T_e %g: %s: %d parts, general form %d", k, te, what, len(a), len(b))
+					return
+				}
+				for i := range a {
+					if a[i].Name != b[i].Name || math.Float64bits(a[i].Sigma) != math.Float64bits(b[i].Sigma) {
+						t.Errorf("case %d T_e %g: %s part %q %v, general form %q %v", k, te, what, a[i].Name, a[i].Sigma, b[i].Name, b[i].Sigma)
+					}
+				}
+			}
+			same("n_e", res.Whole.ElectronDensityUncParts, ref.Whole.ElectronDensityUncParts)
+			same("T_exc", res.Whole.ExcitationTemperatureUncParts, ref.Whole.ExcitationTemperatureUncParts)
+			a, _ := json.Marshal(res.Whole)
+			b, _ := json.Marshal(ref.Whole)
+			if !bytes.Equal(a, b) {
+				t.Errorf("case %d T_e %g: the whole fit differs from the general form's", k, te)
+			}
+		}
+	}
+	t.Logf("T_e shifts: both covered %d, one %d, none %d", both, one, none)
+	if both == 0 || one == 0 {
+		t.Fatalf("not covered: both shifts in the tables %d, one %d", both, one)
+	}
+}
