@@ -231,6 +231,7 @@ type wline struct {
 	wingH, wingInvH []float64
 	// Grid scratch.
 	cum, dcum, fq, dfq, mass, dmass, q, dq, kern []float64
+	kc                                           kernCache // of kern
 	// hd holds the detunings at which evalLine evaluates the base shape
 	// (the grid's right-half edges (k + ½)h, k = 0 … m, then the wing
 	// nodes; setupGrid), hv, hp and hdv the shape's v, p and dv there
@@ -1319,6 +1320,31 @@ func (f *wholeFitter) convolve(l *wline, gF, lF float64, deriv bool) {
 // normalised to sum 1; see convolve), in l.kern; ok is false where the
 // kernel is the identity.
 func (l *wline) kernel(gF, lF float64) (kern []float64, r int, ok bool) {
+	// The kernel of the last call is kept: most evaluations repeat it
+	// (the Gaussian and Lorentzian widths change only with a free gas
+	// temperature or instrument width, and with T_e in densitySys).
+	if c := &l.kc; c.valid && c.gF == gF && c.lF == lF && c.h == l.h && c.m == l.m {
+		if !c.ok {
+			return nil, 0, false
+		}
+		return l.kern[:2*c.r+1], c.r, true
+	}
+	kern, r, ok = l.kernelNew(gF, lF)
+	l.kc = kernCache{valid: true, gF: gF, lF: lF, h: l.h, m: l.m, r: r, ok: ok}
+	return kern, r, ok
+}
+
+// kernCache records the arguments and outcome of a line's last kernel
+// (its weights are in l.kern).
+type kernCache struct {
+	valid     bool
+	gF, lF, h float64
+	m, r      int
+	ok        bool
+}
+
+// kernelNew computes kernel's weights afresh.
+func (l *wline) kernelNew(gF, lF float64) (kern []float64, r int, ok bool) {
 	h := l.h
 	nb := 2*l.m + 1
 	sigma := voigt.SigmaFromFWHM(gF)

@@ -698,3 +698,41 @@ func TestWholeTeShiftPair(t *testing.T) {
 		t.Fatalf("not covered: both shifts in the tables %d, one %d", both, one)
 	}
 }
+
+// TestWholeKernelKept: a line's kernel, kept from its last call when the
+// widths and grid repeat, is the one computed afresh (kernelNew) bit for
+// bit, through a sequence of repeated and changed Gaussian and
+// Lorentzian widths, an identity kernel and a changed grid step.
+func TestWholeKernelKept(t *testing.T) {
+	c := earlyStopCases(t)[8]
+	p := NewPipeline(4096)
+	if _, err := p.Analyze(c.sp, c.opt); err != nil {
+		t.Fatal(err)
+	}
+	l := p.wfit.lines[0]
+	h := l.h
+	var kept int
+	for i, a := range []struct{ gF, lF, h float64 }{{0.3, 0, h}, {0.3, 0, h}, {0.31, 0, h}, {0.31, 0.1 * h, h}, {0.31, 0.1 * h, h},
+		{0.01 * h, 0, h}, {0.01 * h, 0, h}, {0.3 * h, 0, h}, {0.3, 0, h}, {0.3, 0, 1.1 * h}, {0.3, 0, 1.1 * h}} {
+		l.h = a.h
+		was := l.kc
+		k1, r1, ok1 := l.kernel(a.gF, a.lF)
+		if was.valid && was.gF == a.gF && was.lF == a.lF && was.h == a.h {
+			kept++
+		}
+		k1 = append([]float64(nil), k1...)
+		k2, r2, ok2 := l.kernelNew(a.gF, a.lF)
+		if r1 != r2 || ok1 != ok2 || len(k1) != len(k2) {
+			t.Fatalf("call %d: kept kernel r %d ok %v (%d weights), afresh r %d ok %v (%d)", i, r1, ok1, len(k1), r2, ok2, len(k2))
+		}
+		for j := range k1 {
+			if math.Float64bits(k1[j]) != math.Float64bits(k2[j]) {
+				t.Fatalf("call %d: weight %d %v, afresh %v", i, j, k1[j], k2[j])
+			}
+		}
+	}
+	l.h = h
+	if kept < 4 {
+		t.Fatalf("only %d calls found their kernel kept", kept)
+	}
+}
