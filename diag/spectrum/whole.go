@@ -1457,16 +1457,116 @@ func (f *wholeFitter) pixels(l *wline, off float64, deriv bool) {
 	fa, fb, iws := f.a[l.plo:l.phi], f.b[l.plo:l.phi], f.invW[l.plo:l.phi]
 	fb, iws = fb[:len(fa)], iws[:len(fa)]
 	us, dns, dus := l.u[:len(fa)], l.dn[:len(fa)], l.du[:len(fa)]
+	if f.generic {
+		pa, pda, pdens := e.at(fa[0] - ctr)
+		for k := range fa {
+			if k > 0 && fa[k] != fb[k-1] {
+				pa, pda, pdens = e.at(fa[k] - ctr)
+			}
+			cb, dcb, densb := e.at(fb[k] - ctr)
+			iw := iws[k] // 1/(b − a)
+			us[k] = (cb - pa) * iw
+			dns[k] = (dcb - pda) * iw
+			// d/dδ of the mean = −(density(b) − density(a))/w.
+			dus[k] = (pdens - densb) * iw
+			pa, pda, pdens = cb, dcb, densb
+		}
+		return
+	}
+	// The loop above in three stretches of pixels by where their upper
+	// edge lies (the edges ascend): left of the grid, on it, right of
+	// it, each with its branch of edgeEval.at inlined (the same
+	// operations; a pixel's lower edge, when it is not the previous
+	// pixel's upper edge, through at).
+	n := len(fa)
+	wing, wc, wp, wd := l.wing[:nw], l.wc[:2*nw], l.wp[:2*nw], l.wd[:2*nw]
+	wingH, wingInvH := l.wingH[:nw-1], l.wingInvH[:nw-1]
 	pa, pda, pdens := e.at(fa[0] - ctr)
-	for k := range fa {
+	k := 0
+	for ; k < n; k++ {
+		t := fb[k] - ctr
+		if !(t < e0) {
+			break
+		}
 		if k > 0 && fa[k] != fb[k-1] {
 			pa, pda, pdens = e.at(fa[k] - ctr)
 		}
-		cb, dcb, densb := e.at(fb[k] - ctr)
-		iw := iws[k] // 1/(b − a)
+		var cb, dcb, densb float64
+		if d := -t; d >= wing[nw-1] {
+			cb, dcb = wc[nw-1], wd[nw-1]
+		} else {
+			wl := e.wl
+			for wl > 0 && d < wing[wl] {
+				wl--
+			}
+			for wl < nw-2 && d >= wing[wl+1] {
+				wl++
+			}
+			e.wl = wl
+			hh, ih := wingH[wl], wingInvH[wl]
+			u := (t + wing[wl+1]) * ih
+			c0, c1, d0, d1 := wc[wl+1], wc[wl], wp[wl+1]*hh, wp[wl]*hh
+			cb = hermiteValue(c0, c1, d0, d1, u)
+			densb = hermiteSlope(c0, c1, d0, d1, u) * ih
+			dcb = wd[wl+1] + u*(wd[wl]-wd[wl+1])
+		}
+		iw := iws[k]
 		us[k] = (cb - pa) * iw
 		dns[k] = (dcb - pda) * iw
-		// d/dδ of the mean = −(density(b) − density(a))/w.
+		dus[k] = (pdens - densb) * iw
+		pa, pda, pdens = cb, dcb, densb
+	}
+	Fg, dFg, pqg, slg := F[:nb+1], dF[:nb+1], l.pq[:nb+1], l.dsl[:nb+1]
+	invH := e.invH
+	for ; k < n; k++ {
+		t := fb[k] - ctr
+		if t > eEnd {
+			break
+		}
+		if k > 0 && fa[k] != fb[k-1] {
+			pa, pda, pdens = e.at(fa[k] - ctr)
+		}
+		fj := (t - e0) * invH
+		j := min(int(fj), nb-1)
+		u := fj - float64(j)
+		c0, c1, d0, d1 := Fg[j], Fg[j+1], pqg[j]*h, pqg[j+1]*h
+		cb := hermiteValue(c0, c1, d0, d1, u)
+		densb := hermiteSlope(c0, c1, d0, d1, u) * invH
+		dcb := hermiteValue(dFg[j], dFg[j+1], slg[j], slg[j+1], u)
+		iw := iws[k]
+		us[k] = (cb - pa) * iw
+		dns[k] = (dcb - pda) * iw
+		dus[k] = (pdens - densb) * iw
+		pa, pda, pdens = cb, dcb, densb
+	}
+	for ; k < n; k++ {
+		t := fb[k] - ctr
+		if k > 0 && fa[k] != fb[k-1] {
+			pa, pda, pdens = e.at(fa[k] - ctr)
+		}
+		var cb, dcb, densb float64
+		if t >= wing[nw-1] {
+			cb, dcb = wc[2*nw-1]+e.shR, wd[2*nw-1]+e.dshR
+		} else {
+			wr := e.wr
+			for wr > 0 && t < wing[wr] {
+				wr--
+			}
+			for wr < nw-2 && t >= wing[wr+1] {
+				wr++
+			}
+			e.wr = wr
+			hh, ih := wingH[wr], wingInvH[wr]
+			u := (t - wing[wr]) * ih
+			c0, c1, d0, d1 := wc[nw+wr], wc[nw+wr+1], wp[nw+wr]*hh, wp[nw+wr+1]*hh
+			cb = hermiteValue(c0, c1, d0, d1, u) + e.shR
+			densb = hermiteSlope(c0, c1, d0, d1, u) * ih
+			dc := wd[nw+wr] + u*(wd[nw+wr+1]-wd[nw+wr])
+			dcb = dc + e.dshR
+		}
+		iw := iws[k]
+		us[k] = (cb - pa) * iw
+		dns[k] = (dcb - pda) * iw
 		dus[k] = (pdens - densb) * iw
 		pa, pda, pdens = cb, dcb, densb
 	}

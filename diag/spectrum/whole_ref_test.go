@@ -736,3 +736,71 @@ func TestWholeKernelKept(t *testing.T) {
 		t.Fatalf("only %d calls found their kernel kept", kept)
 	}
 }
+
+// TestWholePixelsStretches: pixels with derivatives in three stretches
+// (left of the grid, on it, right of it, edgeEval.at's branches inlined)
+// gives the pixel means and their offset and ln n_e derivatives of the
+// general loop (wholeFitter.generic, at for every edge) bit for bit, for
+// tabulated lines at and away from the fit, held, Voigt fallbacks, and
+// pixels whose lower edge is not the previous pixel's upper edge
+// (masked pixels of a saturated line, a gap in the data).
+func TestWholePixelsStretches(t *testing.T) {
+	var nPix, nLeft, nRight, nGap int
+	for _, c := range earlyStopCases(t)[7:] {
+		for _, shape := range []string{"", LineShapeVoigt} {
+			opt := c.opt
+			opt.LineShape = shape
+			sp := *c.sp
+			sp.Counts = append([]float64(nil), c.sp.Counts...)
+			opt.SaturationCounts = 1e9
+			for i := 640; i < 643; i++ {
+				sp.Counts[i] = 1e9 // saturated pixels: a gap
+			}
+			p := NewPipeline(4096)
+			if _, err := p.Analyze(&sp, opt); err != nil {
+				t.Fatal(err)
+			}
+			f := p.wfit
+			if f == nil || len(f.lines) == 0 || len(f.x) == 0 {
+				continue
+			}
+			th := f.th
+			for _, l := range f.lines {
+				gi, tg := f.lineInst(l, th)
+				for _, mv := range []struct{ dln, doff float64 }{{0, 0}, {0.3, 0.02}, {-12, -0.05}} {
+					if err := f.evalGrid(l, th[f.par.iNe]+mv.dln, gi, tg, true); err != nil {
+						continue
+					}
+					off := th[f.par.iOff] + mv.doff
+					f.generic = true
+					f.pixels(l, off, true)
+					ru, rdu, rdn := append([]float64(nil), l.u...), append([]float64(nil), l.du...), append([]float64(nil), l.dn...)
+					f.generic = false
+					f.pixels(l, off, true)
+					for i := range ru {
+						if math.Float64bits(ru[i]) != math.Float64bits(l.u[i]) || math.Float64bits(rdu[i]) != math.Float64bits(l.du[i]) || math.Float64bits(rdn[i]) != math.Float64bits(l.dn[i]) {
+							t.Fatalf("%s pixel %d: (%v %v %v), general loop (%v %v %v)", l.t.Name(), i, l.u[i], l.du[i], l.dn[i], ru[i], rdu[i], rdn[i])
+						}
+					}
+					e0 := -(float64(l.m) + 0.5) * l.h
+					ctr := l.center + off
+					for i := l.plo; i < l.phi; i++ {
+						switch {
+						case f.b[i]-ctr < e0:
+							nLeft++
+						case f.b[i]-ctr > -e0:
+							nRight++
+						}
+						if i > l.plo && f.a[i] != f.b[i-1] {
+							nGap++
+						}
+					}
+					nPix += l.phi - l.plo
+				}
+			}
+		}
+	}
+	if nPix == 0 || nLeft == 0 || nRight == 0 || nGap == 0 {
+		t.Fatalf("not covered: %d pixels, %d left of the grid, %d right, %d after a gap", nPix, nLeft, nRight, nGap)
+	}
+}
