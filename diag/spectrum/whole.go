@@ -1234,6 +1234,26 @@ func (f *wholeFitter) convolve(l *wline, gF, lF float64, deriv bool) {
 	if !deriv {
 		// The loop below without ds.
 		for j := 0; j <= m; j++ {
+			if j >= r && j+1 <= m && j+1+r <= nb-1 && !f.generic {
+				// Two outputs, j and j + 1, at once: the same sums, their
+				// chains of additions interleaved.
+				ms, ps := l.mass[j-r:j+r+2], l.pe[j-r:j+r+2]
+				s, sp := kh[0]*ms[r], kh[0]*ps[r]
+				s2, sp2 := kh[0]*ms[r+1], kh[0]*ps[r+1]
+				for t := 1; t <= r; t++ {
+					k := kh[t]
+					s += k * (ms[r-t] + ms[r+t])
+					sp += k * (ps[r-t] + ps[r+t])
+					s2 += k * (ms[r+1-t] + ms[r+1+t])
+					sp2 += k * (ps[r+1-t] + ps[r+1+t])
+				}
+				l.q[j], l.q[nb-1-j] = s, s
+				l.pq[j], l.pq[nb-j] = sp, sp
+				l.q[j+1], l.q[nb-2-j] = s2, s2
+				l.pq[j+1], l.pq[nb-1-j] = sp2, sp2
+				j++
+				continue
+			}
 			if j >= r && j+r <= nb-1 {
 				ms, ps := l.mass[j-r:j+r+1], l.pe[j-r:j+r+1]
 				s, sp := kh[0]*ms[r], kh[0]*ps[r]
@@ -1272,6 +1292,30 @@ func (f *wholeFitter) convolve(l *wline, gF, lF float64, deriv bool) {
 		return
 	}
 	for j := 0; j <= m; j++ {
+		if j >= r && j+1 <= m && j+1+r <= nb-1 && !f.generic {
+			// Two outputs, j and j + 1, at once: the same sums, their
+			// chains of additions interleaved.
+			ms, dms, ps := l.mass[j-r:j+r+2], l.dmass[j-r:j+r+2], l.pe[j-r:j+r+2]
+			s, ds, sp := kh[0]*ms[r], kh[0]*dms[r], kh[0]*ps[r]
+			s2, ds2, sp2 := kh[0]*ms[r+1], kh[0]*dms[r+1], kh[0]*ps[r+1]
+			for t := 1; t <= r; t++ {
+				k := kh[t]
+				s += k * (ms[r-t] + ms[r+t])
+				ds += k * (dms[r-t] + dms[r+t])
+				sp += k * (ps[r-t] + ps[r+t])
+				s2 += k * (ms[r+1-t] + ms[r+1+t])
+				ds2 += k * (dms[r+1-t] + dms[r+1+t])
+				sp2 += k * (ps[r+1-t] + ps[r+1+t])
+			}
+			l.q[j], l.dq[j] = s, ds
+			l.q[nb-1-j], l.dq[nb-1-j] = s, ds
+			l.pq[j], l.pq[nb-j] = sp, sp
+			l.q[j+1], l.dq[j+1] = s2, ds2
+			l.q[nb-2-j], l.dq[nb-2-j] = s2, ds2
+			l.pq[j+1], l.pq[nb-1-j] = sp2, sp2
+			j++
+			continue
+		}
 		if j >= r && j+r <= nb-1 {
 			ms, dms, ps := l.mass[j-r:j+r+1], l.dmass[j-r:j+r+1], l.pe[j-r:j+r+1]
 			s, ds, sp := kh[0]*ms[r], kh[0]*dms[r], kh[0]*ps[r]

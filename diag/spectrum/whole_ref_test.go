@@ -804,3 +804,55 @@ func TestWholePixelsStretches(t *testing.T) {
 		t.Fatalf("not covered: %d pixels, %d left of the grid, %d right, %d after a gap", nPix, nLeft, nRight, nGap)
 	}
 }
+
+// TestWholeConvolvePairs: convolve computing two outputs at a time where
+// the kernel lies inside the grid gives the broadened masses, their
+// ln n_e derivatives and the broadened edge densities of the one-at-a-
+// time loop (wholeFitter.generic) bit for bit, with and without deriv,
+// for kernels of 3 weights to ones reaching past the grid's half
+// (Gaussian, Voigt).
+func TestWholeConvolvePairs(t *testing.T) {
+	c := earlyStopCases(t)[8]
+	p := NewPipeline(4096)
+	if _, err := p.Analyze(c.sp, c.opt); err != nil {
+		t.Fatal(err)
+	}
+	f := p.wfit
+	var nPair, nWide int
+	for _, l := range f.lines {
+		gi, tg := f.lineInst(l, f.th)
+		if err := f.evalGrid(l, f.th[f.par.iNe], gi, tg, true); err != nil {
+			t.Fatal(err)
+		}
+		nb := 2*l.m + 1
+		for _, w := range []struct{ g, lo float64 }{{0.03 * l.h, 0}, {0.5 * l.h, 0}, {3 * l.h, 0}, {20 * l.h, 0}, {3 * l.h, 0.5 * l.h}, {300 * l.h, 0}} {
+			for _, deriv := range []bool{true, false} {
+				for i := range nb {
+					l.q[i], l.dq[i], l.pq[i] = 0, 0, 0
+				}
+				f.generic = true
+				f.convolve(l, w.g, w.lo, deriv)
+				rq, rdq, rpq := append([]float64(nil), l.q[:nb]...), append([]float64(nil), l.dq[:nb]...), append([]float64(nil), l.pq[:nb+1]...)
+				f.generic = false
+				f.convolve(l, w.g, w.lo, deriv)
+				for i := range rpq {
+					bad := math.Float64bits(rpq[i]) != math.Float64bits(l.pq[i])
+					if i < nb {
+						bad = bad || math.Float64bits(rq[i]) != math.Float64bits(l.q[i]) || math.Float64bits(rdq[i]) != math.Float64bits(l.dq[i])
+					}
+					if bad {
+						t.Fatalf("%s kernel %+v deriv %v: index %d differs from the one-at-a-time loop", l.t.Name(), w, deriv, i)
+					}
+				}
+				if _, r, ok := l.kernel(w.g, w.lo); ok && r > 1 && r < l.m {
+					nPair++
+				} else if ok && r >= l.m {
+					nWide++
+				}
+			}
+		}
+	}
+	if nPair == 0 || nWide == 0 {
+		t.Fatalf("not covered: %d kernels inside the grid, %d reaching past its half", nPair, nWide)
+	}
+}
