@@ -863,8 +863,15 @@ func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
 		if pr.nBase > 1 {
 			f.leg[1][i] = t
 		}
-		for j := 2; j < pr.nBase; j++ {
-			f.leg[j][i] = (float64(2*j-1)*t*f.leg[j-1][i] - float64(j-1)*f.leg[j-2][i]) / float64(j)
+	}
+	// The recurrence order by order over all pixels (the same values as
+	// pixel by pixel: each needs its own pixel's lower orders and t,
+	// which is leg[1]).
+	for j := 2; j < pr.nBase; j++ {
+		l2, l1, l0, ts := f.leg[j-2][:np], f.leg[j-1][:np], f.leg[j][:np], f.leg[1][:np]
+		a, b, c := float64(2*j-1), float64(j-1), float64(j)
+		for i := range l0 {
+			l0[i] = (a*ts[i]*l1[i] - b*l2[i]) / c
 		}
 	}
 	e0, f0 := lines[0].dE, lines[0].lnF

@@ -387,11 +387,30 @@ func (f *wholeFitter) baseBlocks() {
 		r0, r1, r2, r3 := row(a), row(a+1), row(a+2), row(a+3)
 		r0, r1, r2, r3 = r0[:len(wa)], r1[:len(wa)], r2[:len(wa)], r3[:len(wa)]
 		var s0, s1, s2, s3 float64
-		for i, x := range wa {
-			s0 += x * r0[i]
-			s1 += x * r1[i]
-			s2 += x * r2[i]
-			s3 += x * r3[i]
+		switch nB - a {
+		case 1:
+			// The padding's sums left out (the used ones the same).
+			for i, x := range wa {
+				s0 += x * r0[i]
+			}
+		case 2:
+			for i, x := range wa {
+				s0 += x * r0[i]
+				s1 += x * r1[i]
+			}
+		case 3:
+			for i, x := range wa {
+				s0 += x * r0[i]
+				s1 += x * r1[i]
+				s2 += x * r2[i]
+			}
+		default:
+			for i, x := range wa {
+				s0 += x * r0[i]
+				s1 += x * r1[i]
+				s2 += x * r2[i]
+				s3 += x * r3[i]
+			}
 		}
 		for k, v := range [4]float64{s0, s1, s2, s3} {
 			if a+k < nB {
@@ -406,12 +425,34 @@ func (f *wholeFitter) baseBlocks() {
 		r0, r1, r2, r3 = r0[:len(l1)], r1[:len(l1)], r2[:len(l1)], r3[:len(l1)]
 		y, ws := y[:len(l1)], ws[:len(l1)]
 		var sg, s0, s1, s2, s3 float64
-		for i, v := range l1 {
-			sg += v * y[i] * ws[i]
-			s0 += v * r0[i] * ws[i]
-			s1 += v * r1[i] * ws[i]
-			s2 += v * r2[i] * ws[i]
-			s3 += v * r3[i] * ws[i]
+		switch nB - b {
+		case 1:
+			// The padding's sums left out (the used ones the same).
+			for i, v := range l1 {
+				sg += v * y[i] * ws[i]
+				s0 += v * r0[i] * ws[i]
+			}
+		case 2:
+			for i, v := range l1 {
+				sg += v * y[i] * ws[i]
+				s0 += v * r0[i] * ws[i]
+				s1 += v * r1[i] * ws[i]
+			}
+		case 3:
+			for i, v := range l1 {
+				sg += v * y[i] * ws[i]
+				s0 += v * r0[i] * ws[i]
+				s1 += v * r1[i] * ws[i]
+				s2 += v * r2[i] * ws[i]
+			}
+		default:
+			for i, v := range l1 {
+				sg += v * y[i] * ws[i]
+				s0 += v * r0[i] * ws[i]
+				s1 += v * r1[i] * ws[i]
+				s2 += v * r2[i] * ws[i]
+				s3 += v * r3[i] * ws[i]
+			}
 		}
 		lg[b] = sg
 		for k, v := range [4]float64{s0, s1, s2, s3} {
@@ -627,12 +668,26 @@ func (f *wholeFitter) linearAreas() (areas, sig []float64, chi2 float64, ok bool
 	inv := grow(&f.linInv, np*np)
 	linefit.CholInverse(A, np, inv, grow(&f.linWork, np))
 	mod := grow(&f.mbuf, len(f.x))
-	for i := range mod {
-		var m float64
-		for b := range nb {
-			m += sol[nl+b] * f.leg[b][i]
+	if nb == 4 {
+		// The loop below unrolled (the same sums).
+		l0, l1, l2, l3 := f.leg[0][:len(mod)], f.leg[1][:len(mod)], f.leg[2][:len(mod)], f.leg[3][:len(mod)]
+		t0, t1, t2, t3 := sol[nl], sol[nl+1], sol[nl+2], sol[nl+3]
+		for i := range mod {
+			var m float64
+			m += t0 * l0[i]
+			m += t1 * l1[i]
+			m += t2 * l2[i]
+			m += t3 * l3[i]
+			mod[i] = m
 		}
-		mod[i] = m
+	} else {
+		for i := range mod {
+			var m float64
+			for b := range nb {
+				m += sol[nl+b] * f.leg[b][i]
+			}
+			mod[i] = m
+		}
 	}
 	for a, l := range f.lines {
 		ms, us, sa := mod[l.plo:l.phi], l.u[:l.phi-l.plo], sol[a]

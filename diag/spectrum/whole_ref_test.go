@@ -3,6 +3,7 @@ package spectrum
 import (
 	"bytes"
 	"encoding/json"
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -854,5 +855,102 @@ func TestWholeConvolvePairs(t *testing.T) {
 	}
 	if nPair == 0 || nWide == 0 {
 		t.Fatalf("not covered: %d kernels inside the grid, %d reaching past its half", nPair, nWide)
+	}
+}
+
+// TestWholeBaselineSums: the baseline's Legendre values built order by
+// order, baseBlocks without its padding sums and linearAreas' unrolled
+// cubic baseline give what the pixel-by-pixel recurrence, the padded
+// sums and the general loop give (written out here as they were), bit
+// for bit, for linear to cubic baselines.
+func TestWholeBaselineSums(t *testing.T) {
+	orders := map[int]int{}
+	for k, c := range earlyStopCases(t) {
+		p := NewPipeline(4096)
+		if _, err := p.Analyze(c.sp, c.opt); err != nil {
+			t.Fatal(err)
+		}
+		f := p.wfit
+		if f == nil || len(f.x) == 0 {
+			continue
+		}
+		pr := f.par
+		nB, n := pr.nBase, len(f.x)
+		orders[nB]++
+		same := func(what string, got, want float64) {
+			if math.Float64bits(got) != math.Float64bits(want) {
+				t.Fatalf("case %d (%d baseline terms): %s %v, as it was %v", k, nB, what, got, want)
+			}
+		}
+		// The recurrence pixel by pixel.
+		for i, v := range f.x {
+			tt := (v - pr.lamMid) / pr.lamHalf
+			leg := []float64{1, tt}
+			for j := 2; j < nB; j++ {
+				leg = append(leg, (float64(2*j-1)*tt*leg[j-1]-float64(j-1)*leg[j-2])/float64(j))
+			}
+			for j := range nB {
+				same(fmt.Sprintf("Legendre %d at pixel %d", j, i), f.leg[j][i], leg[j])
+			}
+		}
+		// baseBlocks with four sums at a time (padding rows: leg[0]).
+		f.baseOK = false
+		f.baseBlocks()
+		row := func(b int) []float64 {
+			if b < nB {
+				return f.leg[b][:n]
+			}
+			return f.leg[0][:n]
+		}
+		wt := f.wbuf[:n]
+		for a := range nB {
+			var s [4]float64
+			var sg float64
+			var sl [4]float64
+			for i := range n {
+				x := f.leg[a][i] * wt[i]
+				v := f.leg[a][i]
+				sg += v * f.y[i] * wt[i]
+				for q := range 4 {
+					s[q] += x * row(a + q)[i]
+					sl[q] += v * row(a + q)[i] * wt[i]
+				}
+			}
+			same("linBaseG", f.linBaseG[a], sg)
+			for q := range 4 {
+				if a+q < nB {
+					same("normBase", f.normBase[a*nB+a+q], s[q])
+					same("linBase", f.linBase[a*nB+a+q], sl[q])
+				}
+			}
+		}
+		// linearAreas' χ² from the baseline summed in the general loop.
+		_, _, chi2, ok := f.linearAreas()
+		if !ok {
+			t.Fatalf("case %d: linear fit singular", k)
+		}
+		nl := len(f.lines)
+		var want float64
+		mod := make([]float64, n)
+		for i := range mod {
+			var m float64
+			for b := range nB {
+				m += f.linSol[nl+b] * f.leg[b][i]
+			}
+			mod[i] = m
+		}
+		for a, l := range f.lines {
+			for i := l.plo; i < l.phi; i++ {
+				mod[i] += f.linSol[a] * l.u[i-l.plo]
+			}
+		}
+		for i := range mod {
+			r := (f.y[i] - mod[i]) / f.s[i]
+			want += r * r
+		}
+		same("linearAreas χ²", chi2, want)
+	}
+	if orders[4] == 0 || len(orders) < 2 {
+		t.Fatalf("baselines covered: %v", orders)
 	}
 }
