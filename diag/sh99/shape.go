@@ -205,7 +205,7 @@ func (s *Shape) HalfValues(ds, v, p []float64) {
 					rest := m & (1<<(52-cumTabShift) - 1)
 					j = 1 + o<<cumTabShift + sub
 					ih = inv0 * cumTabPerOctave * math.Float64frombits(uint64(1023-o)<<52)
-					u = float64(int64(rest)) / (1 << (52 - cumTabShift)) // rest < 2⁴⁷: exact either way
+					u = float64(rest) / (1 << (52 - cumTabShift))
 				}
 				c := tk[4*j : 4*j+4 : 4*j+4]
 				cc = c[0] + u*(c[1]+u*(c[2]+u*c[3]))
@@ -248,7 +248,7 @@ func (s *Shape) Halves(ds, v, p, dv []float64) {
 					rest := m & (1<<(52-cumTabShift) - 1)
 					j = 1 + o<<cumTabShift + sub
 					ih = inv0 * cumTabPerOctave * math.Float64frombits(uint64(1023-o)<<52)
-					u = float64(int64(rest)) / (1 << (52 - cumTabShift)) // rest < 2⁴⁷: exact either way
+					u = float64(rest) / (1 << (52 - cumTabShift))
 				}
 				c := tk[4*j : 4*j+4 : 4*j+4]
 				cc = c[0] + u*(c[1]+u*(c[2]+u*c[3]))
