@@ -97,12 +97,20 @@ func (f *wholeFitter) assemble(th []float64) (float64, error) {
 	// written once per setup; the other columns are cleared.
 	iBase, nBase := pr.iBase, pr.nBase
 	if !f.jacBaseOK {
-		for i := range jac {
-			jac[i] = 0
-		}
-		for i := range n {
-			for b := range nBase {
-				jac[i*np+iBase+b] = f.leg[b][i]
+		if nBase == 4 && iBase == 4 && !f.generic {
+			// Each row written whole (the same values as below).
+			l0, l1, l2, l3 := f.leg[0][:n], f.leg[1][:n], f.leg[2][:n], f.leg[3][:n]
+			for i := range l0 {
+				*(*[8]float64)(jac[8*i : 8*i+8]) = [8]float64{0, 0, 0, 0, l0[i], l1[i], l2[i], l3[i]}
+			}
+		} else {
+			for i := range jac {
+				jac[i] = 0
+			}
+			for i := range n {
+				for b := range nBase {
+					jac[i*np+iBase+b] = f.leg[b][i]
+				}
 			}
 		}
 		f.jacBaseOK = true
