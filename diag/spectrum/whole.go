@@ -1664,12 +1664,84 @@ func (f *wholeFitter) pixelsPair(l *wline, off float64) {
 	u1, u2 := grow(&l.uAlt, n), grow(&l.uCur, n)
 	fa, fb, iws := f.a[l.plo:l.phi], f.b[l.plo:l.phi], f.invW[l.plo:l.phi]
 	fb, iws, u1, u2 = fb[:len(fa)], iws[:len(fa)], u1[:len(fa)], u2[:len(fa)]
+	// The pixels in three stretches by where their upper edge lies (the
+	// edges ascend), each with its branch of pairEval.value inlined (as
+	// pixels with deriv); a lower edge that is not the previous pixel's
+	// upper edge through pairEval.value.
 	pa1, pa2 := e.value(fa[0] - ctr)
-	for k := range fa {
+	wing, wingH, wingInvH := l.wing[:nw], l.wingH[:nw-1], l.wingInvH[:nw-1]
+	wc1, wp1, wc2, wp2 := e.wc1, e.wp1, e.wc2, e.wp2
+	n, k := len(fa), 0
+	for ; k < n; k++ {
+		t := fb[k] - ctr
+		if !(t < e.e0) {
+			break
+		}
 		if k > 0 && fa[k] != fb[k-1] {
 			pa1, pa2 = e.value(fa[k] - ctr)
 		}
-		cb1, cb2 := e.value(fb[k] - ctr)
+		var cb1, cb2 float64
+		if d := -t; d >= wing[nw-1] {
+			cb1, cb2 = wc1[nw-1], wc2[nw-1]
+		} else {
+			wl := e.wl
+			for wl > 0 && d < wing[wl] {
+				wl--
+			}
+			for wl < nw-2 && d >= wing[wl+1] {
+				wl++
+			}
+			e.wl = wl
+			hh, ih := wingH[wl], wingInvH[wl]
+			b0, b1, b2, b3 := hermiteBasis((t + wing[wl+1]) * ih)
+			cb1 = b0*wc1[wl+1] + b1*(wp1[wl+1]*hh) + b2*wc1[wl] + b3*(wp1[wl]*hh)
+			cb2 = b0*wc2[wl+1] + b1*(wp2[wl+1]*hh) + b2*wc2[wl] + b3*(wp2[wl]*hh)
+		}
+		u1[k] = (cb1 - pa1) * iws[k]
+		u2[k] = (cb2 - pa2) * iws[k]
+		pa1, pa2 = cb1, cb2
+	}
+	F1, pq1, F2, pq2 := e.F1[:nb+1], e.pq1[:nb+1], e.F2[:nb+1], e.pq2[:nb+1]
+	for ; k < n; k++ {
+		t := fb[k] - ctr
+		if t > e.eEnd {
+			break
+		}
+		if k > 0 && fa[k] != fb[k-1] {
+			pa1, pa2 = e.value(fa[k] - ctr)
+		}
+		fj := (t - e.e0) * e.invH
+		j := min(int(fj), nb-1)
+		b0, b1, b2, b3 := hermiteBasis(fj - float64(j))
+		cb1 := b0*F1[j] + b1*(pq1[j]*h) + b2*F1[j+1] + b3*(pq1[j+1]*h)
+		cb2 := b0*F2[j] + b1*(pq2[j]*h) + b2*F2[j+1] + b3*(pq2[j+1]*h)
+		u1[k] = (cb1 - pa1) * iws[k]
+		u2[k] = (cb2 - pa2) * iws[k]
+		pa1, pa2 = cb1, cb2
+	}
+	for ; k < n; k++ {
+		t := fb[k] - ctr
+		if k > 0 && fa[k] != fb[k-1] {
+			pa1, pa2 = e.value(fa[k] - ctr)
+		}
+		var cb1, cb2 float64
+		if t >= wing[nw-1] {
+			cb1, cb2 = wc1[2*nw-1]+e.shR1, wc2[2*nw-1]+e.shR2
+		} else {
+			wr := e.wr
+			for wr > 0 && t < wing[wr] {
+				wr--
+			}
+			for wr < nw-2 && t >= wing[wr+1] {
+				wr++
+			}
+			e.wr = wr
+			hh, ih := wingH[wr], wingInvH[wr]
+			b0, b1, b2, b3 := hermiteBasis((t - wing[wr]) * ih)
+			i := nw + wr
+			cb1 = b0*wc1[i] + b1*(wp1[i]*hh) + b2*wc1[i+1] + b3*(wp1[i+1]*hh) + e.shR1
+			cb2 = b0*wc2[i] + b1*(wp2[i]*hh) + b2*wc2[i+1] + b3*(wp2[i+1]*hh) + e.shR2
+		}
 		u1[k] = (cb1 - pa1) * iws[k]
 		u2[k] = (cb2 - pa2) * iws[k]
 		pa1, pa2 = cb1, cb2

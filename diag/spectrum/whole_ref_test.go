@@ -954,3 +954,74 @@ func TestWholeBaselineSums(t *testing.T) {
 		t.Fatalf("baselines covered: %v", orders)
 	}
 }
+
+// TestWholePixelsPair: pixelsPair gives, for the state stashGrid kept and
+// the current one, the pixel means pixels gives from each, bit for bit:
+// tabulated lines at T_e moved up and down (as densitySys moves them),
+// Voigt fallbacks at two densities, with pixels whose lower edge is not
+// the previous pixel's upper edge (saturated pixels left out).
+func TestWholePixelsPair(t *testing.T) {
+	var n, nGap int
+	for _, c := range earlyStopCases(t)[7:] {
+		for _, shape := range []string{"", LineShapeVoigt} {
+			opt := c.opt
+			opt.LineShape = shape
+			sp := *c.sp
+			sp.Counts = append([]float64(nil), c.sp.Counts...)
+			opt.SaturationCounts = 1e9
+			for i := 640; i < 643; i++ {
+				sp.Counts[i] = 1e9
+			}
+			p := NewPipeline(4096)
+			if _, err := p.Analyze(&sp, opt); err != nil {
+				t.Fatal(err)
+			}
+			f := p.wfit
+			if f == nil || len(f.lines) == 0 || len(f.x) == 0 {
+				continue
+			}
+			th := f.th
+			off := th[f.par.iOff]
+			for _, l := range f.lines {
+				gi, tg := f.lineInst(l, th)
+				state := func(k int) bool {
+					dln := 0.0
+					if l.shapeSH {
+						f.teSign = float64(2*k - 1)
+					} else {
+						dln = 0.2 * float64(k)
+					}
+					err := f.evalGrid(l, th[f.par.iNe]+dln, gi, tg, false)
+					f.teSign = 0
+					return err == nil
+				}
+				if !state(0) {
+					continue
+				}
+				f.pixels(l, off, false)
+				want1 := append([]float64(nil), l.u...)
+				l.stashGrid()
+				if !state(1) {
+					continue
+				}
+				f.pixels(l, off, false)
+				want2 := append([]float64(nil), l.u...)
+				f.pixelsPair(l, off)
+				for i := range want1 {
+					if math.Float64bits(l.uAlt[i]) != math.Float64bits(want1[i]) || math.Float64bits(l.uCur[i]) != math.Float64bits(want2[i]) {
+						t.Fatalf("%s pixel %d: pair (%v %v), pixels (%v %v)", l.t.Name(), i, l.uAlt[i], l.uCur[i], want1[i], want2[i])
+					}
+				}
+				for i := l.plo + 1; i < l.phi; i++ {
+					if f.a[i] != f.b[i-1] {
+						nGap++
+					}
+				}
+				n++
+			}
+		}
+	}
+	if n == 0 || nGap == 0 {
+		t.Fatalf("not covered: %d lines, %d pixels after a gap", n, nGap)
+	}
+}
