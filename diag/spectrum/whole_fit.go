@@ -1281,7 +1281,9 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 	if boltz {
 		cB = cov0[pr.iB*np : pr.iB*np+np]
 	}
-	ss := f.s[:len(sens)]
+	// The pixels' weights 1/σ² (baseBlocks' wbuf: the same quotients).
+	f.baseBlocks()
+	ws := f.wbuf[:len(sens)]
 	sensB = sensB[:len(sens)]
 	for i := range sens {
 		row := f.jac[i*np : (i+1)*np]
@@ -1298,7 +1300,7 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 				v += cNe[b] * j
 			}
 		}
-		w := 1 / (ss[i] * ss[i])
+		w := ws[i]
 		sens[i], sensB[i] = v*w, vb*w
 	}
 	// Saved pixel means of every line at the solution (in the fitter's
@@ -1342,6 +1344,26 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 			}
 		}
 		return [2]float64{math.Abs(d), math.Abs(db)}
+	}
+	// shiftOf2 is shiftOf for two sets of means at once (the same sums,
+	// their chains interleaved).
+	shiftOf2 := func(um1, um2 func(*wline) []float64) (r1, r2 [2]float64) {
+		var d, db, d2, db2 float64
+		for k, l := range f.lines {
+			a := f.areaOf(k, th)
+			ss, sb := sens[l.plo:l.phi], sensB[l.plo:l.phi]
+			us, us2, sv := um1(l)[:len(ss)], um2(l)[:len(ss)], saved[k][:len(ss)]
+			sb = sb[:len(ss)]
+			for i := range ss {
+				dm := a * (us[i] - sv[i])
+				dm2 := a * (us2[i] - sv[i])
+				d += ss[i] * dm
+				db += sb[i] * dm
+				d2 += ss[i] * dm2
+				db2 += sb[i] * dm2
+			}
+		}
+		return [2]float64{math.Abs(d), math.Abs(db)}, [2]float64{math.Abs(d2), math.Abs(db2)}
 	}
 	restore := func() {
 		for k, l := range f.lines {
@@ -1510,7 +1532,7 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 		}
 		switch {
 		case ok1 && ok2:
-			add("electron temperature of the tables", half(shiftOf(teMeans(true)), shiftOf(teMeans(false))))
+			add("electron temperature of the tables", half(shiftOf2(teMeans(true), teMeans(false))))
 		case ok1:
 			add("electron temperature of the tables", shiftOf(teMeans(true)))
 		case ok2:
