@@ -171,6 +171,96 @@ func (s *Shape) HalfValue(d float64) (v, p float64) {
 	return v, p
 }
 
+// HalfValues is HalfValue at every detuning of ds (each ≥ 0): v[k], p[k]
+// are HalfValue(ds[k]), bit for bit (the same products summed in the
+// same corner order), computed corner by corner over all detunings, the
+// table lookup (cumTable.eval) inlined. v and p must be at least as
+// long as ds.
+func (s *Shape) HalfValues(ds, v, p []float64) {
+	v, p = v[:len(ds)], p[:len(ds)]
+	for k := range ds {
+		v[k], p[k] = 0, 0
+	}
+	for i := range s.n {
+		np, t := s.node[i], s.tab[i]
+		sc, cv, cp := s.scale[i], s.cv[i], s.cp[i]
+		inv0, xMax, tk := t.inv0, t.xMax, t.k
+		for k, d := range ds {
+			x := d * sc
+			var cc, pp float64
+			if x >= xMax {
+				cc, pp = np.cumAt(x), np.at(x)
+			} else {
+				// cumTable.eval, inlined.
+				s := x * inv0
+				var j int
+				var ih, u float64
+				if s < 1 {
+					j, ih, u = 0, inv0, s
+				} else {
+					b := math.Float64bits(s)
+					o := int(b>>52&0x7ff) - 1023
+					m := b & (1<<52 - 1)
+					sub := int(m >> (52 - cumTabShift))
+					rest := m & (1<<(52-cumTabShift) - 1)
+					j = 1 + o<<cumTabShift + sub
+					ih = inv0 * cumTabPerOctave * math.Float64frombits(uint64(1023-o)<<52)
+					u = float64(rest) / (1 << (52 - cumTabShift))
+				}
+				c := tk[4*j : 4*j+4 : 4*j+4]
+				cc = c[0] + u*(c[1]+u*(c[2]+u*c[3]))
+				pp = (c[1] + u*(2*c[2]+u*3*c[3])) * ih
+			}
+			v[k] += cv * cc
+			p[k] += cp * pp
+		}
+	}
+}
+
+// Halves is Half at every detuning of ds (each ≥ 0): v[k], p[k], dv[k]
+// are Half(ds[k]), bit for bit, computed corner by corner as HalfValues.
+func (s *Shape) Halves(ds, v, p, dv []float64) {
+	v, p, dv = v[:len(ds)], p[:len(ds)], dv[:len(ds)]
+	for k := range ds {
+		v[k], p[k], dv[k] = 0, 0, 0
+	}
+	for i := range s.n {
+		np, t := s.node[i], s.tab[i]
+		sc, cv, cp, cd, ce := s.scale[i], s.cv[i], s.cp[i], s.cd[i], s.ce[i]
+		inv0, xMax, tk := t.inv0, t.xMax, t.k
+		for k, d := range ds {
+			x := d * sc
+			var cc, pp float64
+			if x >= xMax {
+				cc, pp = np.cumAt(x), np.at(x)
+			} else {
+				// cumTable.eval, inlined.
+				s := x * inv0
+				var j int
+				var ih, u float64
+				if s < 1 {
+					j, ih, u = 0, inv0, s
+				} else {
+					b := math.Float64bits(s)
+					o := int(b>>52&0x7ff) - 1023
+					m := b & (1<<52 - 1)
+					sub := int(m >> (52 - cumTabShift))
+					rest := m & (1<<(52-cumTabShift) - 1)
+					j = 1 + o<<cumTabShift + sub
+					ih = inv0 * cumTabPerOctave * math.Float64frombits(uint64(1023-o)<<52)
+					u = float64(rest) / (1 << (52 - cumTabShift))
+				}
+				c := tk[4*j : 4*j+4 : 4*j+4]
+				cc = c[0] + u*(c[1]+u*(c[2]+u*c[3]))
+				pp = (c[1] + u*(2*c[2]+u*3*c[3])) * ih
+			}
+			v[k] += cv * cc
+			p[k] += cp * pp
+			dv[k] += cd*cc - ce*pp*x
+		}
+	}
+}
+
 func (s *Shape) cum(dl float64, deriv bool) (float64, float64) {
 	d := math.Abs(dl)
 	var v, dv float64

@@ -213,3 +213,53 @@ func refCumTable(t *cumTable, x float64) (c, p float64) {
 	dc := (6*u2-6*u)*c0 + (3*u2-4*u+1)*d0 + (-6*u2+6*u)*c1 + (3*u2-2*u)*d1
 	return c, dc / hh
 }
+
+// TestShapeBatchHalves: the batch forms (HalfValues, Halves: corner by
+// corner over all detunings, the table lookup inlined) give Half's and
+// HalfValue's v, p and dv bit for bit, at and between nodes of n_e and
+// T (two or four corners), from the centre through the dense tables to
+// beyond them (the power-law wings), at detunings in any order.
+func TestShapeBatchHalves(t *testing.T) {
+	n, far := 0, 0
+	for _, up := range []int{3, 4, 6} {
+		l, err := Balmer(up)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, c := range []struct{ ne, tk float64 }{{1e21, 1e4}, {2.3e21, 1e4}, {3.7e21, 13000}, {1e22, 7000}, {3e21, 20000}} {
+			s, err := l.Shape(c.ne, c.tk)
+			if err != nil {
+				continue
+			}
+			w := s.FWHMNM()
+			var ds []float64
+			for k := range 600 {
+				ds = append(ds, w*1e-4*math.Pow(1.05, float64(k))) // to ~5e8 widths
+			}
+			ds = append(ds, 0, 3*w, 0.5*w)
+			v, p, dv := make([]float64, len(ds)), make([]float64, len(ds)), make([]float64, len(ds))
+			v2, p2 := make([]float64, len(ds)), make([]float64, len(ds))
+			s.Halves(ds, v, p, dv)
+			s.HalfValues(ds, v2, p2)
+			for k, d := range ds {
+				rv, rp, rdv := s.Half(d)
+				hv, hp := s.HalfValue(d)
+				if math.Float64bits(v[k]) != math.Float64bits(rv) || math.Float64bits(p[k]) != math.Float64bits(rp) || math.Float64bits(dv[k]) != math.Float64bits(rdv) {
+					t.Fatalf("n=%d n_e=%g T=%g d=%g: Halves (%v %v %v), Half (%v %v %v)", up, c.ne, c.tk, d, v[k], p[k], dv[k], rv, rp, rdv)
+				}
+				if math.Float64bits(v2[k]) != math.Float64bits(hv) || math.Float64bits(p2[k]) != math.Float64bits(hp) {
+					t.Fatalf("n=%d n_e=%g T=%g d=%g: HalfValues (%v %v), HalfValue (%v %v)", up, c.ne, c.tk, d, v2[k], p2[k], hv, hp)
+				}
+				for i := range s.n {
+					if d*s.scale[i] >= s.tab[i].xMax {
+						far++
+					}
+				}
+				n++
+			}
+		}
+	}
+	if n == 0 || far == 0 {
+		t.Fatalf("not covered: %d points, %d beyond the dense tables", n, far)
+	}
+}

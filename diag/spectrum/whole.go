@@ -231,6 +231,18 @@ type wline struct {
 	wingH, wingInvH []float64
 	// Grid scratch.
 	cum, dcum, fq, dfq, mass, dmass, q, dq, kern []float64
+	kc                                           kernCache // of kern
+	// hd holds the detunings at which evalLine evaluates the base shape
+	// (the grid's right-half edges (k + ½)h, k = 0 … m, then the wing
+	// nodes; setupGrid), hv, hp and hdv the shape's v, p and dv there
+	// (wline.half).
+	hd, hv, hp, hdv []float64
+	// Alternate grid state (stashGrid) and the pixel means of both states
+	// (pixelsPair), for densitySys' electron-temperature shifts: the
+	// broadened cumulative on the bin edges, the broadened densities
+	// there, the wing nodes' cumulative and density.
+	fqAlt, pqAlt, wcAlt, wpAlt []float64
+	uAlt, uCur                 []float64
 	// dsl holds the slopes of the cumulative of dq at the bin edges
 	// (edgeSlope, for pixels with deriv).
 	dsl []float64
@@ -246,6 +258,15 @@ type wline struct {
 	neHi      float64
 	held      bool // the last evaluation held the shape at a table edge
 	dropped   string
+}
+
+// lineShapeState is what lineShape (and evalLine's kernel) leave in a
+// tabulated line: densitySys keeps it across its T_e shifts.
+type lineShapeState struct {
+	shp               sh99.Shape
+	held              bool
+	extra2, clampGap2 float64
+	kL                float64
 }
 
 // wparams locates the parameters in the vector.
@@ -296,11 +317,13 @@ type wholeFitter struct {
 	// ws is scratch for the Levenberg–Marquardt and covariance matrices.
 	ws   []float64
 	sens []float64
-	// saveBuf and saveRows hold densitySys' copy of the lines' state.
-	saveBuf  []float64
-	saveRows [][]float64
-	wbuf     []float64
-	mbuf     []float64
+	// saveBuf and saveRows hold densitySys' copy of the lines' pixel
+	// means, saveShapes that of their shapes.
+	saveBuf    []float64
+	saveRows   [][]float64
+	saveShapes []lineShapeState
+	wbuf       []float64
+	mbuf       []float64
 	// invW holds the fitted pixels' inverse widths, 1/(b − a).
 	invW  []float64
 	notes []string
@@ -331,6 +354,9 @@ type wholeFitter struct {
 	// evaluates its lines without derivatives).
 	scanFit  *wholeFitter
 	scanOnly bool
+	// teOK says which of densitySys' T_e shifts (up, down) the lines'
+	// tables covered (tests).
+	teOK [2]bool
 	// atTh says levmar ended with the normal equations at f.th in ws
 	// (A, then M, then g: see levmar).
 	atTh bool
@@ -575,7 +601,7 @@ func (f *wholeFitter) reset(opt Options, m diag.Measurement) {
 		th: f.th, model: f.model, jac: f.jac, linSol: f.linSol, sens: f.sens, wbuf: f.wbuf, mbuf: f.mbuf, invW: f.invW,
 		pool: f.pool, lines: f.lines[:0], ws: f.ws,
 		normBase: f.normBase, linBase: f.linBase, linBaseG: f.linBaseG,
-		linA: f.linA, linG: f.linG, linInv: f.linInv, linWork: f.linWork, saveBuf: f.saveBuf, saveRows: f.saveRows,
+		linA: f.linA, linG: f.linG, linInv: f.linInv, linWork: f.linWork, saveBuf: f.saveBuf, saveRows: f.saveRows, saveShapes: f.saveShapes,
 		noEarlyStop: f.noEarlyStop, generic: f.generic, scanFit: f.scanFit}
 }
 
@@ -608,7 +634,9 @@ func (f *wholeFitter) newLine() *wline {
 		f.nPool++
 		*l = wline{u: l.u, du: l.du, dn: l.dn, dg: l.dg, wing: l.wing[:0], wc: l.wc, wp: l.wp, wd: l.wd,
 			cum: l.cum, dcum: l.dcum, fq: l.fq, dfq: l.dfq, mass: l.mass, dmass: l.dmass, q: l.q, dq: l.dq,
-			kern: l.kern, pe: l.pe, pq: l.pq, wingH: l.wingH, wingInvH: l.wingInvH, dsl: l.dsl}
+			kern: l.kern, pe: l.pe, pq: l.pq, wingH: l.wingH, wingInvH: l.wingInvH, dsl: l.dsl,
+			hd: l.hd, hv: l.hv, hp: l.hp, hdv: l.hdv,
+			fqAlt: l.fqAlt, pqAlt: l.pqAlt, wcAlt: l.wcAlt, wpAlt: l.wpAlt, uAlt: l.uAlt, uCur: l.uCur}
 		return l
 	}
 	l := &wline{}
@@ -835,8 +863,15 @@ func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
 		if pr.nBase > 1 {
 			f.leg[1][i] = t
 		}
-		for j := 2; j < pr.nBase; j++ {
-			f.leg[j][i] = (float64(2*j-1)*t*f.leg[j-1][i] - float64(j-1)*f.leg[j-2][i]) / float64(j)
+	}
+	// The recurrence order by order over all pixels (the same values as
+	// pixel by pixel: each needs its own pixel's lower orders and t,
+	// which is leg[1]).
+	for j := 2; j < pr.nBase; j++ {
+		l2, l1, l0, ts := f.leg[j-2][:np], f.leg[j-1][:np], f.leg[j][:np], f.leg[1][:np]
+		a, b, c := float64(2*j-1), float64(j-1), float64(j)
+		for i := range l0 {
+			l0[i] = (a*ts[i]*l1[i] - b*l2[i]) / c
 		}
 	}
 	e0, f0 := lines[0].dE, lines[0].lnF
@@ -993,6 +1028,15 @@ func (f *wholeFitter) setupGrid(l *wline, ne float64) error {
 	l.dmass = grow(&l.dmass, nb)
 	l.q = grow(&l.q, nb)
 	l.dq = grow(&l.dq, nb)
+	nh := l.m + 1 + nw
+	l.hd = grow(&l.hd, nh)
+	l.hv = grow(&l.hv, nh)
+	l.hp = grow(&l.hp, nh)
+	l.hdv = grow(&l.hdv, nh)
+	for k := 0; k <= l.m; k++ {
+		l.hd[k] = (float64(k) + 0.5) * l.h
+	}
+	copy(l.hd[l.m+1:], l.wing)
 	k := l.phi - l.plo
 	l.u = grow(&l.u, k)
 	l.du = grow(&l.du, k)
@@ -1076,6 +1120,29 @@ func (l *wline) half(d float64, deriv bool) (v, p, dv float64) {
 	return v, p, dv
 }
 
+// halves evaluates the line's base shape as wline.half does, bit for
+// bit, at every detuning of l.hd into l.hv, l.hp and l.hdv: a tabulated
+// shape through sh99's batch forms (Shape.Halves, HalfValues: corner by
+// corner over all detunings).
+func (l *wline) halves(deriv bool) {
+	ds := l.hd
+	hv, hp, hdv := l.hv[:len(ds)], l.hp[:len(ds)], l.hdv[:len(ds)]
+	if !l.shapeSH {
+		for k, d := range ds {
+			hv[k], hp[k], hdv[k] = l.half(d, deriv)
+		}
+		return
+	}
+	if !deriv || l.held {
+		l.shp.HalfValues(ds, hv, hp)
+		for k := range hdv {
+			hdv[k] = 0
+		}
+		return
+	}
+	l.shp.Halves(ds, hv, hp, hdv)
+}
+
 // evalLine computes the line's unit profile's pixel means (u), their
 // derivative in the offset (du) and in ln n_e (dn) over its pixel range,
 // for line centre λ_k + off. Without deriv only u is computed (the same,
@@ -1088,16 +1155,29 @@ func (l *wline) half(d float64, deriv bool) (v, p, dv float64) {
 // differences of the cumulative's odd part (no cancellation against ½),
 // and the symmetric kernel's output is computed on one half (convolve).
 func (f *wholeFitter) evalLine(l *wline, lnNe, off, instG, gasT float64, deriv bool) error {
+	if err := f.evalGrid(l, lnNe, instG, gasT, deriv); err != nil {
+		return err
+	}
+	f.pixels(l, off, deriv)
+	return nil
+}
+
+// evalGrid is evalLine up to the pixels: the base shape on the fine grid
+// and the wing nodes, its bin masses and their convolution with the
+// kernel (l.cum[0], l.q, l.pq, l.wc, l.wp and, with deriv, their ln n_e
+// derivatives), from which pixels takes the pixel means.
+func (f *wholeFitter) evalGrid(l *wline, lnNe, instG, gasT float64, deriv bool) error {
 	gF, lF, err := f.lineShape(l, lnNe, instG, gasT)
 	if err != nil {
 		return err
 	}
 	l.kL = lF
 	m := l.m
-	h := l.h
+	l.halves(deriv)
+	hv, hp, hdv := l.hv[:len(l.hd)], l.hp[:len(l.hd)], l.hdv[:len(l.hd)]
 	var vPrev, dvPrev float64
 	for k := 0; k <= m; k++ {
-		v, p, dv := l.half((float64(k)+0.5)*h, deriv)
+		v, p, dv := hv[k], hp[k], hdv[k]
 		jr, jl := m+1+k, m-k
 		l.cum[jr], l.cum[jl] = 0.5+v, 0.5-v
 		l.pe[jr], l.pe[jl] = p, p
@@ -1116,13 +1196,12 @@ func (f *wholeFitter) evalLine(l *wline, lnNe, off, instG, gasT float64, deriv b
 	}
 	// Wing nodes, left (index i) and right (nw + i).
 	nw := len(l.wing)
-	for i, d := range l.wing {
-		v, p, dv := l.half(d, deriv)
+	for i := range l.wing {
+		v, p, dv := hv[m+1+i], hp[m+1+i], hdv[m+1+i]
 		l.wc[i], l.wp[i], l.wd[i] = 0.5-v, p, 0-dv
 		l.wc[nw+i], l.wp[nw+i], l.wd[nw+i] = 0.5+v, p, dv
 	}
 	f.convolve(l, gF, lF, deriv)
-	f.pixels(l, off, deriv)
 	return nil
 }
 
@@ -1162,6 +1241,26 @@ func (f *wholeFitter) convolve(l *wline, gF, lF float64, deriv bool) {
 	if !deriv {
 		// The loop below without ds.
 		for j := 0; j <= m; j++ {
+			if j >= r && j+1 <= m && j+1+r <= nb-1 && !f.generic {
+				// Two outputs, j and j + 1, at once: the same sums, their
+				// chains of additions interleaved.
+				ms, ps := l.mass[j-r:j+r+2], l.pe[j-r:j+r+2]
+				s, sp := kh[0]*ms[r], kh[0]*ps[r]
+				s2, sp2 := kh[0]*ms[r+1], kh[0]*ps[r+1]
+				for t := 1; t <= r; t++ {
+					k := kh[t]
+					s += k * (ms[r-t] + ms[r+t])
+					sp += k * (ps[r-t] + ps[r+t])
+					s2 += k * (ms[r+1-t] + ms[r+1+t])
+					sp2 += k * (ps[r+1-t] + ps[r+1+t])
+				}
+				l.q[j], l.q[nb-1-j] = s, s
+				l.pq[j], l.pq[nb-j] = sp, sp
+				l.q[j+1], l.q[nb-2-j] = s2, s2
+				l.pq[j+1], l.pq[nb-1-j] = sp2, sp2
+				j++
+				continue
+			}
 			if j >= r && j+r <= nb-1 {
 				ms, ps := l.mass[j-r:j+r+1], l.pe[j-r:j+r+1]
 				s, sp := kh[0]*ms[r], kh[0]*ps[r]
@@ -1200,6 +1299,30 @@ func (f *wholeFitter) convolve(l *wline, gF, lF float64, deriv bool) {
 		return
 	}
 	for j := 0; j <= m; j++ {
+		if j >= r && j+1 <= m && j+1+r <= nb-1 && !f.generic {
+			// Two outputs, j and j + 1, at once: the same sums, their
+			// chains of additions interleaved.
+			ms, dms, ps := l.mass[j-r:j+r+2], l.dmass[j-r:j+r+2], l.pe[j-r:j+r+2]
+			s, ds, sp := kh[0]*ms[r], kh[0]*dms[r], kh[0]*ps[r]
+			s2, ds2, sp2 := kh[0]*ms[r+1], kh[0]*dms[r+1], kh[0]*ps[r+1]
+			for t := 1; t <= r; t++ {
+				k := kh[t]
+				s += k * (ms[r-t] + ms[r+t])
+				ds += k * (dms[r-t] + dms[r+t])
+				sp += k * (ps[r-t] + ps[r+t])
+				s2 += k * (ms[r+1-t] + ms[r+1+t])
+				ds2 += k * (dms[r+1-t] + dms[r+1+t])
+				sp2 += k * (ps[r+1-t] + ps[r+1+t])
+			}
+			l.q[j], l.dq[j] = s, ds
+			l.q[nb-1-j], l.dq[nb-1-j] = s, ds
+			l.pq[j], l.pq[nb-j] = sp, sp
+			l.q[j+1], l.dq[j+1] = s2, ds2
+			l.q[nb-2-j], l.dq[nb-2-j] = s2, ds2
+			l.pq[j+1], l.pq[nb-1-j] = sp2, sp2
+			j++
+			continue
+		}
 		if j >= r && j+r <= nb-1 {
 			ms, dms, ps := l.mass[j-r:j+r+1], l.dmass[j-r:j+r+1], l.pe[j-r:j+r+1]
 			s, ds, sp := kh[0]*ms[r], kh[0]*dms[r], kh[0]*ps[r]
@@ -1248,6 +1371,31 @@ func (f *wholeFitter) convolve(l *wline, gF, lF float64, deriv bool) {
 // normalised to sum 1; see convolve), in l.kern; ok is false where the
 // kernel is the identity.
 func (l *wline) kernel(gF, lF float64) (kern []float64, r int, ok bool) {
+	// The kernel of the last call is kept: most evaluations repeat it
+	// (the Gaussian and Lorentzian widths change only with a free gas
+	// temperature or instrument width, and with T_e in densitySys).
+	if c := &l.kc; c.valid && c.gF == gF && c.lF == lF && c.h == l.h && c.m == l.m {
+		if !c.ok {
+			return nil, 0, false
+		}
+		return l.kern[:2*c.r+1], c.r, true
+	}
+	kern, r, ok = l.kernelNew(gF, lF)
+	l.kc = kernCache{valid: true, gF: gF, lF: lF, h: l.h, m: l.m, r: r, ok: ok}
+	return kern, r, ok
+}
+
+// kernCache records the arguments and outcome of a line's last kernel
+// (its weights are in l.kern).
+type kernCache struct {
+	valid     bool
+	gF, lF, h float64
+	m, r      int
+	ok        bool
+}
+
+// kernelNew computes kernel's weights afresh.
+func (l *wline) kernelNew(gF, lF float64) (kern []float64, r int, ok bool) {
 	h := l.h
 	nb := 2*l.m + 1
 	sigma := voigt.SigmaFromFWHM(gF)
@@ -1360,19 +1508,309 @@ func (f *wholeFitter) pixels(l *wline, off float64, deriv bool) {
 	fa, fb, iws := f.a[l.plo:l.phi], f.b[l.plo:l.phi], f.invW[l.plo:l.phi]
 	fb, iws = fb[:len(fa)], iws[:len(fa)]
 	us, dns, dus := l.u[:len(fa)], l.dn[:len(fa)], l.du[:len(fa)]
+	if f.generic {
+		pa, pda, pdens := e.at(fa[0] - ctr)
+		for k := range fa {
+			if k > 0 && fa[k] != fb[k-1] {
+				pa, pda, pdens = e.at(fa[k] - ctr)
+			}
+			cb, dcb, densb := e.at(fb[k] - ctr)
+			iw := iws[k] // 1/(b − a)
+			us[k] = (cb - pa) * iw
+			dns[k] = (dcb - pda) * iw
+			// d/dδ of the mean = −(density(b) − density(a))/w.
+			dus[k] = (pdens - densb) * iw
+			pa, pda, pdens = cb, dcb, densb
+		}
+		return
+	}
+	// The loop above in three stretches of pixels by where their upper
+	// edge lies (the edges ascend): left of the grid, on it, right of
+	// it, each with its branch of edgeEval.at inlined (the same
+	// operations; a pixel's lower edge, when it is not the previous
+	// pixel's upper edge, through at).
+	n := len(fa)
+	wing, wc, wp, wd := l.wing[:nw], l.wc[:2*nw], l.wp[:2*nw], l.wd[:2*nw]
+	wingH, wingInvH := l.wingH[:nw-1], l.wingInvH[:nw-1]
 	pa, pda, pdens := e.at(fa[0] - ctr)
-	for k := range fa {
+	k := 0
+	for ; k < n; k++ {
+		t := fb[k] - ctr
+		if !(t < e0) {
+			break
+		}
 		if k > 0 && fa[k] != fb[k-1] {
 			pa, pda, pdens = e.at(fa[k] - ctr)
 		}
-		cb, dcb, densb := e.at(fb[k] - ctr)
-		iw := iws[k] // 1/(b − a)
+		var cb, dcb, densb float64
+		if d := -t; d >= wing[nw-1] {
+			cb, dcb = wc[nw-1], wd[nw-1]
+		} else {
+			wl := e.wl
+			for wl > 0 && d < wing[wl] {
+				wl--
+			}
+			for wl < nw-2 && d >= wing[wl+1] {
+				wl++
+			}
+			e.wl = wl
+			hh, ih := wingH[wl], wingInvH[wl]
+			u := (t + wing[wl+1]) * ih
+			c0, c1, d0, d1 := wc[wl+1], wc[wl], wp[wl+1]*hh, wp[wl]*hh
+			cb = hermiteValue(c0, c1, d0, d1, u)
+			densb = hermiteSlope(c0, c1, d0, d1, u) * ih
+			dcb = wd[wl+1] + u*(wd[wl]-wd[wl+1])
+		}
+		iw := iws[k]
 		us[k] = (cb - pa) * iw
 		dns[k] = (dcb - pda) * iw
-		// d/dδ of the mean = −(density(b) − density(a))/w.
 		dus[k] = (pdens - densb) * iw
 		pa, pda, pdens = cb, dcb, densb
 	}
+	Fg, dFg, pqg, slg := F[:nb+1], dF[:nb+1], l.pq[:nb+1], l.dsl[:nb+1]
+	invH := e.invH
+	for ; k < n; k++ {
+		t := fb[k] - ctr
+		if t > eEnd {
+			break
+		}
+		if k > 0 && fa[k] != fb[k-1] {
+			pa, pda, pdens = e.at(fa[k] - ctr)
+		}
+		fj := (t - e0) * invH
+		j := min(int(fj), nb-1)
+		u := fj - float64(j)
+		c0, c1, d0, d1 := Fg[j], Fg[j+1], pqg[j]*h, pqg[j+1]*h
+		cb := hermiteValue(c0, c1, d0, d1, u)
+		densb := hermiteSlope(c0, c1, d0, d1, u) * invH
+		dcb := hermiteValue(dFg[j], dFg[j+1], slg[j], slg[j+1], u)
+		iw := iws[k]
+		us[k] = (cb - pa) * iw
+		dns[k] = (dcb - pda) * iw
+		dus[k] = (pdens - densb) * iw
+		pa, pda, pdens = cb, dcb, densb
+	}
+	for ; k < n; k++ {
+		t := fb[k] - ctr
+		if k > 0 && fa[k] != fb[k-1] {
+			pa, pda, pdens = e.at(fa[k] - ctr)
+		}
+		var cb, dcb, densb float64
+		if t >= wing[nw-1] {
+			cb, dcb = wc[2*nw-1]+e.shR, wd[2*nw-1]+e.dshR
+		} else {
+			wr := e.wr
+			for wr > 0 && t < wing[wr] {
+				wr--
+			}
+			for wr < nw-2 && t >= wing[wr+1] {
+				wr++
+			}
+			e.wr = wr
+			hh, ih := wingH[wr], wingInvH[wr]
+			u := (t - wing[wr]) * ih
+			c0, c1, d0, d1 := wc[nw+wr], wc[nw+wr+1], wp[nw+wr]*hh, wp[nw+wr+1]*hh
+			cb = hermiteValue(c0, c1, d0, d1, u) + e.shR
+			densb = hermiteSlope(c0, c1, d0, d1, u) * ih
+			dc := wd[nw+wr] + u*(wd[nw+wr+1]-wd[nw+wr])
+			dcb = dc + e.dshR
+		}
+		iw := iws[k]
+		us[k] = (cb - pa) * iw
+		dns[k] = (dcb - pda) * iw
+		dus[k] = (pdens - densb) * iw
+		pa, pda, pdens = cb, dcb, densb
+	}
+}
+
+// stashGrid keeps the line's grid state of the last evalGrid aside for
+// pixelsPair: the broadened cumulative on the bin edges (summed as
+// pixels sums it), the broadened densities there and the wing nodes'
+// cumulative and density.
+func (l *wline) stashGrid() {
+	nb := 2*l.m + 1
+	nw := len(l.wing)
+	F := grow(&l.fqAlt, nb+1)
+	F[0] = l.cum[0]
+	for j := range nb {
+		F[j+1] = F[j] + l.q[j]
+	}
+	l.pqAlt = append(l.pqAlt[:0], l.pq[:nb+1]...)
+	l.wcAlt = append(l.wcAlt[:0], l.wc[:2*nw]...)
+	l.wpAlt = append(l.wpAlt[:0], l.wp[:2*nw]...)
+}
+
+// pixelsPair is pixels without deriv for two grid states of the line at
+// once: the one stashGrid kept (means into l.uAlt) and the current one
+// (means into l.uCur; l.u is left alone), each bit for bit what pixels
+// gives from that state. The position of every pixel edge on the grid
+// or between the wing nodes, and its cubic Hermite weights, are found
+// once for both.
+func (f *wholeFitter) pixelsPair(l *wline, off float64) {
+	h := l.h
+	nb := 2*l.m + 1
+	nw := len(l.wing)
+	e0 := -(float64(l.m) + 0.5) * h
+	F := l.fq
+	F[0] = l.cum[0]
+	for j := range nb {
+		F[j+1] = F[j] + l.q[j]
+	}
+	e := pairEval{l: l, e0: e0, eEnd: -e0, h: h, invH: 1 / h, nb: nb, nw: nw,
+		F1: l.fqAlt[:nb+1], pq1: l.pqAlt[:nb+1], wc1: l.wcAlt[:2*nw], wp1: l.wpAlt[:2*nw], shR1: l.fqAlt[nb] - l.wcAlt[nw],
+		F2: F[:nb+1], pq2: l.pq[:nb+1], wc2: l.wc[:2*nw], wp2: l.wp[:2*nw], shR2: F[nb] - l.wc[nw]}
+	ctr := l.center + off
+	n := l.phi - l.plo
+	u1, u2 := grow(&l.uAlt, n), grow(&l.uCur, n)
+	fa, fb, iws := f.a[l.plo:l.phi], f.b[l.plo:l.phi], f.invW[l.plo:l.phi]
+	fb, iws, u1, u2 = fb[:len(fa)], iws[:len(fa)], u1[:len(fa)], u2[:len(fa)]
+	// The pixels in three stretches by where their upper edge lies (the
+	// edges ascend), each with its branch of pairEval.value inlined (as
+	// pixels with deriv); a lower edge that is not the previous pixel's
+	// upper edge through pairEval.value.
+	pa1, pa2 := e.value(fa[0] - ctr)
+	wing, wingH, wingInvH := l.wing[:nw], l.wingH[:nw-1], l.wingInvH[:nw-1]
+	wc1, wp1, wc2, wp2 := e.wc1, e.wp1, e.wc2, e.wp2
+	n, k := len(fa), 0
+	for ; k < n; k++ {
+		t := fb[k] - ctr
+		if !(t < e.e0) {
+			break
+		}
+		if k > 0 && fa[k] != fb[k-1] {
+			pa1, pa2 = e.value(fa[k] - ctr)
+		}
+		var cb1, cb2 float64
+		if d := -t; d >= wing[nw-1] {
+			cb1, cb2 = wc1[nw-1], wc2[nw-1]
+		} else {
+			wl := e.wl
+			for wl > 0 && d < wing[wl] {
+				wl--
+			}
+			for wl < nw-2 && d >= wing[wl+1] {
+				wl++
+			}
+			e.wl = wl
+			hh, ih := wingH[wl], wingInvH[wl]
+			b0, b1, b2, b3 := hermiteBasis((t + wing[wl+1]) * ih)
+			cb1 = b0*wc1[wl+1] + b1*(wp1[wl+1]*hh) + b2*wc1[wl] + b3*(wp1[wl]*hh)
+			cb2 = b0*wc2[wl+1] + b1*(wp2[wl+1]*hh) + b2*wc2[wl] + b3*(wp2[wl]*hh)
+		}
+		u1[k] = (cb1 - pa1) * iws[k]
+		u2[k] = (cb2 - pa2) * iws[k]
+		pa1, pa2 = cb1, cb2
+	}
+	F1, pq1, F2, pq2 := e.F1[:nb+1], e.pq1[:nb+1], e.F2[:nb+1], e.pq2[:nb+1]
+	for ; k < n; k++ {
+		t := fb[k] - ctr
+		if t > e.eEnd {
+			break
+		}
+		if k > 0 && fa[k] != fb[k-1] {
+			pa1, pa2 = e.value(fa[k] - ctr)
+		}
+		fj := (t - e.e0) * e.invH
+		j := min(int(fj), nb-1)
+		b0, b1, b2, b3 := hermiteBasis(fj - float64(j))
+		cb1 := b0*F1[j] + b1*(pq1[j]*h) + b2*F1[j+1] + b3*(pq1[j+1]*h)
+		cb2 := b0*F2[j] + b1*(pq2[j]*h) + b2*F2[j+1] + b3*(pq2[j+1]*h)
+		u1[k] = (cb1 - pa1) * iws[k]
+		u2[k] = (cb2 - pa2) * iws[k]
+		pa1, pa2 = cb1, cb2
+	}
+	for ; k < n; k++ {
+		t := fb[k] - ctr
+		if k > 0 && fa[k] != fb[k-1] {
+			pa1, pa2 = e.value(fa[k] - ctr)
+		}
+		var cb1, cb2 float64
+		if t >= wing[nw-1] {
+			cb1, cb2 = wc1[2*nw-1]+e.shR1, wc2[2*nw-1]+e.shR2
+		} else {
+			wr := e.wr
+			for wr > 0 && t < wing[wr] {
+				wr--
+			}
+			for wr < nw-2 && t >= wing[wr+1] {
+				wr++
+			}
+			e.wr = wr
+			hh, ih := wingH[wr], wingInvH[wr]
+			b0, b1, b2, b3 := hermiteBasis((t - wing[wr]) * ih)
+			i := nw + wr
+			cb1 = b0*wc1[i] + b1*(wp1[i]*hh) + b2*wc1[i+1] + b3*(wp1[i+1]*hh) + e.shR1
+			cb2 = b0*wc2[i] + b1*(wp2[i]*hh) + b2*wc2[i+1] + b3*(wp2[i+1]*hh) + e.shR2
+		}
+		u1[k] = (cb1 - pa1) * iws[k]
+		u2[k] = (cb2 - pa2) * iws[k]
+		pa1, pa2 = cb1, cb2
+	}
+}
+
+// pairEval is edgeEval.value for two grid states of one line (1 and 2;
+// pixelsPair): each value is the same, bit for bit, the Hermite weights
+// computed once (hermiteBasis: hermiteValue's own).
+type pairEval struct {
+	l                 *wline
+	F1, pq1, wc1, wp1 []float64
+	F2, pq2, wc2, wp2 []float64
+	shR1, shR2        float64
+	e0, eEnd, h, invH float64
+	nb, nw, wl, wr    int
+}
+
+func (e *pairEval) value(t float64) (v1, v2 float64) {
+	l, nw := e.l, e.nw
+	wing := l.wing[:nw]
+	if t < e.e0 {
+		// edgeEval.leftValue.
+		d := -t
+		if d >= wing[nw-1] {
+			return e.wc1[nw-1], e.wc2[nw-1]
+		}
+		wl := e.wl
+		for wl > 0 && d < wing[wl] {
+			wl--
+		}
+		for wl < nw-2 && d >= wing[wl+1] {
+			wl++
+		}
+		e.wl = wl
+		hh, ih := l.wingH[wl], l.wingInvH[wl]
+		b0, b1, b2, b3 := hermiteBasis((t + wing[wl+1]) * ih)
+		v1 = b0*e.wc1[wl+1] + b1*(e.wp1[wl+1]*hh) + b2*e.wc1[wl] + b3*(e.wp1[wl]*hh)
+		v2 = b0*e.wc2[wl+1] + b1*(e.wp2[wl+1]*hh) + b2*e.wc2[wl] + b3*(e.wp2[wl]*hh)
+		return v1, v2
+	}
+	if t > e.eEnd {
+		// edgeEval.rightValue.
+		if t >= wing[nw-1] {
+			return e.wc1[2*nw-1] + e.shR1, e.wc2[2*nw-1] + e.shR2
+		}
+		wr := e.wr
+		for wr > 0 && t < wing[wr] {
+			wr--
+		}
+		for wr < nw-2 && t >= wing[wr+1] {
+			wr++
+		}
+		e.wr = wr
+		hh, ih := l.wingH[wr], l.wingInvH[wr]
+		b0, b1, b2, b3 := hermiteBasis((t - wing[wr]) * ih)
+		i := nw + wr
+		v1 = b0*e.wc1[i] + b1*(e.wp1[i]*hh) + b2*e.wc1[i+1] + b3*(e.wp1[i+1]*hh) + e.shR1
+		v2 = b0*e.wc2[i] + b1*(e.wp2[i]*hh) + b2*e.wc2[i+1] + b3*(e.wp2[i+1]*hh) + e.shR2
+		return v1, v2
+	}
+	fj := (t - e.e0) * e.invH
+	j := min(int(fj), e.nb-1)
+	b0, b1, b2, b3 := hermiteBasis(fj - float64(j))
+	h := e.h
+	F1, pq1, F2, pq2 := e.F1[j:j+2], e.pq1[j:j+2], e.F2[j:j+2], e.pq2[j:j+2]
+	v1 = b0*F1[0] + b1*(pq1[0]*h) + b2*F1[1] + b3*(pq1[1]*h)
+	v2 = b0*F2[0] + b1*(pq2[0]*h) + b2*F2[1] + b3*(pq2[1]*h)
+	return v1, v2
 }
 
 // edgeEval evaluates a line's broadened cumulative F, its derivative in
@@ -1542,4 +1980,13 @@ func hermiteValue(c0, c1, d0, d1, u float64) float64 {
 	u2 := u * u
 	u3 := u2 * u
 	return (2*u3-3*u2+1)*c0 + (u3-2*u2+u)*d0 + (-2*u3+3*u2)*c1 + (u3-u2)*d1
+}
+
+// hermiteBasis returns the weights of c0, d0, c1 and d1 in hermiteValue
+// at u, the same values: b0·c0 + b1·d0 + b2·c1 + b3·d1 is hermiteValue,
+// bit for bit.
+func hermiteBasis(u float64) (b0, b1, b2, b3 float64) {
+	u2 := u * u
+	u3 := u2 * u
+	return 2*u3 - 3*u2 + 1, u3 - 2*u2 + u, -2*u3 + 3*u2, u3 - u2
 }

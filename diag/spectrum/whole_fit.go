@@ -97,31 +97,57 @@ func (f *wholeFitter) assemble(th []float64) (float64, error) {
 	// written once per setup; the other columns are cleared.
 	iBase, nBase := pr.iBase, pr.nBase
 	if !f.jacBaseOK {
-		for i := range jac {
-			jac[i] = 0
-		}
-		for i := range n {
-			for b := range nBase {
-				jac[i*np+iBase+b] = f.leg[b][i]
+		if nBase == 4 && iBase == 4 && !f.generic {
+			// Each row written whole (the same values as below).
+			l0, l1, l2, l3 := f.leg[0][:n], f.leg[1][:n], f.leg[2][:n], f.leg[3][:n]
+			for i := range l0 {
+				*(*[8]float64)(jac[8*i : 8*i+8]) = [8]float64{0, 0, 0, 0, l0[i], l1[i], l2[i], l3[i]}
+			}
+		} else {
+			for i := range jac {
+				jac[i] = 0
+			}
+			for i := range n {
+				for b := range nBase {
+					jac[i*np+iBase+b] = f.leg[b][i]
+				}
 			}
 		}
 		f.jacBaseOK = true
+	}
+	if tb := th[iBase : iBase+nBase]; !f.generic && nBase == 4 && iBase == 4 {
+		// The common case (Boltzmann areas, a cubic baseline: a survey),
+		// in one pass over the pixels: the columns before the baseline
+		// cleared, the baseline summed term by term from 0 (the same
+		// sums as the loops below).
+		mod = mod[:n]
+		l0, l1, l2, l3 := f.leg[0][:n], f.leg[1][:n], f.leg[2][:n], f.leg[3][:n]
+		t0, t1, t2, t3 := tb[0], tb[1], tb[2], tb[3]
+		for i := range mod {
+			*(*[4]float64)(jac[i*np : i*np+4]) = [4]float64{}
+			m := 0.0
+			m += t0 * l0[i]
+			m += t1 * l1[i]
+			m += t2 * l2[i]
+			m += t3 * l3[i]
+			mod[i] = m
+		}
 	} else {
 		for i := range n {
 			for k := i * np; k < i*np+iBase; k++ {
 				jac[k] = 0
 			}
 		}
-	}
-	// The baseline, term by term over all pixels (each pixel's sum in the
-	// same order, from 0).
-	for i := range mod {
-		mod[i] = 0
-	}
-	for b, t := range th[iBase : iBase+nBase] {
-		lb := f.leg[b][:len(mod)]
-		for i, v := range lb {
-			mod[i] += t * v
+		// The baseline, term by term over all pixels (each pixel's sum
+		// in the same order, from 0).
+		for i := range mod {
+			mod[i] = 0
+		}
+		for b, t := range tb {
+			lb := f.leg[b][:len(mod)]
+			for i, v := range lb {
+				mod[i] += t * v
+			}
 		}
 	}
 	for k, l := range f.lines {
@@ -369,11 +395,30 @@ func (f *wholeFitter) baseBlocks() {
 		r0, r1, r2, r3 := row(a), row(a+1), row(a+2), row(a+3)
 		r0, r1, r2, r3 = r0[:len(wa)], r1[:len(wa)], r2[:len(wa)], r3[:len(wa)]
 		var s0, s1, s2, s3 float64
-		for i, x := range wa {
-			s0 += x * r0[i]
-			s1 += x * r1[i]
-			s2 += x * r2[i]
-			s3 += x * r3[i]
+		switch nB - a {
+		case 1:
+			// The padding's sums left out (the used ones the same).
+			for i, x := range wa {
+				s0 += x * r0[i]
+			}
+		case 2:
+			for i, x := range wa {
+				s0 += x * r0[i]
+				s1 += x * r1[i]
+			}
+		case 3:
+			for i, x := range wa {
+				s0 += x * r0[i]
+				s1 += x * r1[i]
+				s2 += x * r2[i]
+			}
+		default:
+			for i, x := range wa {
+				s0 += x * r0[i]
+				s1 += x * r1[i]
+				s2 += x * r2[i]
+				s3 += x * r3[i]
+			}
 		}
 		for k, v := range [4]float64{s0, s1, s2, s3} {
 			if a+k < nB {
@@ -388,12 +433,34 @@ func (f *wholeFitter) baseBlocks() {
 		r0, r1, r2, r3 = r0[:len(l1)], r1[:len(l1)], r2[:len(l1)], r3[:len(l1)]
 		y, ws := y[:len(l1)], ws[:len(l1)]
 		var sg, s0, s1, s2, s3 float64
-		for i, v := range l1 {
-			sg += v * y[i] * ws[i]
-			s0 += v * r0[i] * ws[i]
-			s1 += v * r1[i] * ws[i]
-			s2 += v * r2[i] * ws[i]
-			s3 += v * r3[i] * ws[i]
+		switch nB - b {
+		case 1:
+			// The padding's sums left out (the used ones the same).
+			for i, v := range l1 {
+				sg += v * y[i] * ws[i]
+				s0 += v * r0[i] * ws[i]
+			}
+		case 2:
+			for i, v := range l1 {
+				sg += v * y[i] * ws[i]
+				s0 += v * r0[i] * ws[i]
+				s1 += v * r1[i] * ws[i]
+			}
+		case 3:
+			for i, v := range l1 {
+				sg += v * y[i] * ws[i]
+				s0 += v * r0[i] * ws[i]
+				s1 += v * r1[i] * ws[i]
+				s2 += v * r2[i] * ws[i]
+			}
+		default:
+			for i, v := range l1 {
+				sg += v * y[i] * ws[i]
+				s0 += v * r0[i] * ws[i]
+				s1 += v * r1[i] * ws[i]
+				s2 += v * r2[i] * ws[i]
+				s3 += v * r3[i] * ws[i]
+			}
 		}
 		lg[b] = sg
 		for k, v := range [4]float64{s0, s1, s2, s3} {
@@ -609,12 +676,26 @@ func (f *wholeFitter) linearAreas() (areas, sig []float64, chi2 float64, ok bool
 	inv := grow(&f.linInv, np*np)
 	linefit.CholInverse(A, np, inv, grow(&f.linWork, np))
 	mod := grow(&f.mbuf, len(f.x))
-	for i := range mod {
-		var m float64
-		for b := range nb {
-			m += sol[nl+b] * f.leg[b][i]
+	if nb == 4 {
+		// The loop below unrolled (the same sums).
+		l0, l1, l2, l3 := f.leg[0][:len(mod)], f.leg[1][:len(mod)], f.leg[2][:len(mod)], f.leg[3][:len(mod)]
+		t0, t1, t2, t3 := sol[nl], sol[nl+1], sol[nl+2], sol[nl+3]
+		for i := range mod {
+			var m float64
+			m += t0 * l0[i]
+			m += t1 * l1[i]
+			m += t2 * l2[i]
+			m += t3 * l3[i]
+			mod[i] = m
 		}
-		mod[i] = m
+	} else {
+		for i := range mod {
+			var m float64
+			for b := range nb {
+				m += sol[nl+b] * f.leg[b][i]
+			}
+			mod[i] = m
+		}
 	}
 	for a, l := range f.lines {
 		ms, us, sa := mod[l.plo:l.phi], l.u[:l.phi-l.plo], sol[a]
@@ -1200,7 +1281,9 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 	if boltz {
 		cB = cov0[pr.iB*np : pr.iB*np+np]
 	}
-	ss := f.s[:len(sens)]
+	// The pixels' weights 1/σ² (baseBlocks' wbuf: the same quotients).
+	f.baseBlocks()
+	ws := f.wbuf[:len(sens)]
 	sensB = sensB[:len(sens)]
 	for i := range sens {
 		row := f.jac[i*np : (i+1)*np]
@@ -1217,21 +1300,21 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 				v += cNe[b] * j
 			}
 		}
-		w := 1 / (ss[i] * ss[i])
+		w := ws[i]
 		sens[i], sensB[i] = v*w, vb*w
 	}
 	// Saved pixel means of every line at the solution (in the fitter's
-	// buffers: one block for every line's u, du and dn).
+	// buffers: one block for every line's u). Nothing here changes the
+	// derivatives du and dn (every evaluation below is without deriv).
 	nSave := 0
 	for _, l := range f.lines {
-		nSave += len(l.u) + len(l.du) + len(l.dn)
+		nSave += len(l.u)
 	}
 	block := grow(&f.saveBuf, nSave)
-	if cap(f.saveRows) < 3*len(f.lines) {
-		f.saveRows = make([][]float64, 3*len(f.lines))
+	if cap(f.saveRows) < len(f.lines) {
+		f.saveRows = make([][]float64, len(f.lines))
 	}
-	rows := f.saveRows[:3*len(f.lines)]
-	saved, savedDu, savedDn := rows[:len(f.lines)], rows[len(f.lines):2*len(f.lines)], rows[2*len(f.lines):]
+	saved := f.saveRows[:len(f.lines)]
 	take := func(src []float64) []float64 {
 		dst := block[:len(src):len(src)]
 		block = block[len(src):]
@@ -1240,18 +1323,19 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 	}
 	for k, l := range f.lines {
 		saved[k] = take(l.u)
-		savedDu[k] = take(l.du)
-		savedDn[k] = take(l.dn)
 	}
 	// shiftFor returns |δ ln n_e| and |δβ| from the lines' current u
 	// (changed by the caller) against the saved ones, and restores
 	// nothing.
-	shiftFor := func() [2]float64 {
+	var shiftOf func(um func(*wline) []float64) [2]float64
+	shiftFor := func() [2]float64 { return shiftOf(func(l *wline) []float64 { return l.u }) }
+	// shiftOf is shiftFor with the pixel means of each line given by um.
+	shiftOf = func(um func(*wline) []float64) [2]float64 {
 		var d, db float64
 		for k, l := range f.lines {
 			a := f.areaOf(k, th)
 			ss, sb := sens[l.plo:l.phi], sensB[l.plo:l.phi]
-			us, sv := l.u[:len(ss)], saved[k][:len(ss)]
+			us, sv := um(l)[:len(ss)], saved[k][:len(ss)]
 			sb = sb[:len(ss)]
 			for i := range ss {
 				dm := a * (us[i] - sv[i])
@@ -1260,6 +1344,26 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 			}
 		}
 		return [2]float64{math.Abs(d), math.Abs(db)}
+	}
+	// shiftOf2 is shiftOf for two sets of means at once (the same sums,
+	// their chains interleaved).
+	shiftOf2 := func(um1, um2 func(*wline) []float64) (r1, r2 [2]float64) {
+		var d, db, d2, db2 float64
+		for k, l := range f.lines {
+			a := f.areaOf(k, th)
+			ss, sb := sens[l.plo:l.phi], sensB[l.plo:l.phi]
+			us, us2, sv := um1(l)[:len(ss)], um2(l)[:len(ss)], saved[k][:len(ss)]
+			sb = sb[:len(ss)]
+			for i := range ss {
+				dm := a * (us[i] - sv[i])
+				dm2 := a * (us2[i] - sv[i])
+				d += ss[i] * dm
+				db += sb[i] * dm
+				d2 += ss[i] * dm2
+				db2 += sb[i] * dm2
+			}
+		}
+		return [2]float64{math.Abs(d), math.Abs(db)}, [2]float64{math.Abs(d2), math.Abs(db2)}
 	}
 	restore := func() {
 		for k, l := range f.lines {
@@ -1331,42 +1435,115 @@ func (f *wholeFitter) densitySys(ne float64, cov0 []float64) (parts, tParts []di
 	// Electron temperature of the tables (the lines re-evaluated).
 	// Each line's tables move by its own T_e σ (teRel; larger for a line
 	// whose tables stand in at a nearby temperature), all in the same
-	// direction.
-	teShift := func(sign float64) ([2]float64, bool) {
+	// direction. The lines' shapes at the solution (what lineShape
+	// prepared there) are kept and put back after.
+	if cap(f.saveShapes) < len(f.lines) {
+		f.saveShapes = make([]lineShapeState, len(f.lines))
+	}
+	shapes := f.saveShapes[:len(f.lines)]
+	for k, l := range f.lines {
+		shapes[k] = lineShapeState{shp: l.shp, held: l.held, extra2: l.extra2, clampGap2: l.clampGap2, kL: l.kL}
+	}
+	// teGrid evaluates every tabulated line's grid at the moved T_e; the
+	// Voigt fallback's shape does not depend on T_e: its means stay the
+	// saved ones (re-evaluated, they were the same bit for bit).
+	teGrid := func(sign float64) bool {
 		f.teSign = sign
 		defer func() { f.teSign = 0 }()
 		for _, l := range f.lines {
 			if !l.shapeSH {
-				// The Voigt fallback's shape does not depend on T_e: its
-				// means stay the saved ones (re-evaluated, they were
-				// the same bit for bit).
 				continue
 			}
 			g, tg := f.lineInst(l, th)
-			if err := f.evalLine(l, th[pr.iNe], th[pr.iOff], g, tg, false); err != nil {
-				return [2]float64{}, false
+			if err := f.evalGrid(l, th[pr.iNe], g, tg, false); err != nil {
+				return false
 			}
 		}
-		return shiftFor(), true
+		return true
 	}
-	d1, ok1 := teShift(1)
-	d2, ok2 := teShift(-1)
-	switch {
-	case ok1 && ok2:
-		add("electron temperature of the tables", half(d1, d2))
-	case ok1:
-		add("electron temperature of the tables", d1)
-	case ok2:
-		add("electron temperature of the tables", d2)
+	if f.generic {
+		// The general form (TestWholeFastPaths): each sign's lines
+		// evaluated in full (evalLine) and their means put back.
+		teShift := func(sign float64) ([2]float64, bool) {
+			f.teSign = sign
+			defer func() { f.teSign = 0 }()
+			for _, l := range f.lines {
+				if !l.shapeSH {
+					continue
+				}
+				g, tg := f.lineInst(l, th)
+				if err := f.evalLine(l, th[pr.iNe], th[pr.iOff], g, tg, false); err != nil {
+					return [2]float64{}, false
+				}
+			}
+			return shiftFor(), true
+		}
+		d1, ok1 := teShift(1)
+		d2, ok2 := teShift(-1)
+		f.teOK = [2]bool{ok1, ok2}
+		restore()
+		switch {
+		case ok1 && ok2:
+			add("electron temperature of the tables", half(d1, d2))
+		case ok1:
+			add("electron temperature of the tables", d1)
+		case ok2:
+			add("electron temperature of the tables", d2)
+		}
+	} else {
+		// Both signs' grids, then both signs' pixel means in one pass
+		// (pixelsPair: the same means, bit for bit, as pixels from each).
+		ok1 := teGrid(1)
+		if ok1 {
+			for _, l := range f.lines {
+				if l.shapeSH {
+					l.stashGrid()
+				}
+			}
+		}
+		ok2 := teGrid(-1)
+		f.teOK = [2]bool{ok1, ok2}
+		if ok2 && !ok1 {
+			// Kept as a stand-in for the state that failed (its means
+			// are not used).
+			for _, l := range f.lines {
+				if l.shapeSH {
+					l.stashGrid()
+				}
+			}
+		}
+		if ok1 || ok2 {
+			for _, l := range f.lines {
+				if l.shapeSH {
+					f.pixelsPair(l, th[pr.iOff])
+				}
+			}
+		}
+		teMeans := func(alt bool) func(*wline) []float64 {
+			return func(l *wline) []float64 {
+				switch {
+				case !l.shapeSH:
+					return l.u // the saved means
+				case alt:
+					return l.uAlt
+				}
+				return l.uCur
+			}
+		}
+		switch {
+		case ok1 && ok2:
+			add("electron temperature of the tables", half(shiftOf2(teMeans(true), teMeans(false))))
+		case ok1:
+			add("electron temperature of the tables", shiftOf(teMeans(true)))
+		case ok2:
+			add("electron temperature of the tables", shiftOf(teMeans(false)))
+		}
 	}
-	// Back to the solution: the pixel means and their derivatives (the
-	// grid's masses are rebuilt by the next evaluation).
+	// Back to the solution: the shapes (the grid's masses are rebuilt by
+	// the next evaluation; the pixel means were not changed).
 	for k, l := range f.lines {
-		copy(l.u, saved[k])
-		copy(l.du, savedDu[k])
-		copy(l.dn, savedDn[k])
-		g, tg := f.lineInst(l, th)
-		_, _, _ = f.lineShape(l, th[pr.iNe], g, tg)
+		st := &shapes[k]
+		l.shp, l.held, l.extra2, l.clampGap2, l.kL = st.shp, st.held, st.extra2, st.clampGap2, st.kL
 	}
 	// Accuracy of the line widths the model takes from the tables (or a
 	// relation), in two parts: one common to every line (a reading of

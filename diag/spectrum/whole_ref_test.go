@@ -3,6 +3,7 @@ package spectrum
 import (
 	"bytes"
 	"encoding/json"
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -557,5 +558,470 @@ func TestWholeFastPaths(t *testing.T) {
 		if !bytes.Equal(a, b) {
 			t.Errorf("case %d: the whole fit differs with the general loops", k)
 		}
+	}
+}
+
+// TestWholeHalvesBatch: wline.halves (the base shape at all the grid's
+// half edges and wing nodes at once, through sh99's batch forms) gives
+// wline.half's v, p and dv bit for bit, with and without the ln n_e
+// derivative, for tabulated lines at and between nodes, held at the
+// tables' edge, at a shifted T_e (four corners) and for the Voigt
+// fallback.
+func TestWholeHalvesBatch(t *testing.T) {
+	var nSH, nHeld, nVoigt int
+	for _, c := range earlyStopCases(t)[8:] {
+		for _, shape := range []string{"", LineShapeVoigt} {
+			opt := c.opt
+			opt.LineShape = shape
+			if shape != "" {
+				opt.Conditions.ElectronTemperatureK = 3000
+			}
+			p := NewPipeline(4096)
+			if _, err := p.Analyze(c.sp, opt); err != nil {
+				t.Fatal(err)
+			}
+			f := p.wfit
+			if f == nil || len(f.lines) == 0 {
+				continue
+			}
+			th := f.th
+			for _, l := range f.lines {
+				gi, tg := f.lineInst(l, th)
+				for _, mv := range []struct{ dln, te float64 }{{0, 1}, {math.Log(1.37), 1}, {-12, 1}, {0, 1.9}} {
+					save := f.te
+					f.te *= mv.te
+					_, _, err := f.lineShape(l, th[f.par.iNe]+mv.dln, gi, tg)
+					f.te = save
+					if err != nil {
+						continue
+					}
+					for _, deriv := range []bool{true, false} {
+						l.halves(deriv)
+						for k, d := range l.hd {
+							v, p, dv := l.half(d, deriv)
+							if math.Float64bits(v) != math.Float64bits(l.hv[k]) || math.Float64bits(p) != math.Float64bits(l.hp[k]) || math.Float64bits(dv) != math.Float64bits(l.hdv[k]) {
+								t.Fatalf("%s d=%g deriv %v: halves (%v %v %v), half (%v %v %v)", l.t.Name(), d, deriv, l.hv[k], l.hp[k], l.hdv[k], v, p, dv)
+							}
+						}
+						switch {
+						case !l.shapeSH:
+							nVoigt++
+						case l.held:
+							nHeld++
+						default:
+							nSH++
+						}
+					}
+				}
+			}
+		}
+	}
+	if nSH == 0 || nHeld == 0 || nVoigt == 0 {
+		t.Fatalf("not covered: %d tabulated, %d held, %d Voigt fallback", nSH, nHeld, nVoigt)
+	}
+}
+
+// TestWholeTeShiftPair: densitySys' electron-temperature part from both
+// signs' grids and one pixel pass for both (stashGrid, pixelsPair) is
+// the general form's (each sign's lines evaluated in full by evalLine,
+// wholeFitter.generic) bit for bit, with every σ part of n_e and T_exc
+// and the rest of the whole fit: with T_e at its default (factor-2 σ),
+// given, and with the tables standing in at a nearby temperature node,
+// where both shifts are covered and where one of them leaves the tables.
+func TestWholeTeShiftPair(t *testing.T) {
+	cases := earlyStopCases(t)
+	x := linspace(474, 498, 1024)
+	y, _, err := SynthesizeStark(SynthConfig{WavelengthNM: x, Uppers: []int{4}, ExcitationTemperatureK: 8000,
+		ElectronDensityM3: 2.5e22, ElectronTemperatureK: 10000, GasTemperatureK: 2000, InstrumentFWHMNM: 0.06,
+		HalphaArea: 5e7, BaselinePerNM: 200})
+	if err != nil {
+		t.Fatal(err)
+	}
+	cases = append(cases, earlyStopCase{&Spectrum{Name: "standin", WavelengthNM: x, Counts: y},
+		Options{Model: ModelWhole, Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.06, GasTemperatureK: 2000, ElectronTemperatureK: 8000}}})
+	var both, one, none int
+	for k, c := range cases {
+		for _, te := range []float64{0, 5000, 30000} {
+			opt := c.opt
+			if te > 0 && opt.Conditions.ElectronTemperatureK == 0 {
+				opt.Conditions.ElectronTemperatureK = te
+			}
+			p := NewPipeline(4096)
+			res, err := p.Analyze(c.sp, opt)
+			if err != nil {
+				t.Fatal(err)
+			}
+			q := NewPipeline(4096)
+			q.wfit = &wholeFitter{generic: true}
+			ref, err := q.Analyze(c.sp, opt)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if res.Whole == nil || ref.Whole == nil {
+				if (res.Whole == nil) != (ref.Whole == nil) {
+					t.Errorf("case %d T_e %g: a whole fit on one side only", k, te)
+				}
+				continue
+			}
+			if p.wfit.teOK != q.wfit.teOK {
+				t.Errorf("case %d T_e %g: T_e shifts covered %v, general form %v", k, te, p.wfit.teOK, q.wfit.teOK)
+			}
+			switch ok := p.wfit.teOK; {
+			case ok[0] && ok[1]:
+				both++
+			case ok[0] || ok[1]:
+				one++
+			default:
+				none++
+			}
+			same := func(what string, a, b []diag.UncPart) {
+				if len(a) != len(b) {
+					t.Errorf("case %d T_e %g: %s: %d parts, general form %d", k, te, what, len(a), len(b))
+					return
+				}
+				for i := range a {
+					if a[i].Name != b[i].Name || math.Float64bits(a[i].Sigma) != math.Float64bits(b[i].Sigma) {
+						t.Errorf("case %d T_e %g: %s part %q %v, general form %q %v", k, te, what, a[i].Name, a[i].Sigma, b[i].Name, b[i].Sigma)
+					}
+				}
+			}
+			same("n_e", res.Whole.ElectronDensityUncParts, ref.Whole.ElectronDensityUncParts)
+			same("T_exc", res.Whole.ExcitationTemperatureUncParts, ref.Whole.ExcitationTemperatureUncParts)
+			a, _ := json.Marshal(res.Whole)
+			b, _ := json.Marshal(ref.Whole)
+			if !bytes.Equal(a, b) {
+				t.Errorf("case %d T_e %g: the whole fit differs from the general form's", k, te)
+			}
+		}
+	}
+	t.Logf("T_e shifts: both covered %d, one %d, none %d", both, one, none)
+	if both == 0 || one == 0 {
+		t.Fatalf("not covered: both shifts in the tables %d, one %d", both, one)
+	}
+}
+
+// TestWholeKernelKept: a line's kernel, kept from its last call when the
+// widths and grid repeat, is the one computed afresh (kernelNew) bit for
+// bit, through a sequence of repeated and changed Gaussian and
+// Lorentzian widths, an identity kernel and a changed grid step.
+func TestWholeKernelKept(t *testing.T) {
+	c := earlyStopCases(t)[8]
+	p := NewPipeline(4096)
+	if _, err := p.Analyze(c.sp, c.opt); err != nil {
+		t.Fatal(err)
+	}
+	l := p.wfit.lines[0]
+	h := l.h
+	var kept int
+	for i, a := range []struct{ gF, lF, h float64 }{{0.3, 0, h}, {0.3, 0, h}, {0.31, 0, h}, {0.31, 0.1 * h, h}, {0.31, 0.1 * h, h},
+		{0.01 * h, 0, h}, {0.01 * h, 0, h}, {0.3 * h, 0, h}, {0.3, 0, h}, {0.3, 0, 1.1 * h}, {0.3, 0, 1.1 * h}} {
+		l.h = a.h
+		was := l.kc
+		k1, r1, ok1 := l.kernel(a.gF, a.lF)
+		if was.valid && was.gF == a.gF && was.lF == a.lF && was.h == a.h {
+			kept++
+		}
+		k1 = append([]float64(nil), k1...)
+		k2, r2, ok2 := l.kernelNew(a.gF, a.lF)
+		if r1 != r2 || ok1 != ok2 || len(k1) != len(k2) {
+			t.Fatalf("call %d: kept kernel r %d ok %v (%d weights), afresh r %d ok %v (%d)", i, r1, ok1, len(k1), r2, ok2, len(k2))
+		}
+		for j := range k1 {
+			if math.Float64bits(k1[j]) != math.Float64bits(k2[j]) {
+				t.Fatalf("call %d: weight %d %v, afresh %v", i, j, k1[j], k2[j])
+			}
+		}
+	}
+	l.h = h
+	if kept < 4 {
+		t.Fatalf("only %d calls found their kernel kept", kept)
+	}
+}
+
+// TestWholePixelsStretches: pixels with derivatives in three stretches
+// (left of the grid, on it, right of it, edgeEval.at's branches inlined)
+// gives the pixel means and their offset and ln n_e derivatives of the
+// general loop (wholeFitter.generic, at for every edge) bit for bit, for
+// tabulated lines at and away from the fit, held, Voigt fallbacks, and
+// pixels whose lower edge is not the previous pixel's upper edge
+// (masked pixels of a saturated line, a gap in the data).
+func TestWholePixelsStretches(t *testing.T) {
+	var nPix, nLeft, nRight, nGap int
+	for _, c := range earlyStopCases(t)[7:] {
+		for _, shape := range []string{"", LineShapeVoigt} {
+			opt := c.opt
+			opt.LineShape = shape
+			sp := *c.sp
+			sp.Counts = append([]float64(nil), c.sp.Counts...)
+			opt.SaturationCounts = 1e9
+			for i := 640; i < 643; i++ {
+				sp.Counts[i] = 1e9 // saturated pixels: a gap
+			}
+			p := NewPipeline(4096)
+			if _, err := p.Analyze(&sp, opt); err != nil {
+				t.Fatal(err)
+			}
+			f := p.wfit
+			if f == nil || len(f.lines) == 0 || len(f.x) == 0 {
+				continue
+			}
+			th := f.th
+			for _, l := range f.lines {
+				gi, tg := f.lineInst(l, th)
+				for _, mv := range []struct{ dln, doff float64 }{{0, 0}, {0.3, 0.02}, {-12, -0.05}} {
+					if err := f.evalGrid(l, th[f.par.iNe]+mv.dln, gi, tg, true); err != nil {
+						continue
+					}
+					off := th[f.par.iOff] + mv.doff
+					f.generic = true
+					f.pixels(l, off, true)
+					ru, rdu, rdn := append([]float64(nil), l.u...), append([]float64(nil), l.du...), append([]float64(nil), l.dn...)
+					f.generic = false
+					f.pixels(l, off, true)
+					for i := range ru {
+						if math.Float64bits(ru[i]) != math.Float64bits(l.u[i]) || math.Float64bits(rdu[i]) != math.Float64bits(l.du[i]) || math.Float64bits(rdn[i]) != math.Float64bits(l.dn[i]) {
+							t.Fatalf("%s pixel %d: (%v %v %v), general loop (%v %v %v)", l.t.Name(), i, l.u[i], l.du[i], l.dn[i], ru[i], rdu[i], rdn[i])
+						}
+					}
+					e0 := -(float64(l.m) + 0.5) * l.h
+					ctr := l.center + off
+					for i := l.plo; i < l.phi; i++ {
+						switch {
+						case f.b[i]-ctr < e0:
+							nLeft++
+						case f.b[i]-ctr > -e0:
+							nRight++
+						}
+						if i > l.plo && f.a[i] != f.b[i-1] {
+							nGap++
+						}
+					}
+					nPix += l.phi - l.plo
+				}
+			}
+		}
+	}
+	if nPix == 0 || nLeft == 0 || nRight == 0 || nGap == 0 {
+		t.Fatalf("not covered: %d pixels, %d left of the grid, %d right, %d after a gap", nPix, nLeft, nRight, nGap)
+	}
+}
+
+// TestWholeConvolvePairs: convolve computing two outputs at a time where
+// the kernel lies inside the grid gives the broadened masses, their
+// ln n_e derivatives and the broadened edge densities of the one-at-a-
+// time loop (wholeFitter.generic) bit for bit, with and without deriv,
+// for kernels of 3 weights to ones reaching past the grid's half
+// (Gaussian, Voigt).
+func TestWholeConvolvePairs(t *testing.T) {
+	c := earlyStopCases(t)[8]
+	p := NewPipeline(4096)
+	if _, err := p.Analyze(c.sp, c.opt); err != nil {
+		t.Fatal(err)
+	}
+	f := p.wfit
+	var nPair, nWide int
+	for _, l := range f.lines {
+		gi, tg := f.lineInst(l, f.th)
+		if err := f.evalGrid(l, f.th[f.par.iNe], gi, tg, true); err != nil {
+			t.Fatal(err)
+		}
+		nb := 2*l.m + 1
+		for _, w := range []struct{ g, lo float64 }{{0.03 * l.h, 0}, {0.5 * l.h, 0}, {3 * l.h, 0}, {20 * l.h, 0}, {3 * l.h, 0.5 * l.h}, {300 * l.h, 0}} {
+			for _, deriv := range []bool{true, false} {
+				for i := range nb {
+					l.q[i], l.dq[i], l.pq[i] = 0, 0, 0
+				}
+				f.generic = true
+				f.convolve(l, w.g, w.lo, deriv)
+				rq, rdq, rpq := append([]float64(nil), l.q[:nb]...), append([]float64(nil), l.dq[:nb]...), append([]float64(nil), l.pq[:nb+1]...)
+				f.generic = false
+				f.convolve(l, w.g, w.lo, deriv)
+				for i := range rpq {
+					bad := math.Float64bits(rpq[i]) != math.Float64bits(l.pq[i])
+					if i < nb {
+						bad = bad || math.Float64bits(rq[i]) != math.Float64bits(l.q[i]) || math.Float64bits(rdq[i]) != math.Float64bits(l.dq[i])
+					}
+					if bad {
+						t.Fatalf("%s kernel %+v deriv %v: index %d differs from the one-at-a-time loop", l.t.Name(), w, deriv, i)
+					}
+				}
+				if _, r, ok := l.kernel(w.g, w.lo); ok && r > 1 && r < l.m {
+					nPair++
+				} else if ok && r >= l.m {
+					nWide++
+				}
+			}
+		}
+	}
+	if nPair == 0 || nWide == 0 {
+		t.Fatalf("not covered: %d kernels inside the grid, %d reaching past its half", nPair, nWide)
+	}
+}
+
+// TestWholeBaselineSums: the baseline's Legendre values built order by
+// order, baseBlocks without its padding sums and linearAreas' unrolled
+// cubic baseline give what the pixel-by-pixel recurrence, the padded
+// sums and the general loop give (written out here as they were), bit
+// for bit, for linear to cubic baselines.
+func TestWholeBaselineSums(t *testing.T) {
+	orders := map[int]int{}
+	for k, c := range earlyStopCases(t) {
+		p := NewPipeline(4096)
+		if _, err := p.Analyze(c.sp, c.opt); err != nil {
+			t.Fatal(err)
+		}
+		f := p.wfit
+		if f == nil || len(f.x) == 0 {
+			continue
+		}
+		pr := f.par
+		nB, n := pr.nBase, len(f.x)
+		orders[nB]++
+		same := func(what string, got, want float64) {
+			if math.Float64bits(got) != math.Float64bits(want) {
+				t.Fatalf("case %d (%d baseline terms): %s %v, as it was %v", k, nB, what, got, want)
+			}
+		}
+		// The recurrence pixel by pixel.
+		for i, v := range f.x {
+			tt := (v - pr.lamMid) / pr.lamHalf
+			leg := []float64{1, tt}
+			for j := 2; j < nB; j++ {
+				leg = append(leg, (float64(2*j-1)*tt*leg[j-1]-float64(j-1)*leg[j-2])/float64(j))
+			}
+			for j := range nB {
+				same(fmt.Sprintf("Legendre %d at pixel %d", j, i), f.leg[j][i], leg[j])
+			}
+		}
+		// baseBlocks with four sums at a time (padding rows: leg[0]).
+		f.baseOK = false
+		f.baseBlocks()
+		row := func(b int) []float64 {
+			if b < nB {
+				return f.leg[b][:n]
+			}
+			return f.leg[0][:n]
+		}
+		wt := f.wbuf[:n]
+		for a := range nB {
+			var s [4]float64
+			var sg float64
+			var sl [4]float64
+			for i := range n {
+				x := f.leg[a][i] * wt[i]
+				v := f.leg[a][i]
+				sg += v * f.y[i] * wt[i]
+				for q := range 4 {
+					s[q] += x * row(a + q)[i]
+					sl[q] += v * row(a + q)[i] * wt[i]
+				}
+			}
+			same("linBaseG", f.linBaseG[a], sg)
+			for q := range 4 {
+				if a+q < nB {
+					same("normBase", f.normBase[a*nB+a+q], s[q])
+					same("linBase", f.linBase[a*nB+a+q], sl[q])
+				}
+			}
+		}
+		// linearAreas' χ² from the baseline summed in the general loop.
+		_, _, chi2, ok := f.linearAreas()
+		if !ok {
+			t.Fatalf("case %d: linear fit singular", k)
+		}
+		nl := len(f.lines)
+		var want float64
+		mod := make([]float64, n)
+		for i := range mod {
+			var m float64
+			for b := range nB {
+				m += f.linSol[nl+b] * f.leg[b][i]
+			}
+			mod[i] = m
+		}
+		for a, l := range f.lines {
+			for i := l.plo; i < l.phi; i++ {
+				mod[i] += f.linSol[a] * l.u[i-l.plo]
+			}
+		}
+		for i := range mod {
+			r := (f.y[i] - mod[i]) / f.s[i]
+			want += r * r
+		}
+		same("linearAreas χ²", chi2, want)
+	}
+	if orders[4] == 0 || len(orders) < 2 {
+		t.Fatalf("baselines covered: %v", orders)
+	}
+}
+
+// TestWholePixelsPair: pixelsPair gives, for the state stashGrid kept and
+// the current one, the pixel means pixels gives from each, bit for bit:
+// tabulated lines at T_e moved up and down (as densitySys moves them),
+// Voigt fallbacks at two densities, with pixels whose lower edge is not
+// the previous pixel's upper edge (saturated pixels left out).
+func TestWholePixelsPair(t *testing.T) {
+	var n, nGap int
+	for _, c := range earlyStopCases(t)[7:] {
+		for _, shape := range []string{"", LineShapeVoigt} {
+			opt := c.opt
+			opt.LineShape = shape
+			sp := *c.sp
+			sp.Counts = append([]float64(nil), c.sp.Counts...)
+			opt.SaturationCounts = 1e9
+			for i := 640; i < 643; i++ {
+				sp.Counts[i] = 1e9
+			}
+			p := NewPipeline(4096)
+			if _, err := p.Analyze(&sp, opt); err != nil {
+				t.Fatal(err)
+			}
+			f := p.wfit
+			if f == nil || len(f.lines) == 0 || len(f.x) == 0 {
+				continue
+			}
+			th := f.th
+			off := th[f.par.iOff]
+			for _, l := range f.lines {
+				gi, tg := f.lineInst(l, th)
+				state := func(k int) bool {
+					dln := 0.0
+					if l.shapeSH {
+						f.teSign = float64(2*k - 1)
+					} else {
+						dln = 0.2 * float64(k)
+					}
+					err := f.evalGrid(l, th[f.par.iNe]+dln, gi, tg, false)
+					f.teSign = 0
+					return err == nil
+				}
+				if !state(0) {
+					continue
+				}
+				f.pixels(l, off, false)
+				want1 := append([]float64(nil), l.u...)
+				l.stashGrid()
+				if !state(1) {
+					continue
+				}
+				f.pixels(l, off, false)
+				want2 := append([]float64(nil), l.u...)
+				f.pixelsPair(l, off)
+				for i := range want1 {
+					if math.Float64bits(l.uAlt[i]) != math.Float64bits(want1[i]) || math.Float64bits(l.uCur[i]) != math.Float64bits(want2[i]) {
+						t.Fatalf("%s pixel %d: pair (%v %v), pixels (%v %v)", l.t.Name(), i, l.uAlt[i], l.uCur[i], want1[i], want2[i])
+					}
+				}
+				for i := l.plo + 1; i < l.phi; i++ {
+					if f.a[i] != f.b[i-1] {
+						nGap++
+					}
+				}
+				n++
+			}
+		}
+	}
+	if n == 0 || nGap == 0 {
+		t.Fatalf("not covered: %d lines, %d pixels after a gap", n, nGap)
 	}
 }
