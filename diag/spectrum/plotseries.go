@@ -222,11 +222,94 @@ func sameBits(a, b []float64) bool {
 func zigzag(v int64) uint64   { return uint64(v<<1) ^ uint64(v>>63) }
 func unzigzag(u uint64) int64 { return int64(u>>1) ^ -int64(u&1) }
 
+// seriesExp is, for one binary exponent of a float64, the decimal
+// exponent of its values: e10 for values below thr (float64 bits of
+// 10^(e10+1), rounded), e10+1 from thr on. ⌊log₁₀ a⌋ takes at most two
+// values over a binade; the table gives it with one comparison, which the
+// compiler makes a conditional move (the loop of plotDigits branched on
+// it, and noisy data made that branch unpredictable). A guess that is
+// wrong (10^n not exact in float64, a rounded product) is caught by
+// seriesDigitsChunk's range check.
+type seriesExp struct {
+	thr uint64
+	e10 int64
+}
+
+// seriesExps holds seriesExp by biased binary exponent (the float64
+// bits >> 52 of |v|). Exponents whose values plotDigits refuses or
+// divides for (outside [1e-15, 1e8)) get an e10 that sends
+// seriesDigitsChunk to plotDigits.
+var seriesExps = func() (t [2048]seriesExp) {
+	for be := range t {
+		t[be] = seriesExp{thr: math.MaxUint64, e10: 1 << 20}
+		if be == 0 || be == 2047 {
+			continue // zeros, subnormals; ±Inf, NaN
+		}
+		lo := math.Float64frombits(uint64(be) << 52) // 2^(be−1023)
+		e10 := int(math.Floor(math.Log10(lo)))
+		if p, _ := strconv.ParseFloat("1e"+strconv.Itoa(e10), 64); lo < p {
+			e10-- // Log10 rounded up
+		} else if p, _ := strconv.ParseFloat("1e"+strconv.Itoa(e10+1), 64); lo >= p {
+			e10++ // rounded down
+		}
+		if e10 < -15 || e10 > 8 { // plotDigits refuses a binade that begins below 1e-15
+			continue
+		}
+		thr, _ := strconv.ParseFloat("1e"+strconv.Itoa(e10+1), 64)
+		t[be] = seriesExp{thr: math.Float64bits(thr), e10: int64(e10)}
+	}
+	return t
+}()
+
+// seriesDigitsChunk sets digits[j] to plotDigits' answer for chunk[j]
+// (m and e10, or e10 noDigits where it refuses), faster for the values of
+// plot series ([1e-15, 1e8)): the decimal exponent from seriesExps, one
+// product with an exact power of ten, and no branch that depends on the
+// data but for the rare values left to plotDigits itself. As in
+// plotDigits, the digits of a correctly rounded product x with an exact
+// power of ten are those of the value unless the ninth digit and beyond
+// are within 1e-6 of one half; a product in [1e7, 1e8) is the one
+// plotDigits ends with (one power of ten puts it there), so the answer
+// is plotDigits' whenever the fast path gives one. Values outside that
+// range (zeros, NaN, ±Inf, magnitudes plotDigits refuses or divides
+// for, a guess of the exponent that missed), near-ties, and a rounding
+// that carries into 10⁸ go to plotDigits.
+func seriesDigitsChunk(digits *[seriesChunk]plotDigitsOf, chunk []float64) {
+	for j, w := range chunk {
+		bits := math.Float64bits(w) &^ (1 << 63)
+		t := &seriesExps[bits>>52]
+		e := t.e10
+		if bits >= t.thr {
+			e++
+		}
+		k := uint64(7 - e)
+		x := 0.0
+		if k < uint64(len(plotPow10)) {
+			x = math.Float64frombits(bits) * plotPow10[k]
+		}
+		mi := int64(x) // x < 1e9 here or refused below: one instruction
+		frac := x - float64(mi)
+		if frac > 0.5 {
+			mi++
+		}
+		if !(x >= 1e7 && mi < 1e8) || math.Abs(frac-0.5) < 1e-6 {
+			m, e10, ok := plotDigits(w)
+			if !ok {
+				e10 = noDigits
+			}
+			digits[j] = plotDigitsOf{m, e10}
+			continue
+		}
+		digits[j] = plotDigitsOf{uint64(mi), int(e)}
+	}
+}
+
 // seriesChunk is the number of values whose digits appendSeriesValues
 // finds in one pass before it writes them.
 const seriesChunk = 256
 
-// plotDigitsOf holds plotDigits' answer for one value (ok: e10 ≠ noDigits).
+// plotDigitsOf holds plotDigits' answer for one value (ok: e10 ≠
+// noDigits).
 type plotDigitsOf struct {
 	m   uint64
 	e10 int
@@ -237,62 +320,58 @@ const noDigits = math.MinInt
 
 // appendSeriesValues appends one series' length and values to b, and
 // with withText its JSON text (as appendPlotFloats writes it) to text.
-// The digits of a chunk of values are found first, in a loop whose
-// rounds do not wait for each other (plotDigits is a chain of dependent
-// floating-point steps that the writing of the bytes, which depends on
-// them, kept the processor from overlapping), then written.
+// The digits of a chunk of values are found first (seriesDigitsChunk),
+// in a loop whose rounds do not wait for each other (the digits are a
+// chain of dependent floating-point steps that the writing of the bytes,
+// which depends on them, kept the processor from overlapping), then
+// written. b is grown once for the worst case (13 bytes a value).
 func appendSeriesValues(b, text []byte, withText bool, p []float64) ([]byte, []byte) {
 	b = binary.AppendUvarint(b, uint64(len(p)))
+	b = slices.Grow(b, 13*len(p))
 	if withText {
 		text = append(text, '[')
 	}
 	var prevS int64
 	prevE := 0
 	var digits [seriesChunk]plotDigitsOf
-	for i, v := range p {
-		k := i % seriesChunk
-		if k == 0 {
-			for j, w := range p[i:min(i+seriesChunk, len(p))] {
-				m, e10, ok := plotDigits(w)
-				if !ok {
-					e10 = noDigits
-				}
-				digits[j] = plotDigitsOf{m, e10}
+	for i := 0; i < len(p); i += seriesChunk {
+		chunk := p[i:min(i+seriesChunk, len(p))]
+		seriesDigitsChunk(&digits, chunk)
+		for j, v := range chunk {
+			if withText && i+j > 0 {
+				text = append(text, ',')
 			}
-		}
-		if withText && i > 0 {
-			text = append(text, ',')
-		}
-		m, e10 := digits[k].m, digits[k].e10
-		if e10 == noDigits {
-			if math.IsNaN(v) || math.IsInf(v, 0) {
-				b = append(b, 2)
+			m, e10 := digits[j].m, digits[j].e10
+			if e10 == noDigits {
+				if math.IsNaN(v) || math.IsInf(v, 0) {
+					b = append(b, 2)
+					if withText {
+						text = append(text, "null"...)
+					}
+					continue
+				}
+				b = append(b, 3)
+				b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
 				if withText {
-					text = append(text, "null"...)
+					text = strconv.AppendFloat(text, v, 'g', 8, 64)
 				}
 				continue
 			}
-			b = append(b, 3)
-			b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
-			if withText {
-				text = strconv.AppendFloat(text, v, 'g', 8, 64)
+			s := int64(m)
+			if v < 0 {
+				s = -s
 			}
-			continue
-		}
-		s := int64(m)
-		if v < 0 {
-			s = -s
-		}
-		if e10 == prevE {
-			b = binary.AppendUvarint(b, zigzag(s-prevS)<<2)
-		} else {
-			b = binary.AppendUvarint(b, zigzag(int64(e10-prevE))<<2|1)
-			b = binary.AppendUvarint(b, zigzag(s))
-			prevE = e10
-		}
-		prevS = s
-		if withText {
-			text = appendDigits8(text, v < 0, m, e10)
+			if e10 == prevE {
+				b = binary.AppendUvarint(b, zigzag(s-prevS)<<2)
+			} else {
+				b = binary.AppendUvarint(b, zigzag(int64(e10-prevE))<<2|1)
+				b = binary.AppendUvarint(b, zigzag(s))
+				prevE = e10
+			}
+			prevS = s
+			if withText {
+				text = appendDigits8(text, v < 0, m, e10)
+			}
 		}
 	}
 	if withText {

@@ -2,6 +2,7 @@ package spectrum
 
 import (
 	"bytes"
+	"encoding/binary"
 	"fmt"
 	"math"
 	"math/rand/v2"
@@ -325,4 +326,189 @@ func BenchmarkAppendJSONSplit(b *testing.B) {
 			}
 		}
 	})
+}
+
+// BenchmarkSeriesValues: the series form of a whole-route result's plot
+// series (every window's and the whole fit's, the grid memo aside), and
+// with their JSON text beside.
+func BenchmarkSeriesValues(b *testing.B) {
+	res := benchWholeResult(b)
+	var list [][]float64
+	for _, w := range res.Windows {
+		list = append(list, w.WavelengthNM, w.Data, w.Model, w.Residual)
+	}
+	list = append(list, res.Whole.WavelengthNM, res.Whole.Data, res.Whole.Model, res.Whole.Residual)
+	nv := 0
+	for _, p := range list {
+		nv += len(p)
+	}
+	for _, withText := range []bool{false, true} {
+		b.Run(fmt.Sprintf("text=%v", withText), func(b *testing.B) {
+			var form, text []byte
+			for b.Loop() {
+				form, text = form[:0], text[:0]
+				for _, p := range list {
+					form, text = appendSeriesValues(form, text, withText, p)
+				}
+			}
+			b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N*nv), "ns/value")
+		})
+	}
+}
+
+// digitsTestValues are values for the digit tests: random bit patterns
+// (every magnitude), values spread over the magnitudes of plot series,
+// the rounding ties of the eighth digit, their neighbours and values
+// about the 1e-6 of a digit from them that plotDigits refuses, powers of
+// ten and their neighbours (the decade boundaries the exponent table
+// guesses across), values that carry into the next decade, small
+// integers and their fractions, negatives, zeros, NaN and ±Inf.
+func digitsTestValues() []float64 {
+	r := rand.New(rand.NewPCG(81, 2026))
+	var vs []float64
+	for range 100000 {
+		vs = append(vs, math.Float64frombits(r.Uint64()))
+	}
+	for range 200000 {
+		vs = append(vs, (r.Float64()-0.3)*math.Pow(10, float64(r.IntN(36)-18)))
+	}
+	for e := -17; e <= 23; e++ {
+		p := math.Pow(10, float64(e))
+		for range 2000 {
+			m := float64(10000000 + r.IntN(90000000))
+			v := (m + 0.5) * p / 1e8
+			vs = append(vs, v, math.Nextafter(v, 0), math.Nextafter(v, math.Inf(1)), -v)
+			for _, d := range []float64{2e-7, 5e-7, 9e-7, 1.1e-6, 3e-6} { // near the refusal's edge
+				vs = append(vs, (m+0.5+d)*p/1e8, (m+0.5-d)*p/1e8)
+			}
+		}
+		for _, v := range []float64{p, math.Nextafter(p, 0), math.Nextafter(p, math.Inf(1)), 9.99999995 * p, 9.999999949 * p,
+			9.99999996 * p, 9.9999999999 * p, 1.0000000001 * p} {
+			vs = append(vs, v, -v)
+		}
+	}
+	for be := 1; be < 2047; be++ { // each binade's ends
+		lo := math.Float64frombits(uint64(be) << 52)
+		vs = append(vs, lo, math.Nextafter(lo, 0), -lo)
+	}
+	for i := -20000; i <= 20000; i++ {
+		vs = append(vs, float64(i), float64(i)/8, float64(i)*1e-3)
+	}
+	return append(vs, 0, math.Copysign(0, -1), 5e-324, math.MaxFloat64, -math.MaxFloat64, math.NaN(), math.Inf(1), math.Inf(-1),
+		1e-15, math.Nextafter(1e-15, 0), 1e8, math.Nextafter(1e8, 0), 99999999.5, 99999999.49999, 1e21, 1e22)
+}
+
+// TestSeriesDigitsChunk: the fast digits of the series form are
+// plotDigits' answer for every value (the same digits, or the same
+// refusal), so the series form is what it was with plotDigits, and
+// ExpandSeries (which writes the digits with appendDigits8 and refused
+// values with appendFloat8) gives AppendJSON's text.
+func TestSeriesDigitsChunk(t *testing.T) {
+	vs := digitsTestValues()
+	var digits [seriesChunk]plotDigitsOf
+	fast := 0
+	for i := 0; i < len(vs); i += seriesChunk {
+		chunk := vs[i:min(i+seriesChunk, len(vs))]
+		seriesDigitsChunk(&digits, chunk)
+		for j, v := range chunk {
+			m, e10, ok := plotDigits(v)
+			if !ok {
+				e10, m = noDigits, digits[j].m
+			}
+			if digits[j] != (plotDigitsOf{m, e10}) {
+				t.Fatalf("%v (bits %#x): seriesDigitsChunk %+v, plotDigits %d %d %v", v, math.Float64bits(v), digits[j], m, e10, ok)
+			}
+			if ok {
+				fast++
+			}
+		}
+	}
+	if fast < len(vs)/3 {
+		t.Fatalf("only %d of %d values have digits", fast, len(vs))
+	}
+}
+
+// appendSeriesValuesRef is the series form as first written (the digits
+// of each value from plotDigits, binary.AppendUvarint): the reference of
+// TestSeriesFormUnchanged.
+func appendSeriesValuesRef(b []byte, p []float64) []byte {
+	b = binary.AppendUvarint(b, uint64(len(p)))
+	var prevS int64
+	prevE := 0
+	for _, v := range p {
+		m, e10, ok := plotDigits(v)
+		if !ok {
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				b = append(b, 2)
+				continue
+			}
+			b = append(b, 3)
+			b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
+			continue
+		}
+		s := int64(m)
+		if v < 0 {
+			s = -s
+		}
+		if e10 == prevE {
+			b = binary.AppendUvarint(b, zigzag(s-prevS)<<2)
+		} else {
+			b = binary.AppendUvarint(b, zigzag(int64(e10-prevE))<<2|1)
+			b = binary.AppendUvarint(b, zigzag(s))
+			prevE = e10
+		}
+		prevS = s
+	}
+	return b
+}
+
+// TestSeriesFormUnchanged: appendSeriesValues writes the series form of
+// appendSeriesValuesRef byte for byte, and the text of appendPlotFloats,
+// for the digit test values cut into series of many lengths (chunk
+// boundaries included) and for the plot series of a real whole-route
+// result.
+func TestSeriesFormUnchanged(t *testing.T) {
+	vs := digitsTestValues()
+	var list [][]float64
+	for i, n := 0, 0; i < len(vs); i, n = i+n, n*7%1031+1 {
+		list = append(list, vs[i:min(i+n, len(vs))])
+	}
+	for _, n := range []int{seriesChunk - 1, seriesChunk, seriesChunk + 1, 3*seriesChunk + 5} {
+		list = append(list, vs[1000:1000+n])
+	}
+	grid := make([]float64, 2048)
+	for i := range grid {
+		grid[i] = 380 + 320*float64(i)/2047
+	}
+	y, _, err := SynthesizeStark(SynthConfig{WavelengthNM: grid, Uppers: []int{3, 4, 5, 6, 7},
+		ExcitationTemperatureK: 7000, ElectronDensityM3: 3e21, GasTemperatureK: 1000, InstrumentFWHMNM: 0.35, HalphaArea: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	rng := rand.New(rand.NewPCG(9, 7))
+	for i := range y {
+		y[i] = y[i]*1e5 + 50 + 3*rng.NormFloat64()
+	}
+	res, err := NewPipeline(8192).Analyze(&Spectrum{Name: "stark.csv", WavelengthNM: grid, Counts: y},
+		Options{KeepWindows: true, Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.35, GasTemperatureK: 1000}})
+	if err != nil || res.Whole == nil || len(res.Windows) == 0 {
+		t.Fatalf("no whole fit with windows: %v", err)
+	}
+	for _, w := range res.Windows {
+		list = append(list, w.WavelengthNM, w.Data, w.Model, w.Residual)
+	}
+	list = append(list, res.Whole.WavelengthNM, res.Whole.Data, res.Whole.Model, res.Whole.Residual)
+	for k, p := range list {
+		want := appendSeriesValuesRef([]byte("x"), p)
+		got, text := appendSeriesValues([]byte("x"), []byte("y"), true, p)
+		if !bytes.Equal(got, want) {
+			t.Fatalf("series %d (%d values): form differs from the reference", k, len(p))
+		}
+		if wantText := appendPlotFloats([]byte("y"), p); !bytes.Equal(text, wantText) {
+			t.Fatalf("series %d (%d values): text differs from appendPlotFloats", k, len(p))
+		}
+		if got2, _ := appendSeriesValues([]byte("x"), nil, false, p); !bytes.Equal(got2, want) {
+			t.Fatalf("series %d (%d values): form without text differs", k, len(p))
+		}
+	}
 }
