@@ -324,10 +324,9 @@ const noDigits = math.MinInt
 // in a loop whose rounds do not wait for each other (the digits are a
 // chain of dependent floating-point steps that the writing of the bytes,
 // which depends on them, kept the processor from overlapping), then
-// written. b is grown once for the worst case (13 bytes a value).
+// written.
 func appendSeriesValues(b, text []byte, withText bool, p []float64) ([]byte, []byte) {
 	b = binary.AppendUvarint(b, uint64(len(p)))
-	b = slices.Grow(b, 13*len(p))
 	if withText {
 		text = append(text, '[')
 	}
