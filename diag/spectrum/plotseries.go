@@ -20,14 +20,23 @@ import (
 // text has (eight significant digits, plotDigits), not recomputed, and
 // written by the same code (appendDigits8) as AppendJSON writes them.
 //
-// The binary form ("series"): the magic bytes 'G' 'S' 1, the number of
-// series (uvarint), then per series its length (uvarint) and its values,
-// in the order of the placeholders in the JSON (AppendJSONSplit makes
-// sure the JSON holds no other "[null]"), each value one uvarint u:
+// The binary form ("series"): the magic bytes 'G' 'S' and the format
+// version (1 or 2), the number of series (uvarint), then per series a
+// header (uvarint) and its values, in the order of the placeholders in
+// the JSON (AppendJSONSplit makes sure the JSON holds no other "[null]").
+// The header is the series' length in version 1; in version 2 it is
+// length<<1 | second, where second says that the series' mantissas are
+// coded by their second differences (AppendJSONSplit sets it for the
+// wavelengths, an even grid, and the models, which are smooth: their
+// values then take ~1 and ~1.6 bytes instead of ~3 and ~2). Each value
+// is one uvarint u:
 //
 //   - u&3 == 0: same decimal exponent as the previous value of the
 //     series; the signed eight-digit mantissa (±m) differs from the
-//     previous one by zigzag⁻¹(u>>2);
+//     previous one by d = zigzag⁻¹(u>>2), or with second set by d plus
+//     the previous difference (0 at a series' start and after a new
+//     exponent; a null or a value in bytes leaves it, like the previous
+//     mantissa, unchanged);
 //   - u&3 == 1: a new exponent, previous + zigzag⁻¹(u>>2), followed by a
 //     uvarint zigzag(±m);
 //   - u == 2: a NaN or ±Inf (written as null);
@@ -36,11 +45,16 @@ import (
 //     bytes (IEEE 754, little-endian).
 //
 // The previous exponent and mantissa start at 0 for every series.
-// Spectra's series take about 4–6 bytes a value instead of about 10 as
-// text.
+// Spectra's series take about 1–5 bytes a value instead of about 10 as
+// text. AppendJSONSplit writes version 2; ExpandSeries reads both (rows
+// stored before version 2 keep their version-1 form).
 
-// seriesMagic starts the binary form (format version 1).
-var seriesMagic = []byte{'G', 'S', 1}
+// seriesMagic starts the binary form AppendJSONSplit writes (format
+// version 2); seriesMagicV1 the form of version 1.
+var (
+	seriesMagic   = []byte{'G', 'S', 2}
+	seriesMagicV1 = []byte{'G', 'S', 1}
+)
 
 // seriesPlaceholder is what AppendJSONSplit writes for a series.
 var seriesPlaceholder = []byte("[null]")
@@ -79,10 +93,12 @@ func AppendJSONSplitFull(b, series, full []byte, r *Result) (json, seriesOut, fu
 // too when full is not nil.
 func appendJSONSplit(b, series []byte, full *[]byte, r *Result) (json, seriesOut []byte, err error) {
 	var list [][]float64
-	grid := -1 // the whole fit's wavelengths in list
-	take := func(p *PlotFloats) {
+	var second []bool // list[k]'s mantissas by second differences
+	grid := -1        // the whole fit's wavelengths in list
+	take := func(p *PlotFloats, smooth bool) {
 		if len(*p) > 0 {
 			list = append(list, *p)
+			second = append(second, smooth)
 			*p = placeholderSeries
 		}
 	}
@@ -92,10 +108,10 @@ func appendJSONSplit(b, series []byte, full *[]byte, r *Result) (json, seriesOut
 	if len(r.Windows) > 0 {
 		rr.Windows = make([]Window, len(r.Windows))
 		for i, w := range r.Windows {
-			take(&w.WavelengthNM)
-			take(&w.Data)
-			take(&w.Model)
-			take(&w.Residual)
+			take(&w.WavelengthNM, true)
+			take(&w.Data, false)
+			take(&w.Model, true)
+			take(&w.Residual, false)
 			rr.Windows[i] = w
 		}
 	}
@@ -104,10 +120,10 @@ func appendJSONSplit(b, series []byte, full *[]byte, r *Result) (json, seriesOut
 		if len(w.WavelengthNM) > 0 {
 			grid = len(list)
 		}
-		take(&w.WavelengthNM)
-		take(&w.Data)
-		take(&w.Model)
-		take(&w.Residual)
+		take(&w.WavelengthNM, true)
+		take(&w.Data, false)
+		take(&w.Model, true)
+		take(&w.Residual, false)
 		rr.Whole = &w
 	}
 	start := len(b)
@@ -159,7 +175,7 @@ func appendJSONSplit(b, series []byte, full *[]byte, r *Result) (json, seriesOut
 		if k == grid {
 			series, text = appendGridSeries(series, text, full != nil, p)
 		} else {
-			series, text = appendSeriesValues(series, text, full != nil, p)
+			series, text = appendSeriesValues(series, text, full != nil, p, second[k])
 		}
 		pos = at[k] + len(seriesPlaceholder)
 	}
@@ -185,8 +201,8 @@ type gridMemo struct {
 // changed).
 var lastGrid atomic.Pointer[gridMemo]
 
-// appendGridSeries is appendSeriesValues for a whole fit's wavelengths,
-// through lastGrid.
+// appendGridSeries is appendSeriesValues for a whole fit's wavelengths
+// (by second differences), through lastGrid.
 func appendGridSeries(b, text []byte, withText bool, p []float64) ([]byte, []byte) {
 	if m := lastGrid.Load(); m != nil && (m.text != nil || !withText) && sameBits(m.values, p) {
 		b = append(b, m.form...)
@@ -196,7 +212,7 @@ func appendGridSeries(b, text []byte, withText bool, p []float64) ([]byte, []byt
 		return b, text
 	}
 	b0, t0 := len(b), len(text)
-	b, text = appendSeriesValues(b, text, withText, p)
+	b, text = appendSeriesValues(b, text, withText, p, true)
 	m := &gridMemo{values: slices.Clone(p), form: slices.Clone(b[b0:])}
 	if withText {
 		m.text = slices.Clone(text[t0:])
@@ -318,19 +334,24 @@ type plotDigitsOf struct {
 // noDigits marks a value plotDigits refuses.
 const noDigits = math.MinInt
 
-// appendSeriesValues appends one series' length and values to b, and
-// with withText its JSON text (as appendPlotFloats writes it) to text.
+// appendSeriesValues appends one series' header and values to b (format
+// version 2, with second: by second differences), and with withText its
+// JSON text (as appendPlotFloats writes it) to text.
 // The digits of a chunk of values are found first (seriesDigitsChunk),
 // in a loop whose rounds do not wait for each other (the digits are a
 // chain of dependent floating-point steps that the writing of the bytes,
 // which depends on them, kept the processor from overlapping), then
 // written.
-func appendSeriesValues(b, text []byte, withText bool, p []float64) ([]byte, []byte) {
-	b = binary.AppendUvarint(b, uint64(len(p)))
+func appendSeriesValues(b, text []byte, withText bool, p []float64, second bool) ([]byte, []byte) {
+	h := uint64(len(p)) << 1
+	if second {
+		h |= 1
+	}
+	b = binary.AppendUvarint(b, h)
 	if withText {
 		text = append(text, '[')
 	}
-	var prevS int64
+	var prevS, prevD int64
 	prevE := 0
 	var digits [seriesChunk]plotDigitsOf
 	for i := 0; i < len(p); i += seriesChunk {
@@ -361,11 +382,15 @@ func appendSeriesValues(b, text []byte, withText bool, p []float64) ([]byte, []b
 				s = -s
 			}
 			if e10 == prevE {
-				b = binary.AppendUvarint(b, zigzag(s-prevS)<<2)
+				d := s - prevS
+				b = binary.AppendUvarint(b, zigzag(d-prevD)<<2)
+				if second {
+					prevD = d
+				}
 			} else {
 				b = binary.AppendUvarint(b, zigzag(int64(e10-prevE))<<2|1)
 				b = binary.AppendUvarint(b, zigzag(s))
-				prevE = e10
+				prevE, prevD = e10, 0
 			}
 			prevS = s
 			if withText {
@@ -391,7 +416,8 @@ func ExpandSeries(dst []byte, js string, series []byte) ([]byte, error) {
 	if len(series) == 0 {
 		return append(dst, js...), nil
 	}
-	if !bytes.HasPrefix(series, seriesMagic) {
+	v2 := bytes.HasPrefix(series, seriesMagic)
+	if !v2 && !bytes.HasPrefix(series, seriesMagicV1) {
 		return dst, errSeriesCorrupt
 	}
 	rd := series[len(seriesMagic):]
@@ -416,11 +442,15 @@ func ExpandSeries(dst []byte, js string, series []byte) ([]byte, error) {
 		off := pos + i
 		dst = append(dst, js[pos:off]...)
 		n, ok := uv()
+		second := false
+		if v2 {
+			n, second = n>>1, n&1 == 1
+		}
 		if !ok || n > uint64(len(rd)) {
 			return dst, errSeriesCorrupt
 		}
 		dst = append(dst, '[')
-		var prevS int64
+		var prevS, prevD int64
 		prevE := 0
 		for i := range n {
 			if i > 0 {
@@ -442,14 +472,19 @@ func ExpandSeries(dst []byte, js string, series []byte) ([]byte, error) {
 				rd = rd[8:]
 				continue
 			case u&3 == 0:
-				prevS += unzigzag(u >> 2)
+				d := unzigzag(u >> 2)
+				if second {
+					d += prevD
+					prevD = d
+				}
+				prevS += d
 			case u&3 == 1:
 				prevE += int(unzigzag(u >> 2))
 				s, ok := uv()
 				if !ok {
 					return dst, errSeriesCorrupt
 				}
-				prevS = unzigzag(s)
+				prevS, prevD = unzigzag(s), 0
 			default:
 				return dst, errSeriesCorrupt
 			}

@@ -164,8 +164,10 @@ func TestExpandSeriesCorrupt(t *testing.T) {
 	bad := [][]byte{
 		series[:len(series)-1],                     // truncated
 		append(bytes.Clone(series), 0),             // trailing byte
-		append([]byte{'G', 'S', 2}, series[3:]...), // other version
-		{'G', 'S', 1, 1, 0xff},                     // offset beyond the JSON
+		append([]byte{'G', 'S', 3}, series[3:]...), // other version
+		{'G', 'S', 1, 1, 0xff},                     // length beyond the form
+		{'G', 'S', 2, 1, 0xff},
+		{'G', 'S', 2, 1, 2<<1 | 1, 5, 0}, // mantissa out of range
 	}
 	for i, b := range bad {
 		if _, err := ExpandSeries(nil, string(js), b); err == nil {
@@ -202,6 +204,7 @@ func FuzzExpandSeries(f *testing.F) {
 	js, series, _ := AppendJSONSplit(nil, nil, &res)
 	f.Add(string(js), series, 1.5, -3e-7)
 	f.Add(`{"a":[null]}`, []byte{'G', 'S', 1, 1, 2, 3, 0, 0, 0, 0, 0, 0, 0, 0, 2}, 0.0, math.Inf(1))
+	f.Add(`{"a":[null]}`, []byte{'G', 'S', 2, 1, 5, 1, 0x80, 0x84, 0xaf, 0x5f, 4, 4}, 0.0, 1e300)
 	f.Fuzz(func(t *testing.T, js string, series []byte, a, b float64) {
 		ExpandSeries(nil, js, series)
 		r := Result{Windows: []Window{{Data: PlotFloats{a, b, a * b}, Residual: PlotFloats{b}}}}
@@ -347,8 +350,8 @@ func BenchmarkSeriesValues(b *testing.B) {
 			var form, text []byte
 			for b.Loop() {
 				form, text = form[:0], text[:0]
-				for _, p := range list {
-					form, text = appendSeriesValues(form, text, withText, p)
+				for k, p := range list {
+					form, text = appendSeriesValues(form, text, withText, p, k%2 == 0)
 				}
 			}
 			b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N*nv), "ns/value")
@@ -499,16 +502,137 @@ func TestSeriesFormUnchanged(t *testing.T) {
 	}
 	list = append(list, res.Whole.WavelengthNM, res.Whole.Data, res.Whole.Model, res.Whole.Residual)
 	for k, p := range list {
-		want := appendSeriesValuesRef([]byte("x"), p)
-		got, text := appendSeriesValues([]byte("x"), []byte("y"), true, p)
+		// Version 2 without second differences codes the values as
+		// version 1 did; only the header differs.
+		ref := appendSeriesValuesRef(nil, p)
+		_, n := binary.Uvarint(ref)
+		want := binary.AppendUvarint([]byte("x"), uint64(len(p))<<1)
+		want = append(want, ref[n:]...)
+		got, text := appendSeriesValues([]byte("x"), []byte("y"), true, p, false)
 		if !bytes.Equal(got, want) {
 			t.Fatalf("series %d (%d values): form differs from the reference", k, len(p))
 		}
 		if wantText := appendPlotFloats([]byte("y"), p); !bytes.Equal(text, wantText) {
 			t.Fatalf("series %d (%d values): text differs from appendPlotFloats", k, len(p))
 		}
-		if got2, _ := appendSeriesValues([]byte("x"), nil, false, p); !bytes.Equal(got2, want) {
+		if got2, _ := appendSeriesValues([]byte("x"), nil, false, p, false); !bytes.Equal(got2, want) {
 			t.Fatalf("series %d (%d values): form without text differs", k, len(p))
 		}
+		// By second differences: the same text, and the values expand
+		// to it.
+		form2, text2 := appendSeriesValues(nil, []byte("y"), true, p, true)
+		if !bytes.Equal(text2, text) {
+			t.Fatalf("series %d (%d values): text by second differences differs", k, len(p))
+		}
+		for _, f := range [][]byte{form2, want[1:]} {
+			blob := append(append(bytes.Clone(seriesMagic), 1), f...)
+			if got, err := ExpandSeries(nil, "[null]", blob); err != nil || !bytes.Equal(got, text[1:]) {
+				t.Fatalf("series %d (%d values): expansion differs (%v)", k, len(p), err)
+			}
+		}
 	}
+}
+
+// splitV1 is AppendJSONSplit as format version 1 wrote it (every series
+// by first differences, the header its length; appendSeriesValuesRef):
+// what rows stored before version 2 hold. An error is AppendJSONSplit's.
+func splitV1(r *Result) (js, series []byte, err error) {
+	js, _, err = AppendJSONSplit(nil, nil, r)
+	if err != nil {
+		return nil, nil, err
+	}
+	var list []PlotFloats
+	for _, w := range r.Windows {
+		list = append(list, w.WavelengthNM, w.Data, w.Model, w.Residual)
+	}
+	if w := r.Whole; w != nil {
+		list = append(list, w.WavelengthNM, w.Data, w.Model, w.Residual)
+	}
+	list = slices.DeleteFunc(list, func(p PlotFloats) bool { return len(p) == 0 })
+	if len(list) == 0 {
+		return js, nil, nil
+	}
+	series = binary.AppendUvarint(bytes.Clone(seriesMagicV1), uint64(len(list)))
+	for _, p := range list {
+		series = appendSeriesValuesRef(series, p)
+	}
+	return js, series, nil
+}
+
+// TestExpandSeriesV1: a form of version 1 (stored before version 2)
+// still expands to AppendJSON's bytes: a literal one, and those of real
+// whole-route results and of results filled at random. Version 2 is the
+// smaller.
+func TestExpandSeriesV1(t *testing.T) {
+	// Written by version 1's encoder for a whole fit with wavelengths
+	// {486.1, 486.2, 486.30001} and data {0, -2e-9, 1e30, 12.5}.
+	const js = `{"whole_fit":{"wavelength_nm":[null],"data":[null]}}`
+	v1 := []byte{'G', 'S', 1, 0x2, 0x3, 0x11, 0xa0, 0xeb, 0xad, 0x2e, 0x80, 0xf1, 0x4, 0x88, 0xf1, 0x4,
+		0x4, 0x3, 0x0, 0x0, 0x0, 0x0, 0x0, 0x0, 0x0, 0x0, 0x45, 0xff, 0xb3, 0x89, 0x13,
+		0x3, 0xea, 0x8c, 0xa0, 0x39, 0x59, 0x3e, 0x29, 0x46, 0x51, 0xc0, 0xf0, 0xf5, 0xb}
+	got, err := ExpandSeries([]byte("x"), js, v1)
+	const want = `x{"whole_fit":{"wavelength_nm":[486.1,486.2,486.30001],"data":[0,-2e-09,1e+30,12.5]}}`
+	if err != nil || string(got) != want {
+		t.Fatalf("literal version-1 form: %s, %v; want %s", got, err, want)
+	}
+	r := rand.New(rand.NewPCG(17, 4))
+	results := []*Result{benchWholeResultT(t, 0), benchWholeResultT(t, 1)}
+	for range 500 {
+		var res Result
+		fillRandom(r, reflect.ValueOf(&res).Elem(), 0)
+		results = append(results, &res)
+	}
+	n := 0
+	for i, res := range results {
+		want, err := AppendJSON(nil, res)
+		if err != nil {
+			continue
+		}
+		js, series, err := splitV1(res)
+		if err == ErrSeriesSplit {
+			continue
+		}
+		if err != nil {
+			t.Fatal(err)
+		}
+		n++
+		got, err := ExpandSeries(nil, string(js), series)
+		if err != nil || !bytes.Equal(got, want) {
+			t.Fatalf("result %d: version-1 form expands to other bytes (%v)", i, err)
+		}
+		if i < 2 {
+			_, s2, _ := AppendJSONSplit(nil, nil, res)
+			if len(s2) >= len(series) {
+				t.Errorf("result %d: version 2 %d bytes, version 1 %d", i, len(s2), len(series))
+			}
+			t.Logf("whole-route result %d: series form %d bytes (version 1: %d)", i, len(s2), len(series))
+		}
+	}
+	if n < 100 {
+		t.Fatalf("only %d results compared", n)
+	}
+}
+
+// benchWholeResultT is a whole-route result of a Stark-shaped 2048-pixel
+// spectrum with windows kept (noise seed k).
+func benchWholeResultT(t *testing.T, k int) *Result {
+	grid := make([]float64, 2048)
+	for i := range grid {
+		grid[i] = 380 + 320*float64(i)/2047
+	}
+	y, _, err := SynthesizeStark(SynthConfig{WavelengthNM: grid, Uppers: []int{3, 4, 5, 6, 7, 8, 9, 10},
+		ExcitationTemperatureK: 7000, ElectronDensityM3: 3e21, GasTemperatureK: 1000, InstrumentFWHMNM: 0.35, HalphaArea: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	rng := rand.New(rand.NewPCG(uint64(k), 4))
+	for i := range y {
+		y[i] = math.Round(y[i]*2e4 + 50 + 3*rng.NormFloat64())
+	}
+	res, err := NewPipeline(8192).Analyze(&Spectrum{Name: "stark.csv", WavelengthNM: grid, Counts: y},
+		Options{KeepWindows: true, Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.35, GasTemperatureK: 1000}})
+	if err != nil || res.Whole == nil || len(res.Windows) == 0 {
+		t.Fatalf("no whole fit with windows: %v", err)
+	}
+	return &res
 }
