@@ -5,9 +5,11 @@ import (
 	"encoding/binary"
 	"errors"
 	"math"
+	"math/bits"
 	"slices"
 	"strconv"
 	"strings"
+	"sync"
 	"sync/atomic"
 )
 
@@ -25,16 +27,17 @@ import (
 // header (uvarint) and its values, in the order of the placeholders in
 // the JSON (AppendJSONSplit makes sure the JSON holds no other "[null]").
 // The header is the series' length in version 1; in version 2 it is
-// length<<1 | second, where second says that the series' mantissas are
-// coded by their second differences (AppendJSONSplit sets it for the
-// wavelengths, an even grid, and the models, which are smooth: their
-// values then take ~1 and ~1.6 bytes instead of ~3 and ~2). Each value
-// is one uvarint u:
+// length<<2 | mode, the mode saying how the mantissas are coded: 0 by
+// their first differences (all series of version 1), 1 by their second
+// differences (AppendJSONSplit's choice for the wavelengths, an even
+// grid, and the models, which are smooth: ~1 and ~1.6 bytes a value
+// instead of ~3 and ~2), 2 as residuals (below). Each value is one
+// uvarint u:
 //
 //   - u&3 == 0: same decimal exponent as the previous value of the
 //     series; the signed eight-digit mantissa (±m) differs from the
-//     previous one by d = zigzag⁻¹(u>>2), or with second set by d plus
-//     the previous difference (0 at a series' start and after a new
+//     previous one by d = zigzag⁻¹(u>>2), or in mode 1 by d plus the
+//     previous difference (0 at a series' start and after a new
 //     exponent; a null or a value in bytes leaves it, like the previous
 //     mantissa, unchanged);
 //   - u&3 == 1: a new exponent, previous + zigzag⁻¹(u>>2), followed by a
@@ -45,6 +48,22 @@ import (
 //     bytes (IEEE 754, little-endian).
 //
 // The previous exponent and mantissa start at 0 for every series.
+//
+// Mode 2 codes a residual (data − model) against the two series before
+// it in the form, which have its length (the data and the model; their
+// eight-digit values D and M): where D and M have digits with the same
+// exponent and differ, the value is predicted from D − M in integers
+// (residual P with exponent eP, predictResidual), and
+//
+//   - u&3 == 0: the value has exponent eP and mantissa P + zigzag⁻¹(u>>2)
+//     (the mantissas of D and M are off by half a unit at most: the
+//     difference takes about a byte instead of 4–5);
+//   - u&3 == 1: exponent eP + zigzag⁻¹(u>>2) (0 in place of eP without a
+//     prediction), followed by a uvarint zigzag(±m);
+//   - u == 2 and u == 3 as above.
+//
+// AppendJSONSplit offers mode 2 for each residual and keeps it where it
+// is the smaller.
 // Spectra's series take about 1–5 bytes a value instead of about 10 as
 // text. AppendJSONSplit writes version 2; ExpandSeries reads both (rows
 // stored before version 2 keep their version-1 form).
@@ -61,6 +80,72 @@ var seriesPlaceholder = []byte("[null]")
 
 // placeholderSeries is a series whose JSON is seriesPlaceholder.
 var placeholderSeries = PlotFloats{math.NaN()}
+
+// The modes of a series in the form (version 2).
+const (
+	seriesFirst    = 0 // first differences
+	seriesSecond   = 1 // second differences
+	seriesResidual = 2 // against the data and model before it
+)
+
+// seriesDigit is one value's eight digits as the form holds them: the
+// signed mantissa ±m and the exponent, or e10 noDigits for a null or a
+// value kept in bytes.
+type seriesDigit struct {
+	s   int64
+	e10 int
+}
+
+// seriesRecords are the digits of the last three series written or read,
+// the k-th at [k%3] (k its place in the form; -1: none).
+type seriesRecords [3]struct {
+	k int
+	d []seriesDigit
+}
+
+// of returns the digits of series k when they are kept and n long.
+func (sc *seriesRecords) of(k, n int) []seriesDigit {
+	if r := &sc[k%len(sc)]; r.k == k && len(r.d) == n {
+		return r.d
+	}
+	return nil
+}
+
+// seriesScratch holds *seriesRecords for AppendJSONSplit.
+var seriesScratch = sync.Pool{New: func() any { return new(seriesRecords) }}
+
+// seriesPow10 are the powers of ten up to 10⁸.
+var seriesPow10 = [...]int64{1, 10, 100, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8}
+
+// predictResidual returns the eight-digit mantissa P and exponent eP of
+// D − M from the digits of D and M (mode 2); ok is false where they have
+// none, other exponents, or are equal. Integers only: the writer and the
+// reader find the same prediction.
+func predictResidual(d, m seriesDigit) (p int64, eP int, ok bool) {
+	if d.e10 == noDigits || m.e10 == noDigits || d.e10 != m.e10 || d.s == m.s {
+		return 0, 0, false
+	}
+	diff := d.s - m.s // |diff| < 2·10⁸, in units of 10^(e10−7)
+	a := diff
+	if a < 0 {
+		a = -a
+	}
+	// The digits of a (1 ≤ a < 2²⁸): ⌊log₁₀ 2^len⌋, plus one from its
+	// power of ten on.
+	nd := bits.Len64(uint64(a)) * 1233 >> 12
+	if a >= seriesPow10[nd] {
+		nd++
+	}
+	eP = d.e10 - 8 + nd
+	if nd <= 8 {
+		return diff * seriesPow10[8-nd], eP, true
+	}
+	p = (a + 5) / 10 // nine digits: rounded to eight, half away from zero
+	if diff < 0 {
+		p = -p
+	}
+	return p, eP, true
+}
 
 // ErrSeriesSplit is returned by AppendJSONSplit when its placeholder
 // JSON cannot be told apart from the result's own text (a "[null]"
@@ -93,12 +178,12 @@ func AppendJSONSplitFull(b, series, full []byte, r *Result) (json, seriesOut, fu
 // too when full is not nil.
 func appendJSONSplit(b, series []byte, full *[]byte, r *Result) (json, seriesOut []byte, err error) {
 	var list [][]float64
-	var second []bool // list[k]'s mantissas by second differences
-	grid := -1        // the whole fit's wavelengths in list
-	take := func(p *PlotFloats, smooth bool) {
+	var modes []int // list[k]'s mode (seriesFirst, …)
+	grid := -1      // the whole fit's wavelengths in list
+	take := func(p *PlotFloats, mode int) {
 		if len(*p) > 0 {
 			list = append(list, *p)
-			second = append(second, smooth)
+			modes = append(modes, mode)
 			*p = placeholderSeries
 		}
 	}
@@ -108,10 +193,10 @@ func appendJSONSplit(b, series []byte, full *[]byte, r *Result) (json, seriesOut
 	if len(r.Windows) > 0 {
 		rr.Windows = make([]Window, len(r.Windows))
 		for i, w := range r.Windows {
-			take(&w.WavelengthNM, true)
-			take(&w.Data, false)
-			take(&w.Model, true)
-			take(&w.Residual, false)
+			take(&w.WavelengthNM, seriesSecond)
+			take(&w.Data, seriesFirst)
+			take(&w.Model, seriesSecond)
+			take(&w.Residual, seriesResidual)
 			rr.Windows[i] = w
 		}
 	}
@@ -120,10 +205,10 @@ func appendJSONSplit(b, series []byte, full *[]byte, r *Result) (json, seriesOut
 		if len(w.WavelengthNM) > 0 {
 			grid = len(list)
 		}
-		take(&w.WavelengthNM, true)
-		take(&w.Data, false)
-		take(&w.Model, true)
-		take(&w.Residual, false)
+		take(&w.WavelengthNM, seriesSecond)
+		take(&w.Data, seriesFirst)
+		take(&w.Model, seriesSecond)
+		take(&w.Residual, seriesResidual)
 		rr.Whole = &w
 	}
 	start := len(b)
@@ -167,17 +252,34 @@ func appendJSONSplit(b, series []byte, full *[]byte, r *Result) (json, seriesOut
 	if full != nil {
 		text = slices.Grow(*full, len(js)+12*nv)
 	}
+	// The digits of the series written that a residual may follow (its
+	// data and model; the k-th at [k%3]), not the grid's (copied).
+	sc := seriesScratch.Get().(*seriesRecords)
+	defer seriesScratch.Put(sc)
+	for i := range sc {
+		sc[i].k = -1
+	}
 	pos = 0
 	for k, p := range list {
 		if full != nil {
 			text = append(text, js[pos:at[k]]...)
 		}
+		pos = at[k] + len(seriesPlaceholder)
 		if k == grid {
 			series, text = appendGridSeries(series, text, full != nil, p)
-		} else {
-			series, text = appendSeriesValues(series, text, full != nil, p, second[k])
+			continue
 		}
-		pos = at[k] + len(seriesPlaceholder)
+		var dm, mm []seriesDigit // a residual's data and model
+		if modes[k] == seriesResidual && k >= 2 {
+			dm, mm = sc.of(k-2, len(p)), sc.of(k-1, len(p))
+		}
+		var rec []seriesDigit // kept for a residual after it
+		if k+1 < len(list) && modes[k+1] == seriesResidual || k+2 < len(list) && modes[k+2] == seriesResidual {
+			r := &sc[k%len(sc)]
+			r.k, r.d = k, slices.Grow(r.d[:0], len(p))[:len(p)]
+			rec = r.d
+		}
+		series, text = appendSeriesValues(series, text, full != nil, p, modes[k], rec, dm, mm)
 	}
 	if full != nil {
 		*full = append(text, js[pos:]...)
@@ -212,7 +314,7 @@ func appendGridSeries(b, text []byte, withText bool, p []float64) ([]byte, []byt
 		return b, text
 	}
 	b0, t0 := len(b), len(text)
-	b, text = appendSeriesValues(b, text, withText, p, true)
+	b, text = appendSeriesValues(b, text, withText, p, seriesSecond, nil, nil, nil)
 	m := &gridMemo{values: slices.Clone(p), form: slices.Clone(b[b0:])}
 	if withText {
 		m.text = slices.Clone(text[t0:])
@@ -335,36 +437,56 @@ type plotDigitsOf struct {
 const noDigits = math.MinInt
 
 // appendSeriesValues appends one series' header and values to b (format
-// version 2, with second: by second differences), and with withText its
-// JSON text (as appendPlotFloats writes it) to text.
+// version 2, in mode), and with withText its JSON text (as
+// appendPlotFloats writes it) to text. rec, when not nil (len(p) long),
+// gets the values' digits. A residual (mode seriesResidual) needs the
+// digits of its data and model (dm, mm; len(p) long): without them, or
+// where it would be the larger, it is written by first differences.
 // The digits of a chunk of values are found first (seriesDigitsChunk),
 // in a loop whose rounds do not wait for each other (the digits are a
 // chain of dependent floating-point steps that the writing of the bytes,
 // which depends on them, kept the processor from overlapping), then
 // written.
-func appendSeriesValues(b, text []byte, withText bool, p []float64, second bool) ([]byte, []byte) {
-	h := uint64(len(p)) << 1
-	if second {
-		h |= 1
+func appendSeriesValues(b, text []byte, withText bool, p []float64, mode int, rec, dm, mm []seriesDigit) ([]byte, []byte) {
+	if mode == seriesResidual && (len(dm) != len(p) || len(mm) != len(p)) {
+		mode = seriesFirst
 	}
-	b = binary.AppendUvarint(b, h)
+	b0 := len(b)
+	b = binary.AppendUvarint(b, uint64(len(p))<<2|uint64(mode))
+	v0 := len(b)
 	if withText {
 		text = append(text, '[')
 	}
 	var prevS, prevD int64
 	prevE := 0
-	var digits [seriesChunk]plotDigitsOf
+	firstLen := 0 // a residual's bytes by first differences
+	cb := chunkBufs.Get().(*seriesChunkBufs)
+	defer chunkBufs.Put(cb)
+	digits, preds := &cb.digits, &cb.preds
 	for i := 0; i < len(p); i += seriesChunk {
 		chunk := p[i:min(i+seriesChunk, len(p))]
-		seriesDigitsChunk(&digits, chunk)
+		seriesDigitsChunk(digits, chunk)
+		if mode == seriesResidual {
+			for j := range chunk {
+				pr, eP, ok := predictResidual(dm[i+j], mm[i+j])
+				if !ok {
+					eP = noDigits
+				}
+				preds[j] = seriesDigit{pr, eP}
+			}
+		}
 		for j, v := range chunk {
 			if withText && i+j > 0 {
 				text = append(text, ',')
 			}
 			m, e10 := digits[j].m, digits[j].e10
 			if e10 == noDigits {
+				if rec != nil {
+					rec[i+j] = seriesDigit{0, noDigits}
+				}
 				if math.IsNaN(v) || math.IsInf(v, 0) {
 					b = append(b, 2)
+					firstLen++
 					if withText {
 						text = append(text, "null"...)
 					}
@@ -372,6 +494,7 @@ func appendSeriesValues(b, text []byte, withText bool, p []float64, second bool)
 				}
 				b = append(b, 3)
 				b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
+				firstLen += 9
 				if withText {
 					text = strconv.AppendFloat(text, v, 'g', 8, 64)
 				}
@@ -381,18 +504,39 @@ func appendSeriesValues(b, text []byte, withText bool, p []float64, second bool)
 			if v < 0 {
 				s = -s
 			}
-			if e10 == prevE {
+			if rec != nil {
+				rec[i+j] = seriesDigit{s, e10}
+			}
+			if mode == seriesResidual {
+				pr, eP := preds[j].s, preds[j].e10
+				if e10 == eP {
+					b = binary.AppendUvarint(b, zigzag(s-pr)<<2)
+				} else {
+					if eP == noDigits {
+						eP = 0
+					}
+					b = binary.AppendUvarint(b, zigzag(int64(e10-eP))<<2|1)
+					b = binary.AppendUvarint(b, zigzag(s))
+				}
+				if e10 == prevE {
+					firstLen += uvarintLen(zigzag(s-prevS) << 2)
+				} else {
+					firstLen += uvarintLen(zigzag(int64(e10-prevE))<<2|1) + uvarintLen(zigzag(s))
+					prevE = e10
+				}
+				prevS = s
+			} else if e10 == prevE {
 				d := s - prevS
 				b = binary.AppendUvarint(b, zigzag(d-prevD)<<2)
-				if second {
+				if mode == seriesSecond {
 					prevD = d
 				}
+				prevS = s
 			} else {
 				b = binary.AppendUvarint(b, zigzag(int64(e10-prevE))<<2|1)
 				b = binary.AppendUvarint(b, zigzag(s))
-				prevE, prevD = e10, 0
+				prevS, prevE, prevD = s, e10, 0
 			}
-			prevS = s
 			if withText {
 				text = appendDigits8(text, v < 0, m, e10)
 			}
@@ -401,8 +545,25 @@ func appendSeriesValues(b, text []byte, withText bool, p []float64, second bool)
 	if withText {
 		text = append(text, ']')
 	}
+	if mode == seriesResidual && firstLen <= len(b)-v0 {
+		b, _ = appendSeriesValues(b[:b0], nil, false, p, seriesFirst, nil, nil, nil)
+	}
 	return b, text
 }
+
+// seriesChunkBufs are appendSeriesValues' buffers for a chunk: the
+// values' digits and a residual's predictions (e10 noDigits: none).
+// Pooled: as local arrays they were zeroed (8 kB) at every call, two
+// dozen a result.
+type seriesChunkBufs struct {
+	digits [seriesChunk]plotDigitsOf
+	preds  [seriesChunk]seriesDigit
+}
+
+var chunkBufs = sync.Pool{New: func() any { return new(seriesChunkBufs) }}
+
+// uvarintLen is the length of u's uvarint.
+func uvarintLen(u uint64) int { return (bits.Len64(u|1) + 6) / 7 }
 
 // errSeriesCorrupt reports a series form that does not fit its JSON.
 var errSeriesCorrupt = errors.New("spectrum: stored plot series corrupt")
@@ -433,8 +594,12 @@ func ExpandSeries(dst []byte, js string, series []byte) ([]byte, error) {
 	if !ok || count > uint64(len(js)) {
 		return dst, errSeriesCorrupt
 	}
+	var recs seriesRecords // version 2: the digits read, for residuals
+	for i := range recs {
+		recs[i].k = -1
+	}
 	pos := 0
-	for range count {
+	for k := range int(count) {
 		i := strings.Index(js[pos:], string(seriesPlaceholder))
 		if i < 0 {
 			return dst, errSeriesCorrupt
@@ -442,12 +607,26 @@ func ExpandSeries(dst []byte, js string, series []byte) ([]byte, error) {
 		off := pos + i
 		dst = append(dst, js[pos:off]...)
 		n, ok := uv()
-		second := false
+		mode := seriesFirst
 		if v2 {
-			n, second = n>>1, n&1 == 1
+			n, mode = n>>2, int(n&3)
 		}
-		if !ok || n > uint64(len(rd)) {
+		if !ok || n > uint64(len(rd)) || mode > seriesResidual {
 			return dst, errSeriesCorrupt
+		}
+		var rec, dm, mm []seriesDigit
+		if v2 {
+			r := &recs[k%len(recs)]
+			r.k, r.d = k, slices.Grow(r.d[:0], int(n))[:n]
+			rec = r.d
+		}
+		if mode == seriesResidual {
+			if k < 2 {
+				return dst, errSeriesCorrupt
+			}
+			if dm, mm = recs.of(k-2, int(n)), recs.of(k-1, int(n)); dm == nil || mm == nil {
+				return dst, errSeriesCorrupt
+			}
 		}
 		dst = append(dst, '[')
 		var prevS, prevD int64
@@ -460,24 +639,54 @@ func ExpandSeries(dst []byte, js string, series []byte) ([]byte, error) {
 			if !ok {
 				return dst, errSeriesCorrupt
 			}
+			var sv int64 // the value's signed mantissa and exponent
+			var e10 int
 			switch {
 			case u == 2:
+				if rec != nil {
+					rec[i] = seriesDigit{0, noDigits}
+				}
 				dst = append(dst, "null"...)
 				continue
 			case u == 3:
 				if len(rd) < 8 {
 					return dst, errSeriesCorrupt
 				}
+				if rec != nil {
+					rec[i] = seriesDigit{0, noDigits}
+				}
 				dst = appendFloat8(dst, math.Float64frombits(binary.LittleEndian.Uint64(rd)))
 				rd = rd[8:]
 				continue
+			case mode == seriesResidual:
+				pr, eP, okP := predictResidual(dm[i], mm[i])
+				switch u & 3 {
+				case 0:
+					if !okP {
+						return dst, errSeriesCorrupt
+					}
+					sv, e10 = pr+unzigzag(u>>2), eP
+				case 1:
+					if !okP {
+						eP = 0
+					}
+					e10 = eP + int(unzigzag(u>>2))
+					s, ok := uv()
+					if !ok {
+						return dst, errSeriesCorrupt
+					}
+					sv = unzigzag(s)
+				default:
+					return dst, errSeriesCorrupt
+				}
 			case u&3 == 0:
 				d := unzigzag(u >> 2)
-				if second {
+				if mode == seriesSecond {
 					d += prevD
 					prevD = d
 				}
 				prevS += d
+				sv, e10 = prevS, prevE
 			case u&3 == 1:
 				prevE += int(unzigzag(u >> 2))
 				s, ok := uv()
@@ -485,17 +694,21 @@ func ExpandSeries(dst []byte, js string, series []byte) ([]byte, error) {
 					return dst, errSeriesCorrupt
 				}
 				prevS, prevD = unzigzag(s), 0
+				sv, e10 = prevS, prevE
 			default:
 				return dst, errSeriesCorrupt
 			}
-			m := prevS
+			m := sv
 			if m < 0 {
 				m = -m
 			}
-			if m < 1e7 || m >= 1e8 || prevE < -400 || prevE > 400 {
+			if m < 1e7 || m >= 1e8 || e10 < -400 || e10 > 400 {
 				return dst, errSeriesCorrupt
 			}
-			dst = appendDigits8(dst, prevS < 0, uint64(m), prevE)
+			if rec != nil {
+				rec[i] = seriesDigit{sv, e10}
+			}
+			dst = appendDigits8(dst, sv < 0, uint64(m), e10)
 		}
 		dst = append(dst, ']')
 		pos = off + len(seriesPlaceholder)

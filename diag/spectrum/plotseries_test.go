@@ -167,7 +167,11 @@ func TestExpandSeriesCorrupt(t *testing.T) {
 		append([]byte{'G', 'S', 3}, series[3:]...), // other version
 		{'G', 'S', 1, 1, 0xff},                     // length beyond the form
 		{'G', 'S', 2, 1, 0xff},
-		{'G', 'S', 2, 1, 2<<1 | 1, 5, 0}, // mantissa out of range
+		{'G', 'S', 2, 1, 1<<2 | 1, 5, 0}, // mantissa out of range
+		{'G', 'S', 2, 1, 1<<2 | 2, 0},    // a residual without data and model
+		{'G', 'S', 2, 1, 1<<2 | 3, 0},    // mode 3
+		// a residual whose data and model have another length
+		{'G', 'S', 2, 3, 1<<2 | 0, 2, 1<<2 | 0, 2, 2<<2 | 2, 2, 2},
 	}
 	for i, b := range bad {
 		if _, err := ExpandSeries(nil, string(js), b); err == nil {
@@ -348,10 +352,19 @@ func BenchmarkSeriesValues(b *testing.B) {
 	for _, withText := range []bool{false, true} {
 		b.Run(fmt.Sprintf("text=%v", withText), func(b *testing.B) {
 			var form, text []byte
+			var recs [3][]seriesDigit
 			for b.Loop() {
 				form, text = form[:0], text[:0]
 				for k, p := range list {
-					form, text = appendSeriesValues(form, text, withText, p, k%2 == 0)
+					// wavelengths, data, model, residual (against
+					// the two before it)
+					var dm, mm []seriesDigit
+					if k%4 == 3 {
+						dm, mm = recs[(k-2)%3][:len(p)], recs[(k-1)%3][:len(p)]
+					}
+					r := slices.Grow(recs[k%3][:0], len(p))[:len(p)]
+					recs[k%3] = r
+					form, text = appendSeriesValues(form, text, withText, p, []int{seriesSecond, seriesFirst, seriesSecond, seriesResidual}[k%4], r, dm, mm)
 				}
 			}
 			b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N*nv), "ns/value")
@@ -506,21 +519,21 @@ func TestSeriesFormUnchanged(t *testing.T) {
 		// version 1 did; only the header differs.
 		ref := appendSeriesValuesRef(nil, p)
 		_, n := binary.Uvarint(ref)
-		want := binary.AppendUvarint([]byte("x"), uint64(len(p))<<1)
+		want := binary.AppendUvarint([]byte("x"), uint64(len(p))<<2)
 		want = append(want, ref[n:]...)
-		got, text := appendSeriesValues([]byte("x"), []byte("y"), true, p, false)
+		got, text := appendSeriesValues([]byte("x"), []byte("y"), true, p, seriesFirst, nil, nil, nil)
 		if !bytes.Equal(got, want) {
 			t.Fatalf("series %d (%d values): form differs from the reference", k, len(p))
 		}
 		if wantText := appendPlotFloats([]byte("y"), p); !bytes.Equal(text, wantText) {
 			t.Fatalf("series %d (%d values): text differs from appendPlotFloats", k, len(p))
 		}
-		if got2, _ := appendSeriesValues([]byte("x"), nil, false, p, false); !bytes.Equal(got2, want) {
+		if got2, _ := appendSeriesValues([]byte("x"), nil, false, p, seriesFirst, nil, nil, nil); !bytes.Equal(got2, want) {
 			t.Fatalf("series %d (%d values): form without text differs", k, len(p))
 		}
 		// By second differences: the same text, and the values expand
 		// to it.
-		form2, text2 := appendSeriesValues(nil, []byte("y"), true, p, true)
+		form2, text2 := appendSeriesValues(nil, []byte("y"), true, p, seriesSecond, nil, nil, nil)
 		if !bytes.Equal(text2, text) {
 			t.Fatalf("series %d (%d values): text by second differences differs", k, len(p))
 		}
@@ -635,4 +648,84 @@ func benchWholeResultT(t *testing.T, k int) *Result {
 		t.Fatalf("no whole fit with windows: %v", err)
 	}
 	return &res
+}
+
+// TestSeriesResidual: a residual is coded against its data and model
+// (mode 2) where that is the smaller, and expands to its text: for the
+// whole fit and the windows of a real result (where it is chosen, and
+// takes less than half the bytes of first differences), for residuals
+// that are not data − model (first differences kept), and for data and
+// models with nulls, values in bytes, zeros and changes of decade (no
+// prediction for those values).
+func TestSeriesResidual(t *testing.T) {
+	res := benchWholeResultT(t, 2)
+	type group struct{ d, m, r []float64 }
+	var real []group
+	real = append(real, group{res.Whole.Data, res.Whole.Model, res.Whole.Residual})
+	for _, w := range res.Windows {
+		real = append(real, group{w.Data, w.Model, w.Residual})
+	}
+	r := rand.New(rand.NewPCG(3, 9))
+	noise := make([]float64, len(res.Whole.Data))
+	for i := range noise {
+		noise[i] = r.NormFloat64() * 30
+	}
+	awk := make([]float64, 400)
+	awkM := make([]float64, 400)
+	for i := range awk {
+		awk[i] = (r.Float64() + 0.05) * math.Pow(10, float64(r.IntN(6)-2))
+		awkM[i] = awk[i] * (1 + 0.01*r.NormFloat64())
+		switch i % 37 {
+		case 3:
+			awk[i] = math.NaN()
+		case 5:
+			awkM[i] = 0
+		case 7:
+			awk[i] = 1e30
+		case 11:
+			awkM[i] = awk[i] // equal: no prediction
+		case 13:
+			awkM[i] = -awk[i] * 20 // another decade
+		}
+	}
+	awkR := make([]float64, 400)
+	for i := range awkR {
+		awkR[i] = awk[i] - awkM[i]
+	}
+	cases := []struct {
+		g        group
+		residual bool // mode 2 expected
+	}{{group{res.Whole.Data, res.Whole.Model, noise}, false}, {group{awk, awkM, awkR}, true}}
+	for _, g := range real {
+		cases = append(cases, struct {
+			g        group
+			residual bool
+		}{g, true})
+	}
+	for k, c := range cases {
+		dm, mm := make([]seriesDigit, len(c.g.d)), make([]seriesDigit, len(c.g.m))
+		fd, td := appendSeriesValues(nil, nil, true, c.g.d, seriesFirst, dm, nil, nil)
+		fm, tm := appendSeriesValues(nil, nil, true, c.g.m, seriesSecond, mm, nil, nil)
+		fr, tr := appendSeriesValues(nil, nil, true, c.g.r, seriesResidual, nil, dm, mm)
+		f0, _ := appendSeriesValues(nil, nil, false, c.g.r, seriesFirst, nil, nil, nil)
+		h, _ := binary.Uvarint(fr)
+		if mode := int(h & 3); (mode == seriesResidual) != c.residual {
+			t.Errorf("case %d: mode %d", k, mode)
+		}
+		if len(fr) > len(f0) {
+			t.Errorf("case %d: %d bytes, %d by first differences", k, len(fr), len(f0))
+		}
+		if c.residual && k >= 2 && 2*len(fr) > len(f0) {
+			t.Errorf("case %d (real): residual %d bytes, %d by first differences", k, len(fr), len(f0))
+		}
+		blob := append(append(bytes.Clone(seriesMagic), 3), fd...)
+		blob = append(append(blob, fm...), fr...)
+		got, err := ExpandSeries(nil, "[null] [null] [null]", blob)
+		if want := string(td) + " " + string(tm) + " " + string(tr); err != nil || string(got) != want {
+			t.Fatalf("case %d: expansion differs (%v)", k, err)
+		}
+		if want := string(appendPlotFloats(nil, c.g.r)); string(tr) != want {
+			t.Fatalf("case %d: residual text differs from appendPlotFloats", k)
+		}
+	}
 }
