@@ -447,34 +447,46 @@ const noDigits = math.MinInt
 // in a loop whose rounds do not wait for each other (the digits are a
 // chain of dependent floating-point steps that the writing of the bytes,
 // which depends on them, kept the processor from overlapping), then
-// written.
+// written (each mode in a loop of its own: one loop for all modes was
+// markedly slower).
 func appendSeriesValues(b, text []byte, withText bool, p []float64, mode int, rec, dm, mm []seriesDigit) ([]byte, []byte) {
 	if mode == seriesResidual && (len(dm) != len(p) || len(mm) != len(p)) {
 		mode = seriesFirst
 	}
 	b0 := len(b)
 	b = binary.AppendUvarint(b, uint64(len(p))<<2|uint64(mode))
-	v0 := len(b)
 	if withText {
 		text = append(text, '[')
 	}
+	cb := chunkBufs.Get().(*seriesChunkBufs)
+	if mode == seriesResidual {
+		v0 := len(b)
+		var firstLen int
+		b, text, firstLen = appendResidualValues(b, text, withText, p, cb, dm, mm)
+		if firstLen <= len(b)-v0 {
+			b, _ = appendSeriesValues(b[:b0], nil, false, p, seriesFirst, nil, nil, nil)
+		}
+	} else {
+		b, text = appendDeltaValues(b, text, withText, p, cb, mode == seriesSecond, rec)
+	}
+	chunkBufs.Put(cb)
+	if withText {
+		text = append(text, ']')
+	}
+	return b, text
+}
+
+// appendDeltaValues writes p's values by first (or with second, second)
+// differences, for appendSeriesValues.
+func appendDeltaValues(b, text []byte, withText bool, p []float64, cb *seriesChunkBufs, second bool, rec []seriesDigit) ([]byte, []byte) {
 	var prevS, prevD int64
 	prevE := 0
-	firstLen := 0 // a residual's bytes by first differences
-	cb := chunkBufs.Get().(*seriesChunkBufs)
-	defer chunkBufs.Put(cb)
-	digits, preds := &cb.digits, &cb.preds
+	digits := &cb.digits
 	for i := 0; i < len(p); i += seriesChunk {
 		chunk := p[i:min(i+seriesChunk, len(p))]
 		seriesDigitsChunk(digits, chunk)
-		if mode == seriesResidual {
-			for j := range chunk {
-				pr, eP, ok := predictResidual(dm[i+j], mm[i+j])
-				if !ok {
-					eP = noDigits
-				}
-				preds[j] = seriesDigit{pr, eP}
-			}
+		if rec != nil {
+			recordDigits(rec[i:i+len(chunk)], digits, chunk)
 		}
 		for j, v := range chunk {
 			if withText && i+j > 0 {
@@ -482,72 +494,115 @@ func appendSeriesValues(b, text []byte, withText bool, p []float64, mode int, re
 			}
 			m, e10 := digits[j].m, digits[j].e10
 			if e10 == noDigits {
-				if rec != nil {
-					rec[i+j] = seriesDigit{0, noDigits}
-				}
-				if math.IsNaN(v) || math.IsInf(v, 0) {
-					b = append(b, 2)
-					firstLen++
-					if withText {
-						text = append(text, "null"...)
-					}
-					continue
-				}
-				b = append(b, 3)
-				b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
-				firstLen += 9
-				if withText {
-					text = strconv.AppendFloat(text, v, 'g', 8, 64)
-				}
+				b, text = appendNoDigits(b, text, withText, v)
 				continue
 			}
 			s := int64(m)
 			if v < 0 {
 				s = -s
 			}
-			if rec != nil {
-				rec[i+j] = seriesDigit{s, e10}
-			}
-			if mode == seriesResidual {
-				pr, eP := preds[j].s, preds[j].e10
-				if e10 == eP {
-					b = binary.AppendUvarint(b, zigzag(s-pr)<<2)
-				} else {
-					if eP == noDigits {
-						eP = 0
-					}
-					b = binary.AppendUvarint(b, zigzag(int64(e10-eP))<<2|1)
-					b = binary.AppendUvarint(b, zigzag(s))
-				}
-				if e10 == prevE {
-					firstLen += uvarintLen(zigzag(s-prevS) << 2)
-				} else {
-					firstLen += uvarintLen(zigzag(int64(e10-prevE))<<2|1) + uvarintLen(zigzag(s))
-					prevE = e10
-				}
-				prevS = s
-			} else if e10 == prevE {
+			if e10 == prevE {
 				d := s - prevS
 				b = binary.AppendUvarint(b, zigzag(d-prevD)<<2)
-				if mode == seriesSecond {
+				if second {
 					prevD = d
 				}
-				prevS = s
 			} else {
 				b = binary.AppendUvarint(b, zigzag(int64(e10-prevE))<<2|1)
 				b = binary.AppendUvarint(b, zigzag(s))
-				prevS, prevE, prevD = s, e10, 0
+				prevE, prevD = e10, 0
 			}
+			prevS = s
 			if withText {
 				text = appendDigits8(text, v < 0, m, e10)
 			}
 		}
 	}
-	if withText {
-		text = append(text, ']')
+	return b, text
+}
+
+// appendResidualValues writes p's values as residuals of dm − mm (mode
+// 2), for appendSeriesValues; firstLen is what first differences would
+// take.
+func appendResidualValues(b, text []byte, withText bool, p []float64, cb *seriesChunkBufs, dm, mm []seriesDigit) (_, _ []byte, firstLen int) {
+	var prevS int64
+	prevE := 0
+	digits, preds := &cb.digits, &cb.preds
+	for i := 0; i < len(p); i += seriesChunk {
+		chunk := p[i:min(i+seriesChunk, len(p))]
+		seriesDigitsChunk(digits, chunk)
+		for j := range chunk {
+			pr, eP, ok := predictResidual(dm[i+j], mm[i+j])
+			if !ok {
+				eP = noDigits
+			}
+			preds[j] = seriesDigit{pr, eP}
+		}
+		for j, v := range chunk {
+			if withText && i+j > 0 {
+				text = append(text, ',')
+			}
+			m, e10 := digits[j].m, digits[j].e10
+			if e10 == noDigits {
+				n0 := len(b)
+				b, text = appendNoDigits(b, text, withText, v)
+				firstLen += len(b) - n0
+				continue
+			}
+			s := int64(m)
+			if v < 0 {
+				s = -s
+			}
+			if pr, eP := preds[j].s, preds[j].e10; e10 == eP {
+				b = binary.AppendUvarint(b, zigzag(s-pr)<<2)
+			} else {
+				if eP == noDigits {
+					eP = 0
+				}
+				b = binary.AppendUvarint(b, zigzag(int64(e10-eP))<<2|1)
+				b = binary.AppendUvarint(b, zigzag(s))
+			}
+			if e10 == prevE {
+				firstLen += uvarintLen(zigzag(s-prevS) << 2)
+			} else {
+				firstLen += uvarintLen(zigzag(int64(e10-prevE))<<2|1) + uvarintLen(zigzag(s))
+				prevE = e10
+			}
+			prevS = s
+			if withText {
+				text = appendDigits8(text, v < 0, m, e10)
+			}
+		}
 	}
-	if mode == seriesResidual && firstLen <= len(b)-v0 {
-		b, _ = appendSeriesValues(b[:b0], nil, false, p, seriesFirst, nil, nil, nil)
+	return b, text, firstLen
+}
+
+// recordDigits sets rec[j] to chunk[j]'s digits (signed) from digits.
+func recordDigits(rec []seriesDigit, digits *[seriesChunk]plotDigitsOf, chunk []float64) {
+	for j, v := range chunk {
+		d := digits[j]
+		s := int64(d.m)
+		if v < 0 {
+			s = -s
+		}
+		rec[j] = seriesDigit{s, d.e10}
+	}
+}
+
+// appendNoDigits writes a value without digits: a NaN or ±Inf as null,
+// another (zeros, extreme magnitudes, near-ties) in its eight bytes.
+func appendNoDigits(b, text []byte, withText bool, v float64) ([]byte, []byte) {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		b = append(b, 2)
+		if withText {
+			text = append(text, "null"...)
+		}
+		return b, text
+	}
+	b = append(b, 3)
+	b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
+	if withText {
+		text = strconv.AppendFloat(text, v, 'g', 8, 64)
 	}
 	return b, text
 }
