@@ -5,9 +5,11 @@ import (
 	"encoding/binary"
 	"errors"
 	"math"
+	"math/bits"
 	"slices"
 	"strconv"
 	"strings"
+	"sync"
 	"sync/atomic"
 )
 
@@ -20,14 +22,24 @@ import (
 // text has (eight significant digits, plotDigits), not recomputed, and
 // written by the same code (appendDigits8) as AppendJSON writes them.
 //
-// The binary form ("series"): the magic bytes 'G' 'S' 1, the number of
-// series (uvarint), then per series its length (uvarint) and its values,
-// in the order of the placeholders in the JSON (AppendJSONSplit makes
-// sure the JSON holds no other "[null]"), each value one uvarint u:
+// The binary form ("series"): the magic bytes 'G' 'S' and the format
+// version (1 or 2), the number of series (uvarint), then per series a
+// header (uvarint) and its values, in the order of the placeholders in
+// the JSON (AppendJSONSplit makes sure the JSON holds no other "[null]").
+// The header is the series' length in version 1; in version 2 it is
+// length<<2 | mode, the mode saying how the mantissas are coded: 0 by
+// their first differences (all series of version 1), 1 by their second
+// differences (AppendJSONSplit's choice for the wavelengths, an even
+// grid, and the models, which are smooth: ~1 and ~1.6 bytes a value
+// instead of ~3 and ~2), 2 as residuals (below). Each value is one
+// uvarint u:
 //
 //   - u&3 == 0: same decimal exponent as the previous value of the
 //     series; the signed eight-digit mantissa (±m) differs from the
-//     previous one by zigzag⁻¹(u>>2);
+//     previous one by d = zigzag⁻¹(u>>2), or in mode 1 by d plus the
+//     previous difference (0 at a series' start and after a new
+//     exponent; a null or a value in bytes leaves it, like the previous
+//     mantissa, unchanged);
 //   - u&3 == 1: a new exponent, previous + zigzag⁻¹(u>>2), followed by a
 //     uvarint zigzag(±m);
 //   - u == 2: a NaN or ±Inf (written as null);
@@ -36,17 +48,105 @@ import (
 //     bytes (IEEE 754, little-endian).
 //
 // The previous exponent and mantissa start at 0 for every series.
-// Spectra's series take about 4–6 bytes a value instead of about 10 as
-// text.
+//
+// Mode 2 codes a residual (data − model) against the two series before
+// it in the form, which have its length (the data and the model; their
+// eight-digit values D and M): where D and M have digits with the same
+// exponent and differ, the value is predicted from D − M in integers
+// (residual P with exponent eP, predictResidual), and
+//
+//   - u&3 == 0: the value has exponent eP and mantissa P + zigzag⁻¹(u>>2)
+//     (the mantissas of D and M are off by half a unit at most: the
+//     difference takes about a byte instead of 4–5);
+//   - u&3 == 1: exponent eP + zigzag⁻¹(u>>2) (0 in place of eP without a
+//     prediction), followed by a uvarint zigzag(±m);
+//   - u == 2 and u == 3 as above.
+//
+// AppendJSONSplit offers mode 2 for each residual and keeps it where it
+// is the smaller.
+// Spectra's series take about 1–5 bytes a value instead of about 10 as
+// text. AppendJSONSplit writes version 2; ExpandSeries reads both (rows
+// stored before version 2 keep their version-1 form).
 
-// seriesMagic starts the binary form (format version 1).
-var seriesMagic = []byte{'G', 'S', 1}
+// seriesMagic starts the binary form AppendJSONSplit writes (format
+// version 2); seriesMagicV1 the form of version 1.
+var (
+	seriesMagic   = []byte{'G', 'S', 2}
+	seriesMagicV1 = []byte{'G', 'S', 1}
+)
 
 // seriesPlaceholder is what AppendJSONSplit writes for a series.
 var seriesPlaceholder = []byte("[null]")
 
 // placeholderSeries is a series whose JSON is seriesPlaceholder.
 var placeholderSeries = PlotFloats{math.NaN()}
+
+// The modes of a series in the form (version 2).
+const (
+	seriesFirst    = 0 // first differences
+	seriesSecond   = 1 // second differences
+	seriesResidual = 2 // against the data and model before it
+)
+
+// seriesDigit is one value's eight digits as the form holds them: the
+// signed mantissa ±m and the exponent, or e10 noDigits for a null or a
+// value kept in bytes.
+type seriesDigit struct {
+	s   int64
+	e10 int
+}
+
+// seriesRecords are the digits of the last three series written or read,
+// the k-th at [k%3] (k its place in the form; -1: none).
+type seriesRecords [3]struct {
+	k int
+	d []seriesDigit
+}
+
+// of returns the digits of series k when they are kept and n long.
+func (sc *seriesRecords) of(k, n int) []seriesDigit {
+	if r := &sc[k%len(sc)]; r.k == k && len(r.d) == n {
+		return r.d
+	}
+	return nil
+}
+
+// seriesScratch holds *seriesRecords for AppendJSONSplit and
+// ExpandSeries.
+var seriesScratch = sync.Pool{New: func() any { return new(seriesRecords) }}
+
+// seriesPow10 are the powers of ten up to 10⁸.
+var seriesPow10 = [...]int64{1, 10, 100, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8}
+
+// predictResidual returns the eight-digit mantissa P and exponent eP of
+// D − M from the digits of D and M (mode 2); ok is false where they have
+// none, other exponents, or are equal. Integers only: the writer and the
+// reader find the same prediction.
+func predictResidual(d, m seriesDigit) (p int64, eP int, ok bool) {
+	if d.e10 == noDigits || m.e10 == noDigits || d.e10 != m.e10 || d.s == m.s {
+		return 0, 0, false
+	}
+	diff := d.s - m.s // |diff| < 2·10⁸, in units of 10^(e10−7)
+	a := diff
+	if a < 0 {
+		a = -a
+	}
+	// The digits of a (1 ≤ a < 2²⁸): ⌊log₁₀ 2^len⌋, plus one from its
+	// power of ten on.
+	nd := bits.Len64(uint64(a)) * 1233 >> 12
+	if a >= seriesPow10[nd] {
+		nd++
+	}
+	eP = d.e10 - 8 + nd
+	if nd <= 8 {
+		return diff * seriesPow10[8-nd], eP, true
+	}
+	p = (a + 5) / 10 // nine digits: rounded to eight, half away from zero
+	if diff < 0 {
+		p = -p
+	}
+	return p, eP, true
+}
 
 // ErrSeriesSplit is returned by AppendJSONSplit when its placeholder
 // JSON cannot be told apart from the result's own text (a "[null]"
@@ -79,10 +179,12 @@ func AppendJSONSplitFull(b, series, full []byte, r *Result) (json, seriesOut, fu
 // too when full is not nil.
 func appendJSONSplit(b, series []byte, full *[]byte, r *Result) (json, seriesOut []byte, err error) {
 	var list [][]float64
-	grid := -1 // the whole fit's wavelengths in list
-	take := func(p *PlotFloats) {
+	var modes []int // list[k]'s mode (seriesFirst, …)
+	grid := -1      // the whole fit's wavelengths in list
+	take := func(p *PlotFloats, mode int) {
 		if len(*p) > 0 {
 			list = append(list, *p)
+			modes = append(modes, mode)
 			*p = placeholderSeries
 		}
 	}
@@ -92,10 +194,10 @@ func appendJSONSplit(b, series []byte, full *[]byte, r *Result) (json, seriesOut
 	if len(r.Windows) > 0 {
 		rr.Windows = make([]Window, len(r.Windows))
 		for i, w := range r.Windows {
-			take(&w.WavelengthNM)
-			take(&w.Data)
-			take(&w.Model)
-			take(&w.Residual)
+			take(&w.WavelengthNM, seriesSecond)
+			take(&w.Data, seriesFirst)
+			take(&w.Model, seriesSecond)
+			take(&w.Residual, seriesResidual)
 			rr.Windows[i] = w
 		}
 	}
@@ -104,10 +206,10 @@ func appendJSONSplit(b, series []byte, full *[]byte, r *Result) (json, seriesOut
 		if len(w.WavelengthNM) > 0 {
 			grid = len(list)
 		}
-		take(&w.WavelengthNM)
-		take(&w.Data)
-		take(&w.Model)
-		take(&w.Residual)
+		take(&w.WavelengthNM, seriesSecond)
+		take(&w.Data, seriesFirst)
+		take(&w.Model, seriesSecond)
+		take(&w.Residual, seriesResidual)
 		rr.Whole = &w
 	}
 	start := len(b)
@@ -151,17 +253,34 @@ func appendJSONSplit(b, series []byte, full *[]byte, r *Result) (json, seriesOut
 	if full != nil {
 		text = slices.Grow(*full, len(js)+12*nv)
 	}
+	// The digits of the series written that a residual may follow (its
+	// data and model; the k-th at [k%3]), not the grid's (copied).
+	sc := seriesScratch.Get().(*seriesRecords)
+	defer seriesScratch.Put(sc)
+	for i := range sc {
+		sc[i].k = -1
+	}
 	pos = 0
 	for k, p := range list {
 		if full != nil {
 			text = append(text, js[pos:at[k]]...)
 		}
+		pos = at[k] + len(seriesPlaceholder)
 		if k == grid {
 			series, text = appendGridSeries(series, text, full != nil, p)
-		} else {
-			series, text = appendSeriesValues(series, text, full != nil, p)
+			continue
 		}
-		pos = at[k] + len(seriesPlaceholder)
+		var dm, mm []seriesDigit // a residual's data and model
+		if modes[k] == seriesResidual && k >= 2 {
+			dm, mm = sc.of(k-2, len(p)), sc.of(k-1, len(p))
+		}
+		var rec []seriesDigit // kept for a residual after it
+		if k+1 < len(list) && modes[k+1] == seriesResidual || k+2 < len(list) && modes[k+2] == seriesResidual {
+			r := &sc[k%len(sc)]
+			r.k, r.d = k, slices.Grow(r.d[:0], len(p))[:len(p)]
+			rec = r.d
+		}
+		series, text = appendSeriesValues(series, text, full != nil, p, modes[k], rec, dm, mm)
 	}
 	if full != nil {
 		*full = append(text, js[pos:]...)
@@ -185,8 +304,8 @@ type gridMemo struct {
 // changed).
 var lastGrid atomic.Pointer[gridMemo]
 
-// appendGridSeries is appendSeriesValues for a whole fit's wavelengths,
-// through lastGrid.
+// appendGridSeries is appendSeriesValues for a whole fit's wavelengths
+// (by second differences), through lastGrid.
 func appendGridSeries(b, text []byte, withText bool, p []float64) ([]byte, []byte) {
 	if m := lastGrid.Load(); m != nil && (m.text != nil || !withText) && sameBits(m.values, p) {
 		b = append(b, m.form...)
@@ -196,7 +315,7 @@ func appendGridSeries(b, text []byte, withText bool, p []float64) ([]byte, []byt
 		return b, text
 	}
 	b0, t0 := len(b), len(text)
-	b, text = appendSeriesValues(b, text, withText, p)
+	b, text = appendSeriesValues(b, text, withText, p, seriesSecond, nil, nil, nil)
 	m := &gridMemo{values: slices.Clone(p), form: slices.Clone(b[b0:])}
 	if withText {
 		m.text = slices.Clone(text[t0:])
@@ -222,11 +341,94 @@ func sameBits(a, b []float64) bool {
 func zigzag(v int64) uint64   { return uint64(v<<1) ^ uint64(v>>63) }
 func unzigzag(u uint64) int64 { return int64(u>>1) ^ -int64(u&1) }
 
+// seriesExp is, for one binary exponent of a float64, the decimal
+// exponent of its values: e10 for values below thr (float64 bits of
+// 10^(e10+1), rounded), e10+1 from thr on. ⌊log₁₀ a⌋ takes at most two
+// values over a binade; the table gives it with one comparison, which the
+// compiler makes a conditional move (the loop of plotDigits branched on
+// it, and noisy data made that branch unpredictable). A guess that is
+// wrong (10^n not exact in float64, a rounded product) is caught by
+// seriesDigitsChunk's range check.
+type seriesExp struct {
+	thr uint64
+	e10 int64
+}
+
+// seriesExps holds seriesExp by biased binary exponent (the float64
+// bits >> 52 of |v|). Exponents whose values plotDigits refuses or
+// divides for (outside [1e-15, 1e8)) get an e10 that sends
+// seriesDigitsChunk to plotDigits.
+var seriesExps = func() (t [2048]seriesExp) {
+	for be := range t {
+		t[be] = seriesExp{thr: math.MaxUint64, e10: 1 << 20}
+		if be == 0 || be == 2047 {
+			continue // zeros, subnormals; ±Inf, NaN
+		}
+		lo := math.Float64frombits(uint64(be) << 52) // 2^(be−1023)
+		e10 := int(math.Floor(math.Log10(lo)))
+		if p, _ := strconv.ParseFloat("1e"+strconv.Itoa(e10), 64); lo < p {
+			e10-- // Log10 rounded up
+		} else if p, _ := strconv.ParseFloat("1e"+strconv.Itoa(e10+1), 64); lo >= p {
+			e10++ // rounded down
+		}
+		if e10 < -15 || e10 > 8 { // plotDigits refuses a binade that begins below 1e-15
+			continue
+		}
+		thr, _ := strconv.ParseFloat("1e"+strconv.Itoa(e10+1), 64)
+		t[be] = seriesExp{thr: math.Float64bits(thr), e10: int64(e10)}
+	}
+	return t
+}()
+
+// seriesDigitsChunk sets digits[j] to plotDigits' answer for chunk[j]
+// (m and e10, or e10 noDigits where it refuses), faster for the values of
+// plot series ([1e-15, 1e8)): the decimal exponent from seriesExps, one
+// product with an exact power of ten, and no branch that depends on the
+// data but for the rare values left to plotDigits itself. As in
+// plotDigits, the digits of a correctly rounded product x with an exact
+// power of ten are those of the value unless the ninth digit and beyond
+// are within 1e-6 of one half; a product in [1e7, 1e8) is the one
+// plotDigits ends with (one power of ten puts it there), so the answer
+// is plotDigits' whenever the fast path gives one. Values outside that
+// range (zeros, NaN, ±Inf, magnitudes plotDigits refuses or divides
+// for, a guess of the exponent that missed), near-ties, and a rounding
+// that carries into 10⁸ go to plotDigits.
+func seriesDigitsChunk(digits *[seriesChunk]plotDigitsOf, chunk []float64) {
+	for j, w := range chunk {
+		bits := math.Float64bits(w) &^ (1 << 63)
+		t := &seriesExps[bits>>52]
+		e := t.e10
+		if bits >= t.thr {
+			e++
+		}
+		k := uint64(7 - e)
+		x := 0.0
+		if k < uint64(len(plotPow10)) {
+			x = math.Float64frombits(bits) * plotPow10[k]
+		}
+		mi := int64(x) // x < 1e9 here or refused below: one instruction
+		frac := x - float64(mi)
+		if frac > 0.5 {
+			mi++
+		}
+		if !(x >= 1e7 && mi < 1e8) || math.Abs(frac-0.5) < 1e-6 {
+			m, e10, ok := plotDigits(w)
+			if !ok {
+				e10 = noDigits
+			}
+			digits[j] = plotDigitsOf{m, e10}
+			continue
+		}
+		digits[j] = plotDigitsOf{uint64(mi), int(e)}
+	}
+}
+
 // seriesChunk is the number of values whose digits appendSeriesValues
 // finds in one pass before it writes them.
 const seriesChunk = 256
 
-// plotDigitsOf holds plotDigits' answer for one value (ok: e10 ≠ noDigits).
+// plotDigitsOf holds plotDigits' answer for one value (ok: e10 ≠
+// noDigits).
 type plotDigitsOf struct {
 	m   uint64
 	e10 int
@@ -235,71 +437,189 @@ type plotDigitsOf struct {
 // noDigits marks a value plotDigits refuses.
 const noDigits = math.MinInt
 
-// appendSeriesValues appends one series' length and values to b, and
-// with withText its JSON text (as appendPlotFloats writes it) to text.
-// The digits of a chunk of values are found first, in a loop whose
-// rounds do not wait for each other (plotDigits is a chain of dependent
-// floating-point steps that the writing of the bytes, which depends on
-// them, kept the processor from overlapping), then written.
-func appendSeriesValues(b, text []byte, withText bool, p []float64) ([]byte, []byte) {
-	b = binary.AppendUvarint(b, uint64(len(p)))
+// appendSeriesValues appends one series' header and values to b (format
+// version 2, in mode), and with withText its JSON text (as
+// appendPlotFloats writes it) to text. rec, when not nil (len(p) long),
+// gets the values' digits. A residual (mode seriesResidual) needs the
+// digits of its data and model (dm, mm; len(p) long): without them, or
+// where it would be the larger, it is written by first differences.
+// The digits of a chunk of values are found first (seriesDigitsChunk),
+// in a loop whose rounds do not wait for each other (the digits are a
+// chain of dependent floating-point steps that the writing of the bytes,
+// which depends on them, kept the processor from overlapping), then
+// written (each mode in a loop of its own: one loop for all modes was
+// markedly slower).
+func appendSeriesValues(b, text []byte, withText bool, p []float64, mode int, rec, dm, mm []seriesDigit) ([]byte, []byte) {
+	if mode == seriesResidual && (len(dm) != len(p) || len(mm) != len(p)) {
+		mode = seriesFirst
+	}
+	b0 := len(b)
+	b = binary.AppendUvarint(b, uint64(len(p))<<2|uint64(mode))
 	if withText {
 		text = append(text, '[')
 	}
-	var prevS int64
-	prevE := 0
-	var digits [seriesChunk]plotDigitsOf
-	for i, v := range p {
-		k := i % seriesChunk
-		if k == 0 {
-			for j, w := range p[i:min(i+seriesChunk, len(p))] {
-				m, e10, ok := plotDigits(w)
-				if !ok {
-					e10 = noDigits
-				}
-				digits[j] = plotDigitsOf{m, e10}
-			}
+	cb := chunkBufs.Get().(*seriesChunkBufs)
+	if mode == seriesResidual {
+		v0 := len(b)
+		var firstLen int
+		b, text, firstLen = appendResidualValues(b, text, withText, p, cb, dm, mm)
+		if firstLen <= len(b)-v0 {
+			b, _ = appendSeriesValues(b[:b0], nil, false, p, seriesFirst, nil, nil, nil)
 		}
-		if withText && i > 0 {
-			text = append(text, ',')
-		}
-		m, e10 := digits[k].m, digits[k].e10
-		if e10 == noDigits {
-			if math.IsNaN(v) || math.IsInf(v, 0) {
-				b = append(b, 2)
-				if withText {
-					text = append(text, "null"...)
-				}
-				continue
-			}
-			b = append(b, 3)
-			b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
-			if withText {
-				text = strconv.AppendFloat(text, v, 'g', 8, 64)
-			}
-			continue
-		}
-		s := int64(m)
-		if v < 0 {
-			s = -s
-		}
-		if e10 == prevE {
-			b = binary.AppendUvarint(b, zigzag(s-prevS)<<2)
-		} else {
-			b = binary.AppendUvarint(b, zigzag(int64(e10-prevE))<<2|1)
-			b = binary.AppendUvarint(b, zigzag(s))
-			prevE = e10
-		}
-		prevS = s
-		if withText {
-			text = appendDigits8(text, v < 0, m, e10)
-		}
+	} else {
+		b, text = appendDeltaValues(b, text, withText, p, cb, mode == seriesSecond, rec)
 	}
+	chunkBufs.Put(cb)
 	if withText {
 		text = append(text, ']')
 	}
 	return b, text
 }
+
+// appendDeltaValues writes p's values by first (or with second, second)
+// differences, for appendSeriesValues.
+func appendDeltaValues(b, text []byte, withText bool, p []float64, cb *seriesChunkBufs, second bool, rec []seriesDigit) ([]byte, []byte) {
+	var prevS, prevD int64
+	prevE := 0
+	digits := &cb.digits
+	for i := 0; i < len(p); i += seriesChunk {
+		chunk := p[i:min(i+seriesChunk, len(p))]
+		seriesDigitsChunk(digits, chunk)
+		if rec != nil {
+			recordDigits(rec[i:i+len(chunk)], digits, chunk)
+		}
+		for j, v := range chunk {
+			if withText && i+j > 0 {
+				text = append(text, ',')
+			}
+			m, e10 := digits[j].m, digits[j].e10
+			if e10 == noDigits {
+				b, text = appendNoDigits(b, text, withText, v)
+				continue
+			}
+			s := int64(m)
+			if v < 0 {
+				s = -s
+			}
+			if e10 == prevE {
+				d := s - prevS
+				b = binary.AppendUvarint(b, zigzag(d-prevD)<<2)
+				if second {
+					prevD = d
+				}
+			} else {
+				b = binary.AppendUvarint(b, zigzag(int64(e10-prevE))<<2|1)
+				b = binary.AppendUvarint(b, zigzag(s))
+				prevE, prevD = e10, 0
+			}
+			prevS = s
+			if withText {
+				text = appendDigits8(text, v < 0, m, e10)
+			}
+		}
+	}
+	return b, text
+}
+
+// appendResidualValues writes p's values as residuals of dm − mm (mode
+// 2), for appendSeriesValues; firstLen is what first differences would
+// take.
+func appendResidualValues(b, text []byte, withText bool, p []float64, cb *seriesChunkBufs, dm, mm []seriesDigit) (_, _ []byte, firstLen int) {
+	var prevS int64
+	prevE := 0
+	digits, preds := &cb.digits, &cb.preds
+	for i := 0; i < len(p); i += seriesChunk {
+		chunk := p[i:min(i+seriesChunk, len(p))]
+		seriesDigitsChunk(digits, chunk)
+		for j := range chunk {
+			pr, eP, ok := predictResidual(dm[i+j], mm[i+j])
+			if !ok {
+				eP = noDigits
+			}
+			preds[j] = seriesDigit{pr, eP}
+		}
+		for j, v := range chunk {
+			if withText && i+j > 0 {
+				text = append(text, ',')
+			}
+			m, e10 := digits[j].m, digits[j].e10
+			if e10 == noDigits {
+				n0 := len(b)
+				b, text = appendNoDigits(b, text, withText, v)
+				firstLen += len(b) - n0
+				continue
+			}
+			s := int64(m)
+			if v < 0 {
+				s = -s
+			}
+			if pr, eP := preds[j].s, preds[j].e10; e10 == eP {
+				b = binary.AppendUvarint(b, zigzag(s-pr)<<2)
+			} else {
+				if eP == noDigits {
+					eP = 0
+				}
+				b = binary.AppendUvarint(b, zigzag(int64(e10-eP))<<2|1)
+				b = binary.AppendUvarint(b, zigzag(s))
+			}
+			if e10 == prevE {
+				firstLen += uvarintLen(zigzag(s-prevS) << 2)
+			} else {
+				firstLen += uvarintLen(zigzag(int64(e10-prevE))<<2|1) + uvarintLen(zigzag(s))
+				prevE = e10
+			}
+			prevS = s
+			if withText {
+				text = appendDigits8(text, v < 0, m, e10)
+			}
+		}
+	}
+	return b, text, firstLen
+}
+
+// recordDigits sets rec[j] to chunk[j]'s digits (signed) from digits.
+func recordDigits(rec []seriesDigit, digits *[seriesChunk]plotDigitsOf, chunk []float64) {
+	for j, v := range chunk {
+		d := digits[j]
+		s := int64(d.m)
+		if v < 0 {
+			s = -s
+		}
+		rec[j] = seriesDigit{s, d.e10}
+	}
+}
+
+// appendNoDigits writes a value without digits: a NaN or ±Inf as null,
+// another (zeros, extreme magnitudes, near-ties) in its eight bytes.
+func appendNoDigits(b, text []byte, withText bool, v float64) ([]byte, []byte) {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		b = append(b, 2)
+		if withText {
+			text = append(text, "null"...)
+		}
+		return b, text
+	}
+	b = append(b, 3)
+	b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
+	if withText {
+		text = strconv.AppendFloat(text, v, 'g', 8, 64)
+	}
+	return b, text
+}
+
+// seriesChunkBufs are appendSeriesValues' buffers for a chunk: the
+// values' digits and a residual's predictions (e10 noDigits: none).
+// Pooled: as local arrays they were zeroed (8 kB) at every call, two
+// dozen a result.
+type seriesChunkBufs struct {
+	digits [seriesChunk]plotDigitsOf
+	preds  [seriesChunk]seriesDigit
+}
+
+var chunkBufs = sync.Pool{New: func() any { return new(seriesChunkBufs) }}
+
+// uvarintLen is the length of u's uvarint.
+func uvarintLen(u uint64) int { return (bits.Len64(u|1) + 6) / 7 }
 
 // errSeriesCorrupt reports a series form that does not fit its JSON.
 var errSeriesCorrupt = errors.New("spectrum: stored plot series corrupt")
@@ -313,7 +633,8 @@ func ExpandSeries(dst []byte, js string, series []byte) ([]byte, error) {
 	if len(series) == 0 {
 		return append(dst, js...), nil
 	}
-	if !bytes.HasPrefix(series, seriesMagic) {
+	v2 := bytes.HasPrefix(series, seriesMagic)
+	if !v2 && !bytes.HasPrefix(series, seriesMagicV1) {
 		return dst, errSeriesCorrupt
 	}
 	rd := series[len(seriesMagic):]
@@ -329,8 +650,15 @@ func ExpandSeries(dst []byte, js string, series []byte) ([]byte, error) {
 	if !ok || count > uint64(len(js)) {
 		return dst, errSeriesCorrupt
 	}
+	// Version 2: the digits read, for residuals (pooled: ~90 kB for a
+	// whole fit's series).
+	recs := seriesScratch.Get().(*seriesRecords)
+	defer seriesScratch.Put(recs)
+	for i := range recs {
+		recs[i].k = -1
+	}
 	pos := 0
-	for range count {
+	for k := range int(count) {
 		i := strings.Index(js[pos:], string(seriesPlaceholder))
 		if i < 0 {
 			return dst, errSeriesCorrupt
@@ -338,11 +666,29 @@ func ExpandSeries(dst []byte, js string, series []byte) ([]byte, error) {
 		off := pos + i
 		dst = append(dst, js[pos:off]...)
 		n, ok := uv()
-		if !ok || n > uint64(len(rd)) {
+		mode := seriesFirst
+		if v2 {
+			n, mode = n>>2, int(n&3)
+		}
+		if !ok || n > uint64(len(rd)) || mode > seriesResidual {
 			return dst, errSeriesCorrupt
 		}
+		var rec, dm, mm []seriesDigit
+		if v2 {
+			r := &recs[k%len(recs)]
+			r.k, r.d = k, slices.Grow(r.d[:0], int(n))[:n]
+			rec = r.d
+		}
+		if mode == seriesResidual {
+			if k < 2 {
+				return dst, errSeriesCorrupt
+			}
+			if dm, mm = recs.of(k-2, int(n)), recs.of(k-1, int(n)); dm == nil || mm == nil {
+				return dst, errSeriesCorrupt
+			}
+		}
 		dst = append(dst, '[')
-		var prevS int64
+		var prevS, prevD int64
 		prevE := 0
 		for i := range n {
 			if i > 0 {
@@ -352,37 +698,76 @@ func ExpandSeries(dst []byte, js string, series []byte) ([]byte, error) {
 			if !ok {
 				return dst, errSeriesCorrupt
 			}
+			var sv int64 // the value's signed mantissa and exponent
+			var e10 int
 			switch {
 			case u == 2:
+				if rec != nil {
+					rec[i] = seriesDigit{0, noDigits}
+				}
 				dst = append(dst, "null"...)
 				continue
 			case u == 3:
 				if len(rd) < 8 {
 					return dst, errSeriesCorrupt
 				}
+				if rec != nil {
+					rec[i] = seriesDigit{0, noDigits}
+				}
 				dst = appendFloat8(dst, math.Float64frombits(binary.LittleEndian.Uint64(rd)))
 				rd = rd[8:]
 				continue
+			case mode == seriesResidual:
+				pr, eP, okP := predictResidual(dm[i], mm[i])
+				switch u & 3 {
+				case 0:
+					if !okP {
+						return dst, errSeriesCorrupt
+					}
+					sv, e10 = pr+unzigzag(u>>2), eP
+				case 1:
+					if !okP {
+						eP = 0
+					}
+					e10 = eP + int(unzigzag(u>>2))
+					s, ok := uv()
+					if !ok {
+						return dst, errSeriesCorrupt
+					}
+					sv = unzigzag(s)
+				default:
+					return dst, errSeriesCorrupt
+				}
 			case u&3 == 0:
-				prevS += unzigzag(u >> 2)
+				d := unzigzag(u >> 2)
+				if mode == seriesSecond {
+					d += prevD
+					prevD = d
+				}
+				prevS += d
+				sv, e10 = prevS, prevE
 			case u&3 == 1:
 				prevE += int(unzigzag(u >> 2))
 				s, ok := uv()
 				if !ok {
 					return dst, errSeriesCorrupt
 				}
-				prevS = unzigzag(s)
+				prevS, prevD = unzigzag(s), 0
+				sv, e10 = prevS, prevE
 			default:
 				return dst, errSeriesCorrupt
 			}
-			m := prevS
+			m := sv
 			if m < 0 {
 				m = -m
 			}
-			if m < 1e7 || m >= 1e8 || prevE < -400 || prevE > 400 {
+			if m < 1e7 || m >= 1e8 || e10 < -400 || e10 > 400 {
 				return dst, errSeriesCorrupt
 			}
-			dst = appendDigits8(dst, prevS < 0, uint64(m), prevE)
+			if rec != nil {
+				rec[i] = seriesDigit{sv, e10}
+			}
+			dst = appendDigits8(dst, sv < 0, uint64(m), e10)
 		}
 		dst = append(dst, ']')
 		pos = off + len(seriesPlaceholder)

@@ -2,6 +2,7 @@ package spectrum
 
 import (
 	"bytes"
+	"encoding/binary"
 	"fmt"
 	"math"
 	"math/rand/v2"
@@ -163,8 +164,14 @@ func TestExpandSeriesCorrupt(t *testing.T) {
 	bad := [][]byte{
 		series[:len(series)-1],                     // truncated
 		append(bytes.Clone(series), 0),             // trailing byte
-		append([]byte{'G', 'S', 2}, series[3:]...), // other version
-		{'G', 'S', 1, 1, 0xff},                     // offset beyond the JSON
+		append([]byte{'G', 'S', 3}, series[3:]...), // other version
+		{'G', 'S', 1, 1, 0xff},                     // length beyond the form
+		{'G', 'S', 2, 1, 0xff},
+		{'G', 'S', 2, 1, 1<<2 | 1, 5, 0}, // mantissa out of range
+		{'G', 'S', 2, 1, 1<<2 | 2, 0},    // a residual without data and model
+		{'G', 'S', 2, 1, 1<<2 | 3, 0},    // mode 3
+		// a residual whose data and model have another length
+		{'G', 'S', 2, 3, 1<<2 | 0, 2, 1<<2 | 0, 2, 2<<2 | 2, 2, 2},
 	}
 	for i, b := range bad {
 		if _, err := ExpandSeries(nil, string(js), b); err == nil {
@@ -201,6 +208,7 @@ func FuzzExpandSeries(f *testing.F) {
 	js, series, _ := AppendJSONSplit(nil, nil, &res)
 	f.Add(string(js), series, 1.5, -3e-7)
 	f.Add(`{"a":[null]}`, []byte{'G', 'S', 1, 1, 2, 3, 0, 0, 0, 0, 0, 0, 0, 0, 2}, 0.0, math.Inf(1))
+	f.Add(`{"a":[null]}`, []byte{'G', 'S', 2, 1, 5, 1, 0x80, 0x84, 0xaf, 0x5f, 4, 4}, 0.0, 1e300)
 	f.Fuzz(func(t *testing.T, js string, series []byte, a, b float64) {
 		ExpandSeries(nil, js, series)
 		r := Result{Windows: []Window{{Data: PlotFloats{a, b, a * b}, Residual: PlotFloats{b}}}}
@@ -325,4 +333,399 @@ func BenchmarkAppendJSONSplit(b *testing.B) {
 			}
 		}
 	})
+}
+
+// BenchmarkSeriesValues: the series form of a whole-route result's plot
+// series (every window's and the whole fit's, the grid memo aside), and
+// with their JSON text beside.
+func BenchmarkSeriesValues(b *testing.B) {
+	res := benchWholeResult(b)
+	var list [][]float64
+	for _, w := range res.Windows {
+		list = append(list, w.WavelengthNM, w.Data, w.Model, w.Residual)
+	}
+	list = append(list, res.Whole.WavelengthNM, res.Whole.Data, res.Whole.Model, res.Whole.Residual)
+	nv := 0
+	for _, p := range list {
+		nv += len(p)
+	}
+	for _, withText := range []bool{false, true} {
+		b.Run(fmt.Sprintf("text=%v", withText), func(b *testing.B) {
+			var form, text []byte
+			var recs [3][]seriesDigit
+			for b.Loop() {
+				form, text = form[:0], text[:0]
+				for k, p := range list {
+					// wavelengths, data, model, residual (against
+					// the two before it)
+					var dm, mm []seriesDigit
+					if k%4 == 3 {
+						dm, mm = recs[(k-2)%3][:len(p)], recs[(k-1)%3][:len(p)]
+					}
+					r := slices.Grow(recs[k%3][:0], len(p))[:len(p)]
+					recs[k%3] = r
+					form, text = appendSeriesValues(form, text, withText, p, []int{seriesSecond, seriesFirst, seriesSecond, seriesResidual}[k%4], r, dm, mm)
+				}
+			}
+			b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N*nv), "ns/value")
+		})
+	}
+}
+
+// digitsTestValues are values for the digit tests: random bit patterns
+// (every magnitude), values spread over the magnitudes of plot series,
+// the rounding ties of the eighth digit, their neighbours and values
+// about the 1e-6 of a digit from them that plotDigits refuses, powers of
+// ten and their neighbours (the decade boundaries the exponent table
+// guesses across), values that carry into the next decade, small
+// integers and their fractions, negatives, zeros, NaN and ±Inf.
+func digitsTestValues() []float64 {
+	r := rand.New(rand.NewPCG(81, 2026))
+	var vs []float64
+	for range 100000 {
+		vs = append(vs, math.Float64frombits(r.Uint64()))
+	}
+	for range 200000 {
+		vs = append(vs, (r.Float64()-0.3)*math.Pow(10, float64(r.IntN(36)-18)))
+	}
+	for e := -17; e <= 23; e++ {
+		p := math.Pow(10, float64(e))
+		for range 2000 {
+			m := float64(10000000 + r.IntN(90000000))
+			v := (m + 0.5) * p / 1e8
+			vs = append(vs, v, math.Nextafter(v, 0), math.Nextafter(v, math.Inf(1)), -v)
+			for _, d := range []float64{2e-7, 5e-7, 9e-7, 1.1e-6, 3e-6} { // near the refusal's edge
+				vs = append(vs, (m+0.5+d)*p/1e8, (m+0.5-d)*p/1e8)
+			}
+		}
+		for _, v := range []float64{p, math.Nextafter(p, 0), math.Nextafter(p, math.Inf(1)), 9.99999995 * p, 9.999999949 * p,
+			9.99999996 * p, 9.9999999999 * p, 1.0000000001 * p} {
+			vs = append(vs, v, -v)
+		}
+	}
+	for be := 1; be < 2047; be++ { // each binade's ends
+		lo := math.Float64frombits(uint64(be) << 52)
+		vs = append(vs, lo, math.Nextafter(lo, 0), -lo)
+	}
+	for i := -20000; i <= 20000; i++ {
+		vs = append(vs, float64(i), float64(i)/8, float64(i)*1e-3)
+	}
+	return append(vs, 0, math.Copysign(0, -1), 5e-324, math.MaxFloat64, -math.MaxFloat64, math.NaN(), math.Inf(1), math.Inf(-1),
+		1e-15, math.Nextafter(1e-15, 0), 1e8, math.Nextafter(1e8, 0), 99999999.5, 99999999.49999, 1e21, 1e22)
+}
+
+// TestSeriesDigitsChunk: the fast digits of the series form are
+// plotDigits' answer for every value (the same digits, or the same
+// refusal), so the series form is what it was with plotDigits, and
+// ExpandSeries (which writes the digits with appendDigits8 and refused
+// values with appendFloat8) gives AppendJSON's text.
+func TestSeriesDigitsChunk(t *testing.T) {
+	vs := digitsTestValues()
+	var digits [seriesChunk]plotDigitsOf
+	fast := 0
+	for i := 0; i < len(vs); i += seriesChunk {
+		chunk := vs[i:min(i+seriesChunk, len(vs))]
+		seriesDigitsChunk(&digits, chunk)
+		for j, v := range chunk {
+			m, e10, ok := plotDigits(v)
+			if !ok {
+				e10, m = noDigits, digits[j].m
+			}
+			if digits[j] != (plotDigitsOf{m, e10}) {
+				t.Fatalf("%v (bits %#x): seriesDigitsChunk %+v, plotDigits %d %d %v", v, math.Float64bits(v), digits[j], m, e10, ok)
+			}
+			if ok {
+				fast++
+			}
+		}
+	}
+	if fast < len(vs)/3 {
+		t.Fatalf("only %d of %d values have digits", fast, len(vs))
+	}
+}
+
+// appendSeriesValuesRef is the series form as first written (the digits
+// of each value from plotDigits, binary.AppendUvarint): the reference of
+// TestSeriesFormUnchanged.
+func appendSeriesValuesRef(b []byte, p []float64) []byte {
+	b = binary.AppendUvarint(b, uint64(len(p)))
+	var prevS int64
+	prevE := 0
+	for _, v := range p {
+		m, e10, ok := plotDigits(v)
+		if !ok {
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				b = append(b, 2)
+				continue
+			}
+			b = append(b, 3)
+			b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
+			continue
+		}
+		s := int64(m)
+		if v < 0 {
+			s = -s
+		}
+		if e10 == prevE {
+			b = binary.AppendUvarint(b, zigzag(s-prevS)<<2)
+		} else {
+			b = binary.AppendUvarint(b, zigzag(int64(e10-prevE))<<2|1)
+			b = binary.AppendUvarint(b, zigzag(s))
+			prevE = e10
+		}
+		prevS = s
+	}
+	return b
+}
+
+// TestSeriesFormUnchanged: appendSeriesValues writes the series form of
+// appendSeriesValuesRef byte for byte, and the text of appendPlotFloats,
+// for the digit test values cut into series of many lengths (chunk
+// boundaries included) and for the plot series of a real whole-route
+// result.
+func TestSeriesFormUnchanged(t *testing.T) {
+	vs := digitsTestValues()
+	var list [][]float64
+	for i, n := 0, 0; i < len(vs); i, n = i+n, n*7%1031+1 {
+		list = append(list, vs[i:min(i+n, len(vs))])
+	}
+	for _, n := range []int{seriesChunk - 1, seriesChunk, seriesChunk + 1, 3*seriesChunk + 5} {
+		list = append(list, vs[1000:1000+n])
+	}
+	grid := make([]float64, 2048)
+	for i := range grid {
+		grid[i] = 380 + 320*float64(i)/2047
+	}
+	y, _, err := SynthesizeStark(SynthConfig{WavelengthNM: grid, Uppers: []int{3, 4, 5, 6, 7},
+		ExcitationTemperatureK: 7000, ElectronDensityM3: 3e21, GasTemperatureK: 1000, InstrumentFWHMNM: 0.35, HalphaArea: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	rng := rand.New(rand.NewPCG(9, 7))
+	for i := range y {
+		y[i] = y[i]*1e5 + 50 + 3*rng.NormFloat64()
+	}
+	res, err := NewPipeline(8192).Analyze(&Spectrum{Name: "stark.csv", WavelengthNM: grid, Counts: y},
+		Options{KeepWindows: true, Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.35, GasTemperatureK: 1000}})
+	if err != nil || res.Whole == nil || len(res.Windows) == 0 {
+		t.Fatalf("no whole fit with windows: %v", err)
+	}
+	for _, w := range res.Windows {
+		list = append(list, w.WavelengthNM, w.Data, w.Model, w.Residual)
+	}
+	list = append(list, res.Whole.WavelengthNM, res.Whole.Data, res.Whole.Model, res.Whole.Residual)
+	for k, p := range list {
+		// Version 2 without second differences codes the values as
+		// version 1 did; only the header differs.
+		ref := appendSeriesValuesRef(nil, p)
+		_, n := binary.Uvarint(ref)
+		want := binary.AppendUvarint([]byte("x"), uint64(len(p))<<2)
+		want = append(want, ref[n:]...)
+		got, text := appendSeriesValues([]byte("x"), []byte("y"), true, p, seriesFirst, nil, nil, nil)
+		if !bytes.Equal(got, want) {
+			t.Fatalf("series %d (%d values): form differs from the reference", k, len(p))
+		}
+		if wantText := appendPlotFloats([]byte("y"), p); !bytes.Equal(text, wantText) {
+			t.Fatalf("series %d (%d values): text differs from appendPlotFloats", k, len(p))
+		}
+		if got2, _ := appendSeriesValues([]byte("x"), nil, false, p, seriesFirst, nil, nil, nil); !bytes.Equal(got2, want) {
+			t.Fatalf("series %d (%d values): form without text differs", k, len(p))
+		}
+		// By second differences: the same text, and the values expand
+		// to it.
+		form2, text2 := appendSeriesValues(nil, []byte("y"), true, p, seriesSecond, nil, nil, nil)
+		if !bytes.Equal(text2, text) {
+			t.Fatalf("series %d (%d values): text by second differences differs", k, len(p))
+		}
+		for _, f := range [][]byte{form2, want[1:]} {
+			blob := append(append(bytes.Clone(seriesMagic), 1), f...)
+			if got, err := ExpandSeries(nil, "[null]", blob); err != nil || !bytes.Equal(got, text[1:]) {
+				t.Fatalf("series %d (%d values): expansion differs (%v)", k, len(p), err)
+			}
+		}
+	}
+}
+
+// splitV1 is AppendJSONSplit as format version 1 wrote it (every series
+// by first differences, the header its length; appendSeriesValuesRef):
+// what rows stored before version 2 hold. An error is AppendJSONSplit's.
+func splitV1(r *Result) (js, series []byte, err error) {
+	js, _, err = AppendJSONSplit(nil, nil, r)
+	if err != nil {
+		return nil, nil, err
+	}
+	var list []PlotFloats
+	for _, w := range r.Windows {
+		list = append(list, w.WavelengthNM, w.Data, w.Model, w.Residual)
+	}
+	if w := r.Whole; w != nil {
+		list = append(list, w.WavelengthNM, w.Data, w.Model, w.Residual)
+	}
+	list = slices.DeleteFunc(list, func(p PlotFloats) bool { return len(p) == 0 })
+	if len(list) == 0 {
+		return js, nil, nil
+	}
+	series = binary.AppendUvarint(bytes.Clone(seriesMagicV1), uint64(len(list)))
+	for _, p := range list {
+		series = appendSeriesValuesRef(series, p)
+	}
+	return js, series, nil
+}
+
+// TestExpandSeriesV1: a form of version 1 (stored before version 2)
+// still expands to AppendJSON's bytes: a literal one, and those of real
+// whole-route results and of results filled at random. Version 2 is the
+// smaller.
+func TestExpandSeriesV1(t *testing.T) {
+	// Written by version 1's encoder for a whole fit with wavelengths
+	// {486.1, 486.2, 486.30001} and data {0, -2e-9, 1e30, 12.5}.
+	const js = `{"whole_fit":{"wavelength_nm":[null],"data":[null]}}`
+	v1 := []byte{'G', 'S', 1, 0x2, 0x3, 0x11, 0xa0, 0xeb, 0xad, 0x2e, 0x80, 0xf1, 0x4, 0x88, 0xf1, 0x4,
+		0x4, 0x3, 0x0, 0x0, 0x0, 0x0, 0x0, 0x0, 0x0, 0x0, 0x45, 0xff, 0xb3, 0x89, 0x13,
+		0x3, 0xea, 0x8c, 0xa0, 0x39, 0x59, 0x3e, 0x29, 0x46, 0x51, 0xc0, 0xf0, 0xf5, 0xb}
+	got, err := ExpandSeries([]byte("x"), js, v1)
+	const want = `x{"whole_fit":{"wavelength_nm":[486.1,486.2,486.30001],"data":[0,-2e-09,1e+30,12.5]}}`
+	if err != nil || string(got) != want {
+		t.Fatalf("literal version-1 form: %s, %v; want %s", got, err, want)
+	}
+	r := rand.New(rand.NewPCG(17, 4))
+	results := []*Result{benchWholeResultT(t, 0), benchWholeResultT(t, 1)}
+	for range 500 {
+		var res Result
+		fillRandom(r, reflect.ValueOf(&res).Elem(), 0)
+		results = append(results, &res)
+	}
+	n := 0
+	for i, res := range results {
+		want, err := AppendJSON(nil, res)
+		if err != nil {
+			continue
+		}
+		js, series, err := splitV1(res)
+		if err == ErrSeriesSplit {
+			continue
+		}
+		if err != nil {
+			t.Fatal(err)
+		}
+		n++
+		got, err := ExpandSeries(nil, string(js), series)
+		if err != nil || !bytes.Equal(got, want) {
+			t.Fatalf("result %d: version-1 form expands to other bytes (%v)", i, err)
+		}
+		if i < 2 {
+			_, s2, _ := AppendJSONSplit(nil, nil, res)
+			if len(s2) >= len(series) {
+				t.Errorf("result %d: version 2 %d bytes, version 1 %d", i, len(s2), len(series))
+			}
+			t.Logf("whole-route result %d: series form %d bytes (version 1: %d)", i, len(s2), len(series))
+		}
+	}
+	if n < 100 {
+		t.Fatalf("only %d results compared", n)
+	}
+}
+
+// benchWholeResultT is a whole-route result of a Stark-shaped 2048-pixel
+// spectrum with windows kept (noise seed k).
+func benchWholeResultT(t *testing.T, k int) *Result {
+	grid := make([]float64, 2048)
+	for i := range grid {
+		grid[i] = 380 + 320*float64(i)/2047
+	}
+	y, _, err := SynthesizeStark(SynthConfig{WavelengthNM: grid, Uppers: []int{3, 4, 5, 6, 7, 8, 9, 10},
+		ExcitationTemperatureK: 7000, ElectronDensityM3: 3e21, GasTemperatureK: 1000, InstrumentFWHMNM: 0.35, HalphaArea: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	rng := rand.New(rand.NewPCG(uint64(k), 4))
+	for i := range y {
+		y[i] = math.Round(y[i]*2e4 + 50 + 3*rng.NormFloat64())
+	}
+	res, err := NewPipeline(8192).Analyze(&Spectrum{Name: "stark.csv", WavelengthNM: grid, Counts: y},
+		Options{KeepWindows: true, Conditions: diag.Measurement{InstrumentGaussFWHMNM: 0.35, GasTemperatureK: 1000}})
+	if err != nil || res.Whole == nil || len(res.Windows) == 0 {
+		t.Fatalf("no whole fit with windows: %v", err)
+	}
+	return &res
+}
+
+// TestSeriesResidual: a residual is coded against its data and model
+// (mode 2) where that is the smaller, and expands to its text: for the
+// whole fit and the windows of a real result (where it is chosen, and
+// takes less than half the bytes of first differences), for residuals
+// that are not data − model (first differences kept), and for data and
+// models with nulls, values in bytes, zeros and changes of decade (no
+// prediction for those values).
+func TestSeriesResidual(t *testing.T) {
+	res := benchWholeResultT(t, 2)
+	type group struct{ d, m, r []float64 }
+	var real []group
+	real = append(real, group{res.Whole.Data, res.Whole.Model, res.Whole.Residual})
+	for _, w := range res.Windows {
+		real = append(real, group{w.Data, w.Model, w.Residual})
+	}
+	r := rand.New(rand.NewPCG(3, 9))
+	noise := make([]float64, len(res.Whole.Data))
+	for i := range noise {
+		noise[i] = r.NormFloat64() * 30
+	}
+	awk := make([]float64, 400)
+	awkM := make([]float64, 400)
+	for i := range awk {
+		awk[i] = (r.Float64() + 0.05) * math.Pow(10, float64(r.IntN(6)-2))
+		awkM[i] = awk[i] * (1 + 0.01*r.NormFloat64())
+		switch i % 37 {
+		case 3:
+			awk[i] = math.NaN()
+		case 5:
+			awkM[i] = 0
+		case 7:
+			awk[i] = 1e30
+		case 11:
+			awkM[i] = awk[i] // equal: no prediction
+		case 13:
+			awkM[i] = -awk[i] * 20 // another decade
+		}
+	}
+	awkR := make([]float64, 400)
+	for i := range awkR {
+		awkR[i] = awk[i] - awkM[i]
+	}
+	cases := []struct {
+		g        group
+		residual bool // mode 2 expected
+	}{{group{res.Whole.Data, res.Whole.Model, noise}, false}, {group{awk, awkM, awkR}, true}}
+	for _, g := range real {
+		cases = append(cases, struct {
+			g        group
+			residual bool
+		}{g, true})
+	}
+	for k, c := range cases {
+		dm, mm := make([]seriesDigit, len(c.g.d)), make([]seriesDigit, len(c.g.m))
+		fd, td := appendSeriesValues(nil, nil, true, c.g.d, seriesFirst, dm, nil, nil)
+		fm, tm := appendSeriesValues(nil, nil, true, c.g.m, seriesSecond, mm, nil, nil)
+		fr, tr := appendSeriesValues(nil, nil, true, c.g.r, seriesResidual, nil, dm, mm)
+		f0, _ := appendSeriesValues(nil, nil, false, c.g.r, seriesFirst, nil, nil, nil)
+		h, _ := binary.Uvarint(fr)
+		if mode := int(h & 3); (mode == seriesResidual) != c.residual {
+			t.Errorf("case %d: mode %d", k, mode)
+		}
+		if len(fr) > len(f0) {
+			t.Errorf("case %d: %d bytes, %d by first differences", k, len(fr), len(f0))
+		}
+		if c.residual && k >= 2 && 2*len(fr) > len(f0) {
+			t.Errorf("case %d (real): residual %d bytes, %d by first differences", k, len(fr), len(f0))
+		}
+		blob := append(append(bytes.Clone(seriesMagic), 3), fd...)
+		blob = append(append(blob, fm...), fr...)
+		got, err := ExpandSeries(nil, "[null] [null] [null]", blob)
+		if want := string(td) + " " + string(tm) + " " + string(tr); err != nil || string(got) != want {
+			t.Fatalf("case %d: expansion differs (%v)", k, err)
+		}
+		if want := string(appendPlotFloats(nil, c.g.r)); string(tr) != want {
+			t.Fatalf("case %d: residual text differs from appendPlotFloats", k)
+		}
+	}
 }
