@@ -485,6 +485,10 @@ func (s *Server) apiAddMeasurement(c echo.Context) error {
 		buf.WriteString("]}")
 	}
 	buf.WriteByte('\n')
+	// With its length known the answer goes out as it is, not in chunks
+	// (net/http frames an answer of unknown length larger than its 2 kB
+	// buffer chunk by chunk).
+	c.Response().Header().Set(echo.HeaderContentLength, strconv.Itoa(buf.Len()))
 	return c.Blob(http.StatusCreated, echo.MIMEApplicationJSONCharsetUTF8, buf.Bytes())
 }
 

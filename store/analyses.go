@@ -95,25 +95,32 @@ func (d *DB) AddAnalysisTx(ctx context.Context, tx *sql.Tx, runID int64, a NewAn
 		return 0, fmt.Errorf("store: add analysis: %w", err)
 	}
 	aid, _ := res.LastInsertId()
-	ins := d.txStmt(ctx, tx, qAddResult)
-	defer ins.Close()
-	for _, r := range a.Results {
-		var result, series, sameAs any
-		if r.SameAs != 0 {
-			sameAs = r.SameAs
-		} else if r.Result != "" {
-			result = r.Result
-			if len(r.Series) > 0 {
-				series = r.Series
+	// The rows go in by addResultsRows (one statement each), the rest one
+	// by one, in the order of a.Results.
+	rs := a.Results
+	if len(rs) >= addResultsRows {
+		many := d.txStmt(ctx, tx, qAddResults)
+		defer many.Close()
+		args := make([]any, 0, 13*addResultsRows)
+		for len(rs) >= addResultsRows {
+			args = args[:0]
+			for _, r := range rs[:addResultsRows] {
+				args = appendResultArgs(args, aid, r)
 			}
+			if _, err := many.ExecContext(ctx, args...); err != nil {
+				return 0, fmt.Errorf("store: add analysis results: %w", err)
+			}
+			rs = rs[addResultsRows:]
 		}
-		var errMsg any
-		if r.Error != "" {
-			errMsg = r.Error
-		}
-		if _, err := ins.ExecContext(ctx, aid, r.AttachmentID, result, series, errMsg, nullF(r.TexcK), nullF(r.TexcUncK), nullF(r.NeM3), nullF(r.NeUncM3),
-			nullF(r.TgasK), r.NWarnings, r.WarnWorst, sameAs); err != nil {
-			return 0, fmt.Errorf("store: add analysis result: %w", err)
+	}
+	if len(rs) > 0 {
+		ins := d.txStmt(ctx, tx, qAddResult)
+		defer ins.Close()
+		args := make([]any, 0, 13)
+		for _, r := range rs {
+			if _, err := ins.ExecContext(ctx, appendResultArgs(args[:0], aid, r)...); err != nil {
+				return 0, fmt.Errorf("store: add analysis result: %w", err)
+			}
 		}
 	}
 	if status == StatusSignedOff {
@@ -126,6 +133,26 @@ func (d *DB) AddAnalysisTx(ctx context.Context, tx *sql.Tx, runID int64, a NewAn
 		return 0, err
 	}
 	return version, nil
+}
+
+// appendResultArgs appends the 13 arguments of qAddResult for r, a result
+// of analysis aid.
+func appendResultArgs(args []any, aid int64, r AnalysisResult) []any {
+	var result, series, sameAs any
+	if r.SameAs != 0 {
+		sameAs = r.SameAs
+	} else if r.Result != "" {
+		result = r.Result
+		if len(r.Series) > 0 {
+			series = r.Series
+		}
+	}
+	var errMsg any
+	if r.Error != "" {
+		errMsg = r.Error
+	}
+	return append(args, aid, r.AttachmentID, result, series, errMsg, nullF(r.TexcK), nullF(r.TexcUncK), nullF(r.NeM3), nullF(r.NeUncM3),
+		nullF(r.TgasK), r.NWarnings, r.WarnWorst, sameAs)
 }
 
 // setSummaryTx makes version (with results rs) the run's current analysis:

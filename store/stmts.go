@@ -4,6 +4,7 @@ import (
 	"context"
 	"database/sql"
 	"fmt"
+	"strings"
 )
 
 // The statements of the ingest path (a file and its analysis version),
@@ -38,7 +39,7 @@ const (
 	qRollbackTo = `ROLLBACK TO group_write`
 )
 
-var hotQueries = []string{qRunStatus, qNextSeq, qAddAttachment, qAddContent, qNextVersion, qAddAnalysis, qAddResult,
+var hotQueries = []string{qRunStatus, qNextSeq, qAddAttachment, qAddContent, qNextVersion, qAddAnalysis, qAddResult, qAddResults,
 	qSetSummary, qLatestSettings, qLatestAnalysis, qLatestResults, qListAttachments, qContent,
 	qSavepoint, qRelease, qRollbackTo, qPruneChanges}
 
@@ -55,6 +56,16 @@ var (
 
 	readQueries = []string{qGetRun, qRunTags, qLatestSettings, qListAttachments, qLookupToken}
 )
+
+// addResultsRows is the number of rows of qAddResults.
+const addResultsRows = 8
+
+// qAddResults is qAddResult for addResultsRows rows at once (a version
+// repeats every earlier file of its run: one statement instead of one per
+// file).
+var qAddResults = `INSERT INTO analysis_results (analysis_id, attachment_id, result, series, error, texc_k, texc_unc_k,
+		ne_m3, ne_unc_m3, tgas_k, n_warnings, warn_worst, same_as) VALUES ` +
+	strings.TrimSuffix(strings.Repeat("(?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?), ", addResultsRows), ", ")
 
 // prepareHot prepares hotQueries (after the migrations and triggers: a
 // later schema change makes SQLite compile a statement again by itself).
