@@ -685,14 +685,32 @@ func (f *wholeFitter) linearAreas() (areas, sig []float64, chi2 float64, ok bool
 		ys, ws, us := f.y[la.plo:la.phi], w[la.plo:la.phi], la.u[:la.phi-la.plo]
 		ys, ws = ys[:len(us)], ws[:len(us)]
 		r0, r1, r2, r3 = r0[:len(us)], r1[:len(us)], r2[:len(us)], r3[:len(us)]
-		var ga, s0, s1, s2, s3 float64
-		for i, u := range us {
-			v := u * ws[i]
-			ga += v * ys[i]
-			s0 += v * r0[i]
-			s1 += v * r1[i]
-			s2 += v * r2[i]
-			s3 += v * r3[i]
+		var ga, s0, s1, s2, s3, saa float64
+		b0 := a
+		if f.generic {
+			for i, u := range us {
+				v := u * ws[i]
+				ga += v * ys[i]
+				s0 += v * r0[i]
+				s1 += v * r1[i]
+				s2 += v * r2[i]
+				s3 += v * r3[i]
+			}
+		} else {
+			// The line's own overlap sum (its diagonal element, the
+			// same products in the same order as the loop below) in
+			// this pass too.
+			for i, u := range us {
+				v := u * ws[i]
+				ga += v * ys[i]
+				s0 += v * r0[i]
+				s1 += v * r1[i]
+				s2 += v * r2[i]
+				s3 += v * r3[i]
+				saa += u * u * ws[i]
+			}
+			A[a*np+a] = saa
+			b0 = a + 1
 		}
 		g[a] = ga
 		for b, v := range [4]float64{s0, s1, s2, s3} {
@@ -700,7 +718,7 @@ func (f *wholeFitter) linearAreas() (areas, sig []float64, chi2 float64, ok bool
 				A[a*np+nl+b] = v
 			}
 		}
-		for b := a; b < nl; b++ {
+		for b := b0; b < nl; b++ {
 			lb := f.lines[b]
 			lo, hi := max(la.plo, lb.plo), min(la.phi, lb.phi)
 			var s float64

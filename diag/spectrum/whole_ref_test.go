@@ -1025,3 +1025,51 @@ func TestWholePixelsPair(t *testing.T) {
 		t.Fatalf("not covered: %d lines, %d pixels after a gap", n, nGap)
 	}
 }
+
+// TestWholeLinearAreasDiagonal: linearAreas with each line's own overlap
+// sum taken in its data pass gives the areas, their σ, χ², the solution
+// and the factored matrix bit for bit as the general loops
+// (wholeFitter.generic), at the converged state of each case.
+func TestWholeLinearAreasDiagonal(t *testing.T) {
+	n := 0
+	for k, c := range earlyStopCases(t) {
+		p := NewPipeline(4096)
+		if _, err := p.Analyze(c.sp, c.opt); err != nil {
+			t.Fatal(err)
+		}
+		f := p.wfit
+		if f == nil || len(f.x) == 0 || len(f.lines) < 2 {
+			continue
+		}
+		run := func(generic bool) (areas, sig []float64, chi2 float64, sol, A []float64) {
+			f.generic = generic
+			defer func() { f.generic = false }()
+			areas, sig, chi2, ok := f.linearAreas()
+			if !ok {
+				t.Fatalf("case %d: linear fit singular", k)
+			}
+			return areas, sig, chi2, append([]float64(nil), f.linSol...), append([]float64(nil), f.linA...)
+		}
+		a1, s1, c1, x1, m1 := run(false)
+		a2, s2, c2, x2, m2 := run(true)
+		same := func(what string, got, want []float64) {
+			if len(got) != len(want) {
+				t.Fatalf("case %d: %s has %d elements, general %d", k, what, len(got), len(want))
+			}
+			for i := range got {
+				if math.Float64bits(got[i]) != math.Float64bits(want[i]) {
+					t.Fatalf("case %d: %s[%d] %v, general %v", k, what, i, got[i], want[i])
+				}
+			}
+		}
+		same("areas", a1, a2)
+		same("σ", s1, s2)
+		same("χ²", []float64{c1}, []float64{c2})
+		same("solution", x1, x2)
+		same("factored matrix", m1, m2)
+		n++
+	}
+	if n < 5 {
+		t.Fatalf("only %d cases compared", n)
+	}
+}
