@@ -779,8 +779,10 @@ type preAnalysis struct {
 // the settings their version would have if nothing changed meanwhile: st
 // filled from the run's committed line tables, with its committed dark and
 // response files. Inside the transaction reanalyzeRunTxPre uses these
-// results only if the settings it computes there are the same.
-func (s *Server) analyzeBefore(ctx context.Context, runID int64, added []store.Attachment, st AnalysisSettings) (*preAnalysis, error) {
+// results only if the settings it computes there are the same. With
+// answer, each result's whole JSON is kept for the API answer too
+// (encodeAnswer); without, only its stored form (encode).
+func (s *Server) analyzeBefore(ctx context.Context, runID int64, added []store.Attachment, st AnalysisSettings, answer bool) (*preAnalysis, error) {
 	for _, a := range added {
 		if a.Kind != store.KindSpectrum {
 			return nil, nil // a new dark, response or line table changes the settings
@@ -822,8 +824,12 @@ func (s *Server) analyzeBefore(ctx context.Context, runID int64, added []store.A
 			atts := append(slices.Clone(calib), added[lo:hi]...)
 			out[p], errs[p] = s.analyzeAttachments(ctx, atts, st)
 			for i := range out[p] {
-				if errs[p] == nil {
+				switch {
+				case errs[p] != nil:
+				case answer:
 					errs[p] = out[p][i].encodeAnswer()
+				default:
+					errs[p] = out[p][i].encode()
 				}
 			}
 		}()

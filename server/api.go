@@ -364,6 +364,10 @@ func (s *Server) apiAddMeasurement(c echo.Context) error {
 	if run.Status == store.StatusSignedOff {
 		return signedOffError(run.ID, run.ApprovedVersion)
 	}
+	plots, err := answerPlots(c)
+	if err != nil {
+		return err
+	}
 	st, err := s.latestSettings(c, run)
 	if err != nil {
 		return err
@@ -379,7 +383,7 @@ func (s *Server) apiAddMeasurement(c echo.Context) error {
 	for i, in := range ins {
 		added[i] = store.Attachment{RunID: id, Kind: in.kind, Name: in.name, Content: in.data, Size: len(in.data)}
 	}
-	pre, err := s.analyzeBefore(ctx, id, added, st)
+	pre, err := s.analyzeBefore(ctx, id, added, st, plots)
 	if err != nil {
 		return err
 	}
@@ -452,9 +456,12 @@ func (s *Server) apiAddMeasurement(c echo.Context) error {
 	size := 64
 	for _, m := range mine {
 		size += 160
-		if m != nil && m.answer != nil {
+		switch {
+		case m != nil && m.answer != nil:
 			size += len(m.answer)
-		} else if m != nil && m.stored != nil {
+		case m != nil && m.stored != nil && !plots:
+			size += len(m.stored.Result)
+		case m != nil && m.stored != nil:
 			size += len(m.stored.Result) + 3*len(m.stored.Series)
 		}
 	}
@@ -477,7 +484,7 @@ func (s *Server) apiAddMeasurement(c echo.Context) error {
 			buf.WriteByte(',')
 		}
 		ids := apiMeasurementIDs{RunID: id, AttachmentID: added[k].ID, AnalysisVersion: version, Kind: added[k].Kind}
-		if err := writeMeasurementJSON(buf, ids, m); err != nil {
+		if err := writeMeasurementJSON(buf, ids, m, plots); err != nil {
 			return err
 		}
 	}
@@ -507,16 +514,41 @@ func batchPrefix(ins []incoming, i int) string {
 	return ins[i].name + ": "
 }
 
+// answerPlots reads the query parameter plots of a measurement upload:
+// "all" (the default) answers with each result's plot series, "none"
+// without them (the numbers only: about a quarter of the bytes of a
+// whole-spectrum result, and no series text to write).
+func answerPlots(c echo.Context) (bool, error) {
+	switch v := c.QueryParam("plots"); v {
+	case "", "all":
+		return true, nil
+	case "none":
+		return false, nil
+	default:
+		return false, badRequest("plots: %q is not all or none", v)
+	}
+}
+
 // writeMeasurementJSON writes the answer for one stored file: its ids, then
 // the fields of its analysis result (the stored JSON when encoded ahead,
-// not encoded a second time).
-func writeMeasurementJSON(buf *bytes.Buffer, ids apiMeasurementIDs, m *RunAnalysis) error {
+// not encoded a second time); with plots false, without its plot series.
+func writeMeasurementJSON(buf *bytes.Buffer, ids apiMeasurementIDs, m *RunAnalysis, plots bool) error {
 	head, err := json.Marshal(ids)
 	if err != nil {
 		return err
 	}
 	var body []byte
 	switch {
+	case !plots && m != nil && m.stored != nil && m.stored.Result != "" && m.answer == nil:
+		// the stored JSON without its series' placeholders
+		bp := resultBufPool.Get().(*[]byte)
+		defer func() {
+			if cap(body) <= 1<<20 {
+				*bp = body[:0]
+				resultBufPool.Put(bp)
+			}
+		}()
+		body = bytes.TrimSpace(spectrum.DropSeries((*bp)[:0], []byte(m.stored.Result)))
 	case m != nil && m.answer != nil:
 		body = bytes.TrimSpace(m.answer)
 		defer func() {

@@ -39,6 +39,10 @@ import (
 // files=20 (a batch: each request carries a run's whole series as 20
 // "file" parts, stored in one transaction with one analysis version).
 //
+// Route whole runs once more with plots=none (…/plots=none): the answers
+// without their plot series (about a quarter of the bytes), what a
+// client that stores the numbers, not the curves, asks for.
+//
 // Besides spectra/s (wall clock, which on a shared machine depends on its
 // load) it reports cpu-ms/spectrum: the process's user+system CPU time
 // (server and clients) per spectrum, which says what two idle cores can
@@ -54,7 +58,12 @@ func BenchmarkAPIIngest(b *testing.B) {
 	for _, rt := range benchRoutes(b) {
 		for _, mode := range []string{store.SyncNormal, store.SyncFull} {
 			for _, files := range []int{1, 20} {
-				b.Run(fmt.Sprintf("route=%s/sync=%s/files=%d", rt.name, mode, files), func(b *testing.B) { benchAPIIngest(b, rt, mode, files) })
+				b.Run(fmt.Sprintf("route=%s/sync=%s/files=%d", rt.name, mode, files), func(b *testing.B) { benchAPIIngest(b, rt, mode, files, "") })
+				if rt.name == "whole" {
+					b.Run(fmt.Sprintf("route=%s/sync=%s/files=%d/plots=none", rt.name, mode, files), func(b *testing.B) {
+						benchAPIIngest(b, rt, mode, files, "?plots=none")
+					})
+				}
 			}
 		}
 	}
@@ -67,7 +76,7 @@ func cpuTime() time.Duration {
 	return time.Duration(ru.Utime.Nano() + ru.Stime.Nano())
 }
 
-func benchAPIIngest(b *testing.B, rt benchRoute, syncMode string, perRequest int) {
+func benchAPIIngest(b *testing.B, rt benchRoute, syncMode string, perRequest int, query string) {
 	ctx := context.Background()
 	dbPath := filepath.Join(b.TempDir(), "ingest.db")
 	db, err := store.Open(ctx, dbPath, store.Options{Sync: syncMode})
@@ -147,7 +156,7 @@ func benchAPIIngest(b *testing.B, rt benchRoute, syncMode string, perRequest int
 	}
 	batch, batchType := multipartBody(0, perRequest)
 	// The route is checked outside the timing: one upload to a run of its own.
-	if code, out := post(fmt.Sprintf("/api/v1/runs/%d/measurements", newRun(0)), batchType, batch); code != http.StatusCreated {
+	if code, out := post(fmt.Sprintf("/api/v1/runs/%d/measurements"+query, newRun(0)), batchType, batch); code != http.StatusCreated {
 		b.Fatalf("ingest: %d %.300s", code, out)
 	} else {
 		checkBenchModel(b, rt, out)
@@ -171,7 +180,7 @@ func benchAPIIngest(b *testing.B, rt benchRoute, syncMode string, perRequest int
 						return
 					}
 					run = newRun(i)
-					if code, out := upload(fmt.Sprintf("/api/v1/runs/%d/measurements", run), batchType, batch); code != http.StatusCreated {
+					if code, out := upload(fmt.Sprintf("/api/v1/runs/%d/measurements"+query, run), batchType, batch); code != http.StatusCreated {
 						b.Errorf("ingest: %d %.300s", code, out)
 						return
 					}
@@ -185,7 +194,7 @@ func benchAPIIngest(b *testing.B, rt benchRoute, syncMode string, perRequest int
 					run = newRun(i)
 				}
 				one := singles[int(i)%len(singles)]
-				if code, out := upload(fmt.Sprintf("/api/v1/runs/%d/measurements", run), one.ctype, one.data); code != http.StatusCreated {
+				if code, out := upload(fmt.Sprintf("/api/v1/runs/%d/measurements"+query, run), one.ctype, one.data); code != http.StatusCreated {
 					b.Errorf("ingest: %d %s", code, out)
 					return
 				}
