@@ -29,8 +29,10 @@ package spectrum
 //   - δ: one wavelength offset; B: a Legendre polynomial in scaled λ over
 //     the fitted range (wholeBaselineOrder).
 //
-// Each line is built on its own uniform fine grid (step 1/12 of the
-// line's FWHM and 1/4 of its base shape's): the exact bin masses of the
+// Each line is built on its own uniform fine grid (wholeGridDefault:
+// step at most 1/12 of the line's total FWHM and 1/4 of its base
+// shape's, half span 8 total FWHM or 6 pixels; TestWholeGridDiscretisation
+// bounds its error against a grid 4× finer): the exact bin masses of the
 // SH99 shape from its cumulative integral (sh99.Shape) convolved with
 // the sampled Gaussian ⊗ Lorentzian kernel and summed into the
 // cumulative of the broadened profile (cubic Hermite between the bin
@@ -38,7 +40,8 @@ package spectrum
 // difference of that cumulative at its edges over the pixel width, so
 // pixels may be finer or coarser than the grid. Beyond the grid (far
 // wings, where the kernel no longer matters) the shape's own cumulative
-// is used, to wholeWingReach grid half-widths; what lies beyond that
+// is used (geometric wing nodes 1.15 apart), to 4 grid half-widths
+// (wholeGrid.wingReach); what lies beyond that
 // (about 1e-4 of the peak) is a smooth slope the baseline takes.
 //
 // The fit is Levenberg–Marquardt on all parameters with analytic
@@ -143,23 +146,6 @@ const (
 	// of SH99's temperature nodes (5000, 10⁴, 19 950 K …). Common
 	// practice, no source.
 	wholeStandInMaxLn = 0.6931471805599453 + 1e-9
-	// wholeGridPerWidth and wholeGridPerPixel set the fine-grid step: at
-	// 1/8 of the line's total FWHM (pixel edges fall anywhere on it: the
-	// broadened cumulative is interpolated by cubic Hermite).
-	wholeGridPerWidth = 12
-	// wholeGridPerBase: and at most this fraction of the base shape's own
-	// FWHM, on which the kernel's trapezoidal rule needs the shape smooth.
-	wholeGridPerBase = 4
-	// wholeCoreWidths is the grid's half span in total FWHM (at least
-	// wholeCorePixels pixels); wholeWingReach the reach of the wings
-	// evaluated beyond it, in grid half spans.
-	wholeCoreWidths = 8
-	wholeCorePixels = 6
-	wholeWingReach  = 4
-	// wholeMaxBins bounds a line's fine grid (its step grows beyond).
-	wholeMaxBins = 1200
-	// wholeWingStep is the ratio of successive wing nodes.
-	wholeWingStep = 1.15
 	// wholeMaxIter bounds the Levenberg–Marquardt iterations.
 	wholeMaxIter = 60
 	// wholeStopDrop and wholeStopLambda end the Levenberg–Marquardt
@@ -176,6 +162,30 @@ const (
 	wholeStopDrop   = 1e-5
 	wholeStopLambda = 1e-3
 )
+
+// wholeGrid sets a line's fine grid and wing nodes (setupGrid).
+type wholeGrid struct {
+	// perWidth and perBase set the fine-grid step: at most 1/perWidth of
+	// the line's total FWHM (pixel edges fall anywhere on it: the
+	// broadened cumulative is interpolated by cubic Hermite) and at most
+	// 1/perBase of the base shape's own FWHM, on which the kernel's
+	// trapezoidal rule needs the shape smooth.
+	perWidth, perBase float64
+	// coreWidths is the grid's half span in total FWHM (at least
+	// corePixels pixels); wingReach the reach of the wings evaluated
+	// beyond it, in grid half spans.
+	coreWidths, corePixels, wingReach float64
+	// wingStep is the ratio of successive wing nodes.
+	wingStep float64
+	// maxBins bounds a line's fine grid (its step grows beyond).
+	maxBins int
+	// maxWing bounds the number of wing nodes.
+	maxWing int
+}
+
+// wholeGridDefault is the grid of every fit (wholeFitter.grid nil).
+var wholeGridDefault = wholeGrid{perWidth: 12, perBase: 4, coreWidths: 8, corePixels: 6,
+	wingReach: 4, wingStep: 1.15, maxBins: 1200, maxWing: 64}
 
 // wholeBaselineOrder returns the Legendre order of the baseline: 1 over a
 // fitted range up to 25 nm (a window around one or two lines: a straight
@@ -327,6 +337,8 @@ type wholeFitter struct {
 	// invW holds the fitted pixels' inverse widths, 1/(b − a).
 	invW  []float64
 	notes []string
+	// grid is the fine grid's setting (nil: wholeGridDefault; tests).
+	grid *wholeGrid
 	// masked are wavelength intervals left out (saturated lines).
 	masked [][2]float64
 	// Blocks of the normal equations that depend on the pixels alone
@@ -602,7 +614,7 @@ func (f *wholeFitter) reset(opt Options, m diag.Measurement) {
 		pool: f.pool, lines: f.lines[:0], ws: f.ws,
 		normBase: f.normBase, linBase: f.linBase, linBaseG: f.linBaseG,
 		linA: f.linA, linG: f.linG, linInv: f.linInv, linWork: f.linWork, saveBuf: f.saveBuf, saveRows: f.saveRows, saveShapes: f.saveShapes,
-		noEarlyStop: f.noEarlyStop, generic: f.generic, scanFit: f.scanFit}
+		noEarlyStop: f.noEarlyStop, generic: f.generic, scanFit: f.scanFit, grid: f.grid}
 }
 
 // standInT returns the temperature at which line l's SH99 tables cover
@@ -980,22 +992,26 @@ func (f *wholeFitter) widths(l *wline, ne, instG float64) (total, base float64) 
 
 // setupGrid fixes a line's fine grid, its wing nodes and its pixel range.
 func (f *wholeFitter) setupGrid(l *wline, ne float64) error {
+	g := &wholeGridDefault
+	if f.grid != nil {
+		g = f.grid
+	}
 	w, wb := f.widths(l, ne, l.instG)
-	l.h = math.Min(w/wholeGridPerWidth, wb/wholeGridPerBase)
+	l.h = math.Min(w/g.perWidth, wb/g.perBase)
 	if !(l.h > 0) || math.IsInf(l.h, 0) {
 		return fmt.Errorf("%s: no usable line width at n_e = %.3g m⁻³", l.t.Name(), ne)
 	}
-	half := math.Max(wholeCoreWidths*w, wholeCorePixels*l.px)
+	half := math.Max(g.coreWidths*w, g.corePixels*l.px)
 	l.m = int(math.Ceil(half / l.h))
-	if l.m > wholeMaxBins/2 {
-		l.m = wholeMaxBins / 2
+	if l.m > g.maxBins/2 {
+		l.m = g.maxBins / 2
 		l.h = half / float64(l.m)
 	}
 	edge := (float64(l.m) + 0.5) * l.h
-	l.reach = wholeWingReach * edge
+	l.reach = g.wingReach * edge
 	// Wing nodes: geometric from the grid's edge to the reach.
 	l.wing = l.wing[:0]
-	for d := edge; len(l.wing) < 64; d *= wholeWingStep {
+	for d := edge; len(l.wing) < g.maxWing; d *= g.wingStep {
 		l.wing = append(l.wing, d)
 		if !(d < l.reach) {
 			break
@@ -1211,7 +1227,8 @@ func (f *wholeFitter) evalGrid(l *wline, lnNe, instG, gasT float64, deriv bool) 
 // the trapezoidal rule over y = kh gives F_j = Σ_k K(kh)h·C_{j−k}, and by
 // linearity the same weights move the bin masses. The trapezoidal rule
 // converges exponentially for a Gaussian kernel and a shape smooth on
-// the grid step (h = 1/8 of the line's FWHM), so no variance correction
+// the grid step (h ≤ 1/12 of the line's total FWHM and ≤ 1/4 of the
+// base shape's: wholeGridDefault), so no variance correction
 // is made; a kernel much narrower than h is the identity to within its
 // own (negligible) width. A Gaussian narrower than the step is given
 // three weights with its exact variance instead of samples. The weights
