@@ -21,13 +21,31 @@ import (
 // background checkpoints run, and every row is there after a reopen.
 // Both with a new database's page size (newPageSize) and with an older
 // file's 4 KiB (the restart threshold is in bytes).
+//
+// Whether the WAL starts over depends on the readers leaving the writer
+// a moment with none of them in it, which a heavily loaded machine can
+// deny for a whole attempt (seen once at load average 10 with other
+// packages' tests and benchmarks running): an attempt whose WAL did not
+// start over is repeated, up to three attempts; the test fails if none
+// did. Every other check fails at once.
 func TestCheckpointsBoundWAL(t *testing.T) {
 	for _, ps := range []int{newPageSize, 4096} {
-		t.Run(fmt.Sprintf("page_size=%d", ps), func(t *testing.T) { testCheckpointsBoundWAL(t, ps) })
+		t.Run(fmt.Sprintf("page_size=%d", ps), func(t *testing.T) {
+			var why string
+			for attempt := 1; attempt <= 3; attempt++ {
+				if why = testCheckpointsBoundWAL(t, ps); why == "" {
+					return
+				}
+				t.Logf("attempt %d: %s", attempt, why)
+			}
+			t.Error(why)
+		})
 	}
 }
 
-func testCheckpointsBoundWAL(t *testing.T, pageSize int) {
+// testCheckpointsBoundWAL runs one attempt; it returns why the WAL did
+// not start over, or "".
+func testCheckpointsBoundWAL(t *testing.T, pageSize int) (notBounded string) {
 	ctx := context.Background()
 	path := filepath.Join(t.TempDir(), "ck.db")
 	if pageSize != newPageSize {
@@ -130,7 +148,7 @@ func testCheckpointsBoundWAL(t *testing.T, pageSize int) {
 	// (and more: the b-tree pages); one that does shows several sequence
 	// numbers.
 	if written := int64(writers * perWriter * len(blob)); maxWAL >= written || len(seqs) < 2 {
-		t.Errorf("WAL grew to %.1f MiB (written %.1f MiB), %d sequence numbers seen: it does not start over",
+		notBounded = fmt.Sprintf("WAL grew to %.1f MiB (written %.1f MiB), %d sequence numbers seen: it does not start over",
 			float64(maxWAL)/(1<<20), float64(written)/(1<<20), len(seqs))
 	}
 	if err := d.Close(); err != nil {
@@ -145,4 +163,5 @@ func testCheckpointsBoundWAL(t *testing.T, pageSize int) {
 	if err != nil || len(atts) != writers*perWriter {
 		t.Fatalf("after reopen: %d attachments (want %d), %v", len(atts), writers*perWriter, err)
 	}
+	return notBounded
 }
