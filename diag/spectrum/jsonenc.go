@@ -251,12 +251,10 @@ func appendDigits8(b []byte, neg bool, m uint64, e10 int) []byte {
 	// The eight digits as one little-endian word (d[0] the lowest byte);
 	// nd is their number without trailing zeros (strconv's nd; m ≥ 10⁷,
 	// so the first digit is not '0').
-	hi, lo := uint32(m/10000), uint32(m%10000)
-	h1, h2, l1, l2 := 2*(hi/100), 2*(hi%100), 2*(lo/100), 2*(lo%100)
-	w := uint64(digitPairs[h1]) | uint64(digitPairs[h1+1])<<8 | uint64(digitPairs[h2])<<16 | uint64(digitPairs[h2+1])<<24 |
-		uint64(digitPairs[l1])<<32 | uint64(digitPairs[l1+1])<<40 | uint64(digitPairs[l2])<<48 | uint64(digitPairs[l2+1])<<56
+	d := eightDigits(m)
+	nd := 8 - bits.LeadingZeros64(d)/8
 	const zeros = 0x3030303030303030 // "00000000"
-	nd := 8 - bits.LeadingZeros64(w^zeros)/8
+	w := d | zeros
 	// The text is written in place, in b's spare room, with whole-word
 	// stores: bytes past the text's end are scratch.
 	if cap(b)-len(b) < 24 {
@@ -316,6 +314,25 @@ func appendDigits8(b []byte, neg bool, m uint64, e10 int) []byte {
 	n += 2 - dp
 	binary.LittleEndian.PutUint64(out[n:], w)
 	return b[:n0+n+nd]
+}
+
+// eightDigits returns the eight decimal digits of m < 10⁸ as the bytes
+// of one little-endian word, the first digit in the lowest byte, each
+// byte the digit's value (0–9): without a division or a table, by
+// dividing the lanes of a word at once (SWAR). m/10⁴ and m%10⁴ go to two
+// 32-bit lanes, each lane is cut by 100 into two 16-bit lanes, and each
+// of those by 10 into two bytes. A lane's quotient by 100 is
+// ⌊x·10486/2²⁰⌋ for x < 10⁴ (the product's excess over x/100 is below
+// 0.003, less than any remainder's distance to the next integer) and by
+// 10 is ⌊x·103/2¹⁰⌋ for x < 100 (excess below 0.06); the products stay
+// in their lanes (below 2²⁷ and 2¹⁴). TestEightDigits compares every
+// m's digits with strconv's.
+func eightDigits(m uint64) uint64 {
+	x := m/10000 | m%10000<<32
+	q := x * 10486 >> 20 & 0x0000007f0000007f
+	x = q | (x-q*100)<<16
+	q = x * 103 >> 10 & 0x000f000f000f000f
+	return q | (x-q*10)<<8
 }
 
 // digitPairs are "00" … "99".

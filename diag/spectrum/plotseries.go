@@ -381,8 +381,9 @@ var seriesExps = func() (t [2048]seriesExp) {
 }()
 
 // seriesDigitsChunk sets digits[j] to plotDigits' answer for chunk[j]
-// (m and e10, or e10 noDigits where it refuses), faster for the values of
-// plot series ([1e-15, 1e8)): the decimal exponent from seriesExps, one
+// as the form holds it (the mantissa m signed as the value, ±m, and e10;
+// or {0, noDigits} where it refuses), faster for the values of plot
+// series ([1e-15, 1e8)): the decimal exponent from seriesExps, one
 // product with an exact power of ten, and no branch that depends on the
 // data but for the rare values left to plotDigits itself. As in
 // plotDigits, the digits of a correctly rounded product x with an exact
@@ -392,10 +393,13 @@ var seriesExps = func() (t [2048]seriesExp) {
 // is plotDigits' whenever the fast path gives one. Values outside that
 // range (zeros, NaN, ±Inf, magnitudes plotDigits refuses or divides
 // for, a guess of the exponent that missed), near-ties, and a rounding
-// that carries into 10⁸ go to plotDigits.
-func seriesDigitsChunk(digits *[seriesChunk]plotDigitsOf, chunk []float64) {
+// that carries into 10⁸ go to plotDigits. digits is at least as long as
+// chunk.
+func seriesDigitsChunk(digits []seriesDigit, chunk []float64) {
+	digits = digits[:len(chunk)]
 	for j, w := range chunk {
-		bits := math.Float64bits(w) &^ (1 << 63)
+		raw := math.Float64bits(w)
+		bits := raw &^ (1 << 63)
 		t := &seriesExps[bits>>52]
 		e := t.e10
 		if bits >= t.thr {
@@ -412,27 +416,31 @@ func seriesDigitsChunk(digits *[seriesChunk]plotDigitsOf, chunk []float64) {
 			mi++
 		}
 		if !(x >= 1e7 && mi < 1e8) || math.Abs(frac-0.5) < 1e-6 {
-			m, e10, ok := plotDigits(w)
-			if !ok {
-				e10 = noDigits
-			}
-			digits[j] = plotDigitsOf{m, e10}
+			digits[j] = slowDigits(w)
 			continue
 		}
-		digits[j] = plotDigitsOf{uint64(mi), int(e)}
+		neg := int64(raw) >> 63 // −1 for a negative value, else 0
+		digits[j] = seriesDigit{(mi ^ neg) - neg, int(e)}
 	}
+}
+
+// slowDigits is plotDigits' answer for v as the form holds it, for
+// seriesDigitsChunk.
+func slowDigits(v float64) seriesDigit {
+	m, e10, ok := plotDigits(v)
+	if !ok {
+		return seriesDigit{0, noDigits}
+	}
+	s := int64(m)
+	if v < 0 {
+		s = -s
+	}
+	return seriesDigit{s, e10}
 }
 
 // seriesChunk is the number of values whose digits appendSeriesValues
 // finds in one pass before it writes them.
 const seriesChunk = 256
-
-// plotDigitsOf holds plotDigits' answer for one value (ok: e10 ≠
-// noDigits).
-type plotDigitsOf struct {
-	m   uint64
-	e10 int
-}
 
 // noDigits marks a value plotDigits refuses.
 const noDigits = math.MinInt
@@ -448,7 +456,7 @@ const noDigits = math.MinInt
 // chain of dependent floating-point steps that the writing of the bytes,
 // which depends on them, kept the processor from overlapping), then
 // written (each mode in a loop of its own: one loop for all modes was
-// markedly slower).
+// markedly slower), then their text (appendSeriesText).
 func appendSeriesValues(b, text []byte, withText bool, p []float64, mode int, rec, dm, mm []seriesDigit) ([]byte, []byte) {
 	if mode == seriesResidual && (len(dm) != len(p) || len(mm) != len(p)) {
 		mode = seriesFirst
@@ -477,45 +485,40 @@ func appendSeriesValues(b, text []byte, withText bool, p []float64, mode int, re
 }
 
 // appendDeltaValues writes p's values by first (or with second, second)
-// differences, for appendSeriesValues.
+// differences, for appendSeriesValues; rec, when not nil, gets their
+// digits.
 func appendDeltaValues(b, text []byte, withText bool, p []float64, cb *seriesChunkBufs, second bool, rec []seriesDigit) ([]byte, []byte) {
 	var prevS, prevD int64
 	prevE := 0
-	digits := &cb.digits
+	keepD := int64(0) // −1: the previous difference is kept (second)
+	if second {
+		keepD = -1
+	}
 	for i := 0; i < len(p); i += seriesChunk {
 		chunk := p[i:min(i+seriesChunk, len(p))]
-		seriesDigitsChunk(digits, chunk)
+		digits := cb.digits[:len(chunk)]
 		if rec != nil {
-			recordDigits(rec[i:i+len(chunk)], digits, chunk)
+			digits = rec[i : i+len(chunk)]
 		}
-		for j, v := range chunk {
-			if withText && i+j > 0 {
-				text = append(text, ',')
-			}
-			m, e10 := digits[j].m, digits[j].e10
-			if e10 == noDigits {
-				b, text = appendNoDigits(b, text, withText, v)
+		seriesDigitsChunk(digits, chunk)
+		us := cb.us[:0]
+		for j, d := range digits {
+			if d.e10 == prevE {
+				dd := d.s - prevS
+				us = append(us, zigzag(dd-prevD)<<2)
+				prevD, prevS = dd&keepD, d.s
 				continue
 			}
-			s := int64(m)
-			if v < 0 {
-				s = -s
+			if d.e10 == noDigits {
+				us = append(us, seriesRaw|uint64(j))
+				continue
 			}
-			if e10 == prevE {
-				d := s - prevS
-				b = binary.AppendUvarint(b, zigzag(d-prevD)<<2)
-				if second {
-					prevD = d
-				}
-			} else {
-				b = binary.AppendUvarint(b, zigzag(int64(e10-prevE))<<2|1)
-				b = binary.AppendUvarint(b, zigzag(s))
-				prevE, prevD = e10, 0
-			}
-			prevS = s
-			if withText {
-				text = appendDigits8(text, v < 0, m, e10)
-			}
+			us = append(us, zigzag(int64(d.e10-prevE))<<2|1, zigzag(d.s))
+			prevE, prevD, prevS = d.e10, 0, d.s
+		}
+		b = putUvarints(b, us, chunk)
+		if withText {
+			text = appendSeriesText(text, i > 0, digits, chunk)
 		}
 	}
 	return b, text
@@ -527,84 +530,150 @@ func appendDeltaValues(b, text []byte, withText bool, p []float64, cb *seriesChu
 func appendResidualValues(b, text []byte, withText bool, p []float64, cb *seriesChunkBufs, dm, mm []seriesDigit) (_, _ []byte, firstLen int) {
 	var prevS int64
 	prevE := 0
-	digits, preds := &cb.digits, &cb.preds
 	for i := 0; i < len(p); i += seriesChunk {
 		chunk := p[i:min(i+seriesChunk, len(p))]
+		digits, preds := cb.digits[:len(chunk)], cb.preds[:len(chunk)]
 		seriesDigitsChunk(digits, chunk)
-		for j := range chunk {
-			pr, eP, ok := predictResidual(dm[i+j], mm[i+j])
+		dmc, mmc := dm[i:i+len(chunk)], mm[i:i+len(chunk)]
+		for j := range preds {
+			pr, eP, ok := predictResidual(dmc[j], mmc[j])
 			if !ok {
 				eP = noDigits
 			}
 			preds[j] = seriesDigit{pr, eP}
 		}
-		for j, v := range chunk {
-			if withText && i+j > 0 {
-				text = append(text, ',')
-			}
-			m, e10 := digits[j].m, digits[j].e10
-			if e10 == noDigits {
-				n0 := len(b)
-				b, text = appendNoDigits(b, text, withText, v)
-				firstLen += len(b) - n0
+		us := cb.us[:0]
+		for j, d := range digits {
+			if d.e10 == noDigits {
+				us = append(us, seriesRaw|uint64(j))
+				if math.IsNaN(chunk[j]) || math.IsInf(chunk[j], 0) {
+					firstLen++
+				} else {
+					firstLen += 9
+				}
 				continue
 			}
-			s := int64(m)
-			if v < 0 {
-				s = -s
-			}
-			if pr, eP := preds[j].s, preds[j].e10; e10 == eP {
-				b = binary.AppendUvarint(b, zigzag(s-pr)<<2)
+			if pr := preds[j]; d.e10 == pr.e10 {
+				us = append(us, zigzag(d.s-pr.s)<<2)
 			} else {
+				eP := pr.e10
 				if eP == noDigits {
 					eP = 0
 				}
-				b = binary.AppendUvarint(b, zigzag(int64(e10-eP))<<2|1)
-				b = binary.AppendUvarint(b, zigzag(s))
+				us = append(us, zigzag(int64(d.e10-eP))<<2|1, zigzag(d.s))
 			}
-			if e10 == prevE {
-				firstLen += uvarintLen(zigzag(s-prevS) << 2)
+			if d.e10 == prevE {
+				firstLen += uvarintLen(zigzag(d.s-prevS) << 2)
 			} else {
-				firstLen += uvarintLen(zigzag(int64(e10-prevE))<<2|1) + uvarintLen(zigzag(s))
-				prevE = e10
+				firstLen += uvarintLen(zigzag(int64(d.e10-prevE))<<2|1) + uvarintLen(zigzag(d.s))
+				prevE = d.e10
 			}
-			prevS = s
-			if withText {
-				text = appendDigits8(text, v < 0, m, e10)
-			}
+			prevS = d.s
+		}
+		b = putUvarints(b, us, chunk)
+		if withText {
+			text = appendSeriesText(text, i > 0, digits, chunk)
 		}
 	}
 	return b, text, firstLen
 }
 
-// recordDigits sets rec[j] to chunk[j]'s digits (signed) from digits.
-func recordDigits(rec []seriesDigit, digits *[seriesChunk]plotDigitsOf, chunk []float64) {
-	for j, v := range chunk {
-		d := digits[j]
-		s := int64(d.m)
-		if v < 0 {
-			s = -s
+// seriesRaw marks, in the uvarints of a chunk (putUvarints), the place
+// of a value without digits (its index in the chunk below): the
+// uvarints of the form's values are below 2³⁴ (mantissas and their
+// differences below 2·10⁹, exponents below 400 in magnitude).
+const seriesRaw = 1 << 63
+
+// putUvarints appends us as uvarints to b, and for each seriesRaw|j the
+// value chunk[j] without digits (putNoDigits). A uvarint below 2⁵⁶ (all
+// of the form's) is written as one little-endian word whose seven-bit
+// groups and continuation bits are put in place without a loop (the loop
+// of binary.AppendUvarint branched on every byte, and the lengths of
+// noisy differences vary unpredictably); the word's bytes past the
+// uvarint are overwritten by the next or left past the end.
+func putUvarints(b []byte, us []uint64, chunk []float64) []byte {
+	b = slices.Grow(b, 10*len(us)+8)
+	n, out := len(b), b[:cap(b)]
+	for _, u := range us {
+		if u < 0x80 { // most of a residual's
+			out[n] = byte(u)
+			n++
+			continue
 		}
-		rec[j] = seriesDigit{s, d.e10}
+		if u >= 1<<56 {
+			if u&seriesRaw != 0 {
+				n += putNoDigits(out[n:], chunk[u&^seriesRaw])
+			} else {
+				n += binary.PutUvarint(out[n:], u)
+			}
+			continue
+		}
+		w := u&0x7f | u<<1&0x7f00 | u<<2&0x7f0000 | u<<3&0x7f000000 |
+			u<<4&0x7f00000000 | u<<5&0x7f0000000000 | u<<6&0x7f000000000000 | u<<7&0x7f00000000000000
+		l := uvarintLens[bits.Len64(u)]
+		binary.LittleEndian.PutUint64(out[n:], w|uvarintMore[l])
+		n += int(l)
 	}
+	return out[:n]
 }
 
-// appendNoDigits writes a value without digits: a NaN or ±Inf as null,
-// another (zeros, extreme magnitudes, near-ties) in its eight bytes.
-func appendNoDigits(b, text []byte, withText bool, v float64) ([]byte, []byte) {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		b = append(b, 2)
-		if withText {
-			text = append(text, "null"...)
+// uvarintLens[n] is the length of the uvarint of a value of n bits;
+// uvarintMore[l] the continuation bits of a uvarint of l ≤ 8 bytes.
+var (
+	uvarintLens = func() (t [65]uint8) {
+		for n := range t {
+			t[n] = uint8(max(1, (n+6)/7))
 		}
-		return b, text
+		return t
+	}()
+	uvarintMore = func() (t [11]uint64) {
+		for l := 2; l <= 8; l++ {
+			t[l] = 0x8080808080808080 & (1<<(8*(l-1)) - 1)
+		}
+		return t
+	}()
+)
+
+// appendSeriesText appends the JSON text of chunk's values (as
+// appendPlotFloats writes them, a comma before each but the first unless
+// comma) from their digits.
+func appendSeriesText(text []byte, comma bool, digits []seriesDigit, chunk []float64) []byte {
+	digits = digits[:len(chunk)]
+	for j, d := range digits {
+		if comma {
+			text = append(text, ',')
+		}
+		comma = true
+		if d.e10 == noDigits {
+			v := chunk[j]
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				text = append(text, "null"...)
+			} else {
+				text = strconv.AppendFloat(text, v, 'g', 8, 64)
+			}
+			continue
+		}
+		m := d.s
+		if m < 0 {
+			m = -m
+		}
+		text = appendDigits8(text, d.s < 0, uint64(m), d.e10)
 	}
-	b = append(b, 3)
-	b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
-	if withText {
-		text = strconv.AppendFloat(text, v, 'g', 8, 64)
+	return text
+}
+
+// putNoDigits writes a value without digits at the start of out (room
+// for 9 bytes) and returns the length: a NaN or ±Inf as the tag 2,
+// another (zeros, extreme magnitudes, near-ties) as the tag 3 and its
+// eight bytes.
+func putNoDigits(out []byte, v float64) int {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		out[0] = 2
+		return 1
 	}
-	return b, text
+	out[0] = 3
+	binary.LittleEndian.PutUint64(out[1:], math.Float64bits(v))
+	return 9
 }
 
 // seriesChunkBufs are appendSeriesValues' buffers for a chunk: the
@@ -612,8 +681,9 @@ func appendNoDigits(b, text []byte, withText bool, v float64) ([]byte, []byte) {
 // Pooled: as local arrays they were zeroed (8 kB) at every call, two
 // dozen a result.
 type seriesChunkBufs struct {
-	digits [seriesChunk]plotDigitsOf
+	digits [seriesChunk]seriesDigit
 	preds  [seriesChunk]seriesDigit
+	us     [2 * seriesChunk]uint64 // the chunk's uvarints (putUvarints)
 }
 
 var chunkBufs = sync.Pool{New: func() any { return new(seriesChunkBufs) }}

@@ -421,17 +421,21 @@ func digitsTestValues() []float64 {
 // values with appendFloat8) gives AppendJSON's text.
 func TestSeriesDigitsChunk(t *testing.T) {
 	vs := digitsTestValues()
-	var digits [seriesChunk]plotDigitsOf
+	var digits [seriesChunk]seriesDigit
 	fast := 0
 	for i := 0; i < len(vs); i += seriesChunk {
 		chunk := vs[i:min(i+seriesChunk, len(vs))]
-		seriesDigitsChunk(&digits, chunk)
+		seriesDigitsChunk(digits[:], chunk)
 		for j, v := range chunk {
 			m, e10, ok := plotDigits(v)
-			if !ok {
-				e10, m = noDigits, digits[j].m
+			want := seriesDigit{int64(m), e10}
+			if v < 0 {
+				want.s = -want.s
 			}
-			if digits[j] != (plotDigitsOf{m, e10}) {
+			if !ok {
+				want = seriesDigit{0, noDigits}
+			}
+			if digits[j] != want {
 				t.Fatalf("%v (bits %#x): seriesDigitsChunk %+v, plotDigits %d %d %v", v, math.Float64bits(v), digits[j], m, e10, ok)
 			}
 			if ok {
