@@ -116,37 +116,60 @@ func (sc *seriesRecords) of(k, n int) []seriesDigit {
 var seriesScratch = sync.Pool{New: func() any { return new(seriesRecords) }}
 
 // seriesPow10 are the powers of ten up to 10⁸.
-var seriesPow10 = [...]int64{1, 10, 100, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8}
+var seriesPow10 = [16]int64{1, 10, 100, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8}
 
 // predictResidual returns the eight-digit mantissa P and exponent eP of
 // D − M from the digits of D and M (mode 2); ok is false where they have
 // none, other exponents, or are equal. Integers only: the writer and the
 // reader find the same prediction.
 func predictResidual(d, m seriesDigit) (p int64, eP int, ok bool) {
-	if d.e10 == noDigits || m.e10 == noDigits || d.e10 != m.e10 || d.s == m.s {
+	if d.e10 != m.e10 || d.e10 == noDigits || d.s == m.s {
 		return 0, 0, false
 	}
 	diff := d.s - m.s // |diff| < 2·10⁸, in units of 10^(e10−7)
+	sg := diff >> 63
+	a := (diff ^ sg) - sg
+	// The digits of a (1 ≤ a < 2²⁸): those of the least value of its
+	// bit length, plus one from the next power of ten on.
+	t := &residualDigits[bits.Len64(uint64(a))&31]
+	nd := t.nd
+	if a >= t.thr {
+		nd++
+	}
+	if nd > 8 {
+		return predictNine(diff, d.e10)
+	}
+	return diff * seriesPow10[(8-nd)&15], d.e10 - 8 + int(nd), true
+}
+
+// predictNine is predictResidual for a difference of nine digits: rounded
+// to eight, half away from zero.
+func predictNine(diff int64, e10 int) (p int64, eP int, ok bool) {
 	a := diff
 	if a < 0 {
 		a = -a
 	}
-	// The digits of a (1 ≤ a < 2²⁸): ⌊log₁₀ 2^len⌋, plus one from its
-	// power of ten on.
-	nd := bits.Len64(uint64(a)) * 1233 >> 12
-	if a >= seriesPow10[nd] {
-		nd++
-	}
-	eP = d.e10 - 8 + nd
-	if nd <= 8 {
-		return diff * seriesPow10[8-nd], eP, true
-	}
-	p = (a + 5) / 10 // nine digits: rounded to eight, half away from zero
+	p = (a + 5) / 10
 	if diff < 0 {
 		p = -p
 	}
-	return p, eP, true
+	return p, e10 + 1, true
 }
+
+// residualDigits[n] are, for the integers of bit length n ≤ 28, the
+// number of digits nd of the least (2ⁿ⁻¹) and the power of ten 10^nd
+// from which they have one more.
+var residualDigits = func() (t [32]struct{ thr, nd int64 }) {
+	for n := 1; n < len(t); n++ {
+		lo := int64(1) << (n - 1)
+		nd := int64(len(strconv.FormatInt(lo, 10)))
+		t[n].nd, t[n].thr = nd, 1
+		for range nd {
+			t[n].thr *= 10
+		}
+	}
+	return t
+}()
 
 // ErrSeriesSplit is returned by AppendJSONSplit when its placeholder
 // JSON cannot be told apart from the result's own text (a "[null]"
@@ -469,9 +492,9 @@ func appendSeriesValues(b, text []byte, withText bool, p []float64, mode int, re
 	cb := chunkBufs.Get().(*seriesChunkBufs)
 	if mode == seriesResidual {
 		v0 := len(b)
-		var firstLen int
-		b, text, firstLen = appendResidualValues(b, text, withText, p, cb, dm, mm)
-		if firstLen <= len(b)-v0 {
+		cb.all = slices.Grow(cb.all[:0], len(p))[:len(p)]
+		b, text = appendResidualValues(b, text, withText, p, cb, dm, mm, cb.all)
+		if !firstLonger(cb.all, p, len(b)-v0) {
 			b, _ = appendSeriesValues(b[:b0], nil, false, p, seriesFirst, nil, nil, nil)
 		}
 	} else {
@@ -525,14 +548,12 @@ func appendDeltaValues(b, text []byte, withText bool, p []float64, cb *seriesChu
 }
 
 // appendResidualValues writes p's values as residuals of dm − mm (mode
-// 2), for appendSeriesValues; firstLen is what first differences would
-// take.
-func appendResidualValues(b, text []byte, withText bool, p []float64, cb *seriesChunkBufs, dm, mm []seriesDigit) (_, _ []byte, firstLen int) {
-	var prevS int64
-	prevE := 0
+// 2), for appendSeriesValues, and sets all[i] to p[i]'s digits
+// (firstLonger's).
+func appendResidualValues(b, text []byte, withText bool, p []float64, cb *seriesChunkBufs, dm, mm, all []seriesDigit) (_, _ []byte) {
 	for i := 0; i < len(p); i += seriesChunk {
 		chunk := p[i:min(i+seriesChunk, len(p))]
-		digits, preds := cb.digits[:len(chunk)], cb.preds[:len(chunk)]
+		digits, preds := all[i:i+len(chunk)], cb.preds[:len(chunk)]
 		seriesDigitsChunk(digits, chunk)
 		dmc, mmc := dm[i:i+len(chunk)], mm[i:i+len(chunk)]
 		for j := range preds {
@@ -546,36 +567,57 @@ func appendResidualValues(b, text []byte, withText bool, p []float64, cb *series
 		for j, d := range digits {
 			if d.e10 == noDigits {
 				us = append(us, seriesRaw|uint64(j))
-				if math.IsNaN(chunk[j]) || math.IsInf(chunk[j], 0) {
-					firstLen++
-				} else {
-					firstLen += 9
-				}
 				continue
 			}
 			if pr := preds[j]; d.e10 == pr.e10 {
 				us = append(us, zigzag(d.s-pr.s)<<2)
-			} else {
-				eP := pr.e10
-				if eP == noDigits {
-					eP = 0
-				}
-				us = append(us, zigzag(int64(d.e10-eP))<<2|1, zigzag(d.s))
+				continue
 			}
-			if d.e10 == prevE {
-				firstLen += uvarintLen(zigzag(d.s-prevS) << 2)
-			} else {
-				firstLen += uvarintLen(zigzag(int64(d.e10-prevE))<<2|1) + uvarintLen(zigzag(d.s))
-				prevE = d.e10
+			eP := preds[j].e10
+			if eP == noDigits {
+				eP = 0
 			}
-			prevS = d.s
+			us = append(us, zigzag(int64(d.e10-eP))<<2|1, zigzag(d.s))
 		}
 		b = putUvarints(b, us, chunk)
 		if withText {
 			text = appendSeriesText(text, i > 0, digits, chunk)
 		}
 	}
-	return b, text, firstLen
+	return b, text
+}
+
+// firstLonger reports whether p's values (digits all) by first
+// differences take more than limit bytes; it stops counting once they
+// do (a residual's take three times the bytes of mode 2: a third of
+// them is counted).
+func firstLonger(all []seriesDigit, p []float64, limit int) bool {
+	var prevS int64
+	prevE, n := 0, 0
+	for j, d := range all {
+		switch {
+		case d.e10 == prevE:
+			n += uvarintLen(zigzag(d.s-prevS) << 2)
+		case d.e10 == noDigits:
+			if v := p[j]; math.IsNaN(v) || math.IsInf(v, 0) {
+				n++
+			} else {
+				n += 9
+			}
+			if n > limit {
+				return true
+			}
+			continue
+		default:
+			n += uvarintLen(zigzag(int64(d.e10-prevE))<<2|1) + uvarintLen(zigzag(d.s))
+			prevE = d.e10
+		}
+		prevS = d.s
+		if n > limit {
+			return true
+		}
+	}
+	return false
 }
 
 // seriesRaw marks, in the uvarints of a chunk (putUvarints), the place
@@ -684,6 +726,7 @@ type seriesChunkBufs struct {
 	digits [seriesChunk]seriesDigit
 	preds  [seriesChunk]seriesDigit
 	us     [2 * seriesChunk]uint64 // the chunk's uvarints (putUvarints)
+	all    []seriesDigit           // a residual's digits (firstLonger)
 }
 
 var chunkBufs = sync.Pool{New: func() any { return new(seriesChunkBufs) }}

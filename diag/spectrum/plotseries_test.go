@@ -8,6 +8,7 @@ import (
 	"math/rand/v2"
 	"reflect"
 	"slices"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -712,6 +713,16 @@ func TestSeriesResidual(t *testing.T) {
 		fm, tm := appendSeriesValues(nil, nil, true, c.g.m, seriesSecond, mm, nil, nil)
 		fr, tr := appendSeriesValues(nil, nil, true, c.g.r, seriesResidual, nil, dm, mm)
 		f0, _ := appendSeriesValues(nil, nil, false, c.g.r, seriesFirst, nil, nil, nil)
+		// firstLonger counts f0's values: longer than one byte less
+		// than they take, not longer than what they take.
+		all := make([]seriesDigit, len(c.g.r)+seriesChunk)
+		for i := 0; i < len(c.g.r); i += seriesChunk {
+			seriesDigitsChunk(all[i:], c.g.r[i:min(i+seriesChunk, len(c.g.r))])
+		}
+		all = all[:len(c.g.r)]
+		if _, h := binary.Uvarint(f0); !firstLonger(all, c.g.r, len(f0)-h-1) || firstLonger(all, c.g.r, len(f0)-h) {
+			t.Errorf("case %d: firstLonger does not count the %d bytes of first differences", k, len(f0)-h)
+		}
 		h, _ := binary.Uvarint(fr)
 		if mode := int(h & 3); (mode == seriesResidual) != c.residual {
 			t.Errorf("case %d: mode %d", k, mode)
@@ -732,4 +743,73 @@ func TestSeriesResidual(t *testing.T) {
 			t.Fatalf("case %d: residual text differs from appendPlotFloats", k)
 		}
 	}
+}
+
+// predictResidualRef is predictResidual as format version 2 first
+// defined it (the digits of |D − M| by bit length and a power of ten,
+// nine digits rounded half away from zero): rows stored since then
+// expand through predictResidual, which must give its answer exactly.
+func predictResidualRef(d, m seriesDigit) (p int64, eP int, ok bool) {
+	if d.e10 == noDigits || m.e10 == noDigits || d.e10 != m.e10 || d.s == m.s {
+		return 0, 0, false
+	}
+	diff := d.s - m.s
+	a := diff
+	if a < 0 {
+		a = -a
+	}
+	nd := len(strconv.FormatInt(a, 10))
+	eP = d.e10 - 8 + nd
+	if nd <= 8 {
+		for range 8 - nd {
+			diff *= 10
+		}
+		return diff, eP, true
+	}
+	p = (a + 5) / 10
+	if diff < 0 {
+		p = -p
+	}
+	return p, eP, true
+}
+
+// TestPredictResidual: predictResidual is predictResidualRef for
+// mantissas of every sign and size (differences of every number of
+// digits, the powers of ten and their neighbours, nine digits and their
+// rounding ties), equal mantissas, other exponents and values without
+// digits.
+func TestPredictResidual(t *testing.T) {
+	r := rand.New(rand.NewPCG(12, 5))
+	mant := func() int64 {
+		m := int64(10000000 + r.IntN(90000000))
+		if r.IntN(2) == 0 {
+			m = -m
+		}
+		return m
+	}
+	check := func(d, m seriesDigit) {
+		t.Helper()
+		p, e, ok := predictResidual(d, m)
+		rp, re, rok := predictResidualRef(d, m)
+		if p != rp || e != re || ok != rok {
+			t.Fatalf("predictResidual(%v, %v) = %d %d %v, want %d %d %v", d, m, p, e, ok, rp, re, rok)
+		}
+	}
+	for range 200000 {
+		e := r.IntN(40) - 20
+		d := mant()
+		check(seriesDigit{d, e}, seriesDigit{mant(), e})
+		// differences of every length, and at powers of ten
+		k := seriesPow10[r.IntN(9)]
+		for _, diff := range []int64{int64(r.IntN(int(k))) + 1, k, k - 1, k + 1, -k, 5 + 10*int64(r.IntN(2e7)), -5 - 10*int64(r.IntN(2e7))} {
+			check(seriesDigit{d, e}, seriesDigit{d - diff, e})
+		}
+		check(seriesDigit{d, e}, seriesDigit{d, e})
+		check(seriesDigit{d, e}, seriesDigit{d, e + 1})
+		check(seriesDigit{d, e}, seriesDigit{0, noDigits})
+		check(seriesDigit{0, noDigits}, seriesDigit{d, e})
+	}
+	check(seriesDigit{0, noDigits}, seriesDigit{0, noDigits})
+	check(seriesDigit{99999999, 3}, seriesDigit{-99999999, 3})
+	check(seriesDigit{-99999999, 3}, seriesDigit{99999999, 3})
 }
