@@ -246,8 +246,19 @@ func plotDigits(v float64) (m uint64, e10 int, ok bool) {
 
 // appendDigits8 appends the value −m·10^(e10−7) (neg) or m·10^(e10−7) as
 // strconv's 'g' format with 8 significant digits writes it, for m and
-// e10 from plotDigits.
+// e10 from plotDigits (|e10| < 1000).
 func appendDigits8(b []byte, neg bool, m uint64, e10 int) []byte {
+	if cap(b)-len(b) < 24 {
+		b = slices.Grow(b, 24)
+	}
+	n0 := len(b)
+	return b[:n0+putDigits8((*[24]byte)(b[n0:n0+24]), neg, m, e10)]
+}
+
+// putDigits8 writes appendDigits8's text at the start of out and
+// returns its length; the bytes of out past the text are scratch (the
+// text is written with whole-word stores).
+func putDigits8(out *[24]byte, neg bool, m uint64, e10 int) int {
 	// The eight digits as one little-endian word (d[0] the lowest byte);
 	// nd is their number without trailing zeros (strconv's nd; m ≥ 10⁷,
 	// so the first digit is not '0').
@@ -255,13 +266,6 @@ func appendDigits8(b []byte, neg bool, m uint64, e10 int) []byte {
 	nd := 8 - bits.LeadingZeros64(d)/8
 	const zeros = 0x3030303030303030 // "00000000"
 	w := d | zeros
-	// The text is written in place, in b's spare room, with whole-word
-	// stores: bytes past the text's end are scratch.
-	if cap(b)-len(b) < 24 {
-		b = slices.Grow(b, 24)
-	}
-	n0 := len(b)
-	out := b[n0 : n0+24]
 	n := 0
 	if neg {
 		out[0] = '-'
@@ -292,10 +296,12 @@ func appendDigits8(b []byte, neg bool, m uint64, e10 int) []byte {
 		}
 		n++
 		if exp >= 100 {
-			return strconv.AppendInt(b[:n0+n], int64(exp), 10)
+			out[n] = byte('0' + exp/100%10)
+			exp %= 100
+			n++
 		}
 		out[n], out[n+1] = digitPairs[2*exp], digitPairs[2*exp+1]
-		return b[:n0+n+2]
+		return n + 2
 	}
 	// %f with max(nd-dp, 0) decimals (0 < dp < 8 or dp ≤ 0 here).
 	if dp > 0 {
@@ -305,15 +311,15 @@ func appendDigits8(b []byte, neg bool, m uint64, e10 int) []byte {
 		if nd > dp {
 			out[n+dp] = '.'
 			binary.LittleEndian.PutUint64(out[n+dp+1:], w>>(8*uint(dp)))
-			return b[:n0+n+nd+1]
+			return n + nd + 1
 		}
-		return b[:n0+n+dp]
+		return n + dp
 	}
 	// dp ≥ −3 (e10 ≥ −4): "0." and −dp zeros before the digits.
 	binary.LittleEndian.PutUint64(out[n:], 0x3030303030302e30) // "0.000000"
 	n += 2 - dp
 	binary.LittleEndian.PutUint64(out[n:], w)
-	return b[:n0+n+nd]
+	return n + nd
 }
 
 // eightDigits returns the eight decimal digits of m < 10⁸ as the bytes

@@ -45,6 +45,35 @@ func TestEightDigits(t *testing.T) {
 	}
 }
 
+// TestAppendDigits8: appendDigits8 writes strconv's 'g' text with 8
+// digits for digits of every exponent a series form may hold (ExpandSeries
+// takes |e10| ≤ 400; exponents of three digits among them), appending
+// to what b holds.
+func TestAppendDigits8(t *testing.T) {
+	r := rand.New(rand.NewPCG(11, 3))
+	for e10 := -300; e10 <= 300; e10++ {
+		for range 200 {
+			m := uint64(10000000 + r.IntN(90000000))
+			if r.IntN(4) == 0 {
+				m -= m % 10000 // trailing zeros
+			}
+			neg := r.IntN(2) == 0
+			txt := strconv.FormatUint(m, 10) + "e" + strconv.Itoa(e10-7)
+			if neg {
+				txt = "-" + txt
+			}
+			v, err := strconv.ParseFloat(txt, 64)
+			if err != nil {
+				t.Fatal(err)
+			}
+			want := strconv.AppendFloat([]byte("x"), v, 'g', 8, 64)
+			if got := appendDigits8([]byte("x"), neg, m, e10); string(got) != string(want) {
+				t.Fatalf("appendDigits8(%v, %d, %d) = %s, want %s", neg, m, e10, got, want)
+			}
+		}
+	}
+}
+
 func TestAppendFloat8(t *testing.T) {
 	check := func(v float64) {
 		t.Helper()

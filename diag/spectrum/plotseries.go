@@ -678,20 +678,26 @@ var (
 
 // appendSeriesText appends the JSON text of chunk's values (as
 // appendPlotFloats writes them, a comma before each but the first unless
-// comma) from their digits.
+// comma) from their digits, in room made for the chunk at once.
 func appendSeriesText(text []byte, comma bool, digits []seriesDigit, chunk []float64) []byte {
 	digits = digits[:len(chunk)]
+	// Each value's text (a comma, a sign and "1.2345678e-05", or
+	// strconv's) takes at most 16 bytes; putDigits8 writes 24.
+	text = slices.Grow(text, 16*len(chunk)+24)
+	n, out := len(text), text[:cap(text)]
 	for j, d := range digits {
 		if comma {
-			text = append(text, ',')
+			out[n] = ','
+			n++
 		}
 		comma = true
 		if d.e10 == noDigits {
 			v := chunk[j]
 			if math.IsNaN(v) || math.IsInf(v, 0) {
-				text = append(text, "null"...)
+				n += copy(out[n:], "null")
 			} else {
-				text = strconv.AppendFloat(text, v, 'g', 8, 64)
+				out = strconv.AppendFloat(out[:n], v, 'g', 8, 64)
+				n, out = len(out), out[:cap(out)]
 			}
 			continue
 		}
@@ -699,9 +705,9 @@ func appendSeriesText(text []byte, comma bool, digits []seriesDigit, chunk []flo
 		if m < 0 {
 			m = -m
 		}
-		text = appendDigits8(text, d.s < 0, uint64(m), d.e10)
+		n += putDigits8((*[24]byte)(out[n:n+24]), d.s < 0, uint64(m), d.e10)
 	}
-	return text
+	return out[:n]
 }
 
 // putNoDigits writes a value without digits at the start of out (room
