@@ -623,13 +623,14 @@ func firstLonger(all []seriesDigit, p []float64, limit int) bool {
 // seriesRaw marks, in the uvarints of a chunk (putUvarints), the place
 // of a value without digits (its index in the chunk below): the
 // uvarints of the form's values are below 2³⁴ (mantissas and their
-// differences below 2·10⁹, exponents below 400 in magnitude).
+// differences below 2·10⁹, exponents below 400 in magnitude), those of
+// the values of series below 2³³.
 const seriesRaw = 1 << 63
 
 // putUvarints appends us as uvarints to b, and for each seriesRaw|j the
-// value chunk[j] without digits (putNoDigits). A uvarint below 2⁵⁶ (all
-// of the form's) is written as one little-endian word whose seven-bit
-// groups and continuation bits are put in place without a loop (the loop
+// value chunk[j] without digits (putNoDigits). A uvarint below 2³⁵ (all
+// of the form's) is written as one little-endian word whose five
+// seven-bit groups and continuation bits are put in place without a loop (the loop
 // of binary.AppendUvarint branched on every byte, and the lengths of
 // noisy differences vary unpredictably); the word's bytes past the
 // uvarint are overwritten by the next or left past the end.
@@ -642,7 +643,7 @@ func putUvarints(b []byte, us []uint64, chunk []float64) []byte {
 			n++
 			continue
 		}
-		if u >= 1<<56 {
+		if u >= 1<<35 {
 			if u&seriesRaw != 0 {
 				n += putNoDigits(out[n:], chunk[u&^seriesRaw])
 			} else {
@@ -650,8 +651,7 @@ func putUvarints(b []byte, us []uint64, chunk []float64) []byte {
 			}
 			continue
 		}
-		w := u&0x7f | u<<1&0x7f00 | u<<2&0x7f0000 | u<<3&0x7f000000 |
-			u<<4&0x7f00000000 | u<<5&0x7f0000000000 | u<<6&0x7f000000000000 | u<<7&0x7f00000000000000
+		w := u&0x7f | u<<1&0x7f00 | u<<2&0x7f0000 | u<<3&0x7f000000 | u<<4&0x7f00000000
 		l := uvarintLens[bits.Len64(u)]
 		binary.LittleEndian.PutUint64(out[n:], w|uvarintMore[l])
 		n += int(l)
@@ -660,7 +660,7 @@ func putUvarints(b []byte, us []uint64, chunk []float64) []byte {
 }
 
 // uvarintLens[n] is the length of the uvarint of a value of n bits;
-// uvarintMore[l] the continuation bits of a uvarint of l ≤ 8 bytes.
+// uvarintMore[l] the continuation bits of a uvarint of l ≤ 5 bytes.
 var (
 	uvarintLens = func() (t [65]uint8) {
 		for n := range t {
@@ -669,7 +669,7 @@ var (
 		return t
 	}()
 	uvarintMore = func() (t [11]uint64) {
-		for l := 2; l <= 8; l++ {
+		for l := 2; l <= 5; l++ {
 			t[l] = 0x8080808080808080 & (1<<(8*(l-1)) - 1)
 		}
 		return t

@@ -813,3 +813,44 @@ func TestPredictResidual(t *testing.T) {
 	check(seriesDigit{99999999, 3}, seriesDigit{-99999999, 3})
 	check(seriesDigit{-99999999, 3}, seriesDigit{99999999, 3})
 }
+
+// TestPutUvarints: putUvarints writes binary.AppendUvarint's bytes for
+// values of every bit length below 64 (the top bit marks a value without
+// digits) and their neighbours (the ends of each uvarint length), and a
+// value without digits as putNoDigits does, after what b holds.
+func TestPutUvarints(t *testing.T) {
+	r := rand.New(rand.NewPCG(6, 1))
+	var us []uint64
+	us = append(us, 1<<63-1)
+	for l := range 9 { // the ends of each uvarint length
+		us = append(us, 1<<(7*l), 1<<(7*l)-1, 1<<(7*l)+1)
+	}
+	for n := range 63 {
+		for range 20 {
+			u := r.Uint64() >> (64 - n) // n bits at most
+			if n > 0 {
+				u |= 1 << (n - 1)
+			}
+			us = append(us, u, max(u, 1)-1, u+1)
+		}
+	}
+	chunk := []float64{math.NaN(), 1e300, 0, math.Inf(-1)}
+	for i := range chunk {
+		us = append(us[:len(us)/2+i], append([]uint64{seriesRaw | uint64(i)}, us[len(us)/2+i:]...)...)
+	}
+	for cut := 0; cut < len(us); cut += 97 {
+		got := putUvarints([]byte("x"), us[cut:], chunk)
+		want := []byte("x")
+		for _, u := range us[cut:] {
+			if u&seriesRaw != 0 && u&^seriesRaw < uint64(len(chunk)) {
+				var tmp [9]byte
+				want = append(want, tmp[:putNoDigits(tmp[:], chunk[u&^seriesRaw])]...)
+				continue
+			}
+			want = binary.AppendUvarint(want, u)
+		}
+		if !bytes.Equal(got, want) {
+			t.Fatalf("from %d: putUvarints differs from binary.AppendUvarint", cut)
+		}
+	}
+}
