@@ -524,22 +524,26 @@ func appendDeltaValues(b, text []byte, withText bool, p []float64, cb *seriesChu
 			digits = rec[i : i+len(chunk)]
 		}
 		seriesDigitsChunk(digits, chunk)
-		us := cb.us[:0]
+		us, nu := &cb.us, 0 // at most two a value
 		for j, d := range digits {
 			if d.e10 == prevE {
 				dd := d.s - prevS
-				us = append(us, zigzag(dd-prevD)<<2)
+				us[nu&(len(us)-1)] = zigzag(dd-prevD) << 2
+				nu++
 				prevD, prevS = dd&keepD, d.s
 				continue
 			}
 			if d.e10 == noDigits {
-				us = append(us, seriesRaw|uint64(j))
+				us[nu&(len(us)-1)] = seriesRaw | uint64(j)
+				nu++
 				continue
 			}
-			us = append(us, zigzag(int64(d.e10-prevE))<<2|1, zigzag(d.s))
+			us[nu&(len(us)-1)] = zigzag(int64(d.e10-prevE))<<2 | 1
+			us[(nu+1)&(len(us)-1)] = zigzag(d.s)
+			nu += 2
 			prevE, prevD, prevS = d.e10, 0, d.s
 		}
-		b = putUvarints(b, us, chunk)
+		b = putUvarints(b, us[:nu], chunk)
 		if withText {
 			text = appendSeriesText(text, i > 0, digits, chunk)
 		}
@@ -563,23 +567,27 @@ func appendResidualValues(b, text []byte, withText bool, p []float64, cb *series
 			}
 			preds[j] = seriesDigit{pr, eP}
 		}
-		us := cb.us[:0]
+		us, nu := &cb.us, 0 // at most two a value
 		for j, d := range digits {
 			if d.e10 == noDigits {
-				us = append(us, seriesRaw|uint64(j))
+				us[nu&(len(us)-1)] = seriesRaw | uint64(j)
+				nu++
 				continue
 			}
 			if pr := preds[j]; d.e10 == pr.e10 {
-				us = append(us, zigzag(d.s-pr.s)<<2)
+				us[nu&(len(us)-1)] = zigzag(d.s-pr.s) << 2
+				nu++
 				continue
 			}
 			eP := preds[j].e10
 			if eP == noDigits {
 				eP = 0
 			}
-			us = append(us, zigzag(int64(d.e10-eP))<<2|1, zigzag(d.s))
+			us[nu&(len(us)-1)] = zigzag(int64(d.e10-eP))<<2 | 1
+			us[(nu+1)&(len(us)-1)] = zigzag(d.s)
+			nu += 2
 		}
-		b = putUvarints(b, us, chunk)
+		b = putUvarints(b, us[:nu], chunk)
 		if withText {
 			text = appendSeriesText(text, i > 0, digits, chunk)
 		}
