@@ -709,11 +709,40 @@ func appendSeriesText(text []byte, comma bool, digits []seriesDigit, chunk []flo
 			}
 			continue
 		}
-		m := d.s
+		m, neg := d.s, 0
 		if m < 0 {
-			m = -m
+			m, neg = -m, 1
 		}
-		n += putDigits8((*[24]byte)(out[n:n+24]), d.s < 0, uint64(m), d.e10)
+		if uint(d.e10+4) >= 12 { // %e: exponent below −4 or from 8 on
+			n += putDigits8((*[24]byte)(out[n:n+24]), neg == 1, uint64(m), d.e10)
+			continue
+		}
+		// putDigits8's %f, inline and without a branch on the digits:
+		// the sign written always and counted when there is one; the
+		// digits, and for a value from 1 on the point after dp of them
+		// and the rest after it, all written (the bytes past the text
+		// are scratch), the length chosen.
+		dg := eightDigits(uint64(m))
+		nd := 8 - bits.LeadingZeros64(dg)/8
+		w := dg | 0x3030303030303030
+		o := (*[24]byte)(out[n : n+24])
+		o[0] = '-'
+		k := neg
+		if dp := d.e10 + 1; dp > 0 {
+			binary.LittleEndian.PutUint64(o[k:], w)
+			o[k+dp] = '.'
+			binary.LittleEndian.PutUint64(o[k+dp+1:], w>>(8*uint(dp)))
+			l := dp
+			if nd > dp {
+				l = nd + 1
+			}
+			n += k + l
+		} else {
+			binary.LittleEndian.PutUint64(o[k:], 0x3030303030302e30) // "0.000000"
+			k += 2 - dp
+			binary.LittleEndian.PutUint64(o[k:], w)
+			n += k + nd
+		}
 	}
 	return out[:n]
 }
