@@ -484,10 +484,10 @@ func appendSeriesValuesRef(b []byte, p []float64) []byte {
 }
 
 // TestSeriesFormUnchanged: appendSeriesValues writes the series form of
-// appendSeriesValuesRef byte for byte, and the text of appendPlotFloats,
-// for the digit test values cut into series of many lengths (chunk
-// boundaries included) and for the plot series of a real whole-route
-// result.
+// appendSeriesValuesRef byte for byte, and the text of
+// appendPlotFloatsEach (as appendPlotFloats does), for the digit test
+// values cut into series of many lengths (chunk boundaries included) and
+// for the plot series of a real whole-route result.
 func TestSeriesFormUnchanged(t *testing.T) {
 	vs := digitsTestValues()
 	var list [][]float64
@@ -530,8 +530,11 @@ func TestSeriesFormUnchanged(t *testing.T) {
 		if !bytes.Equal(got, want) {
 			t.Fatalf("series %d (%d values): form differs from the reference", k, len(p))
 		}
-		if wantText := appendPlotFloats([]byte("y"), p); !bytes.Equal(text, wantText) {
-			t.Fatalf("series %d (%d values): text differs from appendPlotFloats", k, len(p))
+		if wantText := appendPlotFloatsEach([]byte("y"), p); !bytes.Equal(text, wantText) {
+			t.Fatalf("series %d (%d values): text differs from appendPlotFloatsEach", k, len(p))
+		}
+		if wantText := appendPlotFloatsEach(nil, p); !bytes.Equal(appendPlotFloats(nil, p), wantText) {
+			t.Fatalf("series %d (%d values): appendPlotFloats differs from appendPlotFloatsEach", k, len(p))
 		}
 		if got2, _ := appendSeriesValues([]byte("x"), nil, false, p, seriesFirst, nil, nil, nil); !bytes.Equal(got2, want) {
 			t.Fatalf("series %d (%d values): form without text differs", k, len(p))
@@ -739,8 +742,8 @@ func TestSeriesResidual(t *testing.T) {
 		if want := string(td) + " " + string(tm) + " " + string(tr); err != nil || string(got) != want {
 			t.Fatalf("case %d: expansion differs (%v)", k, err)
 		}
-		if want := string(appendPlotFloats(nil, c.g.r)); string(tr) != want {
-			t.Fatalf("case %d: residual text differs from appendPlotFloats", k)
+		if want := string(appendPlotFloatsEach(nil, c.g.r)); string(tr) != want {
+			t.Fatalf("case %d: residual text differs from appendPlotFloatsEach", k)
 		}
 	}
 }
