@@ -203,7 +203,7 @@ func TestExpandSeriesCorrupt(t *testing.T) {
 
 // FuzzExpandSeries: any series form and JSON give an error or an
 // expansion, never a panic; a series of any float64 values round-trips to
-// AppendJSON's text.
+// AppendJSON's text, whose series text is the value-at-a-time writer's.
 func FuzzExpandSeries(f *testing.F) {
 	res := Result{Model: ModelWhole, Whole: &WholeFit{WavelengthNM: PlotFloats{486.1, 486.2}, Data: PlotFloats{1, -2e-9}}}
 	js, series, _ := AppendJSONSplit(nil, nil, &res)
@@ -221,6 +221,10 @@ func FuzzExpandSeries(f *testing.F) {
 		got, err := ExpandSeries(nil, string(j), s)
 		if err != nil || !bytes.Equal(got, want) {
 			t.Fatalf("%v %v: %s, %v; want %s", a, b, got, err, want)
+		}
+		p := PlotFloats{a, b, a * b, -a, a / 3}
+		if fast, each := appendPlotFloats(nil, p), appendPlotFloatsEach(nil, p); !bytes.Equal(fast, each) {
+			t.Fatalf("%v %v: appendPlotFloats %s, appendPlotFloatsEach %s", a, b, fast, each)
 		}
 	})
 }
