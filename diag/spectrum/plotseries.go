@@ -595,10 +595,10 @@ func appendResidualValues(b, text []byte, withText bool, p []float64, cb *series
 	return b, text
 }
 
-// firstLonger reports whether p's values (digits all) by first
-// differences take more than limit bytes; it stops counting once they
-// do (a residual's take three times the bytes of mode 2: a third of
-// them is counted).
+// firstLonger reports whether p's values (their digits all) by first
+// differences take more than limit bytes, counting only until they do:
+// a data − model residual takes about three times mode 2's bytes by
+// first differences, so about a third of its values are counted.
 func firstLonger(all []seriesDigit, p []float64, limit int) bool {
 	var prevS int64
 	prevE, n := 0, 0
@@ -630,18 +630,19 @@ func firstLonger(all []seriesDigit, p []float64, limit int) bool {
 
 // seriesRaw marks, in the uvarints of a chunk (putUvarints), the place
 // of a value without digits (its index in the chunk below): the
-// uvarints of the form's values are below 2³⁴ (mantissas and their
-// differences below 2·10⁹, exponents below 400 in magnitude), those of
-// the values of series below 2³³.
+// uvarints of a series' values are below 2³³ (mantissas below 10⁸ in
+// magnitude, their first and second differences below 4·10⁸, exponents
+// and their changes below 400).
 const seriesRaw = 1 << 63
 
 // putUvarints appends us as uvarints to b, and for each seriesRaw|j the
-// value chunk[j] without digits (putNoDigits). A uvarint below 2³⁵ (all
-// of the form's) is written as one little-endian word whose five
-// seven-bit groups and continuation bits are put in place without a loop (the loop
-// of binary.AppendUvarint branched on every byte, and the lengths of
-// noisy differences vary unpredictably); the word's bytes past the
-// uvarint are overwritten by the next or left past the end.
+// value chunk[j] without digits (putNoDigits). A uvarint of one byte (most
+// of a residual's) is stored as it is; one below 2³⁵ (all of the form's)
+// as one little-endian word whose five seven-bit groups and continuation
+// bits are put in place without a loop (the loop of binary.AppendUvarint
+// branched on every byte, and the lengths of noisy differences vary
+// unpredictably); the word's bytes past the uvarint are overwritten by
+// the next or left past the end.
 func putUvarints(b []byte, us []uint64, chunk []float64) []byte {
 	b = slices.Grow(b, 10*len(us)+8)
 	n, out := len(b), b[:cap(b)]
@@ -685,8 +686,8 @@ var (
 )
 
 // appendSeriesText appends the JSON text of chunk's values (as
-// appendPlotFloats writes them, a comma before each but the first unless
-// comma) from their digits, in room made for the chunk at once.
+// appendPlotFloatsEach writes them, a comma before each but the first
+// unless comma) from their digits, in room made for the chunk at once.
 func appendSeriesText(text []byte, comma bool, digits []seriesDigit, chunk []float64) []byte {
 	digits = digits[:len(chunk)]
 	// Each value's text (a comma, a sign and "1.2345678e-05", or
