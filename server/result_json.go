@@ -3,6 +3,7 @@ package server
 import (
 	"bytes"
 	"encoding/json"
+	"sync"
 
 	"glowlog/diag/spectrum"
 )
@@ -32,8 +33,20 @@ func encodeSpectrumResult(buf *bytes.Buffer, r *spectrum.Result) error {
 // their compact stored form (spectrum.AppendJSONSplit), appended to
 // series; spectrum.ExpandSeries gives encodeSpectrumResult's bytes back.
 // A result whose text cannot be split is appended whole (no series).
+// With series nil the form is written in a buffer of seriesBufPool and
+// returned in a slice of its own length (AppendJSONSplit sizes a new
+// buffer for the worst case, ~2.5 times the usual form).
 func encodeSpectrumResultSplit(buf *bytes.Buffer, series []byte, r *spectrum.Result) ([]byte, error) {
-	b, s, err := spectrum.AppendJSONSplit(buf.AvailableBuffer(), series, r)
+	var sp *[]byte
+	to := series
+	if series == nil {
+		sp = seriesBufPool.Get().(*[]byte)
+		to = (*sp)[:0]
+	}
+	b, s, err := spectrum.AppendJSONSplit(buf.AvailableBuffer(), to, r)
+	if sp != nil {
+		s = ownSeries(sp, s, err)
+	}
 	if err != nil {
 		return series, encodeSpectrumResult(buf, r)
 	}
@@ -41,13 +54,32 @@ func encodeSpectrumResultSplit(buf *bytes.Buffer, series []byte, r *spectrum.Res
 	return s, nil
 }
 
+// ownSeries returns a copy of the series form s (nil when empty or
+// err is set) and puts s's buffer back in seriesBufPool as *sp.
+func ownSeries(sp *[]byte, s []byte, err error) []byte {
+	var own []byte
+	if len(s) > 0 && err == nil {
+		own = bytes.Clone(s)
+	}
+	if cap(s) <= 1<<20 {
+		*sp = s[:0]
+		seriesBufPool.Put(sp)
+	}
+	return own
+}
+
+// seriesBufPool holds the buffers encodeSpectrumResultSplit writes series
+// forms in.
+var seriesBufPool = sync.Pool{New: func() any { b := make([]byte, 0, 64<<10); return &b }}
+
 // encodeSpectrumResultSplitFull is encodeSpectrumResultSplit that also
 // returns encodeSpectrumResult's bytes (the whole JSON, for an answer),
 // written in the same pass over the series (spectrum.AppendJSONSplitFull),
 // in a buffer of resultBufPool.
 func encodeSpectrumResultSplitFull(buf *bytes.Buffer, r *spectrum.Result) (series, full []byte, err error) {
-	fp := resultBufPool.Get().(*[]byte)
-	b, s, f, err := spectrum.AppendJSONSplitFull(buf.AvailableBuffer(), nil, (*fp)[:0], r)
+	fp, sp := resultBufPool.Get().(*[]byte), seriesBufPool.Get().(*[]byte)
+	b, s, f, err := spectrum.AppendJSONSplitFull(buf.AvailableBuffer(), (*sp)[:0], (*fp)[:0], r)
+	s = ownSeries(sp, s, err)
 	if err != nil {
 		resultBufPool.Put(fp)
 		if err = encodeSpectrumResult(buf, r); err != nil {

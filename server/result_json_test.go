@@ -2,6 +2,7 @@ package server
 
 import (
 	"bytes"
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
@@ -110,6 +111,44 @@ func BenchmarkEncodeSpectrumResult(b *testing.B) {
 				}
 			}
 			b.SetBytes(int64(buf.Len()))
+		})
+	}
+}
+
+// BenchmarkEncodeStored: a whole-route result of the bench Stark spectra
+// encoded as bulk reanalysis stores it (encode: the placeholder JSON and
+// the series form) and as an API upload answers it (encodeAnswer: the
+// whole JSON too, its buffer put back as the answer's writer does), with
+// the allocations; cpu-ns/op is the process's CPU time per result.
+//
+//	go test ./server/ -run '^$' -bench EncodeStored
+func BenchmarkEncodeStored(b *testing.B) {
+	sp, err := ReadCurve("s.csv", benchStarkSpectra(b, 1)[0], CurveOptions{}, nil)
+	if err != nil {
+		b.Fatal(err)
+	}
+	r, err := spectrum.NewPipeline(8192).Analyze(sp, spectrum.Options{KeepWindows: true,
+		Conditions: diag.Measurement{InstrumentGaussFWHMNM: benchRunFWHM, GasTemperatureK: benchRunTgas}})
+	if err != nil || r.Whole == nil {
+		b.Fatalf("no whole fit: %v", err)
+	}
+	for _, answer := range []bool{false, true} {
+		b.Run(fmt.Sprintf("answer=%v", answer), func(b *testing.B) {
+			b.ReportAllocs()
+			c0 := cpuTime()
+			for b.Loop() {
+				ra := RunAnalysis{Spectrum: &r}
+				if answer {
+					if err := ra.encodeAnswer(); err != nil {
+						b.Fatal(err)
+					}
+					a := ra.answer[:0]
+					resultBufPool.Put(&a)
+				} else if err := ra.encode(); err != nil {
+					b.Fatal(err)
+				}
+			}
+			b.ReportMetric(float64(cpuTime()-c0)/float64(b.N), "cpu-ns/op")
 		})
 	}
 }

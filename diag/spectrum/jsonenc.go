@@ -118,19 +118,78 @@ func appendJSONFloat(b []byte, f float64) ([]byte, error) {
 		// without formatting a float.
 		return strconv.AppendInt(b, int64(f), 10), nil
 	}
-	format := byte('f')
 	if abs != 0 && (abs < 1e-6 || abs >= 1e21) {
-		format = 'e'
-	}
-	b = strconv.AppendFloat(b, f, format, -1, 64)
-	if format == 'e' {
+		b = strconv.AppendFloat(b, f, 'e', -1, 64)
 		// e-09 → e-9
 		if n := len(b); n >= 4 && b[n-4] == 'e' && b[n-3] == '-' && b[n-2] == '0' {
 			b[n-2] = b[n-1]
 			b = b[:n-1]
 		}
+		return b, nil
 	}
-	return b, nil
+	return appendShortestF(b, f), nil
+}
+
+// appendShortestF appends strconv.AppendFloat(b, f, 'f', -1, 64) for a
+// finite f ≠ 0 with 1e-6 ≤ |f| < 1e21: the same shortest digits, taken
+// from strconv's 'e' text (d.ddde±XX; its 'f' writer appends the
+// fraction a byte at a time, about three times the instructions of the
+// 'e' writer) and put in place with whole-word copies.
+// TestAppendJSONFloatMatches compares the bytes with encoding/json's.
+func appendShortestF(b []byte, f float64) []byte {
+	var buf [48]byte // the 'e' text, and room to read words past it
+	e := strconv.AppendFloat(buf[:0], f, 'e', -1, 64)
+	neg := 0
+	if e[0] == '-' {
+		neg = 1
+	}
+	x := len(e) - 4 // the 'e': two exponent digits for these magnitudes
+	if len(e) > len(buf)-16 || x < neg+1 || e[x] != 'e' {
+		return strconv.AppendFloat(b, f, 'f', -1, 64) // not reached
+	}
+	exp := int(e[x+2]-'0')*10 + int(e[x+3]-'0')
+	if e[x+1] == '-' {
+		exp = -exp
+	}
+	d0 := e[neg] // the first digit; the others (nd−1 ≤ 16) from e[neg+2] on
+	rest := buf[neg+2 : neg+2+16]
+	r0, r1 := binary.LittleEndian.Uint64(rest), binary.LittleEndian.Uint64(rest[8:])
+	nr := max(x-(neg+2), 0) // the other digits' number
+	dp := exp + 1           // digits before the decimal point (−5 … 21)
+	if cap(b)-len(b) < 64 {
+		b = slices.Grow(b, 64)
+	}
+	n0 := len(b)
+	out := b[n0 : n0+64]
+	out[0] = '-'
+	o := out[neg:]
+	if dp <= 0 {
+		// "0." and −dp zeros, then the digits.
+		binary.LittleEndian.PutUint64(o, 0x3030303030302e30) // "0.000000"
+		k := 2 - dp
+		o[k] = d0
+		binary.LittleEndian.PutUint64(o[k+1:], r0)
+		binary.LittleEndian.PutUint64(o[k+9:], r1)
+		return b[:n0+neg+k+1+nr]
+	}
+	// The first digit and the others, then (dp−1 of the others before
+	// it) the point and the rest; or zeros up to dp.
+	o[0] = d0
+	binary.LittleEndian.PutUint64(o[1:], r0)
+	binary.LittleEndian.PutUint64(o[9:], r1)
+	if nr+1 <= dp {
+		// An integer of dp digits (a float from 2⁵³ on): zeros past
+		// the digits.
+		for i := nr + 1; i < dp; i++ {
+			o[i] = '0'
+		}
+		return b[:n0+neg+dp]
+	}
+	o[dp] = '.'
+	tail := buf[neg+2+dp-1 : neg+2+dp-1+16]
+	binary.LittleEndian.PutUint64(o[dp+1:], binary.LittleEndian.Uint64(tail))
+	binary.LittleEndian.PutUint64(o[dp+9:], binary.LittleEndian.Uint64(tail[8:]))
+	return b[:n0+neg+nr+2]
 }
 
 // appendJSONMapIntFloat is encoding/json's encoding of a map[int]float64:
@@ -246,24 +305,26 @@ func plotDigits(v float64) (m uint64, e10 int, ok bool) {
 
 // appendDigits8 appends the value −m·10^(e10−7) (neg) or m·10^(e10−7) as
 // strconv's 'g' format with 8 significant digits writes it, for m and
-// e10 from plotDigits.
+// e10 from plotDigits (|e10| < 1000).
 func appendDigits8(b []byte, neg bool, m uint64, e10 int) []byte {
-	// The eight digits as one little-endian word (d[0] the lowest byte);
-	// nd is their number without trailing zeros (strconv's nd; m ≥ 10⁷,
-	// so the first digit is not '0').
-	hi, lo := uint32(m/10000), uint32(m%10000)
-	h1, h2, l1, l2 := 2*(hi/100), 2*(hi%100), 2*(lo/100), 2*(lo%100)
-	w := uint64(digitPairs[h1]) | uint64(digitPairs[h1+1])<<8 | uint64(digitPairs[h2])<<16 | uint64(digitPairs[h2+1])<<24 |
-		uint64(digitPairs[l1])<<32 | uint64(digitPairs[l1+1])<<40 | uint64(digitPairs[l2])<<48 | uint64(digitPairs[l2+1])<<56
-	const zeros = 0x3030303030303030 // "00000000"
-	nd := 8 - bits.LeadingZeros64(w^zeros)/8
-	// The text is written in place, in b's spare room, with whole-word
-	// stores: bytes past the text's end are scratch.
 	if cap(b)-len(b) < 24 {
 		b = slices.Grow(b, 24)
 	}
 	n0 := len(b)
-	out := b[n0 : n0+24]
+	return b[:n0+putDigits8((*[24]byte)(b[n0:n0+24]), neg, m, e10)]
+}
+
+// putDigits8 writes appendDigits8's text at the start of out and
+// returns its length; the bytes of out past the text are scratch (the
+// text is written with whole-word stores).
+func putDigits8(out *[24]byte, neg bool, m uint64, e10 int) int {
+	// The eight digits as one little-endian word (d[0] the lowest byte);
+	// nd is their number without trailing zeros (strconv's nd; m ≥ 10⁷,
+	// so the first digit is not '0').
+	d := eightDigits(m)
+	nd := 8 - bits.LeadingZeros64(d)/8
+	const zeros = 0x3030303030303030 // "00000000"
+	w := d | zeros
 	n := 0
 	if neg {
 		out[0] = '-'
@@ -294,10 +355,12 @@ func appendDigits8(b []byte, neg bool, m uint64, e10 int) []byte {
 		}
 		n++
 		if exp >= 100 {
-			return strconv.AppendInt(b[:n0+n], int64(exp), 10)
+			out[n] = byte('0' + exp/100%10)
+			exp %= 100
+			n++
 		}
 		out[n], out[n+1] = digitPairs[2*exp], digitPairs[2*exp+1]
-		return b[:n0+n+2]
+		return n + 2
 	}
 	// %f with max(nd-dp, 0) decimals (0 < dp < 8 or dp ≤ 0 here).
 	if dp > 0 {
@@ -307,15 +370,34 @@ func appendDigits8(b []byte, neg bool, m uint64, e10 int) []byte {
 		if nd > dp {
 			out[n+dp] = '.'
 			binary.LittleEndian.PutUint64(out[n+dp+1:], w>>(8*uint(dp)))
-			return b[:n0+n+nd+1]
+			return n + nd + 1
 		}
-		return b[:n0+n+dp]
+		return n + dp
 	}
 	// dp ≥ −3 (e10 ≥ −4): "0." and −dp zeros before the digits.
 	binary.LittleEndian.PutUint64(out[n:], 0x3030303030302e30) // "0.000000"
 	n += 2 - dp
 	binary.LittleEndian.PutUint64(out[n:], w)
-	return b[:n0+n+nd]
+	return n + nd
+}
+
+// eightDigits returns the eight decimal digits of m < 10⁸ as the bytes
+// of one little-endian word, the first digit in the lowest byte, each
+// byte the digit's value (0–9): without a division or a table, by
+// dividing the lanes of a word at once (SWAR). m/10⁴ and m%10⁴ go to two
+// 32-bit lanes, each lane is cut by 100 into two 16-bit lanes, and each
+// of those by 10 into two bytes. A lane's quotient by 100 is
+// ⌊x·10486/2²⁰⌋ for x < 10⁴ (the product's excess over x/100 is below
+// 0.003, less than any remainder's distance to the next integer) and by
+// 10 is ⌊x·103/2¹⁰⌋ for x < 100 (excess below 0.06); the products stay
+// in their lanes (below 2²⁷ and 2¹⁴). TestEightDigits compares every
+// m's digits with strconv's.
+func eightDigits(m uint64) uint64 {
+	x := m/10000 | m%10000<<32
+	q := x * 10486 >> 20 & 0x0000007f0000007f
+	x = q | (x-q*100)<<16
+	q = x * 103 >> 10 & 0x000f000f000f000f
+	return q | (x-q*10)<<8
 }
 
 // digitPairs are "00" … "99".

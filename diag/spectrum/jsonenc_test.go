@@ -13,6 +13,67 @@ import (
 // magnitudes of plot series, values next to the rounding boundaries of
 // the eighth digit (ties, and 9.9999999…e±n that carry into the next
 // power of ten), powers of ten and small integers, negatives and zeros.
+// TestEightDigits: eightDigits gives the digits strconv writes (zero
+// padded to eight) for every m whose upper or lower four digits (the two
+// lanes it divides apart) take every value with the other at its ends,
+// its middle and at random, and for random m. A quotient off by one for
+// any lane value (a wrong constant or shift) fails.
+func TestEightDigits(t *testing.T) {
+	check := func(m uint64) {
+		t.Helper()
+		want := strconv.AppendUint(nil, m+100000000, 10)[1:]
+		d := eightDigits(m)
+		for i := range 8 {
+			if got := byte(d>>(8*i)) + '0'; got != want[i] {
+				t.Fatalf("eightDigits(%d) = %#x, want %s", m, d, want)
+			}
+		}
+	}
+	r := rand.New(rand.NewPCG(10, 4))
+	others := []uint64{0, 1, 9, 10, 99, 100, 999, 1000, 5000, 9990, 9999}
+	for range 5 {
+		others = append(others, uint64(r.IntN(10000)))
+	}
+	for x := range uint64(10000) {
+		for _, o := range others {
+			check(x*10000 + o)
+			check(o*10000 + x)
+		}
+	}
+	for range 1000000 {
+		check(uint64(r.IntN(100000000)))
+	}
+}
+
+// TestAppendDigits8: appendDigits8 writes strconv's 'g' text with 8
+// digits for digits of every exponent a series form may hold (ExpandSeries
+// takes |e10| ≤ 400; exponents of three digits among them), appending
+// to what b holds.
+func TestAppendDigits8(t *testing.T) {
+	r := rand.New(rand.NewPCG(11, 3))
+	for e10 := -300; e10 <= 300; e10++ {
+		for range 200 {
+			m := uint64(10000000 + r.IntN(90000000))
+			if r.IntN(4) == 0 {
+				m -= m % 10000 // trailing zeros
+			}
+			neg := r.IntN(2) == 0
+			txt := strconv.FormatUint(m, 10) + "e" + strconv.Itoa(e10-7)
+			if neg {
+				txt = "-" + txt
+			}
+			v, err := strconv.ParseFloat(txt, 64)
+			if err != nil {
+				t.Fatal(err)
+			}
+			want := strconv.AppendFloat([]byte("x"), v, 'g', 8, 64)
+			if got := appendDigits8([]byte("x"), neg, m, e10); string(got) != string(want) {
+				t.Fatalf("appendDigits8(%v, %d, %d) = %s, want %s", neg, m, e10, got, want)
+			}
+		}
+	}
+}
+
 func TestAppendFloat8(t *testing.T) {
 	check := func(v float64) {
 		t.Helper()

@@ -116,37 +116,60 @@ func (sc *seriesRecords) of(k, n int) []seriesDigit {
 var seriesScratch = sync.Pool{New: func() any { return new(seriesRecords) }}
 
 // seriesPow10 are the powers of ten up to 10⁸.
-var seriesPow10 = [...]int64{1, 10, 100, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8}
+var seriesPow10 = [16]int64{1, 10, 100, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8}
 
 // predictResidual returns the eight-digit mantissa P and exponent eP of
 // D − M from the digits of D and M (mode 2); ok is false where they have
 // none, other exponents, or are equal. Integers only: the writer and the
 // reader find the same prediction.
 func predictResidual(d, m seriesDigit) (p int64, eP int, ok bool) {
-	if d.e10 == noDigits || m.e10 == noDigits || d.e10 != m.e10 || d.s == m.s {
+	if d.e10 != m.e10 || d.e10 == noDigits || d.s == m.s {
 		return 0, 0, false
 	}
 	diff := d.s - m.s // |diff| < 2·10⁸, in units of 10^(e10−7)
+	sg := diff >> 63
+	a := (diff ^ sg) - sg
+	// The digits of a (1 ≤ a < 2²⁸): those of the least value of its
+	// bit length, plus one from the next power of ten on.
+	t := &residualDigits[bits.Len64(uint64(a))&31]
+	nd := t.nd
+	if a >= t.thr {
+		nd++
+	}
+	if nd > 8 {
+		return predictNine(diff, d.e10)
+	}
+	return diff * seriesPow10[(8-nd)&15], d.e10 - 8 + int(nd), true
+}
+
+// predictNine is predictResidual for a difference of nine digits: rounded
+// to eight, half away from zero.
+func predictNine(diff int64, e10 int) (p int64, eP int, ok bool) {
 	a := diff
 	if a < 0 {
 		a = -a
 	}
-	// The digits of a (1 ≤ a < 2²⁸): ⌊log₁₀ 2^len⌋, plus one from its
-	// power of ten on.
-	nd := bits.Len64(uint64(a)) * 1233 >> 12
-	if a >= seriesPow10[nd] {
-		nd++
-	}
-	eP = d.e10 - 8 + nd
-	if nd <= 8 {
-		return diff * seriesPow10[8-nd], eP, true
-	}
-	p = (a + 5) / 10 // nine digits: rounded to eight, half away from zero
+	p = (a + 5) / 10
 	if diff < 0 {
 		p = -p
 	}
-	return p, eP, true
+	return p, e10 + 1, true
 }
+
+// residualDigits[n] are, for the integers of bit length n ≤ 28, the
+// number of digits nd of the least (2ⁿ⁻¹) and the power of ten 10^nd
+// from which they have one more.
+var residualDigits = func() (t [32]struct{ thr, nd int64 }) {
+	for n := 1; n < len(t); n++ {
+		lo := int64(1) << (n - 1)
+		nd := int64(len(strconv.FormatInt(lo, 10)))
+		t[n].nd, t[n].thr = nd, 1
+		for range nd {
+			t[n].thr *= 10
+		}
+	}
+	return t
+}()
 
 // ErrSeriesSplit is returned by AppendJSONSplit when its placeholder
 // JSON cannot be told apart from the result's own text (a "[null]"
@@ -381,8 +404,9 @@ var seriesExps = func() (t [2048]seriesExp) {
 }()
 
 // seriesDigitsChunk sets digits[j] to plotDigits' answer for chunk[j]
-// (m and e10, or e10 noDigits where it refuses), faster for the values of
-// plot series ([1e-15, 1e8)): the decimal exponent from seriesExps, one
+// as the form holds it (the mantissa m signed as the value, ±m, and e10;
+// or {0, noDigits} where it refuses), faster for the values of plot
+// series ([1e-15, 1e8)): the decimal exponent from seriesExps, one
 // product with an exact power of ten, and no branch that depends on the
 // data but for the rare values left to plotDigits itself. As in
 // plotDigits, the digits of a correctly rounded product x with an exact
@@ -392,10 +416,13 @@ var seriesExps = func() (t [2048]seriesExp) {
 // is plotDigits' whenever the fast path gives one. Values outside that
 // range (zeros, NaN, ±Inf, magnitudes plotDigits refuses or divides
 // for, a guess of the exponent that missed), near-ties, and a rounding
-// that carries into 10⁸ go to plotDigits.
-func seriesDigitsChunk(digits *[seriesChunk]plotDigitsOf, chunk []float64) {
+// that carries into 10⁸ go to plotDigits. digits is at least as long as
+// chunk.
+func seriesDigitsChunk(digits []seriesDigit, chunk []float64) {
+	digits = digits[:len(chunk)]
 	for j, w := range chunk {
-		bits := math.Float64bits(w) &^ (1 << 63)
+		raw := math.Float64bits(w)
+		bits := raw &^ (1 << 63)
 		t := &seriesExps[bits>>52]
 		e := t.e10
 		if bits >= t.thr {
@@ -412,27 +439,31 @@ func seriesDigitsChunk(digits *[seriesChunk]plotDigitsOf, chunk []float64) {
 			mi++
 		}
 		if !(x >= 1e7 && mi < 1e8) || math.Abs(frac-0.5) < 1e-6 {
-			m, e10, ok := plotDigits(w)
-			if !ok {
-				e10 = noDigits
-			}
-			digits[j] = plotDigitsOf{m, e10}
+			digits[j] = slowDigits(w)
 			continue
 		}
-		digits[j] = plotDigitsOf{uint64(mi), int(e)}
+		neg := int64(raw) >> 63 // −1 for a negative value, else 0
+		digits[j] = seriesDigit{(mi ^ neg) - neg, int(e)}
 	}
+}
+
+// slowDigits is plotDigits' answer for v as the form holds it, for
+// seriesDigitsChunk.
+func slowDigits(v float64) seriesDigit {
+	m, e10, ok := plotDigits(v)
+	if !ok {
+		return seriesDigit{0, noDigits}
+	}
+	s := int64(m)
+	if v < 0 {
+		s = -s
+	}
+	return seriesDigit{s, e10}
 }
 
 // seriesChunk is the number of values whose digits appendSeriesValues
 // finds in one pass before it writes them.
 const seriesChunk = 256
-
-// plotDigitsOf holds plotDigits' answer for one value (ok: e10 ≠
-// noDigits).
-type plotDigitsOf struct {
-	m   uint64
-	e10 int
-}
 
 // noDigits marks a value plotDigits refuses.
 const noDigits = math.MinInt
@@ -448,7 +479,7 @@ const noDigits = math.MinInt
 // chain of dependent floating-point steps that the writing of the bytes,
 // which depends on them, kept the processor from overlapping), then
 // written (each mode in a loop of its own: one loop for all modes was
-// markedly slower).
+// markedly slower), then their text (appendSeriesText).
 func appendSeriesValues(b, text []byte, withText bool, p []float64, mode int, rec, dm, mm []seriesDigit) ([]byte, []byte) {
 	if mode == seriesResidual && (len(dm) != len(p) || len(mm) != len(p)) {
 		mode = seriesFirst
@@ -461,9 +492,9 @@ func appendSeriesValues(b, text []byte, withText bool, p []float64, mode int, re
 	cb := chunkBufs.Get().(*seriesChunkBufs)
 	if mode == seriesResidual {
 		v0 := len(b)
-		var firstLen int
-		b, text, firstLen = appendResidualValues(b, text, withText, p, cb, dm, mm)
-		if firstLen <= len(b)-v0 {
+		cb.all = slices.Grow(cb.all[:0], len(p))[:len(p)]
+		b, text = appendResidualValues(b, text, withText, p, cb, dm, mm, cb.all)
+		if !firstLonger(cb.all, p, len(b)-v0) {
 			b, _ = appendSeriesValues(b[:b0], nil, false, p, seriesFirst, nil, nil, nil)
 		}
 	} else {
@@ -477,134 +508,258 @@ func appendSeriesValues(b, text []byte, withText bool, p []float64, mode int, re
 }
 
 // appendDeltaValues writes p's values by first (or with second, second)
-// differences, for appendSeriesValues.
+// differences, for appendSeriesValues; rec, when not nil, gets their
+// digits.
 func appendDeltaValues(b, text []byte, withText bool, p []float64, cb *seriesChunkBufs, second bool, rec []seriesDigit) ([]byte, []byte) {
 	var prevS, prevD int64
 	prevE := 0
-	digits := &cb.digits
+	keepD := int64(0) // −1: the previous difference is kept (second)
+	if second {
+		keepD = -1
+	}
 	for i := 0; i < len(p); i += seriesChunk {
 		chunk := p[i:min(i+seriesChunk, len(p))]
-		seriesDigitsChunk(digits, chunk)
+		digits := cb.digits[:len(chunk)]
 		if rec != nil {
-			recordDigits(rec[i:i+len(chunk)], digits, chunk)
+			digits = rec[i : i+len(chunk)]
 		}
-		for j, v := range chunk {
-			if withText && i+j > 0 {
-				text = append(text, ',')
-			}
-			m, e10 := digits[j].m, digits[j].e10
-			if e10 == noDigits {
-				b, text = appendNoDigits(b, text, withText, v)
+		seriesDigitsChunk(digits, chunk)
+		us, nu := &cb.us, 0 // at most two a value
+		for j, d := range digits {
+			if d.e10 == prevE {
+				dd := d.s - prevS
+				us[nu&(len(us)-1)] = zigzag(dd-prevD) << 2
+				nu++
+				prevD, prevS = dd&keepD, d.s
 				continue
 			}
-			s := int64(m)
-			if v < 0 {
-				s = -s
+			if d.e10 == noDigits {
+				us[nu&(len(us)-1)] = seriesRaw | uint64(j)
+				nu++
+				continue
 			}
-			if e10 == prevE {
-				d := s - prevS
-				b = binary.AppendUvarint(b, zigzag(d-prevD)<<2)
-				if second {
-					prevD = d
-				}
-			} else {
-				b = binary.AppendUvarint(b, zigzag(int64(e10-prevE))<<2|1)
-				b = binary.AppendUvarint(b, zigzag(s))
-				prevE, prevD = e10, 0
-			}
-			prevS = s
-			if withText {
-				text = appendDigits8(text, v < 0, m, e10)
-			}
+			us[nu&(len(us)-1)] = zigzag(int64(d.e10-prevE))<<2 | 1
+			us[(nu+1)&(len(us)-1)] = zigzag(d.s)
+			nu += 2
+			prevE, prevD, prevS = d.e10, 0, d.s
+		}
+		b = putUvarints(b, us[:nu], chunk)
+		if withText {
+			text = appendSeriesText(text, i > 0, digits, chunk)
 		}
 	}
 	return b, text
 }
 
 // appendResidualValues writes p's values as residuals of dm − mm (mode
-// 2), for appendSeriesValues; firstLen is what first differences would
-// take.
-func appendResidualValues(b, text []byte, withText bool, p []float64, cb *seriesChunkBufs, dm, mm []seriesDigit) (_, _ []byte, firstLen int) {
-	var prevS int64
-	prevE := 0
-	digits, preds := &cb.digits, &cb.preds
+// 2), for appendSeriesValues, and sets all[i] to p[i]'s digits
+// (firstLonger's).
+func appendResidualValues(b, text []byte, withText bool, p []float64, cb *seriesChunkBufs, dm, mm, all []seriesDigit) (_, _ []byte) {
 	for i := 0; i < len(p); i += seriesChunk {
 		chunk := p[i:min(i+seriesChunk, len(p))]
+		digits, preds := all[i:i+len(chunk)], cb.preds[:len(chunk)]
 		seriesDigitsChunk(digits, chunk)
-		for j := range chunk {
-			pr, eP, ok := predictResidual(dm[i+j], mm[i+j])
+		dmc, mmc := dm[i:i+len(chunk)], mm[i:i+len(chunk)]
+		for j := range preds {
+			pr, eP, ok := predictResidual(dmc[j], mmc[j])
 			if !ok {
 				eP = noDigits
 			}
 			preds[j] = seriesDigit{pr, eP}
 		}
-		for j, v := range chunk {
-			if withText && i+j > 0 {
-				text = append(text, ',')
-			}
-			m, e10 := digits[j].m, digits[j].e10
-			if e10 == noDigits {
-				n0 := len(b)
-				b, text = appendNoDigits(b, text, withText, v)
-				firstLen += len(b) - n0
+		us, nu := &cb.us, 0 // at most two a value
+		for j, d := range digits {
+			if d.e10 == noDigits {
+				us[nu&(len(us)-1)] = seriesRaw | uint64(j)
+				nu++
 				continue
 			}
-			s := int64(m)
-			if v < 0 {
-				s = -s
+			if pr := preds[j]; d.e10 == pr.e10 {
+				us[nu&(len(us)-1)] = zigzag(d.s-pr.s) << 2
+				nu++
+				continue
 			}
-			if pr, eP := preds[j].s, preds[j].e10; e10 == eP {
-				b = binary.AppendUvarint(b, zigzag(s-pr)<<2)
-			} else {
-				if eP == noDigits {
-					eP = 0
-				}
-				b = binary.AppendUvarint(b, zigzag(int64(e10-eP))<<2|1)
-				b = binary.AppendUvarint(b, zigzag(s))
+			eP := preds[j].e10
+			if eP == noDigits {
+				eP = 0
 			}
-			if e10 == prevE {
-				firstLen += uvarintLen(zigzag(s-prevS) << 2)
-			} else {
-				firstLen += uvarintLen(zigzag(int64(e10-prevE))<<2|1) + uvarintLen(zigzag(s))
-				prevE = e10
-			}
-			prevS = s
-			if withText {
-				text = appendDigits8(text, v < 0, m, e10)
-			}
+			us[nu&(len(us)-1)] = zigzag(int64(d.e10-eP))<<2 | 1
+			us[(nu+1)&(len(us)-1)] = zigzag(d.s)
+			nu += 2
 		}
-	}
-	return b, text, firstLen
-}
-
-// recordDigits sets rec[j] to chunk[j]'s digits (signed) from digits.
-func recordDigits(rec []seriesDigit, digits *[seriesChunk]plotDigitsOf, chunk []float64) {
-	for j, v := range chunk {
-		d := digits[j]
-		s := int64(d.m)
-		if v < 0 {
-			s = -s
-		}
-		rec[j] = seriesDigit{s, d.e10}
-	}
-}
-
-// appendNoDigits writes a value without digits: a NaN or ±Inf as null,
-// another (zeros, extreme magnitudes, near-ties) in its eight bytes.
-func appendNoDigits(b, text []byte, withText bool, v float64) ([]byte, []byte) {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		b = append(b, 2)
+		b = putUvarints(b, us[:nu], chunk)
 		if withText {
-			text = append(text, "null"...)
+			text = appendSeriesText(text, i > 0, digits, chunk)
 		}
-		return b, text
-	}
-	b = append(b, 3)
-	b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
-	if withText {
-		text = strconv.AppendFloat(text, v, 'g', 8, 64)
 	}
 	return b, text
+}
+
+// firstLonger reports whether p's values (their digits all) by first
+// differences take more than limit bytes, counting only until they do:
+// a data − model residual takes about three times mode 2's bytes by
+// first differences, so about a third of its values are counted.
+func firstLonger(all []seriesDigit, p []float64, limit int) bool {
+	var prevS int64
+	prevE, n := 0, 0
+	for j, d := range all {
+		switch {
+		case d.e10 == prevE:
+			n += uvarintLen(zigzag(d.s-prevS) << 2)
+		case d.e10 == noDigits:
+			if v := p[j]; math.IsNaN(v) || math.IsInf(v, 0) {
+				n++
+			} else {
+				n += 9
+			}
+			if n > limit {
+				return true
+			}
+			continue
+		default:
+			n += uvarintLen(zigzag(int64(d.e10-prevE))<<2|1) + uvarintLen(zigzag(d.s))
+			prevE = d.e10
+		}
+		prevS = d.s
+		if n > limit {
+			return true
+		}
+	}
+	return false
+}
+
+// seriesRaw marks, in the uvarints of a chunk (putUvarints), the place
+// of a value without digits (its index in the chunk below): the
+// uvarints of a series' values are below 2³³ (mantissas below 10⁸ in
+// magnitude, their first and second differences below 4·10⁸, exponents
+// and their changes below 400).
+const seriesRaw = 1 << 63
+
+// putUvarints appends us as uvarints to b, and for each seriesRaw|j the
+// value chunk[j] without digits (putNoDigits). A uvarint of one byte (most
+// of a residual's) is stored as it is; one below 2³⁵ (all of the form's)
+// as one little-endian word whose five seven-bit groups and continuation
+// bits are put in place without a loop (the loop of binary.AppendUvarint
+// branched on every byte, and the lengths of noisy differences vary
+// unpredictably); the word's bytes past the uvarint are overwritten by
+// the next or left past the end.
+func putUvarints(b []byte, us []uint64, chunk []float64) []byte {
+	b = slices.Grow(b, 10*len(us)+8)
+	n, out := len(b), b[:cap(b)]
+	for _, u := range us {
+		if u < 0x80 { // most of a residual's
+			out[n] = byte(u)
+			n++
+			continue
+		}
+		if u >= 1<<35 {
+			if u&seriesRaw != 0 {
+				n += putNoDigits(out[n:], chunk[u&^seriesRaw])
+			} else {
+				n += binary.PutUvarint(out[n:], u)
+			}
+			continue
+		}
+		w := u&0x7f | u<<1&0x7f00 | u<<2&0x7f0000 | u<<3&0x7f000000 | u<<4&0x7f00000000
+		l := uvarintLens[bits.Len64(u)]
+		binary.LittleEndian.PutUint64(out[n:], w|uvarintMore[l])
+		n += int(l)
+	}
+	return out[:n]
+}
+
+// uvarintLens[n] is the length of the uvarint of a value of n bits;
+// uvarintMore[l] the continuation bits of a uvarint of l ≤ 5 bytes.
+var (
+	uvarintLens = func() (t [65]uint8) {
+		for n := range t {
+			t[n] = uint8(max(1, (n+6)/7))
+		}
+		return t
+	}()
+	uvarintMore = func() (t [11]uint64) {
+		for l := 2; l <= 5; l++ {
+			t[l] = 0x8080808080808080 & (1<<(8*(l-1)) - 1)
+		}
+		return t
+	}()
+)
+
+// appendSeriesText appends the JSON text of chunk's values (as
+// appendPlotFloatsEach writes them, a comma before each but the first
+// unless comma) from their digits, in room made for the chunk at once.
+func appendSeriesText(text []byte, comma bool, digits []seriesDigit, chunk []float64) []byte {
+	digits = digits[:len(chunk)]
+	// Each value's text (a comma, a sign and "1.2345678e-05", or
+	// strconv's) takes at most 16 bytes; putDigits8 writes 24.
+	text = slices.Grow(text, 16*len(chunk)+24)
+	n, out := len(text), text[:cap(text)]
+	for j, d := range digits {
+		if comma {
+			out[n] = ','
+			n++
+		}
+		comma = true
+		if d.e10 == noDigits {
+			v := chunk[j]
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				n += copy(out[n:], "null")
+			} else {
+				out = strconv.AppendFloat(out[:n], v, 'g', 8, 64)
+				n, out = len(out), out[:cap(out)]
+			}
+			continue
+		}
+		m, neg := d.s, 0
+		if m < 0 {
+			m, neg = -m, 1
+		}
+		if uint(d.e10+4) >= 12 { // %e: exponent below −4 or from 8 on
+			n += putDigits8((*[24]byte)(out[n:n+24]), neg == 1, uint64(m), d.e10)
+			continue
+		}
+		// putDigits8's %f, inline and without a branch on the digits:
+		// the sign written always and counted when there is one; the
+		// digits, and for a value from 1 on the point after dp of them
+		// and the rest after it, all written (the bytes past the text
+		// are scratch), the length chosen.
+		dg := eightDigits(uint64(m))
+		nd := 8 - bits.LeadingZeros64(dg)/8
+		w := dg | 0x3030303030303030
+		o := (*[24]byte)(out[n : n+24])
+		o[0] = '-'
+		k := neg
+		if dp := d.e10 + 1; dp > 0 {
+			binary.LittleEndian.PutUint64(o[k:], w)
+			o[k+dp] = '.'
+			binary.LittleEndian.PutUint64(o[k+dp+1:], w>>(8*uint(dp)))
+			l := dp
+			if nd > dp {
+				l = nd + 1
+			}
+			n += k + l
+		} else {
+			binary.LittleEndian.PutUint64(o[k:], 0x3030303030302e30) // "0.000000"
+			k += 2 - dp
+			binary.LittleEndian.PutUint64(o[k:], w)
+			n += k + nd
+		}
+	}
+	return out[:n]
+}
+
+// putNoDigits writes a value without digits at the start of out (room
+// for 9 bytes) and returns the length: a NaN or ±Inf as the tag 2,
+// another (zeros, extreme magnitudes, near-ties) as the tag 3 and its
+// eight bytes.
+func putNoDigits(out []byte, v float64) int {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		out[0] = 2
+		return 1
+	}
+	out[0] = 3
+	binary.LittleEndian.PutUint64(out[1:], math.Float64bits(v))
+	return 9
 }
 
 // seriesChunkBufs are appendSeriesValues' buffers for a chunk: the
@@ -612,8 +767,10 @@ func appendNoDigits(b, text []byte, withText bool, v float64) ([]byte, []byte) {
 // Pooled: as local arrays they were zeroed (8 kB) at every call, two
 // dozen a result.
 type seriesChunkBufs struct {
-	digits [seriesChunk]plotDigitsOf
+	digits [seriesChunk]seriesDigit
 	preds  [seriesChunk]seriesDigit
+	us     [2 * seriesChunk]uint64 // the chunk's uvarints (putUvarints)
+	all    []seriesDigit           // a residual's digits (firstLonger)
 }
 
 var chunkBufs = sync.Pool{New: func() any { return new(seriesChunkBufs) }}

@@ -8,6 +8,7 @@ import (
 	"math/rand/v2"
 	"reflect"
 	"slices"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -202,7 +203,7 @@ func TestExpandSeriesCorrupt(t *testing.T) {
 
 // FuzzExpandSeries: any series form and JSON give an error or an
 // expansion, never a panic; a series of any float64 values round-trips to
-// AppendJSON's text.
+// AppendJSON's text, whose series text is the value-at-a-time writer's.
 func FuzzExpandSeries(f *testing.F) {
 	res := Result{Model: ModelWhole, Whole: &WholeFit{WavelengthNM: PlotFloats{486.1, 486.2}, Data: PlotFloats{1, -2e-9}}}
 	js, series, _ := AppendJSONSplit(nil, nil, &res)
@@ -220,6 +221,10 @@ func FuzzExpandSeries(f *testing.F) {
 		got, err := ExpandSeries(nil, string(j), s)
 		if err != nil || !bytes.Equal(got, want) {
 			t.Fatalf("%v %v: %s, %v; want %s", a, b, got, err, want)
+		}
+		p := PlotFloats{a, b, a * b, -a, a / 3}
+		if fast, each := appendPlotFloats(nil, p), appendPlotFloatsEach(nil, p); !bytes.Equal(fast, each) {
+			t.Fatalf("%v %v: appendPlotFloats %s, appendPlotFloatsEach %s", a, b, fast, each)
 		}
 	})
 }
@@ -421,17 +426,21 @@ func digitsTestValues() []float64 {
 // values with appendFloat8) gives AppendJSON's text.
 func TestSeriesDigitsChunk(t *testing.T) {
 	vs := digitsTestValues()
-	var digits [seriesChunk]plotDigitsOf
+	var digits [seriesChunk]seriesDigit
 	fast := 0
 	for i := 0; i < len(vs); i += seriesChunk {
 		chunk := vs[i:min(i+seriesChunk, len(vs))]
-		seriesDigitsChunk(&digits, chunk)
+		seriesDigitsChunk(digits[:], chunk)
 		for j, v := range chunk {
 			m, e10, ok := plotDigits(v)
-			if !ok {
-				e10, m = noDigits, digits[j].m
+			want := seriesDigit{int64(m), e10}
+			if v < 0 {
+				want.s = -want.s
 			}
-			if digits[j] != (plotDigitsOf{m, e10}) {
+			if !ok {
+				want = seriesDigit{0, noDigits}
+			}
+			if digits[j] != want {
 				t.Fatalf("%v (bits %#x): seriesDigitsChunk %+v, plotDigits %d %d %v", v, math.Float64bits(v), digits[j], m, e10, ok)
 			}
 			if ok {
@@ -479,10 +488,10 @@ func appendSeriesValuesRef(b []byte, p []float64) []byte {
 }
 
 // TestSeriesFormUnchanged: appendSeriesValues writes the series form of
-// appendSeriesValuesRef byte for byte, and the text of appendPlotFloats,
-// for the digit test values cut into series of many lengths (chunk
-// boundaries included) and for the plot series of a real whole-route
-// result.
+// appendSeriesValuesRef byte for byte, and the text of
+// appendPlotFloatsEach (as appendPlotFloats does), for the digit test
+// values cut into series of many lengths (chunk boundaries included) and
+// for the plot series of a real whole-route result.
 func TestSeriesFormUnchanged(t *testing.T) {
 	vs := digitsTestValues()
 	var list [][]float64
@@ -525,8 +534,11 @@ func TestSeriesFormUnchanged(t *testing.T) {
 		if !bytes.Equal(got, want) {
 			t.Fatalf("series %d (%d values): form differs from the reference", k, len(p))
 		}
-		if wantText := appendPlotFloats([]byte("y"), p); !bytes.Equal(text, wantText) {
-			t.Fatalf("series %d (%d values): text differs from appendPlotFloats", k, len(p))
+		if wantText := appendPlotFloatsEach([]byte("y"), p); !bytes.Equal(text, wantText) {
+			t.Fatalf("series %d (%d values): text differs from appendPlotFloatsEach", k, len(p))
+		}
+		if wantText := appendPlotFloatsEach(nil, p); !bytes.Equal(appendPlotFloats(nil, p), wantText) {
+			t.Fatalf("series %d (%d values): appendPlotFloats differs from appendPlotFloatsEach", k, len(p))
 		}
 		if got2, _ := appendSeriesValues([]byte("x"), nil, false, p, seriesFirst, nil, nil, nil); !bytes.Equal(got2, want) {
 			t.Fatalf("series %d (%d values): form without text differs", k, len(p))
@@ -708,6 +720,16 @@ func TestSeriesResidual(t *testing.T) {
 		fm, tm := appendSeriesValues(nil, nil, true, c.g.m, seriesSecond, mm, nil, nil)
 		fr, tr := appendSeriesValues(nil, nil, true, c.g.r, seriesResidual, nil, dm, mm)
 		f0, _ := appendSeriesValues(nil, nil, false, c.g.r, seriesFirst, nil, nil, nil)
+		// firstLonger counts f0's values: longer than one byte less
+		// than they take, not longer than what they take.
+		all := make([]seriesDigit, len(c.g.r)+seriesChunk)
+		for i := 0; i < len(c.g.r); i += seriesChunk {
+			seriesDigitsChunk(all[i:], c.g.r[i:min(i+seriesChunk, len(c.g.r))])
+		}
+		all = all[:len(c.g.r)]
+		if _, h := binary.Uvarint(f0); !firstLonger(all, c.g.r, len(f0)-h-1) || firstLonger(all, c.g.r, len(f0)-h) {
+			t.Errorf("case %d: firstLonger does not count the %d bytes of first differences", k, len(f0)-h)
+		}
 		h, _ := binary.Uvarint(fr)
 		if mode := int(h & 3); (mode == seriesResidual) != c.residual {
 			t.Errorf("case %d: mode %d", k, mode)
@@ -724,8 +746,118 @@ func TestSeriesResidual(t *testing.T) {
 		if want := string(td) + " " + string(tm) + " " + string(tr); err != nil || string(got) != want {
 			t.Fatalf("case %d: expansion differs (%v)", k, err)
 		}
-		if want := string(appendPlotFloats(nil, c.g.r)); string(tr) != want {
-			t.Fatalf("case %d: residual text differs from appendPlotFloats", k)
+		if want := string(appendPlotFloatsEach(nil, c.g.r)); string(tr) != want {
+			t.Fatalf("case %d: residual text differs from appendPlotFloatsEach", k)
+		}
+	}
+}
+
+// predictResidualRef is predictResidual as format version 2 first
+// defined it (the digits of |D − M| by bit length and a power of ten,
+// nine digits rounded half away from zero): rows stored since then
+// expand through predictResidual, which must give its answer exactly.
+func predictResidualRef(d, m seriesDigit) (p int64, eP int, ok bool) {
+	if d.e10 == noDigits || m.e10 == noDigits || d.e10 != m.e10 || d.s == m.s {
+		return 0, 0, false
+	}
+	diff := d.s - m.s
+	a := diff
+	if a < 0 {
+		a = -a
+	}
+	nd := len(strconv.FormatInt(a, 10))
+	eP = d.e10 - 8 + nd
+	if nd <= 8 {
+		for range 8 - nd {
+			diff *= 10
+		}
+		return diff, eP, true
+	}
+	p = (a + 5) / 10
+	if diff < 0 {
+		p = -p
+	}
+	return p, eP, true
+}
+
+// TestPredictResidual: predictResidual is predictResidualRef for
+// mantissas of every sign and size (differences of every number of
+// digits, the powers of ten and their neighbours, nine digits and their
+// rounding ties), equal mantissas, other exponents and values without
+// digits.
+func TestPredictResidual(t *testing.T) {
+	r := rand.New(rand.NewPCG(12, 5))
+	mant := func() int64 {
+		m := int64(10000000 + r.IntN(90000000))
+		if r.IntN(2) == 0 {
+			m = -m
+		}
+		return m
+	}
+	check := func(d, m seriesDigit) {
+		t.Helper()
+		p, e, ok := predictResidual(d, m)
+		rp, re, rok := predictResidualRef(d, m)
+		if p != rp || e != re || ok != rok {
+			t.Fatalf("predictResidual(%v, %v) = %d %d %v, want %d %d %v", d, m, p, e, ok, rp, re, rok)
+		}
+	}
+	for range 200000 {
+		e := r.IntN(40) - 20
+		d := mant()
+		check(seriesDigit{d, e}, seriesDigit{mant(), e})
+		// differences of every length, and at powers of ten
+		k := seriesPow10[r.IntN(9)]
+		for _, diff := range []int64{int64(r.IntN(int(k))) + 1, k, k - 1, k + 1, -k, 5 + 10*int64(r.IntN(2e7)), -5 - 10*int64(r.IntN(2e7))} {
+			check(seriesDigit{d, e}, seriesDigit{d - diff, e})
+		}
+		check(seriesDigit{d, e}, seriesDigit{d, e})
+		check(seriesDigit{d, e}, seriesDigit{d, e + 1})
+		check(seriesDigit{d, e}, seriesDigit{0, noDigits})
+		check(seriesDigit{0, noDigits}, seriesDigit{d, e})
+	}
+	check(seriesDigit{0, noDigits}, seriesDigit{0, noDigits})
+	check(seriesDigit{99999999, 3}, seriesDigit{-99999999, 3})
+	check(seriesDigit{-99999999, 3}, seriesDigit{99999999, 3})
+}
+
+// TestPutUvarints: putUvarints writes binary.AppendUvarint's bytes for
+// values of every bit length below 64 (the top bit marks a value without
+// digits) and their neighbours (the ends of each uvarint length), and a
+// value without digits as putNoDigits does, after what b holds.
+func TestPutUvarints(t *testing.T) {
+	r := rand.New(rand.NewPCG(6, 1))
+	var us []uint64
+	us = append(us, 1<<63-1)
+	for l := range 9 { // the ends of each uvarint length
+		us = append(us, 1<<(7*l), 1<<(7*l)-1, 1<<(7*l)+1)
+	}
+	for n := range 63 {
+		for range 20 {
+			u := r.Uint64() >> (64 - n) // n bits at most
+			if n > 0 {
+				u |= 1 << (n - 1)
+			}
+			us = append(us, u, max(u, 1)-1, u+1)
+		}
+	}
+	chunk := []float64{math.NaN(), 1e300, 0, math.Inf(-1)}
+	for i := range chunk {
+		us = append(us[:len(us)/2+i], append([]uint64{seriesRaw | uint64(i)}, us[len(us)/2+i:]...)...)
+	}
+	for cut := 0; cut < len(us); cut += 97 {
+		got := putUvarints([]byte("x"), us[cut:], chunk)
+		want := []byte("x")
+		for _, u := range us[cut:] {
+			if u&seriesRaw != 0 && u&^seriesRaw < uint64(len(chunk)) {
+				var tmp [9]byte
+				want = append(want, tmp[:putNoDigits(tmp[:], chunk[u&^seriesRaw])]...)
+				continue
+			}
+			want = binary.AppendUvarint(want, u)
+		}
+		if !bytes.Equal(got, want) {
+			t.Fatalf("from %d: putUvarints differs from binary.AppendUvarint", cut)
 		}
 	}
 }

@@ -471,6 +471,9 @@ func BenchmarkEncodingJSON(b *testing.B) {
 // TestAppendJSONFloatMatches: appendJSONFloat writes encoding/json's
 // bytes for integers (its fast path), −0, the 'e' range edges and
 // random values of every magnitude.
+// float32ToFloat is v rounded to float32 (fewer shortest digits).
+func float32ToFloat(v float64) float64 { return float64(float32(v)) }
+
 func TestAppendJSONFloatMatches(t *testing.T) {
 	vals := []float64{0, math.Copysign(0, -1), 1, -1, 2, 7, -42, 1e6, 1e15, 1e20, 1e21, 1e22, 123456789012345,
 		1 << 53, 1<<53 + 2, -(1 << 53), 1<<53 - 1, 0.5, -0.5, 1e-6, 1e-7, 9.999999e-7, 2.5e-300, 5e-324,
@@ -482,6 +485,17 @@ func TestAppendJSONFloatMatches(t *testing.T) {
 			continue
 		}
 		vals = append(vals, v, math.Trunc(v), math.Round(v*1e3)/1e3, float64(r.Int64N(1<<54)-1<<53))
+	}
+	// The 'f' form (1e-6 ≤ |v| < 1e21, not an integer below 2⁵³) with
+	// every number of digits and every place of the decimal point, and
+	// its ends.
+	for range 100000 {
+		e := math.Pow(10, float64(r.IntN(28)-6))
+		v := (r.Float64() - 0.5) * 20 * e
+		vals = append(vals, v, math.Round(v*1e4)/1e4, math.Round(v/e*1e3)*e/1e3, float32ToFloat(v))
+	}
+	for _, v := range []float64{1e-6, math.Nextafter(1e-6, 1), 1.5e-6, 0.1, 0.25, 1e20 + 1<<17, 1e21 - 1<<17, math.Nextafter(1e21, 0), 9.999999999999999e20, 123.456, 1 << 53 * 1.5} {
+		vals = append(vals, v, -v)
 	}
 	for _, v := range vals {
 		if math.IsInf(v, 0) {

@@ -164,12 +164,14 @@ type PlotFloats []float64
 
 // MarshalJSON writes the series with 8 significant digits.
 func (p PlotFloats) MarshalJSON() ([]byte, error) {
-	return appendPlotFloats(make([]byte, 0, 12*len(p)+2), p), nil
+	return appendPlotFloatsEach(make([]byte, 0, 12*len(p)+2), p), nil
 }
 
-// appendPlotFloats appends p as MarshalJSON writes it (NaN and ±Inf as
-// null); AppendJSON writes series with it directly.
-func appendPlotFloats(b []byte, p PlotFloats) []byte {
+// appendPlotFloatsEach appends p as MarshalJSON writes it (NaN and ±Inf
+// as null), a value at a time through appendFloat8: the reference of
+// appendPlotFloats (encoding/json, which TestAppendJSONMatchesEncodingJSON
+// compares with AppendJSON, writes series with it).
+func appendPlotFloatsEach(b []byte, p PlotFloats) []byte {
 	b = append(b, '[')
 	for i, v := range p {
 		if i > 0 {
@@ -180,6 +182,23 @@ func appendPlotFloats(b []byte, p PlotFloats) []byte {
 			continue
 		}
 		b = appendFloat8(b, v) // strconv's 'g' with 8 digits
+	}
+	return append(b, ']')
+}
+
+// appendPlotFloats is appendPlotFloatsEach, the digits of 256 values at
+// a time (seriesDigitsChunk, appendSeriesText: the series form's writer);
+// AppendJSON writes series with it.
+func appendPlotFloats(b []byte, p PlotFloats) []byte {
+	b = append(b, '[')
+	if len(p) > 0 {
+		cb := chunkBufs.Get().(*seriesChunkBufs)
+		for i := 0; i < len(p); i += seriesChunk {
+			chunk := p[i:min(i+seriesChunk, len(p))]
+			seriesDigitsChunk(cb.digits[:], chunk)
+			b = appendSeriesText(b, i > 0, cb.digits[:], chunk)
+		}
+		chunkBufs.Put(cb)
 	}
 	return append(b, ']')
 }
