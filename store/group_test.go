@@ -5,6 +5,7 @@ import (
 	"database/sql"
 	"errors"
 	"fmt"
+	"os"
 	"path/filepath"
 	"sync"
 	"testing"
@@ -349,5 +350,59 @@ func TestBulkGroupTxInteractive(t *testing.T) {
 	bw, bc := d.BulkGroupStats()
 	if _, c, _ := d.GroupStats(); bw != 6 || bc != 4 || c != 8 || d.group.cut.Load() != 2 {
 		t.Errorf("%d bulk writes in %d bulk commits (%d groups cut short), %d commits in all; want 6 in 4 (2 cut), 8", bw, bc, d.group.cut.Load(), c)
+	}
+}
+
+// TestWriteKeepsPagesUntilCommit: a group's transaction writes ~6 MB
+// (more than SQLite's 2 MB page cache) without writing any of it to the
+// WAL before its COMMIT (writeSpillBytes): SQLite would otherwise spill
+// changed pages to the WAL, copying each to the savepoint's journal
+// first.
+func TestWriteKeepsPagesUntilCommit(t *testing.T) {
+	ctx := context.Background()
+	path := filepath.Join(t.TempDir(), "g.db")
+	d, err := Open(ctx, path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer d.Close()
+	u, err := d.CreateUser(ctx, "ada.quill", RoleOperator, "x")
+	if err != nil {
+		t.Fatal(err)
+	}
+	run, err := d.CreateRun(ctx, u.ID, RunInput{Title: "big", StartedAt: time.Date(2026, 4, 2, 10, 0, 0, 0, time.UTC), SourceType: "dc_glow"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	walSize := func() int64 {
+		fi, err := os.Stat(path + "-wal")
+		if err != nil {
+			t.Fatal(err)
+		}
+		return fi.Size()
+	}
+	content := make([]byte, 1<<20)
+	for i := range content {
+		content[i] = byte(i * 13)
+	}
+	var before, during int64
+	write := func(tx *sql.Tx) error {
+		before = walSize()
+		for k := range 6 {
+			if _, err := d.AddAttachmentTx(ctx, tx, run, KindSpectrum, fmt.Sprintf("s%d.csv", k), content); err != nil {
+				return err
+			}
+		}
+		during = walSize()
+		return nil
+	}
+	if err := d.InGroupTx(ctx, write); err != nil {
+		t.Fatal(err)
+	}
+	if during != before {
+		t.Errorf("the WAL grew from %d to %d bytes before the commit: pages were spilled", before, during)
+	}
+	if after := walSize(); after < 6<<20 {
+		t.Errorf("WAL %d bytes after the commit, want the 6 MB written", after)
 	}
 }
