@@ -241,7 +241,7 @@ func (j *JobRunner) run(ctx context.Context, job store.Job) {
 // analysed and the version to store.
 func (j *JobRunner) prepareOne(ctx context.Context, id int64, p reanalyzeParams) (int, *reanalysisWrite, error) {
 	s := j.s
-	r, err := s.DB.GetRun(ctx, id)
+	r, err := s.DB.GetRunUntagged(ctx, id) // its fields, not its tags
 	if err != nil {
 		return 0, nil, err
 	}
