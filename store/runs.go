@@ -360,7 +360,7 @@ func scanRun(row interface{ Scan(...any) error }) (Run, error) {
 func (d *DB) RunStatusTx(ctx context.Context, tx *sql.Tx, runID int64) (string, *int, error) {
 	var status string
 	var approved sql.NullInt64
-	if err := tx.QueryRowContext(ctx, `SELECT status, approved_version FROM runs WHERE id = ?`, runID).Scan(&status, &approved); err != nil {
+	if err := d.txQueryRow(ctx, tx, qRunStatusApproved, []any{runID}, &status, &approved); err != nil {
 		return "", nil, errNoRows(err, fmt.Sprintf("run %d", runID))
 	}
 	if !approved.Valid {
