@@ -20,7 +20,10 @@ import (
 // bulk writes waited for one another) and with=bulk (BulkGroupTx, queued
 // without waiting: groups of bulkGroup). Reported per version (run):
 // cpu-ms (the process's, background checkpoints included), written-kB and
-// write-calls (/proc/self/io), versions/commit.
+// write-calls (/proc/self/io), versions/commit, and the time the
+// committer held the write lock per commit (what an interactive write
+// queued just before a commit waits for at most, plus one write) and per
+// version.
 //
 //	go test ./store/ -run '^$' -bench BulkVersions -benchtime 400x
 func BenchmarkBulkVersions(b *testing.B) {
@@ -60,7 +63,7 @@ func BenchmarkBulkVersions(b *testing.B) {
 					return err
 				}
 			}
-			w0, c0, _ := d.GroupStats()
+			w0, c0, busy0 := d.GroupStats()
 			wb0, wc0 := benchProcWrites()
 			cpu0 := benchCPU()
 			b.ResetTimer()
@@ -84,13 +87,15 @@ func BenchmarkBulkVersions(b *testing.B) {
 			b.StopTimer()
 			cpu := benchCPU() - cpu0
 			wb1, wc1 := benchProcWrites()
-			w1, c1, _ := d.GroupStats()
+			w1, c1, busy1 := d.GroupStats()
 			n := float64(b.N)
 			b.ReportMetric(cpu.Seconds()*1000/n, "cpu-ms/version")
 			b.ReportMetric(float64(wb1-wb0)/1024/n, "written-kB/version")
 			b.ReportMetric(float64(wc1-wc0)/n, "write-calls/version")
 			if c1 > c0 {
 				b.ReportMetric(float64(w1-w0)/float64(c1-c0), "versions/commit")
+				b.ReportMetric((busy1-busy0).Seconds()*1000/float64(c1-c0), "lock-ms/commit")
+				b.ReportMetric((busy1-busy0).Seconds()*1000/n, "lock-ms/version")
 			}
 		})
 	}
