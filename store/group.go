@@ -41,7 +41,7 @@ const maxGroup = 64
 // is due goes before queued interactive writes, so that a steady stream of
 // them cannot hold bulk writes back without end.
 const (
-	bulkGroup = 8
+	bulkGroup = 4
 	bulkWait  = 200 * time.Millisecond
 )
 

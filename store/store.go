@@ -205,9 +205,9 @@ func sqlDSN(path, sync string) string {
 // group commit it first copies each spilled page that an open savepoint
 // may have to restore into the savepoint's journal, and a page spilled
 // and changed again is written to the WAL twice. One run's version of 20
-// whole-route results is ~1 MB of pages, a bulk group (group.go) of 8
-// such versions ~9 MB: with spilling they took ~1 ms more CPU per version
-// (BenchmarkBulkVersions). The pages beyond cache_size are given back
+// whole-route results is ~1 MB of pages, a bulk group (group.go) several
+// times that: with spilling, groups of 8 took ~0.8 ms more CPU per
+// version (BenchmarkBulkVersions). The pages beyond cache_size are given back
 // after the commit.
 const writeSpillBytes = 32 << 20
 
