@@ -353,7 +353,7 @@ func (s *Server) apiAddMeasurement(c echo.Context) error {
 		return err
 	}
 	ctx := c.Request().Context()
-	run, err := s.DB.GetRun(ctx, id)
+	run, err := s.DB.GetRunUntagged(ctx, id) // its fields, not its tags
 	if err != nil {
 		return err
 	}

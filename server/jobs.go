@@ -22,10 +22,11 @@ import (
 // JobRunner runs background jobs (bulk reanalysis), one job at a time.
 // A job analyses its runs with GOMAXPROCS workers outside the write lock
 // (prepareReanalysis) and queues each run's version for the group
-// committer (store.DB.GroupTx) without waiting: versions queued while
-// another commits are stored together, one transaction for many runs,
-// each in its own savepoint, while the workers go on analysing. Web
-// requests' writes join the same groups.
+// committer as a latency-tolerant write (store.DB.BulkGroupTx) without
+// waiting: the versions wait for one another and are stored several
+// together, one transaction for many runs, each in its own savepoint,
+// while the workers go on analysing. Web requests' writes do not wait
+// for them (see store/group.go).
 type JobRunner struct {
 	s    *Server
 	wake chan struct{}
@@ -173,7 +174,7 @@ func (j *JobRunner) run(ctx context.Context, job store.Job) {
 				n, w, err := j.prepareOne(ctx, id, p)
 				var stored <-chan error
 				if err == nil {
-					stored = db.GroupTx(ctx, w.write(ctx))
+					stored = db.BulkGroupTx(ctx, w.write(ctx))
 				}
 				outs <- outcome{id, n, err, stored}
 			}
@@ -240,7 +241,7 @@ func (j *JobRunner) run(ctx context.Context, job store.Job) {
 // analysed and the version to store.
 func (j *JobRunner) prepareOne(ctx context.Context, id int64, p reanalyzeParams) (int, *reanalysisWrite, error) {
 	s := j.s
-	r, err := s.DB.GetRun(ctx, id)
+	r, err := s.DB.GetRunUntagged(ctx, id) // its fields, not its tags
 	if err != nil {
 		return 0, nil, err
 	}

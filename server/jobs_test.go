@@ -62,6 +62,11 @@ func TestBulkReanalysis(t *testing.T) {
 	if job.State != store.JobDone || job.Total != 3 || job.Done != 2 || job.Failed != 1 || !strings.Contains(job.Message, "no spectrum") {
 		t.Fatalf("job %+v", job)
 	}
+	// the versions went to the committer as bulk writes (BulkGroupTx),
+	// which wait to be committed several at a time
+	if bw, _ := f.s.DB.BulkGroupStats(); bw != 2 {
+		t.Errorf("%d versions stored as bulk writes, want the job's 2", bw)
+	}
 	if as, _ := f.s.DB.Analyses(ctx, signed); len(as) != 1 {
 		t.Errorf("signed-off run got %d versions from a job that skips it, want 1", len(as))
 	}

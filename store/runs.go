@@ -360,7 +360,7 @@ func scanRun(row interface{ Scan(...any) error }) (Run, error) {
 func (d *DB) RunStatusTx(ctx context.Context, tx *sql.Tx, runID int64) (string, *int, error) {
 	var status string
 	var approved sql.NullInt64
-	if err := tx.QueryRowContext(ctx, `SELECT status, approved_version FROM runs WHERE id = ?`, runID).Scan(&status, &approved); err != nil {
+	if err := d.txQueryRow(ctx, tx, qRunStatusApproved, []any{runID}, &status, &approved); err != nil {
 		return "", nil, errNoRows(err, fmt.Sprintf("run %d", runID))
 	}
 	if !approved.Valid {
@@ -372,9 +372,9 @@ func (d *DB) RunStatusTx(ctx context.Context, tx *sql.Tx, runID int64) (string, 
 
 // GetRun returns one run with its tags.
 func (d *DB) GetRun(ctx context.Context, id int64) (Run, error) {
-	r, err := scanRun(d.readStmt(qGetRun).QueryRowContext(ctx, id))
+	r, err := d.GetRunUntagged(ctx, id)
 	if err != nil {
-		return r, fmt.Errorf("run %d: %w", id, err)
+		return r, err
 	}
 	rows, err := d.readStmt(qRunTags).QueryContext(ctx, id)
 	if err != nil {
@@ -389,6 +389,17 @@ func (d *DB) GetRun(ctx context.Context, id int64) (Run, error) {
 		r.Tags = append(r.Tags, t)
 	}
 	return r, rows.Err()
+}
+
+// GetRunUntagged returns one run like GetRun but without its tags (Tags
+// is nil), in one query instead of two: for the ingest and bulk
+// reanalysis paths, which need the run's fields only.
+func (d *DB) GetRunUntagged(ctx context.Context, id int64) (Run, error) {
+	r, err := scanRun(d.readStmt(qGetRun).QueryRowContext(ctx, id))
+	if err != nil {
+		return r, fmt.Errorf("run %d: %w", id, err)
+	}
+	return r, nil
 }
 
 // RunFilter selects runs for the run list, the trends and the API. Zero

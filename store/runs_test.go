@@ -2,7 +2,9 @@ package store
 
 import (
 	"context"
+	"errors"
 	"path/filepath"
+	"reflect"
 	"testing"
 	"time"
 )
@@ -104,5 +106,36 @@ func TestEnsureChamberTx(t *testing.T) {
 	tx.Rollback()
 	if list, _ := d.Chambers(ctx); len(list) != 0 {
 		t.Errorf("rolled-back chamber stored: %v", list)
+	}
+}
+
+// TestGetRunUntagged: the run GetRun returns, without its tags; an
+// unknown run is ErrNotFound like GetRun's.
+func TestGetRunUntagged(t *testing.T) {
+	d, op := openRunsDB(t)
+	ctx := context.Background()
+	fwhm := 0.05
+	id, err := d.CreateRun(ctx, op, RunInput{Title: "tagged glow", GasMixture: "H2", Tags: []string{"baseline", "slit"},
+		StartedAt: time.Date(2026, 3, 1, 9, 0, 0, 0, time.UTC), SourceType: "dc_glow", InstrumentFWHMNM: &fwhm})
+	if err != nil {
+		t.Fatal(err)
+	}
+	full, err := d.GetRun(ctx, id)
+	if err != nil || len(full.Tags) != 2 {
+		t.Fatalf("GetRun: %+v %v", full, err)
+	}
+	bare, err := d.GetRunUntagged(ctx, id)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if bare.Tags != nil {
+		t.Errorf("GetRunUntagged read the tags %v", bare.Tags)
+	}
+	full.Tags = nil
+	if !reflect.DeepEqual(bare, full) {
+		t.Errorf("GetRunUntagged %+v, want GetRun's %+v", bare, full)
+	}
+	if _, err := d.GetRunUntagged(ctx, id+100); !errors.Is(err, ErrNotFound) {
+		t.Errorf("unknown run: %v, want ErrNotFound", err)
 	}
 }

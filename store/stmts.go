@@ -12,12 +12,14 @@ import (
 // statement, which cost about as much as running it. database/sql keeps a
 // prepared statement on each pooled connection it has run on.
 const (
-	qRunStatus     = `SELECT status FROM runs WHERE id = ?`
-	qNextSeq       = `SELECT coalesce(max(seq), 0) + 1 FROM attachments WHERE run_id = ? AND kind = ?`
-	qAddAttachment = `INSERT INTO attachments (run_id, kind, name, seq, size, created_at) VALUES (?, ?, ?, ?, ?, ?)`
-	qAddContent    = `INSERT INTO attachment_contents (attachment_id, content) VALUES (?, ?)`
-	qNextVersion   = `SELECT coalesce(max(version), 0) + 1 FROM analyses WHERE run_id = ?`
-	qAddAnalysis   = `INSERT INTO analyses (run_id, version, settings, engine_version, created_by, created_at, reason)
+	qRunStatus = `SELECT status FROM runs WHERE id = ?`
+	// RunStatusTx (the signed-off check of uploads and reanalyses)
+	qRunStatusApproved = `SELECT status, approved_version FROM runs WHERE id = ?`
+	qNextSeq           = `SELECT coalesce(max(seq), 0) + 1 FROM attachments WHERE run_id = ? AND kind = ?`
+	qAddAttachment     = `INSERT INTO attachments (run_id, kind, name, seq, size, created_at) VALUES (?, ?, ?, ?, ?, ?)`
+	qAddContent        = `INSERT INTO attachment_contents (attachment_id, content) VALUES (?, ?)`
+	qNextVersion       = `SELECT coalesce(max(version), 0) + 1 FROM analyses WHERE run_id = ?`
+	qAddAnalysis       = `INSERT INTO analyses (run_id, version, settings, engine_version, created_by, created_at, reason)
 		VALUES (?, ?, ?, ?, ?, ?, ?)`
 	qAddResult = `INSERT INTO analysis_results (analysis_id, attachment_id, result, series, error, texc_k, texc_unc_k,
 		ne_m3, ne_unc_m3, tgas_k, n_warnings, warn_worst, same_as) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`
@@ -39,7 +41,7 @@ const (
 	qRollbackTo = `ROLLBACK TO group_write`
 )
 
-var hotQueries = []string{qRunStatus, qNextSeq, qAddAttachment, qAddContent, qNextVersion, qAddAnalysis, qAddResult, qAddResults,
+var hotQueries = []string{qRunStatus, qRunStatusApproved, qNextSeq, qAddAttachment, qAddContent, qNextVersion, qAddAnalysis, qAddResult, qAddResults,
 	qSetSummary, qLatestSettings, qLatestAnalysis, qLatestResults, qListAttachments, qContent,
 	qSavepoint, qRelease, qRollbackTo, qPruneChanges}
 
