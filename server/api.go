@@ -516,7 +516,7 @@ func batchPrefix(ins []incoming, i int) string {
 
 // answerPlots reads the query parameter plots of a measurement upload:
 // "all" (the default) answers with each result's plot series, "none"
-// without them (the numbers only: about a quarter of the bytes of a
+// without them (the numbers only: a quarter to a third of the bytes of a
 // whole-spectrum result, and no series text to write).
 func answerPlots(c echo.Context) (bool, error) {
 	switch v := c.QueryParam("plots"); v {

@@ -40,7 +40,7 @@ import (
 // "file" parts, stored in one transaction with one analysis version).
 //
 // Route whole runs once more with plots=none (…/plots=none): the answers
-// without their plot series (about a quarter of the bytes), what a
+// without their plot series (a quarter to a third of the bytes), what a
 // client that stores the numbers, not the curves, asks for.
 //
 // Besides spectra/s (wall clock, which on a shared machine depends on its
