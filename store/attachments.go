@@ -156,8 +156,7 @@ func (d *DB) AttachmentContentTx(ctx context.Context, tx *sql.Tx, id int64) ([]b
 // RunContents returns the content of every attachment of a run, by id,
 // in one query (what a reanalysis of the whole run reads).
 func (d *DB) RunContents(ctx context.Context, runID int64) (map[int64][]byte, error) {
-	rows, err := d.db.QueryContext(ctx, `SELECT a.id, c.content FROM attachments a
-		JOIN attachment_contents c ON c.attachment_id = a.id WHERE a.run_id = ?`, runID)
+	rows, err := d.readStmt(qRunContents).QueryContext(ctx, runID)
 	if err != nil {
 		return nil, err
 	}

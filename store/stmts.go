@@ -56,7 +56,11 @@ var (
 		FROM api_tokens t JOIN users u ON u.id = t.user_id
 		WHERE t.token_hash = ? AND t.revoked_at IS NULL AND u.disabled = 0`
 
-	readQueries = []string{qGetRun, qRunTags, qLatestSettings, qListAttachments, qLookupToken}
+	// RunContents (every reanalysis reads its run's files)
+	qRunContents = `SELECT a.id, c.content FROM attachments a
+		JOIN attachment_contents c ON c.attachment_id = a.id WHERE a.run_id = ?`
+
+	readQueries = []string{qGetRun, qRunTags, qLatestSettings, qListAttachments, qLookupToken, qRunContents}
 )
 
 // addResultsRows is the number of rows of qAddResults.
