@@ -539,17 +539,7 @@ func writeMeasurementJSON(buf *bytes.Buffer, ids apiMeasurementIDs, m *RunAnalys
 	}
 	var body []byte
 	switch {
-	case !plots && m != nil && m.stored != nil && m.stored.Result != "" && m.answer == nil:
-		// the stored JSON without its series' placeholders
-		bp := resultBufPool.Get().(*[]byte)
-		defer func() {
-			if cap(body) <= 1<<20 {
-				*bp = body[:0]
-				resultBufPool.Put(bp)
-			}
-		}()
-		body = bytes.TrimSpace(spectrum.DropSeries((*bp)[:0], []byte(m.stored.Result)))
-	case m != nil && m.answer != nil:
+	case plots && m != nil && m.answer != nil:
 		body = bytes.TrimSpace(m.answer)
 		defer func() {
 			// written: its buffer goes back to the pool
@@ -560,7 +550,8 @@ func writeMeasurementJSON(buf *bytes.Buffer, ids apiMeasurementIDs, m *RunAnalys
 			m.answer = nil
 		}()
 	case m != nil && m.stored != nil && m.stored.Result != "":
-		// the stored JSON with its plot series put back
+		// the stored JSON with its plot series put back, or without
+		// them (their placeholders and keys left out)
 		bp := resultBufPool.Get().(*[]byte)
 		defer func() {
 			if cap(body) <= 1<<20 {
@@ -568,7 +559,12 @@ func writeMeasurementJSON(buf *bytes.Buffer, ids apiMeasurementIDs, m *RunAnalys
 				resultBufPool.Put(bp)
 			}
 		}()
-		if body, err = spectrum.ExpandSeries((*bp)[:0], m.stored.Result, m.stored.Series); err != nil {
+		if plots {
+			body, err = spectrum.ExpandSeries((*bp)[:0], m.stored.Result, m.stored.Series)
+		} else {
+			body = spectrum.DropSeries((*bp)[:0], m.stored.Result)
+		}
+		if err != nil {
 			return err
 		}
 		body = bytes.TrimSpace(body)

@@ -76,7 +76,10 @@ var (
 )
 
 // seriesPlaceholder is what AppendJSONSplit writes for a series.
-var seriesPlaceholder = []byte("[null]")
+var seriesPlaceholder = []byte(placeholderText)
+
+// placeholderText is seriesPlaceholder as a string.
+const placeholderText = "[null]"
 
 // placeholderSeries is a series whose JSON is seriesPlaceholder.
 var placeholderSeries = PlotFloats{math.NaN()}

@@ -1,6 +1,6 @@
 package spectrum
 
-import "bytes"
+import "strings"
 
 // DropSeries appends to dst the JSON that AppendJSONSplit wrote (js) with
 // every plot series left out, its key with it: the result's numbers
@@ -10,7 +10,7 @@ import "bytes"
 // comma, key and placeholder go) or the object's opening brace (the key,
 // placeholder and the comma after them go). Text that is not in that form
 // is copied as it is (AppendJSONSplit never writes it).
-func DropSeries(dst, js []byte) []byte {
+func DropSeries(dst []byte, js string) []byte {
 	start := len(dst)
 	// before returns the byte before js[k] in the text: in js, or the
 	// last one written to dst.
@@ -24,15 +24,15 @@ func DropSeries(dst, js []byte) []byte {
 		return 0
 	}
 	for {
-		i := bytes.Index(js, seriesPlaceholder)
+		i := strings.Index(js, placeholderText)
 		if i < 0 {
 			return append(dst, js...)
 		}
-		end := i + len(seriesPlaceholder)
+		end := i + len(placeholderText)
 		// js[:i] ends with "name":
 		k := -1
 		if i >= 3 && js[i-1] == ':' && js[i-2] == '"' {
-			k = bytes.LastIndexByte(js[:i-2], '"')
+			k = strings.LastIndexByte(js[:i-2], '"')
 		}
 		switch b := before(k); {
 		case k >= 0 && b == ',':

@@ -24,7 +24,7 @@ func TestDropSeries(t *testing.T) {
 		`{"no":"series"}`:                             `{"no":"series"}`,
 	}
 	for in, want := range cases {
-		if got := string(DropSeries([]byte("p"), []byte(in))); got != "p"+want {
+		if got := string(DropSeries([]byte("p"), in)); got != "p"+want {
 			t.Errorf("DropSeries(%s) = %s, want %s", in, got[1:], want)
 		}
 	}
@@ -59,7 +59,7 @@ func TestDropSeries(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		brief := DropSeries(nil, js)
+		brief := DropSeries(nil, string(js))
 		if !json.Valid(brief) {
 			t.Fatalf("%s: DropSeries gave invalid JSON: %.300s", model, brief)
 		}
