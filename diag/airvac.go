@@ -1,7 +1,5 @@
 package diag
 
-import "math"
-
 // VacToAirNM converts a vacuum wavelength to standard air by the IAU
 // standard formula (Morton 2000), with coefficients of Birch & Downs (1994):
 //
@@ -96,13 +94,4 @@ func ciddorIndex(vacNM float64) float64 {
 	s := 1e3 / vacNM
 	s2 := s * s
 	return 1 + 0.05792105/(238.0185-s2) + 0.00167917/(57.362-s2)
-}
-
-// WavenumberPerCMToVacNM converts a vacuum wavenumber in cm⁻¹ to a vacuum
-// wavelength in nm (λ = 10⁷/σ).
-func WavenumberPerCMToVacNM(sigma float64) float64 {
-	if sigma <= 0 || math.IsNaN(sigma) {
-		return math.NaN()
-	}
-	return 1e7 / sigma
 }

@@ -4,7 +4,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"strings"
 )
 
 // lineBudget builds the broadening budget of one line at gas temperature
@@ -166,14 +165,6 @@ func analyzeWidth(lr *LineResult, in lineWidthInput, m Measurement, pert Perturb
 		}
 	}
 	return nil
-}
-
-// isUnverifiedNote reports whether a relation warning is the generic
-// "coefficients unverified" one, which the analysis reports once per
-// relation instead of once per line.
-func isUnverifiedNote(w string) bool {
-	lw := strings.ToLower(w)
-	return strings.Contains(lw, "unverified") || strings.Contains(lw, "from memory")
 }
 
 // numDeriv is a central-difference derivative with a relative step, so

@@ -121,11 +121,3 @@ func CountWarnings(fs []Flag) (int, Severity) {
 	}
 	return len(seen), worst
 }
-
-// WorseSeverity returns the worse of a and b.
-func WorseSeverity(a, b Severity) Severity {
-	if severityRank(b) > severityRank(a) {
-		return b
-	}
-	return a
-}

@@ -110,12 +110,6 @@ const ggc2003 = "Gigosos, M. A., González, M. Á. & Cardeñoso, V. 2003, " +
 // reduced half width per unit F₀.
 const griemHolFieldConst = 2.50e-9
 
-// griemCoefficientNM returns 0.1 nm/Å · 2.50e-9 · α½ · (1e17)^(2/3): the
-// Griem-form FWHM in nm at n_e = 1e23 m⁻³ = 1e17 cm⁻³.
-func griemCoefficientNM(alphaHalf float64) float64 {
-	return 0.1 * griemHolFieldConst * alphaHalf * math.Pow(1e17, 2.0/3.0)
-}
-
 // ggcSource says how the GGC 2003 coefficients were checked.
 const ggcSource = "coefficients as widely quoted (the 2003 paper itself not read); cross-checked against " +
 	"the Stehlé & Hutcheon (1999) tables shipped in diag/sh99: at 1e4 K and 1e21–1e23 m⁻³ "

@@ -139,15 +139,6 @@ func (t *textCol) insert(i int32) {
 	t.setStale(i, true)
 }
 
-// bytes is the memory held.
-func (t *textCol) bytes() int {
-	n := cap(t.blob) + 4*cap(t.off) + 8*cap(t.stale)
-	for _, s := range t.over {
-		n += len(s) + 32
-	}
-	return n
-}
-
 func lowerASCII(b byte) byte {
 	if 'A' <= b && b <= 'Z' {
 		return b + 'a' - 'A'

@@ -131,11 +131,6 @@ func (v *valCol) insert(i int, x float64) {
 	}
 }
 
-// bytes is the memory the column holds (for the store's size report).
-func (v *valCol) bytes() int {
-	return 8*cap(v.f) + cap(v.c8) + 2*cap(v.c16) + 8*len(v.dict) + 24*len(v.code)
-}
-
 // insertAt inserts x at i growing the slice by a quarter when full (not
 // doubling: the columns are large and new runs come one at a time).
 func insertAt[T any](s []T, i int, x T) []T {

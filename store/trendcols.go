@@ -294,8 +294,6 @@ func (s *colsScanner) val(k int) float64 {
 	return math.NaN()
 }
 
-func fitsInt32(v int64) bool { return v >= 0 && v <= math.MaxInt32 }
-
 // fitsUint16: chamber, recipe and operator ids are held in two bytes (a
 // log with more than 65 535 chambers, recipes or accounts, or gas
 // mixtures, turns the store off: trends then read through SQL).
