@@ -155,7 +155,7 @@ func TestChamberEvents(t *testing.T) {
 		t.Error("B-2 tile lacks its event")
 	}
 	// The list of latest events, newest first.
-	if i, j := strings.Index(body, "<td>pin electrode replaced</td>"), strings.Index(body, "<td>new H2 bottle</td>"); i < 0 || j < 0 || i > j ||
+	if i, j := strings.Index(body, `<td class="wrap">pin electrode replaced</td>`), strings.Index(body, `<td class="wrap">new H2 bottle</td>`); i < 0 || j < 0 || i > j ||
 		strings.Count(body, `data-testid="board-event"`) != 2 {
 		t.Error("the board's event list lacks the events or is not newest first")
 	}
