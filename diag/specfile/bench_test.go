@@ -2,6 +2,7 @@ package specfile
 
 import (
 	"bytes"
+	"fmt"
 	"os"
 	"testing"
 )
@@ -73,5 +74,29 @@ func BenchmarkReadBytesScipy2048(b *testing.B) {
 		if _, err := ReadBytes("scipy_bench_2048.csv", data, Options{}, &buf); err != nil {
 			b.Fatal(err)
 		}
+	}
+}
+
+// BenchmarkReadBytesForms reads 2048-row files as ReadBytesScipy2048
+// does, in the row forms spectrometer exports commonly use: whole-number
+// counts ("656.2800,1234"), and the same with "\r\n" line ends.
+func BenchmarkReadBytesForms(b *testing.B) {
+	for _, form := range []struct{ name, eol string }{{"counts", "\n"}, {"counts-crlf", "\r\n"}} {
+		var f bytes.Buffer
+		f.WriteString("wavelength_nm,counts" + form.eol)
+		for i := range 2048 {
+			fmt.Fprintf(&f, "%.4f,%d%s", 380+0.1563*float64(i), 300+(i*7919)%4000, form.eol)
+		}
+		data := f.Bytes()
+		b.Run(form.name, func(b *testing.B) {
+			var buf Buffers
+			b.SetBytes(int64(len(data)))
+			b.ReportAllocs()
+			for b.Loop() {
+				if _, err := ReadBytes("counts.csv", data, Options{}, &buf); err != nil {
+					b.Fatal(err)
+				}
+			}
+		})
 	}
 }

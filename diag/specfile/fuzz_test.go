@@ -3,6 +3,7 @@ package specfile
 import (
 	"bytes"
 	"errors"
+	"fmt"
 	"maps"
 	"math"
 	"os"
@@ -123,6 +124,15 @@ func FuzzReadText(f *testing.F) {
 	}
 	for _, tt := range textErrorTests {
 		f.Add([]byte(tt.in))
+	}
+	// Whole-number counts, "\n" and "\r\n" (ascRows' other forms).
+	for _, eol := range []string{"\n", "\r\n"} {
+		var b strings.Builder
+		b.WriteString("\x80wavelength_nm,counts" + eol)
+		for i := range 8 {
+			fmt.Fprintf(&b, "%.4f,%d%s", 656.1+0.0173*float64(i), 900+37*i*i, eol)
+		}
+		f.Add([]byte(b.String()))
 	}
 	f.Fuzz(func(t *testing.T, data []byte) {
 		// The first byte, if any, picks the options; the rest is the file.

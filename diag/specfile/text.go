@@ -538,8 +538,8 @@ rows:
 
 // ascRows is plainRows' loop for an ascending axis, x first and lines
 // of up to 34 bytes allowed (maxLen ≥ 34), restricted to rows of its
-// fast form ("I.F<d>I.F\n", 1–7 digits before each point, 0–7 after)
-// that continue the order: the same values, bit for bit, by the same
+// fast form ("I.F<d>I.F" or "I.F<d>I", 1–7 digits before each point,
+// 0–7 after, ending with "\n" or "\r\n") that continue the order: the same values, bit for bit, by the same
 // operations. With fewer variables live than plainRows' loop, the
 // compiler keeps them in registers. From pos, with n points in xs and ys
 // (whose length is the point limit) and last the last x, it reads rows
@@ -566,14 +566,26 @@ func ascRows(src string, pos, n int, xs, ys []float64, last float64, start int, 
 		k := da + 2 + fa // b's start in r (≤ 16)
 		w3 := load8(r[k:], 0)
 		db := digits7(w3)
-		if db == 0 || r[k+db] != pt {
+		if db == 0 {
 			break
 		}
-		w4 := load8(r[k+db+1:], 0)
-		fb := digits7(w4)
-		e := k + db + 1 + fb // the row's end in r (≤ 31)
-		if r[e] != '\n' {
-			break
+		// b with a point and 0–7 digits after it, or a whole number (as
+		// plainNum's second branch reads it, counts are often written
+		// so: its value is the same with fb = 0, an exact division by 1).
+		e := k + db // the end of b in r (≤ 31)
+		fb, w4 := 0, uint64(0)
+		if r[e] == pt {
+			w4 = load8(r[e+1:], 0)
+			fb = digits7(w4)
+			e += 1 + fb
+		}
+		// The row ends with "\n" or "\r\n" (e then at its "\n"; e ≤ 31:
+		// the masks only let the compiler see it).
+		if c := r[e&31]; c != '\n' {
+			if c != '\r' || r[e&31+1] != '\n' {
+				break
+			}
+			e++
 		}
 		ma := int64(swarValue(w, da)*pow10u[fa] + swarValue(w2, fa))
 		mb := int64(swarValue(w3, db)*pow10u[fb] + swarValue(w4, fb))
