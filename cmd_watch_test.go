@@ -31,6 +31,7 @@ type gate struct {
 	attempts  int // POSTs to .../measurements seen, down or not
 	runPosts  int // POST /api/v1/runs carried out
 	measPosts int // POST .../measurements carried out
+	withPlots int // POST .../measurements asking for the plot series
 }
 
 func (g *gate) ServeHTTP(w http.ResponseWriter, r *http.Request) {
@@ -39,6 +40,9 @@ func (g *gate) ServeHTTP(w http.ResponseWriter, r *http.Request) {
 	g.mu.Lock()
 	if meas {
 		g.attempts++
+		if r.URL.Query().Get("plots") != "none" {
+			g.withPlots++
+		}
 	}
 	down := g.down
 	lose := false
@@ -225,6 +229,11 @@ func TestWatchSettlesBeforeSending(t *testing.T) {
 	if a, _, _ := e.gate.counts(); a != 1 || e.stored("s001.csv") != 1 {
 		t.Errorf("%d uploads, %d stored, want 1 and 1", a, e.stored("s001.csv"))
 	}
+	e.gate.mu.Lock()
+	if e.gate.withPlots != 0 {
+		t.Errorf("%d uploads asked for the plot series the watcher does not keep (want plots=none)", e.gate.withPlots)
+	}
+	e.gate.mu.Unlock()
 	var aid int64
 	e.db.SQL().QueryRow(`SELECT id FROM attachments WHERE name = 's001.csv'`).Scan(&aid)
 	if full, err := e.db.AttachmentContent(context.Background(), aid); err != nil || !bytes.Equal(full.Content, data) {

@@ -103,12 +103,13 @@ func (w *watcher) do(ctx context.Context, method, path, contentType string, body
 }
 
 // upload sends one file to a run: a measurement set (JSON) as JSON, any
-// other file as a spectrum with the --set fields.
+// other file as a spectrum with the --set fields. The answer leaves out
+// the plot series (plots=none): the watcher keeps only the numbers.
 func (w *watcher) upload(ctx context.Context, runID int64, name string, data []byte) (measurementAnswer, error) {
 	var ans measurementAnswer
-	path := "/api/v1/runs/" + strconv.FormatInt(runID, 10) + "/measurements"
+	path := "/api/v1/runs/" + strconv.FormatInt(runID, 10) + "/measurements?plots=none"
 	if t := bytes.TrimLeft(data, " \t\r\n\ufeff"); len(t) > 0 && t[0] == '{' {
-		err := w.do(ctx, http.MethodPost, path+"?name="+url.QueryEscape(name), "application/json", data, &ans)
+		err := w.do(ctx, http.MethodPost, path+"&name="+url.QueryEscape(name), "application/json", data, &ans)
 		return ans, err
 	}
 	var buf bytes.Buffer
