@@ -1029,10 +1029,10 @@ func (f *wholeFitter) chooseGrids(areas []float64, ne float64) bool {
 	moved := false
 	for k, l := range f.lines {
 		var s2 float64
-		us, ss := l.u[:l.phi-l.plo], f.s[l.plo:l.phi]
+		us, ws := l.u[:l.phi-l.plo], f.wbuf[l.plo:l.phi] // 1/σ² (linearAreas' baseBlocks)
+		ws = ws[:len(us)]
 		for i, u := range us {
-			v := u / ss[i]
-			s2 += v * v
+			s2 += u * u * ws[i]
 		}
 		sig := math.Abs(areas[k]) * math.Sqrt(s2)
 		fine := sig*wholeGridBaseErr > wholeGridTol
