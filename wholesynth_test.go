@@ -685,8 +685,8 @@ func TestWholeSynthTargets(t *testing.T) {
 		}
 	}
 	// The line-by-line route's n_e (shown beside the whole fit, and the
-	// route of --model lines) meets the same targets here: 54/79 within
-	// 1σ, 75/79 within 2σ, since a line only one Stark model covers
+	// route of --model lines) meets the same targets here: 56/80 within
+	// 1σ, 77/80 within 2σ, since a line only one Stark model covers
 	// carries that line's own model spread (Hα 22 %). Its T_exc does not
 	// yet (25/38, 2σ 33/38: the window fits' areas), so only n_e is
 	// asserted.

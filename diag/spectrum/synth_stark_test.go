@@ -515,7 +515,9 @@ func TestWholeVoigtStandInSigma(t *testing.T) {
 // non-Stark Lorentzians are not small (van der Waals ≈ 0.1 nm on Hβ at
 // 1500 K), so the whole fit's σ_sys carries the van der Waals constant's
 // convention (physics.md §10 item 7) as the line-by-line route does; at
-// 1 Pa neither route has that part.
+// 1 Pa that part is nil or negligible (a line whose strong signal keeps
+// the kernel's Lorentzian, chooseGrids, carries the ~10⁻⁸ change the
+// 1 Pa van der Waals width makes).
 func TestWholePressureParts(t *testing.T) {
 	p := NewPipeline(8192)
 	x := linspace(470, 505, 2048)
@@ -554,8 +556,8 @@ func TestWholePressureParts(t *testing.T) {
 			if d := math.Abs(*w.ElectronDensityM3/ne - 1); d > 0.05 {
 				t.Errorf("%g Pa: n_e %.4g, truth %g (%.1f %%)", pa, *w.ElectronDensityM3, ne, 100*d)
 			}
-		} else if vdw != 0 {
-			t.Errorf("%g Pa: van der Waals part %.3g, want none", pa, vdw)
+		} else if vdw > 1e-6**w.ElectronDensityM3 {
+			t.Errorf("%g Pa: van der Waals part %.3g, want none or below 1e-6 of n_e", pa, vdw)
 		}
 	}
 }

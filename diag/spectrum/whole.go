@@ -32,7 +32,10 @@ package spectrum
 // Each line is built on its own uniform fine grid (wholeGridDefault:
 // step at most 1/12 of the line's total FWHM and 1/4 of its base
 // shape's, half span 8 total FWHM or 6 pixels; TestWholeGridDiscretisation
-// bounds its error against a grid 4× finer): the exact bin masses of the
+// bounds its error against a grid 4× finer; a line whose signal is so
+// strong against the pixels' noise that this grid's error would show
+// keeps the kernel's Lorentzian or moves to wholeGridFine, step /4 and
+// span ×2: chooseGrids, TestWholeGridNoise): the exact bin masses of the
 // SH99 shape from its cumulative integral (sh99.Shape) convolved with
 // the sampled Gaussian ⊗ Lorentzian kernel and summed into the
 // cumulative of the broadened profile (cubic Hermite between the bin
@@ -181,11 +184,46 @@ type wholeGrid struct {
 	maxBins int
 	// maxWing bounds the number of wing nodes.
 	maxWing int
+	// keepLorentz keeps the kernel's Lorentzian at any width where the
+	// Gaussian is at least the step (a sampled Voigt); otherwise it is
+	// dropped below 0.02 of the step (kernelNew).
+	keepLorentz bool
 }
 
 // wholeGridDefault is the grid of every fit (wholeFitter.grid nil).
 var wholeGridDefault = wholeGrid{perWidth: 12, perBase: 4, coreWidths: 8, corePixels: 6,
 	wingReach: 4, wingStep: 1.15, maxBins: 1200, maxWing: 64}
+
+// wholeGridFine is the grid of a line whose signal is so strong that
+// wholeGridDefault's error would show against the noise (chooseGrids).
+var wholeGridFine = wholeGrid{perWidth: 48, perBase: 16, coreWidths: 16, corePixels: 12,
+	wingReach: 4, wingStep: 1.15, maxBins: 20000, maxWing: 256, keepLorentz: true}
+
+// wholeGridBaseErr, wholeGridTol and wholeLorentzTol choose a line's
+// grid (chooseGrids). A line's signal over the noise is the whitened
+// norm S = |a| √Σ(u_i/σ_i)² of its model over its pixels (a: area, u:
+// unit profile's pixel means, σ: pixel σ); a model error δ of relative
+// size ε (the same norm of δ over S) can then move any fitted parameter
+// by at most ε·S of its own σ (on the check spectra the moves were
+// 0.3–0.9 of that bound). On wholeGridDefault ε is about
+// wholeGridBaseErr (the grid's step, span and reach: 1e-4 on survey
+// lines, up to 1e-3 on some high-signal windows) plus 2γ/W where the
+// kernel's Lorentzian (HWHM γ, line FWHM W) is dropped (kernelNew:
+// γ < 0.02 step; measured 1.9–2.1 γ/W on Hα windows). A line keeps the
+// Lorentzian (on the same grid) where 2γ/W·S > wholeLorentzTol, and
+// moves to wholeGridFine where wholeGridBaseErr·S > wholeGridTol. The
+// Lorentzian's tolerance is the looser so that survey spectra of
+// ordinary signal (BenchmarkWholeSurvey's: peak SNR 120–210, Hα's
+// S 1800–3200, 2γ/W·S ≤ 1.0) keep the default kernel and their cost;
+// at 0.35 the check spectra's largest n_e move against the converged
+// model falls from 0.55 to 0.32 σ, at +5 % instructions on those
+// surveys (the Voigt kernel's Faddeeva evaluations). Our choices from
+// testdata/gridstudy, no published source.
+const (
+	wholeGridBaseErr = 1e-4
+	wholeGridTol     = 0.35
+	wholeLorentzTol  = 1.5
+)
 
 // wholeBaselineOrder returns the Legendre order of the baseline: 1 over a
 // fitted range up to 25 nm (a window around one or two lines: a straight
@@ -220,11 +258,15 @@ type wline struct {
 	px       float64            // pixel width at the line
 	win      [2]float64         // line window for its statistics, nm
 	// Grid.
-	h     float64
-	m     int // bins 2m+1
-	plo   int // first fitted pixel evaluated
-	phi   int // one past the last
-	reach float64
+	fine    bool // on wholeGridFine (chooseGrids)
+	lorentz bool // keeps the kernel's Lorentzian (chooseGrids)
+	keepL   bool // the kernel keeps the Lorentzian (setupGrid)
+	regrid  bool // its grid changed since its last evaluation (chooseGrids)
+	h       float64
+	m       int // bins 2m+1
+	plo     int // first fitted pixel evaluated
+	phi     int // one past the last
+	reach   float64
 	// Per evaluation (over [plo, phi)).
 	u, du, dn, dg []float64
 	shp           sh99.Shape
@@ -931,6 +973,27 @@ func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
 	if !ok {
 		return errors.New("the starting linear fit is singular")
 	}
+	if f.grid == nil && f.chooseGrids(areas, ne0) {
+		// The lines whose grid changed are evaluated again (the others'
+		// pixel means stand), and the linear start is made afresh.
+		for _, l := range f.lines {
+			if !l.regrid {
+				continue
+			}
+			l.regrid = false
+			if f.scanOnly {
+				g, tg := f.lineInst(l, th)
+				if err := f.evalLine(l, th[pr.iNe], th[pr.iOff], g, tg, false); err != nil {
+					return err
+				}
+			} else if err := f.evalLineAt(l, th); err != nil {
+				return err
+			}
+		}
+		if areas, areaSig, _, ok = f.linearAreas(); !ok {
+			return errors.New("the starting linear fit is singular")
+		}
+	}
 	if pr.free {
 		for k := range lines {
 			th[pr.iA+k] = areas[k]
@@ -951,6 +1014,51 @@ func (f *wholeFitter) setup(in wholeInput, ne0 float64) error {
 	f.linearBaseline()
 
 	return nil
+}
+
+// chooseGrids chooses each line's grid from its signal over the noise,
+// S = |a| √Σ(u_i/σ_i)² at the starting areas (see wholeGridTol): the
+// kernel keeps its Lorentzian where dropping it would move the model
+// by more than wholeLorentzTol (2γ/W·S), and the line moves to
+// wholeGridFine where the default grid's own error would exceed
+// wholeGridTol (wholeGridBaseErr·S), or where a Lorentzian to keep meets
+// a Gaussian narrower than the default step. Every other line keeps
+// wholeGridDefault and its kernel, bit for bit. It reports whether any
+// line's grid changed (set up afresh; the caller evaluates again).
+func (f *wholeFitter) chooseGrids(areas []float64, ne float64) bool {
+	moved := false
+	for k, l := range f.lines {
+		var s2 float64
+		us, ws := l.u[:l.phi-l.plo], f.wbuf[l.plo:l.phi] // 1/σ² (linearAreas' baseBlocks)
+		ws = ws[:len(us)]
+		for i, u := range us {
+			s2 += u * u * ws[i]
+		}
+		sig := math.Abs(areas[k]) * math.Sqrt(s2)
+		fine := sig*wholeGridBaseErr > wholeGridTol
+		keepL := false
+		if gamma := l.lorOther / 2; l.shapeSH && gamma > 0 && gamma < 0.02*l.h {
+			w, _ := f.widths(l, ne, l.instG)
+			keepL = 2*gamma/w*sig > wholeLorentzTol
+			// The kernel keeps a Lorentzian only with a Gaussian of at
+			// least the step (kernelNew): a narrower one needs the fine
+			// grid's step.
+			if keepL && voigt.SigmaFromFWHM(math.Sqrt(l.extra2)) < l.h {
+				fine = true
+			}
+		}
+		if !fine && !keepL || l.fine || l.keepL {
+			continue
+		}
+		l.fine, l.lorentz = fine, keepL
+		if err := f.setupGrid(l, ne); err != nil {
+			l.fine, l.lorentz = false, false
+			_ = f.setupGrid(l, ne)
+		}
+		l.regrid = true
+		moved = true
+	}
+	return moved
 }
 
 // instAt is the fixed instrument Gaussian FWHM at λ (interpolated between
@@ -993,9 +1101,13 @@ func (f *wholeFitter) widths(l *wline, ne, instG float64) (total, base float64) 
 // setupGrid fixes a line's fine grid, its wing nodes and its pixel range.
 func (f *wholeFitter) setupGrid(l *wline, ne float64) error {
 	g := &wholeGridDefault
-	if f.grid != nil {
+	switch {
+	case f.grid != nil:
 		g = f.grid
+	case l.fine:
+		g = &wholeGridFine
 	}
+	l.keepL = g.keepLorentz || l.lorentz && f.grid == nil
 	w, wb := f.widths(l, ne, l.instG)
 	l.h = math.Min(w/g.perWidth, wb/g.perBase)
 	if !(l.h > 0) || math.IsInf(l.h, 0) {
@@ -1391,14 +1503,14 @@ func (l *wline) kernel(gF, lF float64) (kern []float64, r int, ok bool) {
 	// The kernel of the last call is kept: most evaluations repeat it
 	// (the Gaussian and Lorentzian widths change only with a free gas
 	// temperature or instrument width, and with T_e in densitySys).
-	if c := &l.kc; c.valid && c.gF == gF && c.lF == lF && c.h == l.h && c.m == l.m {
+	if c := &l.kc; c.valid && c.gF == gF && c.lF == lF && c.h == l.h && c.m == l.m && c.keepL == l.keepL {
 		if !c.ok {
 			return nil, 0, false
 		}
 		return l.kern[:2*c.r+1], c.r, true
 	}
 	kern, r, ok = l.kernelNew(gF, lF)
-	l.kc = kernCache{valid: true, gF: gF, lF: lF, h: l.h, m: l.m, r: r, ok: ok}
+	l.kc = kernCache{valid: true, gF: gF, lF: lF, h: l.h, m: l.m, r: r, ok: ok, keepL: l.keepL}
 	return kern, r, ok
 }
 
@@ -1408,7 +1520,7 @@ type kernCache struct {
 	valid     bool
 	gF, lF, h float64
 	m, r      int
-	ok        bool
+	ok, keepL bool
 }
 
 // kernelNew computes kernel's weights afresh.
@@ -1417,12 +1529,13 @@ func (l *wline) kernelNew(gF, lF float64) (kern []float64, r int, ok bool) {
 	nb := 2*l.m + 1
 	sigma := voigt.SigmaFromFWHM(gF)
 	gamma := lF / 2
-	if sigma < 0.05*h && gamma < 0.02*h {
+	keep := gamma >= 0.02*h || l.keepL && gamma > 0 && sigma >= h
+	if sigma < 0.05*h && !keep {
 		return nil, 0, false
 	}
 	// 4.5σ: the Gaussian's mass beyond is 7e-6 (renormalised below).
 	reach := 4.5 * sigma
-	if gamma >= 0.02*h {
+	if keep {
 		reach += 20 * gamma
 	} else {
 		gamma = 0

@@ -45,34 +45,39 @@ func (f *wholeFitter) areaOf(k int, th []float64) float64 {
 // derivative l.dg when the gas temperature or the instrument is free).
 func (f *wholeFitter) evalLines(th []float64) error {
 	for _, l := range f.lines {
-		g, tg := f.lineInst(l, th)
-		if f.par.iTg >= 0 || f.par.iIa >= 0 {
-			// Derivative in G_extra² by a one-sided difference of the
-			// kernel alone.
-			if err := f.evalLine(l, th[f.par.iNe], th[f.par.iOff], g, tg, true); err != nil {
-				return err
-			}
-			e2 := l.extra2
-			de := math.Max(0.02*e2, math.Pow(0.3*l.h, 2))
-			f.convolve(l, math.Sqrt(e2+de), l.kernL(), true)
-			f.pixels(l, th[f.par.iOff], true)
-			l.dg = grow(&l.dg, len(l.u))
-			copy(l.dg, l.u)
-			f.convolve(l, math.Sqrt(e2), l.kernL(), true)
-			f.pixels(l, th[f.par.iOff], true)
-			for i := range l.dg {
-				l.dg[i] = (l.dg[i] - l.u[i]) / de
-			}
-			// Where G_extra² is clamped at 0 the model is flat in G; the
-			// one-sided difference above 0 still points the fit out of
-			// the clamp (a flat column would leave it singular).
-			continue
-		}
-		if err := f.evalLine(l, th[f.par.iNe], th[f.par.iOff], g, tg, true); err != nil {
+		if err := f.evalLineAt(l, th); err != nil {
 			return err
 		}
 	}
 	return nil
+}
+
+// evalLineAt is evalLines for one line.
+func (f *wholeFitter) evalLineAt(l *wline, th []float64) error {
+	g, tg := f.lineInst(l, th)
+	if f.par.iTg >= 0 || f.par.iIa >= 0 {
+		// Derivative in G_extra² by a one-sided difference of the
+		// kernel alone.
+		if err := f.evalLine(l, th[f.par.iNe], th[f.par.iOff], g, tg, true); err != nil {
+			return err
+		}
+		e2 := l.extra2
+		de := math.Max(0.02*e2, math.Pow(0.3*l.h, 2))
+		f.convolve(l, math.Sqrt(e2+de), l.kernL(), true)
+		f.pixels(l, th[f.par.iOff], true)
+		l.dg = grow(&l.dg, len(l.u))
+		copy(l.dg, l.u)
+		f.convolve(l, math.Sqrt(e2), l.kernL(), true)
+		f.pixels(l, th[f.par.iOff], true)
+		for i := range l.dg {
+			l.dg[i] = (l.dg[i] - l.u[i]) / de
+		}
+		// Where G_extra² is clamped at 0 the model is flat in G; the
+		// one-sided difference above 0 still points the fit out of
+		// the clamp (a flat column would leave it singular).
+		return nil
+	}
+	return f.evalLine(l, th[f.par.iNe], th[f.par.iOff], g, tg, true)
 }
 
 // eval computes the model and the Jacobian at th and returns χ².

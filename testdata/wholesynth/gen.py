@@ -90,10 +90,11 @@ Physics, step by step
    the line), nu = c/lambda_vac, density per nm from |d nu/d lambda|; the
    line centre is the NIST observed air wavelength.
 
-4. Doppler and instrument. The tables hold Stark (x) Doppler(T_e) with the
-   emitter H (1.00794 u): w_D(T) = lambda sqrt(8 k T ln2/(M c^2)). The
-   spectrum must be Stark (x) Doppler(T_gas) (x) instrument = Stark (x) a
-   Gaussian of FWHM w_G = sqrt(w_inst^2 + w_D(T_gas)^2). When w_G >=
+4. Doppler, instrument and natural width. The tables hold Stark (x)
+   Doppler(T_e) with the emitter H (1.00794 u): w_D(T) = lambda
+   sqrt(8 k T ln2/(M c^2)). The spectrum must be Stark (x) Doppler(T_gas)
+   (x) instrument (x) natural Lorentzian (below) = Stark (x) a Gaussian of
+   FWHM w_G = sqrt(w_inst^2 + w_D(T_gas)^2) (x) that Lorentzian. When w_G >=
    w_D(T_e) that equals table (x) Gaussian(sqrt(w_G^2 - w_D(T_e)^2))
    exactly (Gaussians convolve in quadrature): the tables' own Doppler
    part is REPLACED by the true Gaussian without any deconvolution. The
@@ -106,10 +107,23 @@ Physics, step by step
        heavy particles at the electron temperature), so the tables'
        Doppler part IS the true Doppler part and only the instrument is
        convolved.
+   Natural (radiative) broadening: the tables hold Stark (electrons and
+   ions) and Doppler broadening only (their far wing at the lowest
+   density node, 1e16 m^-3, is below 0.3 % of a natural Lorentzian's), and
+   every real line also has its natural Lorentzian, FWHM Delta nu =
+   (Gamma_u + Gamma_2)/(2 pi) with Gamma_n the total decay rate of level
+   n, its l-substates statistically populated (Gamma_n = sum over n' < n
+   of the n-averaged A(n -> n'), computed exactly from the Gordon (1929)
+   radial integrals: physics.md section 1.4; they reproduce the A values
+   typed in below to 2e-5, and physics.md section 5.2's Gamma_2 ...
+   Gamma_5). Halpha 1.30e-4 nm, Hbeta 6.3e-5 nm, H12 3.5e-5 nm: small
+   against the Stark widths at the top of the range, but at 1e20 m^-3
+   Halpha's tabulated wing 0.2-1 nm out is that of a Lorentzian of only
+   0.005-0.0024 nm, so the natural wing adds 3-5 % there.
    The convolution is done per line by FFT on a fine uniform grid (step
    <= 1/20 of the narrowest table FWHM or Gaussian present), multiplying
-   the transform by the exact Gaussian transfer function exp(-2 pi^2
-   sigma^2 f^2) with zero padding (no wrap-around).
+   the transform by the exact Gaussian and Lorentzian transfer functions
+   exp(-2 pi^2 sigma^2 f^2 - pi w_L |f|) with zero padding.
 
 5. Line areas (photon units): LTE Boltzmann populations of the upper
    levels at T_exc, area ~ g_k A_k2 exp(-E_k/k T_exc). Line data (NIST
@@ -148,13 +162,15 @@ Physics, step by step
 
 Truth files: every input, and per line the area (response-corrected
 units), the interpolated table FWHM (Stark + Doppler(T_e), air nm), the
-Gaussian exchanged, the total FWHM of the noise-free line, its peak
+Gaussian exchanged, the natural FWHM, the total FWHM of the noise-free line, its peak
 expected counts above the continuum and its peak SNR (that peak over the
 noise at that pixel), and the fraction of its area inside the range.
 """
 import gzip
 import json
 import os
+from fractions import Fraction
+from math import factorial
 
 import numpy as np
 import scipy
@@ -197,6 +213,71 @@ GROUPS = {
     "hires": dict(inst=(0.03, 0.1), px_per_fwhm=2.8, gain=1.0, read=5.0, digits=6,
                   resp=lambda l: 0.55 + 0.45 * np.exp(-((l - 560.0) / 140.0) ** 2)),
 }
+
+
+def _hyp2f1_terminating(a, b, c, x):
+    """Gauss 2F1(a, b; c; x) for a or b a non-positive integer (a finite
+    polynomial), exactly in rationals."""
+    term, total, k = Fraction(1), Fraction(1), 0
+    while True:
+        term = term * (a + k) * (b + k) / ((c + k) * (k + 1)) * x
+        k += 1
+        if term == 0:
+            return total
+        total += term
+
+
+def _gordon_r2(n, l, n2):
+    """Square of the radial dipole integral <n, l | r | n2, l-1> in units of
+    the (reduced) Bohr radius, exactly (Gordon 1929; Bethe & Salpeter,
+    Quantum Mechanics of One- and Two-Electron Atoms, section 63)."""
+    nr, nr2 = n - l - 1, n2 - l
+    x = Fraction(-4 * n * n2, (n - n2) ** 2)
+    brace = (_hyp2f1_terminating(-nr, -nr2, 2 * l, x)
+             - Fraction(n - n2, n + n2) ** 2 * _hyp2f1_terminating(-nr - 2, -nr2, 2 * l, x))
+    pre = (Fraction(factorial(n + l) * factorial(n2 + l - 1), factorial(n - l - 1) * factorial(n2 - l))
+           / (4 * factorial(2 * l - 1)) ** 2)
+    return (pre * Fraction(4 * n * n2) ** (2 * l + 2) * Fraction(n - n2) ** (2 * (n + n2 - 2 * l - 2))
+            / Fraction(n + n2) ** (2 * (n + n2)) * brace ** 2)
+
+
+ME_MP = sc.m_e / sc.m_p
+R_H_PER_M = sc.Rydberg / (1 + ME_MP)  # hydrogen Rydberg (reduced mass)
+
+
+def einstein_a_nn(n, n2):
+    """n-averaged Einstein A of hydrogen n -> n2 < n, s^-1: the line
+    strength summed over l, m and spin from the Gordon integrals,
+    S = 2 sum_l [l R^2(n,l; n2,l-1) + l R^2(n2,l; n,l-1)], times the
+    reduced-mass factor (1 + m_e/m_p)^2 (atomic units), then
+    A = 2.02613e18 S / (g_n lambda^3[Angstrom]) with lambda (vacuum) from
+    the reduced-mass Rydberg. These reproduce NIST's A values (the
+    Balmer values typed in LINES; checked in natural_fwhm_nm)."""
+    s = Fraction(0)
+    for l in range(1, min(n - 1, n2) + 1):
+        s += l * _gordon_r2(n, l, n2)
+    for l in range(1, n2):
+        s += l * _gordon_r2(n2, l, n)
+    s = 2 * float(s) * (1 + ME_MP) ** 2
+    lam_a = 1e10 / (R_H_PER_M * (1.0 / n2 ** 2 - 1.0 / n ** 2))
+    return 2.02613e18 * s / (2 * n * n * lam_a ** 3)
+
+
+def decay_rate(n):
+    """Total radiative decay rate of level n, s^-1, its l-substates
+    statistically populated: Gamma_n = sum over n2 < n of A(n -> n2)."""
+    return sum(einstein_a_nn(n, n2) for n2 in range(1, n))
+
+
+def natural_fwhm_nm(u, lam_air_nm):
+    """Natural (radiative) Lorentzian FWHM of the Balmer line u -> 2 in air
+    nm: Delta nu = (Gamma_u + Gamma_2)/(2 pi), Delta lambda_air =
+    Delta nu lambda_air^2 n_air / c (step 4)."""
+    a = einstein_a_nn(u, 2)
+    if abs(a / LINES[u][4] - 1) > 2e-4:
+        raise SystemExit("A(%d->2) = %.6g from the Gordon integrals, the table has %.6g" % (u, a, LINES[u][4]))
+    dnu = (decay_rate(u) + decay_rate(2)) / (2 * np.pi)
+    return dnu * (lam_air_nm * 1e-9) ** 2 * n_air(lam_air_nm) / sc.c * 1e9
 
 
 def n_air(lam_air_nm):
@@ -318,17 +399,20 @@ class LineModel:
         return per_hz, hz, dict(nodes_cm3=[a.ne_cm3, b.ne_cm3], weight_log_ne=w)
 
 
-def gauss_convolve(y, h, fwhm):
-    """Convolution with a unit-area Gaussian of the given FWHM on a uniform
-    grid of step h: exact transfer function, zero-padded FFT."""
-    if fwhm <= 0:
-        return y.copy()
+def voigt_convolve(y, h, fwhm, lor_fwhm):
+    """Convolution with a unit-area Gaussian of FWHM fwhm and a unit-area
+    Lorentzian of FWHM lor_fwhm on a uniform grid of step h: exact transfer
+    functions exp(-2 pi^2 sigma^2 f^2) exp(-pi lor_fwhm |f|), zero-padded
+    FFT. The transform is circular: the Lorentzian's wing beyond the
+    period P = n h folds back, a density of about pi lor_fwhm/(6 P^2) of
+    the area per nm (P > 20 nm here: below 1e-5 of the area over the
+    grid)."""
     sig = fwhm / (2 * np.sqrt(2 * np.log(2)))
     padn = int(np.ceil(10 * sig / h))
     n = 1 << int(np.ceil(np.log2(y.size + 2 * padn)))
     f = np.fft.rfftfreq(n, d=h)
     yt = np.fft.rfft(y, n)
-    out = np.fft.irfft(yt * np.exp(-2 * np.pi ** 2 * sig ** 2 * f ** 2), n)
+    out = np.fft.irfft(yt * np.exp(-2 * np.pi ** 2 * sig ** 2 * f ** 2 - np.pi * lor_fwhm * f), n)
     return out[: y.size]
 
 
@@ -427,11 +511,13 @@ def make_spectrum(models, name, group, cfg, p, rng):
         # the table profile's FWHM on the fine grid where it lies inside it
         inside_c = fine[0] + 5 * hz_to_nm(hz, lam0) < lam0 < fine[-1] - 5 * hz_to_nm(hz, lam0)
         table_fwhm = fwhm_on_grid(fine, prof) if inside_c else 2 * hz_to_nm(hz, lam0)
-        conv = gauss_convolve(prof, h, wx)
+        wn = natural_fwhm_nm(u, lam0)
+        conv = voigt_convolve(prof, h, wx, wn)
         lines[u] = area * conv
         info.append(dict(upper_level=u, name=lname, center_air_nm=lam0, E_k_eV=ek, g_k=g, A_per_s=a,
                          photon_area=area, table_fwhm_nm=table_fwhm, table_half_width_hz=hz,
                          table_doppler_fwhm_nm=wd_e, gauss_fwhm_nm=wg, exchange_gauss_fwhm_nm=wx,
+                         natural_fwhm_nm=wn,
                          interpolation=interp,
                          total_fwhm_nm=fwhm_on_grid(fine, conv) if inside_c else None))
         photons += area * conv
@@ -475,6 +561,8 @@ def make_spectrum(models, name, group, cfg, p, rng):
         seed=p["seed"],
         doppler="tables (Stark x Doppler at T_e) convolved with a Gaussian of FWHM sqrt(w_G^2 - w_D(T_e)^2), "
                 "w_G^2 = instrument^2 + w_D(T_gas)^2 (exact: Gaussians add in quadrature); T_gas = T_e for n_e >= 1e22 m^-3",
+        natural="each line also convolved with its natural Lorentzian, FWHM (Gamma_u + Gamma_2)/(2 pi) "
+                "(natural_fwhm_nm per line; the tables hold none)",
         continuum="c0 (1 + %.4f v + %.4f v^2), v = (lambda - 540 nm)/300 nm, c0 = %.4f x strongest line's peak photon density"
                   % (p["ca"], p["cb"], p["cfrac"]),
         continuum_expected_counts_mid_range=float(cont_pix[cont_pix.size // 2]),
