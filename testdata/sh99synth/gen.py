@@ -44,18 +44,34 @@ Physics, step by step
    coefficients), nu = c/lambda_vac, density per nm from |d nu/d lambda|;
    so the profile is exactly symmetric in frequency (slightly asymmetric in
    wavelength, as real lines are).
-2. Doppler. The tables already hold Doppler broadening at T = 10^4 K,
-   w_D(T) = lambda * sqrt(8 k T ln2 / (M c^2)), M = 1.00794 u (the emitter
-   H). A real line is Stark (x) Doppler(T_gas) (x) instrument, i.e. Stark
-   (x) a Gaussian of FWHM w_G = sqrt(w_inst^2 + w_D(T_gas)^2). Whenever
-   w_G >= w_D(10^4 K), that equals table (x) Gaussian(sqrt(w_G^2 -
-   w_D(10^4 K)^2)) exactly (Gaussians convolve in quadrature), so the
-   tables' Doppler part is *replaced* by the true total Gaussian without
-   any deconvolution. The spectrometer types are chosen so that this
-   holds for every line (the hires type observes only Hbeta, whose
-   10^4 K Doppler FWHM is 0.035 nm < 0.04 nm instrument FWHM); the script
-   stops if it does not. This is the "remove the tables' Doppler part
+2. Doppler and natural width. The tables already hold Doppler broadening
+   at T = 10^4 K, w_D(T) = lambda * sqrt(8 k T ln2 / (M c^2)),
+   M = 1.00794 u (the emitter H). A real line is Stark (x) Doppler(T_gas)
+   (x) instrument (x) natural Lorentzian (below), i.e. Stark (x) a
+   Gaussian of FWHM w_G = sqrt(w_inst^2 + w_D(T_gas)^2) (x) that
+   Lorentzian. Whenever w_G >= w_D(10^4 K), that equals table (x)
+   Gaussian(sqrt(w_G^2 - w_D(10^4 K)^2)) (x) Lorentzian exactly
+   (Gaussians convolve in quadrature), so the tables' Doppler part is
+   *replaced* by the true total Gaussian without any deconvolution. The
+   spectrometer types are chosen so that this holds for every line (the
+   hires type observes only Hbeta, whose 10^4 K Doppler FWHM is
+   0.035 nm < 0.04 nm instrument FWHM); the script stops if it does not. This is the "remove the tables' Doppler part
    consistently" choice of physics.md section 4.5, done exactly.
+   Natural (radiative) broadening: the tables hold Stark (electrons and
+   ions) and Doppler broadening only, and every real line also has its
+   natural Lorentzian, FWHM Delta nu = (Gamma_u + Gamma_2)/(2 pi) with
+   Gamma_n the total decay rate of level n, its l-substates statistically
+   populated (Gamma_n = sum over n' < n of the n-averaged A(n -> n'),
+   computed exactly from the Gordon (1929) radial integrals: physics.md
+   section 1.4; they reproduce the A values typed in below to 2e-5 (the
+   script stops beyond 2e-4), and physics.md section 5.2's Gamma_2 ...
+   Gamma_5). The same code and physics as testdata/wholesynth/gen.py.
+   FWHM: Halpha 1.303e-4 nm, Hbeta 6.28e-5 nm, Hgamma 4.82e-5 nm,
+   Hdelta 4.24e-5 nm, Hepsilon 3.96e-5 nm. Negligible in the cores, but
+   at the lowest density node used, 1e20 m^-3, Halpha's tabulated wing
+   0.2-2 nm out is that of a Lorentzian of only 0.0036-0.0014 nm, so the
+   natural wing adds 4-10 % there (Hbeta 0.6-1.5 %, 3.162e20 m^-3:
+   Halpha 1-3 %, Hbeta 0.2-0.5 %; higher members and densities less).
 3. Line areas. LTE (Boltzmann) population of the upper levels at T_exc,
    photon units: area ~ g_k A_k2 exp(-E_k / k T_exc). Line data: NIST ASD
    observed air wavelengths; E_k from the NIST level centroids (n = 3-6,
@@ -68,9 +84,12 @@ Physics, step by step
    have (a simplification: no blending from H8 into Hepsilon).
 4. Continuum: a smooth, slightly curved continuum (a few per cent of the
    strongest line's peak), the same kind of photons as the lines.
-5. Instrument: a Gaussian of constant FWHM in nm across the range,
-   convolved numerically (scipy.signal.fftconvolve) on a fine uniform grid
-   (step <= 1/20 of the narrowest width present).
+5. Instrument: a Gaussian of constant FWHM in nm across the range. The
+   remaining Gaussian of step 2 and the natural Lorentzian are applied per
+   line by FFT on a fine uniform grid (step <= 1/20 of the narrowest table
+   FWHM or instrument width present), multiplying the transform by the
+   exact Gaussian and Lorentzian transfer functions exp(-2 pi^2 sigma^2 f^2
+   - pi w_L |f|) with zero padding (voigt_convolve).
 6. Response: the photon spectrum is multiplied by a smooth relative
    response R(lambda) (written to response_<type>.csv at 0.5 nm steps;
    linear interpolation of that file differs from R by < 2e-5 relative).
@@ -88,18 +107,20 @@ Physics, step by step
 
 Truth files record every input and, per line, the area, the widths
 measured on the fine model (table FWHM at the node, total FWHM after the
-instrument) and the peak of the expected counts.
+instrument and the natural width), the Gaussian exchanged, the natural
+FWHM and the peak of the expected counts.
 """
 import gzip
 import json
 import os
+from fractions import Fraction
+from math import factorial
 
 import numpy as np
 import scipy
 from scipy import constants as sc
 from scipy.integrate import cumulative_trapezoid, simpson
 from scipy.interpolate import PchipInterpolator
-from scipy.signal import fftconvolve
 
 HERE = os.path.dirname(os.path.abspath(__file__))
 TABLE = os.path.join(HERE, "..", "..", "diag", "sh99", "data", "stehle-hutcheon-1999-balmer.json.gz")
@@ -138,6 +159,76 @@ TYPES = {
                    peak=(15000.0, 40000.0), tgas=(500.0, 2500.0), uppers=[3, 4, 5, 6, 7], resp=(520.0, 220.0, -0.15),
                    digits=5),
 }
+
+
+# Natural width (docstring step 2): each level's total decay rate from the
+# Gordon (1929) radial integrals, the same code and physics as
+# testdata/wholesynth/gen.py (physics.md sections 1.4 and 5.2).
+
+
+def _hyp2f1_terminating(a, b, c, x):
+    """Gauss 2F1(a, b; c; x) for a or b a non-positive integer (a finite
+    polynomial), exactly in rationals."""
+    term, total, k = Fraction(1), Fraction(1), 0
+    while True:
+        term = term * (a + k) * (b + k) / ((c + k) * (k + 1)) * x
+        k += 1
+        if term == 0:
+            return total
+        total += term
+
+
+def _gordon_r2(n, l, n2):
+    """Square of the radial dipole integral <n, l | r | n2, l-1> in units of
+    the (reduced) Bohr radius, exactly (Gordon 1929; Bethe & Salpeter,
+    Quantum Mechanics of One- and Two-Electron Atoms, section 63)."""
+    nr, nr2 = n - l - 1, n2 - l
+    x = Fraction(-4 * n * n2, (n - n2) ** 2)
+    brace = (_hyp2f1_terminating(-nr, -nr2, 2 * l, x)
+             - Fraction(n - n2, n + n2) ** 2 * _hyp2f1_terminating(-nr - 2, -nr2, 2 * l, x))
+    pre = (Fraction(factorial(n + l) * factorial(n2 + l - 1), factorial(n - l - 1) * factorial(n2 - l))
+           / (4 * factorial(2 * l - 1)) ** 2)
+    return (pre * Fraction(4 * n * n2) ** (2 * l + 2) * Fraction(n - n2) ** (2 * (n + n2 - 2 * l - 2))
+            / Fraction(n + n2) ** (2 * (n + n2)) * brace ** 2)
+
+
+ME_MP = sc.m_e / sc.m_p
+R_H_PER_M = sc.Rydberg / (1 + ME_MP)  # hydrogen Rydberg (reduced mass)
+
+
+def einstein_a_nn(n, n2):
+    """n-averaged Einstein A of hydrogen n -> n2 < n, s^-1: the line
+    strength summed over l, m and spin from the Gordon integrals,
+    S = 2 sum_l [l R^2(n,l; n2,l-1) + l R^2(n2,l; n,l-1)], times the
+    reduced-mass factor (1 + m_e/m_p)^2 (atomic units), then
+    A = 2.02613e18 S / (g_n lambda^3[Angstrom]) with lambda (vacuum) from
+    the reduced-mass Rydberg. These reproduce NIST's A values (the
+    Balmer values typed in LINES; checked in natural_fwhm_nm)."""
+    s = Fraction(0)
+    for l in range(1, min(n - 1, n2) + 1):
+        s += l * _gordon_r2(n, l, n2)
+    for l in range(1, n2):
+        s += l * _gordon_r2(n2, l, n)
+    s = 2 * float(s) * (1 + ME_MP) ** 2
+    lam_a = 1e10 / (R_H_PER_M * (1.0 / n2 ** 2 - 1.0 / n ** 2))
+    return 2.02613e18 * s / (2 * n * n * lam_a ** 3)
+
+
+def decay_rate(n):
+    """Total radiative decay rate of level n, s^-1, its l-substates
+    statistically populated: Gamma_n = sum over n2 < n of A(n -> n2)."""
+    return sum(einstein_a_nn(n, n2) for n2 in range(1, n))
+
+
+def natural_fwhm_nm(u, lam_air_nm):
+    """Natural (radiative) Lorentzian FWHM of the Balmer line u -> 2 in air
+    nm: Delta nu = (Gamma_u + Gamma_2)/(2 pi), Delta lambda_air =
+    Delta nu lambda_air^2 n_air / c (step 2)."""
+    a = einstein_a_nn(u, 2)
+    if abs(a / LINES[u][4] - 1) > 2e-4:
+        raise SystemExit("A(%d->2) = %.6g from the Gordon integrals, the table has %.6g" % (u, a, LINES[u][4]))
+    dnu = (decay_rate(u) + decay_rate(2)) / (2 * np.pi)
+    return dnu * (lam_air_nm * 1e-9) ** 2 * n_air(lam_air_nm) / sc.c * 1e9
 
 
 def n_air(lam_air_nm):
@@ -207,11 +298,31 @@ def fwhm_on_grid(xg, yg):
 
 
 def gauss_kernel(fwhm, h):
+    """Unit-sum sampled Gaussian of the given FWHM on step h, to 7 sigma
+    (used by profile_check.py; gen.py itself convolves with
+    voigt_convolve)."""
     sig = fwhm / (2 * np.sqrt(2 * np.log(2)))
     m = int(np.ceil(7 * sig / h))
     t = np.arange(-m, m + 1) * h
     g = np.exp(-0.5 * (t / sig) ** 2)
     return g / g.sum()
+
+
+def voigt_convolve(y, h, fwhm, lor_fwhm):
+    """Convolution with a unit-area Gaussian of FWHM fwhm and a unit-area
+    Lorentzian of FWHM lor_fwhm on a uniform grid of step h: exact transfer
+    functions exp(-2 pi^2 sigma^2 f^2) exp(-pi lor_fwhm |f|), zero-padded
+    FFT (as testdata/wholesynth/gen.py). The transform is circular: the
+    Lorentzian's wing beyond the period P = n h folds back, a density of
+    about pi lor_fwhm/(6 P^2) of the area per nm (P > 30 nm here: below
+    2e-6 of the area over the grid)."""
+    sig = fwhm / (2 * np.sqrt(2 * np.log(2)))
+    padn = int(np.ceil(10 * sig / h))
+    n = 1 << int(np.ceil(np.log2(y.size + 2 * padn)))
+    f = np.fft.rfftfreq(n, d=h)
+    yt = np.fft.rfft(y, n)
+    out = np.fft.irfft(yt * np.exp(-2 * np.pi ** 2 * sig ** 2 * f ** 2 - np.pi * lor_fwhm * f), n)
+    return out[: y.size]
 
 
 def response(cfg, lam):
@@ -261,13 +372,13 @@ def make_spectrum(table, tname, cfg, ne_m3, texc, tgas, peak_adu, seed):
         if wg < wd_table:
             raise SystemExit("%s: Gaussian FWHM %.4g nm below the tables' Doppler FWHM %.4g nm at %s" % (tname, wg, wd_table, name))
         wx = np.sqrt(wg ** 2 - wd_table ** 2)
-        if wx > 2 * h:
-            prof = fftconvolve(prof, gauss_kernel(wx, h), mode="same")
+        wn = natural_fwhm_nm(u, lam_air)
+        prof = voigt_convolve(prof, h, wx, wn)
         line = area * prof
         photons += line
         info.append(dict(upper_level=u, name=name, center_air_nm=lam_air, photon_area=area,
                          table_fwhm_nm=table_fwhm, table_doppler_fwhm_nm=wd_table, gauss_fwhm_nm=wg,
-                         exchange_gauss_fwhm_nm=wx, total_fwhm_nm=fwhm_on_grid(fine, prof),
+                         exchange_gauss_fwhm_nm=wx, natural_fwhm_nm=wn, total_fwhm_nm=fwhm_on_grid(fine, prof),
                          table_raw_area=nd.raw_area, fraction_in_range=None, _line=line))
     # continuum: a few per cent of the strongest line's peak density
     strongest = max(info, key=lambda d: d["_line"].max())
@@ -338,6 +449,8 @@ def main():
                     gain_e_per_count=cfg["gain"], read_noise_e=cfg["read"], peak_expected_counts=peak,
                     seed=seed, doppler="table (Stark x Doppler at 1e4 K) convolved with a Gaussian of FWHM "
                     "sqrt(w_G^2 - w_D(1e4 K)^2), w_G^2 = instrument^2 + Doppler(T_gas)^2",
+                    natural="each line also convolved with its natural Lorentzian, FWHM (Gamma_u + Gamma_2)/(2 pi) "
+                    "(natural_fwhm_nm per line; the tables hold none)",
                     continuum="c0 (1 + 0.4 v + 0.3 v^2), v = (lambda - mid)/span, c0 = %.4f x strongest line's peak photon density" % extra["continuum_fraction"],
                     fine_step_nm=extra["fine_step_nm"], lines=info)
                 with open(os.path.join(HERE, base + ".truth.json"), "w") as f:
