@@ -219,10 +219,13 @@ func mustPerturber(t testing.TB, name string) diag.Perturber {
 // physics) measured on its fine model and wrote into its truth files
 // (lines[].total_fwhm_nm), for every line of the t1 spectra of all three
 // spectrometer types and densities. The Go line is made alone on a
-// 0.0005 nm axis (no perturber: the natural width, ~1e-5 nm, is the only
-// extra Lorentzian); its FWHM is read off by linear interpolation at half
-// maximum. Agreement within 0.5 % (the two interpolations of the table in
-// detuning differ; measured worst 0.23 % over the 48 lines).
+// 0.0005 nm axis (no perturber: the natural width, 4e-5–1.3e-4 nm, is the
+// only extra Lorentzian; gen.py has convolved its lines with the same
+// natural width since 2026-12-03, +0.06 % on the narrowest FWHM); its
+// FWHM is read off by linear interpolation at half maximum. Agreement
+// within 0.5 % (the two interpolations of the table in detuning differ;
+// measured worst 0.23 % over the 48 lines, before and after gen.py took
+// the natural width).
 func TestSynthesizeStarkFWHMScipy(t *testing.T) {
 	files, err := filepath.Glob("../../testdata/sh99synth/*_t1.truth.json")
 	if err != nil || len(files) == 0 {
