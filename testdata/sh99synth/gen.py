@@ -297,17 +297,6 @@ def fwhm_on_grid(xg, yg):
     return xr - xl
 
 
-def gauss_kernel(fwhm, h):
-    """Unit-sum sampled Gaussian of the given FWHM on step h, to 7 sigma
-    (used by profile_check.py; gen.py itself convolves with
-    voigt_convolve)."""
-    sig = fwhm / (2 * np.sqrt(2 * np.log(2)))
-    m = int(np.ceil(7 * sig / h))
-    t = np.arange(-m, m + 1) * h
-    g = np.exp(-0.5 * (t / sig) ** 2)
-    return g / g.sum()
-
-
 def voigt_convolve(y, h, fwhm, lor_fwhm):
     """Convolution with a unit-area Gaussian of FWHM fwhm and a unit-area
     Lorentzian of FWHM lor_fwhm on a uniform grid of step h: exact transfer
