@@ -169,8 +169,7 @@ noise at that pixel), and the fraction of its area inside the range.
 import gzip
 import json
 import os
-from fractions import Fraction
-from math import factorial
+import sys
 
 import numpy as np
 import scipy
@@ -215,58 +214,10 @@ GROUPS = {
 }
 
 
-def _hyp2f1_terminating(a, b, c, x):
-    """Gauss 2F1(a, b; c; x) for a or b a non-positive integer (a finite
-    polynomial), exactly in rationals."""
-    term, total, k = Fraction(1), Fraction(1), 0
-    while True:
-        term = term * (a + k) * (b + k) / ((c + k) * (k + 1)) * x
-        k += 1
-        if term == 0:
-            return total
-        total += term
-
-
-def _gordon_r2(n, l, n2):
-    """Square of the radial dipole integral <n, l | r | n2, l-1> in units of
-    the (reduced) Bohr radius, exactly (Gordon 1929; Bethe & Salpeter,
-    Quantum Mechanics of One- and Two-Electron Atoms, section 63)."""
-    nr, nr2 = n - l - 1, n2 - l
-    x = Fraction(-4 * n * n2, (n - n2) ** 2)
-    brace = (_hyp2f1_terminating(-nr, -nr2, 2 * l, x)
-             - Fraction(n - n2, n + n2) ** 2 * _hyp2f1_terminating(-nr - 2, -nr2, 2 * l, x))
-    pre = (Fraction(factorial(n + l) * factorial(n2 + l - 1), factorial(n - l - 1) * factorial(n2 - l))
-           / (4 * factorial(2 * l - 1)) ** 2)
-    return (pre * Fraction(4 * n * n2) ** (2 * l + 2) * Fraction(n - n2) ** (2 * (n + n2 - 2 * l - 2))
-            / Fraction(n + n2) ** (2 * (n + n2)) * brace ** 2)
-
-
-ME_MP = sc.m_e / sc.m_p
-R_H_PER_M = sc.Rydberg / (1 + ME_MP)  # hydrogen Rydberg (reduced mass)
-
-
-def einstein_a_nn(n, n2):
-    """n-averaged Einstein A of hydrogen n -> n2 < n, s^-1: the line
-    strength summed over l, m and spin from the Gordon integrals,
-    S = 2 sum_l [l R^2(n,l; n2,l-1) + l R^2(n2,l; n,l-1)], times the
-    reduced-mass factor (1 + m_e/m_p)^2 (atomic units), then
-    A = 2.02613e18 S / (g_n lambda^3[Angstrom]) with lambda (vacuum) from
-    the reduced-mass Rydberg. These reproduce NIST's A values (the
-    Balmer values typed in LINES; checked in natural_fwhm_nm)."""
-    s = Fraction(0)
-    for l in range(1, min(n - 1, n2) + 1):
-        s += l * _gordon_r2(n, l, n2)
-    for l in range(1, n2):
-        s += l * _gordon_r2(n2, l, n)
-    s = 2 * float(s) * (1 + ME_MP) ** 2
-    lam_a = 1e10 / (R_H_PER_M * (1.0 / n2 ** 2 - 1.0 / n ** 2))
-    return 2.02613e18 * s / (2 * n * n * lam_a ** 3)
-
-
-def decay_rate(n):
-    """Total radiative decay rate of level n, s^-1, its l-substates
-    statistically populated: Gamma_n = sum over n2 < n of A(n -> n2)."""
-    return sum(einstein_a_nn(n, n2) for n2 in range(1, n))
+# The Gordon (1929) decay rates, shared with the other check-set
+# generator (testdata/scipy/gordon.py).
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "scipy"))
+from gordon import decay_rate, einstein_a_nn  # noqa: E402
 
 
 def natural_fwhm_nm(u, lam_air_nm):
