@@ -165,32 +165,10 @@ TYPES = {
 # testdata/wholesynth/gen.py (physics.md sections 1.4 and 5.2).
 
 
-# The Gordon (1929) decay rates, shared with the other check-set
-# generator (testdata/scipy/gordon.py).
+# The natural width from the Gordon (1929) decay rates, shared with the other check-set
+# generator (testdata/scipy/natural_width.py).
 sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "scipy"))
-from gordon import decay_rate, einstein_a_nn  # noqa: E402
-
-
-def natural_fwhm_nm(u, lam_air_nm):
-    """Natural (radiative) Lorentzian FWHM of the Balmer line u -> 2 in air
-    nm: Delta nu = (Gamma_u + Gamma_2)/(2 pi), Delta lambda_air =
-    Delta nu lambda_air^2 n_air / c (step 2)."""
-    a = einstein_a_nn(u, 2)
-    if abs(a / LINES[u][4] - 1) > 2e-4:
-        raise SystemExit("A(%d->2) = %.6g from the Gordon integrals, the table has %.6g" % (u, a, LINES[u][4]))
-    dnu = (decay_rate(u) + decay_rate(2)) / (2 * np.pi)
-    return dnu * (lam_air_nm * 1e-9) ** 2 * n_air(lam_air_nm) / sc.c * 1e9
-
-
-def n_air(lam_air_nm):
-    """Refractive index of standard air at an air wavelength (IAU/Morton 2000
-    forward formula, iterated on the vacuum wavelength)."""
-    lv = lam_air_nm
-    for _ in range(4):
-        s2 = (1e3 / lv) ** 2  # (10^4/lambda[A])^2 = (1000/lambda[nm])^2 in um^-2
-        n = 1 + 8.34254e-5 + 2.406147e-2 / (130 - s2) + 1.5998e-4 / (38.9 - s2)
-        lv = lam_air_nm * n
-    return n
+from natural_width import n_air, natural_fwhm_nm, voigt_convolve  # noqa: E402
 
 
 def doppler_fwhm(lam_nm, t_k):
@@ -248,23 +226,6 @@ def fwhm_on_grid(xg, yg):
     return xr - xl
 
 
-def voigt_convolve(y, h, fwhm, lor_fwhm):
-    """Convolution with a unit-area Gaussian of FWHM fwhm and a unit-area
-    Lorentzian of FWHM lor_fwhm on a uniform grid of step h: exact transfer
-    functions exp(-2 pi^2 sigma^2 f^2) exp(-pi lor_fwhm |f|), zero-padded
-    FFT (as testdata/wholesynth/gen.py). The transform is circular: the
-    Lorentzian's wing beyond the period P = n h folds back, a density of
-    about pi lor_fwhm/(6 P^2) of the area per nm (P > 30 nm here: below
-    2e-6 of the area over the grid)."""
-    sig = fwhm / (2 * np.sqrt(2 * np.log(2)))
-    padn = int(np.ceil(10 * sig / h))
-    n = 1 << int(np.ceil(np.log2(y.size + 2 * padn)))
-    f = np.fft.rfftfreq(n, d=h)
-    yt = np.fft.rfft(y, n)
-    out = np.fft.irfft(yt * np.exp(-2 * np.pi ** 2 * sig ** 2 * f ** 2 - np.pi * lor_fwhm * f), n)
-    return out[: y.size]
-
-
 def response(cfg, lam):
     c, w, tilt = cfg["resp"]
     u = (lam - c) / w
@@ -312,7 +273,7 @@ def make_spectrum(table, tname, cfg, ne_m3, texc, tgas, peak_adu, seed):
         if wg < wd_table:
             raise SystemExit("%s: Gaussian FWHM %.4g nm below the tables' Doppler FWHM %.4g nm at %s" % (tname, wg, wd_table, name))
         wx = np.sqrt(wg ** 2 - wd_table ** 2)
-        wn = natural_fwhm_nm(u, lam_air)
+        wn = natural_fwhm_nm(u, lam_air, LINES[u][4])
         prof = voigt_convolve(prof, h, wx, wn)
         line = area * prof
         photons += line

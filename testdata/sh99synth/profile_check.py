@@ -49,7 +49,7 @@ for u in (3, 4, 5):
     prof = nd.per_hz(nu - nu0) * sc.c * n / (lam_vac * 1e-9) ** 2 * 1e-9
     wg = np.hypot(INST_NM, gen.doppler_fwhm(lam_air, TGAS_K))
     wx = np.sqrt(wg ** 2 - gen.doppler_fwhm(lam_air, gen.T_TABLE) ** 2)
-    prof = gen.voigt_convolve(prof, STEP, wx, gen.natural_fwhm_nm(u, lam_air))
+    prof = gen.voigt_convolve(prof, STEP, wx, gen.natural_fwhm_nm(u, lam_air, gen.LINES[u][4]))
     vals = [0.5 * (np.interp(lam_air + d, fine, prof) + np.interp(lam_air - d, fine, prof)) for d in DETUNINGS]
     out["lines"].append({"upper_level": u, "profile_per_nm": [float(v) for v in vals]})
 json.dump(out, sys.stdout, indent=1)

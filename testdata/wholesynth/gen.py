@@ -214,32 +214,10 @@ GROUPS = {
 }
 
 
-# The Gordon (1929) decay rates, shared with the other check-set
-# generator (testdata/scipy/gordon.py).
+# The natural width from the Gordon (1929) decay rates, shared with the other check-set
+# generator (testdata/scipy/natural_width.py).
 sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "scipy"))
-from gordon import decay_rate, einstein_a_nn  # noqa: E402
-
-
-def natural_fwhm_nm(u, lam_air_nm):
-    """Natural (radiative) Lorentzian FWHM of the Balmer line u -> 2 in air
-    nm: Delta nu = (Gamma_u + Gamma_2)/(2 pi), Delta lambda_air =
-    Delta nu lambda_air^2 n_air / c (step 4)."""
-    a = einstein_a_nn(u, 2)
-    if abs(a / LINES[u][4] - 1) > 2e-4:
-        raise SystemExit("A(%d->2) = %.6g from the Gordon integrals, the table has %.6g" % (u, a, LINES[u][4]))
-    dnu = (decay_rate(u) + decay_rate(2)) / (2 * np.pi)
-    return dnu * (lam_air_nm * 1e-9) ** 2 * n_air(lam_air_nm) / sc.c * 1e9
-
-
-def n_air(lam_air_nm):
-    """Refractive index of standard air at an air wavelength (IAU / Morton
-    2000 vacuum-to-air formula, iterated on the vacuum wavelength)."""
-    lv = lam_air_nm
-    for _ in range(4):
-        s2 = (1e3 / lv) ** 2
-        n = 1 + 8.34254e-5 + 2.406147e-2 / (130 - s2) + 1.5998e-4 / (38.9 - s2)
-        lv = lam_air_nm * n
-    return n
+from natural_width import n_air, natural_fwhm_nm, voigt_convolve  # noqa: E402
 
 
 def doppler_fwhm(lam_nm, t_k):
@@ -350,23 +328,6 @@ class LineModel:
         return per_hz, hz, dict(nodes_cm3=[a.ne_cm3, b.ne_cm3], weight_log_ne=w)
 
 
-def voigt_convolve(y, h, fwhm, lor_fwhm):
-    """Convolution with a unit-area Gaussian of FWHM fwhm and a unit-area
-    Lorentzian of FWHM lor_fwhm on a uniform grid of step h: exact transfer
-    functions exp(-2 pi^2 sigma^2 f^2) exp(-pi lor_fwhm |f|), zero-padded
-    FFT. The transform is circular: the Lorentzian's wing beyond the
-    period P = n h folds back, a density of about pi lor_fwhm/(6 P^2) of
-    the area per nm (P > 20 nm here: below 1e-5 of the area over the
-    grid)."""
-    sig = fwhm / (2 * np.sqrt(2 * np.log(2)))
-    padn = int(np.ceil(10 * sig / h))
-    n = 1 << int(np.ceil(np.log2(y.size + 2 * padn)))
-    f = np.fft.rfftfreq(n, d=h)
-    yt = np.fft.rfft(y, n)
-    out = np.fft.irfft(yt * np.exp(-2 * np.pi ** 2 * sig ** 2 * f ** 2 - np.pi * lor_fwhm * f), n)
-    return out[: y.size]
-
-
 def pixel_edges(lam):
     return np.concatenate([[lam[0] - (lam[1] - lam[0]) / 2], (lam[1:] + lam[:-1]) / 2,
                            [lam[-1] + (lam[-1] - lam[-2]) / 2]])
@@ -462,7 +423,7 @@ def make_spectrum(models, name, group, cfg, p, rng):
         # the table profile's FWHM on the fine grid where it lies inside it
         inside_c = fine[0] + 5 * hz_to_nm(hz, lam0) < lam0 < fine[-1] - 5 * hz_to_nm(hz, lam0)
         table_fwhm = fwhm_on_grid(fine, prof) if inside_c else 2 * hz_to_nm(hz, lam0)
-        wn = natural_fwhm_nm(u, lam0)
+        wn = natural_fwhm_nm(u, lam0, LINES[u][4])
         conv = voigt_convolve(prof, h, wx, wn)
         lines[u] = area * conv
         info.append(dict(upper_level=u, name=lname, center_air_nm=lam0, E_k_eV=ek, g_k=g, A_per_s=a,
