@@ -65,6 +65,10 @@ func UserCommand(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 	}
 	defer db.Close()
 	u, err := db.CreateUser(ctx, pos[0], role, hash)
+	if store.IsBusy(err) {
+		fmt.Fprintf(stderr, "glowlog user add: %s: nothing was stored, run the command again\n", busyMessage(*dbPath))
+		return ExitError
+	}
 	if err != nil {
 		fmt.Fprintf(stderr, "glowlog user add: %s\n", server.PlainStoreError(err))
 		if errors.Is(err, store.ErrInvalid) || errors.Is(err, store.ErrConflict) {
@@ -119,11 +123,21 @@ func TokenCommand(args []string, stdout, stderr io.Writer) int {
 		return ExitInput
 	}
 	tok, h := server.NewToken()
-	if _, err := db.CreateToken(ctx, u.ID, strings.TrimSpace(*label), h); err != nil {
+	if _, err := db.CreateToken(ctx, u.ID, strings.TrimSpace(*label), h); store.IsBusy(err) {
+		fmt.Fprintf(stderr, "glowlog token create: %s: no token was made, run the command again\n", busyMessage(*dbPath))
+		return ExitError
+	} else if err != nil {
 		fmt.Fprintf(stderr, "glowlog token create: %v\n", err)
 		return ExitError
 	}
 	fmt.Fprintln(stdout, tok)
 	fmt.Fprintf(stderr, "glowlog: new API token for %q printed above; it is shown only this once\n", u.Name)
 	return ExitOK
+}
+
+// busyMessage says why a write to path found the database locked: another
+// process kept writing for longer than the busy timeout, most often a
+// server's first start while it stores the demo scenario (about 15 s).
+func busyMessage(path string) string {
+	return fmt.Sprintf("%s was busy for 5 s (another glowlog process is writing to it, e.g. a server's first start storing the demo runs)", path)
 }
