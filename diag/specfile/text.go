@@ -539,8 +539,8 @@ rows:
 // ascRows is plainRows' loop for an ascending axis, x first and lines
 // of up to 34 bytes allowed (maxLen ≥ 34), restricted to rows of its
 // fast form ("I.F<d>I.F" or "I.F<d>I", 1–7 digits before each point,
-// 0–7 after, ending with "\n" or "\r\n") that continue the order: the same values, bit for bit, by the same
-// operations. With fewer variables live than plainRows' loop, the
+// 0–7 after, ending with "\n" or "\r\n") that continue the order: the
+// same values, bit for bit, by the same operations. With fewer variables live than plainRows' loop, the
 // compiler keeps them in registers. From pos, with n points in xs and ys
 // (whose length is the point limit) and last the last x, it reads rows
 // until one is not of that form, is out of order, or would pass the
