@@ -5,8 +5,6 @@ import (
 	"fmt"
 	"math/rand/v2"
 	"os"
-	"strconv"
-	"strings"
 	"testing"
 
 	"glowlog/diag/spectrum"
@@ -126,32 +124,8 @@ func benchSettingsJSON(rt benchRoute) string {
 	return string(js)
 }
 
-// reportCheckpoints reports the writer's share of the WAL checkpoints
-// (store/checkpoint.go) over n spectra: restart-ms/spectrum is the time
-// the writer spent in RESTART checkpoints, restarts-failed how many of
-// them ran out of time waiting for readers.
-// procWrites returns the bytes this process has passed to write system
-// calls (files and sockets alike) and the number of those calls, from
-// /proc/self/io (zeros where there is none).
-func procWrites() (bytes, calls int64) {
-	data, err := os.ReadFile("/proc/self/io")
-	if err != nil {
-		return 0, 0
-	}
-	for _, line := range strings.Split(string(data), "\n") {
-		k, v, _ := strings.Cut(line, ": ")
-		switch k {
-		case "wchar":
-			bytes, _ = strconv.ParseInt(v, 10, 64)
-		case "syscw":
-			calls, _ = strconv.ParseInt(v, 10, 64)
-		}
-	}
-	return bytes, calls
-}
-
 // reportWrites reports bytes and calls, the write system calls of the
-// timed part (procWrites' differences), per spectrum:
+// timed part (procio.Writes' differences), per spectrum:
 // written-kB/spectrum and write-calls/spectrum (the database's WAL,
 // checkpoints and journals; in the ingest benchmark also the HTTP
 // requests and answers). Unlike the times they do not depend on the
@@ -163,6 +137,10 @@ func reportWrites(b *testing.B, bytes, calls int64, n float64) {
 	}
 }
 
+// reportCheckpoints reports the writer's share of the WAL checkpoints
+// (store/checkpoint.go) over n spectra: restart-ms/spectrum is the time
+// the writer spent in RESTART checkpoints, restarts-failed how many of
+// them ran out of time waiting for readers.
 func reportCheckpoints(b *testing.B, db *store.DB, n float64) {
 	cs := db.CheckpointStats()
 	b.ReportMetric(cs.RestartTime.Seconds()*1000/n, "restart-ms/spectrum")

@@ -11,6 +11,7 @@ import (
 
 	"glowlog/diag/spectrum"
 	"glowlog/store"
+	"glowlog/store/procio"
 )
 
 // BenchmarkBulkReanalysis measures a bulk reanalysis job over 10 000
@@ -90,11 +91,11 @@ func benchBulkReanalysis(b *testing.B, rt benchRoute) {
 		if err != nil {
 			b.Fatal(err)
 		}
-		wb0, wc0 := procWrites()
+		wb0, wc0 := procio.Writes()
 		start, cpu0 := time.Now(), cpuTime()
 		jr.run(ctx, job)
 		el, cpu = el+time.Since(start), cpu+cpuTime()-cpu0
-		wb1, wc1 := procWrites()
+		wb1, wc1 := procio.Writes()
 		wb, wc = wb+wb1-wb0, wc+wc1-wc0
 		if job, err = db.Job(ctx, job.ID); err != nil || job.Done != runs {
 			b.Fatalf("job: %+v %v", job, err)

@@ -19,6 +19,7 @@ import (
 	"time"
 
 	"glowlog/store"
+	"glowlog/store/procio"
 )
 
 // BenchmarkAPIIngest measures sustained ingest through the JSON API over
@@ -166,7 +167,7 @@ func benchAPIIngest(b *testing.B, rt benchRoute, syncMode string, perRequest int
 	var wg sync.WaitGroup
 	w0, c0, busy0 := db.GroupStats()
 	b.ResetTimer()
-	wb0, wc0 := procWrites()
+	wb0, wc0 := procio.Writes()
 	start, cpu0 := time.Now(), cpuTime()
 	for range workers {
 		wg.Add(1)
@@ -204,7 +205,7 @@ func benchAPIIngest(b *testing.B, rt benchRoute, syncMode string, perRequest int
 	wg.Wait()
 	el, cpu := time.Since(start), cpuTime()-cpu0
 	b.StopTimer()
-	wb1, wc1 := procWrites()
+	wb1, wc1 := procio.Writes()
 	n := float64(next.Load())
 	if n > float64(b.N) {
 		n = float64((b.N + perRequest - 1) / perRequest * perRequest) // whole batches

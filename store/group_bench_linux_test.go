@@ -4,9 +4,7 @@ import (
 	"context"
 	"database/sql"
 	"fmt"
-	"os"
-	"strconv"
-	"strings"
+	"glowlog/store/procio"
 	"syscall"
 	"testing"
 	"time"
@@ -64,7 +62,7 @@ func BenchmarkBulkVersions(b *testing.B) {
 				}
 			}
 			w0, c0, busy0 := d.GroupStats()
-			wb0, wc0 := benchProcWrites()
+			wb0, wc0 := procio.Writes()
 			cpu0 := benchCPU()
 			b.ResetTimer()
 			if with == "alone" {
@@ -86,7 +84,7 @@ func BenchmarkBulkVersions(b *testing.B) {
 			}
 			b.StopTimer()
 			cpu := benchCPU() - cpu0
-			wb1, wc1 := benchProcWrites()
+			wb1, wc1 := procio.Writes()
 			w1, c1, busy1 := d.GroupStats()
 			n := float64(b.N)
 			b.ReportMetric(cpu.Seconds()*1000/n, "cpu-ms/version")
@@ -105,23 +103,4 @@ func benchCPU() time.Duration {
 	var ru syscall.Rusage
 	syscall.Getrusage(syscall.RUSAGE_SELF, &ru)
 	return time.Duration(ru.Utime.Nano() + ru.Stime.Nano())
-}
-
-// benchProcWrites returns the process's bytes written and write calls so
-// far (/proc/self/io).
-func benchProcWrites() (bytes, calls int64) {
-	data, err := os.ReadFile("/proc/self/io")
-	if err != nil {
-		return 0, 0
-	}
-	for _, line := range strings.Split(string(data), "\n") {
-		k, v, _ := strings.Cut(line, ": ")
-		switch k {
-		case "wchar":
-			bytes, _ = strconv.ParseInt(v, 10, 64)
-		case "syscw":
-			calls, _ = strconv.ParseInt(v, 10, 64)
-		}
-	}
-	return bytes, calls
 }
