@@ -9,13 +9,10 @@ import (
 // TestWrites: writing a file of 1 MiB in 4 calls moves the counters by
 // at least that (on Linux; elsewhere they stay 0).
 func TestWrites(t *testing.T) {
-	b0, c0 := Writes()
-	if b0 == 0 {
-		if _, err := os.Stat("/proc/self/io"); err != nil {
-			t.Skip("no /proc/self/io here")
-		}
-		t.Fatal("no bytes written so far, though /proc/self/io exists")
+	if _, err := os.Stat("/proc/self/io"); err != nil {
+		t.Skip("no /proc/self/io here")
 	}
+	b0, c0 := Writes()
 	f, err := os.Create(filepath.Join(t.TempDir(), "w"))
 	if err != nil {
 		t.Fatal(err)
